@@ -1,0 +1,47 @@
+"""phaselab: explore the phase space of Hamiltonian systems.
+
+The model layer (``Hamiltonian``, ``AreaPreservingMap``, ``models``) is imported eagerly;
+numerics, export and widgets are imported on first use, so a script pays only for what it
+calls.
+"""
+
+__version__ = "0.1.0"
+
+from phaselab.errors import (ExpressionError, IntegrationError, ModelError,  # noqa: E402
+                             ParameterError, PhaselabError, StudyFileError)
+from phaselab.model.hamiltonian import Hamiltonian  # noqa: E402
+
+_LAZY = {
+    "AreaPreservingMap": "phaselab.model.maps",
+    "models": "phaselab.models",
+    "trajectory": "phaselab.compute.trajectory",
+    "Trajectory": "phaselab.compute.trajectory",
+    "shell_seeds": "phaselab.compute.seeds",
+    "ShellSeeds": "phaselab.compute.seeds",
+    "section": "phaselab.compute.section",
+    "Section": "phaselab.compute.section",
+    "level_set": "phaselab.compute.levels",
+    "LevelSet": "phaselab.compute.levels",
+    "equilibria": "phaselab.compute.equilibria",
+    "Equilibrium": "phaselab.compute.equilibria",
+    "lyapunov": "phaselab.compute.chaos",
+    "explore": "phaselab.widgets.explorer",
+}
+
+__all__ = ["Hamiltonian", "PhaselabError", "ExpressionError", "ModelError", "ParameterError",
+           "IntegrationError", "StudyFileError", "__version__", *_LAZY]
+
+
+def __getattr__(name):
+    if name in _LAZY:
+        import importlib
+
+        module = importlib.import_module(_LAZY[name])
+        value = module if name == "models" else getattr(module, name)
+        globals()[name] = value
+        return value
+    raise AttributeError(f"module 'phaselab' has no attribute {name!r}")
+
+
+def __dir__():
+    return sorted(__all__)

@@ -1,0 +1,294 @@
+"""The symbolic Hamiltonian system: H(q, p; params, t) and what follows from its form."""
+
+from __future__ import annotations
+
+import hashlib
+from functools import cached_property
+import numpy as np
+import sympy as sp
+
+from phaselab.errors import ModelError
+from phaselab.model.params import Parameter, make_parameters, resolve_values
+from phaselab.model.parser import parse_expression
+
+
+def as_symbols(items, what: str) -> tuple[sp.Symbol, ...]:
+    """Turn names or symbols into a tuple of sympy symbols (strings become real symbols)."""
+    if isinstance(items, (str, sp.Symbol)):
+        items = [items]
+    out = []
+    for item in items:
+        if isinstance(item, sp.Symbol):
+            out.append(item)
+        elif isinstance(item, str) and item.isidentifier() and not item.startswith("_"):
+            out.append(sp.Symbol(item, real=True))
+        else:
+            raise ModelError(f"{what} must be names or sympy symbols, got {item!r}")
+    return tuple(out)
+
+
+class Hamiltonian:
+    """A Hamiltonian system with ``n`` degrees of freedom.
+
+    Parameters
+    ----------
+    expr : sympy.Expr or str
+        H as a sympy expression, or as a string parsed by the safe parser
+        (:func:`phaselab.model.parser.parse_expression`).
+    coords, momenta : sequence of str or sympy.Symbol
+        The generalized coordinates and their conjugate momenta, in state order.
+    params : mapping, optional
+        Parameters with defaults, ``{"mu": 0.01}`` or ``{"mu": (0.01, (0.0, 0.1))}`` with a
+        slider range.
+    time : str or sympy.Symbol, optional
+        The time symbol when H depends on time explicitly.
+    period : float, str or sympy.Expr, optional
+        The driving period of an explicitly time-periodic H (may involve parameters); used
+        by stroboscopic sections.
+    name : str, optional
+        A label for plots and files.
+
+    Notes
+    -----
+    A state is ordered ``(q1..qn, p1..pn)``; a batch of states has shape ``(n_orbits, 2n)``.
+    """
+
+    kind = "flow"
+
+    def __init__(self, expr, coords, momenta, params=None, time=None, period=None, name=None):
+        self.coords = as_symbols(coords, "coordinates")
+        self.momenta = as_symbols(momenta, "momenta")
+        if len(self.coords) != len(self.momenta):
+            raise ModelError(
+                f"{len(self.coords)} coordinates but {len(self.momenta)} momenta; each coordinate needs one momentum")
+        if not self.coords:
+            raise ModelError("a Hamiltonian needs at least one coordinate")
+        self.time = as_symbols(time, "time")[0] if time is not None else None
+        names = [s.name for s in self.coords + self.momenta] + ([self.time.name] if self.time else [])
+        dupes = sorted({n for n in names if names.count(n) > 1})
+        if dupes:
+            raise ModelError(f"names used twice among coordinates, momenta and time: {', '.join(dupes)}")
+        self.parameters: tuple[Parameter, ...] = make_parameters(params, set(names))
+        known = {s.name: s for s in self.coords + self.momenta}
+        if self.time is not None:
+            known[self.time.name] = self.time
+        known.update({p.name: p.symbol for p in self.parameters})
+        self.expr = self._to_expr(expr, known, "Hamiltonian")
+        self.period = None
+        if period is not None:
+            self.period = self._to_expr(period, {p.name: p.symbol for p in self.parameters}, "period")
+            if self.time is None:
+                raise ModelError("a driving period was given but the Hamiltonian has no time symbol")
+        self.name = name or "H"
+
+    # ----------------------------------------------------------------- construction helpers
+    def _to_expr(self, expr, known: dict, what: str) -> sp.Expr:
+        if isinstance(expr, str):
+            expr = parse_expression(expr, symbols=known, allowed=set(known))
+        elif isinstance(expr, (int, float)):
+            expr = sp.sympify(float(expr))  # a plain number, not a user string
+        elif not isinstance(expr, sp.Expr):
+            raise ModelError(f"{what} must be a sympy expression or a string, got {type(expr).__name__}")
+        allowed = set(known.values())
+        unknown = sorted(s.name for s in expr.free_symbols if s not in allowed)
+        if unknown:
+            raise ModelError(
+                f"unknown symbols in the {what}: {', '.join(unknown)}; declare them as coordinates, "
+                "momenta, time or parameters")
+        return expr
+
+    @classmethod
+    def from_lagrangian(cls, L, coords, velocities, params=None, time=None, period=None, name=None,
+                        momenta=None) -> "Hamiltonian":
+        """Build H from a Lagrangian by the Legendre transform.
+
+        Parameters
+        ----------
+        L : sympy.Expr or str
+            The Lagrangian L(q, qdot; params, t).
+        coords, velocities : sequence of str or sympy.Symbol
+            The generalized coordinates and the symbols standing for their time derivatives.
+        momenta : sequence of str or sympy.Symbol, optional
+            Names for the conjugate momenta; default ``p_<coord>``.
+
+        Raises
+        ------
+        ModelError
+            If the Hessian of L in the velocities is singular (a degenerate Lagrangian) or
+            the momenta cannot be solved for the velocities.
+        """
+        from phaselab.model.lagrangian import legendre_transform
+
+        return legendre_transform(cls, L, coords, velocities, params=params, time=time,
+                                  period=period, name=name, momenta=momenta)
+
+    # ----------------------------------------------------------------- structure
+    @property
+    def dof(self) -> int:
+        """Number of degrees of freedom ``n``."""
+        return len(self.coords)
+
+    @property
+    def state_symbols(self) -> tuple[sp.Symbol, ...]:
+        """``(q1..qn, p1..pn)``."""
+        return self.coords + self.momenta
+
+    @property
+    def params(self) -> dict[str, float]:
+        """Parameter names with their default values."""
+        return {p.name: p.default for p in self.parameters}
+
+    @property
+    def param_symbols(self) -> tuple[sp.Symbol, ...]:
+        return tuple(p.symbol for p in self.parameters)
+
+    @property
+    def is_autonomous(self) -> bool:
+        """True when H has no explicit time dependence."""
+        return self.time is None or self.time not in self.expr.free_symbols
+
+    @cached_property
+    def is_separable(self) -> bool:
+        """True when H = T(p) + V(q) (time treated as a parameter).
+
+        Decided by d2H/dq_i dp_j == 0 for every pair, simplified symbolically.
+        """
+        for q in self.coords:
+            dq = sp.diff(self.expr, q)
+            for p in self.momenta:
+                mixed = sp.diff(dq, p)
+                if mixed != 0 and sp.simplify(mixed) != 0:
+                    return False
+        return True
+
+    @property
+    def cyclic_coordinates(self) -> tuple[sp.Symbol, ...]:
+        """Coordinates absent from H; their conjugate momenta are conserved."""
+        free = self.expr.free_symbols
+        return tuple(q for q in self.coords if q not in free)
+
+    def conserved(self) -> dict[str, sp.Expr]:
+        """Quantities conserved because of the form of H.
+
+        Returns
+        -------
+        dict of str to sympy.Expr
+            The momentum of each cyclic coordinate (dp/dt = -dH/dq = 0), each coordinate whose
+            conjugate momentum is absent from H (dq/dt = dH/dp = 0), and ``"H"`` itself when
+            the system is autonomous.
+        """
+        free = self.expr.free_symbols
+        out: dict[str, sp.Expr] = {}
+        for q, p in zip(self.coords, self.momenta):
+            if q not in free:
+                out[p.name] = p
+            if p not in free:
+                out[q.name] = q
+        if self.is_autonomous:
+            out["H"] = self.expr
+        return out
+
+    def equations(self) -> list[sp.Eq]:
+        """Hamilton's equations dq/dt = dH/dp, dp/dt = -dH/dq as sympy ``Eq`` objects."""
+        t = self.time if self.time is not None else sp.Symbol("t", real=True)
+        eqs = [sp.Eq(sp.Derivative(q, t), sp.diff(self.expr, p), evaluate=False)
+               for q, p in zip(self.coords, self.momenta)]
+        eqs += [sp.Eq(sp.Derivative(p, t), -sp.diff(self.expr, q), evaluate=False)
+                for q, p in zip(self.coords, self.momenta)]
+        return eqs
+
+    def vector_field(self) -> list[sp.Expr]:
+        """The right-hand side (dH/dp, -dH/dq) as a list of 2n expressions."""
+        return ([sp.diff(self.expr, p) for p in self.momenta]
+                + [-sp.diff(self.expr, q) for q in self.coords])
+
+    # ----------------------------------------------------------------- time dependence
+    def extended(self) -> "Hamiltonian":
+        """The autonomous system in extended phase space.
+
+        Time becomes a coordinate ``tau`` (named after the time symbol) with conjugate
+        momentum ``p_<tau>``, and K = H(q, p, tau) + p_tau. K is conserved along orbits; tau
+        advances at unit rate, so sections and integrators treat the result as autonomous.
+        An autonomous system is returned unchanged.
+        """
+        if self.is_autonomous:
+            return self
+        tau = self.time
+        p_tau = sp.Symbol(f"p_{tau.name}", real=True)
+        ext = Hamiltonian(self.expr + p_tau, self.coords + (tau,), self.momenta + (p_tau,),
+                          params=self.parameters, name=f"{self.name} (extended)")
+        ext.period = self.period
+        ext.time_coordinate = self.dof  # index of tau among the coordinates
+        ext.original = self
+        return ext
+
+    def driving_period(self, params=None) -> float:
+        """The numerical driving period for the given parameters."""
+        if self.period is None:
+            raise ModelError(f"system {self.name!r} has no driving period")
+        values = self.param_values(params)
+        val = self.period.subs(dict(zip(self.param_symbols, values)))
+        try:
+            out = float(val)
+        except TypeError:
+            raise ModelError(f"the driving period {self.period} does not evaluate to a number") from None
+        if not np.isfinite(out) or out <= 0:
+            raise ModelError(f"the driving period must be positive and finite, got {out}")
+        return out
+
+    # ----------------------------------------------------------------- numbers
+    def param_values(self, params=None) -> np.ndarray:
+        """Parameter values in model order; ``params`` overrides defaults by name."""
+        return resolve_values(self.parameters, params)
+
+    @cached_property
+    def _energy_fn(self):
+        args = list(self.state_symbols) + list(self.param_symbols)
+        if self.time is not None:
+            args.append(self.time)
+        # lambdify prints sympy's own expression tree (never user text) into numpy code
+        return sp.lambdify(args, self.expr, modules="numpy")
+
+    def energy(self, states, params=None, t=0.0) -> np.ndarray:
+        """H evaluated on a batch of states.
+
+        Parameters
+        ----------
+        states : array_like, shape (n_orbits, 2n) or (2n,)
+        params : mapping of str to float, optional
+        t : float or array_like, optional
+            Time, for an explicitly time-dependent H.
+
+        Returns
+        -------
+        numpy.ndarray, shape (n_orbits,) or a float for a single state
+        """
+        z = np.asarray(states, dtype=float)
+        single = z.ndim == 1
+        z = np.atleast_2d(z)
+        if z.shape[-1] != 2 * self.dof:
+            raise ModelError(f"states must have {2 * self.dof} columns (q1..qn, p1..pn), got shape {z.shape}")
+        values = self.param_values(params)
+        args = [z[..., i] for i in range(2 * self.dof)] + list(values)
+        if self.time is not None:
+            args.append(t)
+        e = np.broadcast_to(np.asarray(self._energy_fn(*args), dtype=float), z.shape[:-1]).copy()
+        return float(e[0]) if single else e
+
+    # ----------------------------------------------------------------- identity
+    @cached_property
+    def key(self) -> str:
+        """A hash of the system's form (expression, symbol order, parameters), for caches."""
+        parts = [self.kind, sp.srepr(self.expr), repr([s.name for s in self.state_symbols]),
+                 repr([p.name for p in self.parameters]), repr(self.time.name if self.time else None)]
+        return hashlib.sha256("|".join(parts).encode()).hexdigest()[:20]
+
+    def __repr__(self) -> str:
+        params = ", ".join(f"{k}={v:g}" for k, v in self.params.items())
+        return (f"Hamiltonian({self.name!r}: H = {self.expr}; q = {list(self.coords)}, "
+                f"p = {list(self.momenta)}" + (f"; {params}" if params else "") + ")")
+
+    def _repr_latex_(self) -> str:
+        return f"$H = {sp.latex(self.expr)}$"
+
+
