@@ -1,0 +1,211 @@
+"""What a section is, in words: metadata, labels and footers shared by every export format.
+
+A section's system is duck-typed: a :class:`phaselab.Hamiltonian`, a map with the same
+attributes (``name``, ``expr``, ``params``, ``state_symbols``), any simple object, or None.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from phaselab.errors import PhaselabError
+
+#: Greek letter names that get a Unicode glyph in plain-text labels (bokeh, CSV readers).
+GREEK = {
+    "alpha": "α", "beta": "β", "gamma": "γ", "delta": "δ", "epsilon": "ε", "zeta": "ζ",
+    "eta": "η", "theta": "θ", "iota": "ι", "kappa": "κ", "lambda": "λ", "lamda": "λ", "mu": "μ",
+    "nu": "ν", "xi": "ξ", "omicron": "ο", "pi": "π", "rho": "ρ", "sigma": "σ", "tau": "τ",
+    "upsilon": "υ", "phi": "φ", "chi": "χ", "psi": "ψ", "omega": "ω",
+    "Gamma": "Γ", "Delta": "Δ", "Theta": "Θ", "Lambda": "Λ", "Xi": "Ξ", "Pi": "Π",
+    "Sigma": "Σ", "Phi": "Φ", "Psi": "Ψ", "Omega": "Ω",
+}
+
+
+def check_section(section) -> None:
+    """Refuse an object that is not a section, or a section with nothing to show.
+
+    Raises
+    ------
+    PhaselabError
+        If ``section`` lacks the fields of :class:`phaselab.compute.results.Section`, or
+        has no finite point on the shown axes.
+    """
+    for name in ("points", "counts", "times", "axes"):
+        if not hasattr(section, name):
+            raise PhaselabError(
+                f"export expects a Section (with .points, .counts, .times, .axes); "
+                f"got {type(section).__name__} without .{name}")
+    pts = np.asarray(section.points)
+    if pts.ndim != 3:
+        raise PhaselabError(
+            f"section.points must have shape (n_orbits, max_crossings, 2n), got {pts.shape}")
+    i, j = section.axes
+    if pts.size == 0 or not np.any(np.isfinite(pts[..., i]) & np.isfinite(pts[..., j])):
+        raise PhaselabError(
+            "the section has no points to export (no orbit crossed the surface); "
+            "seed more orbits, integrate longer or check the plane")
+
+
+def state_symbols(section) -> tuple:
+    """The sympy symbols (or names) of every state component, in state order.
+
+    Taken from the system when it knows them; otherwise the two shown axes keep their
+    symbols from ``section.axis_symbols`` and the other components are named ``z<k>``.
+    """
+    ncomp = np.asarray(section.points).shape[-1]
+    system = getattr(section, "system", None)
+    syms = getattr(system, "state_symbols", None)
+    if syms is None and system is not None and hasattr(system, "coords") and hasattr(system, "momenta"):
+        syms = tuple(system.coords) + tuple(system.momenta)
+    if syms is not None and len(syms) == ncomp:
+        return tuple(syms)
+    out = [f"z{k}" for k in range(ncomp)]
+    axis_syms = tuple(getattr(section, "axis_symbols", ()) or ())
+    for idx, sym in zip(section.axes, axis_syms):
+        if 0 <= idx < ncomp and sym is not None:
+            out[idx] = sym
+    return tuple(out)
+
+
+def state_names(section) -> list[str]:
+    """Plain names of the state components (``str`` of each symbol), in state order."""
+    return [getattr(s, "name", str(s)) for s in state_symbols(section)]
+
+
+def axis_symbols(section) -> tuple:
+    """The symbols (or names) of the horizontal and vertical axes."""
+    syms = tuple(getattr(section, "axis_symbols", ()) or ())
+    if len(syms) == 2 and all(s is not None for s in syms):
+        return syms
+    allsyms = state_symbols(section)
+    return tuple(allsyms[k] for k in section.axes)
+
+
+def mathtext_label(symbol) -> str:
+    """A matplotlib mathtext label for a sympy symbol, e.g. ``p_theta`` -> ``$p_{\\theta}$``.
+
+    Falls back to the plain name when matplotlib's mathtext cannot typeset sympy's LaTeX.
+    """
+    name = getattr(symbol, "name", str(symbol))
+    try:
+        import sympy as sp
+
+        tex = sp.latex(symbol) if isinstance(symbol, sp.Basic) else sp.latex(sp.Symbol(name))
+    except Exception:  # any symbol sympy cannot print: keep the plain name
+        return name
+    label = f"${tex}$"
+    try:
+        from matplotlib.mathtext import MathTextParser
+
+        MathTextParser("path").parse(label)
+    except Exception:  # mathtext lacks some LaTeX macros; a plain name is still readable
+        return name
+    return label
+
+
+def plain_label(symbol) -> str:
+    """A one-line Unicode label for a symbol: ``p_theta`` -> ``p_θ``, ``omega`` -> ``ω``."""
+    name = getattr(symbol, "name", str(symbol))
+    parts = name.split("_")
+    parts = [GREEK.get(part, part) for part in parts]
+    return "_".join(parts)
+
+
+def _plain(value):
+    """numpy scalars and arrays -> Python numbers and lists (for JSON and attrs)."""
+    if isinstance(value, np.generic):
+        return value.item()
+    if isinstance(value, np.ndarray):
+        return value.tolist()
+    if isinstance(value, dict):
+        return {str(k): _plain(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [_plain(v) for v in value]
+    return value
+
+
+def used_params(section) -> dict:
+    """Parameter values in force: the system's defaults overridden by ``section.params``."""
+    system = getattr(section, "system", None)
+    params = {}
+    defaults = getattr(system, "params", None)
+    if isinstance(defaults, dict):
+        params.update(defaults)
+    params.update(getattr(section, "params", None) or {})
+    return {str(k): _plain(v) for k, v in params.items()}
+
+
+def expression_text(system) -> str:
+    """The system's expression as text (``str`` of the sympy expression), '' when unknown."""
+    expr = getattr(system, "expr", None)
+    if expr is None:
+        return ""
+    if isinstance(expr, (list, tuple)):
+        return "; ".join(str(e) for e in expr)
+    return str(expr)
+
+
+def section_metadata(section) -> dict:
+    """Everything recorded beside the numbers in a data file.
+
+    Returns
+    -------
+    dict
+        ``system`` (name), ``kind`` ("flow", "map" or ""), ``expression`` (str),
+        ``state`` (component names), ``axes``, ``params``, ``energy`` (float or None),
+        ``plane``, ``method``, ``dt``, ``phaselab_version``.
+    """
+    from phaselab import __version__
+
+    system = getattr(section, "system", None)
+    energy = getattr(section, "energy", None)
+    return {
+        "system": str(getattr(system, "name", "") or "") if system is not None else "",
+        "kind": str(getattr(system, "kind", "") or ""),
+        "expression": expression_text(system),
+        "state": state_names(section),
+        "axes": [int(a) for a in section.axes],
+        "params": used_params(section),
+        "energy": None if energy is None else float(energy),
+        "plane": _plain(dict(getattr(section, "plane", None) or {})),
+        "method": str(getattr(section, "method", "") or ""),
+        "dt": float(getattr(section, "dt", math.nan)),
+        "phaselab_version": __version__,
+    }
+
+
+def _num(value) -> str:
+    try:
+        return f"{float(value):.6g}"
+    except (TypeError, ValueError):
+        return str(value)
+
+
+def footer_text(section) -> str:
+    """One line naming the system, energy, parameters and method, for figure footers."""
+    meta = section_metadata(section)
+    parts = []
+    if meta["system"]:
+        parts.append(meta["system"])
+    if meta["energy"] is not None:
+        parts.append(f"E = {_num(meta['energy'])}")
+    if meta["params"]:
+        parts.append(", ".join(f"{k} = {_num(v)}" for k, v in meta["params"].items()))
+    method = meta["method"]
+    if method:
+        dt = meta["dt"]
+        parts.append(f"{method}, dt = {_num(dt)}" if math.isfinite(dt) else method)
+    plane = meta["plane"]
+    if plane.get("kind") == "plane" and "index" in plane:
+        names = meta["state"]
+        idx = int(plane["index"])
+        label = names[idx] if 0 <= idx < len(names) else f"z{idx}"
+        arrow = {1: "upward", -1: "downward"}.get(plane.get("direction"), "both ways")
+        parts.append(f"section {plain_label(label)} = {_num(plane.get('value', 0.0))}, {arrow}")
+    elif plane.get("kind") == "stroboscopic":
+        parts.append(f"stroboscopic, T = {_num(plane.get('period'))}")
+    n_pts = int(np.isfinite(np.asarray(section.points)[..., section.axes[0]]).sum())
+    parts.append(f"{section.points.shape[0]} orbits, {n_pts} points")
+    return "  ·  ".join(parts)
