@@ -1,0 +1,79 @@
+"""Report-ready output of a surface of section: static figures, data files, HTML pages.
+
+``save(section, path)`` picks the format from the suffix:
+
+=========  ====================================================================
+``.svg``   vector figure (matplotlib), text kept as text
+``.pdf``   vector figure (matplotlib), fonts embedded as TrueType
+``.png``   raster figure, ``width * dpi`` by ``height * dpi`` pixels
+``.csv``   data with a ``# key: value`` metadata header (see :mod:`.data`)
+``.nc``    NetCDF through xarray (needs ``phaselab[lab]``)
+``.html``  self-contained interactive bokeh page (works offline)
+=========  ====================================================================
+
+Importing this package imports neither bokeh nor matplotlib; each is loaded on first use.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+from phaselab.errors import PhaselabError
+from phaselab.export.data import (load_section, read_section_csv, read_section_netcdf,
+                                  write_section_csv, write_section_netcdf)
+from phaselab.export.describe import check_section, section_metadata
+from phaselab.export.figures import ORBIT_COLORS, save_figure, section_figure
+from phaselab.export.interactive import bokeh_figure, save_html
+
+_WRITERS = {
+    ".svg": save_figure,
+    ".pdf": save_figure,
+    ".png": save_figure,
+    ".csv": write_section_csv,
+    ".nc": write_section_netcdf,
+    ".html": save_html,
+}
+
+__all__ = ["save", "section_figure", "save_figure", "write_section_csv", "read_section_csv",
+           "write_section_netcdf", "read_section_netcdf", "load_section", "bokeh_figure",
+           "save_html", "section_metadata", "ORBIT_COLORS"]
+
+
+def save(section, path, **kwargs):
+    """Write ``section`` to ``path`` in the format named by its suffix.
+
+    Parameters
+    ----------
+    section : phaselab.compute.results.Section
+    path : str or pathlib.Path
+        Ending in .svg, .pdf, .png, .csv, .nc or .html.
+    **kwargs
+        Options of the writer: figure options (size, dpi, point_size, color, title,
+        overlays, footer, ...) for images and HTML; none for data files.
+
+    Returns
+    -------
+    pathlib.Path
+        The file written.
+
+    Raises
+    ------
+    PhaselabError
+        For an unknown suffix, a section without points, options a data file does not
+        take, or (for .nc) a missing xarray.
+    """
+    path = Path(path)
+    suffix = path.suffix.lower()
+    writer = _WRITERS.get(suffix)
+    if writer is None:
+        known = ", ".join(_WRITERS)
+        raise PhaselabError(
+            f"cannot save a section as {suffix or 'a file without suffix'!r} ({path.name}); "
+            f"use one of {known}")
+    check_section(section)
+    if suffix in (".csv", ".nc") and kwargs:
+        raise PhaselabError(
+            f"{suffix} data files take no options, got {', '.join(sorted(kwargs))}")
+    if not path.parent.exists():
+        raise PhaselabError(f"cannot save to {path}: folder {path.parent} does not exist")
+    return writer(section, path, **kwargs)

@@ -1,0 +1,321 @@
+"""Data files of a surface of section: CSV with a commented header, and NetCDF.
+
+CSV layout
+----------
+Comment lines ``# key: value`` first, each value written as JSON (strings quoted, floats at
+full precision, NaN as ``NaN``), then one header row and one row per crossing::
+
+    # phaselab section data
+    # system: "bead on a hoop"
+    # expression: "p_theta**2/2 - cos(theta)"
+    # state: ["theta", "p_theta"]
+    # ...
+    orbit,crossing,time,theta,p_theta
+    0,0,0.0,1.2345,-0.5
+
+Floats are written with Python's shortest round-trip repr, so reading gives back the same
+binary64 numbers. Per-orbit fields (counts, seeds, energy errors, escapes) are header lines
+too, so :func:`load_section` rebuilds the whole :class:`~phaselab.compute.results.Section`
+(without the system object, whose name and expression are kept as text).
+
+NetCDF layout
+-------------
+An xarray Dataset with dims ``orbit``, ``crossing``, ``component``: variables ``points``
+(orbit, crossing, component), ``times`` (orbit, crossing), ``counts``, ``energy_error``,
+``escaped`` (orbit) and ``seeds`` (orbit, component); attributes carry the metadata, with
+dicts and lists as JSON text. Needs xarray and a NetCDF engine (``pip install phaselab[lab]``).
+"""
+
+from __future__ import annotations
+
+import json
+import math
+from pathlib import Path
+
+import numpy as np
+
+from phaselab.errors import PhaselabError
+from phaselab.export.describe import _plain, check_section, section_metadata
+
+FORMAT_LINE = "# phaselab section data"
+_FIXED_COLUMNS = ("orbit", "crossing", "time")
+# Attributes stored as JSON text in NetCDF (attrs hold only strings and numbers).
+_JSON_ATTRS = ("state", "axes", "params", "plane", "energy")
+
+
+def _per_orbit(section) -> dict:
+    n = section.n_orbits
+    ncomp = section.points.shape[-1]
+
+    def field(name, shape, dtype, fill):
+        value = getattr(section, name, None)
+        if value is None:
+            return np.full(shape, fill, dtype=dtype)
+        arr = np.asarray(value, dtype=dtype)
+        if arr.shape != shape:
+            raise PhaselabError(f"section.{name} has shape {arr.shape}, expected {shape}")
+        return arr
+
+    return {
+        "counts": field("counts", (n,), np.int64, 0),
+        "energy_error": field("energy_error", (n,), float, np.nan),
+        "escaped": field("escaped", (n,), bool, False),
+        "seeds": field("seeds", (n, ncomp), float, np.nan),
+    }
+
+
+def _rows(section, counts):
+    """orbit, crossing, time and state arrays of every recorded crossing, in orbit order."""
+    points = np.asarray(section.points, dtype=float)
+    times = np.asarray(section.times, dtype=float)
+    max_c = points.shape[1]
+    if np.any(counts < 0) or np.any(counts > max_c):
+        raise PhaselabError(f"section.counts must lie between 0 and {max_c}, got {counts}")
+    keep = np.arange(max_c)[None, :] < counts[:, None]
+    orbit, crossing = np.nonzero(keep)
+    return orbit, crossing, times[orbit, crossing], points[orbit, crossing, :]
+
+
+def _dump(value) -> str:
+    return json.dumps(_plain(value), ensure_ascii=False, allow_nan=True)
+
+
+# ---------------------------------------------------------------------------------- CSV
+def write_section_csv(section, path):
+    """Write ``section`` as CSV with a ``# key: value`` metadata header.
+
+    Parameters
+    ----------
+    section : phaselab.compute.results.Section
+    path : str or pathlib.Path
+
+    Returns
+    -------
+    pathlib.Path
+    """
+    check_section(section)
+    path = Path(path)
+    meta = section_metadata(section)
+    extra = _per_orbit(section)
+    meta.update({"n_orbits": section.n_orbits, "max_crossings": int(section.points.shape[1])})
+    meta.update({k: v for k, v in extra.items()})
+    orbit, crossing, time, states = _rows(section, extra["counts"])
+    lines = [FORMAT_LINE]
+    lines += [f"# {key}: {_dump(value)}" for key, value in meta.items()]
+    lines.append(",".join(_FIXED_COLUMNS + tuple(meta["state"])))
+    fmt = repr  # shortest string that reads back to the same binary64 (Python's float repr)
+    for o, c, t, z in zip(orbit.tolist(), crossing.tolist(), time.tolist(), states.tolist()):
+        lines.append(f"{o},{c},{fmt(t)}," + ",".join(map(fmt, z)))
+    path.write_text("\n".join(lines) + "\n", encoding="utf-8")
+    return path
+
+
+def read_section_csv(path):
+    """Read a CSV written by :func:`write_section_csv`.
+
+    Returns
+    -------
+    meta : dict
+        The header values (system, expression, state, axes, params, energy, plane, method,
+        dt, phaselab_version, n_orbits, max_crossings, counts, energy_error, escaped, seeds).
+    data : dict of ndarray
+        ``orbit`` (int, shape (n_rows,)), ``crossing`` (int), ``time`` (float) and
+        ``states`` (float, shape (n_rows, 2n)).
+
+    Raises
+    ------
+    PhaselabError
+        If the file is not phaselab section data or a line is malformed (the line is named).
+    """
+    path = Path(path)
+    try:
+        text = path.read_text(encoding="utf-8")
+    except OSError as exc:
+        raise PhaselabError(f"cannot read {path}: {exc.strerror or exc}") from None
+    lines = text.splitlines()
+    if not lines or lines[0].strip() != FORMAT_LINE:
+        raise PhaselabError(f"{path} is not a phaselab section CSV (first line should be {FORMAT_LINE!r})")
+    meta = {}
+    k = 1
+    while k < len(lines) and lines[k].startswith("#"):
+        key, sep, value = lines[k][1:].partition(":")
+        if not sep:
+            raise PhaselabError(f"{path}, line {k + 1}: expected '# key: value', got {lines[k]!r}")
+        try:
+            meta[key.strip()] = json.loads(value)
+        except json.JSONDecodeError as exc:
+            raise PhaselabError(f"{path}, line {k + 1}: value of {key.strip()!r} is not valid: {exc.msg}") from None
+        k += 1
+    if k >= len(lines):
+        raise PhaselabError(f"{path}: the column header row is missing")
+    header = lines[k].split(",")
+    ncomp = len(header) - len(_FIXED_COLUMNS)
+    if tuple(header[:3]) != _FIXED_COLUMNS or ncomp < 1:
+        raise PhaselabError(f"{path}, line {k + 1}: expected columns orbit,crossing,time,<state...>")
+    body = lines[k + 1:]
+    values = np.empty((len(body), len(header)), dtype=float)
+    for r, line in enumerate(body):
+        cells = line.split(",")
+        if len(cells) != len(header):
+            raise PhaselabError(
+                f"{path}, line {k + 2 + r}: {len(cells)} values but {len(header)} columns")
+        try:
+            values[r] = [float(c) for c in cells]
+        except ValueError:
+            raise PhaselabError(f"{path}, line {k + 2 + r}: a value is not a number: {line!r}") from None
+    data = {
+        "orbit": values[:, 0].astype(np.int64),
+        "crossing": values[:, 1].astype(np.int64),
+        "time": values[:, 2].copy(),
+        "states": values[:, 3:].copy(),
+    }
+    for key in ("counts", "energy_error", "escaped", "seeds"):
+        if key in meta:
+            dtype = {"counts": np.int64, "escaped": bool}.get(key, float)
+            meta[key] = np.asarray(meta[key], dtype=dtype)
+            if key == "seeds":
+                meta[key] = meta[key].reshape(-1, ncomp)
+    return meta, data
+
+
+# ---------------------------------------------------------------------------------- NetCDF
+def _xarray():
+    try:
+        import xarray
+    except ImportError:
+        raise PhaselabError(
+            "NetCDF export needs xarray and netCDF4; install them with pip install 'phaselab[lab]'") from None
+    return xarray
+
+
+def write_section_netcdf(section, path):
+    """Write ``section`` as NetCDF (dims orbit, crossing, component) through xarray.
+
+    Returns
+    -------
+    pathlib.Path
+
+    Raises
+    ------
+    PhaselabError
+        If xarray (or a NetCDF engine) is not installed.
+    """
+    check_section(section)
+    xr = _xarray()
+    path = Path(path)
+    meta = section_metadata(section)
+    extra = _per_orbit(section)
+    points = np.asarray(section.points, dtype=float)
+    times = np.asarray(section.times, dtype=float)
+    attrs = {}
+    for key, value in meta.items():
+        if key in _JSON_ATTRS:
+            attrs[key] = _dump(value)
+        else:
+            attrs[key] = value
+    attrs["format"] = "phaselab section data"
+    ds = xr.Dataset(
+        data_vars={
+            "points": (("orbit", "crossing", "component"), points),
+            "times": (("orbit", "crossing"), times),
+            "counts": (("orbit",), extra["counts"].astype(np.int32)),
+            "energy_error": (("orbit",), extra["energy_error"]),
+            "escaped": (("orbit",), extra["escaped"].astype(np.int8)),
+            "seeds": (("orbit", "component"), extra["seeds"]),
+        },
+        coords={
+            "orbit": np.arange(points.shape[0]),
+            "crossing": np.arange(points.shape[1]),
+            "component": np.array(meta["state"], dtype=object),
+        },
+        attrs=attrs,
+    )
+    ds["points"].attrs["description"] = "full states at the crossings; NaN past an orbit's last crossing"
+    ds["escaped"].attrs["description"] = "1 where the orbit left the box or went non-finite"
+    try:
+        ds.to_netcdf(path)
+    except ValueError as exc:  # xarray says so when no NetCDF engine is installed
+        raise PhaselabError(
+            f"cannot write NetCDF ({exc}); install netCDF4 with pip install 'phaselab[lab]'") from None
+    return path
+
+
+def read_section_netcdf(path):
+    """Read a NetCDF file written by :func:`write_section_netcdf`.
+
+    Returns
+    -------
+    meta : dict
+        The same keys as :func:`section_metadata` plus ``counts``, ``energy_error``,
+        ``escaped`` and ``seeds`` arrays.
+    data : dict of ndarray
+        ``points`` (n_orbits, max_crossings, 2n) and ``times`` (n_orbits, max_crossings).
+    """
+    xr = _xarray()
+    path = Path(path)
+    if not path.exists():
+        raise PhaselabError(f"cannot read {path}: no such file")
+    try:
+        with xr.open_dataset(path) as ds:
+            ds = ds.load()
+    except (OSError, ValueError) as exc:
+        raise PhaselabError(f"cannot read {path} as NetCDF: {exc}") from None
+    if ds.attrs.get("format") != "phaselab section data":
+        raise PhaselabError(f"{path} is not a phaselab section NetCDF file")
+    meta = {}
+    for key, value in ds.attrs.items():
+        if key == "format":
+            continue
+        meta[key] = json.loads(value) if key in _JSON_ATTRS else _plain(value)
+    if "dt" in meta:
+        meta["dt"] = float(meta["dt"])
+    meta["counts"] = ds["counts"].values.astype(np.int64)
+    meta["energy_error"] = ds["energy_error"].values.astype(float)
+    meta["escaped"] = ds["escaped"].values.astype(bool)
+    meta["seeds"] = ds["seeds"].values.astype(float)
+    meta["n_orbits"] = int(ds.sizes["orbit"])
+    meta["max_crossings"] = int(ds.sizes["crossing"])
+    data = {"points": ds["points"].values.astype(float), "times": ds["times"].values.astype(float)}
+    return meta, data
+
+
+# ---------------------------------------------------------------------------------- Section
+def load_section(path):
+    """Rebuild a :class:`~phaselab.compute.results.Section` from a .csv or .nc file.
+
+    The system object is not rebuilt (``system`` is None); its name, expression and
+    parameters come back in ``section.params`` and in the metadata of the readers.
+
+    Returns
+    -------
+    phaselab.compute.results.Section
+    """
+    import sympy as sp
+
+    from phaselab.compute.results import Section
+
+    path = Path(path)
+    suffix = path.suffix.lower()
+    if suffix == ".csv":
+        meta, data = read_section_csv(path)
+        n, max_c = int(meta["n_orbits"]), int(meta["max_crossings"])
+        ncomp = data["states"].shape[1]
+        points = np.full((n, max_c, ncomp), np.nan)
+        times = np.full((n, max_c), np.nan)
+        points[data["orbit"], data["crossing"]] = data["states"]
+        times[data["orbit"], data["crossing"]] = data["time"]
+    elif suffix == ".nc":
+        meta, data = read_section_netcdf(path)
+        points, times = data["points"], data["times"]
+    else:
+        raise PhaselabError(f"a section is loaded from .csv or .nc, not {suffix or 'no suffix'!r}")
+    names = meta["state"]
+    axes = tuple(int(a) for a in meta["axes"])
+    symbols = tuple(sp.Symbol(names[a], real=True) for a in axes)
+    energy = meta.get("energy")
+    return Section(points=points, counts=meta["counts"], times=times, axes=axes,
+                   axis_symbols=symbols, energy_error=meta["energy_error"],
+                   escaped=meta["escaped"], seeds=meta["seeds"], plane=meta.get("plane", {}),
+                   energy=None if energy is None else float(energy),
+                   method=meta.get("method", ""), dt=float(meta.get("dt", math.nan)),
+                   system=None, params=dict(meta.get("params", {})))
