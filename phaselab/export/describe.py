@@ -23,6 +23,10 @@ GREEK = {
 }
 
 
+#: Between the items of a footer line.
+FOOTER_SEPARATOR = "  ·  "
+
+
 def check_section(section) -> None:
     """Refuse an object that is not a section, or a section with nothing to show.
 
@@ -208,4 +212,4 @@ def footer_text(section) -> str:
         parts.append(f"stroboscopic, T = {_num(plane.get('period'))}")
     n_pts = int(np.isfinite(np.asarray(section.points)[..., section.axes[0]]).sum())
     parts.append(f"{section.points.shape[0]} orbits, {n_pts} points")
-    return "  ·  ".join(parts)
+    return FOOTER_SEPARATOR.join(parts)

@@ -12,7 +12,8 @@ from pathlib import Path
 import numpy as np
 
 from phaselab.errors import PhaselabError
-from phaselab.export.describe import axis_symbols, check_section, footer_text, mathtext_label
+from phaselab.export.describe import (FOOTER_SEPARATOR as _SEP, axis_symbols, check_section,
+                                      footer_text, mathtext_label)
 
 #: Orbit colours, cycled by orbit index: muted, well separated hues that stay apart on
 #: white paper and in greyscale print (dark and light entries alternate).
@@ -49,8 +50,7 @@ def scalar_colormap():
     from matplotlib.colors import LinearSegmentedColormap
 
     cmap = LinearSegmentedColormap.from_list("phaselab_ink_to_brick", SCALAR_STOPS, N=256)
-    cmap.set_bad(MISSING_COLOR)
-    return cmap
+    return cmap.with_extremes(bad=MISSING_COLOR)
 
 
 def _check_size(size, dpi):
@@ -90,6 +90,23 @@ def _check_overlays(overlays):
             raise PhaselabError(f"overlay {k}: x has {x.size} values but y has {y.size}")
         out.append((x, y))
     return out
+
+
+def _wrap_footer(text, width_in, fontsize=6.5):
+    """Split the footer at its separators into lines that fit ``width_in`` inches."""
+    # an average sans-serif glyph is about 0.55 em wide (common practice for estimates)
+    max_chars = max(20, int((width_in - 0.2) * 72 / (0.55 * fontsize)))
+    lines, current = [], ""
+    for part in text.split(_SEP):
+        candidate = part if not current else current + _SEP + part
+        if current and len(candidate) > max_chars:
+            lines.append(current)
+            current = part
+        else:
+            current = candidate
+    if current:
+        lines.append(current)
+    return lines
 
 
 def _per_orbit_scalar(color, n_orbits):
@@ -147,7 +164,7 @@ def section_figure(section, size=(6.0, 4.5), dpi=150, point_size=1.6, color=None
     x, y = section.xy()
     orbit = section.orbit_index()
     scalar = None if color is None else _per_orbit_scalar(color, section.n_orbits)
-    footer_line = footer_text(section) if footer else ""
+    footer_lines = _wrap_footer(footer_text(section), width) if footer else []
     if rasterize is None:
         rasterize = x.size > 20_000
 
@@ -157,7 +174,7 @@ def section_figure(section, size=(6.0, 4.5), dpi=150, point_size=1.6, color=None
         fig = Figure(figsize=(width, height), dpi=dpi, facecolor="white")
         # Margins in inches, so every size gets the same breathing room around the axes.
         left, right = 0.72, (1.05 if scalar is not None else 0.22)
-        bottom = 0.55 + (0.22 if footer_line else 0.0) + (0.16 if note else 0.0)
+        bottom = 0.55 + (0.08 + 0.14 * len(footer_lines) if footer_lines else 0.0) + (0.16 if note else 0.0)
         top = 0.42 if title else 0.18
         ax_w, ax_h = width - left - right, height - bottom - top
         if ax_w < 0.8 or ax_h < 0.6:
@@ -210,9 +227,10 @@ def section_figure(section, size=(6.0, 4.5), dpi=150, point_size=1.6, color=None
             fig.text(0.1 / width, y_text / height, str(note), ha="left", va="bottom",
                      fontsize=6.5, color="#6a6a6a", style="italic")
             y_text += 0.16
-        if footer_line:
-            fig.text(0.1 / width, y_text / height, footer_line, ha="left", va="bottom",
+        for line in reversed(footer_lines):
+            fig.text(0.1 / width, y_text / height, line, ha="left", va="bottom",
                      fontsize=6.5, color="#555555")
+            y_text += 0.14
     return fig
 
 
