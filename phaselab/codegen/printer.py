@@ -7,9 +7,11 @@ Every symbol of a system is renamed to a safe identifier (``s0, s1, ...`` for th
 
 from __future__ import annotations
 
+import math
 from typing import Sequence
 
 import sympy as sp
+from sympy.printing.codeprinter import PrintMethodNotImplementedError
 from sympy.printing.pycode import PythonCodePrinter
 
 from phaselab.errors import ModelError
@@ -31,9 +33,98 @@ class KernelPrinter(PythonCodePrinter):
     def _print_Half(self, expr):
         return "0.5"
 
+    def _print_Integer(self, expr):
+        value = int(expr)
+        if abs(value) < 2**53:
+            return str(value)
+        return repr(_as_float(expr))
+
+    def _print_NumberSymbol(self, expr):
+        return repr(float(expr))
+
     def _print_sign(self, expr):
         a = self._print(expr.args[0])
         return f"(math.copysign(1.0, {a}) if {a} != 0 else 0.0)"
+
+    def _print_DiracDelta(self, expr):
+        return "0.0"
+
+    def _print_Heaviside(self, expr):
+        a = self._print(expr.args[0])
+        return f"(0.0 if {a} < 0 else (0.5 if {a} == 0 else 1.0))"
+
+    def _print_Max(self, expr):
+        return "max(" + ", ".join(self._print(a) for a in expr.args) + ")"
+
+    def _print_Min(self, expr):
+        return "min(" + ", ".join(self._print(a) for a in expr.args) + ")"
+
+
+#: sympy function classes whose printed form compiles under numba.njit
+SUPPORTED_FUNCTIONS = (
+    sp.sin, sp.cos, sp.tan, sp.asin, sp.acos, sp.atan, sp.atan2, sp.sinh, sp.cosh, sp.tanh,
+    sp.asinh, sp.acosh, sp.atanh, sp.exp, sp.log, sp.Abs, sp.sign, sp.sec, sp.csc, sp.cot,
+    sp.Heaviside, sp.DiracDelta, sp.Max, sp.Min, sp.gamma, sp.loggamma, sp.erf, sp.erfc,
+)
+
+
+def _as_float(number) -> float:
+    try:
+        value = float(number)
+    except (OverflowError, TypeError, ValueError):
+        value = math.inf
+    if not math.isfinite(value):
+        raise ModelError(f"the number {_short(number)} does not fit in a double-precision float")
+    return value
+
+
+def _short(expr) -> str:
+    text = str(expr)
+    return text if len(text) <= 80 else text[:77] + "..."
+
+
+def check_supported(expr: sp.Expr, where: str = "expression") -> None:
+    """Refuse expressions that cannot become compiled numeric code.
+
+    Parameters
+    ----------
+    expr : sympy.Expr
+    where : str
+        What the expression is (``"dH/dq1"``), for the message.
+
+    Raises
+    ------
+    ModelError
+        Naming the offending function or number.
+    """
+    for node in sp.preorder_traversal(expr):
+        if isinstance(node, sp.Pow):
+            base, exponent = node.args
+            if base.is_number and base.is_negative and not exponent.is_integer:
+                raise ModelError(
+                    f"the {where} {_short(expr)} contains the complex number {_short(node)}")
+            continue
+        if node.is_Symbol or isinstance(node, (sp.Add, sp.Mul)):
+            continue
+        if node in (sp.pi, sp.E) or isinstance(node, sp.NumberSymbol):
+            continue
+        if node.is_Number:
+            if node in (sp.zoo, sp.oo, -sp.oo, sp.nan) or not node.is_finite:
+                raise ModelError(f"the {where} {_short(expr)} is infinite or undefined ({node})")
+            _as_float(node)
+            continue
+        if node is sp.I:
+            raise ModelError(f"the {where} {_short(expr)} contains the complex number {_short(node)}")
+        if isinstance(node, sp.Derivative):
+            raise ModelError(
+                f"the {where} needs the derivative {_short(node)}, which has no closed form; "
+                "use functions with known derivatives")
+        if isinstance(node, SUPPORTED_FUNCTIONS):
+            continue
+        name = getattr(node.func, "__name__", type(node).__name__)
+        raise ModelError(
+            f"function `{name}` in the {where} {_short(expr)} cannot be compiled to numeric code; "
+            "supported functions: " + ", ".join(f.__name__ for f in SUPPORTED_FUNCTIONS))
 
 
 def rename_map(state: Sequence[sp.Symbol], params: Sequence[sp.Symbol]) -> dict:
@@ -73,6 +164,8 @@ def print_assignments(targets: Sequence[str], exprs: Sequence[sp.Expr], indent: 
     pairs = [(t, e) for t, e in zip(targets, exprs) if not (skip_zero and e == 0)]
     if not pairs:
         return [], set()
+    for target, e in pairs:
+        check_supported(e, f"expression for {target}")
     replacements, reduced = sp.cse([e for _, e in pairs], symbols=sp.numbered_symbols("c"),
                                    optimizations="basic")
     printer = KernelPrinter()
@@ -92,7 +185,10 @@ def print_assignments(targets: Sequence[str], exprs: Sequence[sp.Expr], indent: 
 
 
 def _checked(printer: KernelPrinter, expr: sp.Expr) -> str:
-    code = printer.doprint(expr)
+    try:
+        code = printer.doprint(expr)
+    except PrintMethodNotImplementedError as exc:
+        raise ModelError(f"cannot generate numeric code for {_short(expr)}: {str(exc).splitlines()[0]}") from None
     if printer._not_supported or "# Not supported" in code:
         bad = ", ".join(sorted({type(e).__name__ for e in printer._not_supported})) or code
         printer._not_supported.clear()

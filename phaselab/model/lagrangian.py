@@ -61,27 +61,32 @@ def legendre_transform(cls, L, coords, velocities, params=None, time=None, perio
 
     grad = [sp.diff(L, vi) for vi in v]
     hessian = sp.Matrix([[sp.diff(g, vj) for vj in v] for g in grad])
-    det = sp.simplify(hessian.det())
-    if det == 0:
+    det = hessian.det(method="berkowitz")
+    if _identically_zero(det):
         raise ModelError(
             "degenerate Lagrangian: the Hessian d2L/dqdot2 is singular, so the momenta "
             f"{', '.join(s.name for s in p)} cannot be solved for the velocities "
             f"{', '.join(s.name for s in v)} (a constrained or gauge system)")
 
     # p = dL/dv. For L quadratic in v (the mechanical case) this is linear: solve exactly.
+    zero_v = {vi: 0 for vi in v}
     quadratic = all(sp.diff(h, vk) == 0 for h in hessian for vk in v)
     if quadratic:
-        b = sp.Matrix([g.subs({vi: 0 for vi in v}) for g in grad])
-        rhs = sp.Matrix(p) - b
-        sol_vec = hessian.LUsolve(rhs)
-        solution = {vi: sp.simplify(s) for vi, s in zip(v, sol_vec)}
+        # L = v.M.v/2 + b.v + L0 gives v = M^-1 (p - b) and H = (p - b).v/2 - L0, which
+        # keeps the potential -L0 as written and only the kinetic part as one fraction
+        b = [g.subs(zero_v) for g in grad]
+        shifted = sp.Matrix([pi - bi for pi, bi in zip(p, b)])
+        sol_vec = hessian.LUsolve(shifted)
+        solution = {vi: sp.factor(sp.cancel(s)) for vi, s in zip(v, sol_vec)}
+        kinetic = sp.factor(sp.cancel(sum(si * solution[vi] for si, vi in zip(shifted, v)) / 2))
+        H = kinetic - L.subs(zero_v)
     else:
         found = sp.solve([sp.Eq(pi, g) for pi, g in zip(p, grad)], list(v), dict=True)
         if not found:
             raise ModelError("cannot solve p = dL/dqdot for the velocities in closed form")
         solution = found[0]
-    H = sum(pi * solution[vi] for pi, vi in zip(p, v)) - L.subs(solution)
-    H = sp.simplify(sp.expand(H))
+        H = sum(pi * solution[vi] for pi, vi in zip(p, v)) - L.subs(solution)
+        H = sp.simplify(sp.expand(H))
     ham = cls(H, q, p, params=parameters, time=t, period=None, name=name or "H")
     if period is not None:
         ham.period = ham._to_expr(period, {prm.name: prm.symbol for prm in parameters}, "period")
@@ -90,4 +95,27 @@ def legendre_transform(cls, L, coords, velocities, params=None, time=None, perio
     ham.lagrangian = L
     ham.velocity_symbols = v
     ham.velocities_from_momenta = solution
+    ham.hessian_determinant = det
     return ham
+
+
+def _identically_zero(expr: sp.Expr, samples: int = 4) -> bool:
+    """True when ``expr`` is zero for all values of its symbols.
+
+    A nonzero value at one of a few random points settles "not zero" at once (cheap, and it
+    covers every non-degenerate Lagrangian); only when all samples vanish is
+    :func:`sympy.simplify` asked to confirm.
+    """
+    expr = sp.expand(expr)
+    if expr == 0:
+        return True
+    import random
+
+    rng = random.Random(1234)
+    symbols = sorted(expr.free_symbols, key=lambda x: x.name)
+    for _ in range(samples):
+        point = {x: sp.Float(rng.uniform(0.3, 1.7)) for x in symbols}
+        value = expr.xreplace(point).evalf()
+        if value.is_number and value.is_finite and abs(complex(value)) > 1e-10:
+            return False
+    return sp.simplify(expr) == 0

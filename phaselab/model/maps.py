@@ -1,0 +1,380 @@
+"""Area-preserving maps given by symbolic update rules.
+
+A map sends a state ``z = (q1..qn, p1..pn)`` to a new state ``z'``. Its rules can be given
+in two ways:
+
+* **simultaneous**: a sequence of ``2n`` expressions, the new values of ``(q1..qn, p1..pn)``
+  in state order, every one written in the *old* values;
+* **sequential**: an ordered sequence of ``(target, expression)`` pairs (or a dict, taken in
+  its insertion order). The assignments are applied one after another, so an expression may
+  use values already updated by earlier assignments, as in a kick followed by a drift::
+
+      [("p", "p + K*sin(q)"),   # p' = p + K sin q
+       ("q", "q + p")]          # q' = q + p'   (p is the new p here)
+
+  A target may be assigned more than once (kick-drift-kick compositions); a component
+  never assigned keeps its value.
+
+Either way :attr:`AreaPreservingMap.update` holds ``2n`` expressions in the old variables,
+in state order, obtained by substitution. On construction the Jacobian determinant of the
+map is checked to be 1 (symbolically when sympy can show it, else numerically at random
+sample points); a map that is not area-preserving is refused.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import math
+from functools import cached_property
+from typing import Mapping
+
+import numpy as np
+import sympy as sp
+
+from phaselab.errors import ModelError
+from phaselab.model.hamiltonian import as_symbols
+from phaselab.model.params import Parameter, make_parameters, resolve_values
+from phaselab.model.parser import parse_expression
+
+#: number of random points used when the determinant cannot be simplified to 1
+N_SAMPLES = 20
+#: tolerance of the numerical determinant check, |det - 1| <= DET_TOL * max(1, |terms|)
+DET_TOL = 1e-9
+#: expressions with more operations than this skip sympy.simplify (numerical check instead)
+SIMPLIFY_MAX_OPS = 400
+
+
+class AreaPreservingMap:
+    """An area-preserving (unit Jacobian determinant) map of phase space.
+
+    Parameters
+    ----------
+    update : sequence
+        The rules, either ``2n`` expressions (simultaneous, in state order) or ``(target,
+        expression)`` pairs / a dict (sequential; see the module docstring). Expressions are
+        sympy expressions or strings read by the safe parser.
+    coords, momenta : sequence of str or sympy.Symbol
+        The coordinates and momenta, in state order.
+    params : mapping, optional
+        Parameters with defaults, ``{"K": 0.9}`` or ``{"K": (0.9, (0.0, 5.0))}``.
+    modulus : None, number, or sequence, optional
+        Wrapping of each state component after every iterate: ``None`` (no wrapping), a
+        period ``P`` (values wrapped into ``[0, P)``) or an interval ``(low, high)``
+        (wrapped into ``[low, high)``). A single value applies to every component; a
+        sequence gives one entry per state component. Numbers may be strings such as
+        ``"2*pi"``. For a two-component state a pair of numbers is read as one period per
+        component; give ``[(low, high), (low, high)]`` for intervals.
+    name : str, optional
+        A label for plots and files.
+
+    Attributes
+    ----------
+    update : list of sympy.Expr
+        The ``2n`` new values in the old variables, state order.
+    modulus : tuple of (float or None)
+        The period of each state component (``None``: not wrapped).
+    modulus_low : tuple of (float or None)
+        The low end of each wrapped component's interval.
+    determinant : sympy.Expr
+        The Jacobian determinant as found (``1`` when shown symbolically).
+    area_check : str
+        ``"symbolic"`` or ``"numeric"``: how det = 1 was established.
+
+    Raises
+    ------
+    ModelError
+        For rules that do not match the state, unknown symbols, or a map whose Jacobian
+        determinant is not 1 (the message shows the determinant found).
+    """
+
+    kind = "map"
+    time = None
+    period = None
+    is_autonomous = True
+
+    def __init__(self, update, coords, momenta, params=None, modulus=None, name=None):
+        self.coords = as_symbols(coords, "coordinates")
+        self.momenta = as_symbols(momenta, "momenta")
+        if len(self.coords) != len(self.momenta):
+            raise ModelError(
+                f"{len(self.coords)} coordinates but {len(self.momenta)} momenta; each coordinate needs one momentum")
+        if not self.coords:
+            raise ModelError("a map needs at least one coordinate")
+        names = [s.name for s in self.state_symbols]
+        dupes = sorted({n for n in names if names.count(n) > 1})
+        if dupes:
+            raise ModelError(f"names used twice among coordinates and momenta: {', '.join(dupes)}")
+        self.parameters: tuple[Parameter, ...] = make_parameters(params, set(names))
+        self.name = name or "map"
+        self._known = {s.name: s for s in self.state_symbols}
+        self._known.update({p.name: p.symbol for p in self.parameters})
+        self.update: list[sp.Expr] = self._rules(update)
+        self.modulus, self.modulus_low = self._modulus(modulus)
+        self.determinant, self.area_check = self._check_area()
+
+    # ----------------------------------------------------------------- construction helpers
+    def _expr(self, expr, what: str) -> sp.Expr:
+        if isinstance(expr, str):
+            expr = parse_expression(expr, symbols=self._known, allowed=set(self._known))
+        elif isinstance(expr, (int, float)) and not isinstance(expr, bool):
+            expr = sp.Float(float(expr)) if not float(expr).is_integer() else sp.Integer(int(expr))
+        elif not isinstance(expr, sp.Expr):
+            raise ModelError(f"{what} must be a sympy expression or a string, got {type(expr).__name__}")
+        allowed = set(self._known.values())
+        unknown = sorted(s.name for s in expr.free_symbols if s not in allowed)
+        if unknown:
+            raise ModelError(f"unknown symbols in {what}: {', '.join(unknown)}; declare them as "
+                             "coordinates, momenta or parameters")
+        return expr
+
+    def _target(self, target) -> sp.Symbol:
+        name = target.name if isinstance(target, sp.Symbol) else target
+        if not isinstance(name, str) or name not in self._known or name not in {
+                s.name for s in self.state_symbols}:
+            raise ModelError(f"update target {target!r} is not a coordinate or momentum of this map; "
+                             f"the state is {', '.join(s.name for s in self.state_symbols)}")
+        return self._known[name]
+
+    def _rules(self, update) -> list[sp.Expr]:
+        state = self.state_symbols
+        if isinstance(update, Mapping):
+            update = list(update.items())
+        if isinstance(update, (str, sp.Expr)) or not hasattr(update, "__iter__"):
+            raise ModelError("update must be a sequence of 2n expressions or of (target, expression) pairs")
+        update = list(update)
+        if not update:
+            raise ModelError("update has no rules")
+        pairs = [isinstance(u, (tuple, list)) and len(u) == 2 for u in update]
+        if all(pairs):
+            current = {s: s for s in state}
+            for target, expr in update:
+                sym = self._target(target)
+                new = self._expr(expr, f"the update of {sym.name}")
+                # express the rule in the old variables: substitute the values so far
+                current[sym] = new.xreplace(current)
+            return [current[s] for s in state]
+        if any(pairs):
+            raise ModelError("update mixes (target, expression) pairs with bare expressions; use one form")
+        if len(update) != len(state):
+            raise ModelError(f"update gives {len(update)} expressions but the state has {len(state)} "
+                             f"components ({', '.join(s.name for s in state)})")
+        return [self._expr(e, f"the update of {s.name}") for s, e in zip(state, update)]
+
+    def _number(self, value, what: str) -> float:
+        if isinstance(value, str):
+            value = parse_expression(value, symbols={}, allowed=set())
+        try:
+            out = float(value)
+        except (TypeError, ValueError):
+            raise ModelError(f"{what} must be a number, got {value!r}") from None
+        if not math.isfinite(out):
+            raise ModelError(f"{what} must be finite, got {out}")
+        return out
+
+    def _modulus(self, modulus):
+        n = len(self.state_symbols)
+        if modulus is None:
+            return (None,) * n, (None,) * n
+        single = isinstance(modulus, (int, float, str, sp.Expr)) or (
+            isinstance(modulus, tuple) and len(modulus) == 2 and n != 2
+            and all(isinstance(m, (int, float, str, sp.Expr)) for m in modulus))
+        entries = [modulus] * n if single else list(modulus)
+        if len(entries) != n:
+            raise ModelError(f"modulus has {len(entries)} entries but the state has {n} components")
+        periods, lows = [], []
+        for sym, entry in zip(self.state_symbols, entries):
+            if entry is None:
+                periods.append(None)
+                lows.append(None)
+                continue
+            if isinstance(entry, (tuple, list)):
+                if len(entry) != 2:
+                    raise ModelError(f"modulus of {sym.name} must be a period or (low, high), got {entry!r}")
+                low = self._number(entry[0], f"low end of the modulus of {sym.name}")
+                high = self._number(entry[1], f"high end of the modulus of {sym.name}")
+            else:
+                low, high = 0.0, self._number(entry, f"modulus of {sym.name}")
+            if not high > low:
+                raise ModelError(f"modulus of {sym.name} must be a positive period, got [{low}, {high})")
+            periods.append(high - low)
+            lows.append(low)
+        return tuple(periods), tuple(lows)
+
+    # ----------------------------------------------------------------- area preservation
+    @cached_property
+    def jacobian_matrix(self) -> sp.Matrix:
+        """The symbolic Jacobian d z' / d z, shape (2n, 2n)."""
+        return sp.Matrix([[sp.diff(e, x) for x in self.state_symbols] for e in self.update])
+
+    def _check_area(self):
+        det = self.jacobian_matrix.det(method="berkowitz")
+        residual = sp.expand(det - 1)
+        if residual == 0:
+            return sp.Integer(1), "symbolic"
+        if sp.count_ops(residual) <= SIMPLIFY_MAX_OPS:
+            simple = sp.simplify(residual)
+            if simple == 0:
+                return sp.Integer(1), "symbolic"
+            if simple.is_number:
+                raise ModelError(
+                    f"map {self.name!r} is not area-preserving: its Jacobian determinant is "
+                    f"{sp.simplify(det)}, not 1")
+            det = simple + 1
+        self._numeric_det_check(det)
+        return det, "numeric"
+
+    def _sample_states(self, rng, count: int) -> np.ndarray:
+        n = len(self.state_symbols)
+        z = rng.uniform(-2.0, 2.0, size=(count, n))
+        for i, (period, low) in enumerate(zip(self.modulus, self.modulus_low)):
+            if period is not None:
+                z[:, i] = low + period * rng.uniform(0.0, 1.0, size=count)
+        return z
+
+    def _sample_params(self, rng, count: int) -> np.ndarray:
+        out = np.empty((count, len(self.parameters)))
+        for j, prm in enumerate(self.parameters):
+            if prm.range is not None:
+                out[:, j] = rng.uniform(prm.range[0], prm.range[1], size=count)
+            else:
+                scale = max(abs(prm.default), 1.0)
+                out[:, j] = prm.default + 0.5 * scale * rng.uniform(-1.0, 1.0, size=count)
+            out[0, j] = prm.default
+        return out
+
+    def _numeric_det_check(self, det: sp.Expr) -> None:
+        args = list(self.state_symbols) + list(self.param_symbols)
+        # lambdify prints sympy's own expression tree (never user text) into numpy code
+        fn = sp.lambdify(args, det, modules="numpy")
+        rng = np.random.default_rng(20240607)
+        z = self._sample_states(rng, 4 * N_SAMPLES)
+        k = self._sample_params(rng, 4 * N_SAMPLES)
+        good = 0
+        with np.errstate(all="ignore"):
+            for zi, ki in zip(z, k):
+                try:
+                    value = complex(fn(*zi, *ki))
+                except (ZeroDivisionError, ValueError, OverflowError, TypeError):
+                    continue
+                if not (np.isfinite(value.real) and np.isfinite(value.imag)):
+                    continue
+                if abs(value - 1.0) > DET_TOL * max(1.0, abs(value)):
+                    point = ", ".join(f"{s.name}={v:.4g}" for s, v in zip(args, list(zi) + list(ki)))
+                    raise ModelError(
+                        f"map {self.name!r} is not area-preserving: its Jacobian determinant is "
+                        f"{_short(det)}, which is {value.real:.6g} at {point}")
+                good += 1
+                if good >= N_SAMPLES:
+                    return
+        if good == 0:
+            raise ModelError(
+                f"cannot check that map {self.name!r} is area-preserving: its Jacobian determinant "
+                f"{_short(det)} is undefined at every sample point")
+
+    # ----------------------------------------------------------------- structure
+    @property
+    def dof(self) -> int:
+        """Number of degrees of freedom ``n`` (the state has ``2n`` components)."""
+        return len(self.coords)
+
+    @property
+    def state_symbols(self) -> tuple[sp.Symbol, ...]:
+        """``(q1..qn, p1..pn)``."""
+        return self.coords + self.momenta
+
+    @property
+    def params(self) -> dict[str, float]:
+        """Parameter names with their default values."""
+        return {p.name: p.default for p in self.parameters}
+
+    @property
+    def param_symbols(self) -> tuple[sp.Symbol, ...]:
+        return tuple(p.symbol for p in self.parameters)
+
+    def param_values(self, params=None) -> np.ndarray:
+        """Parameter values in model order; ``params`` overrides defaults by name."""
+        return resolve_values(self.parameters, params)
+
+    @cached_property
+    def is_symplectic(self) -> bool:
+        """True when J^T Omega J = Omega holds identically (for one degree of freedom this is
+        the same as det J = 1). Checked with sympy; expressions it cannot simplify count as
+        not shown."""
+        n = self.dof
+        omega = sp.zeros(2 * n, 2 * n)
+        for i in range(n):
+            omega[i, n + i] = 1
+            omega[n + i, i] = -1
+        J = self.jacobian_matrix
+        diff = (J.T * omega * J - omega).applyfunc(sp.expand)
+        return all(d == 0 or sp.simplify(d) == 0 for d in diff)
+
+    # ----------------------------------------------------------------- numbers
+    @cached_property
+    def _step_fn(self):
+        args = list(self.state_symbols) + list(self.param_symbols)
+        # lambdify prints sympy's own expression tree (never user text) into numpy code
+        return sp.lambdify(args, self.update, modules="numpy")
+
+    def wrap(self, states) -> np.ndarray:
+        """Wrap the components that have a modulus into their intervals.
+
+        Parameters
+        ----------
+        states : array_like, shape (..., 2n)
+
+        Returns
+        -------
+        numpy.ndarray, same shape
+        """
+        z = np.array(states, dtype=float, copy=True)
+        for i, (period, low) in enumerate(zip(self.modulus, self.modulus_low)):
+            if period is not None:
+                z[..., i] = low + np.mod(z[..., i] - low, period)
+        return z
+
+    def step(self, states, params=None) -> np.ndarray:
+        """One iterate of a batch of states, evaluated with numpy (a reference; the compute
+        layer uses the compiled kernels), wrapped by the modulus.
+
+        Parameters
+        ----------
+        states : array_like, shape (n_orbits, 2n) or (2n,)
+        params : mapping of str to float, optional
+
+        Returns
+        -------
+        numpy.ndarray, same shape as ``states``
+        """
+        z = np.asarray(states, dtype=float)
+        n = len(self.state_symbols)
+        if z.shape[-1] != n:
+            raise ModelError(f"states must have {n} columns ({', '.join(s.name for s in self.state_symbols)}), "
+                             f"got shape {z.shape}")
+        values = self.param_values(params)
+        cols = self._step_fn(*[z[..., i] for i in range(n)], *values)
+        out = np.stack([np.broadcast_to(np.asarray(c, dtype=float), z.shape[:-1]) for c in cols], axis=-1)
+        return self.wrap(out)
+
+    # ----------------------------------------------------------------- identity
+    @cached_property
+    def key(self) -> str:
+        """A hash of the map's form (update rules, symbol order, parameters, modulus)."""
+        parts = [self.kind, repr([sp.srepr(e) for e in self.update]),
+                 repr([s.name for s in self.state_symbols]), repr([p.name for p in self.parameters]),
+                 repr(self.modulus), repr(self.modulus_low)]
+        return hashlib.sha256("|".join(parts).encode()).hexdigest()[:20]
+
+    def __repr__(self) -> str:
+        rules = "; ".join(f"{s}' = {e}" for s, e in zip(self.state_symbols, self.update))
+        params = ", ".join(f"{k}={v:g}" for k, v in self.params.items())
+        return f"AreaPreservingMap({self.name!r}: {rules}" + (f"; {params}" if params else "") + ")"
+
+    def _repr_latex_(self) -> str:
+        rows = r" \\ ".join(f"{sp.latex(s)}' &= {sp.latex(e)}" for s, e in zip(self.state_symbols, self.update))
+        return rf"$\begin{{aligned}} {rows} \end{{aligned}}$"
+
+
+def _short(expr) -> str:
+    text = str(expr)
+    return text if len(text) <= 120 else text[:117] + "..."
