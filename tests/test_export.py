@@ -305,6 +305,18 @@ def test_section_save_method_delegates(tmp_path, molecule):
     assert out.exists() and read_section_csv(out)[0]["system"] == "model molecule, two bonds"
 
 
+def test_catalogue_map_metadata(tmp_path):
+    system = phaselab.models.standard_map()
+    sec = standard_map_section(K=system.params["K"])
+    sec.system = system
+    sec.axis_symbols = system.state_symbols
+    meta, _ = read_section_csv(save(sec, tmp_path / "catalogue.csv"))
+    assert meta["system"] == system.name and meta["kind"] == "map"
+    assert meta["state"] == [s.name for s in system.state_symbols]
+    assert meta["expression"] == "; ".join(f"{s.name}' = {e}" for s, e in zip(system.state_symbols, system.update))
+    assert meta["params"] == {"K": system.params["K"]}
+
+
 def test_importing_export_does_not_import_bokeh():
     code = ("import sys, phaselab.export, phaselab.compute.results; "
             "print('bokeh' in sys.modules, 'matplotlib' in sys.modules)")

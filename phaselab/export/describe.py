@@ -142,9 +142,17 @@ def used_params(section) -> dict:
 
 
 def expression_text(system) -> str:
-    """The system's expression as text (``str`` of the sympy expression), '' when unknown."""
+    """The system's expression as text (``str`` of the sympy expression), '' when unknown.
+
+    A Hamiltonian gives ``str(H.expr)``; a map without ``expr`` but with update rules
+    (``.update``, one expression per state component) gives ``"q' = ...; p' = ..."``.
+    """
     expr = getattr(system, "expr", None)
     if expr is None:
+        update = getattr(system, "update", None)
+        syms = getattr(system, "state_symbols", None)
+        if isinstance(update, (list, tuple)) and syms is not None and len(syms) == len(update):
+            return "; ".join(f"{getattr(s, 'name', s)}' = {e}" for s, e in zip(syms, update))
         return ""
     if isinstance(expr, (list, tuple)):
         return "; ".join(str(e) for e in expr)
