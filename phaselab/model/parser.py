@@ -53,11 +53,18 @@ _BINARY = {
 }
 
 
+_CHAINS = {ast.Add: "sum", ast.Sub: "sum", ast.Mult: "product", ast.Div: "product"}
+
+
 def _describe(node: ast.AST, text: str) -> str:
     piece = ast.get_source_segment(text, node) or type(node).__name__
     if len(piece) > 60:
         piece = piece[:57] + "..."
     return f"{type(node).__name__} `{piece}`"
+
+
+def _clip(text: str) -> str:
+    return f"`{text}`" if len(text) <= 60 else f"`{text[:57]}...`"
 
 
 def parse_expression(text: str, symbols: dict[str, sp.Symbol] | None = None,
@@ -102,7 +109,9 @@ def parse_expression(text: str, symbols: dict[str, sp.Symbol] | None = None,
         tree = ast.parse(text.strip(), mode="eval")
     except SyntaxError as exc:
         raise ExpressionError(f"cannot parse expression {text!r}: {exc.msg}") from None
-    except (RecursionError, MemoryError, ValueError) as exc:
+    except RecursionError:
+        raise ExpressionError(f"expression is nested more than {MAX_DEPTH} levels deep") from None
+    except (MemoryError, ValueError) as exc:
         raise ExpressionError(f"cannot parse expression: {exc}") from None
 
     nodes = sum(1 for _ in ast.walk(tree))
@@ -142,6 +151,18 @@ def parse_expression(text: str, symbols: dict[str, sp.Symbol] | None = None,
             sym = sp.Symbol(name, real=True)
             symbols[name] = sym
             return sym
+        if isinstance(node, ast.BinOp) and type(node.op) in _CHAINS:
+            # a + b - c + ... is a left-leaning tree as deep as it is long; walk the chain
+            # without recursion so long sums and products count as one level
+            group = _CHAINS[type(node.op)]
+            steps = []
+            while isinstance(node, ast.BinOp) and _CHAINS.get(type(node.op)) == group:
+                steps.append((type(node.op), node.right))
+                node = node.left
+            value = convert(node, level + 1)
+            for op, right in reversed(steps):
+                value = _BINARY[op](value, convert(right, level + 1))
+            return value
         if isinstance(node, ast.BinOp):
             op = type(node.op)
             if op not in _BINARY:
@@ -190,6 +211,14 @@ def parse_expression(text: str, symbols: dict[str, sp.Symbol] | None = None,
         expr = convert(tree, 0)
     except RecursionError:
         raise ExpressionError(f"expression is nested more than {MAX_DEPTH} levels deep") from None
+    bad = [a for a in (sp.zoo, sp.nan, sp.oo, -sp.oo) if expr.has(a)]
+    if bad:
+        raise ExpressionError(f"expression {_clip(src)} is undefined or infinite (it evaluates to {bad[0]}, "
+                              "e.g. a division by zero)")
+    if expr.has(sp.I) or any(b.is_number and b.is_negative and not e.is_integer
+                             for b, e in (a.args for a in expr.atoms(sp.Pow))):
+        raise ExpressionError(f"expression {_clip(src)} is complex-valued (it contains sqrt of a negative "
+                              "number or similar); phaselab works with real expressions")
     if unknown:
         raise ExpressionError(
             "unknown symbols: " + ", ".join(sorted(set(unknown)))
