@@ -1,0 +1,601 @@
+"""Equilibria of an autonomous Hamiltonian flow and fixed points of an area-preserving map.
+
+An equilibrium of Hamilton's equations is a state where the vector field
+``(dH/dp, -dH/dq)`` vanishes, i.e. where ``grad H = 0`` (the symplectic matrix is
+invertible). Each one is classified by the eigenvalues of the linearised vector field
+``A = J * Hess H`` with ``J = [[0, I], [-I, 0]]`` (the same matrix as the compiled
+``jacobian`` kernel), evaluated here from the sympy Jacobian.
+
+How they are found
+------------------
+1. Symbolically, when every component of ``grad H`` (parameters replaced by their numeric
+   values, as exact decimals) is a polynomial in the state with total degree at most
+   :data:`MAX_DEGREE` and a Bezout bound (product of degrees) at most :data:`MAX_BEZOUT`:
+   ``sympy.solve_poly_system`` then returns every solution, the real ones are kept and each
+   is polished by Newton's method. This path is complete (no equilibrium is missed).
+2. Otherwise (or when sympy declines the system), a multi-start Newton search: ``starts``
+   points drawn uniformly (``numpy.random.default_rng(seed)``) in the ``bounds`` box plus its
+   centre, each handed to ``scipy.optimize.root`` (method ``hybr``) with the lambdified
+   Hessian as Jacobian. This path finds the equilibria whose basins the starts hit; more
+   starts or tighter bounds find more.
+
+Conventions
+-----------
+* Default bounds: ``(-pi, pi)`` for an angle coordinate, ``(-3, 3)`` in the model's units for
+  every other state variable. Names missing from ``bounds`` keep their default.
+* A coordinate counts as an angle when H is 2 pi periodic in it (checked numerically at
+  random states to 1e-9 relative). Angles are reported reduced into ``(-pi, pi]`` when that
+  value lies in the bounds (else the first representative at or above the lower bound), and
+  equilibria that differ by multiples of 2 pi in angles are the same equilibrium.
+* State variables absent from H (cyclic coordinates, or momenta H does not contain) make the
+  equilibria come in lines; they are held at the centre of their bounds, listed in
+  ``Equilibrium.free``, and such equilibria have zero eigenvalues ("degenerate").
+* Symbolic solutions are all returned when ``bounds`` is None; with explicit bounds, and
+  always for the Newton search, only equilibria inside the box are returned.
+* Two solutions are the same equilibrium when they agree to ``1e-6 * (1 + |z|)`` (max norm).
+
+Tolerances of the classification (``scale`` = largest singular value of ``A``):
+``|Re l| < 1e-9 * scale`` is a zero real part, ``|l| < 1e-6 * scale`` is a zero eigenvalue,
+eigenvalues closer than ``1e-6 * scale`` are repeated, and a repeated eigenvalue whose
+eigenspace is smaller than its multiplicity (a Jordan block) makes the equilibrium
+"degenerate". For maps the same tests are made on ``|l| - 1`` (unit circle) and ``l - 1``.
+
+These are model results: the stability of a real machine lattice or spacecraft orbit must be
+confirmed with validated tools and the responsible engineers.
+"""
+
+from __future__ import annotations
+
+import math
+import warnings
+from dataclasses import dataclass, field
+from typing import Mapping
+
+import numpy as np
+import sympy as sp
+from scipy import optimize
+
+from phaselab.errors import ModelError, ParameterError
+
+ZERO_REAL = 1e-9
+"""|Re(lambda)| below this times the scale of A counts as zero."""
+ZERO_EIGENVALUE = 1e-6
+"""|lambda| below this times the scale of A is a zero eigenvalue."""
+REPEATED = 1e-6
+"""Eigenvalues closer than this times the scale of A are repeated."""
+SAME_POINT = 1e-6
+"""Solutions closer than this times (1 + |z|) are one equilibrium."""
+RESIDUAL = 1e-8
+"""Accepted max |grad H| relative to (1 + |Hess H| * (1 + |z|))."""
+DEFAULT_HALF_WIDTH = 3.0
+"""Default bounds of non-angle state variables: (-3, 3)."""
+MAX_DEGREE = 4
+MAX_BEZOUT = 64
+STABILITIES = ("elliptic", "hyperbolic", "mixed", "degenerate")
+
+
+@dataclass(repr=False)
+class Equilibrium:
+    """An equilibrium of a flow (or a fixed point of a map).
+
+    Attributes
+    ----------
+    state : ndarray, shape (2n,)
+        ``(q1..qn, p1..pn)`` at the equilibrium.
+    energy : float
+        H at the equilibrium (NaN for a map).
+    eigenvalues : ndarray of complex, shape (2n,)
+        Of the linearised vector field ``J Hess H`` (flows) or of the map's Jacobian (maps),
+        sorted by real then imaginary part.
+    stability : str
+        ``"elliptic"`` (flow: all purely imaginary and nonzero; map: all on the unit circle,
+        none equal to 1), ``"hyperbolic"`` (flow: all with nonzero real part; map: all off the
+        unit circle), ``"mixed"`` (some of each, e.g. saddle-centre) or ``"degenerate"``
+        (zero eigenvalues, eigenvalue 1 for maps, or repeated eigenvalues forming a Jordan
+        block, where the linearisation does not decide).
+    names : tuple of str
+        The state variable names, for display.
+    method : str
+        ``"symbolic"`` or ``"newton"``: how it was found.
+    residual : float
+        max |grad H| (or of the wrapped map residual) at ``state``.
+    free : tuple of str
+        State variables along which the equilibrium extends (absent from H); held fixed.
+    """
+
+    state: np.ndarray
+    energy: float
+    eigenvalues: np.ndarray
+    stability: str
+    names: tuple = ()
+    method: str = "newton"
+    residual: float = 0.0
+    free: tuple = field(default_factory=tuple)
+
+    def __repr__(self) -> str:
+        names = self.names or tuple(f"z{i}" for i in range(len(self.state)))
+        where = ", ".join(f"{n}={_num(v)}" for n, v in zip(names, self.state))
+        eig = ", ".join(_cnum(v) for v in self.eigenvalues)
+        energy = "" if not np.isfinite(self.energy) else f"; H={_num(self.energy)}"
+        free = f"; free along {', '.join(self.free)}" if self.free else ""
+        return f"Equilibrium({self.stability} at {where}{energy}; eigenvalues [{eig}]{free})"
+
+
+def _num(v: float) -> str:
+    v = float(v)
+    return "0" if abs(v) < 5e-13 else f"{v:.7g}"
+
+
+def _cnum(v: complex) -> str:
+    re, im = _num(v.real), _num(v.imag)
+    if im == "0":
+        return re
+    if re == "0":
+        return f"{im}j"
+    return f"{re}{'+' if v.imag > 0 else ''}{im}j"
+
+
+# --------------------------------------------------------------------------- classification
+def classify_flow(A: np.ndarray) -> tuple[np.ndarray, str]:
+    """Eigenvalues of a linearised Hamiltonian vector field and the stability they imply.
+
+    Parameters
+    ----------
+    A : ndarray, shape (2n, 2n)
+
+    Returns
+    -------
+    eigenvalues : ndarray of complex, shape (2n,), sorted by (real, imag)
+    stability : str, one of :data:`STABILITIES`
+    """
+    A = np.asarray(A, dtype=float)
+    lam = _sorted(np.linalg.eigvals(A))
+    if not np.all(np.isfinite(A)):
+        return lam, "degenerate"
+    scale = float(np.linalg.norm(A, 2))
+    if scale == 0.0 or np.any(np.abs(lam) < ZERO_EIGENVALUE * scale) or _defective(A, lam, scale):
+        return lam, "degenerate"
+    zero_re = np.abs(lam.real) < ZERO_REAL * scale
+    if zero_re.all():
+        return lam, "elliptic"
+    if not zero_re.any():
+        return lam, "hyperbolic"
+    return lam, "mixed"
+
+
+def classify_map(M: np.ndarray) -> tuple[np.ndarray, str]:
+    """Eigenvalues of the Jacobian of a map at a fixed point and the stability they imply.
+
+    On the unit circle (``||l| - 1| < 1e-9``) counts as elliptic, off it as hyperbolic; an
+    eigenvalue 1 or a Jordan block makes the fixed point degenerate.
+    """
+    M = np.asarray(M, dtype=float)
+    lam = _sorted(np.linalg.eigvals(M))
+    if not np.all(np.isfinite(M)):
+        return lam, "degenerate"
+    scale = max(1.0, float(np.linalg.norm(M, 2)))
+    if np.any(np.abs(lam - 1.0) < ZERO_EIGENVALUE) or _defective(M, lam, scale):
+        return lam, "degenerate"
+    on_circle = np.abs(np.abs(lam) - 1.0) < ZERO_REAL * scale
+    if on_circle.all():
+        return lam, "elliptic"
+    if not on_circle.any():
+        return lam, "hyperbolic"
+    return lam, "mixed"
+
+
+def _sorted(lam: np.ndarray) -> np.ndarray:
+    lam = np.asarray(lam, dtype=complex)
+    return lam[np.lexsort((lam.imag, np.round(lam.real, 12)))]
+
+
+def _defective(A: np.ndarray, lam: np.ndarray, scale: float) -> bool:
+    """True when a repeated eigenvalue has fewer independent eigenvectors than its multiplicity."""
+    n = len(lam)
+    seen = np.zeros(n, dtype=bool)
+    for i in range(n):
+        if seen[i]:
+            continue
+        close = np.abs(lam - lam[i]) < REPEATED * scale
+        seen |= close
+        m = int(close.sum())
+        if m < 2:
+            continue
+        centre = lam[close].mean()
+        sv = np.linalg.svd(A - centre * np.eye(n), compute_uv=False)
+        if int(np.sum(sv < REPEATED * scale)) < m:
+            return True
+    return False
+
+
+# --------------------------------------------------------------------------- public entry
+def equilibria(system, params=None, bounds=None, starts: int = 200, seed: int = 0) -> list[Equilibrium]:
+    """Equilibria of an autonomous Hamiltonian flow, or fixed points of an area-preserving map.
+
+    Parameters
+    ----------
+    system : Hamiltonian or AreaPreservingMap
+        A time-dependent Hamiltonian is refused (see Raises).
+    params : mapping of str to float, optional
+        Parameter values; defaults from the model.
+    bounds : mapping of str to (float, float), optional
+        Search box per state variable name; see the module docstring for defaults, the
+        handling of angles and which solutions are returned.
+    starts : int
+        Number of random Newton starts (the box centre is always tried as well).
+    seed : int
+        Seed of the random starts, so results are reproducible.
+
+    Returns
+    -------
+    list of Equilibrium
+        Sorted by energy (maps: by position).
+
+    Raises
+    ------
+    ModelError
+        For a Hamiltonian with explicit time dependence.
+    ParameterError
+        For unknown names or empty/non-finite intervals in ``bounds``, unknown parameters,
+        or a non-positive ``starts``.
+    """
+    if isinstance(starts, bool) or not isinstance(starts, (int, np.integer)) or starts < 0:
+        raise ParameterError(f"starts must be a non-negative integer, got {starts!r}")
+    if getattr(system, "kind", "flow") == "map":
+        return _map_fixed_points(system, params, bounds, int(starts), seed)
+    if not system.is_autonomous:
+        raise ModelError(
+            f"system {system.name!r} depends on time explicitly, so it has no equilibria in the "
+            f"usual sense; for the equilibria of the frozen system at a fixed time, build it with "
+            f"the time symbol {system.time.name!r} declared as a parameter (e.g. "
+            f"params={{'{system.time.name}': 0.0}}) and pass the time you want in params")
+    return _FlowSearch(system, params, bounds).run(int(starts), seed)
+
+
+# --------------------------------------------------------------------------- helpers
+def exact_number(value: float) -> sp.Rational:
+    """A float as the exact decimal it prints as (so 0.01 becomes 1/100)."""
+    return sp.Rational(repr(float(value)))
+
+
+def check_bounds(bounds, names: tuple[str, ...], what: str = "bounds") -> dict[str, tuple[float, float]]:
+    """Validate a mapping of state-variable name to (lo, hi)."""
+    if bounds is None:
+        return {}
+    if not isinstance(bounds, Mapping):
+        raise ParameterError(f"{what} must be a mapping of name to (low, high), got {type(bounds).__name__}")
+    out = {}
+    for key, rng in bounds.items():
+        name = str(getattr(key, "name", key))
+        if name not in names:
+            raise ParameterError(f"{what}: unknown state variable {name!r}; this system has: {', '.join(names)}")
+        try:
+            lo, hi = (float(rng[0]), float(rng[1]))
+            if len(rng) != 2:
+                raise ValueError
+        except (TypeError, ValueError, IndexError):
+            raise ParameterError(f"{what}[{name!r}] must be (low, high), got {rng!r}") from None
+        if not (math.isfinite(lo) and math.isfinite(hi)):
+            raise ParameterError(f"{what}[{name!r}] = {rng!r} must be finite")
+        if not lo < hi:
+            raise ParameterError(f"{what}[{name!r}] = {rng!r} is empty: low must be below high")
+        out[name] = (lo, hi)
+    return out
+
+
+def _lambdify(args, exprs):
+    # lambdify prints sympy's own expression trees of the model into numpy code (no user text)
+    return sp.lambdify(args, exprs, modules="numpy")
+
+
+def _wrap_angle(x: np.ndarray) -> np.ndarray:
+    """Reduce into (-pi, pi]."""
+    return np.pi - np.mod(np.pi - x, 2 * np.pi)
+
+
+def _periodic_vars(fn, n_vars: int, candidates, rng, period=2 * np.pi) -> set[int]:
+    """Indices among ``candidates`` in which ``fn`` is ``period`` periodic, tested numerically."""
+    out = set()
+    points = rng.uniform(-2.0, 2.0, size=(5, n_vars))
+    with np.errstate(all="ignore"), warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        base = np.array([_scalar(fn(*z)) for z in points])
+        if not np.all(np.isfinite(base)):
+            return out
+        for i in candidates:
+            shifted = points.copy()
+            shifted[:, i] += period
+            vals = np.array([_scalar(fn(*z)) for z in shifted])
+            if np.all(np.abs(vals - base) <= 1e-9 * (1.0 + np.abs(base))):
+                out.add(i)
+    return out
+
+
+def _scalar(v) -> float:
+    try:
+        return float(np.real_if_close(np.asarray(v, dtype=complex)))
+    except (TypeError, ValueError):
+        return float("nan")
+
+
+class _Box:
+    """Search box, angle handling and de-duplication shared by flows and maps."""
+
+    def __init__(self, names, given, angles: dict[int, float], default_half_width=DEFAULT_HALF_WIDTH,
+                 angle_default=None):
+        self.names = names
+        self.angles = angles  # index -> period
+        lo, hi = [], []
+        for i, name in enumerate(names):
+            if name in given:
+                a, b = given[name]
+            elif i in angles:
+                a, b = angle_default(angles[i]) if angle_default else (-angles[i] / 2, angles[i] / 2)
+            else:
+                a, b = -default_half_width, default_half_width
+            lo.append(a)
+            hi.append(b)
+        self.lo, self.hi = np.array(lo), np.array(hi)
+        self.centre = 0.5 * (self.lo + self.hi)
+
+    def reduce(self, z: np.ndarray) -> np.ndarray:
+        z = z.copy()
+        for i, period in self.angles.items():
+            if period == 2 * np.pi:
+                w = _wrap_angle(z[i])
+            else:
+                w = z[i] - period * math.floor(z[i] / period)
+            if not (self.lo[i] - 1e-12 <= w <= self.hi[i] + 1e-12):
+                w = self.lo[i] + np.mod(z[i] - self.lo[i], period)
+            z[i] = w
+        return z
+
+    def inside(self, z: np.ndarray) -> bool:
+        span = self.hi - self.lo
+        return bool(np.all(z >= self.lo - 1e-9 * span) and np.all(z <= self.hi + 1e-9 * span))
+
+    def same(self, a: np.ndarray, b: np.ndarray) -> bool:
+        d = a - b
+        for i, period in self.angles.items():
+            d[i] = d[i] - period * np.round(d[i] / period)
+        return bool(np.max(np.abs(d)) <= SAME_POINT * (1.0 + max(np.max(np.abs(a)), np.max(np.abs(b)))))
+
+    def random(self, count: int, seed) -> np.ndarray:
+        rng = np.random.default_rng(seed)
+        pts = rng.uniform(self.lo, self.hi, size=(count, len(self.lo)))
+        return np.vstack([self.centre[None, :], pts])
+
+
+def _add_unique(found: list, z: np.ndarray, residual: float, method: str, box: _Box) -> None:
+    for k, (other, res, _m) in enumerate(found):
+        if box.same(z, other):
+            if residual < res:
+                found[k] = (z, residual, _m if _m == "symbolic" else method)
+            return
+    found.append((z, residual, method))
+
+
+# --------------------------------------------------------------------------- flows
+class _FlowSearch:
+    def __init__(self, system, params, bounds):
+        self.system = system
+        self.params = params
+        self.values = system.param_values(params)
+        state = system.state_symbols
+        self.names = tuple(s.name for s in state)
+        given = check_bounds(bounds, self.names)
+        self.explicit_bounds = bounds is not None
+        n2 = len(state)
+        num = dict(zip(system.param_symbols, [sp.Float(v) for v in self.values]))
+        H = system.expr.xreplace(num)
+        free = H.free_symbols
+        self.fixed_idx = [i for i, s in enumerate(state) if s not in free]
+        self.var_idx = [i for i in range(n2) if i not in self.fixed_idx]
+        self.state = state
+        grad = [sp.diff(H, s) for s in state]
+        hess = [[sp.diff(g, s) for s in state] for g in grad]
+        self._H = _lambdify(state, H)
+        self._grad = _lambdify(state, grad)
+        self._hess = _lambdify(state, hess)
+        rng = np.random.default_rng(12345)
+        n = system.dof
+        coord_idx = [i for i in range(n) if i not in self.fixed_idx]
+        angles = {i: 2 * np.pi for i in _periodic_vars(self._H, n2, coord_idx, rng)}
+        self.box = _Box(self.names, given, angles)
+        exact = dict(zip(system.param_symbols, [exact_number(v) for v in self.values]))
+        self.grad_exact = [sp.diff(system.expr.xreplace(exact), s) for s in state]
+
+    # numeric pieces on the reduced unknowns
+    def _full(self, x: np.ndarray) -> np.ndarray:
+        z = self.box.centre.copy()
+        z[self.var_idx] = x
+        return z
+
+    def grad(self, z):
+        return np.array([float(g) for g in self._grad(*z)])
+
+    def hess(self, z):
+        return np.array(self._hess(*z), dtype=float)
+
+    def _fun(self, x):
+        return self.grad(self._full(x))[self.var_idx]
+
+    def _jac(self, x):
+        return self.hess(self._full(x))[np.ix_(self.var_idx, self.var_idx)]
+
+    def _newton(self, x0):
+        with np.errstate(all="ignore"), warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            try:
+                sol = optimize.root(self._fun, x0, jac=self._jac, method="hybr", options={"xtol": 1e-13})
+            except (ValueError, ZeroDivisionError, OverflowError, FloatingPointError, TypeError):
+                return None
+            x = sol.x
+            if not np.all(np.isfinite(x)):
+                return None
+            # a few plain Newton steps polish what hybr returns
+            for _ in range(3):
+                g = self._fun(x)
+                Jm = self._jac(x)
+                if not (np.all(np.isfinite(g)) and np.all(np.isfinite(Jm))):
+                    return None
+                try:
+                    dx = np.linalg.solve(Jm, -g)
+                except np.linalg.LinAlgError:
+                    break
+                if not np.all(np.isfinite(dx)) or np.max(np.abs(dx)) > 1e-3 * (1 + np.max(np.abs(x))):
+                    break
+                x = x + dx
+            g = self._fun(x)
+            Jm = self._jac(x)
+        if not (np.all(np.isfinite(g)) and np.all(np.isfinite(Jm))):
+            return None
+        res = float(np.max(np.abs(g))) if len(g) else 0.0
+        tol = RESIDUAL * (1.0 + (np.max(np.abs(Jm)) if Jm.size else 0.0) * (1.0 + np.max(np.abs(x), initial=0.0)))
+        return (x, res) if res <= tol else None
+
+    def _symbolic(self):
+        """Real solutions from sympy for small polynomial systems, else None."""
+        unknowns = [self.state[i] for i in self.var_idx]
+        eqs = [sp.expand(self.grad_exact[i]) for i in self.var_idx]
+        eqs = [e for e in eqs if e != 0]
+        if not eqs or not all(e.is_polynomial(*unknowns) for e in eqs):
+            return None
+        try:
+            polys = [sp.Poly(e, *unknowns) for e in eqs]
+        except sp.PolynomialError:
+            return None
+        if not all(p.domain.is_QQ or p.domain.is_ZZ for p in polys):
+            return None
+        degrees = [p.total_degree() for p in polys]
+        if max(degrees) > MAX_DEGREE or math.prod(degrees) > MAX_BEZOUT:
+            return None
+        try:
+            solutions = sp.solve_poly_system(polys, *unknowns)
+        except (NotImplementedError, sp.PolynomialError, ValueError, TypeError):
+            return None
+        if solutions is None:
+            return None
+        out = []
+        for sol in solutions:
+            try:
+                vals = [complex(sp.N(v, 30)) for v in sol]
+            except (TypeError, ValueError):
+                return None  # free symbols left: not zero-dimensional
+            if all(abs(v.imag) <= 1e-12 * (1.0 + abs(v.real)) for v in vals):
+                out.append(np.array([v.real for v in vals]))
+        return out
+
+    def run(self, starts: int, seed) -> list[Equilibrium]:
+        found: list = []
+        symbolic = self._symbolic() if self.var_idx else None
+        method = "symbolic"
+        if not self.var_idx:
+            candidates = [(np.zeros(0), 0.0)]
+        elif symbolic is not None:
+            candidates = []
+            for x0 in symbolic:
+                polished = self._newton(x0)
+                candidates.append(polished if polished is not None else (x0, float(np.max(np.abs(self._fun(x0))))))
+        else:
+            method = "newton"
+            candidates = []
+            for z0 in self.box.random(starts, seed):
+                r = self._newton(z0[self.var_idx])
+                if r is not None:
+                    candidates.append(r)
+        keep_all = method == "symbolic" and not self.explicit_bounds
+        for x, res in candidates:
+            z = self.box.reduce(self._full(x))
+            if keep_all or self.box.inside(z):
+                _add_unique(found, z, res, method, self.box)
+        out = [self._make(z, res, m) for z, res, m in found]
+        out.sort(key=lambda e: (e.energy, tuple(e.state)))
+        return out
+
+    def _make(self, z, res, method) -> Equilibrium:
+        n = self.system.dof
+        Hs = self.hess(z)
+        J = np.block([[np.zeros((n, n)), np.eye(n)], [-np.eye(n), np.zeros((n, n))]])
+        lam, stability = classify_flow(J @ Hs)
+        energy = float(self.system.energy(z, self.params))
+        return Equilibrium(state=z, energy=energy, eigenvalues=lam, stability=stability, names=self.names,
+                           method=method, residual=res, free=tuple(self.names[i] for i in self.fixed_idx))
+
+
+# --------------------------------------------------------------------------- maps
+def _map_modulus(system, n2: int) -> np.ndarray:
+    """Per-component modulus of a map (NaN where a component is not reduced)."""
+    mod = getattr(system, "modulus", None)
+    out = np.full(n2, np.nan)
+    if mod is None:
+        return out
+    names = [s.name for s in system.state_symbols]
+    if isinstance(mod, Mapping):
+        for k, v in mod.items():
+            name = str(getattr(k, "name", k))
+            if name in names and v is not None:
+                out[names.index(name)] = float(v)
+    elif np.ndim(mod) == 0:
+        out[:] = float(mod)
+    else:
+        for i, v in enumerate(mod):
+            if v is not None:
+                out[i] = float(v)
+    return out
+
+
+def _map_fixed_points(system, params, bounds, starts, seed) -> list[Equilibrium]:
+    """Fixed points z = M(z) (modulo the map's modulus), by multi-start Newton on the wrapped
+    residual ``wrap(M(z) - z)``, whose Jacobian is ``DM - I``."""
+    state = system.state_symbols
+    names = tuple(s.name for s in state)
+    given = check_bounds(bounds, names)
+    values = system.param_values(params)
+    num = dict(zip(system.param_symbols, [sp.Float(v) for v in values]))
+    update = [sp.sympify(e).xreplace(num) for e in system.update]  # sympy objects from the model
+    jac = [[sp.diff(e, s) for s in state] for e in update]
+    f_map = _lambdify(state, update)
+    f_jac = _lambdify(state, jac)
+    n2 = len(state)
+    mod = _map_modulus(system, n2)
+    periodic = {i: float(mod[i]) for i in range(n2) if np.isfinite(mod[i]) and mod[i] > 0}
+    box = _Box(names, given, periodic, angle_default=lambda period: (0.0, period))
+
+    def step(z):
+        return np.array([float(v) for v in f_map(*z)])
+
+    def residual(z):
+        d = step(z) - z
+        for i, period in periodic.items():
+            d[i] -= period * np.round(d[i] / period)
+        return d
+
+    def jacobian(z):
+        return np.array(f_jac(*z), dtype=float) - np.eye(n2)
+
+    found: list = []
+    for z0 in box.random(starts, seed):
+        with np.errstate(all="ignore"), warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            try:
+                sol = optimize.root(residual, z0, jac=jacobian, method="hybr", options={"xtol": 1e-13})
+            except (ValueError, ZeroDivisionError, OverflowError, FloatingPointError, TypeError):
+                continue
+            z = sol.x
+            if not np.all(np.isfinite(z)):
+                continue
+            r = residual(z)
+        res = float(np.max(np.abs(r)))
+        if not np.isfinite(res) or res > RESIDUAL * (1.0 + np.max(np.abs(z))):
+            continue
+        z = box.reduce(z)
+        if box.inside(z):
+            _add_unique(found, z, res, "newton", box)
+    out = []
+    for z, res, method in found:
+        lam, stability = classify_map(np.array(f_jac(*z), dtype=float))
+        out.append(Equilibrium(state=z, energy=float("nan"), eigenvalues=lam, stability=stability,
+                               names=names, method=method, residual=res))
+    out.sort(key=lambda e: tuple(e.state))
+    return out
