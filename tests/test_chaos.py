@@ -1,0 +1,119 @@
+"""Chaos indicators: Benettin's Lyapunov exponent, MEGNO, FLI and SALI."""
+
+import numpy as np
+import pytest
+from scipy.integrate import solve_ivp
+
+import phaselab
+from phaselab.compute.chaos import chaos_indicators
+from phaselab.errors import IntegrationError, ModelError
+
+HH_EXPR = "(px**2+py**2)/2 + (x**2+y**2)/2 + x**2*y - y**3/3"
+
+
+@pytest.fixture(scope="module")
+def henon_heiles():
+    return phaselab.Hamiltonian(HH_EXPR, ["x", "y"], ["px", "py"])
+
+
+def hh_seed(y, energy):
+    """x = 0, py = 0, px > 0 solved from H = E."""
+    return [0.0, y, np.sqrt(2 * energy - y**2 + 2 * y**3 / 3), 0.0]
+
+
+def test_linear_saddle_exponent_is_its_eigenvalue():
+    # H = p^2/2 - a^2 q^2/2 has eigenvalues +-a; the Lyapunov exponent of a linear flow is
+    # the largest real part of its eigenvalues (common practice). With deviation w0 the
+    # finite-time estimate is log|w(t)|/t, w(t) = e^{At} w0 exactly, computed here with scipy.
+    from scipy.linalg import expm
+
+    a = 0.7
+    S = phaselab.Hamiltonian("p**2/2 - a**2*q**2/2", ["q"], ["p"], params={"a": a})
+    T = 60.0
+    r = chaos_indicators(S, [0.0, 0.0], T, method="yoshida4", dt=0.01, vectors=1, seed=3)
+    w0 = np.random.default_rng(3).standard_normal((1, 2, 1))[0, :, 0]
+    w0 /= np.linalg.norm(w0)
+    A = np.array([[0.0, 1.0], [a**2, 0.0]])
+    exact = np.log(np.linalg.norm(expm(A * T) @ w0)) / T
+    assert r.lyapunov[0] == pytest.approx(exact, rel=1e-6)
+    assert r.lyapunov[0] == pytest.approx(a, rel=0.05)  # finite-time transient ~ log|a.w0|/T
+
+
+def test_isochronous_oscillator_megno_tends_to_zero():
+    # Cincotta & Simo 2000 (A&AS 147, 205): <Y> -> 0 for stable isochronous motion.
+    O = phaselab.Hamiltonian("p**2/2 + w**2*q**2/2", ["q"], ["p"], params={"w": 1.3})
+    r = chaos_indicators(O, [[1.0, 0.0]], 400.0, dt=0.01)
+    assert abs(r.megno[0]) < 0.01
+    assert abs(r.lyapunov[0]) < 0.01
+
+
+def test_henon_heiles_regular_and_chaotic(henon_heiles):
+    E = 1 / 8
+    seeds = [hh_seed(0.0, E), hh_seed(-0.2, E)]
+    r = chaos_indicators(henon_heiles, seeds, 3000.0, dt=0.02)
+    regular, chaotic = 0, 1
+    # quasi-periodic orbits: <Y> -> 2 (Cincotta & Simo 2000); SALI stays O(1) (Skokos 2001)
+    assert abs(r.megno[regular] - 2.0) < 0.5
+    assert r.sali[regular] > 1e-2
+    # chaotic orbits: <Y> grows like lambda t / 2, SALI -> 0 exponentially
+    assert r.megno[chaotic] > 20
+    assert r.sali[chaotic] < 1e-8
+    assert r.fli[chaotic] > 10 * r.fli[regular] / 2
+    # the exponent agrees with the growth of the distance between two nearby orbits
+    # integrated independently with scipy DOP853 (reference library), renormalised every 10
+    # time units (Benettin's algorithm done by hand)
+    def rhs(_, s):
+        x, y, px, py = s
+        return [px, py, -x - 2 * x * y, -y - x**2 + y**2]
+
+    z = np.array(seeds[chaotic], dtype=float)
+    d0 = 1e-8
+    w = z + d0 * np.array([1.0, 1.0, 0.0, 0.0]) / np.sqrt(2)
+    total, span, chunks = 0.0, 10.0, 150
+    for _ in range(chunks):
+        z = solve_ivp(rhs, (0, span), z, method="DOP853", rtol=1e-12, atol=1e-14).y[:, -1]
+        w = solve_ivp(rhs, (0, span), w, method="DOP853", rtol=1e-12, atol=1e-14).y[:, -1]
+        d = np.linalg.norm(w - z)
+        total += np.log(d / d0)
+        w = z + (w - z) * d0 / d
+    reference = total / (span * chunks)
+    at = np.argmin(np.abs(r.t - span * chunks))  # same finite time for both estimates
+    assert r.history["lyapunov"][chaotic, at] == pytest.approx(reference, rel=0.35)
+    assert r.lyapunov[chaotic] > 5 * r.lyapunov[regular]
+
+
+def test_gauss_tangent_agrees_with_splitting_tangent(henon_heiles):
+    # two different symplectic tangent maps of the same flow must give the same finite-time
+    # exponent to the accuracy of the methods (the tangent flow is unique; common practice)
+    seeds = [hh_seed(0.1, 1 / 12)]
+    a = chaos_indicators(henon_heiles, seeds, 100.0, method="yoshida6", dt=0.01, seed=1)
+    b = chaos_indicators(henon_heiles, seeds, 100.0, method="gauss6", dt=0.02, seed=1)
+    np.testing.assert_allclose(a.history["lyapunov"], b.history["lyapunov"], rtol=1e-6, atol=1e-9)
+
+
+def test_driven_system_runs_in_extended_phase_space():
+    D = phaselab.Hamiltonian("p**2/2 - cos(q) - eps*q*cos(W*t)", ["q"], ["p"],
+                             params={"eps": 0.0, "W": 1.0}, time="t", period="2*pi/W")
+    # with eps = 0 it is the free pendulum: a libration is regular (MEGNO near 2, since the
+    # pendulum is not isochronous; Cincotta & Simo 2000)
+    r = chaos_indicators(D, [[1.0, 0.0]], 1000.0, dt=0.02)
+    assert abs(r.megno[0] - 2.0) < 0.3
+
+
+def test_bad_input_is_refused(henon_heiles):
+    with pytest.raises(IntegrationError, match="not symplectic"):
+        chaos_indicators(henon_heiles, [hh_seed(0.0, 0.1)], 10.0, method="rk4")
+    with pytest.raises(ModelError, match="positive"):
+        chaos_indicators(henon_heiles, [hh_seed(0.0, 0.1)], -1.0)
+    with pytest.raises(ModelError, match="shape"):
+        chaos_indicators(henon_heiles, [[0.0, 0.1, 0.2]], 10.0)
+    with pytest.raises(IntegrationError, match="positive finite step"):
+        chaos_indicators(henon_heiles, [hh_seed(0.0, 0.1)], 10.0, dt=float("nan"))
+
+
+def test_escaping_orbit_is_flagged_and_batch_survives():
+    S = phaselab.Hamiltonian("p**2/2 - q**4/4", ["q"], ["p"])  # blows up in finite time
+    r = chaos_indicators(S, [[0.0, 0.0], [2.0, 3.0]], 50.0, dt=0.01)
+    assert not r.escaped[0] and r.escaped[1]
+    assert r.status[1] in ("became non-finite", "implicit step did not converge", "left the box")
+    assert np.isfinite(r.lyapunov[0])
