@@ -27,11 +27,17 @@ Conventions
   random states to 1e-9 relative). Angles are reported reduced into ``(-pi, pi]`` when that
   value lies in the bounds (else the first representative at or above the lower bound), and
   equilibria that differ by multiples of 2 pi in angles are the same equilibrium.
+* Maps: fixed points solve ``M(z) - z = 0`` with every wrapped component's difference
+  reduced modulo its period (``AreaPreservingMap.modulus``); they are reported inside the
+  wrapping interval, and default bounds of wrapped components are that interval.
 * State variables absent from H (cyclic coordinates, or momenta H does not contain) make the
   equilibria come in lines; they are held at the centre of their bounds, listed in
   ``Equilibrium.free``, and such equilibria have zero eigenvalues ("degenerate").
 * Symbolic solutions are all returned when ``bounds`` is None; with explicit bounds, and
   always for the Newton search, only equilibria inside the box are returned.
+* Straight lines of equilibria (null directions of the Hessian along which grad H stays
+  zero, as for a lattice invariant under translation) give one result each, the point of
+  the line nearest the box centre, with the line in ``Equilibrium.directions``.
 * Two solutions are the same equilibrium when they agree to ``1e-6 * (1 + |z|)`` (max norm).
 
 Tolerances of the classification (``scale`` = largest singular value of ``A``):
@@ -101,6 +107,10 @@ class Equilibrium:
         max |grad H| (or of the wrapped map residual) at ``state``.
     free : tuple of str
         State variables along which the equilibrium extends (absent from H); held fixed.
+    directions : ndarray, shape (m, 2n)
+        Unit directions of straight lines of equilibria through ``state`` (a symmetry such
+        as a translation); the reported state is the point of the line nearest the centre
+        of the search box. Empty for an isolated equilibrium.
     """
 
     state: np.ndarray
@@ -111,6 +121,7 @@ class Equilibrium:
     method: str = "newton"
     residual: float = 0.0
     free: tuple = field(default_factory=tuple)
+    directions: np.ndarray = field(default_factory=lambda: np.zeros((0, 0)))
 
     def __repr__(self) -> str:
         names = self.names or tuple(f"z{i}" for i in range(len(self.state)))
@@ -118,6 +129,8 @@ class Equilibrium:
         eig = ", ".join(_cnum(v) for v in self.eigenvalues)
         energy = "" if not np.isfinite(self.energy) else f"; H={_num(self.energy)}"
         free = f"; free along {', '.join(self.free)}" if self.free else ""
+        if len(self.directions):
+            free += f"; on {len(self.directions)}-dimensional line(s) of equilibria"
         return f"Equilibrium({self.stability} at {where}{energy}; eigenvalues [{eig}]{free})"
 
 
@@ -288,11 +301,6 @@ def _lambdify(args, exprs):
     return sp.lambdify(args, exprs, modules="numpy")
 
 
-def _wrap_angle(x: np.ndarray) -> np.ndarray:
-    """Reduce into (-pi, pi]."""
-    return np.pi - np.mod(np.pi - x, 2 * np.pi)
-
-
 def _periodic_vars(fn, n_vars: int, candidates, rng, period=2 * np.pi) -> set[int]:
     """Indices among ``candidates`` in which ``fn`` is ``period`` periodic, tested numerically."""
     out = set()
@@ -321,16 +329,18 @@ def _scalar(v) -> float:
 class _Box:
     """Search box, angle handling and de-duplication shared by flows and maps."""
 
-    def __init__(self, names, given, angles: dict[int, float], default_half_width=DEFAULT_HALF_WIDTH,
-                 angle_default=None):
+    def __init__(self, names, given, angles: dict[int, float], lows: dict[int, float] | None = None,
+                 default_half_width=DEFAULT_HALF_WIDTH):
         self.names = names
         self.angles = angles  # index -> period
+        self.lows = lows or {}  # index -> low end of the wrapping interval (maps)
         lo, hi = [], []
         for i, name in enumerate(names):
             if name in given:
                 a, b = given[name]
             elif i in angles:
-                a, b = angle_default(angles[i]) if angle_default else (-angles[i] / 2, angles[i] / 2)
+                low = self.lows.get(i, -angles[i] / 2)
+                a, b = low, low + angles[i]
             else:
                 a, b = -default_half_width, default_half_width
             lo.append(a)
@@ -341,10 +351,10 @@ class _Box:
     def reduce(self, z: np.ndarray) -> np.ndarray:
         z = z.copy()
         for i, period in self.angles.items():
-            if period == 2 * np.pi:
-                w = _wrap_angle(z[i])
+            if i in self.lows:
+                w = self.lows[i] + np.mod(z[i] - self.lows[i], period)
             else:
-                w = z[i] - period * math.floor(z[i] / period)
+                w = period / 2 - np.mod(period / 2 - z[i], period)  # into (-period/2, period/2]
             if not (self.lo[i] - 1e-12 <= w <= self.hi[i] + 1e-12):
                 w = self.lo[i] + np.mod(z[i] - self.lo[i], period)
             z[i] = w
@@ -505,46 +515,70 @@ class _FlowSearch:
                 if r is not None:
                     candidates.append(r)
         keep_all = method == "symbolic" and not self.explicit_bounds
+        directions = []
         for x, res in candidates:
+            x, dirs = self._on_line(x)
             z = self.box.reduce(self._full(x))
             if keep_all or self.box.inside(z):
+                before = len(found)
                 _add_unique(found, z, res, method, self.box)
-        out = [self._make(z, res, m) for z, res, m in found]
+                if len(found) > before:
+                    directions.append(dirs)
+        out = [self._make(z, res, m, d) for (z, res, m), d in zip(found, directions)]
         out.sort(key=lambda e: (e.energy, tuple(e.state)))
         return out
 
-    def _make(self, z, res, method) -> Equilibrium:
+    def _on_line(self, x):
+        """Straight lines of equilibria through ``x`` (e.g. a translation symmetry).
+
+        Null directions ``v`` of the Hessian along which grad H stays zero at distances
+        0.1 and 0.5 (times 1 + |x|) are taken as lines of equilibria; ``x`` is then moved
+        along them to the point nearest the box centre, so one line gives one result.
+        Returns the (possibly moved) point and the directions, shape (m, 2n).
+        """
+        nv = len(x)
+        empty = np.zeros((0, len(self.names)))
+        if nv == 0:
+            return x, empty
+        Hs = self._jac(x)
+        _, sv, vt = np.linalg.svd(Hs)
+        scale = max(float(sv[0]), 1.0)
+        null = vt[sv < ZERO_EIGENVALUE * scale]
+        if not len(null):
+            return x, empty
+        size = 1.0 + float(np.max(np.abs(x)))
+        tol = RESIDUAL * (1.0 + scale * size)
+        lines = []
+        with np.errstate(all="ignore"):
+            for v in null:
+                ok = all(np.all(np.abs(self._fun(x + sgn * d * size * v)) <= tol)
+                         for d in (0.1, 0.5) for sgn in (1.0, -1.0))
+                if ok:
+                    lines.append(v)
+        if not lines:
+            return x, empty
+        D = np.array(lines)
+        centre = self.box.centre[self.var_idx]
+        moved = x - D.T @ (D @ (x - centre))
+        with np.errstate(all="ignore"):
+            if np.all(np.abs(self._fun(moved)) <= tol):
+                x = moved
+        full = np.zeros((len(D), len(self.names)))
+        full[:, self.var_idx] = D
+        return x, full
+
+    def _make(self, z, res, method, directions=None) -> Equilibrium:
         n = self.system.dof
         Hs = self.hess(z)
         J = np.block([[np.zeros((n, n)), np.eye(n)], [-np.eye(n), np.zeros((n, n))]])
         lam, stability = classify_flow(J @ Hs)
         energy = float(self.system.energy(z, self.params))
         return Equilibrium(state=z, energy=energy, eigenvalues=lam, stability=stability, names=self.names,
-                           method=method, residual=res, free=tuple(self.names[i] for i in self.fixed_idx))
+                           method=method, residual=res, free=tuple(self.names[i] for i in self.fixed_idx),
+                           directions=np.zeros((0, len(z))) if directions is None else directions)
 
 
 # --------------------------------------------------------------------------- maps
-def _map_modulus(system, n2: int) -> np.ndarray:
-    """Per-component modulus of a map (NaN where a component is not reduced)."""
-    mod = getattr(system, "modulus", None)
-    out = np.full(n2, np.nan)
-    if mod is None:
-        return out
-    names = [s.name for s in system.state_symbols]
-    if isinstance(mod, Mapping):
-        for k, v in mod.items():
-            name = str(getattr(k, "name", k))
-            if name in names and v is not None:
-                out[names.index(name)] = float(v)
-    elif np.ndim(mod) == 0:
-        out[:] = float(mod)
-    else:
-        for i, v in enumerate(mod):
-            if v is not None:
-                out[i] = float(v)
-    return out
-
-
 def _map_fixed_points(system, params, bounds, starts, seed) -> list[Equilibrium]:
     """Fixed points z = M(z) (modulo the map's modulus), by multi-start Newton on the wrapped
     residual ``wrap(M(z) - z)``, whose Jacobian is ``DM - I``."""
@@ -553,14 +587,15 @@ def _map_fixed_points(system, params, bounds, starts, seed) -> list[Equilibrium]
     given = check_bounds(bounds, names)
     values = system.param_values(params)
     num = dict(zip(system.param_symbols, [sp.Float(v) for v in values]))
-    update = [sp.sympify(e).xreplace(num) for e in system.update]  # sympy objects from the model
+    update = [e.xreplace(num) for e in system.update]
     jac = [[sp.diff(e, s) for s in state] for e in update]
     f_map = _lambdify(state, update)
     f_jac = _lambdify(state, jac)
     n2 = len(state)
-    mod = _map_modulus(system, n2)
-    periodic = {i: float(mod[i]) for i in range(n2) if np.isfinite(mod[i]) and mod[i] > 0}
-    box = _Box(names, given, periodic, angle_default=lambda period: (0.0, period))
+    periods = tuple(getattr(system, "modulus", None) or (None,) * n2)
+    lows = tuple(getattr(system, "modulus_low", None) or (0.0,) * n2)
+    periodic = {i: float(periods[i]) for i in range(n2) if periods[i] is not None}
+    box = _Box(names, given, periodic, lows={i: float(lows[i] or 0.0) for i in periodic})
 
     def step(z):
         return np.array([float(v) for v in f_map(*z)])
