@@ -117,3 +117,24 @@ def test_escaping_orbit_is_flagged_and_batch_survives():
     assert not r.escaped[0] and r.escaped[1]
     assert r.status[1] in ("became non-finite", "implicit step did not converge", "left the box")
     assert np.isfinite(r.lyapunov[0])
+
+
+def test_cat_map_exponent_is_log_of_its_eigenvalue():
+    # the linear automorphism (q, p) -> (2q + p, q + p) mod 1 has Lyapunov exponent
+    # log of its largest eigenvalue (common practice); numpy.linalg.eigvals is the reference
+    cat = phaselab.AreaPreservingMap(["2*q + p", "q + p"], ["q"], ["p"], modulus=1.0)
+    r = chaos_indicators(cat, [[0.1, 0.3], [0.7, 0.2]], 5000)  # transient ~ 1/n
+    expected = np.log(np.max(np.abs(np.linalg.eigvals([[2.0, 1.0], [1.0, 1.0]]))))
+    np.testing.assert_allclose(r.lyapunov, expected, rtol=1e-3)
+
+
+def test_standard_map_strong_kick_exponent():
+    # for K >> 1 the standard map's exponent approaches ln(K/2) (Chirikov 1979, Phys. Rep.
+    # 52, 263, eq. 5.3; from memory); averaged over many orbits in the chaotic sea
+    K = 12.0
+    sm = phaselab.models.standard_map()
+    rng = np.random.default_rng(0)
+    seeds = rng.uniform(0, 2 * np.pi, size=(40, 2))
+    r = chaos_indicators(sm, seeds, 4000, params={"K": K})
+    assert np.mean(r.lyapunov) == pytest.approx(np.log(K / 2), rel=0.05)
+    assert np.all(r.sali < 1e-8)

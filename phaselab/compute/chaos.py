@@ -178,22 +178,19 @@ def _map_indicators(system, states, n_iter, values, used, record_every, vectors,
     out = {k: np.full((len(z), n_rec), np.nan) for k in ("lyapunov", "megno", "fli", "sali")}
     status = np.zeros(len(z), dtype=np.int64)
     stop = np.full(len(z), -1, dtype=np.int64)
-    modulus = np.array([float(m) if m is not None else 0.0 for m in _modulus(system, width)])
+    modulus = np.array([float(m) if m is not None else 0.0 for m in _per_component(system, "modulus", width)])
+    low = np.array([float(m) if m is not None else 0.0 for m in _per_component(system, "modulus_low", width)])
     lo = np.full(width, -np.inf)
     hi = np.full(width, np.inf)
     cs = compiled(system, "tangent")
-    cs.run_map_indicators(z, W0, values, n_iter, every, modulus, lo, hi, out["lyapunov"], out["megno"],
+    cs.run_map_indicators(z, W0, values, n_iter, every, modulus, low, lo, hi, out["lyapunov"], out["megno"],
                           out["fli"], out["sali"], status, stop)
     return _result(out, status, stop, every * np.arange(1, n_rec + 1, dtype=float), z, "map", 1.0, used)
 
 
-def _modulus(system, width):
-    mod = getattr(system, "modulus", None)
-    if mod is None:
-        return [None] * width
-    if isinstance(mod, dict):
-        return [mod.get(s.name, mod.get(s, None)) for s in system.state_symbols]
-    return list(mod)
+def _per_component(system, attribute, width):
+    values = getattr(system, attribute, None)
+    return [None] * width if values is None else list(values)
 
 
 def _result(out, status, stop, times, seeds, method, dt, used):

@@ -262,11 +262,11 @@ def run_indicators(Z0, W0, prm, h, n_steps, record_every, kind, weights, A, b, t
 
 
 @njit(cache=True, nogil=True, parallel=True)
-def run_map_indicators(Z0, W0, prm, n_iter, record_every, modulus, box_lo, box_hi,
+def run_map_indicators(Z0, W0, prm, n_iter, record_every, modulus, low, box_lo, box_hi,
                        out_lce, out_megno, out_fli, out_sali, status, stop_step):
     """The indicators of :func:`run_indicators` for an area-preserving map, one iterate being
-    one unit of time. ``modulus`` (shape ``(2n,)``) wraps components into ``[0, m)`` where
-    ``m > 0``."""
+    one unit of time. ``modulus`` and ``low`` (shape ``(2n,)``) wrap a component into
+    ``[low, low + m)`` where ``m > 0``."""
     n_orb = Z0.shape[0]
     k = W0.shape[2]
     use_sali = k > 1
@@ -302,7 +302,7 @@ def run_map_indicators(Z0, W0, prm, n_iter, record_every, modulus, box_lo, box_h
             for j in range(NSTATE):
                 v = znew[j]
                 if modulus[j] > 0.0:
-                    v = v - modulus[j] * math.floor(v / modulus[j])
+                    v = v - modulus[j] * math.floor((v - low[j]) / modulus[j])
                 z[j] = v
                 for col in range(k):
                     W[j, col] = Wn[j, col]
