@@ -183,9 +183,61 @@ def compiled(system, *loops: str):
     return compile_system(system, extra_sources=tuple(loop_source(n) for n in names))
 
 
-def default_step(system, method: Method, scale: float | None = None) -> float:
-    """A step size when the user gives none: a fraction of the shortest linear period at the
-    origin-free estimate ``scale`` (seconds of model time). Callers with knowledge of the
-    orbit's time scale should pass ``dt`` explicitly."""
-    base = 0.01 if scale is None else scale / 200.0
-    return base * (1.0 if method.order <= 2 else 2.0 if method.order <= 4 else 4.0)
+STEPS_PER_PERIOD = {2: 200, 4: 100, 6: 60, 8: 40}
+"""Steps per shortest linearised period used by :func:`default_step`, by method order."""
+
+
+def linear_time_scale(cs, states: np.ndarray, prm: np.ndarray) -> float:
+    """The shortest linearised time scale over the given states, in model time units.
+
+    For each state the Jacobian of the vector field (the compiled ``jacobian`` kernel) is
+    evaluated and the largest eigenvalue modulus ``lam`` taken; elliptic directions give
+    ``lam = omega`` (rad per unit time), hyperbolic ones the growth rate. Returns
+    ``2 pi / max(lam)`` over the states, or ``inf`` where every eigenvalue vanishes (a free
+    particle) or no state is finite.
+    """
+    Z = np.atleast_2d(np.asarray(states, dtype=float))
+    Z = Z[np.all(np.isfinite(Z), axis=1)]
+    if len(Z) == 0:
+        return np.inf
+    if len(Z) > 2000:  # a spread sample is enough for a time scale
+        Z = Z[np.linspace(0, len(Z) - 1, 2000).astype(int)]
+    m = Z.shape[1]
+    jac = np.zeros((len(Z), m, m))
+    for i, z in enumerate(Z):
+        cs.jacobian(np.ascontiguousarray(z), prm, jac[i])
+    jac = jac[np.all(np.isfinite(jac), axis=(1, 2))]
+    if len(jac) == 0:
+        return np.inf
+    lam = np.abs(np.linalg.eigvals(jac)).max()
+    return 2.0 * np.pi / lam if lam > 0 else np.inf
+
+
+def default_step(cs, method: Method, states: np.ndarray, prm: np.ndarray, span: float,
+                 period: float | None = None) -> float:
+    """The step used when the caller gives none.
+
+    ``T / STEPS_PER_PERIOD[order]`` where ``T`` is the shortest of: the linearised period
+    at the seeds (:func:`linear_time_scale`), the driving period of a time-periodic H, and
+    a tenth of the integration span (so a free particle, whose linearisation has no time
+    scale, still gets 400 to 2000 steps over the span). This is a starting point:
+    nonlinear orbits may need smaller steps (the energy error of the result tells), and
+    the linearisation at a seed does not see a close encounter later on the orbit.
+
+    Parameters
+    ----------
+    cs : CompiledSystem
+        The compiled autonomous system (``jacobian`` kernel).
+    method : Method
+    states : ndarray, shape (n_orbits, 2n)
+    prm : ndarray, shape (n_params,)
+    span : float
+        Length of the integration interval, > 0.
+    period : float, optional
+        Driving period of a time-periodic H.
+    """
+    scale = min(linear_time_scale(cs, states, prm), abs(span) / 10.0)
+    if period is not None and np.isfinite(period) and period > 0:
+        scale = min(scale, period)
+    per = STEPS_PER_PERIOD.get(method.order, 100 if method.order > 2 else 200)
+    return scale / per

@@ -181,7 +181,9 @@ def run_orbits(Z0, prm, h, n_steps, save_every, kind, weights, A, b, tol, maxit,
     in parallel over orbits, saving every ``save_every`` steps.
 
     ``out_states`` (``(n_orbits, n_saves, 2n)``) and ``out_energy`` (``(n_orbits,
-    n_saves)``) must be pre-filled with NaN; sample 0 is the initial state. An orbit that
+    n_saves)``) must be pre-filled with NaN; sample 0 is the initial state. When
+    ``n_steps`` is not a multiple of ``save_every`` and the arrays have room for one more
+    sample (``n_saves = n_steps // save_every + 2``), the final state is saved there too. An orbit that
     leaves the box, goes non-finite or fails an implicit solve is stopped: ``status[o]`` gets
     the code and ``stop_step[o]`` the step number at which it happened.
     """
@@ -206,8 +208,170 @@ def run_orbits(Z0, prm, h, n_steps, save_every, kind, weights, A, b, tol, maxit,
                 status[o] = st
                 stop_step[o] = step
                 break
-            if step % save_every == 0:
+            if step % save_every == 0 or (step == n_steps and k + 1 < out_states.shape[1]):
                 k += 1
                 for j in range(NSTATE):
                     out_states[o, k, j] = z[j]
                 out_energy[o, k] = hamiltonian(z, prm)
+
+
+# --------------------------------------------------------------------------- tangent maps
+#
+# The tangent steppers advance a state ``z`` and a block of tangent vectors ``V`` (shape
+# ``(2n, k)``, one vector per column) by the exact derivative of the same discrete map that
+# ``advance`` applies: V <- (d Phi_h / d z) V. With ``V`` the identity they give the Jacobian
+# of one step, whose symplecticity can then be checked to round-off; the chaos indicators
+# use them for variational equations that are consistent with the orbit's own integrator.
+
+
+@njit(cache=True, nogil=True)
+def _drift_tangent(z, V, c, prm, gp, jac):
+    """q += c dH/dp(p) and its tangent dq += c (d2H/dp2) dp (separable H)."""
+    n = NDOF
+    k = V.shape[1]
+    jacobian(z, prm, jac)
+    grad_p(z, prm, gp)
+    for i in range(n):
+        z[i] += c * gp[i]
+    for col in range(k):
+        for i in range(n):
+            acc = 0.0
+            for j in range(n):
+                acc += jac[i, n + j] * V[n + j, col]
+            V[i, col] += c * acc
+
+
+@njit(cache=True, nogil=True)
+def composition_tangent_step(z, V, h, prm, weights, gq, gp, jac):
+    """:func:`composition_step` together with its exact tangent map."""
+    n = NDOF
+    k = V.shape[1]
+    s = weights.shape[0]
+    c = 0.5 * weights[0] * h
+    for st in range(s):
+        _drift_tangent(z, V, c, prm, gp, jac)
+        jacobian(z, prm, jac)
+        grad_q(z, prm, gq)
+        d = weights[st] * h
+        for i in range(n):
+            z[n + i] -= d * gq[i]
+        # dp += d * (-d2H/dq2) dq, and jac[n:, :n] = -d2H/dq2
+        for col in range(k):
+            for i in range(n):
+                acc = 0.0
+                for j in range(n):
+                    acc += jac[n + i, j] * V[j, col]
+                V[n + i, col] += d * acc
+        if st + 1 < s:
+            c = 0.5 * (weights[st] + weights[st + 1]) * h
+        else:
+            c = 0.5 * weights[st] * h
+    _drift_tangent(z, V, c, prm, gp, jac)
+    return OK
+
+
+@njit(cache=True, nogil=True)
+def gauss_tangent(z_old, V, h, prm, A, b, K):
+    """Tangent of a converged Gauss-Legendre step from ``z_old`` with stage slopes ``K``.
+
+    The stages Z_i = z + h sum_l A_il f(Z_l) differentiate to the linear system
+    (I - h A (x) J(Z)) W = 1 (x) V, solved directly; then V <- V + h sum_i b_i J(Z_i) W_i.
+    """
+    m = NSTATE
+    s = b.shape[0]
+    k = V.shape[1]
+    Js = np.empty((s, m, m))
+    zs = np.empty(m)
+    for i in range(s):
+        for j in range(m):
+            acc = 0.0
+            for l in range(s):
+                acc += A[i, l] * K[l, j]
+            zs[j] = z_old[j] + h * acc
+        jacobian(zs, prm, Js[i])
+    S = s * m
+    M = np.zeros((S, S))
+    R = np.empty((S, k))
+    for i in range(s):
+        for l in range(s):
+            a = h * A[i, l]
+            for r in range(m):
+                for c in range(m):
+                    M[i * m + r, l * m + c] = -a * Js[l, r, c]
+        for r in range(m):
+            M[i * m + r, i * m + r] += 1.0
+            for col in range(k):
+                R[i * m + r, col] = V[r, col]
+    W = np.linalg.solve(M, R)
+    for col in range(k):
+        for r in range(m):
+            acc = 0.0
+            for i in range(s):
+                inner = 0.0
+                for c in range(m):
+                    inner += Js[i, r, c] * W[i * m + c, col]
+                acc += b[i] * inner
+            V[r, col] += h * acc
+
+
+@njit(cache=True, nogil=True)
+def rk4_tangent_step(z, V, h, prm):
+    """:func:`rk4_step` together with its exact tangent map."""
+    m = NSTATE
+    k = V.shape[1]
+    ks = np.empty((4, m))
+    dks = np.empty((4, m, k))
+    zs = z.copy()
+    Vs = V.copy()
+    jac = np.empty((m, m))
+    frac = (0.5, 0.5, 1.0)
+    for st in range(4):
+        vector_field(zs, prm, ks[st])
+        jacobian(zs, prm, jac)
+        for r in range(m):
+            for col in range(k):
+                acc = 0.0
+                for c in range(m):
+                    acc += jac[r, c] * Vs[c, col]
+                dks[st, r, col] = acc
+        if st < 3:
+            f = frac[st] * h
+            for r in range(m):
+                zs[r] = z[r] + f * ks[st, r]
+                for col in range(k):
+                    Vs[r, col] = V[r, col] + f * dks[st, r, col]
+    for r in range(m):
+        z[r] += h * (ks[0, r] + 2.0 * ks[1, r] + 2.0 * ks[2, r] + ks[3, r]) / 6.0
+        for col in range(k):
+            V[r, col] += h * (dks[0, r, col] + 2.0 * dks[1, r, col] + 2.0 * dks[2, r, col]
+                              + dks[3, r, col]) / 6.0
+    return OK
+
+
+@njit(cache=True, nogil=True)
+def advance_tangent(z, V, h, prm, kind, weights, A, b, tol, maxit, work):
+    """Advance ``z`` and the tangent vectors ``V`` (shape ``(2n, k)``) by one step of the
+    method ``kind``, in place; returns the status code of the state step.
+
+    Arguments are those of :func:`advance`. ``V`` is left unchanged when the step fails.
+    """
+    if kind == COMPOSITION:
+        jac = np.empty((NSTATE, NSTATE))
+        return composition_tangent_step(z, V, h, prm, weights, work[0, :NDOF], work[1, :NDOF], jac)
+    if kind == GAUSS:
+        z_old = z.copy()
+        st = advance(z, h, prm, kind, weights, A, b, tol, maxit, work)
+        if st == OK:
+            gauss_tangent(z_old, V, h, prm, A, b, work[:b.shape[0]])
+        return st
+    return rk4_tangent_step(z, V, h, prm)
+
+
+@njit(cache=True, nogil=True)
+def step_matrix(z, h, prm, kind, weights, A, b, tol, maxit):
+    """The Jacobian (shape ``(2n, 2n)``) of one step from ``z`` (``z`` is not modified)."""
+    work = make_work(max(b.shape[0], 1))
+    zz = z.copy()
+    V = np.eye(NSTATE)
+    advance_tangent(zz, V, h, prm, kind, weights, A, b, tol, maxit, work)
+    return V
