@@ -80,7 +80,7 @@ MAX_BEZOUT = 64
 STABILITIES = ("elliptic", "hyperbolic", "mixed", "degenerate")
 
 
-@dataclass(repr=False)
+@dataclass(repr=False, eq=False)
 class Equilibrium:
     """An equilibrium of a flow (or a fixed point of a map).
 
@@ -631,6 +631,6 @@ def _map_fixed_points(system, params, bounds, starts, seed) -> list[Equilibrium]
     for z, res, method in found:
         lam, stability = classify_map(np.array(f_jac(*z), dtype=float))
         out.append(Equilibrium(state=z, energy=float("nan"), eigenvalues=lam, stability=stability,
-                               names=names, method=method, residual=res))
+                               names=names, method=method, residual=res, directions=np.zeros((0, n2))))
     out.sort(key=lambda e: tuple(e.state))
     return out

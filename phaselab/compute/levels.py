@@ -42,7 +42,7 @@ NEWTON_TOL = 1e-12
 MAX_RESOLUTION = 8000
 
 
-@dataclass
+@dataclass(eq=False)
 class Separatrix:
     """The level curve through a hyperbolic equilibrium (one degree of freedom).
 
@@ -60,7 +60,7 @@ class Separatrix:
     lines: list
 
 
-@dataclass(repr=False)
+@dataclass(repr=False, eq=False)
 class LevelSet:
     """Contours of H (or of H minimised over eliminated momenta) on a regular grid.
 
