@@ -1,0 +1,211 @@
+"""The ``phaselab`` console command.
+
+::
+
+    phaselab demo [--out DIR]              render the built-in two-mode molecule study
+    phaselab render STUDY [--out DIR]      compute a study file's section and write its files
+    phaselab check STUDY                   read and check a study file, compute nothing
+    phaselab equations STUDY|MODEL         print the equations of motion
+    phaselab examples                      list the built-in studies and catalogue models
+
+``STUDY`` is a path to a study file (TOML, see ``phaselab/studies/README.md``) or the name
+of a built-in example. Exit status: 0 on success, 2 for a bad study file or bad command
+line (the message goes to stderr, without a traceback), 1 for any other refused input.
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+from pathlib import Path
+
+from phaselab.errors import PhaselabError, StudyFileError
+
+OK, FAILED, BAD_INPUT = 0, 1, 2
+
+
+# ----------------------------------------------------------------------------- helpers
+def _study_path(text: str) -> Path:
+    """A study file path, or the path of the built-in example of that name."""
+    from phaselab.studies import example_names, example_path
+
+    path = Path(text)
+    if path.suffix.lower() == ".toml" or path.exists() or "/" in text:
+        return path
+    if text in example_names():
+        return example_path(text)
+    raise StudyFileError(f"{text}: no such study file, and no built-in example of that name "
+                         f"(examples: {', '.join(example_names())})")
+
+
+def _read(text: str):
+    from phaselab.studies import read_study
+
+    return read_study(_study_path(text))
+
+
+def _unicode_ok(stream) -> bool:
+    enc = (getattr(stream, "encoding", None) or "").lower().replace("-", "")
+    return enc in ("utf8", "utf_8")
+
+
+def _print_files(files, out=sys.stdout):
+    for path in files:
+        print(f"wrote {path}", file=out)
+
+
+# ----------------------------------------------------------------------------- commands
+def cmd_render(args, demo: bool = False) -> int:
+    from phaselab.studies import DEMO, example_path, read_study, render_study
+
+    study = read_study(example_path(DEMO)) if demo else _read(args.study)
+    out_dir = Path(args.out)
+    n = study.seeds.count
+    bar = None
+    progress = None
+    if not args.quiet:
+        from tqdm import tqdm
+
+        bar = tqdm(total=n, unit="orbit", desc=study.title or study.source, file=sys.stderr,
+                   leave=False, dynamic_ncols=True)
+        progress = bar.update
+    try:
+        result = render_study(study, out_dir, progress=progress)
+    finally:
+        if bar is not None:
+            bar.close()
+    for index, reason in result.left_out[:10]:
+        print(f"note: seed {index} left out: {reason}", file=sys.stderr)
+    if len(result.left_out) > 10:
+        print(f"note: ... and {len(result.left_out) - 10} more seeds left out", file=sys.stderr)
+    for text in result.messages:
+        print(f"note: {text}", file=sys.stderr)
+    _print_files(result.files)
+    print(result.summary())
+    if demo:
+        print("next: edit a copy of the study file and run `phaselab render <file> --out <folder>`; "
+              f"the demo's study file is {example_path(DEMO)}")
+    return OK
+
+
+def cmd_check(args) -> int:
+    study = _read(args.study)
+    sec = study.section
+    what = {"plane": f"plane {sec.coordinate} = {sec.value:g}", "stroboscopic": "once per driving period",
+            "map": "every iterate"}[sec.kind]
+    print(f"ok: {study.source}: {study.system.name} ({study.system_form}), {study.seeds.count} seeds, "
+          f"{sec.crossings} crossings, section {what}")
+    for spec in study.outputs:
+        print(f"  writes {study.folder + '/' if study.folder else ''}{spec.file}")
+    return OK
+
+
+def cmd_equations(args) -> int:
+    import sympy as sp
+
+    from phaselab.model.catalogue import MODELS
+
+    target = args.study
+    if target in MODELS and not Path(target).exists():
+        system = MODELS[target]()
+    else:
+        system = _read(target).system
+    uni = _unicode_ok(sys.stdout)
+    print(f"{system.name}")
+    params = ", ".join(f"{k} = {v:g}" for k, v in system.params.items())
+    if params:
+        print(f"parameters: {params}")
+    print()
+    if getattr(system, "kind", "flow") == "map":
+        print("update (new values in terms of the old):")
+        for sym, expr in zip(system.state_symbols, system.update):
+            print(sp.pretty(sp.Eq(sp.Symbol(sym.name + "'"), expr, evaluate=False), use_unicode=uni))
+        return OK
+    print(sp.pretty(sp.Eq(sp.Symbol("H"), system.expr, evaluate=False), use_unicode=uni))
+    print()
+    print("Hamilton's equations:")
+    for eq in system.equations():
+        print(sp.pretty(eq, use_unicode=uni))
+        print()
+    return OK
+
+
+def cmd_examples(args) -> int:
+    from phaselab.model.catalogue import MODELS
+    from phaselab.studies import example_names, example_path, read_study
+
+    print("built-in studies (phaselab render NAME, or copy the file and edit it):")
+    for name in example_names():
+        study = read_study(example_path(name))
+        print(f"  {name:14s} {study.title}")
+        print(f"  {'':14s} {example_path(name)}")
+    print("catalogue models (phaselab equations NAME; system.model in a study file):")
+    print("  " + ", ".join(MODELS))
+    return OK
+
+
+# ----------------------------------------------------------------------------- parser
+def build_parser() -> argparse.ArgumentParser:
+    parser = argparse.ArgumentParser(
+        prog="phaselab",
+        description="Phase-space sections of Hamiltonian systems from study files.")
+    from phaselab import __version__
+
+    parser.add_argument("--version", action="version", version=f"phaselab {__version__}")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND")
+
+    p = sub.add_parser("demo", help="render the built-in two-mode molecule study to a PNG and a CSV")
+    p.add_argument("--out", default="phaselab-demo", metavar="DIR",
+                   help="folder to write into (default: ./phaselab-demo)")
+    p.add_argument("--quiet", action="store_true", help="no progress bar")
+
+    p = sub.add_parser("render", help="compute a study's section and write its figure and data files")
+    p.add_argument("study", metavar="STUDY", help="a study file (.toml) or a built-in example name")
+    p.add_argument("--out", default=".", metavar="DIR",
+                   help="folder the study's files are written into (default: the current folder)")
+    p.add_argument("--quiet", action="store_true", help="no progress bar")
+
+    p = sub.add_parser("check", help="read and check a study file without computing")
+    p.add_argument("study", metavar="STUDY", help="a study file (.toml) or a built-in example name")
+
+    p = sub.add_parser("equations", help="print the equations of motion of a study's system or a model")
+    p.add_argument("study", metavar="STUDY|MODEL", help="a study file, an example name or a catalogue model")
+
+    sub.add_parser("examples", help="list the built-in studies and catalogue models")
+    return parser
+
+
+COMMANDS = {
+    "demo": lambda a: cmd_render(a, demo=True),
+    "render": cmd_render,
+    "check": cmd_check,
+    "equations": cmd_equations,
+    "examples": cmd_examples,
+}
+
+
+def main(argv=None) -> int:
+    """Run the command line; returns the exit status (also when called from Python)."""
+    parser = build_parser()
+    try:
+        args = parser.parse_args(argv)
+    except SystemExit as exc:  # argparse: --help (0) or a usage error (2)
+        return int(exc.code or 0)
+    if not args.command:
+        parser.print_help(sys.stderr)
+        return BAD_INPUT
+    try:
+        return COMMANDS[args.command](args)
+    except StudyFileError as exc:
+        print(f"phaselab {args.command}: {exc}", file=sys.stderr)
+        return BAD_INPUT
+    except PhaselabError as exc:
+        print(f"phaselab {args.command}: {exc}", file=sys.stderr)
+        return FAILED
+    except KeyboardInterrupt:
+        print("phaselab: interrupted", file=sys.stderr)
+        return 130
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())

@@ -1,0 +1,261 @@
+"""Rendering a checked study: seeds -> section (in orbit batches) -> figure and data files.
+
+Everything here goes through the public calls a script would make
+(:func:`phaselab.shell_seeds`, :func:`phaselab.section`, :func:`phaselab.export.save`), so a
+study file and the equivalent Python give the same section points, bit for bit, for the
+same method and step. Orbits are integrated independently of each other, so computing them
+in batches (for a progress bar) does not change any number.
+"""
+
+from __future__ import annotations
+
+import math
+import warnings
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+
+from phaselab.errors import PhaselabError, StudyFileError
+from phaselab.studies.fields import Fields
+from phaselab.studies.reader import Study, confined_path
+
+#: batches per render, for progress reporting (each batch keeps at least MIN_BATCH orbits so
+#: both cores stay busy)
+N_BATCHES = 10
+MIN_BATCH = 4
+
+
+@dataclass
+class Rendered:
+    """What a render produced.
+
+    Attributes
+    ----------
+    section : phaselab.compute.results.Section
+    files : list of pathlib.Path
+        The files written, in the order of the study's outputs.
+    left_out : list of (int, str)
+        Seeds without a state on the energy shell (index in the file's seed list, reason).
+    messages : list of str
+        Warnings raised while computing (orbits that never crossed, stopped orbits, ...).
+    """
+
+    section: object
+    files: list
+    left_out: list = field(default_factory=list)
+    messages: list = field(default_factory=list)
+
+    @property
+    def n_orbits(self) -> int:
+        return int(self.section.n_orbits)
+
+    @property
+    def n_points(self) -> int:
+        return int(np.sum(self.section.counts))
+
+    @property
+    def worst_energy_error(self) -> float:
+        """Largest |relative energy error| over all orbits (0 for maps; NaN if none finite)."""
+        err = np.abs(np.asarray(self.section.energy_error, dtype=float))
+        err = err[np.isfinite(err)]
+        return float(err.max()) if err.size else float("nan")
+
+    def summary(self) -> str:
+        """One line: orbits, points, worst energy error."""
+        sec = self.section
+        text = f"{self.n_orbits} orbits, {self.n_points} section points"
+        if getattr(sec.system, "kind", "flow") == "map":
+            text += ", a map (no energy to conserve)"
+        else:
+            text += f", worst relative energy error {self.worst_energy_error:.2e}"
+        text += f", method {sec.method}"
+        if np.isfinite(sec.dt):
+            text += f", dt {sec.dt:g}"
+        escaped = int(np.sum(sec.escaped))
+        if escaped:
+            text += f", {escaped} stopped early"
+        if self.left_out:
+            text += f", {len(self.left_out)} seeds off the energy shell left out"
+        return text
+
+
+def plane_of(study: Study):
+    """The ``plane`` argument of :func:`phaselab.section` for this study."""
+    spec = study.section
+    if spec.kind == "plane":
+        return {spec.coordinate: spec.value}
+    if spec.kind == "stroboscopic":
+        return "stroboscopic"
+    return None
+
+
+def seed_states(study: Study):
+    """The initial states of the study, as :func:`phaselab.section` takes them.
+
+    Returns
+    -------
+    seeds : ShellSeeds or ndarray, shape (n_orbits, 2n)
+        A :class:`~phaselab.compute.seeds.ShellSeeds` when the study solves a momentum from
+        the energy, else full states.
+    """
+    spec, seeds = study.section, study.seeds
+    system = study.system
+    names = [s.name for s in system.state_symbols]
+    columns = {name: seeds.values[:, i] for i, name in enumerate(seeds.columns)}
+    if seeds.solve_for is not None:
+        from phaselab.compute.seeds import shell_seeds
+
+        return shell_seeds(system, spec.energy, {spec.coordinate: spec.value}, seeds.solve_for,
+                           columns, params=study.params, sign=spec.direction)
+    states = np.empty((seeds.count, len(names)))
+    for j, name in enumerate(names):
+        if name in columns:
+            states[:, j] = columns[name]
+        elif name == spec.coordinate:
+            states[:, j] = spec.value
+        else:  # pragma: no cover - the reader refuses seeds that leave a component out
+            raise StudyFileError(f"{study.source}: seeds: no value for {name}")
+    return states
+
+
+def section_options(study: Study) -> dict:
+    """Keyword arguments of :func:`phaselab.section` (besides system and seeds)."""
+    spec = study.section
+    opts = {"plane": plane_of(study), "crossings": spec.crossings, "params": study.params}
+    if spec.kind == "plane":
+        opts["direction"] = spec.direction
+    if spec.kind != "map":
+        opts["method"] = spec.method
+        opts["dt"] = spec.dt
+    if spec.show is not None:
+        opts["axes"] = spec.show
+    if spec.box is not None:
+        opts["box"] = spec.box
+    return opts
+
+
+def compute_section(study: Study, progress=None):
+    """Compute the study's section in orbit batches.
+
+    Parameters
+    ----------
+    study : Study
+    progress : callable, optional
+        Called with the number of orbits finished after each batch (e.g. ``tqdm.update``).
+
+    Returns
+    -------
+    section : Section
+    left_out : list of (int, str)
+    messages : list of str
+    """
+    from phaselab.compute.section import section
+    from phaselab.compute.seeds import ShellSeeds
+
+    seeds = seed_states(study)
+    energy = None
+    left_out = []
+    if isinstance(seeds, ShellSeeds):
+        left_out = seeds.invalid()
+        energy = seeds.energy
+        states = seeds.valid_states()
+        if states.shape[0] == 0:
+            first = left_out[0][1] if left_out else "no seeds"
+            raise StudyFileError(f"{study.source}: seeds: none of the {seeds.n_points} seeds has a state on "
+                                 f"the energy shell E = {seeds.energy:g} (first: {first})")
+    else:
+        states = seeds
+    n = states.shape[0]
+    size = max(MIN_BATCH, math.ceil(n / N_BATCHES))
+    opts = section_options(study)
+    parts = []
+    messages = []
+    for start in range(0, n, size):
+        batch = states[start:start + size]
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always", RuntimeWarning)
+            try:
+                parts.append(section(study.system, batch, energy=energy, **opts))
+            except StudyFileError:
+                raise
+            except PhaselabError as exc:
+                raise StudyFileError(f"{study.source}: section: {exc}") from None
+        for w in caught:
+            text = str(w.message)
+            if start:
+                text = f"(orbits from {start}) {text}"
+            messages.append(text)
+        if progress is not None:
+            progress(batch.shape[0])
+    return join_sections(parts), left_out, messages
+
+
+def join_sections(parts):
+    """One :class:`Section` from sections of consecutive orbit batches."""
+    from phaselab.compute.results import Section
+
+    if len(parts) == 1:
+        return parts[0]
+    first = parts[0]
+
+    def cat(name):
+        return np.concatenate([getattr(p, name) for p in parts], axis=0)
+
+    out = Section(points=cat("points"), counts=cat("counts"), times=cat("times"), axes=first.axes,
+                  axis_symbols=first.axis_symbols, energy_error=cat("energy_error"),
+                  escaped=cat("escaped"), seeds=cat("seeds"), plane=first.plane, energy=first.energy,
+                  method=first.method, dt=first.dt, system=first.system, params=first.params)
+    status = [getattr(p, "_status", None) for p in parts]
+    if all(s is not None for s in status):
+        object.__setattr__(out, "_status", np.concatenate(status))
+    return out
+
+
+def write_outputs(study: Study, sec, out_dir) -> list[Path]:
+    """Write every output the study names, under ``out_dir`` (folders made as needed)."""
+    from phaselab.export import save
+
+    files = []
+    f = Fields(study.source)
+    for i, spec in enumerate(study.outputs):
+        key = f"output.{spec.kind}"
+        path = confined_path(Path(out_dir), study.folder, spec.file, study.source)
+        try:
+            path.parent.mkdir(parents=True, exist_ok=True)
+        except OSError as exc:
+            raise f.error(key, f"cannot make folder {path.parent}: {exc.strerror or exc}") from None
+        options = dict(spec.options)
+        if spec.kind == "figure":
+            options.setdefault("title", study.title or None)
+            if study.note:
+                options.setdefault("note", study.note)
+        try:
+            files.append(save(sec, path, **options))
+        except PhaselabError as exc:
+            raise f.error(f"{key} ({spec.file})", str(exc)) from None
+        except OSError as exc:
+            raise f.error(f"{key} ({spec.file})", f"cannot write {path}: {exc.strerror or exc}") from None
+    return files
+
+
+def render_study(study: Study, out_dir, progress=None) -> Rendered:
+    """Compute the study's section and write its output files under ``out_dir``.
+
+    Parameters
+    ----------
+    study : Study
+        From :func:`phaselab.studies.read_study`.
+    out_dir : str or pathlib.Path
+        The output folder (made if missing); every file is confined to it.
+    progress : callable, optional
+        Called with the number of orbits finished after each batch.
+
+    Returns
+    -------
+    Rendered
+    """
+    out_dir = Path(out_dir)
+    sec, left_out, messages = compute_section(study, progress=progress)
+    files = write_outputs(study, sec, out_dir)
+    return Rendered(sec, files, left_out, messages)

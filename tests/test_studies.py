@@ -1,0 +1,456 @@
+"""Study files: reading, checking, refusing hostile input, and confining output paths.
+
+Nothing here compiles kernels; rendering (and its equality with the Python calls) is
+tested in tests/test_cli.py.
+"""
+
+from __future__ import annotations
+
+import builtins
+import math
+import os
+import textwrap
+
+import numpy as np
+import pytest
+import sympy as sp
+
+from phaselab.errors import StudyFileError
+from phaselab.studies import (MAX_ORBITS, example_names, example_path, parse_study,
+                              read_study)
+from phaselab.studies.reader import confined_path
+
+# A small valid study of our own: a puck on a tilted, dimpled air table (made-up constants).
+BASE = textwrap.dedent("""
+    [study]
+    title = "Puck on a dimpled table"
+
+    [system]
+    hamiltonian = "(px**2 + py**2)/2 + (x**2 + 2*y**2)/2 + a*x*y**2"
+    coordinates = ["x", "y"]
+    momenta = ["px", "py"]
+
+    [parameters]
+    a = { default = 0.3, range = [0.0, 1.0] }
+
+    [section]
+    plane = "x = 0"
+    energy = 0.05
+    crossings = 20
+    method = "leapfrog"
+    dt = 0.02
+
+    [seeds]
+    solve_for = "px"
+    line = { y = [-0.1, 0.1], py = [0.0, 0.0], count = 5 }
+
+    [output]
+    [[output.figure]]
+    file = "puck.png"
+    size = [4.0, 3.0]
+    dpi = 80
+
+    [[output.data]]
+    file = "puck.csv"
+    """)
+
+
+def with_changes(text=BASE, **replace):
+    """BASE with whole lines replaced: ``with_changes(**{'plane = "x = 0"': 'plane = "q = 1"'})``."""
+    for old, new in replace.items():
+        assert old in text, old
+        text = text.replace(old, new)
+    return text
+
+
+def refused(text, *fragments, source="bad.toml"):
+    """Parse ``text``, expect a StudyFileError, and check its message holds every fragment."""
+    with pytest.raises(StudyFileError) as info:
+        parse_study(text, source=source)
+    msg = str(info.value)
+    assert msg.startswith(f"{source}: "), msg
+    for frag in fragments:
+        assert frag in msg, f"{frag!r} not in {msg!r}"
+    return msg
+
+
+# ------------------------------------------------------------------------------- valid files
+def test_base_study_reads_into_checked_values():
+    study = parse_study(BASE, source="puck.toml")
+    assert study.system_form == "hamiltonian"
+    assert [s.name for s in study.system.state_symbols] == ["x", "y", "px", "py"]
+    assert study.params == {"a": 0.3}
+    assert study.system.parameters[0].range == (0.0, 1.0)
+    sec = study.section
+    assert (sec.kind, sec.coordinate, sec.value, sec.direction) == ("plane", "x", 0.0, 1)
+    assert (sec.energy, sec.crossings, sec.method, sec.dt) == (0.05, 20, "leapfrog", 0.02)
+    assert study.seeds.columns == ("y", "py")
+    assert study.seeds.solve_for == "px"
+    # linear seed line: numpy.linspace is the reference
+    np.testing.assert_array_equal(study.seeds.values[:, 0], np.linspace(-0.1, 0.1, 5))
+    assert [(o.kind, o.file) for o in study.outputs] == [("figure", "puck.png"), ("data", "puck.csv")]
+    assert study.outputs[0].options == {"size": (4.0, 3.0), "dpi": 80.0}
+
+
+def test_expression_strings_for_numbers_are_constants():
+    text = with_changes(**{'energy = 0.05': 'energy = "pi/100"',
+                           'a = { default = 0.3, range = [0.0, 1.0] }': 'a = "sqrt(2)/5"'})
+    study = parse_study(text)
+    # reference: Python's math module
+    assert study.section.energy == pytest.approx(math.pi / 100, rel=1e-15)
+    assert study.params["a"] == pytest.approx(math.sqrt(2) / 5, rel=1e-15)
+
+
+def test_hamiltonian_matches_sympy_built_directly():
+    study = parse_study(BASE)
+    x, y, px, py, a = sp.symbols("x y px py a", real=True)
+    reference = (px**2 + py**2) / 2 + (x**2 + 2 * y**2) / 2 + a * x * y**2  # sympy, built by hand
+    assert sp.simplify(study.system.expr - reference) == 0
+
+
+def test_grid_seeds_cover_the_product_in_state_order():
+    text = with_changes(**{'line = { y = [-0.1, 0.1], py = [0.0, 0.0], count = 5 }':
+                           'grid = { py = [-0.02, 0.02, 3], y = [-0.1, 0.1, 4] }'})
+    seeds = parse_study(text).seeds
+    assert seeds.columns == ("y", "py")  # state order, whatever order the file used
+    assert seeds.count == 12
+    pairs = {(round(a, 12), round(b, 12)) for a, b in seeds.values}
+    # reference: itertools-style product of the two numpy.linspace axes
+    expected = {(round(a, 12), round(b, 12)) for a in np.linspace(-0.1, 0.1, 4)
+                for b in np.linspace(-0.02, 0.02, 3)}
+    assert pairs == expected
+
+
+def test_points_and_fixed_columns():
+    text = with_changes(**{'line = { y = [-0.1, 0.1], py = [0.0, 0.0], count = 5 }':
+                           'points = { y = [0.01, 0.02, 0.03] }\nfixed = { py = 0.005 }'})
+    seeds = parse_study(text).seeds
+    np.testing.assert_array_equal(seeds.values, [[0.01, 0.005], [0.02, 0.005], [0.03, 0.005]])
+
+
+def test_lagrangian_form_builds_the_legendre_transform():
+    # a bead on a hoop spinning at rate w about its vertical diameter (our lab rig, R = 1)
+    text = textwrap.dedent("""
+        [system]
+        lagrangian = "m*R**2*(thd**2 + w**2*sin(th)**2)/2 + m*g*R*cos(th)"
+        coordinates = ["th"]
+        velocities = ["thd"]
+        momenta = ["pth"]
+        [parameters]
+        m = 1.0
+        R = 1.0
+        g = 9.81
+        w = 2.0
+        [section]
+        plane = "th = 0"
+        crossings = 3
+        [seeds]
+        points = { pth = [0.1] }
+        """)
+    study = parse_study(text)
+    th, pth, m, R, g, w = sp.symbols("th pth m R g w", real=True)
+    # reference: Legendre transform done by hand, H = p^2/(2 m R^2) - m R^2 w^2 sin^2/2 - m g R cos
+    H = pth**2 / (2 * m * R**2) - m * R**2 * w**2 * sp.sin(th)**2 / 2 - m * g * R * sp.cos(th)
+    assert sp.simplify(study.system.expr - H) == 0
+
+
+def test_catalogue_model_with_overrides_and_options():
+    text = textwrap.dedent("""
+        [system]
+        model = "fput_chain"
+        options = { n = 4 }
+        [parameters]
+        alpha = 0.1
+        [section]
+        plane = "q1 = 0"
+        energy = 0.2
+        crossings = 10
+        [seeds]
+        solve_for = "p1"
+        points = { q2 = [0.1], q3 = [0.0], q4 = [0.0], p2 = [0.0], p3 = [0.0], p4 = [0.0] }
+        """)
+    study = parse_study(text)
+    assert study.system_form == "model"
+    assert study.system.dof == 4
+    assert study.params == {"alpha": 0.1}
+
+
+def test_map_study_with_named_modulus():
+    text = textwrap.dedent("""
+        [system]
+        map = [["p", "p + k*sin(q)"], ["q", "q + p"]]
+        coordinates = ["q"]
+        momenta = ["p"]
+        modulus = { q = "2*pi", p = ["-pi", "pi"] }
+        [parameters]
+        k = 0.5
+        [section]
+        crossings = 10
+        [seeds]
+        points = { q = [1.0, 2.0], p = [0.0, 0.1] }
+        """)
+    study = parse_study(text)
+    assert study.section.kind == "map"
+    # reference: math.pi
+    assert study.system.modulus == pytest.approx((2 * math.pi, 2 * math.pi))
+    assert study.system.modulus_low == pytest.approx((0.0, -math.pi))
+
+
+@pytest.mark.parametrize("name", example_names())
+def test_examples_read_and_name_their_outputs(name):
+    study = read_study(example_path(name))
+    assert study.outputs, name
+    assert any(o.file.endswith(".png") for o in study.outputs)
+    assert any(o.file.endswith(".csv") for o in study.outputs)
+    assert study.seeds.count <= 64  # examples stay quick
+
+
+def test_there_are_three_examples_including_the_demo():
+    assert {"molecule", "kicked_rotor", "shaken_cart"} <= set(example_names())
+
+
+# ------------------------------------------------------------------------------- hostile input
+@pytest.mark.parametrize("expr, piece", [
+    ("__import__('os').system('true')", "system.hamiltonian"),
+    ("x.__class__.__bases__", "system.hamiltonian"),
+    ("(lambda: 1)()", "system.hamiltonian"),
+    ("[c for c in ().__class__.__base__.__subclasses__()]", "system.hamiltonian"),
+    ("open('/etc/passwd')", "system.hamiltonian"),
+    ("px**2 + eval('1')", "system.hamiltonian"),
+    ("px**2 + x if x else y", "system.hamiltonian"),
+    ("px**2 + zeta", "zeta"),
+])
+def test_code_in_expressions_is_refused_and_never_run(monkeypatch, expr, piece):
+    called = []
+
+    def trap(*args, **kwargs):
+        called.append(args)
+        raise AssertionError("a study file reached eval/exec")
+
+    monkeypatch.setattr(builtins, "eval", trap)
+    monkeypatch.setattr(builtins, "exec", trap)
+    monkeypatch.setattr(os, "system", trap)
+    text = with_changes(**{'hamiltonian = "(px**2 + py**2)/2 + (x**2 + 2*y**2)/2 + a*x*y**2"':
+                           "hamiltonian = '''" + expr + "'''"})
+    refused(text, piece)
+    assert called == []
+
+
+def test_hostile_number_expressions_are_refused():
+    refused(with_changes(**{'energy = 0.05': 'energy = "__import__(\'os\')"'}), "section.energy")
+    refused(with_changes(**{'energy = 0.05': 'energy = "x + 1"'}), "section.energy", "unknown")
+    refused(with_changes(**{'energy = 0.05': 'energy = "9**9**9**9"'}), "section.energy")
+
+
+def test_hostile_catalogue_names_and_options():
+    model = textwrap.dedent("""
+        [system]
+        model = "{name}"
+        {options}
+        [section]
+        plane = "x = 0"
+        crossings = 3
+        [seeds]
+        points = {{ y = [0.0], px = [0.1], py = [0.0] }}
+        """)
+    refused(model.format(name="__import__", options=""), "system.model", "unknown model")
+    refused(model.format(name="os.system", options=""), "system.model", "unknown model")
+    refused(model.format(name="fput_chain", options="options = { __class__ = 1 }"),
+            "system.options.__class__", "no option")
+    refused(model.format(name="fput_chain", options="options = { n = { deep = 1 } }"),
+            "system.options.n", "number or a string")
+    refused(model.format(name="fput_chain", options="options = { n = 100000 }"), "system.options.n")
+    refused(model.format(name="henon_heiles", options="").replace("[section]", "[parameters]\nz = 1\n[section]"),
+            "parameters.z", "no parameter")
+
+
+@pytest.mark.parametrize("old, new, fragments", [
+    ('crossings = 20', 'crossings = "many"', ("section.crossings", "whole number")),
+    ('crossings = 20', 'crossings = 2.5', ("section.crossings", "whole number")),
+    ('crossings = 20', 'crossings = 0', ("section.crossings", "at least 1")),
+    ('crossings = 20', 'crossings = true', ("section.crossings", "whole number")),
+    ('energy = 0.05', 'energy = true', ("section.energy", "boolean")),
+    ('energy = 0.05', 'energy = [0.05]', ("section.energy", "number")),
+    ('energy = 0.05', 'energy = inf', ("section.energy", "finite")),
+    ('energy = 0.05', 'energy = nan', ("section.energy", "finite")),
+    ('dt = 0.02', 'dt = -0.02', ("section.dt", "positive")),
+    ('dt = 0.02', 'dt = 1e-12', ("section.dt", "too small")),
+    ('method = "leapfrog"', 'method = "warp_drive"', ("section.method", "unknown method")),
+    ('coordinates = ["x", "y"]', 'coordinates = 3', ("system.coordinates", "list of names")),
+    ('coordinates = ["x", "y"]', 'coordinates = ["x", "y z"]', ("system.coordinates[1]", "plain name")),
+    ('coordinates = ["x", "y"]', 'coordinates = ["x", "__y"]', ("system.coordinates[1]", "plain name")),
+    ('plane = "x = 0"', 'plane = "q = 0"', ("section.plane", "not a coordinate")),
+    ('plane = "x = 0"', 'plane = "x"', ("section.plane", "<coordinate> = <value>")),
+    ('plane = "x = 0"', 'plane = 0', ("section.plane", "must be a string")),
+    ('plane = "x = 0"', 'plane = "x = zz"', ("section.plane", "unknown")),
+    ('solve_for = "px"', 'solve_for = "y"', ("seeds.solve_for", "not a momentum")),
+    ('[section]', '[section]\ndirection = "sideways"', ("section.direction",)),
+    ('a = { default = 0.3, range = [0.0, 1.0] }', 'a = { default = 0.3, range = [1.0, 0.0] }',
+     ("parameters.a.range", "low < high")),
+    ('a = { default = 0.3, range = [0.0, 1.0] }', 'a = { default = 3.0, range = [0.0, 1.0] }',
+     ("parameters.a.default", "outside")),
+    ('a = { default = 0.3, range = [0.0, 1.0] }', 'a = { value = 0.3 }', ("parameters.a.value", "unknown key")),
+    ('a = { default = 0.3, range = [0.0, 1.0] }', 'a = "hello"', ("parameters.a", "unknown")),
+    ('size = [4.0, 3.0]', 'size = [400.0, 3.0]', ("output.figure[0].size",)),
+    ('dpi = 80', 'dpi = 100000', ("output.figure[0].dpi", "at most")),
+    ('size = [4.0, 3.0]\ndpi = 80', 'size = [30.0, 30.0]\ndpi = 600', ("output.figure[0].dpi", "pixels")),
+    ('file = "puck.png"', 'file = "puck.exe"', ("output.figure[0].file", ".svg")),
+    ('[[output.data]]', '[[output.figure]]\nfile = "puck.png"\n[[output.data]]', ("output", "named twice")),
+])
+def test_wrong_types_and_values_name_the_key(old, new, fragments):
+    refused(with_changes(**{old: new}), *fragments)
+
+
+def test_unknown_keys_are_refused_with_their_dotted_path():
+    refused(with_changes(**{'plane = "x = 0"': 'plnae = "x = 0"'}), "section.plnae", "unknown key")
+    refused(BASE + "\n[extras]\nrun = 'rm -rf /'\n", "extras", "unknown key")
+    refused(with_changes(**{'file = "puck.csv"': 'file = "puck.csv"\nformat = "x"'}),
+            "output.data[0].format", "unknown key")
+    refused(with_changes(**{'[study]': '[study]\nscript = "import os"'}), "study.script", "unknown key")
+    refused(with_changes(**{'momenta = ["px", "py"]': 'momenta = ["px", "py"]\nmodulus = 1.0'}),
+            "system.modulus", "not used with system.hamiltonian")
+
+
+def test_missing_pieces_are_named():
+    refused(BASE.replace("[system]", "[systm]"), "systm", "unknown key")
+    refused(with_changes(**{'solve_for = "px"\n': ''}), "section.energy", "solve_for")
+    refused(with_changes(**{'energy = 0.05\n': ''}), "section.energy", "missing")
+    refused(with_changes(**{'line = { y = [-0.1, 0.1], py = [0.0, 0.0], count = 5 }':
+                            'line = { y = [-0.1, 0.1], count = 5 }'}), "seeds.line", "py")
+    refused(with_changes(**{'line = { y = [-0.1, 0.1], py = [0.0, 0.0], count = 5 }':
+                            'line = { x = [0, 1], y = [-0.1, 0.1], py = [0.0, 0.0], count = 5 }'}),
+            "seeds.line.x", "the plane sets it")
+
+
+def test_seed_counts_beyond_the_limit_are_refused_before_allocating():
+    refused(with_changes(**{'count = 5': 'count = 1000000000'}), "seeds.line.count", "at most")
+    grid = 'grid = { y = [-0.1, 0.1, 100000], py = [0.0, 0.1, 100000] }'
+    refused(with_changes(**{'line = { y = [-0.1, 0.1], py = [0.0, 0.0], count = 5 }': grid}),
+            "seeds.grid", "the limit is")
+    big = ", ".join(["0.0"] * (MAX_ORBITS + 1))
+    refused(with_changes(**{'line = { y = [-0.1, 0.1], py = [0.0, 0.0], count = 5 }':
+                            f'points = {{ y = [{big}], py = [{big}] }}'}), "seeds.points")
+    refused(with_changes(**{'crossings = 20': 'crossings = 10000000'}), "section.crossings", "at most")
+    refused(with_changes(**{'crossings = 20': 'crossings = 100000', 'count = 5': 'count = 4000'}),
+            "section.crossings", "points")
+
+
+def test_huge_arrays_are_refused():
+    long = ", ".join(["1"] * 20000)
+    refused(BASE.replace("[study]", f"[study]\n").replace('title = "Puck on a dimpled table"',
+                                                          f'title = "t"\nabout = "x"\n')
+            + f"\n[extras]\nbig = [{long}]\n", "extras")
+
+
+@pytest.mark.parametrize("path, fragment", [
+    ("../../etc/x.png", "leaves the output folder"),
+    ("../x.png", "leaves the output folder"),
+    ("sub/../../x.png", "leaves the output folder"),
+    ("/etc/x.png", "relative path"),
+    ("C:/x.png", "relative path"),
+    ("~/x.png", "relative path"),
+    ("sub\\\\..\\\\x.png", "relative path"),
+    ("a/b/c/d/e/x.png", "4 folders"),
+    (".hidden.png", "start with a letter or digit"),
+    ("x\\u0000.png", "may hold only"),
+])
+def test_output_paths_may_not_leave_the_folder(path, fragment):
+    refused(with_changes(**{'file = "puck.png"': f'file = "{path}"'}), "output.figure[0].file", fragment)
+
+
+def test_output_folder_is_confined_too():
+    refused(with_changes(**{'[output]': '[output]\nfolder = "../elsewhere"'}), "output.folder", "leaves")
+    refused(with_changes(**{'[output]': '[output]\nfolder = "/tmp"'}), "output.folder", "relative")
+
+
+def test_symlink_out_of_the_output_folder_is_refused(tmp_path):
+    out = tmp_path / "out"
+    out.mkdir()
+    outside = tmp_path / "outside"
+    outside.mkdir()
+    (out / "link").symlink_to(outside, target_is_directory=True)
+    inside = confined_path(out, "", "plots/a.png")
+    assert inside == (out / "plots" / "a.png").resolve()
+    with pytest.raises(StudyFileError, match="outside the output folder"):
+        confined_path(out, "link", "a.png")
+
+
+def test_deeply_nested_tables_and_arrays_are_refused():
+    deep_array = "x = " + "[" * 5000 + "]" * 5000 + "\n"
+    refused(deep_array, source="deep.toml")
+    dotted = "a" + "".join(f".k{i}" for i in range(50)) + " = 1\n"
+    refused(dotted, "nested more than", source="deep.toml")
+    inline = "a = " + "{ b = " * 30 + "1" + " }" * 30 + "\n"
+    refused(inline, "nested more than", source="deep.toml")
+
+
+def test_deeply_nested_expression_is_refused():
+    expr = "(" * 500 + "px" + ")" * 500
+    refused(with_changes(**{'"(px**2 + py**2)/2 + (x**2 + 2*y**2)/2 + a*x*y**2"': f'"{expr}"'}),
+            "system.hamiltonian", "nested")
+
+
+def test_not_an_area_preserving_map_is_refused():
+    text = textwrap.dedent("""
+        [system]
+        map = ["2*q", "p"]
+        coordinates = ["q"]
+        momenta = ["p"]
+        [section]
+        crossings = 10
+        [seeds]
+        points = { q = [1.0], p = [0.0] }
+        """)
+    refused(text, "system.map", "not area-preserving")
+
+
+def test_map_rules_of_the_wrong_shape():
+    text = textwrap.dedent("""
+        [system]
+        map = [["p", 3]]
+        coordinates = ["q"]
+        momenta = ["p"]
+        [section]
+        crossings = 10
+        [seeds]
+        points = { q = [1.0], p = [0.0] }
+        """)
+    refused(text, "system.map[0]", "pair of strings")
+
+
+def test_bad_toml_and_bad_files(tmp_path):
+    refused("[system\nx = 1", "not valid TOML", source="broken.toml")
+    big = tmp_path / "big.toml"
+    big.write_text("# " + "x" * 300_000 + "\n")
+    with pytest.raises(StudyFileError, match="big.toml: the file is .* bytes"):
+        read_study(big)
+    binary = tmp_path / "bin.toml"
+    binary.write_bytes(b"\xff\xfe\x00[system]")
+    with pytest.raises(StudyFileError, match="bin.toml: the file is not UTF-8"):
+        read_study(binary)
+    with pytest.raises(StudyFileError, match="missing.toml: cannot read"):
+        read_study(tmp_path / "missing.toml")
+
+
+def test_two_system_forms_are_refused():
+    refused(with_changes(**{'coordinates = ["x", "y"]': 'coordinates = ["x", "y"]\nmodel = "kepler"'}),
+            "system", "exactly one")
+
+
+def test_stroboscopic_plane_needs_a_driven_system():
+    refused(with_changes(**{'plane = "x = 0"': 'plane = "stroboscopic"'}), "section.plane", "time-periodic")
+
+
+def test_map_refuses_flow_keys():
+    text = textwrap.dedent("""
+        [system]
+        map = [["p", "p + sin(q)"], ["q", "q + p"]]
+        coordinates = ["q"]
+        momenta = ["p"]
+        [section]
+        crossings = 10
+        dt = 0.1
+        [seeds]
+        points = { q = [1.0], p = [0.0] }
+        """)
+    refused(text, "section.dt", "not used for a map")
