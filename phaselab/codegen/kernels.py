@@ -92,8 +92,9 @@ def _function(name: str, args: str, body: list[str], prelude: list[str] | None =
     return "\n".join(lines) + "\n"
 
 
-def _kernel(name, args, targets, exprs, n_state, n_params, zero_out=None, scalar=False):
-    body, used = print_assignments(targets, exprs, skip_zero=not scalar)
+def _kernel(name, args, targets, exprs, n_state, n_params, zero_out=None, scalar=False, what="expression",
+            display=None):
+    body, used = print_assignments(targets, exprs, skip_zero=not scalar, what=what, display=display)
     prelude = []
     if zero_out:
         prelude.append(f"    {zero_out}[:] = 0.0")
@@ -139,14 +140,21 @@ def flow_source(system) -> str:
     field_ = dHdp + [-d for d in dHdq]
     jac = _derivatives(field_, s)
     ns, nk = 2 * n, len(params)
+    back = {v: k for k, v in ren.items()}
+    label = f"of {system.name!r}"
+    names = [x.name for x in state]
     parts = [
-        _kernel("hamiltonian", "z, prm", ["return"], [H], ns, nk, scalar=True),
-        _kernel("grad_q", "z, prm, out", [f"out[{i}]" for i in range(n)], dHdq, ns, nk, zero_out="out"),
-        _kernel("grad_p", "z, prm, out", [f"out[{i}]" for i in range(n)], dHdp, ns, nk, zero_out="out"),
+        _kernel("hamiltonian", "z, prm", ["return"], [H], ns, nk, scalar=True,
+                what=f"Hamiltonian {label}", display=back),
+        _kernel("grad_q", "z, prm, out", [f"out[{i}]" for i in range(n)], dHdq, ns, nk, zero_out="out",
+                what=f"dH/dq {label}", display=back),
+        _kernel("grad_p", "z, prm, out", [f"out[{i}]" for i in range(n)], dHdp, ns, nk, zero_out="out",
+                what=f"dH/dp {label}", display=back),
         _kernel("vector_field", "z, prm, out", [f"out[{i}]" for i in range(ns)], field_, ns, nk,
-                zero_out="out"),
+                zero_out="out", what=f"vector field {label}", display=back),
         _kernel("jacobian", "z, prm, out", [f"out[{i // ns}, {i % ns}]" for i in range(ns * ns)], jac,
-                ns, nk, zero_out="out"),
+                ns, nk, zero_out="out", what=f"Jacobian {label} (rows/columns {', '.join(names)})",
+                display=back),
     ]
     return "\n\n".join(parts)
 
@@ -163,10 +171,12 @@ def map_source(system) -> str:
     update = [e.xreplace(ren) for e in system.update]
     jac = _derivatives(update, s)
     ns, nk = len(state), len(params)
+    back = {v: k for k, v in ren.items()}
     parts = [
-        _kernel("map_step", "z, prm, out", [f"out[{i}]" for i in range(ns)], update, ns, nk, zero_out="out"),
+        _kernel("map_step", "z, prm, out", [f"out[{i}]" for i in range(ns)], update, ns, nk, zero_out="out",
+                what=f"update of map {system.name!r}", display=back),
         _kernel("map_jacobian", "z, prm, out", [f"out[{i // ns}, {i % ns}]" for i in range(ns * ns)], jac,
-                ns, nk, zero_out="out"),
+                ns, nk, zero_out="out", what=f"Jacobian of map {system.name!r}", display=back),
     ]
     return "\n\n".join(parts)
 

@@ -64,7 +64,7 @@ class KernelPrinter(PythonCodePrinter):
 SUPPORTED_FUNCTIONS = (
     sp.sin, sp.cos, sp.tan, sp.asin, sp.acos, sp.atan, sp.atan2, sp.sinh, sp.cosh, sp.tanh,
     sp.asinh, sp.acosh, sp.atanh, sp.exp, sp.log, sp.Abs, sp.sign, sp.sec, sp.csc, sp.cot,
-    sp.Heaviside, sp.DiracDelta, sp.Max, sp.Min, sp.gamma, sp.loggamma, sp.erf, sp.erfc,
+    sp.Heaviside, sp.DiracDelta, sp.Max, sp.Min, sp.erf, sp.erfc,
 )
 
 
@@ -83,7 +83,7 @@ def _short(expr) -> str:
     return text if len(text) <= 80 else text[:77] + "..."
 
 
-def check_supported(expr: sp.Expr, where: str = "expression") -> None:
+def check_supported(expr: sp.Expr, where: str = "expression", display: dict | None = None) -> None:
     """Refuse expressions that cannot become compiled numeric code.
 
     Parameters
@@ -91,12 +91,25 @@ def check_supported(expr: sp.Expr, where: str = "expression") -> None:
     expr : sympy.Expr
     where : str
         What the expression is (``"dH/dq1"``), for the message.
+    display : dict, optional
+        Symbol replacements that turn renamed kernel symbols back into the model's names
+        for the message.
 
     Raises
     ------
     ModelError
         Naming the offending function or number.
     """
+    try:
+        _check_nodes(expr, where)
+    except ModelError as exc:
+        if not display:
+            raise
+        shown = expr.xreplace(display)
+        raise ModelError(str(exc).replace(_short(expr), _short(shown))) from None
+
+
+def _check_nodes(expr: sp.Expr, where: str) -> None:
     for node in sp.preorder_traversal(expr):
         if isinstance(node, sp.Pow):
             base, exponent = node.args
@@ -142,7 +155,8 @@ def unpack_lines(n_state: int, n_params: int, used: set[str], indent: str = "   
 
 
 def print_assignments(targets: Sequence[str], exprs: Sequence[sp.Expr], indent: str = "    ",
-                      skip_zero: bool = False) -> tuple[list[str], set[str]]:
+                      skip_zero: bool = False, what: str = "expression",
+                      display: dict | None = None) -> tuple[list[str], set[str]]:
     """Print ``target = expr`` lines with shared common subexpressions.
 
     Parameters
@@ -154,6 +168,10 @@ def print_assignments(targets: Sequence[str], exprs: Sequence[sp.Expr], indent: 
     skip_zero : bool
         Leave out assignments whose expression is identically zero (the output array is
         zeroed beforehand).
+    what : str
+        What the expressions are, for error messages.
+    display : dict, optional
+        Renamed symbol -> model symbol, for error messages.
 
     Returns
     -------
@@ -165,7 +183,7 @@ def print_assignments(targets: Sequence[str], exprs: Sequence[sp.Expr], indent: 
     if not pairs:
         return [], set()
     for target, e in pairs:
-        check_supported(e, f"expression for {target}")
+        check_supported(e, f"{what} ({target})", display)
     replacements, reduced = sp.cse([e for _, e in pairs], symbols=sp.numbered_symbols("c"),
                                    optimizations="basic")
     printer = KernelPrinter()
