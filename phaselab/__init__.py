@@ -25,6 +25,12 @@ _LAZY = {
     "equilibria": "phaselab.compute.equilibria",
     "Equilibrium": "phaselab.compute.equilibria",
     "lyapunov": "phaselab.compute.chaos",
+    "chaos_indicators": "phaselab.compute.chaos",
+    "ChaosIndicators": "phaselab.compute.chaos",
+    "chaos_map": "phaselab.scan.grids",
+    "parameter_scan": "phaselab.scan.grids",
+    "shell_grid": "phaselab.scan.grids",
+    "state_grid": "phaselab.scan.grids",
     "explore": "phaselab.widgets.explorer",
 }
 

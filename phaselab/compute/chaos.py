@@ -86,15 +86,26 @@ def _states(system, states, width):
     return z
 
 
-def _deviations(n_orbits, width, vectors, seed, active):
-    rng = np.random.default_rng(seed)
-    W = rng.standard_normal((n_orbits, width, vectors))
-    W[:, ~active, :] = 0.0
+def _deviations(n_orbits, width, vectors, seed, active, given=None):
+    """Initial deviation vectors, shape (n_orbits, width, vectors); ``given`` (in the
+    components marked ``active``) replaces the random draw."""
+    if given is None:
+        W = np.random.default_rng(seed).standard_normal((n_orbits, width, vectors))
+        W[:, ~active, :] = 0.0
+        return W
+    given = np.asarray(given, dtype=float)
+    expected = (n_orbits, int(active.sum()), vectors)
+    if given.shape != expected:
+        raise ModelError(f"deviations must have shape {expected}, got {given.shape}")
+    if not np.all(np.isfinite(given)) or np.any(np.linalg.norm(given, axis=1) == 0):
+        raise ModelError("deviation vectors must be finite and non-zero")
+    W = np.zeros((n_orbits, width, vectors))
+    W[:, active, :] = given
     return W
 
 
 def chaos_indicators(system, states, t, params=None, dt=None, method="auto", record_every=None,
-                     vectors=2, seed=0, tol=1e-14, maxit=100) -> ChaosIndicators:
+                     vectors=2, seed=0, deviations=None, tol=1e-14, maxit=100) -> ChaosIndicators:
     """Lyapunov exponent, MEGNO, FLI and SALI of every orbit of a batch.
 
     Parameters
@@ -116,6 +127,8 @@ def chaos_indicators(system, states, t, params=None, dt=None, method="auto", rec
         Deviation vectors; SALI needs 2 (with 1 it is NaN).
     seed : int
         Seed of the random initial deviation vectors (for reproducible results).
+    deviations : array_like, shape (n_orbits, 2n, vectors), optional
+        Initial deviation vectors instead of random ones (normalised before use).
 
     Returns
     -------
@@ -129,7 +142,8 @@ def chaos_indicators(system, states, t, params=None, dt=None, method="auto", rec
     values = system.param_values(params)
     used = dict(zip([p.name for p in system.parameters], values.tolist()))
     if getattr(system, "kind", "flow") == "map":
-        return _map_indicators(system, states, int(round(t)), values, used, record_every, vectors, seed)
+        return _map_indicators(system, states, int(round(t)), values, used, record_every, vectors, seed,
+                               deviations)
 
     flow = system.extended() if not system.is_autonomous else system
     n = system.dof
@@ -154,7 +168,7 @@ def chaos_indicators(system, states, t, params=None, dt=None, method="auto", rec
     active = np.ones(width, dtype=bool)
     if flow is not system:
         active[[n, width - 1]] = False  # no deviation along tau or p_tau
-    W0 = _deviations(len(z), width, vectors, seed, active)
+    W0 = _deviations(len(z), width, vectors, seed, active, deviations)
     out = {k: np.full((len(z), n_rec), np.nan) for k in ("lyapunov", "megno", "fli", "sali")}
     status = np.zeros(len(z), dtype=np.int64)
     stop = np.full(len(z), -1, dtype=np.int64)
@@ -167,14 +181,14 @@ def chaos_indicators(system, states, t, params=None, dt=None, method="auto", rec
                    else np.column_stack([z[:, :n], z[:, n + 1:2 * n + 1]]), m.name, dt, used)
 
 
-def _map_indicators(system, states, n_iter, values, used, record_every, vectors, seed):
+def _map_indicators(system, states, n_iter, values, used, record_every, vectors, seed, deviations):
     if n_iter < 1:
         raise ModelError(f"the number of iterates must be at least 1, got {n_iter}")
     width = len(system.state_symbols)
     z = _states(system, states, width)
     every = record_every or max(n_iter // 200, 1)
     n_rec = n_iter // every
-    W0 = _deviations(len(z), width, vectors, seed, np.ones(width, dtype=bool))
+    W0 = _deviations(len(z), width, vectors, seed, np.ones(width, dtype=bool), deviations)
     out = {k: np.full((len(z), n_rec), np.nan) for k in ("lyapunov", "megno", "fli", "sali")}
     status = np.zeros(len(z), dtype=np.int64)
     stop = np.full(len(z), -1, dtype=np.int64)
