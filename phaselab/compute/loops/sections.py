@@ -1,0 +1,370 @@
+"""Compiled surfaces of section: plane crossings refined by Henon's step, stroboscopic
+sampling of driven systems, and iteration of area-preserving maps.
+
+This file is not imported as a module. Its text is compiled together with a system's
+kernels and ``compute/loops/steppers.py`` (``advance``, ``make_work``, ``check_state`` and
+the status codes ``OK``, ``LEFT_BOX``, ``NOT_FINITE``, ``NOT_CONVERGED`` come from there).
+Names defined here start with ``section_`` so they cannot clash with other loop files.
+
+Henon's step (M. Henon, Physica D 5, 412 (1982)): after a step over which
+``g = z[k] - value`` changed sign, take ``s = z[k]`` as the independent variable,
+``dz/ds = f(z) / f_k(z)`` and ``dt/ds = 1 / f_k(z)``, and integrate from the nearer of the
+two step ends to ``s = value``. Here that integration is classical RK4 with m = 1, 2, 4, ...
+equal sub-steps until two successive results agree to ``SECTION_REFINE_TOL``, then one
+Richardson extrapolation (RK4 error ~ m^-4). ``z[k]`` of the result is ``value`` exactly,
+as it is the independent variable.
+"""
+
+SECTION_TIME_LIMIT = 8     # reached t_max before the requested number of crossings
+SECTION_REFINE_TOL = 1e-12  # relative agreement of successive Henon sub-step results
+SECTION_REFINE_MAX = 256    # most RK4 sub-steps of the Henon integration
+
+
+@njit(cache=True, nogil=True)
+def section_henon_rhs(z, k, prm, f, out):
+    """``out = f(z) / f_k(z)``; returns ``dt/ds = 1 / f_k(z)``."""
+    vector_field(z, prm, f)
+    inv = 1.0 / f[k]
+    for j in range(NSTATE):
+        out[j] = f[j] * inv
+    return inv
+
+
+@njit(cache=True, nogil=True)
+def section_henon_rk4(z, t, ds, k, prm, rw):
+    """One RK4 step of length ``ds`` in ``s = z[k]`` (in place); returns the new time.
+    ``rw`` rows: 0 f, 1..4 slopes, 5 stage state."""
+    m = NSTATE
+    f = rw[0]
+    k1 = rw[1]
+    k2 = rw[2]
+    k3 = rw[3]
+    k4 = rw[4]
+    zs = rw[5]
+    a1 = section_henon_rhs(z, k, prm, f, k1)
+    for j in range(m):
+        zs[j] = z[j] + 0.5 * ds * k1[j]
+    a2 = section_henon_rhs(zs, k, prm, f, k2)
+    for j in range(m):
+        zs[j] = z[j] + 0.5 * ds * k2[j]
+    a3 = section_henon_rhs(zs, k, prm, f, k3)
+    for j in range(m):
+        zs[j] = z[j] + ds * k3[j]
+    a4 = section_henon_rhs(zs, k, prm, f, k4)
+    for j in range(m):
+        z[j] += ds * (k1[j] + 2.0 * k2[j] + 2.0 * k3[j] + k4[j]) / 6.0
+    return t + ds * (a1 + 2.0 * a2 + 2.0 * a3 + a4) / 6.0
+
+
+@njit(cache=True, nogil=True)
+def section_refine(z0, t0, k, value, prm, out, rw):
+    """The state where the orbit through ``z0`` (at time ``t0``) reaches ``z[k] = value``.
+
+    Writes the state into ``out`` (shape (2n,)); returns ``(t, status)``. ``rw`` is scratch
+    of shape (8, 2n).
+    """
+    m = NSTATE
+    prev = rw[6]
+    ds = value - z0[k]
+    scale = 1.0
+    for j in range(m):
+        a = abs(z0[j])
+        if a > scale:
+            scale = a
+    for j in range(m):
+        out[j] = z0[j]
+    t = section_henon_rk4(out, t0, ds, k, prm, rw)
+    n_sub = 1
+    while True:
+        for j in range(m):
+            prev[j] = out[j]
+        tprev = t
+        n_sub *= 2
+        for j in range(m):
+            out[j] = z0[j]
+        t = t0
+        d = ds / n_sub
+        for i in range(n_sub):
+            t = section_henon_rk4(out, t, d, k, prm, rw)
+        diff = abs(t - tprev)
+        for j in range(m):
+            e = abs(out[j] - prev[j])
+            if e > diff:
+                diff = e
+        if not (diff == diff):
+            return t, NOT_FINITE
+        if diff <= SECTION_REFINE_TOL * scale or n_sub >= SECTION_REFINE_MAX:
+            break
+    for j in range(m):
+        out[j] += (out[j] - prev[j]) / 15.0
+    t += (t - tprev) / 15.0
+    out[k] = value
+    for j in range(m):
+        v = out[j]
+        if not (v == v) or v == np.inf or v == -np.inf:
+            return t, NOT_FINITE
+    return t, OK
+
+
+@njit(cache=True, nogil=True)
+def section_composition_coefficients(weights, h):
+    """Drift and kick lengths of a composition of leapfrogs with adjacent half drifts merged:
+    ``c[0], d[0], c[1], d[1], ..., d[s-1], c[s]`` as arrays ``c`` (s+1,) and ``d`` (s,)."""
+    s = weights.shape[0]
+    c = np.empty(s + 1)
+    d = np.empty(s)
+    c[0] = 0.5 * weights[0] * h
+    for i in range(s):
+        d[i] = weights[i] * h
+        if i + 1 < s:
+            c[i + 1] = 0.5 * (weights[i] + weights[i + 1]) * h
+        else:
+            c[i + 1] = 0.5 * weights[i] * h
+    return c, d
+
+
+SECTION_CHECK_EVERY = 8  # steps between escape checks (and at every crossing)
+SECTION_LANES = 4        # orbits stepped side by side on one thread
+
+
+@njit(cache=True, nogil=True)
+def section_fill_lane(l, nxt, last, Z0, Z, lane_orbit, lane_step, lane_e0, lane_g, prm, k, value,
+                      direction, box_lo, box_hi, counts, energy_error, status, stop_time):
+    """Load the next startable orbit (index ``nxt`` .. ``last - 1``) into lane ``l``; seeds
+    that are non-finite or outside the box are flagged and skipped. Returns the new ``nxt``;
+    ``lane_orbit[l]`` is -1 when no orbit was left."""
+    lane_orbit[l] = -1
+    while nxt < last:
+        o = nxt
+        nxt += 1
+        st = check_state(Z0[o], box_lo, box_hi)
+        counts[o] = 0
+        stop_time[o] = 0.0
+        if st != OK:
+            status[o] = st
+            energy_error[o] = np.nan
+            continue
+        for j in range(NSTATE):
+            Z[l, j] = Z0[o, j]
+        lane_e0[l] = hamiltonian(Z[l], prm)
+        lane_g[l] = direction * (Z[l, k] - value)
+        lane_step[l] = 0
+        energy_error[o] = 0.0
+        status[o] = OK
+        lane_orbit[l] = o
+        break
+    return nxt
+
+
+@njit(cache=True, nogil=True)
+def section_plane_group(Z0, first, last, prm, h, max_steps, k, value, direction, max_cross, kind,
+                        weights, A, b, tol, maxit, box_lo, box_hi, out_points, out_times, counts,
+                        energy_error, status, stop_time):
+    """Section the orbits ``first .. last - 1`` of ``Z0`` on the calling thread.
+
+    Up to ``SECTION_LANES`` orbits are stepped side by side (sub-step by sub-step for
+    compositions, so the processor overlaps their dependency chains); a lane whose orbit is
+    done takes the next one. Each orbit stops after ``max_cross`` crossings of
+    ``z[k] = value`` in the direction ``direction`` or after ``max_steps`` steps. The box and
+    finiteness are checked every ``SECTION_CHECK_EVERY`` steps and before each refinement.
+    ``status[o]`` is ``OK`` (all crossings found), ``SECTION_TIME_LIMIT`` or the code that
+    stopped the orbit; ``energy_error[o]`` the worst ``|H - H0| / max(|H0|, 1)`` at its
+    crossings; ``stop_time[o]`` the time reached.
+    """
+    m = NSTATE
+    n = NDOF
+    L = min(SECTION_LANES, last - first)
+    if L <= 0:
+        return
+    Z = np.empty((L, m))
+    ZP = np.empty((L, m))
+    GQ = np.empty((L, n))
+    GP = np.empty((L, n))
+    zc = np.empty(m)
+    rw = np.empty((8, m))
+    w0 = make_work(max(b.shape[0], 1))
+    works = np.zeros((L, w0.shape[0], w0.shape[1]))
+    lane_orbit = np.full(L, -1, dtype=np.int64)
+    lane_step = np.zeros(L, dtype=np.int64)
+    lane_e0 = np.zeros(L)
+    lane_g = np.zeros(L)
+    c, d = section_composition_coefficients(weights, h)
+    s = d.shape[0]
+    composition = kind == COMPOSITION
+    nxt = first
+    active = 0
+    for l in range(L):
+        nxt = section_fill_lane(l, nxt, last, Z0, Z, lane_orbit, lane_step, lane_e0, lane_g, prm, k,
+                                value, direction, box_lo, box_hi, counts, energy_error, status,
+                                stop_time)
+        if lane_orbit[l] >= 0:
+            active += 1
+    while active > 0:
+        for l in range(L):
+            for j in range(m):
+                ZP[l, j] = Z[l, j]
+        if composition:
+            for i in range(s):
+                ci = c[i]
+                di = d[i]
+                for l in range(L):
+                    z = Z[l]
+                    gp = GP[l]
+                    gq = GQ[l]
+                    grad_p(z, prm, gp)
+                    for j in range(n):
+                        z[j] += ci * gp[j]
+                    grad_q(z, prm, gq)
+                    for j in range(n):
+                        z[n + j] -= di * gq[j]
+            cs = c[s]
+            for l in range(L):
+                z = Z[l]
+                gp = GP[l]
+                grad_p(z, prm, gp)
+                for j in range(n):
+                    z[j] += cs * gp[j]
+        for l in range(L):
+            o = lane_orbit[l]
+            if o < 0:
+                continue
+            st = OK
+            if not composition:
+                st = advance(Z[l], h, prm, kind, weights, A, b, tol, maxit, works[l])
+            lane_step[l] += 1
+            stp = lane_step[l]
+            g_prev = lane_g[l]
+            g = direction * (Z[l, k] - value)
+            lane_g[l] = g
+            crossed = g_prev < 0.0 and g >= 0.0
+            if st == OK and (crossed or stp % SECTION_CHECK_EVERY == 0):
+                st = check_state(Z[l], box_lo, box_hi)
+            done = st != OK
+            if crossed and not done:
+                if -g_prev < g:
+                    tc, st = section_refine(ZP[l], (stp - 1) * h, k, value, prm, zc, rw)
+                else:
+                    tc, st = section_refine(Z[l], stp * h, k, value, prm, zc, rw)
+                if st != OK:
+                    done = True
+                else:
+                    cnt = counts[o]
+                    for j in range(m):
+                        out_points[o, cnt, j] = zc[j]
+                    out_times[o, cnt] = tc
+                    e = abs(hamiltonian(zc, prm) - lane_e0[l]) / max(abs(lane_e0[l]), 1.0)
+                    if e > energy_error[o]:
+                        energy_error[o] = e
+                    counts[o] = cnt + 1
+                    if cnt + 1 >= max_cross:
+                        done = True
+            if not done and stp >= max_steps:
+                st = SECTION_TIME_LIMIT
+                done = True
+            if done:
+                status[o] = st
+                stop_time[o] = stp * h
+                active -= 1
+                nxt = section_fill_lane(l, nxt, last, Z0, Z, lane_orbit, lane_step, lane_e0, lane_g,
+                                        prm, k, value, direction, box_lo, box_hi, counts,
+                                        energy_error, status, stop_time)
+                if lane_orbit[l] >= 0:
+                    active += 1
+
+
+@njit(cache=True, nogil=True, parallel=True)
+def section_plane_orbits(Z0, bounds, prm, h, max_steps, k, value, direction, max_cross, kind, weights,
+                         A, b, tol, maxit, box_lo, box_hi, out_points, out_times, counts,
+                         energy_error, status, stop_time):
+    """:func:`section_plane_group` for the orbit ranges ``bounds[g] .. bounds[g + 1] - 1``
+    in parallel (one range per thread).
+
+    ``out_points`` (n_orbits, max_cross, 2n) and ``out_times`` (n_orbits, max_cross) must be
+    NaN-filled; ``counts``, ``energy_error``, ``status``, ``stop_time`` have shape (n_orbits,).
+    """
+    for g in prange(bounds.shape[0] - 1):
+        section_plane_group(Z0, bounds[g], bounds[g + 1], prm, h, max_steps, k, value, direction,
+                            max_cross, kind, weights, A, b, tol, maxit, box_lo, box_hi, out_points,
+                            out_times, counts, energy_error, status, stop_time)
+
+
+@njit(cache=True, nogil=True)
+def section_plane_orbits_serial(Z0, prm, h, max_steps, k, value, direction, max_cross, kind, weights,
+                                A, b, tol, maxit, box_lo, box_hi, out_points, out_times, counts,
+                                energy_error, status, stop_time):
+    """All orbits on the calling thread (no thread start-up, e.g. for a single new orbit)."""
+    section_plane_group(Z0, 0, Z0.shape[0], prm, h, max_steps, k, value, direction, max_cross, kind,
+                        weights, A, b, tol, maxit, box_lo, box_hi, out_points, out_times, counts,
+                        energy_error, status, stop_time)
+
+
+@njit(cache=True, nogil=True, parallel=True)
+def section_strobe_orbits(Z0, prm, h, steps_per_period, n_periods, kind, weights, A, b, tol, maxit,
+                          box_lo, box_hi, out_points, counts, energy_error, status):
+    """Sample every orbit of an extended (autonomous) system once per period.
+
+    ``h * steps_per_period`` is the period; sample ``i`` is the state after ``(i + 1)``
+    periods. The energy error is that of the extended Hamiltonian K (conserved exactly).
+    """
+    n_orb = Z0.shape[0]
+    m = NSTATE
+    for o in prange(n_orb):
+        work = make_work(max(b.shape[0], 1))
+        z = Z0[o].copy()
+        st = check_state(z, box_lo, box_hi)
+        if st != OK:
+            status[o] = st
+            energy_error[o] = np.nan
+            continue
+        k0 = hamiltonian(z, prm)
+        escale = max(abs(k0), 1.0)
+        worst = 0.0
+        c = 0
+        for i in range(n_periods):
+            for s in range(steps_per_period):
+                st = advance(z, h, prm, kind, weights, A, b, tol, maxit, work)
+                if st == OK:
+                    st = check_state(z, box_lo, box_hi)
+                if st != OK:
+                    break
+            if st != OK:
+                break
+            for j in range(m):
+                out_points[o, i, j] = z[j]
+            e = abs(hamiltonian(z, prm) - k0) / escale
+            if e > worst:
+                worst = e
+            c += 1
+        counts[o] = c
+        status[o] = st
+        energy_error[o] = worst
+
+
+@njit(cache=True, nogil=True, parallel=True)
+def section_map_orbits(Z0, prm, n_iter, period, low, box_lo, box_hi, out_points, counts, status):
+    """Iterate ``map_step`` on every row of ``Z0`` ``n_iter`` times, wrapping component j
+    into ``[low[j], low[j] + period[j])`` where ``period[j] > 0``. Iterate i+1 goes to
+    ``out_points[o, i]``. Non-finite or out-of-box iterates stop the orbit."""
+    n_orb = Z0.shape[0]
+    m = NSTATE
+    for o in prange(n_orb):
+        z = Z0[o].copy()
+        zn = np.empty(m)
+        st = check_state(z, box_lo, box_hi)
+        c = 0
+        if st == OK:
+            for i in range(n_iter):
+                map_step(z, prm, zn)
+                for j in range(m):
+                    v = zn[j]
+                    if period[j] > 0.0:
+                        v = low[j] + (v - low[j]) % period[j]
+                    z[j] = v
+                st = check_state(z, box_lo, box_hi)
+                if st != OK:
+                    break
+                for j in range(m):
+                    out_points[o, i, j] = z[j]
+                c += 1
+        counts[o] = c
+        status[o] = st
