@@ -21,6 +21,9 @@ from phaselab.errors import ModelError
 DIGITS = 30
 
 
+# compile_system memoizes per process by system key, so a system compiled by an earlier test
+# module keeps the module it loaded from that module's cache folder; the cross-process cache
+# test below runs in subprocesses with a folder of its own for that reason.
 @pytest.fixture(scope="module", autouse=True)
 def _cache(tmp_path_factory):
     mp = pytest.MonkeyPatch()

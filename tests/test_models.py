@@ -2,6 +2,8 @@
 with the model's own energy and with facts from the published sources."""
 
 import re
+import subprocess
+import sys
 import zlib
 
 import numpy as np
@@ -25,6 +27,14 @@ def _cache(tmp_path_factory):
 
 def compiled(system):
     return compile_system(system if system.is_autonomous else system.extended())
+
+
+def test_catalogue_does_not_import_numerics_or_widgets():
+    code = ("import sys, phaselab; phaselab.models.henon_heiles(); phaselab.models.standard_map(); "
+            "print(sorted(m for m in ('numba', 'bokeh', 'ipywidgets') if m in sys.modules))")
+    res = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=120)
+    assert res.returncode == 0, res.stderr
+    assert res.stdout.strip() == "[]"
 
 
 def test_catalogue_lists_every_model():

@@ -7,6 +7,7 @@ import sympy as sp
 from phaselab.errors import ModelError
 from phaselab.model.params import make_parameters
 from phaselab.model.parser import parse_expression
+from phaselab.model.zero import identically_zero
 
 
 def legendre_transform(cls, L, coords, velocities, params=None, time=None, period=None,
@@ -62,7 +63,7 @@ def legendre_transform(cls, L, coords, velocities, params=None, time=None, perio
     grad = [sp.diff(L, vi) for vi in v]
     hessian = sp.Matrix([[sp.diff(g, vj) for vj in v] for g in grad])
     det = hessian.det(method="berkowitz")
-    if _identically_zero(det):
+    if identically_zero(det):
         raise ModelError(
             "degenerate Lagrangian: the Hessian d2L/dqdot2 is singular, so the momenta "
             f"{', '.join(s.name for s in p)} cannot be solved for the velocities "
@@ -98,24 +99,3 @@ def legendre_transform(cls, L, coords, velocities, params=None, time=None, perio
     ham.hessian_determinant = det
     return ham
 
-
-def _identically_zero(expr: sp.Expr, samples: int = 4) -> bool:
-    """True when ``expr`` is zero for all values of its symbols.
-
-    A nonzero value at one of a few random points settles "not zero" at once (cheap, and it
-    covers every non-degenerate Lagrangian); only when all samples vanish is
-    :func:`sympy.simplify` asked to confirm.
-    """
-    expr = sp.expand(expr)
-    if expr == 0:
-        return True
-    import random
-
-    rng = random.Random(1234)
-    symbols = sorted(expr.free_symbols, key=lambda x: x.name)
-    for _ in range(samples):
-        point = {x: sp.Float(rng.uniform(0.3, 1.7)) for x in symbols}
-        value = expr.xreplace(point).evalf()
-        if value.is_number and value.is_finite and abs(complex(value)) > 1e-10:
-            return False
-    return sp.simplify(expr) == 0
