@@ -219,8 +219,8 @@ def default_step(cs, method: Method, states: np.ndarray, prm: np.ndarray, span: 
 
     ``T / STEPS_PER_PERIOD[order]`` where ``T`` is the shortest of: the linearised period
     at the seeds (:func:`linear_time_scale`), the driving period of a time-periodic H, and
-    a tenth of the integration span (so a free particle, whose linearisation has no time
-    scale, still gets 400 to 2000 steps over the span). This is a starting point:
+    the integration span itself (so a free particle, whose linearisation has no time
+    scale, still gets 40 to 200 steps over the span). This is a starting point:
     nonlinear orbits may need smaller steps (the energy error of the result tells), and
     the linearisation at a seed does not see a close encounter later on the orbit.
 
@@ -236,7 +236,7 @@ def default_step(cs, method: Method, states: np.ndarray, prm: np.ndarray, span: 
     period : float, optional
         Driving period of a time-periodic H.
     """
-    scale = min(linear_time_scale(cs, states, prm), abs(span) / 10.0)
+    scale = min(linear_time_scale(cs, states, prm), abs(span))
     if period is not None and np.isfinite(period) and period > 0:
         scale = min(scale, period)
     per = STEPS_PER_PERIOD.get(method.order, 100 if method.order > 2 else 200)

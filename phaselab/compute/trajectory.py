@@ -167,7 +167,7 @@ def trajectory(system, state0, t, dt=None, method="auto", params=None, box=None,
         spacing (to 1e-9 relative), else ``IntegrationError``. When not given: the
         shortest linearised period at the seeds (eigenvalues of the Jacobian of the vector
         field, the compiled ``jacobian`` kernel), the driving period of a time-periodic H
-        and a tenth of the span, whichever is shortest, divided by 200 for second-order,
+        and the span, whichever is shortest, divided by 200 for second-order,
         100 for fourth-, 60 for sixth- and 40 for eighth-order methods (see
         :func:`phaselab.compute.integrators.default_step`), then fitted to the span.
     method : str

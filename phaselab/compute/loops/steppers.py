@@ -54,7 +54,8 @@ def gauss_step(z, h, prm, A, b, tol, maxit, K, Kn, zs):
 
     ``K`` holds the stage slopes (shape ``(s, 2n)``). Converged when the largest change of
     ``h * K`` falls below ``tol * (1 + max|z|)``, or when it has stopped shrinking at
-    round-off level (100x that). Returns ``NOT_CONVERGED`` otherwise, leaving ``z`` untouched.
+    round-off level (100x that). Returns ``NOT_CONVERGED`` otherwise (also when the iteration
+    diverges to NaN), leaving ``z`` untouched.
     """
     m = NSTATE
     s = b.shape[0]
@@ -79,14 +80,17 @@ def gauss_step(z, h, prm, A, b, tol, maxit, K, Kn, zs):
                 zs[j] = z[j] + h * acc
             vector_field(zs, prm, Kn[i])
         diff = 0.0
+        bad = False
         for i in range(s):
             for j in range(m):
                 d = abs(Kn[i, j] - K[i, j]) * abs(h)
                 if d > diff:
                     diff = d
+                elif not (d == d):  # NaN (max() would skip it)
+                    bad = True
                 K[i, j] = Kn[i, j]
-        if not (diff == diff):  # NaN
-            return NOT_FINITE
+        if bad or diff == np.inf:  # the iteration diverged; the state itself is still finite
+            return NOT_CONVERGED
         if diff <= limit:
             done = True
             break
