@@ -13,8 +13,10 @@ For a Hamiltonian flow with ``n`` degrees of freedom the generated module define
     The Jacobian of the vector field into ``out`` (shape ``(2n, 2n)``), for tangent
     dynamics and stability.
 
-For an area-preserving map it defines ``map_step(z, prm, out)`` and
-``map_jacobian(z, prm, out)``.
+For an area-preserving map it defines ``map_step(z, prm, out)`` (``out`` may be ``z``
+itself), ``map_jacobian(z, prm, out)`` and ``map_wrap(z)``, which wraps in place the
+components that have a modulus (``MOD_PERIOD[i] > 0``) into ``[MOD_LOW[i], MOD_LOW[i] +
+MOD_PERIOD[i])``; ``map_step`` itself does not wrap.
 
 Parameters are arguments, so a new parameter value never recompiles. Loop sources handed
 in by the compute layer are appended to the same module, so the loops are compiled with the
@@ -172,11 +174,19 @@ def map_source(system) -> str:
     jac = _derivatives(update, s)
     ns, nk = len(state), len(params)
     back = {v: k for k, v in ren.items()}
+    periods = [float(m) if m is not None else 0.0 for m in system.modulus]
+    lows = [float(m) if m is not None else 0.0 for m in system.modulus_low]
+    wrap_lines = [f"MOD_PERIOD = np.array({periods!r})", f"MOD_LOW = np.array({lows!r})", "", "",
+                  DECORATOR, "def map_wrap(z):"]
+    wrapped = [i for i, m in enumerate(system.modulus) if m is not None]
+    wrap_lines += [f"    z[{i}] = {lows[i]!r} + (z[{i}] - {lows[i]!r}) % {periods[i]!r}" for i in wrapped]
+    wrap_lines += [] if wrapped else ["    pass"]
     parts = [
         _kernel("map_step", "z, prm, out", [f"out[{i}]" for i in range(ns)], update, ns, nk, zero_out="out",
                 what=f"update of map {system.name!r}", display=back),
         _kernel("map_jacobian", "z, prm, out", [f"out[{i // ns}, {i % ns}]" for i in range(ns * ns)], jac,
                 ns, nk, zero_out="out", what=f"Jacobian of map {system.name!r}", display=back),
+        "\n".join(wrap_lines) + "\n",
     ]
     return "\n\n".join(parts)
 

@@ -59,11 +59,10 @@ class AreaPreservingMap:
         Parameters with defaults, ``{"K": 0.9}`` or ``{"K": (0.9, (0.0, 5.0))}``.
     modulus : None, number, or sequence, optional
         Wrapping of each state component after every iterate: ``None`` (no wrapping), a
-        period ``P`` (values wrapped into ``[0, P)``) or an interval ``(low, high)``
-        (wrapped into ``[low, high)``). A single value applies to every component; a
-        sequence gives one entry per state component. Numbers may be strings such as
-        ``"2*pi"``. For a two-component state a pair of numbers is read as one period per
-        component; give ``[(low, high), (low, high)]`` for intervals.
+        period ``P`` (values wrapped into ``[0, P)``) or an interval tuple ``(low, high)``
+        (wrapped into ``[low, high)``). A single period or interval tuple applies to every
+        component; a *list* gives one entry per state component, e.g.
+        ``[2*pi, None]`` or ``[(-pi, pi), 2*pi]``. Numbers may be strings such as ``"2*pi"``.
     name : str, optional
         A label for plots and files.
 
@@ -176,7 +175,7 @@ class AreaPreservingMap:
         if modulus is None:
             return (None,) * n, (None,) * n
         single = isinstance(modulus, (int, float, str, sp.Expr)) or (
-            isinstance(modulus, tuple) and len(modulus) == 2 and n != 2
+            isinstance(modulus, tuple) and len(modulus) == 2
             and all(isinstance(m, (int, float, str, sp.Expr)) for m in modulus))
         entries = [modulus] * n if single else list(modulus)
         if len(entries) != n:
