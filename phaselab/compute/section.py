@@ -195,7 +195,7 @@ def _box(system, box, n_state):
         raise ParameterError(f"box must be a positive number or a mapping name -> (low, high), got {box!r}") from None
     if not r > 0:
         raise ParameterError(f"box must be positive, got {box!r}")
-    return lo + (-r - lo), hi + (r - hi)
+    return np.full(n_state, -r), np.full(n_state, r)
 
 
 def _axes(system, axes, default):
