@@ -130,7 +130,7 @@ def test_escapes_and_bad_seeds_are_flagged_while_the_rest_survive(hh):
     sec = section(hh, Z0, {"x": 0.0}, crossings=50, dt=0.02, box=4.0)
     np.testing.assert_array_equal(sec.escaped, [False, True, True, False])
     from phaselab.compute.section import LEFT_BOX, NOT_FINITE
-    assert sec._status[1] == LEFT_BOX and sec._status[2] == NOT_FINITE
+    assert sec.status[1] == LEFT_BOX and sec.status[2] == NOT_FINITE
     assert sec.counts[0] == 50 and sec.counts[3] == 50 and sec.counts[2] == 0
     assert sec.counts[1] < 50
     assert np.isnan(sec.energy_error[2])

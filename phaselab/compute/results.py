@@ -92,6 +92,10 @@ class Section:
         The system.
     params : dict
         Parameter values used.
+    status : ndarray of int, shape (n_orbits,), or None
+        Why each orbit stopped: 0 reached the crossing cap, 1 left the box, 2 non-finite
+        state, 3 implicit step did not converge, 8 reached t_max (texts in
+        ``phaselab.compute.section.STATUS_TEXT``).
     """
 
     points: np.ndarray
@@ -108,6 +112,7 @@ class Section:
     dt: float
     system: object = None
     params: dict = field(default_factory=dict)
+    status: np.ndarray | None = None
 
     @property
     def n_orbits(self) -> int:

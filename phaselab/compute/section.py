@@ -230,7 +230,7 @@ def _t_max(t_max, crossings, h):
 
 
 def _warn_stopped(sec: Section):
-    codes = getattr(sec, "_status", None)
+    codes = sec.status
     if codes is None:
         return
     never = np.flatnonzero((codes == TIME_LIMIT) & (sec.counts == 0))
@@ -252,7 +252,7 @@ def _threads() -> int:
 
 
 def _finish(sec: Section, status: np.ndarray) -> Section:
-    object.__setattr__(sec, "_status", status)
+    sec.status = status
     return sec
 
 
