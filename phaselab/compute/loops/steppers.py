@@ -353,14 +353,14 @@ def rk4_tangent_step(z, V, h, prm):
 
 
 @njit(cache=True, nogil=True)
-def advance_tangent(z, V, h, prm, kind, weights, A, b, tol, maxit, work):
+def advance_tangent(z, V, h, prm, kind, weights, A, b, tol, maxit, work, jac):
     """Advance ``z`` and the tangent vectors ``V`` (shape ``(2n, k)``) by one step of the
     method ``kind``, in place; returns the status code of the state step.
 
-    Arguments are those of :func:`advance`. ``V`` is left unchanged when the step fails.
+    Arguments are those of :func:`advance`, and ``jac`` is scratch space of shape
+    ``(2n, 2n)``. ``V`` is left unchanged when the step fails.
     """
     if kind == COMPOSITION:
-        jac = np.empty((NSTATE, NSTATE))
         return composition_tangent_step(z, V, h, prm, weights, work[0, :NDOF], work[1, :NDOF], jac)
     if kind == GAUSS:
         z_old = z.copy()
@@ -377,5 +377,5 @@ def step_matrix(z, h, prm, kind, weights, A, b, tol, maxit):
     work = make_work(max(b.shape[0], 1))
     zz = z.copy()
     V = np.eye(NSTATE)
-    advance_tangent(zz, V, h, prm, kind, weights, A, b, tol, maxit, work)
+    advance_tangent(zz, V, h, prm, kind, weights, A, b, tol, maxit, work, np.empty((NSTATE, NSTATE)))
     return V
