@@ -35,6 +35,9 @@ class Trajectory:
         The system integrated.
     params : dict
         The parameter values used.
+    status : ndarray of int, shape (n_orbits,), or None
+        Why each orbit stopped: 0 ran to the end, 1 left the box, 2 non-finite state (or a
+        non-finite seed), 3 implicit step did not converge.
     """
 
     t: np.ndarray
@@ -46,6 +49,7 @@ class Trajectory:
     dt: float
     system: object = None
     params: dict = field(default_factory=dict)
+    status: np.ndarray | None = None
 
     @property
     def n_orbits(self) -> int:

@@ -347,7 +347,7 @@ def trajectory(system, state0, t, dt=None, method="auto", params=None, box=None,
         states = states[:, :, keep]
     return Trajectory(t=times, states=np.ascontiguousarray(states), energy_error=energy_error,
                       escaped=status != OK, escape_time=escape_time, method=name, dt=dt_used,
-                      system=system, params=used_params)
+                      system=system, params=used_params, status=status)
 
 
 def _probe(cs, Zw, prm, h, n_probe, args, name, dt, span):
