@@ -202,3 +202,20 @@ def test_key_depends_on_form_only():
     b = Hamiltonian("q**4 + p**2/2", ["q"], ["p"])
     c = Hamiltonian("p**2/2 + q**3", ["q"], ["p"])
     assert a.key == b.key != c.key
+
+
+def test_systems_pickle_after_use():
+    # Dask ships systems to worker processes by pickle; cached numeric functions must not
+    # block that, and the copy must evaluate the same (reference: the original object)
+    import pickle
+
+    import numpy as np
+
+    import phaselab
+
+    for system in (phaselab.models.henon_heiles(), phaselab.models.standard_map()):
+        z = np.full((3, len(system.state_symbols)), 0.1)
+        before = system.energy(z) if system.kind == "flow" else system.step(z)
+        copy = pickle.loads(pickle.dumps(system))
+        after = copy.energy(z) if copy.kind == "flow" else copy.step(z)
+        np.testing.assert_array_equal(before, after)

@@ -27,6 +27,13 @@ def as_symbols(items, what: str) -> tuple[sp.Symbol, ...]:
     return tuple(out)
 
 
+def picklable_state(obj) -> dict:
+    """``obj.__dict__`` without cached lambdified functions, which cannot be pickled; they
+    are rebuilt on first use after unpickling (so systems travel to Dask workers)."""
+    return {k: v for k, v in obj.__dict__.items()
+            if not (callable(v) and getattr(v, "__name__", "") == "_lambdifygenerated")}
+
+
 class Hamiltonian:
     """A Hamiltonian system with ``n`` degrees of freedom.
 
@@ -54,6 +61,9 @@ class Hamiltonian:
     """
 
     kind = "flow"
+
+    def __getstate__(self):
+        return picklable_state(self)
 
     def __init__(self, expr, coords, momenta, params=None, time=None, period=None, name=None):
         self.coords = as_symbols(coords, "coordinates")

@@ -32,7 +32,7 @@ import numpy as np
 import sympy as sp
 
 from phaselab.errors import ModelError
-from phaselab.model.hamiltonian import as_symbols
+from phaselab.model.hamiltonian import as_symbols, picklable_state
 from phaselab.model.params import Parameter, make_parameters, resolve_values
 from phaselab.model.parser import parse_expression
 
@@ -87,6 +87,9 @@ class AreaPreservingMap:
     """
 
     kind = "map"
+
+    def __getstate__(self):
+        return picklable_state(self)
     time = None
     period = None
     is_autonomous = True
