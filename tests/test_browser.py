@@ -64,7 +64,8 @@ def lab(tmp_path_factory):
     # one more cell that reports what the kernel holds, read back after the click
     nb["cells"].append({"cell_type": "code", "execution_count": None, "metadata": {}, "outputs": [],
                         "source": "print(f'KERNEL_ORBITS={len(explorer.orbits)} "
-                                  "KERNEL_POINTS={sum(len(o.points) for o in explorer.orbits)}')"})
+                                  "KERNEL_POINTS={sum(len(o.points) for o in explorer.orbits)}')\n"
+                                  "print('KERNEL_TIMING=' + repr({k: round(v, 4) for k, v in explorer.last_timing.items()}))"})
     (work / "explorer_demo.ipynb").write_text(json.dumps(nb))
     port, token = _free_port(), secrets.token_hex(16)
     env = dict(os.environ)
@@ -72,6 +73,10 @@ def lab(tmp_path_factory):
                      ("JUPYTERLAB_WORKSPACES_DIR", "workspaces"), ("JUPYTER_CONFIG_DIR", "config")):
         (work / sub).mkdir()
         env[key] = str(work / sub)
+    # no news pop-up over the page
+    notes = work / "settings" / "@jupyterlab" / "apputils-extension"
+    notes.mkdir(parents=True)
+    (notes / "notification.jupyterlab-settings").write_text(json.dumps({"fetchNews": "false"}))
     log = open(work / "lab.log", "w")
     proc = subprocess.Popen(
         [sys.executable, "-m", "jupyter", "lab", "--no-browser", "--ServerApp.ip=127.0.0.1",
@@ -122,7 +127,7 @@ def test_explorer_in_jupyterlab(lab):
     with sync_playwright() as pw:
         ctx = pw.chromium.launch_persistent_context(
             str(profile), executable_path=CHROMIUM, headless=True, args=CHROMIUM_ARGS,
-            viewport={"width": 1280, "height": 1000})
+            viewport={"width": 1400, "height": 1000})
         try:
             page = ctx.new_page()
             console = []
@@ -134,6 +139,7 @@ def test_explorer_in_jupyterlab(lab):
                                    "&& window.jupyterapp.shell.currentWidget.sessionContext.session "
                                    "&& window.jupyterapp.shell.currentWidget.sessionContext.session.kernel",
                                    timeout=120_000)
+            page.evaluate("() => { const s = window.jupyterapp.shell; if (!s.leftCollapsed) s.collapseLeft(); }")
             page.evaluate("() => window.jupyterapp.commands.execute('notebook:run-all-cells')")
             page.wait_for_selector(".phaselab-explorer .pl-count[data-orbits='3']", timeout=240_000)
             # the three seeds of the demo have arrived; let the companion trace land too
@@ -148,8 +154,14 @@ def test_explorer_in_jupyterlab(lab):
             # centre of the frame, inside the allowed region of the demo's shell
             cx, cy = x + 48 + 0.55 * (w - 58), y + 10 + 0.42 * (h - 50)
             page.evaluate("""() => {
-                window.__pl = {down: null, seen: null};
-                document.addEventListener('pointerdown', () => { window.__pl.down = performance.now(); }, true);
+                window.__pl = {down: null, seen: null, sent: null, got: null};
+                const send = WebSocket.prototype.send;
+                WebSocket.prototype.send = function (data) {
+                    if (window.__pl.down !== null && window.__pl.sent === null) window.__pl.sent = performance.now();
+                    return send.call(this, data);
+                };
+                document.addEventListener('pointerdown', () => { window.__pl.down = performance.now();
+                                                                 window.__pl.down_wall = Date.now(); }, true);
                 const target = document.querySelector('.phaselab-explorer .pl-count').parentElement;
                 new MutationObserver(() => {
                     const el = document.querySelector('.phaselab-explorer .pl-count');
@@ -160,12 +172,13 @@ def test_explorer_in_jupyterlab(lab):
             page.mouse.click(cx, cy)
             page.wait_for_function("() => window.__pl.seen !== null", timeout=30_000)
             latency = page.evaluate("() => window.__pl.seen - window.__pl.down")
+            sent = page.evaluate("() => window.__pl.sent - window.__pl.down")
             orbits1, points1 = _count(page)
             assert orbits1 == 4, page.locator(".phaselab-explorer .pl-status").inner_text()
             assert points1 > points0
             (ARTIFACTS / "click-latency.txt").write_text(
                 f"click-to-points latency in the browser: {latency:.0f} ms "
-                f"({points1 - points0} new points)\n")
+                f"({points1 - points0} new points); first websocket message {sent:.0f} ms after pointerdown\n")
             print(f"click-to-points latency in the browser: {latency:.0f} ms")
             page.wait_for_timeout(1200)
             page.locator(".phaselab-explorer").first.screenshot(path=str(ARTIFACTS / "explorer-after-click.png"))
@@ -179,6 +192,10 @@ def test_explorer_in_jupyterlab(lab):
             text = page.evaluate("() => [...document.querySelectorAll('.jp-OutputArea-output')]"
                                  ".map(e => e.innerText).join('\\n')")
             kernel_points = int(re.search(r"KERNEL_POINTS=(\d+)", text).group(1))
+            timing = re.search(r"KERNEL_TIMING=(.*)", text).group(1)
+            down_wall = page.evaluate("() => window.__pl.down_wall")
+            with open(ARTIFACTS / "click-latency.txt", "a") as fh:
+                fh.write(f"kernel timings: {timing}; pointerdown at {down_wall / 1000:.3f} (wall clock)\n")
             assert kernel_points == points1
 
             # move the energy slider with the keyboard: every orbit is recomputed

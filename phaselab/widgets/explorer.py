@@ -33,7 +33,11 @@ from phaselab.widgets import theme
 from phaselab.widgets.views import make_view
 from phaselab.widgets.worker import JobRunner, Outcome
 
-__all__ = ["explore", "Explorer", "OrbitRecord"]
+__all__ = ["explore", "Explorer", "OrbitRecord", "load_bokehjs"]
+
+#: Seconds of computation per new orbit below which a click is answered without the worker
+#: thread (the event loop is then held for at most about this long).
+INLINE_BUDGET = 0.04
 
 
 @dataclass
@@ -191,13 +195,15 @@ class Explorer(W.VBox):
         self._selected: int | None = None
         self._quiet = False
         self.jobs = JobRunner(background)
+        self._cost: float | None = None
         self.last_timing: dict[str, float] = {}
 
         self.view.fit_ranges(self._energy, self._params)
         trace_labels = self._trace_labels()
+        self._color_label = (color_label or (color_by if isinstance(color_by, str) else "value")) \
+            if color_by is not None else None
         self.figures = Figures(self.view.axis_names, self.view.ranges, trace_labels,
-                               scalar_label=(color_label or (color_by if isinstance(color_by, str) else "value"))
-                               if color_by is not None else None)
+                               scalar_label=self._color_label)
         from bokeh.events import Tap
 
         self.figures.main.on_event(Tap, self._on_tap)
@@ -313,10 +319,29 @@ class Explorer(W.VBox):
         self.orbits.extend(records)
         self._history.append(("add", [r.id for r in records]))
         self._selected = None
-        self._render_seeds()
+        with self._held():
+            self._render_seeds()
+            self._compute_orbits(records, key=f"orbits-{records[0].id}", stream=True)
         self._update_pick()
-        self._compute_orbits(records, key=f"orbits-{records[0].id}", stream=True)
         return records
+
+    def _held(self):
+        """Collect the bokeh changes made inside into one message to the page."""
+        from contextlib import contextmanager
+
+        doc = self.figures.main.document
+
+        @contextmanager
+        def hold():
+            if doc is None:
+                yield
+                return
+            doc.hold("combine")
+            try:
+                yield
+            finally:
+                doc.unhold()
+        return hold()
 
     def undo(self):
         """Take back the last action: the last seeds added, or the last clear."""
@@ -407,8 +432,7 @@ class Explorer(W.VBox):
             if suffix in (".png", ".svg", ".pdf", ".html"):
                 if self.color_by is not None:
                     kwargs["color"] = np.array([o.scalar for o in self.orbits if o.section is not None and o.state is not None])
-                    kwargs["color_label"] = self.figures.scalar_mapper and self.figures.main.select_one(
-                        {"type": "ColorBar"}).title
+                    kwargs["color_label"] = self._color_label
             paths.append(save(sec, self.export_dir / f"{stem}{suffix}", **kwargs))
         return paths
 
@@ -418,6 +442,7 @@ class Explorer(W.VBox):
 
     # ================================================================= events
     def _on_tap(self, event):
+        self.last_timing["tap_wall"] = time.time()
         x, y = event.x, event.y
         if x is None or y is None:
             return
@@ -458,8 +483,16 @@ class Explorer(W.VBox):
         self._render_seeds(keep_latest=True)
         self._compute_orbits([rec], key="drag", delay=0.02)
 
+    @staticmethod
+    def _same(a, b):
+        # the page echoes slider values back with rounding noise: not a change
+        try:
+            return abs(float(a) - float(b)) <= 1e-9 * max(1.0, abs(float(b)))
+        except (TypeError, ValueError):
+            return False
+
     def _on_energy_slider(self, change):
-        if self._quiet:
+        if self._quiet or self._same(change["new"], self._energy):
             return
         self.set_energy(change["new"])
 
@@ -467,6 +500,8 @@ class Explorer(W.VBox):
         if self._quiet:
             return
         name = next(k for k, s in self.sliders.items() if s is change["owner"])
+        if self._same(change["new"], self._params[name]):
+            return
         self.set_params(**{name: change["new"]})
 
     def _on_pick(self, change):
@@ -499,6 +534,7 @@ class Explorer(W.VBox):
             if out.error is not None:
                 self._report(out)
                 return
+            self._learn_cost(out, len(wanted))
             live = {o.id: o for o in self.orbits}
             fresh = []
             for k, (oid, rev) in enumerate(wanted):
@@ -514,6 +550,8 @@ class Explorer(W.VBox):
             else:
                 self._render_points()
             self.last_timing["orbit"] = time.perf_counter() - t_asked
+            self.last_timing["orbit_compute"] = out.seconds
+            self.last_timing["shown_wall"] = time.time()
             n = int(sum(len(r.points) for r in fresh))
             rec = fresh[-1]
             extra = f" (stopped: {rec.note})" if rec.note else ""
@@ -523,7 +561,25 @@ class Explorer(W.VBox):
             self._update_count()
             self._compute_trace()
 
-        self.jobs.submit(key, compute, deliver, delay=delay)
+        budget = INLINE_BUDGET * len(records)
+        if stream and self.jobs.background and self._cost is not None and self._cost * len(records) < budget:
+            # cheap enough to answer a click at once (well under the ~100 ms the event loop
+            # may be held): no thread hop, one combined message to the page
+            self.jobs.submit_inline(compute, deliver)
+        else:
+            self._submit(key, compute, deliver, delay=delay)
+
+    def _submit(self, key, compute, deliver, delay=0.0):
+        """Queue ``compute`` for the worker; its bokeh changes reach the page as one message."""
+        def held(out):
+            with self._held():
+                deliver(out)
+        self.jobs.submit(key, compute, held, delay=delay)
+
+    def _learn_cost(self, out: Outcome, n_orbits: int):
+        """Running estimate of the seconds one orbit's computation takes."""
+        if out.error is None and n_orbits > 0:
+            self._cost = out.seconds / n_orbits  # the latest one (the first includes compiling)
 
     def _store(self, rec, sec, k):
         from phaselab.widgets.records import one_orbit
@@ -572,6 +628,8 @@ class Explorer(W.VBox):
                 self._report(out)
                 return
             frame, seeding, sec = out.value
+            if sec is not None:
+                self._learn_cost(out, sec.n_orbits)
             self._apply_frame(frame)
             hidden = 0
             if seeding is not None:
@@ -606,7 +664,7 @@ class Explorer(W.VBox):
                           f"in {out.seconds * 1000:.0f} ms.")
             self._compute_trace()
 
-        self.jobs.submit("all", compute, deliver)
+        self._submit("all", compute, deliver)
 
     def _compute_trace(self):
         rec = self._selected_record()
@@ -650,7 +708,7 @@ class Explorer(W.VBox):
             self.figures.trace_line.glyph.line_color = now.color
             self.figures.error_line.glyph.line_color = now.color
 
-        self.jobs.submit("trace", compute, deliver, delay=0.05)
+        self._submit("trace", compute, deliver, delay=0.05)
 
     def _warm_up(self):
         """Compile the kernels in the background while the user reads the plot."""
@@ -794,6 +852,12 @@ class Explorer(W.VBox):
 
     def _report(self, out: Outcome, what="orbit"):
         exc = out.error
+        self.last_error = out
+        if what == "trace":
+            # the orbit itself is fine: keep its message, add why the side views are empty
+            base = self._status_text.split(" | ")[0]
+            self._say(f"{base} | no trace of this orbit: {exc}", refused=True)
+            return
         if isinstance(exc, PhaselabError):
             self._say(f"Could not compute the {what}: {exc}", refused=True)
         else:
@@ -813,7 +877,8 @@ class Explorer(W.VBox):
         return super()._repr_mimebundle_(**kwargs)
 
     def close(self):
-        self.jobs.close()
+        if hasattr(self, "jobs"):
+            self.jobs.close()
         super().close()
 
 

@@ -53,7 +53,7 @@ class Figures:
     layout : bokeh layout holding all figures (one jupyter_bokeh model)
     """
 
-    def __init__(self, labels, ranges, trace_labels, scalar_label=None, width=560, height=500):
+    def __init__(self, labels, ranges, trace_labels, scalar_label=None, width=520, height=470):
         from bokeh.layouts import column, row
         from bokeh.models import (BoxZoomTool, ColorBar, ColumnDataSource, LinearColorMapper,
                                   PointDrawTool, ResetTool, SaveTool, WheelZoomTool, PanTool)
@@ -110,18 +110,19 @@ class Figures:
         self.main = main
         self.drag_tool = drag
 
-        tw = 300
-        trace = figure(width=tw, height=250, tools="pan,wheel_zoom,reset", title="Orbit in configuration space",
+        tw = 290
+        trace = figure(width=tw, height=240, tools="pan,wheel_zoom,reset", title="Orbit in configuration space",
                        name="phaselab-trace")
         _style(trace, *trace_labels)
         self.trace_source = ColumnDataSource(dict(x=[], y=[]))
         self.trace_line = trace.line("x", "y", source=self.trace_source, line_width=1.0,
                                      line_color=theme.ORBIT_COLORS[0], line_alpha=0.85)
-        error = figure(width=tw, height=200, tools="pan,wheel_zoom,reset", title="Energy error",
+        error = figure(width=tw, height=206, tools="pan,wheel_zoom,reset", title="Energy error along the orbit",
                        name="phaselab-error")
         _style(error, "t", "relative error")
-        error.yaxis.formatter.power_limit_high = 3
-        error.yaxis.formatter.power_limit_low = -3
+        from bokeh.models import BasicTickFormatter
+
+        error.yaxis.formatter = BasicTickFormatter(use_scientific=True, precision=1, power_limit_low=-2)
         self.error_source = ColumnDataSource(dict(x=[], y=[]))
         self.error_line = error.line("x", "y", source=self.error_source, line_width=1.0,
                                      line_color=theme.ORBIT_COLORS[0])

@@ -103,6 +103,10 @@ class JobRunner:
                 self._thread.start()
             self._cond.notify_all()
 
+    def submit_inline(self, compute: Callable[[], Any], deliver: Callable[[Outcome], None]) -> None:
+        """Compute and deliver at once in the calling thread (for work known to be short)."""
+        deliver(_run(compute))
+
     def cancel(self, key: str | None = None) -> None:
         """Drop waiting requests (all of them, or those under ``key``)."""
         with self._cond:

@@ -1,0 +1,281 @@
+"""The explorer without a browser: bokeh events and slider moves simulated from Python.
+
+Events are fed through jupyter_bokeh's own message handler (``BokehModel._sync_model``) in
+the form the page sends them, so the path tested is the one a click in JupyterLab takes.
+Every data-source check is compared with a direct ``phaselab.section`` call for the same
+seed, energy and parameters.
+"""
+
+from __future__ import annotations
+
+import subprocess
+import sys
+
+import numpy as np
+import pytest
+
+import phaselab
+
+pytest.importorskip("ipywidgets")
+pytest.importorskip("jupyter_bokeh")
+
+PLANE = {"x": 0.0}
+E0 = 0.125  # below the escape energy 1/6 of the Henon-Heiles potential (Henon & Heiles 1964)
+
+
+@pytest.fixture(scope="module")
+def hh():
+    return phaselab.models.henon_heiles()
+
+
+@pytest.fixture(scope="module")
+def coupled():
+    # our own two-mode model with one parameter, bounded for small energies
+    return phaselab.Hamiltonian("(px**2 + py**2)/2 + (x**2 + 2*y**2)/2 + a*x**2*y",
+                                ["x", "y"], ["px", "py"], params={"a": (0.5, (0.1, 1.0))},
+                                name="coupled")
+
+
+def _serialize(explorer, event_or_value):
+    from bokeh.core.serialization import Serializer
+
+    doc = explorer.figures.main.document
+    return Serializer(references=set(doc.models)).encode(event_or_value)
+
+
+def send_tap(explorer, x, y):
+    """What the page sends for a click at data coordinates (x, y)."""
+    model_ref = _serialize(explorer, explorer.figures.main)  # {"id": ...}
+    values = {"type": "map", "entries": [["model", model_ref], ["sx", 200.0], ["sy", 150.0],
+                                         ["x", x], ["y", y]]}
+    content = {"event": "jsevent", "kind": "MessageSent", "msg_type": "bokeh_event",
+               "msg_data": {"type": "event", "name": "tap", "values": values}}
+    explorer.bokeh._sync_model(explorer.bokeh, content, [])
+
+
+def send_drag(explorer, x, y):
+    """What the page sends when the point-draw tool moves the newest seed to (x, y)."""
+    src = explorer.figures.latest
+    content = {"event": "jsevent", "kind": "ModelChanged", "model": _serialize(explorer, src),
+               "attr": "data", "new": _serialize(explorer, {"x": [x], "y": [y]})}
+    explorer.bokeh._sync_model(explorer.bokeh, content, [])
+
+
+def direct(system, seed, energy, params=None, crossings=300, solve_for="px"):
+    """The section of one seed (or of a batch, given a list of seeds: the step is chosen per
+    batch, so a batch recomputed together is compared with the same batch)."""
+    batch = seed if isinstance(seed, list) else [seed]
+    seeds = phaselab.shell_seeds(system, energy, PLANE, solve_for, batch, params=params)
+    return phaselab.section(system, seeds, PLANE, crossings=crossings, params=params, energy=energy,
+                            axes=("y", "py"))
+
+
+def source_xy(explorer, orbit_id=None):
+    d = explorer.figures.points.data
+    x, y, o = np.asarray(d["x"]), np.asarray(d["y"]), np.asarray(d["orbit"])
+    if orbit_id is not None:
+        keep = o == orbit_id
+        x, y = x[keep], y[keep]
+    return x, y
+
+
+def test_tap_starts_an_orbit_matching_a_direct_section(hh):
+    ex = phaselab.explore(hh, energy=E0, crossings=300, background=False)
+    send_tap(ex, 0.1, 0.05)
+    assert len(ex.orbits) == 1
+    ref = direct(hh, (0.1, 0.05), E0)
+    rx, ry = ref.xy()
+    x, y = source_xy(ex)
+    assert len(x) == 300
+    np.testing.assert_allclose(x, rx, rtol=0, atol=1e-12)   # reference: direct phaselab.section
+    np.testing.assert_allclose(y, ry, rtol=0, atol=1e-12)
+    # the points lie on the shell: H = E at every crossing (energy conservation of a
+    # symplectic integrator, common practice: relative error well below 1e-5 here)
+    rec = ex.orbits[0]
+    states = rec.section.points[0, :rec.section.counts[0]]
+    assert np.max(np.abs(hh.energy(states) - E0)) < 1e-5
+    # and inside the allowed region py^2/2 + V(0, y) <= E, V(0, y) = y^2/2 - y^3/3
+    # (the Henon-Heiles potential on x = 0, Henon & Heiles 1964)
+    assert np.all(ry ** 2 / 2 + rx ** 2 / 2 - rx ** 3 / 3 <= E0 + 1e-9)
+    # seed markers: every orbit, the newest one draggable
+    assert list(ex.figures.seeds.data["x"]) == [0.1]
+    assert list(ex.figures.latest.data["x"]) == [0.1]
+    assert "Orbit 1" in ex.status and "300 crossings" in ex.status
+    # the companion views hold the orbit's configuration trace and energy error
+    assert len(ex.figures.trace_source.data["x"]) > 10
+    assert np.max(np.abs(ex.figures.error_source.data["y"])) < 1e-4
+
+
+def test_second_tap_appends_and_colours_differ(hh):
+    ex = phaselab.explore(hh, energy=E0, background=False)
+    send_tap(ex, 0.1, 0.05)
+    send_tap(ex, -0.2, 0.1)
+    assert [o.id for o in ex.orbits] == [1, 2]
+    assert ex.orbits[0].color != ex.orbits[1].color
+    x2, y2 = source_xy(ex, 2)
+    rx, ry = direct(hh, (-0.2, 0.1), E0).xy()
+    np.testing.assert_allclose(x2, rx, atol=1e-12)
+    np.testing.assert_allclose(y2, ry, atol=1e-12)
+    assert len(set(np.asarray(ex.figures.points.data["shade"]).tolist())) == 2
+
+
+def test_energy_slider_recomputes_every_orbit(hh):
+    ex = phaselab.explore(hh, energy=E0, background=False)
+    seeds = [(0.1, 0.05), (-0.2, 0.1), (0.3, -0.1)]
+    ex.add_seeds(seeds)
+    ex.sliders["energy"].value = 0.1
+    assert ex.energy == pytest.approx(0.1)
+    ref = direct(hh, seeds, 0.1)
+    for k, rec in enumerate(ex.orbits):
+        rx, ry = ref.xy(k)
+        x, y = source_xy(ex, rec.id)
+        np.testing.assert_allclose(x, rx, atol=1e-12)
+        np.testing.assert_allclose(y, ry, atol=1e-12)
+    assert "Recomputed 3 orbits" in ex.status
+
+
+def test_parameter_slider_recomputes_with_the_new_value(coupled):
+    ex = phaselab.explore(coupled, energy=0.05, background=False)
+    assert ex.sliders["a"].min == pytest.approx(0.1) and ex.sliders["a"].max == pytest.approx(1.0)
+    ex.add_seed(0.05, 0.02)
+    ex.sliders["a"].value = 0.8
+    assert ex.params["a"] == pytest.approx(0.8)
+    rx, ry = direct(coupled, (0.05, 0.02), 0.05, params={"a": 0.8}).xy()
+    x, y = source_xy(ex)
+    np.testing.assert_allclose(x, rx, atol=1e-12)
+    np.testing.assert_allclose(y, ry, atol=1e-12)
+    # and it differs from the orbit at the old value (the parameter reached the kernels)
+    ox, _ = direct(coupled, (0.05, 0.02), 0.05, params={"a": 0.5}).xy()
+    assert not np.allclose(x[:50], ox[:50])
+
+
+def test_drag_moves_the_newest_orbit(hh):
+    ex = phaselab.explore(hh, energy=E0, background=False)
+    ex.add_seeds([(0.1, 0.05), (0.2, 0.0)])
+    send_drag(ex, 0.25, 0.05)
+    assert ex.orbits[-1].seed == (0.25, 0.05)
+    rx, ry = direct(hh, (0.25, 0.05), E0).xy()
+    x, y = source_xy(ex, ex.orbits[-1].id)
+    np.testing.assert_allclose(x, rx, atol=1e-12)
+    np.testing.assert_allclose(y, ry, atol=1e-12)
+    x1, _ = source_xy(ex, ex.orbits[0].id)
+    # the first orbit was computed together with the second one's first position
+    np.testing.assert_allclose(x1, direct(hh, [(0.1, 0.05), (0.2, 0.0)], E0).xy(0)[0], atol=1e-12)
+    # a drag into the forbidden region is refused, the orbit stays where it was
+    send_drag(ex, 0.0, 0.9)
+    assert ex.orbits[-1].seed == (0.25, 0.05)
+    assert "outside the energetically allowed region" in ex.status
+
+
+def test_undo_and_clear(hh):
+    ex = phaselab.explore(hh, energy=E0, background=False)
+    ex.add_seed(0.1, 0.05)
+    ex.add_seeds([(-0.2, 0.1), (0.3, -0.1)])
+    assert len(ex.orbits) == 3 and len(source_xy(ex)[0]) == 900
+    ex.undo()  # takes back the two seeds added together
+    assert [o.id for o in ex.orbits] == [1]
+    assert len(source_xy(ex)[0]) == 300
+    ex.clear()
+    assert ex.orbits == [] and len(source_xy(ex)[0]) == 0
+    assert len(ex.figures.seeds.data["x"]) == 0 and len(ex.figures.latest.data["x"]) == 0
+    ex.undo()  # the clear
+    assert [o.id for o in ex.orbits] == [1] and len(source_xy(ex)[0]) == 300
+    ex.undo()
+    ex.undo()
+    assert ex.status == "Nothing to undo."
+
+
+def test_forbidden_click_is_refused_with_a_message(hh):
+    ex = phaselab.explore(hh, energy=E0, background=False)
+    # py^2/2 + V(0, y) = 0.32 + 0.0 > E at (y, py) = (0, 0.8): no real px
+    send_tap(ex, 0.0, 0.8)
+    assert ex.orbits == []
+    assert "outside the energetically allowed region" in ex.status
+    assert "refused" in ex._status.value
+    send_tap(ex, 0.1, 0.05)  # and the widget keeps working
+    assert len(ex.orbits) == 1
+
+
+def test_bad_slider_values_and_empty_shell(hh, coupled):
+    ex = phaselab.explore(hh, energy=E0, background=False)
+    ex.add_seed(0.1, 0.05)
+    ex.set_energy(float("nan"))
+    assert ex.energy == E0 and "finite" in ex.status
+    ex.energy = float("inf")
+    assert ex.energy == E0
+    # H >= 0 on x = 0 near the origin: at negative energy the shell is empty there
+    ex.set_energy(-0.05)
+    assert "no energetically allowed region" in ex.status
+    assert len(source_xy(ex)[0]) == 0 and ex.orbits[0].state is None
+    ex.set_energy(E0)  # the orbit comes back (one orbit: the same batch as a direct call)
+    np.testing.assert_allclose(source_xy(ex)[0], direct(hh, (0.1, 0.05), E0).xy()[0], atol=1e-12)
+    cx = phaselab.explore(coupled, energy=0.05, background=False)
+    cx.set_params(a=float("nan"))
+    assert cx.params["a"] == 0.5 and "finite" in cx.status
+    cx.set_params(b=1.0)
+    assert "unknown parameters" in cx.status
+
+
+def test_constructor_errors_are_clear(hh):
+    with pytest.raises(phaselab.ParameterError, match="needs an energy"):
+        phaselab.explore(hh)
+    with pytest.raises(phaselab.ModelError, match="not a state component"):
+        phaselab.explore(hh, energy=E0, plane={"z": 0.0})
+    with pytest.raises(phaselab.ParameterError, match="crossings"):
+        phaselab.explore(hh, energy=E0, crossings=0)
+
+
+def test_background_worker_delivers_the_same_points(hh):
+    ex = phaselab.explore(hh, energy=E0)  # worker thread; no event loop here, wait() delivers
+    try:
+        ex.add_seed(0.1, 0.05)
+        assert ex.wait(120)
+        rx, _ = direct(hh, (0.1, 0.05), E0).xy()
+        np.testing.assert_allclose(source_xy(ex)[0], rx, atol=1e-12)
+        ex.sliders["energy"].value = 0.11
+        ex.sliders["energy"].value = 0.1  # newest wins
+        assert ex.wait(120)
+        np.testing.assert_allclose(source_xy(ex)[0], direct(hh, (0.1, 0.05), 0.1).xy()[0], atol=1e-12)
+    finally:
+        ex.close()
+
+
+def test_colour_by_scalar_and_export(hh, tmp_path):
+    ex = phaselab.explore(hh, energy=E0, background=False, color_by="energy_error", export_dir=tmp_path)
+    ex.add_seeds([(0.1, 0.05), (-0.2, 0.1)])
+    vals = np.asarray(ex.figures.points.data["value"])
+    assert np.isfinite(vals).all()
+    assert set(np.round(vals, 18)) == {round(float(o.section.energy_error[0]), 18) for o in ex.orbits}
+    paths = ex.export("hh-test")
+    assert {p.suffix for p in paths} == {".png", ".csv"}
+    assert all(p.stat().st_size > 0 for p in paths)
+    meta, data = phaselab.export.read_section_csv(tmp_path / "hh-test.csv")
+    assert len(data["orbit"]) == 600 and meta["n_orbits"] == 2
+    np.testing.assert_allclose(data["states"][data["orbit"] == 0][:, 1], source_xy(ex, 1)[0], atol=1e-12)
+    ex.clear()
+    ex._export_clicked()
+    assert "no orbits to export" in ex.status
+
+
+def test_map_and_portrait_views(hh):
+    m = phaselab.models.standard_map()
+    ex = phaselab.explore(m, crossings=200, background=False)
+    assert "energy" not in ex.sliders and "K" in ex.sliders
+    ex.add_seed(1.0, 2.0)
+    ref = phaselab.section(m, [[1.0, 2.0]], crossings=200)
+    np.testing.assert_allclose(source_xy(ex)[0], ref.xy()[0], atol=1e-12)
+    pend = phaselab.models.pendulum()
+    px = phaselab.explore(pend, energy=0.0, crossings=100, background=False)
+    px.add_seed(0.5, 0.0)
+    tr = phaselab.trajectory(pend, [0.5, 0.0], np.linspace(0.0, px.view.duration, 100))
+    np.testing.assert_allclose(source_xy(px)[0], tr.states[0, :, 0], atol=1e-12)
+    # one level curve through the clicked energy drawn strongly: the frame has curves
+    assert len(px.figures.lines.data["xs"]) > 0
+
+
+def test_importing_phaselab_does_not_import_the_widget_layer():
+    code = ("import sys, phaselab; phaselab.section; phaselab.shell_seeds; "
+            "bad = [m for m in ('bokeh', 'ipywidgets', 'jupyter_bokeh', 'phaselab.widgets') if m in sys.modules]; "
+            "print(bad); assert not bad")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=120)
+    assert out.returncode == 0, out.stdout + out.stderr
