@@ -84,9 +84,10 @@ def test_default_step_follows_the_linearised_frequency(bead):
     assert tr.method == "yoshida4"  # separable H -> Yoshida 4 ("auto")
     # linearising dq/dt = p, dp/dt = -w^2 sin q at the seed gives omega = w sqrt(cos q0)
     # (common practice); the documented default is 2 pi / omega / 100 for a fourth-order
-    # method, shrunk to fit a whole number of steps into the span
+    # method, rounded down onto the ladder 2^(k/4) (at most 2^(1/4) smaller), then shrunk
+    # to fit a whole number of steps into the span
     nominal = 2 * np.pi / (W * np.sqrt(np.cos(theta0))) / 100
-    assert 0.99 * nominal <= tr.dt <= nominal
+    assert 0.99 * nominal / 2**0.25 <= tr.dt <= nominal
     assert tr.t[-1] == 10.0 and tr.t[0] == 0.0
     assert np.abs(tr.energy_error).max() < 1e-8
 

@@ -222,7 +222,9 @@ def default_step(cs, method: Method, states: np.ndarray, prm: np.ndarray, span: 
     the integration span itself (so a free particle, whose linearisation has no time
     scale, still gets 40 to 200 steps over the span). This is a starting point:
     nonlinear orbits may need smaller steps (the energy error of the result tells), and
-    the linearisation at a seed does not see a close encounter later on the orbit.
+    the linearisation at a seed does not see a close encounter later on the orbit. The
+    result is rounded down to a power of 2^(1/4); pass ``dt`` explicitly for results that
+    cannot depend on which other seeds share the call.
 
     Parameters
     ----------
@@ -240,4 +242,9 @@ def default_step(cs, method: Method, states: np.ndarray, prm: np.ndarray, span: 
     if period is not None and np.isfinite(period) and period > 0:
         scale = min(scale, period)
     per = STEPS_PER_PERIOD.get(method.order, 100 if method.order > 2 else 200)
-    return scale / per
+    h = scale / per
+    if not (np.isfinite(h) and h > 0):
+        return h
+    # round down onto the ladder 2^(k/4): seeds with nearby time scales then share one step,
+    # so adding a seed to a batch rarely changes the other orbits' step
+    return float(2.0 ** (np.floor(4.0 * np.log2(h)) / 4.0))
