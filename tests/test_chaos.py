@@ -16,21 +16,29 @@ def henon_heiles():
     return phaselab.Hamiltonian(HH_EXPR, ["x", "y"], ["px", "py"])
 
 
+@pytest.fixture(scope="module")
+def quartic():
+    """One compiled 1-dof system serves as saddle (c < 0), oscillator (c > 0) and runaway
+    (d > 0), to keep compile time down."""
+    return phaselab.Hamiltonian("p**2/2 + c*q**2/2 - d*q**4/4", ["q"], ["p"],
+                                params={"c": 1.0, "d": 0.0})
+
+
 def hh_seed(y, energy):
     """x = 0, py = 0, px > 0 solved from H = E."""
     return [0.0, y, np.sqrt(2 * energy - y**2 + 2 * y**3 / 3), 0.0]
 
 
-def test_linear_saddle_exponent_is_its_eigenvalue():
+def test_linear_saddle_exponent_is_its_eigenvalue(quartic):
     # H = p^2/2 - a^2 q^2/2 has eigenvalues +-a; the Lyapunov exponent of a linear flow is
     # the largest real part of its eigenvalues (common practice). With deviation w0 the
     # finite-time estimate is log|w(t)|/t, w(t) = e^{At} w0 exactly, computed here with scipy.
     from scipy.linalg import expm
 
     a = 0.7
-    S = phaselab.Hamiltonian("p**2/2 - a**2*q**2/2", ["q"], ["p"], params={"a": a})
     T = 60.0
-    r = chaos_indicators(S, [0.0, 0.0], T, method="yoshida4", dt=0.01, vectors=1, seed=3)
+    r = chaos_indicators(quartic, [0.0, 0.0], T, method="yoshida4", dt=0.01, vectors=1, seed=3,
+                         params={"c": -a**2})
     w0 = np.random.default_rng(3).standard_normal((1, 2, 1))[0, :, 0]
     w0 /= np.linalg.norm(w0)
     A = np.array([[0.0, 1.0], [a**2, 0.0]])
@@ -39,10 +47,9 @@ def test_linear_saddle_exponent_is_its_eigenvalue():
     assert r.lyapunov[0] == pytest.approx(a, rel=0.05)  # finite-time transient ~ log|a.w0|/T
 
 
-def test_isochronous_oscillator_megno_tends_to_zero():
+def test_isochronous_oscillator_megno_tends_to_zero(quartic):
     # Cincotta & Simo 2000 (A&AS 147, 205): <Y> -> 0 for stable isochronous motion.
-    O = phaselab.Hamiltonian("p**2/2 + w**2*q**2/2", ["q"], ["p"], params={"w": 1.3})
-    r = chaos_indicators(O, [[1.0, 0.0]], 400.0, dt=0.01)
+    r = chaos_indicators(quartic, [[1.0, 0.0]], 400.0, dt=0.01, params={"c": 1.3**2})
     assert abs(r.megno[0]) < 0.01
     assert abs(r.lyapunov[0]) < 0.01
 
@@ -111,9 +118,9 @@ def test_bad_input_is_refused(henon_heiles):
         chaos_indicators(henon_heiles, [hh_seed(0.0, 0.1)], 10.0, dt=float("nan"))
 
 
-def test_escaping_orbit_is_flagged_and_batch_survives():
-    S = phaselab.Hamiltonian("p**2/2 - q**4/4", ["q"], ["p"])  # blows up in finite time
-    r = chaos_indicators(S, [[0.0, 0.0], [2.0, 3.0]], 50.0, dt=0.01)
+def test_escaping_orbit_is_flagged_and_batch_survives(quartic):
+    # with c = 0, d = 1 an orbit with energy above 0 reaches infinity in finite time
+    r = chaos_indicators(quartic, [[0.0, 0.0], [2.0, 3.0]], 50.0, dt=0.01, params={"c": 0.0, "d": 1.0})
     assert not r.escaped[0] and r.escaped[1]
     assert r.status[1] in ("became non-finite", "implicit step did not converge", "left the box")
     assert np.isfinite(r.lyapunov[0])
