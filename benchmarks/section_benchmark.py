@@ -21,7 +21,6 @@ Run:  /work/venv/bin/python benchmarks/section_benchmark.py [--scipy-orbits N] [
 from __future__ import annotations
 
 import argparse
-import math
 import time
 
 import numba

@@ -1,6 +1,5 @@
 """Surfaces of section: plane crossings, stroboscopic sections, map iterates."""
 
-import warnings
 
 import numpy as np
 import pytest

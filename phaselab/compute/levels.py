@@ -27,7 +27,6 @@ where H is not finite (singularities) are masked.
 
 from __future__ import annotations
 
-import math
 import warnings
 from dataclasses import dataclass, field
 from typing import Mapping
@@ -35,6 +34,7 @@ from typing import Mapping
 import numpy as np
 import sympy as sp
 
+from phaselab.model.params import finite_number
 from phaselab.errors import ModelError, ParameterError
 
 NEWTON_STEPS = 50
@@ -127,13 +127,7 @@ class LevelSet:
 
 # --------------------------------------------------------------------------- helpers
 def _finite_level(value, what: str) -> float:
-    try:
-        v = float(value)
-    except (TypeError, ValueError):
-        raise ParameterError(f"{what} must be a number, got {value!r}") from None
-    if not math.isfinite(v):
-        raise ParameterError(f"{what} must be finite, got {v}")
-    return v
+    return finite_number(value, what)
 
 
 def _check_levels(levels) -> np.ndarray:

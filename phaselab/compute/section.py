@@ -22,6 +22,7 @@ from typing import Mapping
 
 import numpy as np
 
+from phaselab.model.params import finite_number
 from phaselab.compute.integrators import (ADAPTIVE, choose_method, compiled, default_step,
                                           get_method)
 from phaselab.compute.results import Section
@@ -266,12 +267,7 @@ def _plane_section(system, Z0, plane, direction, crossings, prm, pdict, dt, meth
         raise ModelError(f"plane must fix exactly one state component, e.g. {{'x': 0.0}}, got {dict(plane)!r}")
     (name, value), = plane.items()
     k = state_index(system, name, "plane component")
-    try:
-        value = float(value)
-    except (TypeError, ValueError):
-        raise ParameterError(f"plane value of {name!r} must be a number, got {value!r}") from None
-    if not np.isfinite(value):
-        raise ParameterError(f"plane value of {name!r} must be finite, got {value}")
+    value = finite_number(value, f"plane value of {name!r}")
     meth = _method(system, method)
     cs = compiled(system, "sections")
     span = np.inf if t_max is None else _t_max(t_max, crossings, 1.0)

@@ -17,6 +17,7 @@ from typing import Mapping
 import numpy as np
 import sympy as sp
 
+from phaselab.model.params import finite_number
 from phaselab.errors import ModelError, ParameterError
 
 
@@ -94,13 +95,7 @@ def state_index(system, name, what: str = "name") -> int:
 
 
 def _as_float(value, what: str) -> float:
-    try:
-        v = float(value)
-    except (TypeError, ValueError):
-        raise ParameterError(f"{what} must be a number, got {value!r}") from None
-    if not np.isfinite(v):
-        raise ParameterError(f"{what} must be finite, got {v}")
-    return v
+    return finite_number(value, what)
 
 
 @lru_cache(maxsize=64)

@@ -14,6 +14,7 @@ from collections.abc import Mapping
 
 import numpy as np
 
+from phaselab.model.params import finite_number
 from phaselab.compute.integrators import (ADAPTIVE, choose_method, compiled, default_step,
                                           get_method)
 from phaselab.compute.results import Trajectory
@@ -57,13 +58,7 @@ def _seeds(system, state0) -> np.ndarray:
 
 
 def _number(value, what: str) -> float:
-    try:
-        v = float(value)
-    except (TypeError, ValueError):
-        raise IntegrationError(f"{what} must be a number, got {value!r}") from None
-    if not math.isfinite(v):
-        raise IntegrationError(f"{what} must be finite, got {v}")
-    return v
+    return finite_number(value, what, IntegrationError)
 
 
 def _times(t):

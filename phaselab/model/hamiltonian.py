@@ -8,8 +8,9 @@ import numpy as np
 import sympy as sp
 
 from phaselab.errors import ModelError
-from phaselab.model.params import Parameter, make_parameters, resolve_values
+from phaselab.model.params import Parameter, make_parameters
 from phaselab.model.parser import parse_expression
+from phaselab.model.system import PhaseSpaceSystem
 
 
 def as_symbols(items, what: str) -> tuple[sp.Symbol, ...]:
@@ -27,14 +28,7 @@ def as_symbols(items, what: str) -> tuple[sp.Symbol, ...]:
     return tuple(out)
 
 
-def picklable_state(obj) -> dict:
-    """``obj.__dict__`` without cached lambdified functions, which cannot be pickled; they
-    are rebuilt on first use after unpickling (so systems travel to Dask workers)."""
-    return {k: v for k, v in obj.__dict__.items()
-            if not (callable(v) and getattr(v, "__name__", "") == "_lambdifygenerated")}
-
-
-class Hamiltonian:
+class Hamiltonian(PhaseSpaceSystem):
     """A Hamiltonian system with ``n`` degrees of freedom.
 
     Parameters
@@ -61,9 +55,6 @@ class Hamiltonian:
     """
 
     kind = "flow"
-
-    def __getstate__(self):
-        return picklable_state(self)
 
     def __init__(self, expr, coords, momenta, params=None, time=None, period=None, name=None):
         self.coords = as_symbols(coords, "coordinates")
@@ -133,25 +124,6 @@ class Hamiltonian:
                                   period=period, name=name, momenta=momenta)
 
     # ----------------------------------------------------------------- structure
-    @property
-    def dof(self) -> int:
-        """Number of degrees of freedom ``n``."""
-        return len(self.coords)
-
-    @property
-    def state_symbols(self) -> tuple[sp.Symbol, ...]:
-        """``(q1..qn, p1..pn)``."""
-        return self.coords + self.momenta
-
-    @property
-    def params(self) -> dict[str, float]:
-        """Parameter names with their default values."""
-        return {p.name: p.default for p in self.parameters}
-
-    @property
-    def param_symbols(self) -> tuple[sp.Symbol, ...]:
-        return tuple(p.symbol for p in self.parameters)
-
     @property
     def is_autonomous(self) -> bool:
         """True when H has no explicit time dependence."""
@@ -250,10 +222,6 @@ class Hamiltonian:
         return out
 
     # ----------------------------------------------------------------- numbers
-    def param_values(self, params=None) -> np.ndarray:
-        """Parameter values in model order; ``params`` overrides defaults by name."""
-        return resolve_values(self.parameters, params)
-
     @cached_property
     def _energy_fn(self):
         args = list(self.state_symbols) + list(self.param_symbols)

@@ -24,7 +24,6 @@ sample points); a map that is not area-preserving is refused.
 from __future__ import annotations
 
 import hashlib
-import math
 from functools import cached_property
 from typing import Mapping
 
@@ -32,8 +31,9 @@ import numpy as np
 import sympy as sp
 
 from phaselab.errors import ModelError
-from phaselab.model.hamiltonian import as_symbols, picklable_state
-from phaselab.model.params import Parameter, make_parameters, resolve_values
+from phaselab.model.hamiltonian import as_symbols
+from phaselab.model.system import PhaseSpaceSystem
+from phaselab.model.params import Parameter, finite_number, make_parameters
 from phaselab.model.parser import parse_expression
 
 #: number of random points used when the determinant cannot be simplified to 1
@@ -44,7 +44,7 @@ DET_TOL = 1e-9
 SIMPLIFY_MAX_OPS = 400
 
 
-class AreaPreservingMap:
+class AreaPreservingMap(PhaseSpaceSystem):
     """An area-preserving (unit Jacobian determinant) map of phase space.
 
     Parameters
@@ -88,8 +88,6 @@ class AreaPreservingMap:
 
     kind = "map"
 
-    def __getstate__(self):
-        return picklable_state(self)
     time = None
     period = None
     is_autonomous = True
@@ -165,13 +163,7 @@ class AreaPreservingMap:
     def _number(self, value, what: str) -> float:
         if isinstance(value, str):
             value = parse_expression(value, symbols={}, allowed=set())
-        try:
-            out = float(value)
-        except (TypeError, ValueError):
-            raise ModelError(f"{what} must be a number, got {value!r}") from None
-        if not math.isfinite(out):
-            raise ModelError(f"{what} must be finite, got {out}")
-        return out
+        return finite_number(value, what, ModelError)
 
     def _modulus(self, modulus):
         n = len(self.state_symbols)
@@ -274,29 +266,6 @@ class AreaPreservingMap:
                 f"{_short(det)} is undefined at every sample point")
 
     # ----------------------------------------------------------------- structure
-    @property
-    def dof(self) -> int:
-        """Number of degrees of freedom ``n`` (the state has ``2n`` components)."""
-        return len(self.coords)
-
-    @property
-    def state_symbols(self) -> tuple[sp.Symbol, ...]:
-        """``(q1..qn, p1..pn)``."""
-        return self.coords + self.momenta
-
-    @property
-    def params(self) -> dict[str, float]:
-        """Parameter names with their default values."""
-        return {p.name: p.default for p in self.parameters}
-
-    @property
-    def param_symbols(self) -> tuple[sp.Symbol, ...]:
-        return tuple(p.symbol for p in self.parameters)
-
-    def param_values(self, params=None) -> np.ndarray:
-        """Parameter values in model order; ``params`` overrides defaults by name."""
-        return resolve_values(self.parameters, params)
-
     @cached_property
     def is_symplectic(self) -> bool:
         """True when J^T Omega J = Omega holds identically (for one degree of freedom this is

@@ -85,14 +85,20 @@ def make_parameters(spec, reserved: set[str]) -> tuple[Parameter, ...]:
     return tuple(items)
 
 
-def _finite(name: str, value) -> float:
+def finite_number(value, what: str, error: type = ParameterError) -> float:
+    """``float(value)``, refusing non-numbers and non-finite values with ``error`` whose
+    message names ``what`` ("dt", "plane value of 'x'", ...)."""
     try:
         v = float(value)
     except (TypeError, ValueError):
-        raise ParameterError(f"parameter {name!r} must be a number, got {value!r}") from None
+        raise error(f"{what} must be a number, got {value!r}") from None
     if not math.isfinite(v):
-        raise ParameterError(f"parameter {name!r} must be finite, got {v}")
+        raise error(f"{what} must be finite, got {v}")
     return v
+
+
+def _finite(name: str, value) -> float:
+    return finite_number(value, f"parameter {name!r}")
 
 
 def resolve_values(parameters: tuple[Parameter, ...], overrides) -> np.ndarray:

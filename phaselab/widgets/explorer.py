@@ -28,6 +28,7 @@ from pathlib import Path
 import ipywidgets as W
 import numpy as np
 
+from phaselab.model.params import finite_number
 from phaselab.errors import ParameterError, PhaselabError
 from phaselab.widgets import theme
 from phaselab.widgets.views import make_view
@@ -103,13 +104,7 @@ def _slider_grid(lo, hi, value):
 
 
 def _finite(value, what):
-    try:
-        v = float(value)
-    except (TypeError, ValueError):
-        raise ParameterError(f"{what} must be a number, got {value!r}") from None
-    if not math.isfinite(v):
-        raise ParameterError(f"{what} must be finite, got {v}")
-    return v
+    return finite_number(value, what)
 
 
 _CSS = f"""

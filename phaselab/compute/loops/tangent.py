@@ -18,6 +18,22 @@ def _norm(W, col):
 
 
 @njit(cache=True, nogil=True)
+def _normalise_columns(W):
+    for col in range(W.shape[1]):
+        g = _norm(W, col)
+        for j in range(W.shape[0]):
+            W[j, col] /= g
+
+
+@njit(cache=True, nogil=True)
+def _record(o, rec, lce, megno, fli, sali, out_lce, out_megno, out_fli, out_sali):
+    out_lce[o, rec] = lce
+    out_megno[o, rec] = megno
+    out_fli[o, rec] = fli
+    out_sali[o, rec] = sali
+
+
+@njit(cache=True, nogil=True)
 def _indicator_update(W, t, h, log_sum, fli, y_int, y_mean, use_sali):
     """Renormalise the deviation vectors after a step ending at time ``t`` and update the
     running indicators. Returns (log_sum, fli, y_int, y_mean, sali)."""
@@ -65,10 +81,7 @@ def run_indicators(Z0, W0, prm, h, n_steps, record_every, kind, weights, A, b, t
         Jm = np.zeros((NSTATE, NSTATE))
         z = Z0[o].copy()
         W = W0[o].copy()
-        for col in range(k):
-            g = _norm(W, col)
-            for j in range(NSTATE):
-                W[j, col] /= g
+        _normalise_columns(W)
         st = check_state(z, box_lo, box_hi)
         if st != OK:
             status[o] = st
@@ -91,10 +104,7 @@ def run_indicators(Z0, W0, prm, h, n_steps, record_every, kind, weights, A, b, t
             log_sum, fli, y_int, y_mean, sali = _indicator_update(
                 W, t, h, log_sum, fli, y_int, y_mean, use_sali)
             if step % record_every == 0:
-                out_lce[o, rec] = log_sum / t
-                out_megno[o, rec] = y_mean
-                out_fli[o, rec] = fli
-                out_sali[o, rec] = sali
+                _record(o, rec, log_sum / t, y_mean, fli, sali, out_lce, out_megno, out_fli, out_sali)
                 rec += 1
 
 
@@ -113,10 +123,7 @@ def run_map_indicators(Z0, W0, prm, n_iter, record_every, modulus, low, box_lo, 
         Wn = np.zeros((NSTATE, k))
         z = Z0[o].copy()
         W = W0[o].copy()
-        for col in range(k):
-            g = _norm(W, col)
-            for j in range(NSTATE):
-                W[j, col] /= g
+        _normalise_columns(W)
         st = check_state(z, box_lo, box_hi)
         if st != OK:
             status[o] = st
@@ -151,8 +158,5 @@ def run_map_indicators(Z0, W0, prm, n_iter, record_every, modulus, low, box_lo, 
             log_sum, fli, y_int, y_mean, sali = _indicator_update(
                 W, float(it), 1.0, log_sum, fli, y_int, y_mean, use_sali)
             if it % record_every == 0:
-                out_lce[o, rec] = log_sum / it
-                out_megno[o, rec] = y_mean
-                out_fli[o, rec] = fli
-                out_sali[o, rec] = sali
+                _record(o, rec, log_sum / it, y_mean, fli, sali, out_lce, out_megno, out_fli, out_sali)
                 rec += 1
