@@ -54,6 +54,7 @@ ripple_rate = 2.3        # ripple frequency over the small-oscillation frequency
 n_seeds = 10             # orbits of the stroboscopic section
 periods = 120            # ripple periods recorded per orbit
 dt = 0.004               # step, s
+figure_dpi = 110         # resolution of the PNG figures
 out_dir = "bead_output"  # where figures and data go
 '''),
     ("md", '''
@@ -158,7 +159,7 @@ strobe = phaselab.section(rippling, seeds, plane="stroboscopic", crossings=int(p
 strobe
 '''),
     ("code", '''
-files = [save(strobe, Path(out_dir) / name, title=f"Slider on a rippling ring, {ripple:.0%} ripple")
+files = [save(strobe, Path(out_dir) / name, title=f"Slider on a rippling ring, {ripple:.0%} ripple", dpi=figure_dpi)
          for name in ("ripple_section.png", "ripple_section.svg")]
 files.append(save(strobe, Path(out_dir) / "ripple_section.csv"))
 write_summary(critical_spin=critical, spins=spins.tolist(), tilted_angle=tilted_angle.tolist(),
@@ -181,6 +182,7 @@ n_seeds = 10             # orbits per energy, along py = 0 in the plane x = 0
 crossings = 120          # section points per orbit
 dt = 0.05                # step
 coverage_bins = 40       # grid for the area an orbit covers on the section
+figure_dpi = 110         # resolution of the PNG figures
 out_dir = "molecule_output"
 '''),
     ("md", '''
@@ -252,7 +254,7 @@ files = []
 for E, sec in sections.items():
     tag = f"{E:.3f}".replace(".", "p")
     for suffix in (".png", ".svg"):
-        files.append(save(sec, Path(out_dir) / f"molecule_E{tag}{suffix}", overlays=boundaries[E],
+        files.append(save(sec, Path(out_dir) / f"molecule_E{tag}{suffix}", overlays=boundaries[E], dpi=figure_dpi,
                           title=f"Two-mode molecule, E = {E:g}", note="Model results with made-up constants."))
     files.append(save(sec, Path(out_dir) / f"molecule_E{tag}.csv"))
 write_summary(escape_energy=escape, energies=list(map(float, energies)),
@@ -433,6 +435,7 @@ kicks = [0.4, 0.9, 1.6, 3.0]     # kick strengths
 grid = 6                 # seeds per axis (grid x grid orbits)
 iterates = 300           # kicks recorded per orbit
 coverage_bins = 60       # cells per axis for the chaotic-area estimate
+figure_dpi = 110         # resolution of the PNG figures
 out_dir = "rotor_output"
 '''),
     ("md", '''
@@ -487,8 +490,8 @@ for K, f in sea.items():
 files = []
 for K, sec in sections.items():
     tag = f"{K:.2f}".replace(".", "p")
-    files.append(save(sec, Path(out_dir) / f"rotor_K{tag}.png", point_size=0.9,
-                      title=f"Kicked rotor, K = {K:g}"))
+    files.append(save(sec, Path(out_dir) / f"rotor_K{tag}.png", point_size=0.9, size=(5.5, 4.6),
+                      dpi=figure_dpi, title=f"Kicked rotor, K = {K:g}"))
     files.append(save(sec, Path(out_dir) / f"rotor_K{tag}.csv"))
 files.append(save(sections[kicks[-1]], Path(out_dir) / "rotor_strongest.svg", point_size=0.9))
 write_summary(kicks=list(map(float, kicks)), widest_orbit_cover=[sea[K] for K in kicks],
@@ -608,11 +611,49 @@ def build(name: str, cells) -> nbformat.NotebookNode:
     return nb
 
 
+#: README pictures: notebook, parameters for a fuller run, (file written, name in images/)
+IMAGES = [
+    ("two_mode_molecule", {"energies": [0.24], "n_seeds": 20, "crossings": 250},
+     "molecule_E0p240.png", "molecule_section.png"),
+    ("kicked_rotor", {"kicks": [1.2], "grid": 7, "iterates": 400}, "rotor_K1p20.png", "kicked_rotor.png"),
+    ("bead_on_spinning_hoop", {"n_seeds": 14, "periods": 200, "spin_sweep": [0.0, 12.0, 9]},
+     "ripple_section.png", "rippling_ring.png"),
+    ("driven_oscillator", {"n_seeds": 18, "periods": 250, "max_angle": 2.5}, "driven_section.png",
+     "driven_arm.png"),
+]
+
+
+def render_images() -> None:
+    """Run the notebooks at fuller sizes and copy the README pictures into images/."""
+    import tempfile
+
+    import papermill
+
+    out = HERE / "images"
+    out.mkdir(exist_ok=True)
+    with tempfile.TemporaryDirectory() as tmp:
+        for name, params, produced, target in IMAGES:
+            work = Path(tmp) / name
+            work.mkdir()
+            papermill.execute_notebook(str(HERE / f"{name}.ipynb"), str(work / "run.ipynb"),
+                                       parameters={**params, "out_dir": str(work / "out")},
+                                       kernel_name="python3", cwd=str(work), progress_bar=False)
+            # an adaptive 64-colour palette keeps the scatter plots near 100 KB
+            from PIL import Image
+
+            with Image.open(work / "out" / produced) as img:
+                img.convert("RGB").quantize(colors=64, method=Image.Quantize.MEDIANCUT).save(
+                    out / target, optimize=True)
+            print(f"wrote {out / target} ({(out / target).stat().st_size // 1024} KiB)")
+
+
 def main(argv=None) -> int:
     for name, cells in NOTEBOOKS.items():
         path = HERE / f"{name}.ipynb"
         nbformat.write(build(name, cells), path)
         print(f"wrote {path}")
+    if argv and "--images" in argv:
+        render_images()
     return 0
 
 
