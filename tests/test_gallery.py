@@ -60,12 +60,14 @@ def kernel_env(tmp_path_factory):
     return env
 
 
+# Cells may wait for numba on a cold kernel cache: the restricted three-body section loop
+# took about 5 minutes to compile here (measured), so the per-cell limit is generous.
 def execute(env, name: str, workdir: Path, parameters: dict) -> subprocess.CompletedProcess:
     workdir.mkdir(parents=True, exist_ok=True)
     cmd = [sys.executable, "-m", "papermill", str(GALLERY / f"{name}.ipynb"), str(workdir / f"{name}.out.ipynb"),
-           "-k", "python3", "--cwd", str(workdir), "--execution-timeout", "400", "--no-progress-bar",
+           "-k", "python3", "--cwd", str(workdir), "--execution-timeout", "1200", "--no-progress-bar",
            "-y", json.dumps(parameters)]
-    return subprocess.run(cmd, env=env, capture_output=True, text=True, timeout=900)
+    return subprocess.run(cmd, env=env, capture_output=True, text=True, timeout=1500)
 
 
 @pytest.fixture(scope="module")
