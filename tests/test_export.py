@@ -323,3 +323,17 @@ def test_importing_export_does_not_import_bokeh():
     res = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=60)
     assert res.returncode == 0, res.stderr
     assert res.stdout.split() == ["False", "False"]
+
+
+def test_run_together_momentum_names_typeset_as_subscripts():
+    # conjugate momenta written px, ptheta read as p_x, p_theta (common practice in
+    # mechanics texts); Greek names such as phi and psi must stay whole
+    import sympy as sp
+
+    from phaselab.export.describe import mathtext_label, plain_label
+
+    assert mathtext_label(sp.Symbol("px")) == "$p_{x}$"
+    assert mathtext_label(sp.Symbol("ptheta")) == "$p_{\\theta}$"
+    assert mathtext_label(sp.Symbol("phi")) == "$\\phi$"
+    assert plain_label(sp.Symbol("psi")) == "ψ"
+    assert plain_label(sp.Symbol("py")) == "p_y"

@@ -87,6 +87,17 @@ def axis_symbols(section) -> tuple:
     return tuple(allsyms[k] for k in section.axes)
 
 
+def momentum_subscript(name: str) -> str:
+    """Momenta written run together (``px``, ``pr``, ``ptheta``) as ``p_x``, ``p_r``,
+    ``p_theta``, so labels typeset as a subscript; Greek names (``phi``, ``psi``, ``pi``)
+    and everything else are left alone."""
+    rest = name[1:]
+    if (name.startswith("p") and name not in GREEK and rest
+            and ((len(rest) == 1 and rest.isalpha()) or rest in GREEK)):
+        return f"p_{rest}"
+    return name
+
+
 def mathtext_label(symbol) -> str:
     """A matplotlib mathtext label for a sympy symbol, e.g. ``p_theta`` -> ``$p_{\\theta}$``.
 
@@ -96,6 +107,8 @@ def mathtext_label(symbol) -> str:
     try:
         import sympy as sp
 
+        symbol = sp.Symbol(momentum_subscript(name)) if momentum_subscript(name) != name else symbol
+        name = getattr(symbol, "name", name)
         tex = sp.latex(symbol) if isinstance(symbol, sp.Basic) else sp.latex(sp.Symbol(name))
     except Exception:  # any symbol sympy cannot print: keep the plain name
         return name
@@ -111,7 +124,7 @@ def mathtext_label(symbol) -> str:
 
 def plain_label(symbol) -> str:
     """A one-line Unicode label for a symbol: ``p_theta`` -> ``p_θ``, ``omega`` -> ``ω``."""
-    name = getattr(symbol, "name", str(symbol))
+    name = momentum_subscript(getattr(symbol, "name", str(symbol)))
     parts = name.split("_")
     parts = [GREEK.get(part, part) for part in parts]
     return "_".join(parts)
