@@ -113,9 +113,16 @@ def _closed_form(system, solve_index: int):
         return None
     if any(x in c.free_symbols for c in poly.coeffs()):
         return None
-    roots = sp.solve(system.expr - E, x)
-    if not roots or len(roots) > 2 or any(r.has(sp.RootOf) for r in roots):
-        return None
+    # the root formula written out from the coefficients: sympy.solve would simplify the
+    # roots first, which for long coefficients can take minutes (and depends on hash order)
+    coeffs = poly.all_coeffs()
+    if poly.degree() == 1:
+        b, c = coeffs
+        roots = [-c / b]
+    else:
+        a, b, c = coeffs
+        disc = sp.sqrt(b**2 - 4 * a * c)
+        roots = [(-b + disc) / (2 * a), (-b - disc) / (2 * a)]
     others = [s for i, s in enumerate(system.state_symbols) if i != solve_index]
     args = others + [E] + list(system.param_symbols)
     # lambdify prints sympy's own root expressions (never user text) into numpy code
