@@ -311,8 +311,9 @@ def test_single_state_and_lazy_public_name(hh):
 def test_status_tells_why_orbits_stopped():
     # a free particle leaves any box in finite time: x = x0 + p t (common practice)
     free = phaselab.Hamiltonian("p**2/2", ["x"], ["p"])
-    tr = phaselab.trajectory(free, [[0.0, 1.0], [0.0, 0.0], [float("nan"), 0.0]], 5.0, dt=0.01,
-                             box={"x": (-2.0, 2.0)})
+    with pytest.warns(RuntimeWarning, match="non-finite"):
+        tr = phaselab.trajectory(free, [[0.0, 1.0], [0.0, 0.0], [float("nan"), 0.0]], 5.0, dt=0.01,
+                                 box={"x": (-2.0, 2.0)})
     assert tr.status.tolist()[:2] == [1, 0]   # left the box, ran to the end
     assert tr.status[2] == 2                  # non-finite seed
     assert tr.escape_time[0] == pytest.approx(2.0, abs=0.011)

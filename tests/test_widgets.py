@@ -257,6 +257,25 @@ def test_colour_by_scalar_and_export(hh, tmp_path):
     assert "no orbits to export" in ex.status
 
 
+def test_colour_by_chaos_indicator(hh):
+    # MEGNO near 2 on an invariant torus and large in the chaotic sea (Cincotta & Simo 2000,
+    # A&AS 147, 205); the widget's value must equal a direct chaos_indicators call over the
+    # same span with the same step and method
+    from phaselab.compute.chaos import chaos_indicators
+
+    ex = phaselab.explore(hh, energy=E0, crossings=200, background=False, color_by="megno")
+    ex.add_seeds([(0.0, 0.0), (-0.2, 0.0)])
+    vals = [o.scalar for o in ex.orbits]
+    for o, v in zip(ex.orbits, vals):
+        part = o.section
+        span = float(part.times[0, int(part.counts[0]) - 1])
+        ref = chaos_indicators(hh, part.seeds, span, dt=part.dt, method=part.method, vectors=1)
+        assert v == pytest.approx(float(ref.megno[0]), rel=1e-12)
+    assert abs(vals[0] - 2.0) < 0.5
+    assert vals[1] > 5.0
+    assert np.isfinite(np.asarray(ex.figures.points.data["value"])).all()
+
+
 def test_map_and_portrait_views(hh):
     m = phaselab.models.standard_map()
     ex = phaselab.explore(m, crossings=200, background=False)

@@ -34,6 +34,8 @@ from phaselab.widgets import theme
 from phaselab.widgets.views import make_view
 from phaselab.widgets.worker import JobRunner, Outcome
 
+CHAOS_INDICATORS = ("megno", "lyapunov", "fli", "sali")
+
 __all__ = ["explore", "Explorer", "OrbitRecord", "load_bokehjs"]
 
 #: Seconds of computation per new orbit below which a click is answered without the worker
@@ -591,12 +593,31 @@ class Explorer(W.VBox):
         if self.color_by is None:
             return float("nan")
         try:
+            if isinstance(self.color_by, str) and self.color_by in CHAOS_INDICATORS:
+                return self._indicator(part)
             if callable(self.color_by):
                 return float(np.ravel(self.color_by(part))[0])
             return float(np.ravel(getattr(part, self.color_by))[0])
         except Exception as exc:  # a user function: report, never break the widget
             self._say(f"color_by failed: {exc}", refused=True)
             return float("nan")
+
+    def _indicator(self, part):
+        """A chaos indicator of the orbit's seed, over the time its section points span."""
+        from phaselab.compute.chaos import chaos_indicators
+
+        count = int(part.counts[0])
+        if count == 0:
+            return float("nan")
+        is_map = getattr(self.system, "kind", "flow") == "map"
+        span = float(count) if is_map else float(part.times[0, count - 1])
+        if not span > 0:
+            return float("nan")
+        seed = part.seeds[:, : len(self.system.state_symbols)]
+        options = {} if is_map else {"dt": part.dt, "method": part.method}
+        ind = chaos_indicators(self.system, seed, span, params=dict(self._params),
+                               vectors=2 if self.color_by == "sali" else 1, **options)
+        return float(getattr(ind, self.color_by)[0])
 
     def _recompute_all(self):
         self._version += 1
@@ -897,8 +918,10 @@ def explore(system, energy=None, plane=None, solve_for=None, crossings=300, para
     **options
         ``ranges`` ((x0, x1), (y0, y1)) or by name; ``sign`` (+1/-1, root and crossing
         direction); ``energy_range`` (low, high) of the energy slider; ``color_by`` (a
-        function of a one-orbit Section returning a number, or the name of a per-orbit
-        field such as ``"energy_error"``) and ``color_label``; ``background`` (False to
+        chaos indicator, ``"megno"``, ``"lyapunov"``, ``"fli"`` or ``"sali"``, computed
+        for each orbit over the time its points span; a function of a one-orbit Section
+        returning a number; or the name of a per-orbit field such as ``"energy_error"``)
+        and ``color_label``; ``background`` (False to
         compute in the calling thread); ``export_dir``; ``duration`` (time traced per
         orbit of a phase portrait); ``method``, ``dt``; ``title``.
 
