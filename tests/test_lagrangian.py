@@ -53,8 +53,10 @@ def test_double_pendulum_agrees_with_sympy_mechanics():
 
 
 def test_charged_particle_symmetric_gauge_cartesian():
-    """L = m v^2/2 + e v.A with A = B (-y, x)/2 gives H = |p - e A|^2 / (2 m)
-    (minimal coupling, common practice)."""
+    """L = m v^2/2 + e v.A with A = B (-y, x)/2 gives H = |p - e A|^2 / (2 m): minimal
+    coupling, J. D. Jackson, Classical Electrodynamics, 3rd ed., sec. 12.1 (the
+    non-relativistic limit of the charged-particle Hamiltonian; section recalled from
+    memory)."""
     x, y, vx, vy, m, e, B = sp.symbols("x y vx vy m e B", real=True)
     A = sp.Matrix([-B * y / 2, B * x / 2])
     L = m * (vx**2 + vy**2) / 2 + e * (vx * A[0] + vy * A[1])
