@@ -255,6 +255,17 @@ def test_colour_by_scalar_and_export(hh, tmp_path):
     ex.clear()
     ex._export_clicked()
     assert "no orbits to export" in ex.status
+    # the button writes the formats chosen at construction; the PDF parses (pypdf, reference)
+    from pypdf import PdfReader
+
+    ey = phaselab.explore(hh, energy=E0, background=False, export_dir=tmp_path,
+                          export_formats=(".svg", ".pdf"))
+    ey.add_seed(0.1, 0.0)
+    ey._export_clicked()
+    assert (tmp_path / f"{ey._stem.value}.svg").stat().st_size > 0
+    assert len(PdfReader(tmp_path / f"{ey._stem.value}.pdf").pages) == 1
+    with pytest.raises(phaselab.ParameterError, match="export_formats"):
+        phaselab.explore(hh, energy=E0, background=False, export_formats=(".exe",))
 
 
 def test_colour_by_chaos_indicator(hh):

@@ -165,7 +165,8 @@ class Explorer(W.VBox):
 
     def __init__(self, system, energy=None, plane=None, solve_for=None, crossings=300, params=None,
                  ranges=None, sign=+1, energy_range=None, color_by=None, color_label=None,
-                 background=True, export_dir=".", duration=None, method="auto", dt=None, title=None):
+                 background=True, export_dir=".", export_formats=(".png", ".csv"), duration=None,
+                 method="auto", dt=None, title=None):
         from jupyter_bokeh import BokehModel
 
         from phaselab.widgets.figures import Figures
@@ -185,6 +186,11 @@ class Explorer(W.VBox):
             self._energy = None if energy is None else _finite(energy, "energy")
         self.color_by = color_by
         self.export_dir = Path(export_dir)
+        allowed = (".png", ".svg", ".pdf", ".csv", ".nc", ".html")
+        self.export_formats = tuple(str(f) if str(f).startswith(".") else f".{f}" for f in export_formats)
+        bad = [f for f in self.export_formats if f not in allowed]
+        if bad or not self.export_formats:
+            raise ParameterError(f"export_formats must be some of {', '.join(allowed)}; got {export_formats!r}")
         self.orbits: list[OrbitRecord] = []
         self._history: list[tuple] = []
         self._next_id = 1
@@ -413,8 +419,9 @@ class Explorer(W.VBox):
 
         return merge_sections([o.section for o in self.orbits if o.section is not None and o.state is not None])
 
-    def export(self, stem=None, formats=(".png", ".csv")):
-        """Save the figure and the data with :func:`phaselab.export.save`; returns the paths."""
+    def export(self, stem=None, formats=None):
+        """Save the figure and the data with :func:`phaselab.export.save` in ``formats``
+        (default the explorer's ``export_formats``); returns the paths."""
         from phaselab.export import save
 
         sec = self.section()
@@ -424,7 +431,7 @@ class Explorer(W.VBox):
         if not stem or any(c in stem for c in "/\\") or stem.startswith("."):
             raise PhaselabError(f"file name {stem!r} must be a plain name without folders")
         paths = []
-        for suffix in formats:
+        for suffix in formats or self.export_formats:
             kwargs = {}
             if suffix in (".png", ".svg", ".pdf", ".html"):
                 if self.color_by is not None:
@@ -922,7 +929,8 @@ def explore(system, energy=None, plane=None, solve_for=None, crossings=300, para
         for each orbit over the time its points span; a function of a one-orbit Section
         returning a number; or the name of a per-orbit field such as ``"energy_error"``)
         and ``color_label``; ``background`` (False to
-        compute in the calling thread); ``export_dir``; ``duration`` (time traced per
+        compute in the calling thread); ``export_dir`` and ``export_formats`` (what the Export
+        button writes, default PNG and CSV; any of .png .svg .pdf .csv .nc .html); ``duration`` (time traced per
         orbit of a phase portrait); ``method``, ``dt``; ``title``.
 
     Returns
