@@ -337,3 +337,38 @@ def test_run_together_momentum_names_typeset_as_subscripts():
     assert mathtext_label(sp.Symbol("phi")) == "$\\phi$"
     assert plain_label(sp.Symbol("psi")) == "ψ"
     assert plain_label(sp.Symbol("py")) == "p_y"
+
+
+def test_level_set_figures_phase_portrait_and_allowed_region(tmp_path):
+    # the drawn separatrix of the pendulum H = p^2/2 - g cos q (m = l = 1) is
+    # p = +-2 sqrt(g) cos(q/2) (common practice), to the grid's resolution
+    import matplotlib.colors as mcolors
+    from pypdf import PdfReader
+
+    from phaselab.export import level_set_figure
+    from phaselab.export.portraits import SEPARATRIX_COLOR
+
+    pend = phaselab.models.pendulum()
+    g = pend.params["g"]
+    ls = phaselab.level_set(pend, {"q": (-np.pi, np.pi), "p": (-9, 9)}, np.linspace(-9, 25, 6),
+                            separatrices=True, resolution=300)
+    fig = level_set_figure(ls)
+    ax = fig.axes[0]
+    sep = [ln for ln in ax.lines if mcolors.to_hex(ln.get_color()) == SEPARATRIX_COLOR
+           and ln.get_linewidth() > 1.0]
+    assert sep
+    for ln in sep:
+        q, p = ln.get_xdata(), ln.get_ydata()
+        assert np.max(np.abs(np.abs(p) - 2 * np.sqrt(g) * np.cos(q / 2))) < 2 * 18 / 300
+    svg = ls.save(tmp_path / "portrait.svg", title="pendulum")
+    ET.parse(svg)
+    pdf = phaselab.export.save(ls, tmp_path / "portrait.pdf", title="pendulum portrait")
+    assert "pendulum portrait" in PdfReader(pdf).pages[0].extract_text()
+    zv = phaselab.level_set(phaselab.models.henon_heiles(), {"y": (-0.8, 1.2), "py": (-0.7, 0.7)},
+                            [1 / 8], plane={"x": 0.0}, resolution=120)
+    png = zv.save(tmp_path / "allowed.png", size=(4.0, 3.0), dpi=100)
+    from PIL import Image
+
+    assert Image.open(png).size == (400, 300)
+    with pytest.raises(phaselab.PhaselabError, match="svg, .pdf or .png"):
+        zv.save(tmp_path / "allowed.csv")

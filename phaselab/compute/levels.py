@@ -118,6 +118,14 @@ class LevelSet:
         """Contour pieces (each (m, 2)) at any other level of the same grid."""
         return _contour(self.x, self.y, self.values, _finite_level(level, "level"))
 
+    def save(self, path, **kwargs):
+        """Write a static figure (.svg, .pdf or .png) of the level curves, separatrices and,
+        for a single level, the shaded forbidden region; see
+        :func:`phaselab.export.level_set_figure`. Returns the path written."""
+        from phaselab.export.portraits import save_level_set
+
+        return save_level_set(self, path, **kwargs)
+
     def __repr__(self) -> str:
         n_pieces = sum(len(ls) for ls in self.lines)
         sep = f", {len(self.separatrices)} separatrices" if self.separatrices else ""

@@ -11,6 +11,9 @@
 ``.html``  self-contained interactive bokeh page (works offline)
 =========  ====================================================================
 
+A :class:`~phaselab.compute.levels.LevelSet` (phase portrait, zero-velocity curves) is
+saved as .svg, .pdf or .png through :func:`save_level_set`.
+
 Importing this package imports neither bokeh nor matplotlib; each is loaded on first use.
 """
 
@@ -24,6 +27,7 @@ from phaselab.export.data import (load_section, read_section_csv, read_section_n
 from phaselab.export.describe import check_section, section_metadata
 from phaselab.export.figures import ORBIT_COLORS, save_figure, section_figure
 from phaselab.export.interactive import bokeh_figure, save_html
+from phaselab.export.portraits import level_set_figure, save_level_set
 
 _WRITERS = {
     ".svg": save_figure,
@@ -36,7 +40,7 @@ _WRITERS = {
 
 __all__ = ["save", "section_figure", "save_figure", "write_section_csv", "read_section_csv",
            "write_section_netcdf", "read_section_netcdf", "load_section", "bokeh_figure",
-           "save_html", "section_metadata", "ORBIT_COLORS"]
+           "save_html", "section_metadata", "ORBIT_COLORS", "level_set_figure", "save_level_set"]
 
 
 def save(section, path, **kwargs):
@@ -64,6 +68,8 @@ def save(section, path, **kwargs):
     """
     path = Path(path)
     suffix = path.suffix.lower()
+    if hasattr(section, "levels") and hasattr(section, "lines"):  # a LevelSet
+        return save_level_set(section, path, **kwargs)
     writer = _WRITERS.get(suffix)
     if writer is None:
         known = ", ".join(_WRITERS)
