@@ -42,7 +42,14 @@ def __getattr__(name):
     if name in _LAZY:
         import importlib
 
-        module = importlib.import_module(_LAZY[name])
+        try:
+            module = importlib.import_module(_LAZY[name])
+        except ModuleNotFoundError as exc:
+            if _LAZY[name].startswith("phaselab.widgets"):
+                raise PhaselabError(
+                    f"phaselab.{name} needs the notebook extras ({exc.name} is missing); "
+                    "install them with pip install 'phaselab[lab]'") from None
+            raise
         value = module if name == "models" else getattr(module, name)
         globals()[name] = value
         return value

@@ -309,3 +309,12 @@ def test_importing_phaselab_does_not_import_the_widget_layer():
             "print(bad); assert not bad")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=120)
     assert out.returncode == 0, out.stdout + out.stderr
+
+
+def test_explorer_without_the_notebook_extras_names_the_extra():
+    # a core-only install (pip install -e .) has no ipywidgets: the error must say what to install
+    code = ("import sys; sys.modules['ipywidgets'] = None\n"
+            "import phaselab\n"
+            "try:\n    phaselab.explore\nexcept phaselab.PhaselabError as exc:\n    print(exc)\n")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=120)
+    assert "phaselab[lab]" in out.stdout, out.stderr
