@@ -10,22 +10,7 @@ import sympy as sp
 from phaselab.errors import ModelError
 from phaselab.model.params import Parameter, make_parameters
 from phaselab.model.parser import parse_expression
-from phaselab.model.system import PhaseSpaceSystem
-
-
-def as_symbols(items, what: str) -> tuple[sp.Symbol, ...]:
-    """Turn names or symbols into a tuple of sympy symbols (strings become real symbols)."""
-    if isinstance(items, (str, sp.Symbol)):
-        items = [items]
-    out = []
-    for item in items:
-        if isinstance(item, sp.Symbol):
-            out.append(item)
-        elif isinstance(item, str) and item.isidentifier() and not item.startswith("_"):
-            out.append(sp.Symbol(item, real=True))
-        else:
-            raise ModelError(f"{what} must be names or sympy symbols, got {item!r}")
-    return tuple(out)
+from phaselab.model.system import PhaseSpaceSystem, as_symbols
 
 
 class Hamiltonian(PhaseSpaceSystem):
@@ -57,13 +42,7 @@ class Hamiltonian(PhaseSpaceSystem):
     kind = "flow"
 
     def __init__(self, expr, coords, momenta, params=None, time=None, period=None, name=None):
-        self.coords = as_symbols(coords, "coordinates")
-        self.momenta = as_symbols(momenta, "momenta")
-        if len(self.coords) != len(self.momenta):
-            raise ModelError(
-                f"{len(self.coords)} coordinates but {len(self.momenta)} momenta; each coordinate needs one momentum")
-        if not self.coords:
-            raise ModelError("a Hamiltonian needs at least one coordinate")
+        self._set_state(coords, momenta, "a Hamiltonian")
         self.time = as_symbols(time, "time")[0] if time is not None else None
         names = [s.name for s in self.coords + self.momenta] + ([self.time.name] if self.time else [])
         dupes = sorted({n for n in names if names.count(n) > 1})

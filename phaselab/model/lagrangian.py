@@ -6,6 +6,7 @@ import sympy as sp
 
 from phaselab.errors import ModelError
 from phaselab.model.params import make_parameters
+from phaselab.model.system import as_symbols
 from phaselab.model.parser import parse_expression
 from phaselab.model.zero import identically_zero
 
@@ -35,8 +36,6 @@ def legendre_transform(cls, L, coords, velocities, params=None, time=None, perio
         For a degenerate Lagrangian (det of d2L/dqdot2 is identically zero) or when the
         momentum equations cannot be solved for the velocities.
     """
-    from phaselab.model.hamiltonian import as_symbols
-
     q = as_symbols(coords, "coordinates")
     v = as_symbols(velocities, "velocities")
     if len(q) != len(v):

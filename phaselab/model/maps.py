@@ -31,7 +31,6 @@ import numpy as np
 import sympy as sp
 
 from phaselab.errors import ModelError
-from phaselab.model.hamiltonian import as_symbols
 from phaselab.model.system import PhaseSpaceSystem
 from phaselab.model.params import Parameter, finite_number, make_parameters
 from phaselab.model.parser import parse_expression
@@ -93,13 +92,7 @@ class AreaPreservingMap(PhaseSpaceSystem):
     is_autonomous = True
 
     def __init__(self, update, coords, momenta, params=None, modulus=None, name=None):
-        self.coords = as_symbols(coords, "coordinates")
-        self.momenta = as_symbols(momenta, "momenta")
-        if len(self.coords) != len(self.momenta):
-            raise ModelError(
-                f"{len(self.coords)} coordinates but {len(self.momenta)} momenta; each coordinate needs one momentum")
-        if not self.coords:
-            raise ModelError("a map needs at least one coordinate")
+        self._set_state(coords, momenta, "a map")
         names = [s.name for s in self.state_symbols]
         dupes = sorted({n for n in names if names.count(n) > 1})
         if dupes:

@@ -5,7 +5,23 @@ from __future__ import annotations
 import numpy as np
 import sympy as sp
 
+from phaselab.errors import ModelError
 from phaselab.model.params import Parameter, resolve_values
+
+
+def as_symbols(items, what: str) -> tuple[sp.Symbol, ...]:
+    """Turn names or symbols into a tuple of sympy symbols (strings become real symbols)."""
+    if isinstance(items, (str, sp.Symbol)):
+        items = [items]
+    out = []
+    for item in items:
+        if isinstance(item, sp.Symbol):
+            out.append(item)
+        elif isinstance(item, str) and item.isidentifier() and not item.startswith("_"):
+            out.append(sp.Symbol(item, real=True))
+        else:
+            raise ModelError(f"{what} must be names or sympy symbols, got {item!r}")
+    return tuple(out)
 
 
 class PhaseSpaceSystem:
@@ -19,6 +35,16 @@ class PhaseSpaceSystem:
     coords: tuple
     momenta: tuple
     parameters: tuple[Parameter, ...]
+
+    def _set_state(self, coords, momenta, what: str) -> None:
+        """Set ``coords`` and ``momenta`` (state order), one momentum per coordinate."""
+        self.coords = as_symbols(coords, "coordinates")
+        self.momenta = as_symbols(momenta, "momenta")
+        if len(self.coords) != len(self.momenta):
+            raise ModelError(
+                f"{len(self.coords)} coordinates but {len(self.momenta)} momenta; each coordinate needs one momentum")
+        if not self.coords:
+            raise ModelError(f"{what} needs at least one coordinate")
 
     @property
     def dof(self) -> int:
