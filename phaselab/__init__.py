@@ -32,6 +32,8 @@ _LAZY = {
     "shell_grid": "phaselab.scan.grids",
     "state_grid": "phaselab.scan.grids",
     "explore": "phaselab.widgets.explorer",
+    "warm": "phaselab.compute.warm",
+    "set_limits": "phaselab.compute.inputs",
 }
 
 __all__ = ["Hamiltonian", "PhaselabError", "ExpressionError", "ModelError", "ParameterError",

@@ -3,7 +3,8 @@
 The generic loops answer at once; the faster inlined module of a system (its kernels
 compiled into the loops, see :mod:`phaselab.compute.compiled`) is compiled meanwhile by a
 separate, low-priority Python process, one build at a time, so the notebook stays
-responsive. When the child finishes it lists the compiled signatures in
+responsive. Builds still queued when the process exits are handed to a detached child, so
+a short script's successor finds them done. When the child finishes it lists the compiled signatures in
 ``<module>.ready.json`` in the kernel cache, and the next call in any process switches to
 the inlined module. A build that fails leaves the generic loops in use, which are correct,
 only slower for small kernels.
@@ -13,10 +14,10 @@ Run as ``python -m phaselab.compute.background JOB`` by :func:`request_build` on
 
 from __future__ import annotations
 
+import atexit
 import json
 import os
 import pickle
-import queue
 import subprocess
 import sys
 import tempfile
@@ -26,75 +27,88 @@ from pathlib import Path
 BUILD_TIMEOUT = 1800.0
 """Seconds after which a background build is abandoned."""
 
-_jobs: "queue.Queue" = queue.Queue()
-_worker: list[threading.Thread] = []
-_pending: dict = {}
+_pending: list = []          # jobs not started yet, in order
+_worker: list = []
 _lock = threading.Lock()
+_exit_hook: list = []
 
 
 def request_build(system, files: tuple, name: str, entry: str, signature: tuple) -> None:
     """Queue the compilation of ``entry`` with ``signature`` in the inlined module ``name``
-    of ``system`` (loop files ``files``). Requests for the same module are merged."""
+    of ``system`` (loop files ``files``). Requests for a module not yet started are merged;
+    jobs still queued when the process exits are handed to one detached child process."""
     with _lock:
-        job = _pending.get(name)
+        job = next((j for j in _pending if j["name"] == name), None)
         if job is None:
             job = {"system": system, "files": files, "name": name, "entries": {}}
-            _pending[name] = job
-            _jobs.put(name)
-        job["entries"].setdefault(entry, []).append(signature)
+            _pending.append(job)
+        sigs = job["entries"].setdefault(entry, [])
+        if signature not in sigs:
+            sigs.append(signature)
         if not _worker or not _worker[0].is_alive():
             thread = threading.Thread(target=_run_queue, name="phaselab-inlined-builds", daemon=True)
             _worker[:] = [thread]
             thread.start()
+        if not _exit_hook:
+            atexit.register(_hand_over)
+            _exit_hook.append(True)
 
 
 def pending() -> list[str]:
-    """Names of inlined modules queued or being built by this process."""
+    """Names of inlined modules queued by this process and not started yet."""
     with _lock:
-        return list(_pending)
+        return [j["name"] for j in _pending]
 
 
 def _run_queue() -> None:
     while True:
-        try:
-            name = _jobs.get(timeout=5.0)
-        except queue.Empty:
-            return
         with _lock:
-            job = _pending.get(name)
-        if job is None:
-            continue
-        try:
-            _build_in_child(job)
-        finally:
-            with _lock:
-                _pending.pop(name, None)
+            if not _pending:
+                return
+            job = _pending.pop(0)
+        path = _write_job(job)
+        if path is not None:
+            _spawn([path], wait=True)
 
 
-def _build_in_child(job: dict) -> None:
+def _write_job(job: dict):
     from phaselab.codegen.cache import cache_dir
 
-    folder = cache_dir()
     try:
         payload = pickle.dumps({k: job[k] for k in ("system", "files", "name", "entries")})
-    except Exception:  # a system that cannot travel: stay on the generic loops
-        return
-    fd, path = tempfile.mkstemp(dir=folder, prefix=".build-", suffix=".pickle")
+    except Exception:  # a system that cannot travel: it stays on the generic loops
+        return None
+    fd, path = tempfile.mkstemp(dir=cache_dir(), prefix=".build-", suffix=".pickle")
     with os.fdopen(fd, "wb") as fh:
         fh.write(payload)
-    env = dict(os.environ, PHASELAB_CACHE_DIR=str(folder), PHASELAB_LOOPS="generic",
+    return path
+
+
+def _spawn(paths: list, wait: bool) -> None:
+    from phaselab.codegen.cache import cache_dir
+
+    env = dict(os.environ, PHASELAB_CACHE_DIR=str(cache_dir()), PHASELAB_LOOPS="generic",
                PHASELAB_QUIET="1")
+    command = [sys.executable, "-m", "phaselab.compute.background", *paths]
     try:
-        subprocess.run([sys.executable, "-m", "phaselab.compute.background", path], env=env,
-                       stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL, timeout=BUILD_TIMEOUT,
-                       start_new_session=True, check=False)
+        if wait:
+            subprocess.run(command, env=env, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL,
+                           timeout=BUILD_TIMEOUT, start_new_session=True, check=False)
+        else:
+            subprocess.Popen(command, env=env, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL,
+                             start_new_session=True)
     except (OSError, subprocess.TimeoutExpired):
         pass
-    finally:
-        try:
-            os.unlink(path)
-        except OSError:
-            pass
+
+
+def _hand_over() -> None:
+    """At exit: jobs not started yet go to one detached child, so the next process finds them."""
+    with _lock:
+        jobs = list(_pending)
+        _pending.clear()
+    paths = [p for p in (_write_job(j) for j in jobs) if p is not None]
+    if paths:
+        _spawn(paths, wait=False)
 
 
 def build(job: dict) -> dict:
@@ -134,16 +148,25 @@ def build(job: dict) -> dict:
 
 def main(argv=None) -> int:
     args = sys.argv[1:] if argv is None else argv
-    if len(args) != 1:
-        print("usage: python -m phaselab.compute.background JOB", file=sys.stderr)
+    if not args:
+        print("usage: python -m phaselab.compute.background JOB [JOB ...]", file=sys.stderr)
         return 2
     try:
         os.nice(10)
     except (OSError, AttributeError):
         pass
-    with open(args[0], "rb") as fh:
-        job = pickle.load(fh)  # written by request_build of the parent process, in the private cache
-    build(job)
+    for path in args:
+        try:
+            with open(path, "rb") as fh:
+                job = pickle.load(fh)  # written by this package into the private kernel cache
+            build(job)
+        except Exception:  # one failed build leaves that module on the generic loops
+            pass
+        finally:
+            try:
+                os.unlink(path)
+            except OSError:
+                pass
     return 0
 
 
