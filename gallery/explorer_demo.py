@@ -6,9 +6,10 @@ omega_bend = 1.3        # bend frequency
 coupling = 0.6          # kappa: the stretch shifts the bend's stiffness
 anharmonicity = 0.25    # g: softening of the stretch
 energy = 0.9            # shell energy (the lowest saddle lies near 1.22)
-energy_low, energy_high = 0.05, 1.2
+energy_low = 0.05       # lowest energy of the energy slider
+energy_high = 1.2       # highest energy of the energy slider
 crossings = 300
-seed_points = [(0.3, 0.0), (0.9, 0.2), (-0.6, 0.45)]   # (b, p_b) on the plane s = 0
+seed_points = [(0.3, 0.0), (0.9, 0.2), (-0.6, 0.45)]   # (b, p_b) on the section plane s: 0
 
 # %% [markdown]
 # # A two-mode molecule on its energy shell

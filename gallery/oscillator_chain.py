@@ -3,7 +3,7 @@
 # slightly nonlinear springs, both ends clamped.
 n_masses = 8             # moving masses
 alpha = 0.25             # quadratic spring nonlinearity
-mode = 1                 # the normal mode that gets all the energy at t = 0
+mode = 1                 # the normal mode that holds all the energy at the start
 amplitude = 1.0          # its initial amplitude (mode coordinate)
 t_end = 1500.0           # run time (units of 1 / spring frequency)
 samples = 600            # samples kept along the run

@@ -3,9 +3,9 @@
 # carries mass_ratio of the pair's total mass. Units: the planet-moon distance, the total
 # mass and the orbital rate of the pair are 1.
 mass_ratio = 0.02
-jacobi = 3.30            # Jacobi constant C = -2 H of the sections (H = -C/2)
+jacobi = 3.30            # Jacobi constant C of the sections (C is -2 H)
 zv_levels = [3.10, 3.30, 3.50]   # Jacobi constants of the zero-velocity curves shown
-n_seeds = 8              # orbits of the section, started on y = 0 on the planet side of the moon
+n_seeds = 8              # orbits of the section, started on the x axis on the planet side of the moon
 seed_distance = (0.085, 0.03)    # from this far to this near the moon's centre
 crossings = 80           # section points per orbit
 dt = 0.001               # step

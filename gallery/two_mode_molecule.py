@@ -4,7 +4,7 @@ w_stretch = 1.0          # stretch frequency
 w_bend = 1.2             # bend frequency
 kappa = 0.9              # cubic stretch-bend coupling
 energies = [0.08, 0.16, 0.24]   # shell energies (the escape saddle is at 0.2737 for these constants)
-n_seeds = 10             # orbits per energy, along py = 0 in the plane x = 0
+n_seeds = 10             # orbits per energy, started along the y axis of the section plane x: 0
 crossings = 120          # section points per orbit
 dt = 0.05                # step
 chaos_grid = 20          # seeds per axis of the MEGNO map on the section plane

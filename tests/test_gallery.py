@@ -132,6 +132,22 @@ def test_notebook_starts_with_one_parameters_cell_and_is_stripped(name):
         assert "out_dir" in nb.cells[0].source
 
 
+@pytest.mark.parametrize("name", notebooks())
+def test_papermill_reads_every_parameter(name):
+    """Every assignment in the parameters cell is one papermill can override (it skips, with
+    a warning, lines it cannot parse, such as a tuple assignment)."""
+    import ast
+
+    import nbformat
+    import papermill
+
+    nb = nbformat.read(GALLERY / f"{name}.ipynb", as_version=4)
+    assigned = [t.id for node in ast.parse(nb.cells[0].source).body if isinstance(node, ast.Assign)
+                for t in node.targets if isinstance(t, ast.Name)]
+    assert assigned and len(assigned) == len(set(assigned))
+    assert sorted(papermill.inspect_notebook(str(GALLERY / f"{name}.ipynb"))) == sorted(assigned)
+
+
 def test_every_notebook_is_what_its_script_builds():
     """Each gallery/<name>.ipynb equals what build_notebooks.py makes of <name>.py, and no
     notebook is without a script (so the two never drift apart)."""
