@@ -71,11 +71,14 @@ def notebook_text(script: Path) -> str:
     return nbformat.writes(build(script), version=4) + "\n"
 
 
-def _write_text(path: Path, text: str) -> None:
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.stem}.", suffix=path.suffix, dir=path.parent)
-    with os.fdopen(fd, "w", encoding="utf-8") as fh:
-        fh.write(text)
-    os.replace(tmp, path)
+def _replace(path: Path, write) -> None:
+    """Call ``write(temporary_path)`` beside ``path`` (same suffix), then rename it to ``path``."""
+    tmp = path.with_name(f".{path.stem}.{os.getpid()}{path.suffix}")
+    try:
+        write(tmp)
+        os.replace(tmp, path)
+    finally:
+        tmp.unlink(missing_ok=True)
 
 
 def stale(folder: Path = HERE) -> list[str]:
@@ -123,9 +126,7 @@ def render_images() -> None:
             # an adaptive 64-colour palette keeps the scatter plots near 100 KB
             with Image.open(work / "out" / produced) as img:
                 small = img.convert("RGB").quantize(colors=64, method=Image.Quantize.MEDIANCUT)
-            with tempfile.NamedTemporaryFile(dir=out, prefix=f".{target}.", suffix=".png", delete=False) as fh:
-                small.save(fh, format="PNG", optimize=True)
-            os.replace(fh.name, out / target)
+            _replace(out / target, lambda tmp: small.save(tmp, format="PNG", optimize=True))
             print(f"wrote {out / target} ({(out / target).stat().st_size // 1024} KiB)")
 
 
@@ -138,7 +139,8 @@ def main(argv=None) -> int:
         return 1 if drifted else 0
     for script in scripts():
         target = script.with_suffix(".ipynb")
-        _write_text(target, notebook_text(script))
+        text = notebook_text(script)
+        _replace(target, lambda tmp: tmp.write_text(text, encoding="utf-8"))
         print(f"wrote {target}")
     if "--images" in argv:
         render_images()

@@ -14,6 +14,7 @@ import json
 import math
 import os
 import tempfile
+import uuid
 from pathlib import Path
 
 import numpy as np
@@ -38,16 +39,22 @@ def output_folder(out_dir) -> Path:
     return folder
 
 
-def write_atomically(path: Path, write) -> Path:
-    """Call ``write(temporary_path)`` for a file beside ``path`` (same suffix), then rename it."""
+def write_atomically(path, write) -> Path:
+    """Call ``write(temporary_path)`` for a file beside ``path`` (same suffix, so writers that
+    go by the suffix pick the right format), then rename it to ``path``.
+
+    Returns
+    -------
+    Path
+        ``path``.
+    """
     path = Path(path)
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.stem}.", suffix=path.suffix, dir=path.parent)
-    os.close(fd)
+    tmp = path.with_name(f".{path.stem}.{os.getpid()}-{uuid.uuid4().hex[:8]}{path.suffix}")
     try:
-        write(Path(tmp))
+        write(tmp)
         os.replace(tmp, path)
     except BaseException:
-        Path(tmp).unlink(missing_ok=True)
+        tmp.unlink(missing_ok=True)
         raise
     return path
 
@@ -115,7 +122,10 @@ def save_and_show(item, out_dir, stem: str, suffixes=(".png",), dpi: float = 110
     """
     folder = output_folder(out_dir)
     if _is_figure(item) and options:
-        raise TypeError(f"options {sorted(options)} apply to phaselab sections, not to a matplotlib Figure")
+        from phaselab import ParameterError
+
+        raise ParameterError(f"options {sorted(options)} apply to phaselab sections and level sets, "
+                             "not to a matplotlib Figure (style the figure before saving it)")
     files = [write_atomically(folder / f"{stem}{suffix}", lambda tmp: _write(item, tmp, dpi, options))
              for suffix in suffixes]
     if show:

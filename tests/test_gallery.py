@@ -214,6 +214,34 @@ def test_notebook_executes_headless(runs, name):
         assert set(inline) <= on_disk, f"{name}: an inline figure is not one of the files written"
 
 
+def gallery_tools():
+    spec = importlib.util.spec_from_file_location("gallery_tools", GALLERY / "gallery_tools.py")
+    module = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(module)
+    return module
+
+
+def test_gallery_tools_fraction_summary_and_files(tmp_path):
+    gt = gallery_tools()
+    # NaN (a stopped orbit or an invalid seed) is left out; "above" is strict
+    assert gt.chaotic_fraction([1.9, 2.1, 3.0, 3.5, np.nan, 40.0]) == pytest.approx(2 / 5)
+    assert math.isnan(gt.chaotic_fraction([np.nan]))
+    path = gt.write_summary(tmp_path / "new", a=np.float64(0.5), b=np.arange(3), c={1.5: [np.nan]})
+    assert json.loads(path.read_text()) == {"a": 0.5, "b": [0, 1, 2], "c": {"1.5": [None]}}
+    from matplotlib.figure import Figure
+
+    fig = Figure(figsize=(2, 1.5))
+    fig.subplots().plot([0, 1], [1, 0])
+    files = gt.save_and_show(fig, tmp_path, "line", (".png", ".svg"), dpi=50)
+    assert [f.name for f in files] == ["line.png", "line.svg"]
+    assert files[0].read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"  # PNG signature (PNG spec, sec. 5.2)
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["line.png", "line.svg", "new"]  # no temporary left
+    from phaselab import ParameterError
+
+    with pytest.raises(ParameterError, match="title"):
+        gt.save_and_show(fig, tmp_path, "line", title="not for a Figure")
+
+
 # ------------------------------------------------------------------------------ results
 def test_bead_rest_points_follow_the_closed_form_and_move_with_the_radius(runs):
     for kind, R in (("default", 0.25), ("changed", 0.5)):
