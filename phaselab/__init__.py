@@ -32,6 +32,12 @@ _LAZY = {
     "shell_grid": "phaselab.scan.grids",
     "state_grid": "phaselab.scan.grids",
     "explore": "phaselab.widgets.explorer",
+    "periodic_orbit": "phaselab.compute.periodic",
+    "find_periodic_orbits": "phaselab.compute.periodic",
+    "PeriodicOrbit": "phaselab.compute.periodic",
+    "PeriodicOrbits": "phaselab.compute.periodic",
+    "torus_breakup": "phaselab.compute.symmetric",
+    "TorusBreakup": "phaselab.compute.symmetric",
     "warm": "phaselab.compute.warm",
     "set_limits": "phaselab.compute.inputs",
 }
