@@ -107,6 +107,19 @@ class PeriodicOrbit:
     plane: object = None
     method: str = ""
     dt: float = float("nan")
+    settings: dict = field(default_factory=dict)
+
+    def return_map(self, k: int | None = None) -> ReturnMap:
+        """The return map this orbit is a fixed point of (or its ``k``-th return map), with
+        the same section, energy, step and method."""
+        s = dict(self.settings)
+        box = s.pop("box", None)
+        ret = return_map(self.system, self.crossings if k is None else k, params=self.params, **s)
+        if box is not None:
+            ret.box_lo, ret.box_hi = box
+        if ret.kind in ("plane", "stroboscopic"):
+            ret.set_step(self.points[:1])
+        return ret
 
     @property
     def state(self) -> np.ndarray:
@@ -331,7 +344,19 @@ def _assemble(ret: ReturnMap, u, images, shift, residual, iterations) -> Periodi
         system=system, params=params,
         plane=getattr(ret, "plane", None) if ret.kind == "plane" else ret.kind,
         method="map" if ret.kind == "map" else ret.method.name,
-        dt=float(getattr(ret, "h", float("nan"))))
+        dt=float(getattr(ret, "h", float("nan"))), settings=_settings(ret))
+
+
+def _settings(ret: ReturnMap) -> dict:
+    """What rebuilds the same return map (see :meth:`PeriodicOrbit.return_map`)."""
+    out = {"box": (ret.box_lo, ret.box_hi)}
+    if ret.kind == "plane":
+        out.update(plane=ret.plane, energy=ret.energy, direction=ret.direction,
+                   solve_for=ret.system.state_symbols[ret.solve_index].name, dt=ret.h,
+                   method=ret.method.name, t_max=ret.t_max)
+    elif ret.kind == "stroboscopic":
+        out.update(dt=ret.h, method=ret.method.name)
+    return out
 
 
 def _orbit_points(ret: ReturnMap, z0) -> np.ndarray:

@@ -48,6 +48,9 @@ class Images:
         Return times (model time; the number of iterates for maps).
     status : ndarray of int, shape (N,)
         ``OK``, a status code of :mod:`phaselab.compute.codes`, or :data:`OFF_SHELL`.
+    state_jacobian : ndarray, shape (N, m, m) or None
+        d(image state)/d(start state) in full phase space (plane sections), before the
+        reduction to the coordinates.
     """
 
     u: np.ndarray
@@ -55,6 +58,7 @@ class Images:
     state: np.ndarray
     time: np.ndarray
     status: np.ndarray
+    state_jacobian: np.ndarray | None = None
 
 
 class ReturnMap:
@@ -112,6 +116,11 @@ class ReturnMap:
     def apply(self, u) -> Images:
         raise NotImplementedError
 
+    def images(self, u, inverse: bool = False) -> tuple[np.ndarray, np.ndarray]:
+        """The map (or its inverse) on a batch of coordinates without derivatives:
+        ``(images (N, d), status (N,))``, NaN where the status is not ``OK``."""
+        raise NotImplementedError
+
 
 def _empty_images(n, d, m):
     return Images(u=np.full((n, d), np.nan), jacobian=np.full((n, d, d), np.nan),
@@ -147,6 +156,24 @@ class MapReturn(ReturnMap):
         out.u[valid], out.jacobian[valid], out.state[valid], out.status[valid] = state, jac, state, status
         out.time[valid] = float(self.k)
         return out
+
+    def images(self, u, inverse: bool = False):
+        z = np.ascontiguousarray(np.atleast_2d(u), dtype=float)
+        n, m = z.shape
+        if inverse:
+            status = np.zeros(n, dtype=np.int64)
+            for _ in range(self.k):
+                z, st = self.inverse(z)
+                status = np.where(status == codes.OK, st, status)
+            z[status != codes.OK] = np.nan
+            return z, status
+        pts = np.full((n, self.k, m), np.nan)
+        counts = np.zeros(n, dtype=np.int64)
+        status = np.zeros(n, dtype=np.int64)
+        zeros = np.zeros(m)
+        loops(self.system, "sections").section_map_orbits(z, self.prm, self.k, zeros, zeros, self.box_lo,
+                                                          self.box_hi, pts, counts, status)
+        return pts[:, -1], status
 
     def iterates(self, z0, n: int) -> np.ndarray:
         """The first ``n`` unwrapped iterates of the state ``z0``, shape (n, m)."""
@@ -211,6 +238,26 @@ class StrobeReturn(ReturnMap):
             h = default_step(self.loops, self.method, self._extended(z0), self.prm, self.T, self.T)
         self.steps = max(1, int(np.ceil(self.T / h - 1e-9)))
         self.h = self.T / self.steps
+
+    def images(self, u, inverse: bool = False):
+        z, _, valid = self.lift(u)
+        n, m = z.shape
+        out = np.full((n, m), np.nan)
+        status = np.full(n, codes.NOT_FINITE, dtype=np.int64)
+        if not valid.any():
+            return out, status
+        X = self._extended(z[valid])
+        pts = np.full((len(X), self.k, X.shape[1]), np.nan)
+        counts = np.zeros(len(X), dtype=np.int64)
+        err = np.zeros(len(X))
+        st = np.zeros(len(X), dtype=np.int64)
+        meth = self.method
+        loops(self.ext, "sections").section_strobe_orbits(
+            X, self.prm, -self.h if inverse else self.h, self.steps, self.k, meth.kind, meth.weights, meth.A,
+            meth.b, codes.IMPLICIT_TOL, codes.IMPLICIT_MAXIT, self.ext_lo, self.ext_hi, pts, counts, err, st)
+        out[valid] = pts[:, -1][:, self.pos]
+        status[valid] = st
+        return out, status
 
     def _extended(self, z):
         n = self.system.dof
@@ -344,12 +391,50 @@ class PlaneReturn(ReturnMap):
                                          codes.IMPLICIT_TOL, codes.IMPLICIT_MAXIT, self.box_lo, self.box_hi,
                                          state, jac, tms, status)
         full = np.einsum("nij,njk->nik", jac, dz[valid])
+        out.state_jacobian = np.full((n_pts, m, m), np.nan)
+        out.state_jacobian[valid] = jac
         out.u[valid] = state[:, self.index]
         out.jacobian[valid] = full[:, self.index, :]
         out.state[valid] = state
         out.time[valid] = tms
         out.status[valid] = status
         return out
+
+    def images(self, u, inverse: bool = False):
+        z, _, valid = self.lift(u)
+        n_pts, m = z.shape
+        out = np.full((n_pts, self.dim), np.nan)
+        status = np.full(n_pts, OFF_SHELL, dtype=np.int64)
+        if not valid.any():
+            return out, status
+        Z = np.ascontiguousarray(z[valid])
+        n = len(Z)
+        pts = np.full((n, self.k, m), np.nan)
+        tms = np.full((n, self.k), np.nan)
+        counts = np.zeros(n, dtype=np.int64)
+        err = np.zeros(n)
+        st = np.zeros(n, dtype=np.int64)
+        stop = np.zeros(n)
+        meth = self.method
+        h = -self.h if inverse else self.h
+        direction = -self.direction if inverse else self.direction
+        args = (self.prm, h, self.max_steps, self.plane_index, self.value, float(direction), self.k, meth.kind,
+                meth.weights, meth.A, meth.b, codes.IMPLICIT_TOL, codes.IMPLICIT_MAXIT, self.box_lo, self.box_hi,
+                pts, tms, counts, err, st, stop)
+        cs = loops(self.system, "sections")
+        import numba
+
+        groups = min(n, int(numba.get_num_threads()))
+        if groups <= 1:
+            cs.section_plane_orbits_serial(Z, *args)
+        else:
+            cs.section_plane_orbits(Z, np.linspace(0, n, groups + 1).round().astype(np.int64), *args)
+        res = pts[:, -1][:, self.index]
+        st = np.where((st == codes.OK) & (counts == self.k), codes.OK, np.where(st == codes.OK, codes.TIME_LIMIT, st))
+        res[st != codes.OK] = np.nan
+        out[valid] = res
+        status[valid] = st
+        return out, status
 
 
 def return_map(system, k, plane=None, energy=None, guess=None, direction=1, solve_for=None,

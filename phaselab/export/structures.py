@@ -253,8 +253,14 @@ def save_structure(obj, path, **kwargs) -> Path:
 
         from phaselab.export.figures import _RC
 
-        section = kwargs.pop("section", None)
-        fig = structure_figure([obj], section=section, **kwargs)
+        if _kind(obj) == "Family":
+            from phaselab.export.families import family_figure
+
+            fig = family_figure(obj, **kwargs)
+        else:
+            section = kwargs.pop("section", None)
+            items = [obj, obj.orbit] if _kind(obj) == "Manifold" else [obj]
+            fig = structure_figure(items, section=section, **kwargs)
         with matplotlib.rc_context(_RC):
             return _write_atomic(path, lambda tmp: fig.savefig(tmp, format=suffix[1:], dpi=fig.dpi,
                                                                 facecolor="white"))
