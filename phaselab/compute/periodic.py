@@ -194,42 +194,70 @@ def classify(M: np.ndarray) -> tuple[np.ndarray, str, float | None, float | None
 # ----------------------------------------------------------------------------- Newton
 @dataclass
 class _Solve:
-    u: np.ndarray
+    U: np.ndarray          # (N, k, d) the orbits' points in reduced coordinates
     reason: list
     residual: np.ndarray
     iterations: np.ndarray
-    images: object
+    images: object         # Images of the N*k points (row-major over orbits, then points)
 
 
-def _residual(images, u, shift):
-    F = images.u - u - shift
-    size = np.max(np.abs(F), axis=1) if F.shape[1] else np.zeros(len(F))
-    return F, np.where(images.status == codes.OK, size, np.inf)
+def _evaluate(ret1: ReturnMap, U, shifts):
+    """Residuals F (M, k, d) of the shooting equations P(u_i) - u_(i+1) - s_i = 0 (cyclic),
+    the images of all points, and a status per orbit."""
+    M, k, d = U.shape
+    img = ret1.apply(U.reshape(M * k, d))
+    P = img.u.reshape(M, k, d)
+    F = P - np.roll(U, -1, axis=1) - shifts
+    st = img.status.reshape(M, k)
+    bad = st != codes.OK
+    status = np.where(bad.any(axis=1), st[np.arange(M), np.argmax(bad, axis=1)], codes.OK)
+    norm = np.where(status == codes.OK, np.max(np.abs(F.reshape(M, -1)), axis=1) if d else 0.0, np.inf)
+    return F, img, status, norm
 
 
-def newton(ret: ReturnMap, u0, shift, tol: float = 1e-11, maxit: int = 30) -> _Solve:
-    """Damped Newton's method for P(u) - u - shift = 0 from every row of ``u0`` at once.
+def _shooting_matrix(img, M, k, d):
+    """The Jacobian of the shooting equations: block (i, i) dP(u_i), block (i, i+1) -I."""
+    JB = img.jacobian.reshape(M, k, d, d)
+    A = np.zeros((M, k * d, k * d))
+    eye = np.eye(d)
+    for i in range(k):
+        A[:, i * d:(i + 1) * d, i * d:(i + 1) * d] += JB[:, i]
+        j = (i + 1) % k
+        A[:, i * d:(i + 1) * d, j * d:(j + 1) * d] -= eye
+    return A
 
-    Each iteration is one compiled call over the rows still running; the step is halved
-    (up to 12 times) until the residual falls, ``||F(u + a du)|| <= (1 - a/4) ||F(u)||``.
+
+def newton(ret1: ReturnMap, U0, shifts, tol: float = 1e-11, maxit: int = 30) -> _Solve:
+    """Damped Newton's method, by multiple shooting, for period-k orbits from many starts.
+
+    Each orbit is k points u_0..u_(k-1) joined by one return each: P(u_i) = u_(i+1) + s_i
+    (u_k = u_0). Splitting a long, unstable period into k short legs keeps the equations
+    nearly linear where single shooting on the k-th return map would not converge (a close
+    approach to a primary, a strongly unstable orbit). Every iteration is one compiled call
+    over all points of all orbits still running; the step is halved (up to 12 times) until
+    the residual falls, ``||F(U + a dU)|| <= (1 - a/4) ||F(U)||``.
+
+    Parameters
+    ----------
+    ret1 : ReturnMap
+        The single return map (one iterate, one drive period, one crossing).
+    U0 : ndarray, shape (N, k, d)
+    shifts : ndarray, shape (N, k, d)
+        What each leg advances (winding of wrapped coordinates, or a given shift).
 
     Returns
     -------
     _Solve
-        Final coordinates, a reason per row (``"converged"`` or a key of :data:`REASONS`),
-        residuals, iteration counts and the images at the final coordinates.
     """
-    u = np.array(np.atleast_2d(u0), dtype=float)
-    n, d = u.shape
-    eye = np.eye(d)
+    U = np.array(U0, dtype=float)
+    n, k, d = U.shape
     reason: list = [None] * n
     iters = np.zeros(n, dtype=np.int64)
-    images = ret.apply(u)
-    F, norm = _residual(images, u, shift)
-    scale = 1.0 + (np.max(np.abs(u), axis=1) if d else np.zeros(n))
+    F, images, status, norm = _evaluate(ret1, U, shifts)
+    scale = 1.0 + (np.max(np.abs(U.reshape(n, -1)), axis=1) if d else np.zeros(n))
     for i in range(n):
-        if images.status[i] != codes.OK:
-            reason[i] = int(images.status[i])
+        if status[i] != codes.OK:
+            reason[i] = int(status[i])
     active = np.array([r is None for r in reason])
     for it in range(maxit + 1):
         done = active & (norm <= tol * scale)
@@ -239,32 +267,33 @@ def newton(ret: ReturnMap, u0, shift, tol: float = 1e-11, maxit: int = 30) -> _S
         if not active.any() or it == maxit:
             break
         idx = np.flatnonzero(active)
-        J = images.jacobian[idx] - eye
+        sub_img = _take_images(images, idx, k)
+        A = _shooting_matrix(sub_img, len(idx), k, d)
         with np.errstate(all="ignore"):
-            cond = np.linalg.cond(J)
+            cond = np.linalg.cond(A)
         singular = ~np.isfinite(cond) | (cond > 1e14)
         for i in idx[singular]:
             reason[i] = "singular"
             active[i] = False
-        idx = idx[~singular]
+        keep = ~singular
+        idx = idx[keep]
         if idx.size == 0:
             break
-        step = np.linalg.solve(J[~singular], -F[idx][..., None])[..., 0]
+        step = np.linalg.solve(A[keep], -F[idx].reshape(len(idx), k * d)[..., None])[..., 0]
+        step = step.reshape(len(idx), k, d)
         lam = np.ones(idx.size)
         accepted = np.zeros(idx.size, dtype=bool)
         for _ in range(13):
-            todo = ~accepted
-            trial_u = u[idx[todo]] + lam[todo, None] * step[todo]
-            trial = ret.apply(trial_u)
-            Ft, nt = _residual(trial, trial_u, shift)
+            todo = np.flatnonzero(~accepted)
+            trial_U = U[idx[todo]] + lam[todo, None, None] * step[todo]
+            Ft, trial_img, st_t, nt = _evaluate(ret1, trial_U, shifts[idx[todo]])
             ok = nt <= (1.0 - 0.25 * lam[todo]) * norm[idx[todo]]
-            rows = np.flatnonzero(todo)
-            for r, good, tu, fu, nn, j in zip(rows, ok, trial_u, Ft, nt, range(len(rows))):
-                if good:
+            for j, r in enumerate(todo):
+                if ok[j]:
                     accepted[r] = True
                     i = idx[r]
-                    u[i], F[i], norm[i] = tu, fu, nn
-                    _copy_image(images, i, trial, j)
+                    U[i], F[i], norm[i] = trial_U[j], Ft[j], nt[j]
+                    _put_images(images, i, trial_img, j, k)
             lam[~accepted] *= 0.5
             if accepted.all():
                 break
@@ -274,15 +303,25 @@ def newton(ret: ReturnMap, u0, shift, tol: float = 1e-11, maxit: int = 30) -> _S
         iters[idx[accepted]] += 1
     for i in np.flatnonzero(active):
         reason[i] = "budget"
-    return _Solve(u=u, reason=reason, residual=norm, iterations=iters, images=images)
+    return _Solve(U=U, reason=reason, residual=norm, iterations=iters, images=images)
 
 
-def _copy_image(images, i, other, j):
-    images.u[i] = other.u[j]
-    images.jacobian[i] = other.jacobian[j]
-    images.state[i] = other.state[j]
-    images.time[i] = other.time[j]
-    images.status[i] = other.status[j]
+def _take_images(images, idx, k):
+    from phaselab.compute.returns import Images
+
+    rows = (np.asarray(idx)[:, None] * k + np.arange(k)[None, :]).ravel()
+    return Images(u=images.u[rows], jacobian=images.jacobian[rows], state=images.state[rows],
+                  time=images.time[rows], status=images.status[rows])
+
+
+def _put_images(images, i, other, j, k):
+    dst = slice(i * k, (i + 1) * k)
+    src = slice(j * k, (j + 1) * k)
+    images.u[dst] = other.u[src]
+    images.jacobian[dst] = other.jacobian[src]
+    images.state[dst] = other.state[src]
+    images.time[dst] = other.time[src]
+    images.status[dst] = other.status[src]
 
 
 def _explain(reason) -> str:
@@ -290,58 +329,91 @@ def _explain(reason) -> str:
 
 
 # ----------------------------------------------------------------------------- assembling
-def _shift_for(ret: ReturnMap, u0, shift) -> np.ndarray:
-    """The shift per period in reduced coordinates: given by name, or for wrapped map
-    components the whole number of periods the guess's k-th iterate advanced."""
-    d = ret.dim
-    out = np.zeros(d)
-    if shift is not None:
-        if not isinstance(shift, dict):
-            raise ParameterError("shift must be a mapping name -> amount per period, e.g. {'q': 2*pi}")
-        names = ret.names
-        for key, value in shift.items():
-            name = getattr(key, "name", key)
-            if name not in names:
-                raise ParameterError(f"shift names {name!r}, which is not one of the coordinates "
-                                     f"{', '.join(names)}")
-            out[names.index(name)] = inputs.number(value, f"shift of {name!r}")
+def _given_shift(ret: ReturnMap, shift) -> np.ndarray:
+    """A shift per period given by coordinate name, as an array over the coordinates."""
+    out = np.zeros(ret.dim)
+    if shift is None:
         return out
-    if ret.kind == "map" and np.any(ret.period > 0):
-        img = ret.apply(np.atleast_2d(u0)[:1])
-        if img.status[0] == codes.OK:
-            adv = img.u[0] - np.atleast_2d(u0)[0]
-            wraps = ret.period > 0
-            out[wraps] = np.round(adv[wraps] / ret.period[wraps]) * ret.period[wraps]
+    if not isinstance(shift, dict):
+        raise ParameterError("shift must be a mapping name -> amount per period, e.g. {'q': 2*pi}")
+    names = ret.names
+    for key, value in shift.items():
+        name = getattr(key, "name", key)
+        if name not in names:
+            raise ParameterError(f"shift names {name!r}, which is not one of the coordinates "
+                                 f"{', '.join(names)}")
+        out[names.index(name)] = inputs.number(value, f"shift of {name!r}")
     return out
 
 
+def _legs(ret1: ReturnMap, u0, k: int, shift):
+    """Starting points of multiple shooting from starts ``u0`` (N, d): each start followed by
+    its k-1 images, and the shift of each leg ``(U0 (N, k, d), shifts (N, k, d), status)``.
+
+    A given shift goes on the last leg. For a map with wrapped components the legs follow the
+    unwrapped iterates, so only the last leg winds: by the whole number of periods its image
+    advanced past the start."""
+    u0 = np.atleast_2d(u0)
+    n, d = u0.shape
+    U = np.full((n, k, d), np.nan)
+    U[:, 0] = u0
+    status = np.zeros(n, dtype=np.int64)
+    last = None
+    for i in range(k):
+        img = ret1.apply(U[:, i])
+        status = np.where(status == codes.OK, img.status, status)
+        if i + 1 < k:
+            U[:, i + 1] = img.u
+        last = img.u
+    shifts = np.zeros((n, k, d))
+    if shift is not None:
+        shifts[:, -1] = _given_shift(ret1, shift)
+    elif ret1.kind == "map" and np.any(ret1.period > 0):
+        # the legs follow the unwrapped iterates, so only the last one winds
+        wraps = ret1.period > 0
+        adv = np.where(np.isfinite(last), last - U[:, 0], 0.0)
+        shifts[:, -1, wraps] = np.round(adv[:, wraps] / ret1.period[wraps]) * ret1.period[wraps]
+    return U, shifts, status
+
+
 def _assemble(ret: ReturnMap, u, images, shift, residual, iterations) -> PeriodicOrbit:
+    """A PeriodicOrbit from a fixed point ``u`` of the k-th return map ``ret`` (single
+    shooting; its points are found by sectioning the orbit)."""
+    z0 = ret.lift(u[None, :])[0][0]
+    points = _orbit_points(ret, z0)
+    return _orbit(ret, ret.k, points, images.jacobian, float(images.time), shift, residual, iterations)
+
+
+def _assemble_shooting(ret1: ReturnMap, U, images, shifts, residual, iterations) -> PeriodicOrbit:
+    """A PeriodicOrbit from the k points ``U`` (k, d) of a multiple-shooting solution."""
+    k = U.shape[0]
+    M = np.eye(ret1.dim)
+    for i in range(k):
+        M = images.jacobian[i] @ M
+    z = ret1.lift(U)[0]
+    if ret1.kind == "map":
+        z = ret1.wrap(z)
+    return _orbit(ret1, k, z, M, float(np.sum(images.time)), shifts.sum(axis=0), residual, iterations)
+
+
+def _orbit(ret, k, points, M, period, shift, residual, iterations) -> PeriodicOrbit:
     from phaselab.compute.trajectory import trajectory
 
     system = ret.system
-    M = images.jacobian
     mult, word, residue, rotation = classify(M)
-    z0 = ret.lift(u[None, :])[0][0]
-    points = _orbit_points(ret, z0)
     orbit = None
-    period = float(images.time)
-    if ret.kind == "plane":
+    if ret.kind in ("plane", "stroboscopic"):
         with warnings.catch_warnings():
             warnings.simplefilter("ignore", RuntimeWarning)
             n_steps = max(1, int(round(period / ret.h)))
-            orbit = trajectory(system, z0, period, dt=period / n_steps, method=ret.method.name,
+            orbit = trajectory(system, points[0], period, dt=period / n_steps, method=ret.method.name,
                                params=ret.params, check_step=False)
-    elif ret.kind == "stroboscopic":
-        with warnings.catch_warnings():
-            warnings.simplefilter("ignore", RuntimeWarning)
-            orbit = trajectory(system, z0, period, dt=ret.h, method=ret.method.name, params=ret.params,
-                               check_step=False)
     params = dict(zip((p.name for p in system.parameters), ret.prm.tolist()))
     return PeriodicOrbit(
-        points=points, period=period, crossings=ret.k, monodromy=M, multipliers=mult, stability=word,
-        residue=residue, rotation_number=rotation, coordinates=ret.names, shift=shift, orbit=orbit,
-        energy=getattr(ret, "energy", None), residual=float(residual), iterations=int(iterations),
-        system=system, params=params,
+        points=np.ascontiguousarray(points), period=period, crossings=k, monodromy=M, multipliers=mult,
+        stability=word, residue=residue, rotation_number=rotation, coordinates=ret.names,
+        shift=np.asarray(shift, dtype=float), orbit=orbit, energy=getattr(ret, "energy", None),
+        residual=float(residual), iterations=int(iterations), system=system, params=params,
         plane=getattr(ret, "plane", None) if ret.kind == "plane" else ret.kind,
         method="map" if ret.kind == "map" else ret.method.name,
         dt=float(getattr(ret, "h", float("nan"))), settings=_settings(ret))
@@ -360,7 +432,7 @@ def _settings(ret: ReturnMap) -> dict:
 
 
 def _orbit_points(ret: ReturnMap, z0) -> np.ndarray:
-    """The k points of the orbit through ``z0`` on its section."""
+    """The k points of the orbit through ``z0`` on its section (single shooting)."""
     from phaselab.compute.section import section
 
     k = ret.k
@@ -378,11 +450,18 @@ def _orbit_points(ret: ReturnMap, z0) -> np.ndarray:
                 pts = np.vstack([z0, sec.points[0]])
             else:
                 sec = section(system, z0, ret.plane, direction=ret.direction, crossings=k - 1,
-                              params=ret.params, dt=ret.h, method=ret.method.name)
+                              params=ret.params, dt=ret.h, method=ret.method.name, t_max=ret.t_max)
                 pts = np.vstack([z0, sec.points[0]])
     if ret.kind == "map":
         pts = ret.wrap(pts)
     return np.ascontiguousarray(pts)
+
+
+def _image(images, i):
+    from phaselab.compute.returns import Images
+
+    return Images(u=images.u[i], jacobian=images.jacobian[i], state=images.state[i], time=images.time[i],
+                  status=images.status[i])
 
 
 # ----------------------------------------------------------------------------- public calls
@@ -418,19 +497,19 @@ def periodic_orbit(system, guess, period=1, plane=None, energy=None, params=None
     shift : mapping, optional
         What the orbit advances per period, by coordinate name, for orbits that close on a
         cylinder (``{"theta": 2*pi}``). For a map with wrapped components it is found from
-        the guess's k-th iterate.
+        the guess's iterates.
     symmetric : bool
         For a map with a reversor (``AreaPreservingMap(..., reversor=...)``): search along the
         symmetry lines (Greene's method), robust for long periods of twist maps. See
         :func:`phaselab.compute.symmetric.symmetric_orbit`.
     tol : float
-        Converged when max |P(u) - u - shift| <= tol (1 + max |u|).
+        Converged when every leg closes to tol (1 + max |u|).
     maxit : int
         Most Newton steps.
     box : float or mapping, optional
         Escape region; an orbit leaving it ends the search with a clear error.
     t_max : float, optional
-        Time cap for reaching the k-th crossing (flows; default 5000 k steps).
+        Time cap for reaching each crossing (flows; default 5000 steps).
 
     Returns
     -------
@@ -443,9 +522,17 @@ def periodic_orbit(system, guess, period=1, plane=None, energy=None, params=None
         off the energy shell, singular Jacobian, iteration budget, no decrease).
     ParameterError, ModelError
         Bad arguments, or a system that cannot do this.
+
+    Notes
+    -----
+    A period of k returns is solved by multiple shooting: the k points of the orbit are the
+    unknowns, each joined to the next by one return (see :func:`newton`). The monodromy is
+    the product of the k one-return Jacobians, exact derivatives from the tangent maps of the
+    integrator.
     """
     tol = inputs.positive_number(tol, "tol")
     maxit = inputs.count(maxit, "maxit", minimum=1, maximum=1000)
+    k = inputs.count(period, "period")
     names = [s.name for s in system.state_symbols]
     g = inputs.states(guess, len(names), names, "guess")
     if len(g) != 1:
@@ -453,27 +540,23 @@ def periodic_orbit(system, guess, period=1, plane=None, energy=None, params=None
     if symmetric:
         from phaselab.compute.symmetric import symmetric_orbit
 
-        return symmetric_orbit(system, g[0], period, params=params, tol=tol, maxit=maxit, box=box)
-    ret = return_map(system, period, plane=plane, energy=energy, guess=g, direction=direction,
-                     solve_for=solve_for, params=params, dt=dt, method=method, box=box, t_max=t_max)
-    u0 = ret.coordinates(g)
-    s = _shift_for(ret, u0, shift)
-    sol = newton(ret, u0, s, tol=tol, maxit=maxit)
+        return symmetric_orbit(system, g[0], k, params=params, tol=tol, maxit=maxit, box=box)
+    ret1 = return_map(system, 1, plane=plane, energy=energy, guess=g, direction=direction,
+                      solve_for=solve_for, params=params, dt=dt, method=method, box=box, t_max=t_max)
+    U0, shifts, status = _legs(ret1, ret1.coordinates(g), k, shift)
+    if status[0] != codes.OK:
+        raise IntegrationError(f"no period-{k} orbit found from this guess: following the guess, "
+                               f"{_explain(int(status[0]))}")
+    sol = newton(ret1, U0, shifts, tol=tol, maxit=maxit)
     why = sol.reason[0]
     if why != "converged":
         raise IntegrationError(
-            f"no period-{ret.k} orbit found from this guess: {_explain(why)} (after "
+            f"no period-{k} orbit found from this guess: {_explain(why)} (after "
             f"{int(sol.iterations[0])} Newton steps, residual {sol.residual[0]:.3g}); try a closer guess"
-            + (", another energy" if ret.kind == "plane" else "")
-            + (" or a smaller dt" if ret.kind != "map" else ""))
-    return _assemble(ret, sol.u[0], _image(sol.images, 0), s, sol.residual[0], sol.iterations[0])
-
-
-def _image(images, i):
-    from phaselab.compute.returns import Images
-
-    return Images(u=images.u[i], jacobian=images.jacobian[i], state=images.state[i], time=images.time[i],
-                  status=images.status[i])
+            + (", another energy" if ret1.kind == "plane" else "")
+            + (" or a smaller dt" if ret1.kind != "map" else ""))
+    return _assemble_shooting(ret1, sol.U[0], _take_images(sol.images, [0], k), shifts[0], sol.residual[0],
+                              sol.iterations[0])
 
 
 @dataclass(repr=False)
@@ -519,6 +602,12 @@ class PeriodicOrbits:
             lines.append(f"{i:3d}  {o.stability:17s} {res:>12s} {o.period:12.6g}  "
                          + "  ".join(f"{v:10.6g}" for v in o.points[0]))
         return "\n".join(lines)
+
+    def to_xarray(self):
+        """Every orbit in one ``xarray.Dataset`` (dimension ``orbit``)."""
+        from phaselab.export.structures import orbits_dataset
+
+        return orbits_dataset(self.orbits)
 
     def save(self, path, **kwargs):
         """Write every orbit (``.nc``, ``.json`` or a figure)."""
@@ -567,6 +656,7 @@ def find_periodic_orbits(system, period, region=None, seeds=None, plane=None, en
     PeriodicOrbits
     """
     names = [s.name for s in system.state_symbols]
+    k = inputs.count(period, "period")
     if (region is None) == (seeds is None):
         raise ParameterError("give either region={name: (low, high), ...} or seeds=...")
     if seeds is None:
@@ -576,33 +666,32 @@ def find_periodic_orbits(system, period, region=None, seeds=None, plane=None, en
     starts = starts[np.all(np.isfinite(starts), axis=1)]
     if not len(starts):
         raise ParameterError("no finite starting points")
-    ret = return_map(system, period, plane=plane, energy=energy, guess=starts[:1], direction=direction,
-                     solve_for=solve_for, params=params, dt=dt, method=method, box=box, t_max=t_max)
-    u0 = ret.coordinates(starts)
+    ret1 = return_map(system, 1, plane=plane, energy=energy, guess=starts[:1], direction=direction,
+                      solve_for=solve_for, params=params, dt=dt, method=method, box=box, t_max=t_max)
+    U0, shifts, status = _legs(ret1, ret1.coordinates(starts), k, shift)
     failed: dict = {}
+    for st in status[status != codes.OK]:
+        key = _explain(int(st))
+        failed[key] = failed.get(key, 0) + 1
+    run = np.flatnonzero(status == codes.OK)
+    sol = newton(ret1, U0[run], shifts[run], tol=tol, maxit=maxit) if run.size else None
     orbits: list = []
-    shifts = _shifts_per_start(ret, u0, shift)
-    for s, rows in shifts:
-        sol = newton(ret, u0[rows], s, tol=tol, maxit=maxit)
-        for j, why in enumerate(sol.reason):
-            if why != "converged":
-                key = _explain(why)
-                failed[key] = failed.get(key, 0) + 1
-                continue
-            cand = _assemble_light(ret, sol.u[j], s)
-            if _least_period(ret, cand, same) < ret.k:
-                failed["least period smaller than asked"] = failed.get("least period smaller than asked", 0) + 1
-                continue
-            if any(_same_orbit(ret, cand, o, same) for o in orbits):
-                continue
-            orbits.append(cand)
-    full = [_assemble(ret, o["u"], _image(ret.apply(o["u"][None, :]), 0), o["shift"],
-                      0.0, 0) for o in orbits]
-    for o, light in zip(full, orbits):
-        o.residual = float(np.max(np.abs(ret.apply(light["u"][None, :]).u[0] - light["u"] - light["shift"])))
-    order = sorted(range(len(full)), key=lambda i: (STABILITY.index(full[i].stability),
-                                                     tuple(np.round(full[i].points[0], 9))))
-    return PeriodicOrbits([full[i] for i in order], tried=len(starts), failed=failed)
+    for j in range(run.size):
+        why = sol.reason[j]
+        if why != "converged":
+            key = _explain(why)
+            failed[key] = failed.get(key, 0) + 1
+            continue
+        cand = _assemble_shooting(ret1, sol.U[j], _take_images(sol.images, [j], k), shifts[run[j]],
+                                  sol.residual[j], sol.iterations[j])
+        if _least_period(ret1, cand, same) < k:
+            failed["least period smaller than asked"] = failed.get("least period smaller than asked", 0) + 1
+            continue
+        if any(_same_orbit(ret1, cand, o, same) for o in orbits):
+            continue
+        orbits.append(cand)
+    orbits.sort(key=lambda o: (STABILITY.index(o.stability), tuple(np.round(o.points[0], 9))))
+    return PeriodicOrbits(orbits, tried=len(starts), failed=failed)
 
 
 def _grid(system, region, resolution, plane):
@@ -629,34 +718,15 @@ def _grid(system, region, resolution, plane):
     return starts
 
 
-def _shifts_per_start(ret, u0, shift):
-    """Groups of starts sharing one shift (for wrapped maps each start may wind differently)."""
-    if shift is not None or not (ret.kind == "map" and np.any(ret.period > 0)):
-        return [(_shift_for(ret, u0[:1], shift), np.arange(len(u0)))]
-    img = ret.apply(u0)
-    wraps = ret.period > 0
-    adv = np.where(np.isfinite(img.u), img.u - u0, 0.0)
-    turns = np.zeros_like(adv)
-    turns[:, wraps] = np.round(adv[:, wraps] / ret.period[wraps]) * ret.period[wraps]
-    groups = {}
-    for i, row in enumerate(turns):
-        groups.setdefault(tuple(row), []).append(i)
-    return [(np.array(k), np.array(v)) for k, v in groups.items()]
-
-
-def _assemble_light(ret, u, shift):
-    z0 = ret.lift(u[None, :])[0][0]
-    return {"u": u, "shift": shift, "points": _orbit_points(ret, z0)}
-
-
-def _least_period(ret, cand, same):
-    pts = cand["points"]
+def _least_period(ret, orbit, same):
+    pts = orbit.points
     z0 = pts[0]
     tol = same * (1.0 + np.max(np.abs(z0)))
-    for j in range(1, len(pts)):
-        if ret.k % j == 0 and np.max(np.abs(_wrapped_difference(ret, pts[j], z0))) <= tol:
+    k = len(pts)
+    for j in range(1, k):
+        if k % j == 0 and np.max(np.abs(_wrapped_difference(ret, pts[j], z0))) <= tol:
             return j
-    return ret.k
+    return k
 
 
 def _wrapped_difference(ret, a, b):
@@ -670,6 +740,6 @@ def _wrapped_difference(ret, a, b):
 
 
 def _same_orbit(ret, a, b, same):
-    z = a["points"][0]
+    z = a.points[0]
     tol = same * (1.0 + np.max(np.abs(z)))
-    return any(np.max(np.abs(_wrapped_difference(ret, p, z))) <= tol for p in b["points"])
+    return any(np.max(np.abs(_wrapped_difference(ret, p, z))) <= tol for p in b.points)
