@@ -31,6 +31,11 @@ _LAZY = {
     "parameter_scan": "phaselab.scan.grids",
     "shell_grid": "phaselab.scan.grids",
     "state_grid": "phaselab.scan.grids",
+    "frequencies": "phaselab.compute.frequencies",
+    "Frequencies": "phaselab.compute.frequencies",
+    "rotation_number": "phaselab.compute.frequencies",
+    "frequency_map": "phaselab.scan.frequency_map",
+    "FrequencyMap": "phaselab.scan.frequency_map",
     "explore": "phaselab.widgets.explorer",
 }
 
