@@ -44,7 +44,7 @@ from dataclasses import dataclass
 import numpy as np
 from numba import njit, prange
 
-__all__ = ["SpectralLines", "leading_lines", "window", "MAX_WINDOW_ORDER"]
+__all__ = ["SpectralLines", "Workspace", "leading_lines", "window", "chunk_rows", "MAX_WINDOW_ORDER"]
 
 MAX_WINDOW_ORDER = 8
 """Highest window order accepted (higher orders widen the main lobe with little gain)."""
@@ -54,7 +54,7 @@ _NEWTON_MAX = 60        # safeguarded Newton iterations per line (typically 3 to
 _STEP_TOL = 1e-13       # stop bisecting when the bracket is below this fraction of a bin
 _NEWTON_DONE = 1e-6     # a Newton step below this fraction of a bin is the last one
 _SILENT = 1e-24         # residual energy below this fraction of the signal's: no line left
-_CHUNK_ELEMENTS = 1 << 22  # samples per batch handed to the FFT at once (64 MiB complex)
+_CHUNK_ELEMENTS = 1 << 20  # samples analysed together (16 MiB complex)
 
 
 @dataclass
@@ -215,8 +215,9 @@ def _project_one(x, w, omegas, m, res, coef, with_residual):
     n = x.shape[0]
     half = 0.5 * (n - 1)
     G = np.empty((m, m))
+    g0 = _cos_sum(w, 0.0)
     for a in range(m):
-        G[a, a] = _cos_sum(w, 0.0)
+        G[a, a] = g0
         for b in range(a):
             v = _cos_sum(w, omegas[a] - omegas[b])
             G[a, b] = v
@@ -304,6 +305,29 @@ def _project_all(x, w, omegas, m, active, residual, coef, with_residual):
 
 
 @njit(cache=True, nogil=True, parallel=True)
+def _remove_mean(x, w, residual, coef, total):
+    """The zero-frequency line: ``coef[i, 0]`` the windowed mean of row i, ``residual`` the
+    row minus it, ``total`` the row's windowed mean square (the first step of every
+    analysis, done in one pass instead of the general projection)."""
+    n_sig, n = x.shape
+    wsum = 0.0
+    for k in range(n):
+        wsum += w[k]
+    for i in prange(n_sig):
+        acc = 0j
+        e = 0.0
+        for k in range(n):
+            v = x[i, k]
+            acc += w[k] * v
+            e += w[k] * (v.real * v.real + v.imag * v.imag)
+        mean = acc / wsum
+        coef[i, 0] = mean
+        total[i] = e / n
+        for k in range(n):
+            residual[i, k] = x[i, k] - mean
+
+
+@njit(cache=True, nogil=True, parallel=True)
 def _energies(x, w, out):
     n_sig, n = x.shape
     for i in prange(n_sig):
@@ -366,25 +390,43 @@ def _peak_bins(spec, active, centre, start):
 
 def _coarse(residual, w, active, buffer):
     """Peak bin of the FFT of the windowed residual: (centre, start) in rad per sample."""
+    from scipy import fft as sfft
+
     _windowed(residual, w, buffer)
-    spec = np.fft.fft(buffer, axis=1)
+    spec = sfft.fft(buffer, axis=1, overwrite_x=True, workers=_threads())
     centre = np.empty(len(residual))
     start = np.empty(len(residual))
     _peak_bins(spec, active, centre, start)
     return centre, start
 
 
-def _check_signals(signals):
-    x = np.asarray(signals)
-    if x.ndim == 1:
-        x = x[None, :]
-    if x.ndim != 2:
-        raise ValueError(f"signals must have shape (n_signals, n_samples), got {x.shape}")
-    return np.ascontiguousarray(x, dtype=np.complex128)
+class Workspace:
+    """Scratch arrays reused by successive :func:`leading_lines` calls.
+
+    Touching freshly allocated memory costs a page fault per page, which on some machines
+    is as slow as the analysis itself; a caller analysing many chunks passes one
+    workspace to every call. Not shared between threads.
+    """
+
+    def __init__(self):
+        self._arrays = {}
+
+    def get(self, name: str, rows: int, n: int) -> np.ndarray:
+        """A C-contiguous complex array of shape (rows, n) (contents undefined)."""
+        a = self._arrays.get((name, n))
+        if a is None or a.shape[0] < rows:
+            a = np.empty((rows, n), dtype=np.complex128)
+            self._arrays[(name, n)] = a
+        return a[:rows]
+
+
+def chunk_rows(n: int) -> int:
+    """Signals of ``n`` samples handled together (about 16 MiB of samples)."""
+    return max(1, _CHUNK_ELEMENTS // n)
 
 
 def leading_lines(signals, lines: int = 1, window_order: int = 1,
-                  amplitudes: bool = True) -> SpectralLines:
+                  amplitudes: bool = True, workspace: Workspace | None = None) -> SpectralLines:
     """The leading spectral lines of each signal by Laskar's frequency analysis.
 
     Parameters
@@ -398,6 +440,8 @@ def leading_lines(signals, lines: int = 1, window_order: int = 1,
         Order ``p`` of the Hann-type window (0: none; 1: Hann, the usual choice).
     amplitudes : bool
         False skips the last projection: frequencies only (amplitudes and phases NaN).
+    workspace : Workspace, optional
+        Scratch arrays to reuse across calls.
 
     Returns
     -------
@@ -411,7 +455,11 @@ def leading_lines(signals, lines: int = 1, window_order: int = 1,
     the first was subtracted, and so on. Subtraction projects onto all lines found (Laskar's
     Gram-Schmidt step), so earlier amplitudes are corrected as more lines are found.
     """
-    x = _check_signals(signals)
+    x = np.asarray(signals)
+    if x.ndim == 1:
+        x = x[None, :]
+    if x.ndim != 2:
+        raise ValueError(f"signals must have shape (n_signals, n_samples), got {x.shape}")
     lines = int(lines)
     p = int(window_order)
     if lines < 1:
@@ -423,27 +471,28 @@ def leading_lines(signals, lines: int = 1, window_order: int = 1,
         raise ValueError(f"at least 8 samples are needed, got {n}")
     if not np.all(np.isfinite(x)):
         raise ValueError("signals must be finite")
+    ws = workspace if workspace is not None else Workspace()
     nu = np.full((n_sig, lines), np.nan)
     amp = np.full((n_sig, lines), np.nan)
     phase = np.full((n_sig, lines), np.nan)
-    rows = max(1, _CHUNK_ELEMENTS // n)
+    rows = chunk_rows(n)
     for a in range(0, n_sig, rows):
         b = min(n_sig, a + rows)
-        _chunk(x[a:b], lines, p, amplitudes, nu[a:b], amp[a:b], phase[a:b])
+        xc = ws.get("signal", b - a, n)
+        xc[...] = x[a:b]
+        _chunk(xc, ws.get("residual", b - a, n), ws.get("buffer", b - a, n), lines, p,
+               amplitudes, nu[a:b], amp[a:b], phase[a:b])
     return SpectralLines(nu, amp, phase)
 
 
-def _chunk(x, lines, p, amplitudes, nu, amp, phase):
+def _chunk(x, residual, buffer, lines, p, amplitudes, nu, amp, phase):
     n_sig, n = x.shape
     w = window(n, p)
     omegas = np.zeros((n_sig, lines + 1))      # column 0: the zero-frequency line
     coef = np.zeros((n_sig, lines + 1), dtype=np.complex128)
-    residual = np.empty_like(x)
-    buffer = np.empty_like(x)
     active = np.ones(n_sig, dtype=bool)
-    _project_all(x, w, omegas, 1, active, residual, coef, True)
     total = np.empty(n_sig)
-    _energies(x, w, total)
+    _remove_mean(x, w, residual, coef, total)
     half_width = (0.75 if p == 0 else 1.0) * 2.0 * np.pi / n
     found = np.zeros(n_sig, dtype=np.int64)
     left = np.empty(n_sig)
