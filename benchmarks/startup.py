@@ -1,115 +1,184 @@
-"""Start-up costs: importing phaselab, and the first compiled kernel call cold and warm.
+"""Time to the first answer: a new system from ``import phaselab`` in a fresh process.
 
-Run:  python benchmarks/startup.py [--repeat N]
+Run:  python benchmarks/startup.py [--repeat N] [--skip-machine-cold]
 
-1. ``import phaselab`` in a fresh Python process (target: under 1 s), and which heavy
-   modules that import pulled in (the widget layer must not be among them).
-2. Time to the first ``vector_field`` result for the Henon-Heiles system (and, for a
-   larger case, the 16-site FPUT chain) in a fresh
-   process with an empty kernel cache (cold: sympy derivatives, source generation, numba
-   compilation), and again in a second process sharing that cache (warm: the generated file
-   and numba's machine code are loaded from disk).
+For each system (Henon-Heiles from the catalogue, a new string Hamiltonian that no cache
+has seen, the FPUT chain with n = 10) a fresh Python process imports phaselab and times its
+first section, first chaos indicators, first trajectory and the explorer's first click (one
+new orbit of 300 crossings through the widget's own path), in that order, and the share of
+each spent compiling (numba's compile events, counted by a listener on its event API). The
+cases, each in fresh processes, side by side in one run:
 
-Each figure is the median over ``--repeat`` fresh processes; the cold and warm runs are
-measured side by side in the same run of this script.
+``machine cold``
+    an empty kernel cache: the loops every system shares are compiled too (once per
+    machine; ``phaselab warm`` does this ahead of time);
+``new system``
+    the shared loops are cached, the system is new: only its kernel is compiled (the goal:
+    section < 3 s, chaos indicators < 5 s, trajectory < 2 s; FPUT within twice that);
+``warm``
+    a second process for the same system: everything is loaded from the cache;
+``warm, inlined``
+    after the background build of the system's inlined loops has finished.
+
+Also printed: ``import phaselab`` alone, and the bare ``import numpy, sympy`` it rests on.
+Figures are medians over ``--repeat`` runs.
 """
 
 from __future__ import annotations
 
 import argparse
 import json
+import os
+import shutil
 import statistics
 import subprocess
 import sys
 import tempfile
 import time
+import uuid
 
-IMPORT_CHILD = """
-import sys, time, json
+CHILD = r"""
+import json, sys, time
 t0 = time.perf_counter()
-import phaselab
-dt = time.perf_counter() - t0
-heavy = [m for m in ("numba", "bokeh", "ipywidgets", "matplotlib", "scipy", "sympy", "dask")
-         if m in sys.modules]
-print(json.dumps({"seconds": dt, "heavy": heavy}))
-"""
-
-BASELINE_CHILD = """
-import time, json
-t0 = time.perf_counter()
-import numpy, sympy
-print(json.dumps({"seconds": time.perf_counter() - t0}))
-"""
-
-KERNEL_CHILD = """
-import time
-t0 = time.perf_counter()
-import json, sys
 import numpy as np
-from phaselab import models
-from phaselab.codegen import compile_system
-H = getattr(models, sys.argv[1])()
-c = compile_system(H)
-t1 = time.perf_counter()
-n = len(H.state_symbols)
-out = np.empty(n)
-c.vector_field(np.full(n, 0.1), H.param_values(), out)
-t2 = time.perf_counter()
-st = c.vector_field.stats
-print(json.dumps({"total": t2 - t0, "build": t1 - t0, "first_call": t2 - t1,
-                  "cache_hits": sum(st.cache_hits.values()), "cache_misses": sum(st.cache_misses.values())}))
+import phaselab
+t_import = time.perf_counter() - t0
+from numba.core import event
+
+compile_seconds = [0.0]
+
+class Listener(event.Listener):
+    def on_start(self, ev):
+        if ev.kind == "numba:compile":
+            self.t = time.perf_counter()
+    def on_end(self, ev):
+        if ev.kind == "numba:compile":
+            compile_seconds[0] += time.perf_counter() - self.t
+
+listener = Listener()
+event.install_listener("numba:compile", listener)
+
+which, tag = sys.argv[1], sys.argv[2]
+if which == "henon_heiles":
+    H = phaselab.models.henon_heiles()
+    E, plane, solve, free = 1 / 8, {"x": 0.0}, "px", {"y": np.linspace(-0.3, 0.4, 20), "py": 0.0}
+elif which == "string":
+    H = phaselab.Hamiltonian(f"(px**2 + py**2)/2 + (x**2 + {tag}*y**2)/2 + x**2*y/2 - y**3/5",
+                             ["x", "y"], ["px", "py"])
+    E, plane, solve, free = 0.05, {"x": 0.0}, "px", {"y": np.linspace(-0.2, 0.2, 20), "py": 0.0}
+else:
+    H = phaselab.models.fput_chain(10)
+    n = H.dof
+    E, plane, solve = 0.5, {H.coords[0].name: 0.0}, H.momenta[0].name
+    free = {s.name: 0.05 * np.sin(np.linspace(0, 3, 20) + k) for k, s in
+            enumerate(H.state_symbols) if s.name not in (H.coords[0].name, H.momenta[0].name)}
+seeds = phaselab.shell_seeds(H, E, plane, solve, free)
+out = {"import": t_import}
+
+def timed(name, fn):
+    c0 = compile_seconds[0]
+    t = time.perf_counter()
+    fn()
+    out[name] = time.perf_counter() - t
+    out[name + " compiling"] = compile_seconds[0] - c0
+
+timed("section", lambda: phaselab.section(H, seeds, plane, crossings=300))
+timed("chaos indicators", lambda: phaselab.chaos_indicators(H, seeds.valid_states(), 200.0))
+timed("trajectory", lambda: phaselab.trajectory(H, seeds.valid_states(), 100.0))
+if which != "fput":
+    ex = phaselab.explore(H, energy=E, plane=plane, solve_for=solve, crossings=300)
+    def click():
+        ex.add_seed(0.05, 0.01)
+        ex.wait(300)
+    timed("explorer first click", click)
+out["total"] = time.perf_counter() - t0
+print(json.dumps(out))
 """
 
+IMPORT_CHILD = "import time; t = time.perf_counter(); import phaselab; print(time.perf_counter() - t)"
+BASE_CHILD = "import time; t = time.perf_counter(); import numpy, sympy; print(time.perf_counter() - t)"
+CALLS = ("section", "chaos indicators", "trajectory", "explorer first click")
 
-def run_child(code: str, env: dict | None = None, *argv: str) -> tuple[dict, float]:
-    import os
 
-    full_env = dict(os.environ, **(env or {}))
-    t0 = time.perf_counter()
-    res = subprocess.run([sys.executable, "-c", code, *argv], capture_output=True, text=True, env=full_env,
-                         timeout=600)
-    wall = time.perf_counter() - t0
+def child(env, which, tag):
+    res = subprocess.run([sys.executable, "-c", CHILD, which, tag], env=env, capture_output=True,
+                         text=True, timeout=3600)
     if res.returncode != 0:
-        raise SystemExit(f"child failed:\n{res.stderr}")
-    return json.loads(res.stdout.strip().splitlines()[-1]), wall
+        raise RuntimeError(res.stderr[-3000:])
+    return json.loads(res.stdout.strip().splitlines()[-1])
 
 
-def main() -> None:
-    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("--repeat", type=int, default=3, help="fresh processes per figure (default 3)")
-    args = parser.parse_args()
+def wait_for_builds(cache, timeout=1800.0):
+    """Wait until no background build of this cache is running (its job files are gone)."""
+    t0 = time.time()
+    while time.time() - t0 < timeout:
+        if not any(name.startswith(".build-") for name in os.listdir(cache)):
+            return
+        time.sleep(1.0)
 
-    imports = [run_child(IMPORT_CHILD) for _ in range(args.repeat)]
-    t_import = statistics.median(r["seconds"] for r, _ in imports)
-    w_import = statistics.median(w for _, w in imports)
-    heavy = imports[-1][0]["heavy"]
-    base = statistics.median(run_child(BASELINE_CHILD)[0]["seconds"] for _ in range(args.repeat))
-    print(f"import phaselab: {t_import:.3f} s inside the process, {w_import:.3f} s process wall time "
-          f"(target < 1 s: {'met' if t_import < 1.0 else 'NOT met'})")
-    print(f"  heavy modules loaded by the import: {', '.join(heavy) or 'none'}")
-    print(f"  baseline 'import numpy, sympy' alone: {base:.3f} s; phaselab / baseline = {t_import / base:.2f}")
-    widget = [m for m in heavy if m in ("bokeh", "ipywidgets")]
-    print(f"  widget layer imported: {'YES: ' + ', '.join(widget) if widget else 'no'}")
 
-    for model in ("henon_heiles", "fput_chain"):
-        cold, warm = [], []
-        for _ in range(args.repeat):
-            with tempfile.TemporaryDirectory() as cache:
-                env = {"PHASELAB_CACHE_DIR": cache}
-                cold.append(run_child(KERNEL_CHILD, env, model))
-                warm.append(run_child(KERNEL_CHILD, env, model))
+def median(rows, key):
+    values = [r[key] for r in rows if key in r]
+    return statistics.median(values) if values else float("nan")
 
-        def med(rows, key):
-            return statistics.median(r[key] for r, _ in rows)
 
-        print(f"{model}: time from process start to the first vector_field result (median of "
-              f"{args.repeat} fresh processes):")
-        for label, rows in (("cold (empty cache)", cold), ("warm (second process)", warm)):
-            print(f"  {label:22s} total {med(rows, 'total'):6.3f} s = build {med(rows, 'build'):6.3f} s "
-                  f"+ first call {med(rows, 'first_call'):6.3f} s; process wall "
-                  f"{statistics.median(w for _, w in rows):6.3f} s; numba cache hits "
-                  f"{rows[-1][0]['cache_hits']}, misses {rows[-1][0]['cache_misses']}")
-        print(f"  cold / warm ratio: {med(cold, 'total') / med(warm, 'total'):.1f}x")
+def main():
+    ap = argparse.ArgumentParser(description=__doc__.split("\n")[0])
+    ap.add_argument("--repeat", type=int, default=3)
+    ap.add_argument("--skip-machine-cold", action="store_true")
+    args = ap.parse_args()
+    base = dict(os.environ, PHASELAB_QUIET="1")
+    shared = tempfile.mkdtemp(prefix="phaselab-startup-")
+    print(f"cache folder: {shared}; {os.cpu_count()} cores; load average {os.getloadavg()[0]:.2f}")
+
+    imports = [float(subprocess.run([sys.executable, "-c", IMPORT_CHILD], capture_output=True, text=True,
+                                    env=base).stdout) for _ in range(args.repeat)]
+    bases = [float(subprocess.run([sys.executable, "-c", BASE_CHILD], capture_output=True, text=True,
+                                  env=base).stdout) for _ in range(args.repeat)]
+    print(f"import phaselab: {statistics.median(imports):.2f} s (import numpy, sympy: "
+          f"{statistics.median(bases):.2f} s)\n")
+
+    rows = {}
+    if not args.skip_machine_cold:
+        runs = []
+        for _ in range(min(args.repeat, 2)):
+            empty = tempfile.mkdtemp(prefix="phaselab-empty-")
+            runs.append(child(dict(base, PHASELAB_CACHE_DIR=empty, PHASELAB_LOOPS="generic"), "string",
+                              uuid.uuid4().hex[:6].translate(str.maketrans("abcdef", "123456"))))
+            shutil.rmtree(empty, ignore_errors=True)
+        rows[("string", "machine cold")] = runs
+    # the shared loops, once
+    subprocess.run([sys.executable, "-m", "phaselab.cli", "warm"], env=dict(base, PHASELAB_CACHE_DIR=shared),
+                   capture_output=True, check=True, timeout=3600)
+    for which in ("henon_heiles", "string", "fput"):
+        new, warm, inlined = [], [], []
+        for r in range(args.repeat):
+            tag = f"1.{r + 1}{int(time.time() * 1000) % 100000}"   # a coefficient no cache has seen
+            cache = tempfile.mkdtemp(prefix="phaselab-sys-")
+            shutil.copytree(shared, cache, dirs_exist_ok=True)      # shared loops cached, system new
+            env = dict(base, PHASELAB_CACHE_DIR=cache, PHASELAB_LOOPS="auto")
+            new.append(child(env, which, tag))
+            warm.append(child(dict(env, PHASELAB_LOOPS="generic"), which, tag))
+            wait_for_builds(cache)
+            inlined.append(child(env, which, tag))
+            wait_for_builds(cache)
+            inlined[-1] = child(env, which, tag)
+            shutil.rmtree(cache, ignore_errors=True)
+        rows[(which, "new system")] = new
+        rows[(which, "warm")] = warm
+        rows[(which, "warm, inlined")] = inlined
+
+    head = f"{'system':14s} {'case':15s}" + "".join(f"{c:>24s}" for c in CALLS)
+    print(head)
+    print("-" * len(head))
+    for (which, case), runs in rows.items():
+        cells = []
+        for c in CALLS:
+            t, comp = median(runs, c), median(runs, c + " compiling")
+            cells.append("-" if t != t else f"{t:8.3f} s ({100 * comp / t if t > 0 else 0:3.0f}% comp)")
+        print(f"{which:14s} {case:15s}" + "".join(f"{x:>24s}" for x in cells))
+    print("\n(% comp: share of the call spent in numba compilation, loading from the cache included)")
+    shutil.rmtree(shared, ignore_errors=True)
 
 
 if __name__ == "__main__":

@@ -37,6 +37,8 @@ _LAZY = {
     "frequency_map": "phaselab.scan.frequency_map",
     "FrequencyMap": "phaselab.scan.frequency_map",
     "explore": "phaselab.widgets.explorer",
+    "warm": "phaselab.compute.warm",
+    "set_limits": "phaselab.compute.inputs",
 }
 
 __all__ = ["Hamiltonian", "PhaselabError", "ExpressionError", "ModelError", "ParameterError",

@@ -144,6 +144,17 @@ def cmd_examples(args) -> int:
     return OK
 
 
+def cmd_warm(args) -> int:
+    """Compile the generic loops once for this machine (or find them in the kernel cache)."""
+    from phaselab.codegen.cache import cache_dir
+    from phaselab.compute.warm import warm
+
+    print(f"compiling phaselab's loops into {cache_dir()} (once per machine; a few minutes the first time)")
+    report = warm(verbose=True)
+    print(f"done: {len(report)} paths in {sum(report.values()):.1f} s")
+    return OK
+
+
 # ----------------------------------------------------------------------------- parser
 def build_parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(
@@ -172,6 +183,8 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("study", metavar="STUDY|MODEL", help="a study file, an example name or a catalogue model")
 
     sub.add_parser("examples", help="list the built-in studies and catalogue models")
+    sub.add_parser("warm", help="compile the loops every system shares, once per machine (for images and "
+                                "shared installs)")
     return parser
 
 
@@ -181,6 +194,7 @@ COMMANDS = {
     "check": cmd_check,
     "equations": cmd_equations,
     "examples": cmd_examples,
+    "warm": cmd_warm,
 }
 
 

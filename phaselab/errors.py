@@ -1,7 +1,26 @@
-"""Exceptions raised by phaselab.
+"""Exceptions raised by phaselab, and the rule for which one to raise.
 
-Every error a user can trigger with bad input derives from :class:`PhaselabError`, so a
-notebook can catch them in one place, and each message names the offending piece.
+Every error a user can trigger derives from :class:`PhaselabError`, so a notebook can catch
+them in one place, and each message names the offending piece and, where there is one, the
+way out.
+
+The rule
+--------
+- :class:`ParameterError`: an argument of a call is bad (wrong type, shape, sign or range; an
+  unknown parameter or state name; a request larger than a stated limit). The caller can
+  fix it by passing something else.
+- :class:`ExpressionError`: a string expression was refused by the safe parser (a special
+  case of a bad argument, kept apart because it carries the offending piece of text).
+- :class:`ModelError`: the system cannot do what is asked (a degenerate Lagrangian, a map
+  that is not area-preserving, a section plane for a driven system, a function that cannot
+  be compiled). The caller must change the model or ask for something else.
+- :class:`IntegrationError`: a failure while computing (an implicit step that does not
+  converge, Newton's method that does not converge, a step found far too large by the
+  probe). The inputs were acceptable; the numerics failed on them.
+- :class:`StudyFileError`: anything wrong with a study file, as ``file: key: problem``.
+
+Failures that concern one orbit of a batch are not raised at all: the orbit is flagged in the
+result's ``status`` (see :mod:`phaselab.compute.codes`) and the rest of the batch is returned.
 """
 
 
@@ -9,20 +28,20 @@ class PhaselabError(Exception):
     """Base class of every error phaselab raises on purpose."""
 
 
-class ExpressionError(PhaselabError, ValueError):
+class ParameterError(PhaselabError, ValueError):
+    """An argument is invalid (type, shape, range, unknown name, over a limit)."""
+
+
+class ExpressionError(ParameterError):
     """A string expression was refused by the safe parser, or names unknown symbols."""
 
 
 class ModelError(PhaselabError, ValueError):
-    """A system cannot be built as asked (degenerate Lagrangian, bad coordinates, ...)."""
-
-
-class ParameterError(PhaselabError, ValueError):
-    """A parameter value or name is invalid (unknown name, non-finite value, ...)."""
+    """The system cannot do what is asked (degenerate Lagrangian, bad coordinates, ...)."""
 
 
 class IntegrationError(PhaselabError, RuntimeError):
-    """A numerical method cannot be applied or failed (non-converging implicit step, ...)."""
+    """The numerics failed on acceptable inputs (non-converging implicit step, Newton, ...)."""
 
 
 class StudyFileError(PhaselabError, ValueError):

@@ -6,14 +6,7 @@ from scipy.integrate import solve_ivp
 
 import phaselab
 from phaselab.compute.chaos import chaos_indicators
-from phaselab.errors import IntegrationError, ModelError
-
-HH_EXPR = "(px**2+py**2)/2 + (x**2+y**2)/2 + x**2*y - y**3/3"
-
-
-@pytest.fixture(scope="module")
-def henon_heiles():
-    return phaselab.Hamiltonian(HH_EXPR, ["x", "y"], ["px", "py"])
+from phaselab.errors import ParameterError
 
 
 @pytest.fixture(scope="module")
@@ -37,10 +30,10 @@ def test_linear_saddle_exponent_is_its_eigenvalue(quartic):
 
     a = 0.7
     T = 60.0
-    r = chaos_indicators(quartic, [0.0, 0.0], T, method="yoshida4", dt=0.01, vectors=1, seed=3,
-                         params={"c": -a**2})
-    w0 = np.random.default_rng(3).standard_normal((1, 2, 1))[0, :, 0]
+    w0 = np.random.default_rng(3).standard_normal(2)
     w0 /= np.linalg.norm(w0)
+    r = chaos_indicators(quartic, [0.0, 0.0], T, method="yoshida4", dt=0.01, vectors=1,
+                         deviations=w0.reshape(1, 2, 1), params={"c": -a**2})
     A = np.array([[0.0, 1.0], [a**2, 0.0]])
     exact = np.log(np.linalg.norm(expm(A * T) @ w0)) / T
     assert r.lyapunov[0] == pytest.approx(exact, rel=1e-6)
@@ -57,7 +50,7 @@ def test_isochronous_oscillator_megno_tends_to_zero(quartic):
 def test_henon_heiles_regular_and_chaotic(henon_heiles):
     E = 1 / 8
     seeds = [hh_seed(0.0, E), hh_seed(-0.2, E)]
-    r = chaos_indicators(henon_heiles, seeds, 3000.0, dt=0.02)
+    r = chaos_indicators(henon_heiles, seeds, 3000.0, dt=0.02, history=True)
     regular, chaotic = 0, 1
     # quasi-periodic orbits: <Y> -> 2 (Cincotta & Simo 2000); SALI stays O(1) (Skokos 2001)
     assert abs(r.megno[regular] - 2.0) < 0.5
@@ -93,8 +86,8 @@ def test_gauss_tangent_agrees_with_splitting_tangent(henon_heiles):
     # two different symplectic tangent maps of the same flow must give the same finite-time
     # exponent to the accuracy of the methods (the tangent flow is unique; common practice)
     seeds = [hh_seed(0.1, 1 / 12)]
-    a = chaos_indicators(henon_heiles, seeds, 100.0, method="yoshida6", dt=0.01, seed=1)
-    b = chaos_indicators(henon_heiles, seeds, 100.0, method="gauss6", dt=0.02, seed=1)
+    a = chaos_indicators(henon_heiles, seeds, 100.0, method="yoshida6", dt=0.01, seed=1, history=True)
+    b = chaos_indicators(henon_heiles, seeds, 100.0, method="gauss6", dt=0.02, seed=1, history=True)
     np.testing.assert_allclose(a.history["lyapunov"], b.history["lyapunov"], rtol=1e-6, atol=1e-9)
 
 
@@ -102,27 +95,63 @@ def test_driven_system_runs_in_extended_phase_space():
     D = phaselab.Hamiltonian("p**2/2 - cos(q) - eps*q*cos(W*t)", ["q"], ["p"],
                              params={"eps": 0.0, "W": 1.0}, time="t", period="2*pi/W")
     # with eps = 0 it is the free pendulum: a libration is regular (MEGNO near 2, since the
-    # pendulum is not isochronous; Cincotta & Simo 2000)
-    r = chaos_indicators(D, [[1.0, 0.0]], 1000.0, dt=0.02)
+    # pendulum is not isochronous; Cincotta & Simo 2000). The deviation starts across the
+    # flow (along q at the turning point, where the flow is along p): a deviation along the
+    # flow would reach the limit only slowly
+    r = chaos_indicators(D, [[1.0, 0.0]], 1000.0, dt=0.02, vectors=1,
+                         deviations=np.array([[[1.0], [0.0]]]))
     assert abs(r.megno[0] - 2.0) < 0.3
 
 
 def test_bad_input_is_refused(henon_heiles):
-    with pytest.raises(IntegrationError, match="not symplectic"):
-        chaos_indicators(henon_heiles, [hh_seed(0.0, 0.1)], 10.0, method="rk4")
-    with pytest.raises(ModelError, match="positive"):
-        chaos_indicators(henon_heiles, [hh_seed(0.0, 0.1)], -1.0)
-    with pytest.raises(ModelError, match="shape"):
+    seed = [hh_seed(0.0, 0.1)]
+    with pytest.raises(ParameterError, match="not symplectic"):
+        chaos_indicators(henon_heiles, seed, 10.0, method="rk4")
+    with pytest.raises(ParameterError, match="positive"):
+        chaos_indicators(henon_heiles, seed, -1.0)
+    with pytest.raises(ParameterError, match="shape"):
         chaos_indicators(henon_heiles, [[0.0, 0.1, 0.2]], 10.0)
-    with pytest.raises(IntegrationError, match="positive finite step"):
-        chaos_indicators(henon_heiles, [hh_seed(0.0, 0.1)], 10.0, dt=float("nan"))
+    with pytest.raises(ParameterError, match="dt must be finite"):
+        chaos_indicators(henon_heiles, seed, 10.0, dt=float("nan"))
+    # raw Python errors of old became the package's own
+    with pytest.raises(ParameterError, match="t must be a real number"):
+        chaos_indicators(henon_heiles, seed, None)
+    with pytest.raises(ParameterError, match="dt must be a real number"):
+        chaos_indicators(henon_heiles, seed, 10.0, dt=[0.05])
+    with pytest.raises(ParameterError, match="rows of different lengths|ragged"):
+        chaos_indicators(henon_heiles, [[0.0, 0.1, 0.2, 0.3], [0.0, 0.1]], 10.0)
+    with pytest.raises(ParameterError, match="text"):
+        chaos_indicators(henon_heiles, [["a", "b", "c", "d"]], 10.0)
+    with pytest.raises(ParameterError, match="complex"):
+        chaos_indicators(henon_heiles, [[0.0, 0.1j, 0.2, 0.3]], 10.0)
+    with pytest.raises(ParameterError, match="booleans"):
+        chaos_indicators(henon_heiles, [[True, False, True, False]], 10.0)
+    with pytest.raises(ParameterError, match="maxit must be at least 1"):
+        chaos_indicators(henon_heiles, seed, 10.0, method="gauss6", maxit=0)
+    with pytest.raises(ParameterError, match="record_every must be at least 1"):
+        chaos_indicators(henon_heiles, seed, 10.0, record_every=-1)
+    # a request far over the work limit is refused before it starts, naming the way out
+    with pytest.raises(ParameterError, match="set_limits"):
+        chaos_indicators(henon_heiles, seed, 1e12)
+
+
+def test_deviation_vectors_do_not_depend_on_the_batch(henon_heiles):
+    """The same orbit gets the same indicators wherever it sits in a batch (its deviation
+    vector depends on the seed and its own state only)."""
+    seeds = np.array([hh_seed(y, 1 / 8) for y in (-0.1, 0.0, 0.1, 0.2, 0.3)])
+    a = chaos_indicators(henon_heiles, seeds, 200.0, dt=0.02, vectors=1)
+    order = np.array([3, 0, 4, 1, 2])
+    b = chaos_indicators(henon_heiles, seeds[order], 200.0, dt=0.02, vectors=1)
+    c = chaos_indicators(henon_heiles, seeds[2:3], 200.0, dt=0.02, vectors=1)
+    np.testing.assert_array_equal(a.megno[order], b.megno)
+    assert c.megno[0] == a.megno[2]
 
 
 def test_escaping_orbit_is_flagged_and_batch_survives(quartic):
     # with c = 0, d = 1 an orbit with energy above 0 reaches infinity in finite time
     r = chaos_indicators(quartic, [[0.0, 0.0], [2.0, 3.0]], 50.0, dt=0.01, params={"c": 0.0, "d": 1.0})
     assert not r.escaped[0] and r.escaped[1]
-    assert r.status[1] in ("became non-finite", "implicit step did not converge", "left the box")
+    assert r.status_text[1] in ("non-finite state", "implicit step did not converge", "left the box")
     assert np.isfinite(r.lyapunov[0])
 
 

@@ -1,8 +1,11 @@
-"""Generated numba kernels against sympy's own evaluation, refusal of what cannot compile,
-and the on-disk cache across processes."""
+"""Generated kernels against sympy's own evaluation, refusal of what cannot compile, the
+on-disk cache across processes and its repair, and generated source that carries no user
+text."""
 
 import json
+import math
 import os
+import stat
 import subprocess
 import sys
 import textwrap
@@ -13,23 +16,14 @@ import sympy as sp
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
+import phaselab
 from phaselab import Hamiltonian, models
-from phaselab.codegen import compile_system
-from phaselab.codegen.kernels import module_source
+from phaselab.codegen import compile_kernel
+from phaselab.codegen.kernels import kernel_code, kernel_functions_source, kernel_source
 from phaselab.errors import ModelError
 
 DIGITS = 30
-
-
-# compile_system memoizes per process by system key, so a system compiled by an earlier test
-# module keeps the module it loaded from that module's cache folder; the cross-process cache
-# test below runs in subprocesses with a folder of its own for that reason.
-@pytest.fixture(scope="module", autouse=True)
-def _cache(tmp_path_factory):
-    mp = pytest.MonkeyPatch()
-    mp.setenv("PHASELAB_CACHE_DIR", str(tmp_path_factory.mktemp("kernels")))
-    yield
-    mp.undo()
+NAMES = ("hamiltonian", "grad_q", "grad_p", "vector_field", "jacobian")
 
 
 def sympy_reference(H: Hamiltonian, z, prm):
@@ -50,14 +44,22 @@ def sympy_reference(H: Hamiltonian, z, prm):
 
 
 def kernel_values(c, n, z, prm):
+    """The compiled kernel's five results at one state."""
     z = np.asarray(z, dtype=float)
-    gq, gp, f, J = np.empty(n), np.empty(n), np.empty(2 * n), np.empty((2 * n, 2 * n))
-    h = c.hamiltonian(z, prm)
-    c.grad_q(z, prm, gq)
-    c.grad_p(z, prm, gp)
-    c.vector_field(z, prm, f)
-    c.jacobian(z, prm, J)
-    return h, gq, gp, f, J
+    return tuple(c.call(name, z, prm) for name in NAMES)
+
+
+def inlined_values(H, n, z, prm):
+    """The same five results from the text of the inlined kernels run as plain Python (the
+    decorator replaced by the identity): both generated forms must agree to the last bit."""
+    space = {"math": math, "njit": lambda **kw: (lambda f: f)}
+    exec(compile(kernel_functions_source(kernel_code(H)), "<inlined kernels>", "exec"), space)  # noqa: S102
+    z = np.asarray(z, dtype=float)
+    outs = (np.zeros(n), np.zeros(n), np.zeros(2 * n), np.zeros((2 * n, 2 * n)))
+    h = space["k_hamiltonian"](z, prm)
+    for name, out in zip(NAMES[1:], outs):
+        space[f"k_{name}"](z, prm, out)
+    return (h, *outs)
 
 
 def assert_close(got, want, scale):
@@ -91,7 +93,7 @@ def test_kernels_agree_with_sympy_on_random_polynomials(H, zs, kval):
     n = H.dof
     z = np.array(zs[: 2 * n])
     prm = H.param_values({"k": kval})
-    c = compile_system(H)
+    c = compile_kernel(H)
     got = kernel_values(c, n, z, prm)
     want = sympy_reference(H, z, prm)
     # the size of the terms bounds round-off where terms cancel
@@ -112,12 +114,14 @@ def test_every_supported_function_compiles_and_matches_sympy():
          + sp.Max(q1, q2**2) + sp.Min(q1, q2)
          + sp.erf(q1) + sp.erfc(q2) + sp.pi * q1 * q2 + sp.E * q2)
     H = Hamiltonian((p1**2 + p2**2) / 2 + p1 * p2 * q1 / 3 + V, [q1, q2], [p1, p2], name="functions")
-    c = compile_system(H)
+    c = compile_kernel(H)
     for z in ([0.3, 0.7, 0.2, -0.1], [-0.55, 1.3, 1.0, 0.4], [0.9, -0.8, -0.3, 0.6]):
         got = kernel_values(c, 2, z, H.param_values())
         want = sympy_reference(H, z, H.param_values())
         for g, w in zip(got, want):
             assert_close(g, w, 100.0)
+        for g, w in zip(got, inlined_values(H, 2, z, H.param_values())):
+            np.testing.assert_array_equal(g, w)
 
 
 @pytest.mark.parametrize("expr, piece", [
@@ -134,7 +138,7 @@ def test_unsupported_function_is_a_model_error(expr, piece):
          "zeta": sp.zeta(q), "floor": sp.floor(q), "gamma": sp.gamma(q)}[expr]
     H = Hamiltonian(p**2 / 2 + V, [q], [p], name=f"with_{expr}")
     with pytest.raises(ModelError, match=piece):
-        compile_system(H)
+        compile_kernel(H)
 
 
 @pytest.mark.parametrize("V, what", [
@@ -147,30 +151,63 @@ def test_unrepresentable_numbers_are_model_errors(V, what):
     q, p = sp.symbols("q p", real=True)
     H = Hamiltonian(p**2 / 2 + V, [q], [p])
     with pytest.raises(ModelError, match=what):
-        module_source(H)
+        kernel_code(H)
 
 
 def test_time_dependent_needs_extension():
     with pytest.raises(ModelError, match="extended"):
-        compile_system(models.driven_pendulum())
+        compile_kernel(models.driven_pendulum())
 
 
 def test_parameters_do_not_recompile_and_memo():
     H = models.pendulum()
-    c = compile_system(H)
-    assert compile_system(H) is c
-    out = np.empty(2)
+    c = compile_kernel(H)
+    assert compile_kernel(H) is c
     for g in (1.0, 9.81, 20.0):
-        c.vector_field(np.array([0.3, 0.1]), H.param_values({"g": g}), out)
+        out = c.call("vector_field", np.array([0.3, 0.1]), H.param_values({"g": g}))
         assert out[1] == pytest.approx(-g * np.sin(0.3), rel=1e-14)  # -m g l sin q with m = l = 1
-    assert len(c.vector_field.signatures) == 1
 
 
-def test_generated_module_header():
+def test_generated_file_is_named_by_the_system_key():
     H = models.henon_heiles()
-    c = compile_system(H)
-    assert c.NDOF == 2 and c.NSTATE == 4 and c.NPARAM == 0 and c.KIND == "flow"
-    assert os.path.basename(c.path).startswith("flow_" + H.key[:12])
+    c = compile_kernel(H)
+    assert os.path.basename(c.path).startswith("kernel_flow_" + H.key[:16])
+
+
+# ------------------------------------------------------------------ no user text in code
+HOSTILE = [
+    '"""\nimport os; os.system("echo owned")\n"""',
+    "'''; raise SystemExit; '''",
+    "x\n__import__('os').system('id')",
+    "\\u0022\\u0022\\u0022 injected",
+    "$\\frac{$ title } {",
+]
+
+
+@pytest.mark.parametrize("name", HOSTILE)
+def test_generated_source_holds_no_user_text(name):
+    """A name, a title or a parameter description reaches no generated source: the kernel
+    module and the loop modules of systems named with hostile text contain none of it (the
+    key and the printed expressions are all they hold)."""
+    from phaselab.compute.compiled import closure, generic_source, inlined_source
+
+    H = Hamiltonian("px**2/2 + x**4/4 + w*x", ["x"], ["px"], params={"w": 0.5}, name=name)
+    M = phaselab.AreaPreservingMap(["q + p", "p - k*sin(q + p)"], ["q"], ["p"], params={"k": 0.3},
+                                   name=name)
+    files = closure(["sections", "tangent"])
+    for system in (H, M):
+        code = kernel_code(system)
+        for text in (kernel_source(code), inlined_source(code, files), generic_source(files)):
+            for piece in {name, name.strip(), name[:12]}:
+                assert piece not in text
+            compile(text, "<generated>", "exec")  # well-formed Python
+
+
+def test_name_does_not_change_the_generated_module():
+    a = Hamiltonian("p**2/2 + q**2/2", ["q"], ["p"], name="plain")
+    b = Hamiltonian("p**2/2 + q**2/2", ["q"], ["p"], name='"""; import os #')
+    assert a.key == b.key
+    assert kernel_source(kernel_code(a)) == kernel_source(kernel_code(b))
 
 
 # ------------------------------------------------------------------ disk cache
@@ -183,35 +220,69 @@ CHILD = textwrap.dedent("""
     if sys.argv[1] == "warm":
         def refuse(*a, **k):
             raise AssertionError("source generated again on a warm start")
-        kernels.module_source = refuse
+        kernels.kernel_code = refuse
     H = models.henon_heiles()
-    c = kernels.compile_system(H)
-    out = np.empty(4)
-    c.vector_field(np.array([0.1, 0.2, 0.3, 0.4]), H.param_values(), out)
-    st = c.vector_field.stats
-    print(json.dumps({"path": c.path, "hits": sum(st.cache_hits.values()),
-                      "misses": sum(st.cache_misses.values()), "out": out.tolist(),
-                      "seconds": time.perf_counter() - t0}))
+    c = kernels.compile_kernel(H)
+    out = c.call("vector_field", np.array([0.1, 0.2, 0.3, 0.4]), H.param_values())
+    print(json.dumps({"path": c.path, "out": out.tolist(), "seconds": time.perf_counter() - t0,
+                      "code": c.code is not None}))
 """)
 
 
-@pytest.mark.slow
+def _child(env, mode):
+    res = subprocess.run([sys.executable, "-c", CHILD, mode], env=env, capture_output=True, text=True,
+                         timeout=300)
+    assert res.returncode == 0, res.stderr
+    return json.loads(res.stdout.strip().splitlines()[-1]), res.stderr
+
+
 def test_second_process_uses_disk_cache(tmp_path):
     env = dict(os.environ, PHASELAB_CACHE_DIR=str(tmp_path / "cache"))
-
-    def run(mode):
-        res = subprocess.run([sys.executable, "-c", CHILD, mode], env=env, capture_output=True, text=True,
-                             timeout=300)
-        assert res.returncode == 0, res.stderr
-        return json.loads(res.stdout.strip().splitlines()[-1])
-
-    cold = run("cold")
-    assert cold["misses"] >= 1 and cold["hits"] == 0
-    warm = run("warm")
-    assert warm["path"] == cold["path"] and os.path.exists(warm["path"])
-    # numba found the machine code on disk: a cache hit, no compilation
-    assert warm["hits"] >= 1 and warm["misses"] == 0
+    cold, _ = _child(env, "cold")
+    assert cold["code"]
+    warm, _ = _child(env, "warm")   # would raise if the source were generated again
+    assert warm["path"] == cold["path"] and os.path.exists(warm["path"]) and not warm["code"]
     assert warm["out"] == cold["out"]
     # reference: Hamilton's equations of Henon-Heiles written out
     x, y, px, py = 0.1, 0.2, 0.3, 0.4
     np.testing.assert_allclose(cold["out"], [px, py, -x - 2 * x * y, -y - x**2 + y**2], rtol=1e-15)
+    # the folder is private to the user
+    assert stat.S_IMODE(os.stat(tmp_path / "cache").st_mode) & (stat.S_IWGRP | stat.S_IWOTH) == 0
+
+
+def test_damaged_or_edited_module_is_rebuilt(tmp_path):
+    """A truncated file, an edited file and garbage in numba's cached machine code each lead
+    to a rebuild with the right numbers, never to an error or to other numbers."""
+    folder = tmp_path / "cache"
+    env = dict(os.environ, PHASELAB_CACHE_DIR=str(folder))
+    first, _ = _child(env, "cold")
+    path = next(folder.glob("kernel_*.py"))
+    text = path.read_text()
+    path.write_text(text[: len(text) // 2])                        # truncated
+    again, _ = _child(env, "cold")
+    assert again["out"] == first["out"] and path.read_text() == text
+    path.write_text(text.replace("out[2] = ", "out[2] = 1.0 + "))   # edited to give other numbers
+    again, _ = _child(env, "cold")
+    assert again["out"] == first["out"] and path.read_text() == text
+    damaged = list((folder / "__pycache__").glob(path.stem + ".*"))
+    assert damaged
+    for item in damaged:                                             # corrupt machine code
+        item.write_bytes(b"not a pickle")
+    again, _ = _child(env, "cold")
+    assert again["out"] == first["out"]
+
+
+def test_unusable_cache_folder_falls_back_with_a_warning(tmp_path):
+    """A cache path that is a file, and a read-only folder, give a one-line warning and a
+    private temporary cache; the computation still answers."""
+    afile = tmp_path / "a-file"
+    afile.write_text("not a folder")
+    res, err = _child(dict(os.environ, PHASELAB_CACHE_DIR=str(afile)), "cold")
+    assert "not usable" in err and "it is a file" in err
+    assert res["out"][0] == pytest.approx(0.3)
+    if os.geteuid() != 0:  # root writes anywhere, so a read-only folder cannot be shown as root
+        ro = tmp_path / "ro"
+        ro.mkdir()
+        os.chmod(ro, 0o500)
+        res, err = _child(dict(os.environ, PHASELAB_CACHE_DIR=str(ro)), "cold")
+        assert "not usable" in err

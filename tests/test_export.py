@@ -52,7 +52,7 @@ def standard_map_section(K=0.97, n_orbits=7, n_iter=120, ragged=True):
     seeds = np.column_stack([np.linspace(0.3, 5.9, n_orbits), np.linspace(0.1, 6.0, n_orbits)])
     return Section(points=pts, counts=counts.astype(int), times=times, axes=(0, 1),
                    axis_symbols=(THETA, P_THETA), energy_error=np.zeros(n_orbits),
-                   escaped=np.zeros(n_orbits, bool), seeds=seeds, plane={"kind": "map"},
+                   status=np.zeros(n_orbits, int), seeds=seeds, plane={"kind": "map"},
                    energy=None, method="map", dt=float("nan"), system=RotorMap(),
                    params={"K": K})
 
@@ -81,7 +81,7 @@ def molecule_section(energy=1.0, n_orbits=5, n_cross=40):
     pts = np.stack([np.zeros_like(y), y, px, py], axis=-1)
     sec = Section(points=pts, counts=np.full(n_orbits, n_cross), times=np.broadcast_to(t, y.shape).copy(),
                   axes=(1, 3), axis_symbols=(H.coords[1], H.momenta[1]),
-                  energy_error=np.zeros(n_orbits), escaped=np.zeros(n_orbits, bool),
+                  energy_error=np.zeros(n_orbits), status=np.zeros(n_orbits, int),
                   seeds=pts[:, 0].copy(), plane={"kind": "plane", "index": 0, "value": 0.0, "direction": 1},
                   energy=energy, method="exact", dt=0.01, system=H, params={"wy": WY})
     return sec, H
@@ -225,7 +225,7 @@ def test_csv_ragged_section_rebuilds(tmp_path, rotor):
 def test_netcdf_round_trip(tmp_path, molecule):
     pytest.importorskip("xarray")
     sec, H = molecule
-    sec.escaped[3] = True
+    sec.status[3] = 1  # left the box
     sec.energy_error[:] = np.linspace(1e-12, 3e-10, sec.n_orbits)
     out = save(sec, tmp_path / "molecule.nc")
     meta, data = read_section_netcdf(out)
@@ -290,7 +290,7 @@ def test_unknown_suffix_and_empty_section_raise(tmp_path, rotor):
         save(rotor, tmp_path / "rotor")
     with pytest.raises(PhaselabError, match="take no options"):
         save(rotor, tmp_path / "rotor.csv", dpi=300)
-    empty = standard_map_section(n_orbits=2, n_iter=3)
+    empty = standard_map_section(n_orbits=2, n_iter=3, ragged=False)
     empty.points[:] = np.nan
     empty.counts[:] = 0
     for suffix in (".png", ".csv", ".html"):

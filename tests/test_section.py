@@ -128,7 +128,7 @@ def test_escapes_and_bad_seeds_are_flagged_while_the_rest_survive(hh):
                    [0.0, -0.1, 0.35, 0.05]])
     sec = section(hh, Z0, {"x": 0.0}, crossings=50, dt=0.02, box=4.0)
     np.testing.assert_array_equal(sec.escaped, [False, True, True, False])
-    from phaselab.compute.section import LEFT_BOX, NOT_FINITE
+    from phaselab.compute.codes import LEFT_BOX, NOT_FINITE
     assert sec.status[1] == LEFT_BOX and sec.status[2] == NOT_FINITE
     assert sec.counts[0] == 50 and sec.counts[3] == 50 and sec.counts[2] == 0
     assert sec.counts[1] < 50
@@ -153,20 +153,29 @@ def test_invalid_shell_seeds_are_left_out_with_a_warning(hh):
 
 def test_bad_arguments(hh):
     Z0 = np.array([[0.0, 0.1, 0.3, 0.0]])
-    with pytest.raises(ModelError, match="x, y, px, py"):
+    with pytest.raises(ParameterError, match="x, y, px, py"):
         section(hh, Z0, {"r": 0.0})
     with pytest.raises(ParameterError, match="direction"):
         section(hh, Z0, {"x": 0.0}, direction=0)
     with pytest.raises(ParameterError, match="crossings"):
         section(hh, Z0, {"x": 0.0}, crossings=0)
-    with pytest.raises(ModelError, match=r"shape \(n_orbits, 4\)"):
+    with pytest.raises(ParameterError, match=r"shape \(4,\) or \(n_orbits, 4\)"):
         section(hh, np.zeros((2, 3)), {"x": 0.0})
     with pytest.raises(ModelError, match="autonomous"):
         section(hh, Z0, "stroboscopic")
-    with pytest.raises(ModelError, match="axes|axis"):
+    with pytest.raises(ParameterError, match="axes|axis"):
         section(hh, Z0, {"x": 0.0}, axes=("y", "q"))
-    with pytest.raises(IntegrationError, match="adaptive"):
+    with pytest.raises(ParameterError, match="adaptive"):
         section(hh, Z0, {"x": 0.0}, method="dop853")
+    # requests whose size is known up front are refused before any memory is taken
+    with pytest.raises(ParameterError, match="GiB.*set_limits"):
+        section(hh, Z0, {"x": 0.0}, crossings=10**8, dt=0.02, t_max=100.0)
+    with pytest.raises(ParameterError, match="set_limits"):
+        section(hh, Z0, {"x": 0.0}, crossings=10**20, dt=0.02)
+    with pytest.raises(ParameterError, match="dt must be positive"):
+        section(hh, Z0, {"x": 0.0}, dt=-0.1)
+    with pytest.raises(ParameterError, match="box"):
+        section(hh, Z0, {"x": 0.0}, box="big")
     sec = section(hh, Z0, {"x": 0.0}, crossings=2, dt=0.02, axes=("y", "px"))
     assert sec.axes == (1, 2)
 

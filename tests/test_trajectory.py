@@ -199,9 +199,9 @@ def test_output_times_array(hh):
     tr = trajectory(hh, [0.1, 0, 0, 0.2], times, dt=0.05)
     np.testing.assert_array_equal(tr.t, times)
     assert tr.dt == pytest.approx(0.05)
-    with pytest.raises(IntegrationError, match="does not divide"):
+    with pytest.raises(ParameterError, match="does not divide"):
         trajectory(hh, [0.1, 0, 0, 0.2], times, dt=0.07)
-    with pytest.raises(IntegrationError, match="equally spaced"):
+    with pytest.raises(ParameterError, match="equally spaced"):
         trajectory(hh, [0.1, 0, 0, 0.2], [0.0, 1.0, 3.0])
     tr = trajectory(hh, [0.1, 0, 0, 0.2], times)  # default step fitted to the spacing
     assert round(0.5 / tr.dt, 9) == int(round(0.5 / tr.dt))
@@ -239,14 +239,19 @@ def test_henon_heiles_escape_above_saddle_energy(hh):
     assert np.isnan(tr.states[2, 0, 2]) and np.all(np.isnan(tr.states[2, 1:]))
 
 
-def test_box_as_arrays_and_bad_boxes(hh):
-    tr = trajectory(hh, [[0.0, 0.0, 0.0, 0.63], [0.0, 0.0, 0.2, 0.0]], 40.0, dt=0.01,
-                    box=([-2, -2, -np.inf, -np.inf], [2, 2, np.inf, np.inf]))
+def test_box_forms_and_bad_boxes(hh):
+    """One accepted form of box for every call: a radius, or bounds by name."""
+    seeds = [[0.0, 0.0, 0.0, 0.63], [0.0, 0.0, 0.2, 0.0]]
+    tr = trajectory(hh, seeds, 40.0, dt=0.01, box={"x": (-2, 2), "y": (-2, 2)})
     assert tr.escaped.tolist() == [True, False]
-    with pytest.raises(IntegrationError, match="unknown state component 'z'"):
+    tr = trajectory(hh, seeds, 40.0, dt=0.01, box=2.0)
+    assert tr.escaped.tolist() == [True, False]
+    with pytest.raises(ParameterError, match="unknown box component 'z'"):
         trajectory(hh, [0.1, 0, 0, 0], 1.0, box={"z": (-1, 1)})
-    with pytest.raises(IntegrationError, match="lo < hi"):
+    with pytest.raises(ParameterError, match="low < high"):
         trajectory(hh, [0.1, 0, 0, 0], 1.0, box={"x": (1, -1)})
+    with pytest.raises(ParameterError, match="box must be a positive number"):
+        trajectory(hh, [0.1, 0, 0, 0], 1.0, box=([-2, -2, -1, -1], [2, 2, 1, 1]))
 
 
 def test_non_converging_implicit_step_stops_only_that_orbit(quartic):
@@ -262,27 +267,34 @@ def test_non_converging_implicit_step_stops_only_that_orbit(quartic):
 # --------------------------------------------------------------------------- bad input
 def test_bad_input_errors(hh, quartic, bead):
     z = [0.1, 0.0, 0.0, 0.2]
-    with pytest.raises(ModelError, match=r"shape \(4,\)"):
+    with pytest.raises(ParameterError, match=r"shape \(4,\)"):
         trajectory(hh, [0.1, 0.2, 0.3], 1.0)
-    with pytest.raises(ModelError, match="numbers"):
+    with pytest.raises(ParameterError, match="numbers"):
         trajectory(hh, ["a", 0, 0, 0], 1.0)
-    with pytest.raises(IntegrationError, match="separable|T\\(p\\) \\+ V\\(q\\)"):
+    with pytest.raises(ModelError, match="separable|T\\(p\\) \\+ V\\(q\\)"):
         trajectory(quartic, [0.3, 0.1], 1.0, method="leapfrog")
-    with pytest.raises(IntegrationError, match="unknown method 'rk45'"):
+    with pytest.raises(ParameterError, match="unknown method 'rk45'"):
         trajectory(hh, z, 1.0, method="rk45")
     with pytest.raises(ParameterError, match="unknown parameters: g"):
         trajectory(bead, [0.1, 0.0], 1.0, params={"g": 9.8})
     with pytest.raises(ParameterError, match="finite"):
         trajectory(bead, [0.1, 0.0], 1.0, params={"w": np.inf})
-    for bad in (0.0, -0.1, np.nan, np.inf, "big"):
-        with pytest.raises(IntegrationError, match="dt"):
+    for bad in (0.0, -0.1, np.nan, np.inf, "big", [0.05], 1e-301):
+        with pytest.raises(ParameterError, match="dt"):
             trajectory(hh, z, 1.0, dt=bad)
-    with pytest.raises(IntegrationError, match="empty"):
+    with pytest.raises(ParameterError, match="empty"):
         trajectory(hh, z, (1.0, 1.0))
-    with pytest.raises(IntegrationError, match="save_every"):
+    with pytest.raises(ParameterError, match="save_every"):
         trajectory(hh, z, 1.0, save_every=0)
-    with pytest.raises(IntegrationError, match="map"):
+    with pytest.raises(ParameterError, match="save_every"):
+        trajectory(hh, z, 1.0, save_every=-1)
+    with pytest.raises(ParameterError, match="map"):
         trajectory(_FakeMap(), z, 1.0)
+    # bounds known up front: steps and memory
+    with pytest.raises(ParameterError, match="integrator steps.*set_limits"):
+        trajectory(hh, z, 1e6, dt=1e-9)
+    with pytest.raises(ParameterError, match="maxit"):
+        trajectory(hh, z, 1.0, maxit=0)
 
 
 class _FakeMap:
@@ -317,3 +329,33 @@ def test_status_tells_why_orbits_stopped():
     assert tr.status.tolist()[:2] == [1, 0]   # left the box, ran to the end
     assert tr.status[2] == 2                  # non-finite seed
     assert tr.escape_time[0] == pytest.approx(2.0, abs=0.011)
+
+
+def test_one_bad_orbit_does_not_refuse_the_batch(hh):
+    """The step probe is per orbit: an orbit for which dt is far too large is flagged and
+    not integrated, the others are returned (energy errors: common practice for a
+    fourth-order method, error ~ (omega dt)^4 small at E = 1e-4)."""
+    from phaselab.compute.codes import OK, STEP_TOO_LARGE
+
+    small = [0.0, 0.01, 0.01, 0.0]          # E ~ 1e-4
+    fast = [0.0, 0.0, 30.0, 30.0]           # E = 900: leaves at once, huge error per step
+    with pytest.warns(RuntimeWarning, match="too large"):
+        tr = trajectory(hh, [small, fast, small], 5.0, dt=0.3, method="yoshida4")
+    assert tr.status.tolist() == [OK, STEP_TOO_LARGE, OK]
+    assert tr.status_text[1].startswith("step too large")
+    assert np.all(np.isfinite(tr.states[0])) and np.all(np.isnan(tr.states[1, 1:]))
+
+
+def test_orbit_through_a_singularity_is_not_reported_ok():
+    """A radial Kepler orbit (zero angular momentum) falls into r = 0, where H is singular:
+    the integration cannot keep H (common practice), and the status says so."""
+    from phaselab.compute.codes import OK
+
+    kepler = phaselab.Hamiltonian("(px**2 + py**2)/2 - 1/sqrt(x**2 + y**2)", ["x", "y"], ["px", "py"])
+    circular = [1.0, 0.0, 0.0, 1.0]        # r = 1, v = 1: a circle, H = -1/2 exactly
+    radial = [1.0, 0.0, 0.0, 0.0]
+    with pytest.warns(RuntimeWarning):
+        tr = trajectory(kepler, [circular, radial], 3.0, dt=0.01, method="yoshida4", check_step=False)
+    assert tr.status[0] == OK
+    assert tr.status[1] != OK
+    assert tr.status_text[1] in ("relative energy error above the limit", "non-finite state")

@@ -1,5 +1,5 @@
-"""Code generation: sympy expressions to numba-compiled kernels, cached on disk per system."""
+"""Code generation: sympy expressions to compiled kernels, cached on disk per system."""
 
-from phaselab.codegen.kernels import CompiledSystem, compile_system
+from phaselab.codegen.kernels import KERNELS, CompiledKernel, compile_kernel, kernel_code
 
-__all__ = ["CompiledSystem", "compile_system"]
+__all__ = ["KERNELS", "CompiledKernel", "compile_kernel", "kernel_code"]

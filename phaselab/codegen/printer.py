@@ -8,6 +8,7 @@ Every symbol of a system is renamed to a safe identifier (``s0, s1, ...`` for th
 from __future__ import annotations
 
 import math
+from dataclasses import dataclass
 from typing import Sequence
 
 import sympy as sp
@@ -154,20 +155,35 @@ def unpack_lines(n_state: int, n_params: int, used: set[str], indent: str = "   
     return lines
 
 
-def print_assignments(targets: Sequence[str], exprs: Sequence[sp.Expr], indent: str = "    ",
-                      skip_zero: bool = False, what: str = "expression",
-                      display: dict | None = None) -> tuple[list[str], set[str]]:
-    """Print ``target = expr`` lines with shared common subexpressions.
+@dataclass
+class Printed:
+    """Printed code of a group of expressions with shared common subexpressions.
+
+    Attributes
+    ----------
+    temps : list of (str, str)
+        ``(name, code)`` of each shared subexpression, in evaluation order.
+    values : list of (int, str)
+        ``(index, code)`` of each output (its position in the expression list); outputs
+        that are identically zero are left out when ``skip_zero`` was given.
+    used : set of str
+        The names of state (``s0..``) and parameter (``k0..``) symbols the code reads.
+    """
+
+    temps: list
+    values: list
+    used: set
+
+
+def print_expressions(exprs: Sequence[sp.Expr], skip_zero: bool = False, what: str = "expression",
+                      display: dict | None = None) -> Printed:
+    """Print expressions (already in renamed symbols) as numba-compilable Python code.
 
     Parameters
     ----------
-    targets : sequence of str
-        Left-hand sides (``out[0]``, ``return`` for a single returned value).
     exprs : sequence of sympy.Expr
-        Expressions already in renamed symbols.
     skip_zero : bool
-        Leave out assignments whose expression is identically zero (the output array is
-        zeroed beforehand).
+        Leave out outputs that are identically zero (the caller zeroes the output first).
     what : str
         What the expressions are, for error messages.
     display : dict, optional
@@ -175,31 +191,25 @@ def print_assignments(targets: Sequence[str], exprs: Sequence[sp.Expr], indent: 
 
     Returns
     -------
-    lines : list of str
-    used : set of str
-        The names of state and parameter symbols the lines read.
+    Printed
     """
-    pairs = [(t, e) for t, e in zip(targets, exprs) if not (skip_zero and e == 0)]
+    pairs = [(i, e) for i, e in enumerate(exprs) if not (skip_zero and e == 0)]
     if not pairs:
-        return [], set()
-    for target, e in pairs:
-        check_supported(e, f"{what} ({target})", display)
+        return Printed([], [], set())
+    for i, e in pairs:
+        check_supported(e, f"{what} (entry {i})", display)
     replacements, reduced = sp.cse([e for _, e in pairs], symbols=sp.numbered_symbols("c"),
                                    optimizations="basic")
     printer = KernelPrinter()
-    lines: list[str] = []
+    temps, values = [], []
     used: set[str] = set()
     for sym, sub in replacements:
         used |= {s.name for s in sub.free_symbols}
-        lines.append(f"{indent}{sym} = {_checked(printer, sub)}")
-    for (target, _), e in zip(pairs, reduced):
+        temps.append((str(sym), _checked(printer, sub)))
+    for (i, _), e in zip(pairs, reduced):
         used |= {s.name for s in e.free_symbols}
-        code = _checked(printer, e)
-        if target == "return":
-            lines.append(f"{indent}return {code}")
-        else:
-            lines.append(f"{indent}{target} = {code}")
-    return lines, used
+        values.append((i, _checked(printer, e)))
+    return Printed(temps, values, used)
 
 
 def _checked(printer: KernelPrinter, expr: sp.Expr) -> str:

@@ -1,23 +1,18 @@
 """The integrators phaselab offers, their coefficients, and the choice by structure.
 
 The compiled steppers live in ``compute/loops/steppers.py``; this module holds the method
-table (what each name means, its order, whether it is symplectic and explicit) and builds
-the compiled module of a system with every loop in it.
+table (what each name means, its order, whether it is symplectic and explicit), the
+automatic choice, and the default step.
 """
 
 from __future__ import annotations
 
 from dataclasses import dataclass
-from functools import lru_cache
-from pathlib import Path
 
 import numpy as np
 
-from phaselab.errors import IntegrationError
-
-COMPOSITION, GAUSS, RK4 = 0, 1, 2
-
-LOOPS_DIR = Path(__file__).parent / "loops"
+from phaselab.compute.codes import COMPOSITION, GAUSS, RK4
+from phaselab.errors import ModelError, ParameterError
 
 
 @dataclass(frozen=True)
@@ -140,16 +135,18 @@ def get_method(name: str, system=None) -> Method:
 
     Raises
     ------
-    IntegrationError
-        For an unknown name, or a splitting method asked for a non-separable H.
+    ParameterError
+        For an unknown name.
+    ModelError
+        A splitting method asked for a non-separable H.
     """
     key = ALIASES.get(str(name).lower(), str(name).lower())
     if key not in METHODS:
-        raise IntegrationError(
+        raise ParameterError(
             f"unknown method {name!r}; choose one of {', '.join([*METHODS, *ADAPTIVE])} or 'auto'")
     method = METHODS[key]
     if system is not None and method.separable_only and not system.is_separable:
-        raise IntegrationError(
+        raise ModelError(
             f"method {method.name!r} is an explicit splitting method and needs H = T(p) + V(q), "
             f"but this H mixes coordinates and momenta ({system.expr}); use 'gauss6', "
             "'gauss4' or 'implicit_midpoint' (or method='auto')")
@@ -162,27 +159,6 @@ def choose_method(system) -> Method:
     return METHODS["yoshida4"] if system.is_separable else METHODS["gauss6"]
 
 
-@lru_cache(maxsize=None)
-def loop_source(name: str) -> str:
-    """The text of ``compute/loops/<name>.py``."""
-    path = LOOPS_DIR / f"{name}.py"
-    if not path.exists():
-        raise IntegrationError(f"no compiled loop file named {name!r} in {LOOPS_DIR}")
-    return path.read_text()
-
-
-def compiled(system, *loops: str):
-    """The compiled module of an autonomous flow or a map: its kernels, the steppers, and the
-    named extra loop files of ``compute/loops`` (e.g. ``compiled(H, "sections")``).
-
-    Each distinct set of loops is its own generated module, cached on disk.
-    """
-    from phaselab.codegen import compile_system
-
-    names = ("steppers",) + tuple(sorted(set(loops) - {"steppers"}))
-    return compile_system(system, extra_sources=tuple(loop_source(n) for n in names))
-
-
 STEPS_PER_PERIOD = {2: 200, 4: 100, 6: 60, 8: 40}
 """Steps per shortest linearised period used by :func:`default_step`, by method order."""
 
@@ -190,8 +166,8 @@ STEPS_PER_PERIOD = {2: 200, 4: 100, 6: 60, 8: 40}
 def linear_time_scale(cs, states: np.ndarray, prm: np.ndarray) -> float:
     """The shortest linearised time scale over the given states, in model time units.
 
-    For each state the Jacobian of the vector field (the compiled ``jacobian`` kernel) is
-    evaluated and the largest eigenvalue modulus ``lam`` taken; elliptic directions give
+    For each state the Jacobian of the vector field (the compiled ``jacobian`` kernel, through
+    ``cs.evaluate``) is evaluated and the largest eigenvalue modulus ``lam`` taken; elliptic directions give
     ``lam = omega`` (rad per unit time), hyperbolic ones the growth rate. Returns
     ``2 pi / max(lam)`` over the states, or ``inf`` where every eigenvalue vanishes (a free
     particle) or no state is finite.
@@ -202,10 +178,7 @@ def linear_time_scale(cs, states: np.ndarray, prm: np.ndarray) -> float:
         return np.inf
     if len(Z) > 2000:  # a spread sample is enough for a time scale
         Z = Z[np.linspace(0, len(Z) - 1, 2000).astype(int)]
-    m = Z.shape[1]
-    jac = np.zeros((len(Z), m, m))
-    for i, z in enumerate(Z):
-        cs.jacobian(np.ascontiguousarray(z), prm, jac[i])
+    jac = cs.evaluate("jacobian", Z, prm)
     jac = jac[np.all(np.isfinite(jac), axis=(1, 2))]
     if len(jac) == 0:
         return np.inf
@@ -228,8 +201,8 @@ def default_step(cs, method: Method, states: np.ndarray, prm: np.ndarray, span: 
 
     Parameters
     ----------
-    cs : CompiledSystem
-        The compiled autonomous system (``jacobian`` kernel).
+    cs : LoopSet
+        The compiled autonomous system (see :func:`phaselab.compute.compiled.loops`).
     method : Method
     states : ndarray, shape (n_orbits, 2n)
     prm : ndarray, shape (n_params,)

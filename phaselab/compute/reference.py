@@ -9,9 +9,9 @@ from __future__ import annotations
 
 import numpy as np
 
-from phaselab.errors import IntegrationError
+from phaselab.compute.codes import LEFT_BOX, NOT_CONVERGED, NOT_FINITE, OK
+from phaselab.errors import ParameterError
 
-OK, LEFT_BOX, NOT_FINITE, FAILED = 0, 1, 2, 3
 
 
 def _box_events(lo: np.ndarray, hi: np.ndarray) -> list:
@@ -52,7 +52,7 @@ def solve_reference(cs, Z0: np.ndarray, prm: np.ndarray, times: np.ndarray, rtol
         NaN after an orbit stopped.
     energy : ndarray, shape (n_orbits, n_times)
     status : ndarray of int, shape (n_orbits,)
-        ``OK``, ``LEFT_BOX``, ``NOT_FINITE`` or ``FAILED`` (the solver gave up).
+        ``OK``, ``LEFT_BOX``, ``NOT_FINITE`` or ``NOT_CONVERGED`` (the solver gave up).
     stop_time : ndarray, shape (n_orbits,)
         Time where an orbit stopped (NaN for completed ones).
     """
@@ -60,7 +60,7 @@ def solve_reference(cs, Z0: np.ndarray, prm: np.ndarray, times: np.ndarray, rtol
 
     for name, v in (("rtol", rtol), ("atol", atol)):
         if not (np.isfinite(v) and v > 0):
-            raise IntegrationError(f"{name} must be a positive finite number, got {v!r}")
+            raise ParameterError(f"{name} must be a positive finite number, got {v!r}")
     Z0 = np.atleast_2d(np.asarray(Z0, dtype=float))
     n_orb, m = Z0.shape
     times = np.asarray(times, dtype=float)
@@ -71,10 +71,10 @@ def solve_reference(cs, Z0: np.ndarray, prm: np.ndarray, times: np.ndarray, rtol
     status = np.zeros(n_orb, dtype=np.int64)
     stop_time = np.full(n_orb, np.nan)
 
+    kernel = cs.kernel
+
     def rhs(t, y):
-        out = np.empty(m)
-        cs.vector_field(np.ascontiguousarray(y, dtype=np.float64), prm, out)
-        return out
+        return kernel.call("vector_field", y, prm)
 
     events = _box_events(lo, hi)
     for o in range(n_orb):
@@ -90,15 +90,15 @@ def solve_reference(cs, Z0: np.ndarray, prm: np.ndarray, times: np.ndarray, rtol
                             rtol=rtol, atol=atol, events=events or None)
         k = sol.y.shape[1]
         states[o, :k] = sol.y.T
-        for i in range(k):
-            energy[o, i] = cs.hamiltonian(np.ascontiguousarray(sol.y[:, i]), prm)
+        if k:
+            energy[o, :k] = cs.evaluate("hamiltonian", sol.y.T, prm)
         if sol.status == 1:
             status[o] = LEFT_BOX
             hit = [e[0] for e in sol.t_events if len(e)]
             stop_time[o] = min(hit, key=lambda x: abs(x - times[0])) if hit else sol.t[-1]
         elif sol.status != 0:
             last = sol.y[:, -1] if k else z0
-            status[o] = NOT_FINITE if not np.all(np.isfinite(last)) else FAILED
+            status[o] = NOT_FINITE if not np.all(np.isfinite(last)) else NOT_CONVERGED
             stop_time[o] = sol.t[-1] if len(sol.t) else times[0]
         bad = ~np.all(np.isfinite(states[o]), axis=1)
         if bad.any() and status[o] == OK:

@@ -22,26 +22,23 @@ from typing import Mapping
 
 import numpy as np
 
-from phaselab.model.params import finite_number
-from phaselab.compute.integrators import (ADAPTIVE, choose_method, compiled, default_step,
-                                          get_method)
+from phaselab.compute import codes, inputs
+from phaselab.compute.codes import NO_CROSSING, NOT_CONVERGED, OK, TIME_LIMIT
+from phaselab.compute.compiled import loops
+from phaselab.compute.integrators import default_step
 from phaselab.compute.results import Section
-from phaselab.compute.seeds import ShellSeeds, state_index
-from phaselab.errors import IntegrationError, ModelError, ParameterError
+from phaselab.compute.seeds import ShellSeeds
+from phaselab.errors import ModelError, ParameterError
 
-__all__ = ["section", "Section", "STATUS_TEXT"]
-
-# status codes of compute/loops/steppers.py and compute/loops/sections.py
-OK, LEFT_BOX, NOT_FINITE, NOT_CONVERGED, TIME_LIMIT = 0, 1, 2, 3, 8
-STATUS_TEXT = {OK: "ok", LEFT_BOX: "left the box", NOT_FINITE: "non-finite state",
-               NOT_CONVERGED: "implicit step did not converge", TIME_LIMIT: "reached t_max"}
+__all__ = ["section", "Section"]
 
 DEFAULT_STEPS_PER_CROSSING = 5000
 """With ``t_max=None`` an orbit may take at most this many steps per requested crossing."""
 
 
 def section(system, seeds, plane=None, direction=+1, crossings=300, params=None, dt=None,
-            method="auto", t_max=None, energy=None, axes=None, box=None) -> Section:
+            method="auto", t_max=None, energy=None, axes=None, box=None,
+            energy_limit=codes.ENERGY_LIMIT) -> Section:
     """A surface of section of an ensemble of orbits.
 
     Parameters
@@ -49,7 +46,8 @@ def section(system, seeds, plane=None, direction=+1, crossings=300, params=None,
     system : Hamiltonian or AreaPreservingMap
     seeds : ShellSeeds or array_like, shape (n_orbits, 2n) or (2n,)
         Initial states. For a :class:`~phaselab.compute.seeds.ShellSeeds` the energy is
-        taken from it and invalid seeds are left out with a warning naming them.
+        taken from it and invalid seeds are left out with a warning naming them. A seed
+        with NaN or infinite entries gets status ``NOT_FINITE`` and no points.
     plane : mapping, "stroboscopic" or None
         ``{"x": 0.0}``: the plane where the named coordinate or momentum equals the value
         (autonomous flows). ``"stroboscopic"`` or ``None`` for a time-periodic H (``H.period``
@@ -67,8 +65,8 @@ def section(system, seeds, plane=None, direction=+1, crossings=300, params=None,
         ``"auto"`` or a fixed-step method of :data:`phaselab.compute.integrators.METHODS`.
     t_max : float, optional
         Time cap per orbit (whichever of ``crossings`` and ``t_max`` comes first). Default
-        ``crossings * 5000 * dt``. An orbit with no crossing at all before ``t_max`` has
-        count 0 and a :class:`RuntimeWarning` names it (the plane may not be crossed).
+        ``crossings * 5000 * dt``. An orbit with no crossing at all before ``t_max`` gets
+        status ``NO_CROSSING`` and a :class:`RuntimeWarning` names it.
     energy : float, optional
         The shell energy to record when ``seeds`` is a plain array.
     axes : pair of str, optional
@@ -76,9 +74,12 @@ def section(system, seeds, plane=None, direction=+1, crossings=300, params=None,
         ``q_i`` (or momentum ``p_i``): the first other coordinate and its momentum
         (x = 0 -> (y, py)); ``(q, p)`` for one degree of freedom and for maps.
     box : float or mapping, optional
-        Escape region: a number R stops an orbit once any component has |z_j| > R; a
-        mapping ``{name: (low, high)}`` bounds the named components. Escaped or non-finite
-        orbits are stopped and flagged in ``escaped``; the rest of the batch continues.
+        Escape region (:func:`phaselab.compute.inputs.box`): a number R bounds every
+        component to ``[-R, R]``, a mapping ``{name: (low, high)}`` the named ones. Orbits
+        leaving it are stopped and flagged; the rest of the batch continues.
+    energy_limit : float
+        An orbit whose worst relative energy error exceeds this gets status
+        ``ENERGY_DRIFT`` (its points are kept): the step was too large for it.
 
     Returns
     -------
@@ -87,20 +88,18 @@ def section(system, seeds, plane=None, direction=+1, crossings=300, params=None,
 
     Raises
     ------
-    ModelError
-        Unknown plane or axis names, a plane given for a driven system (or none for an
-        autonomous one), a non-periodic driven system.
     ParameterError
-        ``direction`` not +-1, ``crossings`` < 1, bad ``dt``, ``t_max`` or ``box``.
-    IntegrationError
-        An adaptive or unknown method, or a splitting method for a non-separable H.
+        Bad arguments: unknown plane or axis names, ``direction`` not +-1, ``crossings`` < 1,
+        bad ``dt``, ``t_max`` or ``box``, an unknown or adaptive method, a request over
+        :data:`phaselab.compute.inputs.LIMITS`.
+    ModelError
+        A plane given for a driven system (or none for an autonomous one), a non-periodic
+        driven system, a splitting method for a non-separable H.
     """
-    if direction not in (1, -1):
-        raise ParameterError(f"direction must be +1 or -1, got {direction!r}")
-    if isinstance(crossings, bool) or not isinstance(crossings, (int, np.integer)) or crossings < 1:
-        raise ParameterError(f"crossings must be a positive integer, got {crossings!r}")
-    crossings = int(crossings)
-    Z0, energy, excluded = _seed_array(system, seeds, energy)
+    direction = inputs.direction(direction)
+    crossings = inputs.count(crossings, "crossings")
+    energy_limit = inputs.positive_number(energy_limit, "energy_limit")
+    Z0, energy = _seed_array(system, seeds, energy)
     prm = system.param_values(params)
     pdict = dict(zip((p.name for p in system.parameters), prm.tolist()))
     if getattr(system, "kind", "flow") == "map":
@@ -111,19 +110,19 @@ def section(system, seeds, plane=None, direction=+1, crossings=300, params=None,
         out = _plane_section(system, Z0, plane, direction, crossings, prm, pdict, dt, method, t_max,
                              energy, axes, box)
     else:
-        raise ModelError(f"plane must be a mapping such as {{'x': 0.0}} or 'stroboscopic', got {plane!r}")
-    _warn_stopped(out)
+        raise ParameterError(f"plane must be a mapping such as {{'x': 0.0}} or 'stroboscopic', got {plane!r}")
+    drift = (out.status == OK) & (out.energy_error > energy_limit)
+    out.status[drift] = codes.ENERGY_DRIFT
+    _warn_stopped(out, energy_limit)
     return out
 
 
 # ----------------------------------------------------------------------------- inputs
 def _seed_array(system, seeds, energy):
-    n_state = len(system.state_symbols)
-    excluded = []
     if isinstance(seeds, ShellSeeds):
-        if energy is not None and not math.isclose(float(energy), seeds.energy, rel_tol=1e-12, abs_tol=1e-15):
+        if energy is not None and not math.isclose(inputs.number(energy, "energy"), seeds.energy,
+                                                    rel_tol=1e-12, abs_tol=1e-15):
             raise ParameterError(f"energy={energy} contradicts the seeds' shell energy {seeds.energy}")
-        energy = seeds.energy
         excluded = seeds.invalid()
         if excluded:
             shown = "; ".join(f"#{i}: {r}" for i, r in excluded[:5])
@@ -131,72 +130,22 @@ def _seed_array(system, seeds, energy):
             warnings.warn(f"{len(excluded)} of {seeds.n_points} seeds have no state on the shell "
                           f"E = {seeds.energy:g} and are left out: {shown}{more}", RuntimeWarning,
                           stacklevel=3)
-        Z0 = seeds.valid_states()
-    else:
-        try:
-            Z0 = np.array(seeds, dtype=np.float64)
-        except (TypeError, ValueError):
-            raise ModelError(f"seeds must be an array of states or ShellSeeds, got {type(seeds).__name__}") from None
-        if energy is not None:
-            energy = float(energy)
-    if Z0.ndim == 1:
-        Z0 = Z0[None, :]
-    if Z0.ndim != 2 or Z0.shape[1] != n_state:
-        names = ", ".join(s.name for s in system.state_symbols)
-        raise ModelError(f"seeds must have shape (n_orbits, {n_state}) with columns ({names}), got {Z0.shape}")
-    if Z0.shape[0] == 0:
-        raise ModelError("no seeds to integrate" + (" (every shell seed was invalid)" if excluded else ""))
-    return np.ascontiguousarray(Z0), energy, excluded
-
-
-def _method(system, method):
-    if str(method).lower() == "auto":
-        return choose_method(system)
-    if str(method).lower() in ADAPTIVE:
-        raise IntegrationError(f"sections use the compiled fixed-step methods; {method!r} is adaptive "
-                               "(scipy) and not available here; choose e.g. 'yoshida6' or 'gauss6'")
-    return get_method(method, system)
+        if not seeds.valid.any():
+            raise ParameterError("no seeds to integrate (every shell seed was invalid)")
+        return inputs.states(seeds.valid_states(), len(system.state_symbols)), seeds.energy
+    names = [s.name for s in system.state_symbols]
+    Z0 = inputs.states(seeds, len(names), names)
+    return Z0, None if energy is None else inputs.number(energy, "energy")
 
 
 def _step(cs, method, dt, Z0, prm, span, period=None):
-    if dt is None:
+    h = inputs.step(dt)
+    if h is None:
         h = default_step(cs, method, Z0, prm, span, period)
         if not (np.isfinite(h) and h > 0):
             raise ParameterError("no time scale to choose a step from (the linearisation at the seeds "
                                  "has no frequency); give dt=...")
-        return float(h)
-    try:
-        h = float(dt)
-    except (TypeError, ValueError):
-        raise ParameterError(f"dt must be a positive number, got {dt!r}") from None
-    if not (np.isfinite(h) and h > 0):
-        raise ParameterError(f"dt must be positive and finite, got {dt!r}")
-    return h
-
-
-def _box(system, box, n_state):
-    lo = np.full(n_state, -np.inf)
-    hi = np.full(n_state, np.inf)
-    if box is None:
-        return lo, hi
-    if isinstance(box, Mapping):
-        for name, bounds in box.items():
-            j = state_index(system, name, "box component")
-            try:
-                a, b = (float(bounds[0]), float(bounds[1]))
-            except (TypeError, ValueError, IndexError):
-                raise ParameterError(f"box bounds of {name!r} must be (low, high), got {bounds!r}") from None
-            if not a < b:
-                raise ParameterError(f"box bounds of {name!r} need low < high, got {bounds!r}")
-            lo[j], hi[j] = a, b
-        return lo, hi
-    try:
-        r = float(box)
-    except (TypeError, ValueError):
-        raise ParameterError(f"box must be a positive number or a mapping name -> (low, high), got {box!r}") from None
-    if not r > 0:
-        raise ParameterError(f"box must be positive, got {box!r}")
-    return np.full(n_state, -r), np.full(n_state, r)
+    return float(h)
 
 
 def _axes(system, axes, default):
@@ -204,8 +153,8 @@ def _axes(system, axes, default):
         i, j = default
     else:
         if isinstance(axes, str) or len(axes) != 2:
-            raise ModelError(f"axes must be two state names such as ('y', 'py'), got {axes!r}")
-        i, j = (state_index(system, a, "axis") for a in axes)
+            raise ParameterError(f"axes must be two state names such as ('y', 'py'), got {axes!r}")
+        i, j = (inputs.state_index(system, a, "axis") for a in axes)
     syms = system.state_symbols
     return (int(i), int(j)), (syms[i], syms[j])
 
@@ -221,40 +170,33 @@ def _default_plane_axes(n_dof, k):
 def _t_max(t_max, crossings, h):
     if t_max is None:
         return crossings * DEFAULT_STEPS_PER_CROSSING * h
-    try:
-        t = float(t_max)
-    except (TypeError, ValueError):
-        raise ParameterError(f"t_max must be a positive number, got {t_max!r}") from None
-    if not (t > 0 and np.isfinite(t)):
-        raise ParameterError(f"t_max must be positive and finite, got {t_max!r}")
-    return t
+    return inputs.positive_number(t_max, "t_max")
 
 
-def _warn_stopped(sec: Section):
-    codes = sec.status
-    if codes is None:
-        return
-    never = np.flatnonzero((codes == TIME_LIMIT) & (sec.counts == 0))
+def _warn_stopped(sec: Section, energy_limit: float):
+    codes_ = sec.status
+    never = np.flatnonzero(codes_ == NO_CROSSING)
     if never.size:
-        warnings.warn(f"{never.size} orbit(s) never crossed the plane {sec.plane} before t_max "
+        warnings.warn(f"{never.size} orbit(s) never crossed the plane {sec.describe_plane()} before t_max "
                       f"(orbits {', '.join(map(str, never[:10]))}{' ...' if never.size > 10 else ''}); "
                       "their count is 0", RuntimeWarning, stacklevel=3)
-    failed = np.flatnonzero(codes == NOT_CONVERGED)
+    failed = np.flatnonzero(codes_ == NOT_CONVERGED)
     if failed.size:
         warnings.warn(f"{failed.size} orbit(s) stopped because an implicit step did not converge "
                       f"(orbits {', '.join(map(str, failed[:10]))}); they are flagged as escaped; "
                       "try a smaller dt", RuntimeWarning, stacklevel=3)
+    drift = np.flatnonzero(codes_ == codes.ENERGY_DRIFT)
+    if drift.size:
+        warnings.warn(f"{drift.size} orbit(s) have a relative energy error above {energy_limit:g} "
+                      f"(orbits {', '.join(map(str, drift[:10]))}{' ...' if drift.size > 10 else ''}); "
+                      "their points are kept but inaccurate: use a smaller dt", RuntimeWarning,
+                      stacklevel=3)
 
 
 def _threads() -> int:
     import numba
 
     return int(numba.get_num_threads())
-
-
-def _finish(sec: Section, status: np.ndarray) -> Section:
-    sec.status = status
-    return sec
 
 
 # ----------------------------------------------------------------------------- flows
@@ -264,19 +206,20 @@ def _plane_section(system, Z0, plane, direction, crossings, prm, pdict, dt, meth
         raise ModelError(f"{system.name!r} depends on time explicitly; use plane='stroboscopic' "
                          "(and give H a driving period), or section its .extended() system")
     if len(plane) != 1:
-        raise ModelError(f"plane must fix exactly one state component, e.g. {{'x': 0.0}}, got {dict(plane)!r}")
+        raise ParameterError(f"plane must fix exactly one state component, e.g. {{'x': 0.0}}, got {dict(plane)!r}")
     (name, value), = plane.items()
-    k = state_index(system, name, "plane component")
-    value = finite_number(value, f"plane value of {name!r}")
-    meth = _method(system, method)
-    cs = compiled(system, "sections")
+    k = inputs.state_index(system, name, "plane component")
+    value = inputs.number(value, f"plane value of {name!r}")
+    meth = inputs.method(system, method)
+    lo, hi = inputs.box(system, box)
+    ax, syms = _axes(system, axes, _default_plane_axes(system.dof, k))
+    cs = loops(system, "sections")
     span = np.inf if t_max is None else _t_max(t_max, crossings, 1.0)
     h = _step(cs, meth, dt, Z0, prm, span)
     t_cap = _t_max(t_max, crossings, h)
-    max_steps = int(min(math.ceil(t_cap / h - 1e-9), 2 ** 62))
-    n_state = Z0.shape[1]
-    lo, hi = _box(system, box, n_state)
-    n = Z0.shape[0]
+    n, n_state = Z0.shape
+    inputs.check_budget(n, t_cap / h, n * crossings * (n_state + 1), "section")
+    max_steps = int(math.ceil(t_cap / h - 1e-9))
     pts = np.full((n, crossings, n_state), np.nan)
     tms = np.full((n, crossings), np.nan)
     counts = np.zeros(n, dtype=np.int64)
@@ -284,21 +227,19 @@ def _plane_section(system, Z0, plane, direction, crossings, prm, pdict, dt, meth
     status = np.zeros(n, dtype=np.int64)
     stop = np.zeros(n)
     args = (prm, h, max_steps, k, value, float(direction), crossings, meth.kind, meth.weights, meth.A,
-            meth.b, 1e-14, 50, lo, hi, pts, tms, counts, err, status, stop)
+            meth.b, codes.IMPLICIT_TOL, codes.IMPLICIT_MAXIT, lo, hi, pts, tms, counts, err, status, stop)
     groups = min(n, _threads())
     if groups <= 1:
         cs.section_plane_orbits_serial(Z0, *args)
     else:
         bounds = np.linspace(0, n, groups + 1).round().astype(np.int64)
         cs.section_plane_orbits(Z0, bounds, *args)
-    escaped = (status == LEFT_BOX) | (status == NOT_FINITE) | (status == NOT_CONVERGED)
-    ax, syms = _axes(system, axes, _default_plane_axes(system.dof, k))
+    status[(status == TIME_LIMIT) & (counts == 0)] = NO_CROSSING
     sym = system.state_symbols[k]
-    sec = Section(points=pts, counts=counts, times=tms, axes=ax, axis_symbols=syms, energy_error=err,
-                  escaped=escaped, seeds=Z0, plane={"kind": "plane", "index": k, "name": sym.name,
-                                                    "value": value, "direction": int(direction)},
-                  energy=energy, method=meth.name, dt=h, system=system, params=pdict)
-    return _finish(sec, status)
+    return Section(points=pts, counts=counts, times=tms, axes=ax, axis_symbols=syms, energy_error=err,
+                   status=status, seeds=Z0, plane={"kind": "plane", "index": k, "name": sym.name,
+                                                   "value": value, "direction": int(direction)},
+                   energy=energy, method=meth.name, dt=h, system=system, params=pdict)
 
 
 def _strobe_section(system, Z0, crossings, prm, pdict, dt, method, t_max, axes, box):
@@ -311,11 +252,15 @@ def _strobe_section(system, Z0, crossings, prm, pdict, dt, method, t_max, axes, 
     T = system.driving_period(pdict)
     ext = system.extended()
     n = system.dof
-    meth = _method(ext, method)
-    cs = compiled(ext, "sections")
+    meth = inputs.method(ext, method)
+    ax, syms = _axes(system, axes, (0, n))
+    lo, hi = inputs.box(system, box, positions=list(range(n)) + [n + 1 + i for i in range(n)])
+    cs = loops(ext, "sections")
     X0 = _extended_seeds(system, Z0, pdict)
     span = crossings * T if t_max is None else _t_max(t_max, crossings, 1.0)
     h0 = _step(cs, meth, dt, X0, prm, span, T)
+    if T / h0 > 1e12:
+        raise ParameterError(f"dt = {h0:g} is too small for the driving period {T:g}")
     steps = max(1, int(math.ceil(T / h0 - 1e-9)))
     h = T / steps
     n_periods = crossings
@@ -324,27 +269,21 @@ def _strobe_section(system, Z0, crossings, prm, pdict, dt, method, t_max, axes, 
         if n_periods < 1:
             raise ParameterError(f"t_max={t_max} is shorter than one driving period T = {T:g}")
     N = Z0.shape[0]
-    lo_o, hi_o = _box(system, box, 2 * n)
-    lo = np.concatenate([lo_o[:n], [-np.inf], lo_o[n:], [-np.inf]])
-    hi = np.concatenate([hi_o[:n], [np.inf], hi_o[n:], [np.inf]])
+    inputs.check_budget(N, float(steps) * n_periods, N * n_periods * (2 * n + 2) * 2, "section")
     ext_pts = np.full((N, n_periods, 2 * n + 2), np.nan)
     counts = np.zeros(N, dtype=np.int64)
     err = np.zeros(N)
     status = np.zeros(N, dtype=np.int64)
-    cs.section_strobe_orbits(np.ascontiguousarray(X0), prm, h, steps, n_periods, meth.kind, meth.weights,
-                             meth.A, meth.b, 1e-14, 50, lo, hi, ext_pts, counts, err, status)
+    cs.section_strobe_orbits(X0, prm, h, steps, n_periods, meth.kind, meth.weights, meth.A, meth.b,
+                             codes.IMPLICIT_TOL, codes.IMPLICIT_MAXIT, lo, hi, ext_pts, counts, err, status)
     pts = np.full((N, crossings, 2 * n), np.nan)
     pts[:, :n_periods, :n] = ext_pts[:, :, :n]
     pts[:, :n_periods, n:] = ext_pts[:, :, n + 1:2 * n + 1]
-    times = np.full((N, crossings), np.nan)
     idx = np.arange(crossings)
-    times[:, :] = np.where(idx[None, :] < counts[:, None], (idx[None, :] + 1) * T, np.nan)
-    escaped = status != OK
-    ax, syms = _axes(system, axes, (0, n))
-    sec = Section(points=pts, counts=counts, times=times, axes=ax, axis_symbols=syms, energy_error=err,
-                  escaped=escaped, seeds=Z0, plane={"kind": "stroboscopic", "period": T},
-                  energy=None, method=meth.name, dt=h, system=system, params=pdict)
-    return _finish(sec, status)
+    times = np.where(idx[None, :] < counts[:, None], (idx[None, :] + 1) * T, np.nan)
+    return Section(points=pts, counts=counts, times=times, axes=ax, axis_symbols=syms, energy_error=err,
+                   status=status, seeds=Z0, plane={"kind": "stroboscopic", "period": T},
+                   energy=None, method=meth.name, dt=h, system=system, params=pdict)
 
 
 def _extended_seeds(system, Z0, pdict):
@@ -393,18 +332,18 @@ def map_wrapping(system) -> tuple[np.ndarray, np.ndarray]:
 def _map_section(system, Z0, crossings, prm, pdict, energy, axes, box):
     n_state = Z0.shape[1]
     period, low = map_wrapping(system)
-    lo, hi = _box(system, box, n_state)
-    cs = compiled(system, "sections")
+    lo, hi = inputs.box(system, box)
+    nd = n_state // 2
+    ax, syms = _axes(system, axes, (0, nd) if n_state >= 2 else (0, 0))
     N = Z0.shape[0]
+    inputs.check_budget(N, crossings, N * crossings * n_state, "section")
+    cs = loops(system, "sections")
     pts = np.full((N, crossings, n_state), np.nan)
     counts = np.zeros(N, dtype=np.int64)
     status = np.zeros(N, dtype=np.int64)
     cs.section_map_orbits(Z0, prm, crossings, period, low, lo, hi, pts, counts, status)
     idx = np.arange(crossings)
     times = np.where(idx[None, :] < counts[:, None], (idx[None, :] + 1).astype(float), np.nan)
-    nd = n_state // 2
-    ax, syms = _axes(system, axes, (0, nd) if n_state >= 2 else (0, 0))
-    sec = Section(points=pts, counts=counts, times=times, axes=ax, axis_symbols=syms,
-                  energy_error=np.zeros(N), escaped=status != OK, seeds=Z0, plane={"kind": "map"},
-                  energy=energy, method="map", dt=float("nan"), system=system, params=pdict)
-    return _finish(sec, status)
+    return Section(points=pts, counts=counts, times=times, axes=ax, axis_symbols=syms,
+                   energy_error=np.zeros(N), status=status, seeds=Z0, plane={"kind": "map"},
+                   energy=energy, method="map", dt=float("nan"), system=system, params=pdict)

@@ -34,6 +34,7 @@ from pathlib import Path
 
 import numpy as np
 
+from phaselab.compute.codes import LEFT_BOX, OK, STATUS
 from phaselab.errors import PhaselabError
 from phaselab.export.describe import _plain, check_section, section_metadata
 
@@ -60,6 +61,7 @@ def _per_orbit(section) -> dict:
         "counts": field("counts", (n,), np.int64, 0),
         "energy_error": field("energy_error", (n,), float, np.nan),
         "escaped": field("escaped", (n,), bool, False),
+        "status": field("status", (n,), np.int64, 0),
         "seeds": field("seeds", (n, ncomp), float, np.nan),
     }
 
@@ -169,9 +171,9 @@ def read_section_csv(path):
         "time": values[:, 2].copy(),
         "states": values[:, 3:].copy(),
     }
-    for key in ("counts", "energy_error", "escaped", "seeds"):
+    for key in ("counts", "energy_error", "escaped", "status", "seeds"):
         if key in meta:
-            dtype = {"counts": np.int64, "escaped": bool}.get(key, float)
+            dtype = {"counts": np.int64, "escaped": bool, "status": np.int64}.get(key, float)
             meta[key] = np.asarray(meta[key], dtype=dtype)
             if key == "seeds":
                 meta[key] = meta[key].reshape(-1, ncomp)
@@ -221,6 +223,7 @@ def write_section_netcdf(section, path):
             "counts": (("orbit",), extra["counts"].astype(np.int32)),
             "energy_error": (("orbit",), extra["energy_error"]),
             "escaped": (("orbit",), extra["escaped"].astype(np.int8)),
+            "status": (("orbit",), extra["status"].astype(np.int32)),
             "seeds": (("orbit", "component"), extra["seeds"]),
         },
         coords={
@@ -232,6 +235,8 @@ def write_section_netcdf(section, path):
     )
     ds["points"].attrs["description"] = "full states at the crossings; NaN past an orbit's last crossing"
     ds["escaped"].attrs["description"] = "1 where the orbit left the box or went non-finite"
+    ds["status"].attrs["description"] = "why each orbit stopped: " + "; ".join(
+        f"{k} {v}" for k, v in STATUS.items())
     try:
         ds.to_netcdf(path)
     except ValueError as exc:  # xarray says so when no NetCDF engine is installed
@@ -272,6 +277,8 @@ def read_section_netcdf(path):
     meta["counts"] = ds["counts"].values.astype(np.int64)
     meta["energy_error"] = ds["energy_error"].values.astype(float)
     meta["escaped"] = ds["escaped"].values.astype(bool)
+    if "status" in ds:
+        meta["status"] = ds["status"].values.astype(np.int64)
     meta["seeds"] = ds["seeds"].values.astype(float)
     meta["n_orbits"] = int(ds.sizes["orbit"])
     meta["max_crossings"] = int(ds.sizes["crossing"])
@@ -313,9 +320,12 @@ def load_section(path):
     axes = tuple(int(a) for a in meta["axes"])
     symbols = tuple(sp.Symbol(names[a], real=True) for a in axes)
     energy = meta.get("energy")
+    status = meta.get("status")
+    if status is None:  # files written before status codes were recorded
+        status = np.where(meta["escaped"], LEFT_BOX, OK)
     return Section(points=points, counts=meta["counts"], times=times, axes=axes,
                    axis_symbols=symbols, energy_error=meta["energy_error"],
-                   escaped=meta["escaped"], seeds=meta["seeds"], plane=meta.get("plane", {}),
+                   status=status, seeds=meta["seeds"], plane=meta.get("plane", {}),
                    energy=None if energy is None else float(energy),
                    method=meta.get("method", ""), dt=float(meta.get("dt", math.nan)),
                    system=None, params=dict(meta.get("params", {})))

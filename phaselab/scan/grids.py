@@ -15,6 +15,7 @@ from typing import Callable, Mapping
 
 import numpy as np
 
+from phaselab.compute import inputs
 from phaselab.errors import ModelError, ParameterError
 from phaselab.scan.runner import run_batches
 
@@ -162,12 +163,11 @@ class ChaosMap:
         return self.values.reshape(self.grid.shape)
 
 
-def _indicator_batch(batch, system, t, indicator, params, options):
+def _indicator_batch(states, system, t, indicator, params, seed, options):
     from phaselab.compute.chaos import chaos_indicators
 
-    states, deviations = batch
-    result = chaos_indicators(system, states, t, params=params, vectors=deviations.shape[2],
-                              deviations=deviations, **options)
+    result = chaos_indicators(system, states, t, params=params, vectors=2 if indicator == "sali" else 1,
+                              seed=seed, **options)
     return getattr(result, indicator), result.escaped
 
 
@@ -200,8 +200,7 @@ def chaos_map(system, seeds, t, indicator: str = "megno", params=None, batch_siz
     """
     if indicator not in INDICATORS:
         raise ModelError(f"unknown indicator {indicator!r}; choose one of {', '.join(INDICATORS)}")
-    if int(batch_size) < 1:
-        raise ModelError(f"batch_size must be at least 1, got {batch_size}")
+    batch_size = inputs.count(batch_size, "batch_size")
     grid = seeds if isinstance(seeds, StateGrid) else None
     states = np.asarray(grid.states if grid else seeds, dtype=float)
     if states.ndim != 2:
@@ -209,13 +208,11 @@ def chaos_map(system, seeds, t, indicator: str = "megno", params=None, batch_siz
     valid = grid.valid.copy() if grid else np.all(np.isfinite(states), axis=1)
     todo = np.flatnonzero(valid)
     system.param_values(params)  # refuse unknown parameters before any work
-    # one deviation vector draw for the whole set, so results do not depend on batching
-    vectors = 2 if indicator == "sali" else 1
-    width = 2 * system.dof if getattr(system, "kind", "flow") == "flow" else states.shape[1]
-    deviations = np.random.default_rng(seed).standard_normal((len(states), width, vectors))
-    batches = [(states[idx], deviations[idx])
-               for idx in (todo[i:i + batch_size] for i in range(0, len(todo), int(batch_size)))]
-    work = partial(_indicator_batch, system=system, t=t, indicator=indicator, params=params, options=options)
+    # each orbit's deviation vectors depend on the seed and its own state only, so results
+    # do not depend on batching
+    batches = [states[idx] for idx in (todo[i:i + batch_size] for i in range(0, len(todo), batch_size))]
+    work = partial(_indicator_batch, system=system, t=t, indicator=indicator, params=params, seed=seed,
+                   options=options)
     results = run_batches(work, batches, client=client, progress=progress, desc=indicator)
     values = np.full(len(states), np.nan)
     escaped = np.zeros(len(states), dtype=bool)

@@ -195,21 +195,7 @@ def join_sections(parts):
     """One :class:`Section` from sections of consecutive orbit batches."""
     from phaselab.compute.results import Section
 
-    if len(parts) == 1:
-        return parts[0]
-    first = parts[0]
-
-    def cat(name):
-        return np.concatenate([getattr(p, name) for p in parts], axis=0)
-
-    out = Section(points=cat("points"), counts=cat("counts"), times=cat("times"), axes=first.axes,
-                  axis_symbols=first.axis_symbols, energy_error=cat("energy_error"),
-                  escaped=cat("escaped"), seeds=cat("seeds"), plane=first.plane, energy=first.energy,
-                  method=first.method, dt=first.dt, system=first.system, params=first.params)
-    status = [getattr(p, "_status", None) for p in parts]
-    if all(s is not None for s in status):
-        object.__setattr__(out, "_status", np.concatenate(status))
-    return out
+    return Section.concat(parts)
 
 
 def write_outputs(study: Study, sec, out_dir) -> list[Path]:

@@ -354,7 +354,7 @@ class PortraitView(_View):
         times[~np.isfinite(pts[..., 0])] = np.nan
         err = np.nanmax(np.abs(tr.energy_error), axis=1)
         return Section(points=pts, counts=counts, times=times, axes=self.axes, axis_symbols=self.axis_symbols,
-                       energy_error=err, escaped=tr.escaped, seeds=np.asarray(states, float),
+                       energy_error=err, status=tr.status, seeds=np.asarray(states, float),
                        plane={"kind": "trajectory", "duration": self.duration}, energy=None,
                        method=tr.method, dt=tr.dt, system=self.system, params=tr.params)
 

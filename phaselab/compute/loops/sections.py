@@ -1,10 +1,9 @@
 """Compiled surfaces of section: plane crossings refined by Henon's step, stroboscopic
 sampling of driven systems, and iteration of area-preserving maps.
 
-This file is not imported as a module. Its text is compiled together with a system's
-kernels and ``compute/loops/steppers.py`` (``advance``, ``make_work``, ``check_state`` and
-the status codes ``OK``, ``LEFT_BOX``, ``NOT_FINITE``, ``NOT_CONVERGED`` come from there).
-Names defined here start with ``section_`` so they cannot clash with other loop files.
+Loop text (see ``steppers.py`` for what the assembled module provides); ``advance``,
+``make_work`` and ``check_state`` come from ``steppers.py``. Names defined here start with
+``section_`` so they cannot clash with other loop files.
 
 Henon's step (M. Henon, Physica D 5, 412 (1982)): after a step over which
 ``g = z[k] - value`` changed sign, take ``s = z[k]`` as the independent variable,
@@ -15,55 +14,55 @@ Richardson extrapolation (RK4 error ~ m^-4). ``z[k]`` of the result is ``value``
 as it is the independent variable.
 """
 
-SECTION_TIME_LIMIT = 8     # reached t_max before the requested number of crossings
-SECTION_REFINE_TOL = 1e-12  # relative agreement of successive Henon sub-step results
-SECTION_REFINE_MAX = 256    # most RK4 sub-steps of the Henon integration
+REQUIRES = ("steppers",)
+PROVIDES = ("section_plane_orbits", "section_plane_orbits_serial", "section_strobe_orbits",
+            "section_map_orbits")
 
 
 @njit(cache=True, nogil=True)
-def section_henon_rhs(z, k, prm, f, out):
+def section_henon_rhs(kern, z, k, prm, f, out):
     """``out = f(z) / f_k(z)``; returns ``dt/ds = 1 / f_k(z)``."""
-    vector_field(z, prm, f)
+    vector_field(kern, z, prm, f)
     inv = 1.0 / f[k]
-    for j in range(NSTATE):
+    for j in range(nstate(z)):
         out[j] = f[j] * inv
     return inv
 
 
 @njit(cache=True, nogil=True)
-def section_henon_rk4(z, t, ds, k, prm, rw):
+def section_henon_rk4(kern, z, t, ds, k, prm, rw):
     """One RK4 step of length ``ds`` in ``s = z[k]`` (in place); returns the new time.
     ``rw`` rows: 0 f, 1..4 slopes, 5 stage state."""
-    m = NSTATE
+    m = nstate(z)
     f = rw[0]
     k1 = rw[1]
     k2 = rw[2]
     k3 = rw[3]
     k4 = rw[4]
     zs = rw[5]
-    a1 = section_henon_rhs(z, k, prm, f, k1)
+    a1 = section_henon_rhs(kern, z, k, prm, f, k1)
     for j in range(m):
         zs[j] = z[j] + 0.5 * ds * k1[j]
-    a2 = section_henon_rhs(zs, k, prm, f, k2)
+    a2 = section_henon_rhs(kern, zs, k, prm, f, k2)
     for j in range(m):
         zs[j] = z[j] + 0.5 * ds * k2[j]
-    a3 = section_henon_rhs(zs, k, prm, f, k3)
+    a3 = section_henon_rhs(kern, zs, k, prm, f, k3)
     for j in range(m):
         zs[j] = z[j] + ds * k3[j]
-    a4 = section_henon_rhs(zs, k, prm, f, k4)
+    a4 = section_henon_rhs(kern, zs, k, prm, f, k4)
     for j in range(m):
         z[j] += ds * (k1[j] + 2.0 * k2[j] + 2.0 * k3[j] + k4[j]) / 6.0
     return t + ds * (a1 + 2.0 * a2 + 2.0 * a3 + a4) / 6.0
 
 
 @njit(cache=True, nogil=True)
-def section_refine(z0, t0, k, value, prm, out, rw):
+def section_refine(kern, z0, t0, k, value, prm, out, rw):
     """The state where the orbit through ``z0`` (at time ``t0``) reaches ``z[k] = value``.
 
     Writes the state into ``out`` (shape (2n,)); returns ``(t, status)``. ``rw`` is scratch
     of shape (8, 2n).
     """
-    m = NSTATE
+    m = nstate(z0)
     prev = rw[6]
     ds = value - z0[k]
     scale = 1.0
@@ -73,7 +72,7 @@ def section_refine(z0, t0, k, value, prm, out, rw):
             scale = a
     for j in range(m):
         out[j] = z0[j]
-    t = section_henon_rk4(out, t0, ds, k, prm, rw)
+    t = section_henon_rk4(kern, out, t0, ds, k, prm, rw)
     n_sub = 1
     while True:
         for j in range(m):
@@ -85,7 +84,7 @@ def section_refine(z0, t0, k, value, prm, out, rw):
         t = t0
         d = ds / n_sub
         for i in range(n_sub):
-            t = section_henon_rk4(out, t, d, k, prm, rw)
+            t = section_henon_rk4(kern, out, t, d, k, prm, rw)
         diff = abs(t - tprev)
         for j in range(m):
             e = abs(out[j] - prev[j])
@@ -123,12 +122,9 @@ def section_composition_coefficients(weights, h):
     return c, d
 
 
-SECTION_CHECK_EVERY = 8  # steps between escape checks (and at every crossing)
-SECTION_LANES = 4        # orbits stepped side by side on one thread
-
 
 @njit(cache=True, nogil=True)
-def section_fill_lane(l, nxt, last, Z0, Z, lane_orbit, lane_step, lane_e0, lane_g, prm, k, value,
+def section_fill_lane(kern, l, nxt, last, Z0, Z, lane_orbit, lane_step, lane_e0, lane_g, prm, k, value,
                       direction, box_lo, box_hi, counts, energy_error, status, stop_time):
     """Load the next startable orbit (index ``nxt`` .. ``last - 1``) into lane ``l``; seeds
     that are non-finite or outside the box are flagged and skipped. Returns the new ``nxt``;
@@ -144,9 +140,9 @@ def section_fill_lane(l, nxt, last, Z0, Z, lane_orbit, lane_step, lane_e0, lane_
             status[o] = st
             energy_error[o] = np.nan
             continue
-        for j in range(NSTATE):
+        for j in range(Z0.shape[1]):
             Z[l, j] = Z0[o, j]
-        lane_e0[l] = hamiltonian(Z[l], prm)
+        lane_e0[l] = hamiltonian(kern, Z[l], prm)
         lane_g[l] = direction * (Z[l, k] - value)
         lane_step[l] = 0
         energy_error[o] = 0.0
@@ -157,7 +153,7 @@ def section_fill_lane(l, nxt, last, Z0, Z, lane_orbit, lane_step, lane_e0, lane_
 
 
 @njit(cache=True, nogil=True)
-def section_plane_group(Z0, first, last, prm, h, max_steps, k, value, direction, max_cross, kind,
+def section_plane_group(kern, Z0, first, last, prm, h, max_steps, k, value, direction, max_cross, kind,
                         weights, A, b, tol, maxit, box_lo, box_hi, out_points, out_times, counts,
                         energy_error, status, stop_time):
     """Section the orbits ``first .. last - 1`` of ``Z0`` on the calling thread.
@@ -167,12 +163,12 @@ def section_plane_group(Z0, first, last, prm, h, max_steps, k, value, direction,
     done takes the next one. Each orbit stops after ``max_cross`` crossings of
     ``z[k] = value`` in the direction ``direction`` or after ``max_steps`` steps. The box and
     finiteness are checked every ``SECTION_CHECK_EVERY`` steps and before each refinement.
-    ``status[o]`` is ``OK`` (all crossings found), ``SECTION_TIME_LIMIT`` or the code that
+    ``status[o]`` is ``OK`` (all crossings found), ``TIME_LIMIT`` or the code that
     stopped the orbit; ``energy_error[o]`` the worst ``|H - H0| / max(|H0|, 1)`` at its
     crossings; ``stop_time[o]`` the time reached.
     """
-    m = NSTATE
-    n = NDOF
+    m = nstate(Z0[0])
+    n = m // 2
     L = min(SECTION_LANES, last - first)
     if L <= 0:
         return
@@ -182,7 +178,7 @@ def section_plane_group(Z0, first, last, prm, h, max_steps, k, value, direction,
     GP = np.empty((L, n))
     zc = np.empty(m)
     rw = np.empty((8, m))
-    w0 = make_work(max(b.shape[0], 1))
+    w0 = make_work(max(b.shape[0], 1), m)
     works = np.zeros((L, w0.shape[0], w0.shape[1]))
     lane_orbit = np.full(L, -1, dtype=np.int64)
     lane_step = np.zeros(L, dtype=np.int64)
@@ -194,7 +190,7 @@ def section_plane_group(Z0, first, last, prm, h, max_steps, k, value, direction,
     nxt = first
     active = 0
     for l in range(L):
-        nxt = section_fill_lane(l, nxt, last, Z0, Z, lane_orbit, lane_step, lane_e0, lane_g, prm, k,
+        nxt = section_fill_lane(kern, l, nxt, last, Z0, Z, lane_orbit, lane_step, lane_e0, lane_g, prm, k,
                                 value, direction, box_lo, box_hi, counts, energy_error, status,
                                 stop_time)
         if lane_orbit[l] >= 0:
@@ -211,17 +207,17 @@ def section_plane_group(Z0, first, last, prm, h, max_steps, k, value, direction,
                     z = Z[l]
                     gp = GP[l]
                     gq = GQ[l]
-                    grad_p(z, prm, gp)
+                    grad_p(kern, z, prm, gp)
                     for j in range(n):
                         z[j] += ci * gp[j]
-                    grad_q(z, prm, gq)
+                    grad_q(kern, z, prm, gq)
                     for j in range(n):
                         z[n + j] -= di * gq[j]
             cs = c[s]
             for l in range(L):
                 z = Z[l]
                 gp = GP[l]
-                grad_p(z, prm, gp)
+                grad_p(kern, z, prm, gp)
                 for j in range(n):
                     z[j] += cs * gp[j]
         for l in range(L):
@@ -230,7 +226,7 @@ def section_plane_group(Z0, first, last, prm, h, max_steps, k, value, direction,
                 continue
             st = OK
             if not composition:
-                st = advance(Z[l], h, prm, kind, weights, A, b, tol, maxit, works[l])
+                st = advance(kern, Z[l], h, prm, kind, weights, A, b, tol, maxit, works[l])
             lane_step[l] += 1
             stp = lane_step[l]
             g_prev = lane_g[l]
@@ -242,9 +238,9 @@ def section_plane_group(Z0, first, last, prm, h, max_steps, k, value, direction,
             done = st != OK
             if crossed and not done:
                 if -g_prev < g:
-                    tc, st = section_refine(ZP[l], (stp - 1) * h, k, value, prm, zc, rw)
+                    tc, st = section_refine(kern, ZP[l], (stp - 1) * h, k, value, prm, zc, rw)
                 else:
-                    tc, st = section_refine(Z[l], stp * h, k, value, prm, zc, rw)
+                    tc, st = section_refine(kern, Z[l], stp * h, k, value, prm, zc, rw)
                 if st != OK:
                     done = True
                 else:
@@ -252,20 +248,20 @@ def section_plane_group(Z0, first, last, prm, h, max_steps, k, value, direction,
                     for j in range(m):
                         out_points[o, cnt, j] = zc[j]
                     out_times[o, cnt] = tc
-                    e = abs(hamiltonian(zc, prm) - lane_e0[l]) / max(abs(lane_e0[l]), 1.0)
+                    e = abs(hamiltonian(kern, zc, prm) - lane_e0[l]) / max(abs(lane_e0[l]), 1.0)
                     if e > energy_error[o]:
                         energy_error[o] = e
                     counts[o] = cnt + 1
                     if cnt + 1 >= max_cross:
                         done = True
             if not done and stp >= max_steps:
-                st = SECTION_TIME_LIMIT
+                st = TIME_LIMIT
                 done = True
             if done:
                 status[o] = st
                 stop_time[o] = stp * h
                 active -= 1
-                nxt = section_fill_lane(l, nxt, last, Z0, Z, lane_orbit, lane_step, lane_e0, lane_g,
+                nxt = section_fill_lane(kern, l, nxt, last, Z0, Z, lane_orbit, lane_step, lane_e0, lane_g,
                                         prm, k, value, direction, box_lo, box_hi, counts,
                                         energy_error, status, stop_time)
                 if lane_orbit[l] >= 0:
@@ -273,7 +269,7 @@ def section_plane_group(Z0, first, last, prm, h, max_steps, k, value, direction,
 
 
 @njit(cache=True, nogil=True, parallel=True)
-def section_plane_orbits(Z0, bounds, prm, h, max_steps, k, value, direction, max_cross, kind, weights,
+def section_plane_orbits(kern, Z0, bounds, prm, h, max_steps, k, value, direction, max_cross, kind, weights,
                          A, b, tol, maxit, box_lo, box_hi, out_points, out_times, counts,
                          energy_error, status, stop_time):
     """:func:`section_plane_group` for the orbit ranges ``bounds[g] .. bounds[g + 1] - 1``
@@ -283,23 +279,23 @@ def section_plane_orbits(Z0, bounds, prm, h, max_steps, k, value, direction, max
     NaN-filled; ``counts``, ``energy_error``, ``status``, ``stop_time`` have shape (n_orbits,).
     """
     for g in prange(bounds.shape[0] - 1):
-        section_plane_group(Z0, bounds[g], bounds[g + 1], prm, h, max_steps, k, value, direction,
+        section_plane_group(kern, Z0, bounds[g], bounds[g + 1], prm, h, max_steps, k, value, direction,
                             max_cross, kind, weights, A, b, tol, maxit, box_lo, box_hi, out_points,
                             out_times, counts, energy_error, status, stop_time)
 
 
 @njit(cache=True, nogil=True)
-def section_plane_orbits_serial(Z0, prm, h, max_steps, k, value, direction, max_cross, kind, weights,
+def section_plane_orbits_serial(kern, Z0, prm, h, max_steps, k, value, direction, max_cross, kind, weights,
                                 A, b, tol, maxit, box_lo, box_hi, out_points, out_times, counts,
                                 energy_error, status, stop_time):
     """All orbits on the calling thread (no thread start-up, e.g. for a single new orbit)."""
-    section_plane_group(Z0, 0, Z0.shape[0], prm, h, max_steps, k, value, direction, max_cross, kind,
+    section_plane_group(kern, Z0, 0, Z0.shape[0], prm, h, max_steps, k, value, direction, max_cross, kind,
                         weights, A, b, tol, maxit, box_lo, box_hi, out_points, out_times, counts,
                         energy_error, status, stop_time)
 
 
 @njit(cache=True, nogil=True, parallel=True)
-def section_strobe_orbits(Z0, prm, h, steps_per_period, n_periods, kind, weights, A, b, tol, maxit,
+def section_strobe_orbits(kern, Z0, prm, h, steps_per_period, n_periods, kind, weights, A, b, tol, maxit,
                           box_lo, box_hi, out_points, counts, energy_error, status):
     """Sample every orbit of an extended (autonomous) system once per period.
 
@@ -307,22 +303,22 @@ def section_strobe_orbits(Z0, prm, h, steps_per_period, n_periods, kind, weights
     periods. The energy error is that of the extended Hamiltonian K (conserved exactly).
     """
     n_orb = Z0.shape[0]
-    m = NSTATE
+    m = Z0.shape[1]
     for o in prange(n_orb):
-        work = make_work(max(b.shape[0], 1))
+        work = make_work(max(b.shape[0], 1), m)
         z = Z0[o].copy()
         st = check_state(z, box_lo, box_hi)
         if st != OK:
             status[o] = st
             energy_error[o] = np.nan
             continue
-        k0 = hamiltonian(z, prm)
+        k0 = hamiltonian(kern, z, prm)
         escale = max(abs(k0), 1.0)
         worst = 0.0
         c = 0
         for i in range(n_periods):
             for s in range(steps_per_period):
-                st = advance(z, h, prm, kind, weights, A, b, tol, maxit, work)
+                st = advance(kern, z, h, prm, kind, weights, A, b, tol, maxit, work)
                 if st == OK:
                     st = check_state(z, box_lo, box_hi)
                 if st != OK:
@@ -331,7 +327,7 @@ def section_strobe_orbits(Z0, prm, h, steps_per_period, n_periods, kind, weights
                 break
             for j in range(m):
                 out_points[o, i, j] = z[j]
-            e = abs(hamiltonian(z, prm) - k0) / escale
+            e = abs(hamiltonian(kern, z, prm) - k0) / escale
             if e > worst:
                 worst = e
             c += 1
@@ -341,12 +337,12 @@ def section_strobe_orbits(Z0, prm, h, steps_per_period, n_periods, kind, weights
 
 
 @njit(cache=True, nogil=True, parallel=True)
-def section_map_orbits(Z0, prm, n_iter, period, low, box_lo, box_hi, out_points, counts, status):
+def section_map_orbits(kern, Z0, prm, n_iter, period, low, box_lo, box_hi, out_points, counts, status):
     """Iterate ``map_step`` on every row of ``Z0`` ``n_iter`` times, wrapping component j
     into ``[low[j], low[j] + period[j])`` where ``period[j] > 0``. Iterate i+1 goes to
     ``out_points[o, i]``. Non-finite or out-of-box iterates stop the orbit."""
     n_orb = Z0.shape[0]
-    m = NSTATE
+    m = Z0.shape[1]
     for o in prange(n_orb):
         z = Z0[o].copy()
         zn = np.empty(m)
@@ -354,7 +350,7 @@ def section_map_orbits(Z0, prm, n_iter, period, low, box_lo, box_hi, out_points,
         c = 0
         if st == OK:
             for i in range(n_iter):
-                map_step(z, prm, zn)
+                map_step(kern, z, prm, zn)
                 for j in range(m):
                     v = zn[j]
                     if period[j] > 0.0:

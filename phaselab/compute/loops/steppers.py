@@ -1,40 +1,37 @@
-"""One-step integrators, compiled together with a system's kernels.
+"""One-step integrators and their exact tangent maps, the ensemble trajectory loop, and a
+batch evaluator of the kernels.
 
-This file is not imported as a module. Its text is appended by the compute layer to the
-module that :func:`phaselab.codegen.compile_system` generates for each system, where the
-names ``NDOF``, ``NSTATE``, ``grad_q``, ``grad_p``, ``vector_field``, ``hamiltonian``,
-``njit`` and ``np`` are defined. Compiling them in one module lets numba inline the kernels
-into the loops and cache both on disk.
+Loop text: never imported on its own. :mod:`phaselab.compute.compiled` assembles it into a
+module whose header defines the status codes and stepper kinds, ``np``, ``math``, ``njit``,
+``prange``, and the kernel access functions ``hamiltonian(kern, z, prm)``,
+``grad_q(kern, z, prm, out)``, ``grad_p``, ``vector_field``, ``jacobian``, ``map_step``,
+``map_jacobian`` and ``nstate(z)``. ``kern`` is the system's compiled kernel: a function
+pointer in the generic module (compiled once per machine), unused in a system's inlined
+module (where the access functions call the system's kernels directly).
 
 Every stepper advances one state ``z`` (shape ``(2n,)``) in place by a step ``h`` and
-returns a status code (see ``OK``, ``NOT_CONVERGED``).
+returns a status code.
 """
 
-OK = 0
-LEFT_BOX = 1
-NOT_FINITE = 2
-NOT_CONVERGED = 3
-
-COMPOSITION = 0  # explicit symplectic splitting H = T(p) + V(q): leapfrog and its compositions
-GAUSS = 1        # Gauss-Legendre collocation (implicit midpoint for one stage)
-RK4 = 2          # classical Runge-Kutta (not symplectic; reference and Henon's step)
+REQUIRES = ()
+PROVIDES = ("run_orbits", "evaluate_points", "step_matrix")
 
 
 @njit(cache=True, nogil=True)
-def composition_step(z, h, prm, weights, gq, gp):
+def composition_step(kern, z, h, prm, weights, gq, gp):
     """Compose drift-kick-drift leapfrog steps of lengths ``weights[k] * h``.
 
     Adjacent half drifts are merged, so a composition of ``s`` leapfrogs costs ``s`` force
     evaluations (``grad_q``) and ``s + 1`` velocity evaluations (``grad_p``).
     """
-    n = NDOF
+    n = nstate(z) // 2
     s = weights.shape[0]
     c = 0.5 * weights[0] * h
     for k in range(s):
-        grad_p(z, prm, gp)
+        grad_p(kern, z, prm, gp)
         for i in range(n):
             z[i] += c * gp[i]
-        grad_q(z, prm, gq)
+        grad_q(kern, z, prm, gq)
         d = weights[k] * h
         for i in range(n):
             z[n + i] -= d * gq[i]
@@ -42,14 +39,14 @@ def composition_step(z, h, prm, weights, gq, gp):
             c = 0.5 * (weights[k] + weights[k + 1]) * h
         else:
             c = 0.5 * weights[k] * h
-    grad_p(z, prm, gp)
+    grad_p(kern, z, prm, gp)
     for i in range(n):
         z[i] += c * gp[i]
     return OK
 
 
 @njit(cache=True, nogil=True)
-def gauss_step(z, h, prm, A, b, tol, maxit, K, Kn, zs):
+def gauss_step(kern, z, h, prm, A, b, tol, maxit, K, Kn, zs):
     """Gauss-Legendre collocation step solved by fixed-point iteration.
 
     ``K`` holds the stage slopes (shape ``(s, 2n)``). Converged when the largest change of
@@ -57,9 +54,9 @@ def gauss_step(z, h, prm, A, b, tol, maxit, K, Kn, zs):
     round-off level (100x that). Returns ``NOT_CONVERGED`` otherwise (also when the iteration
     diverges to NaN), leaving ``z`` untouched.
     """
-    m = NSTATE
+    m = nstate(z)
     s = b.shape[0]
-    vector_field(z, prm, K[0])
+    vector_field(kern, z, prm, K[0])
     for i in range(1, s):
         for j in range(m):
             K[i, j] = K[0, j]
@@ -78,7 +75,7 @@ def gauss_step(z, h, prm, A, b, tol, maxit, K, Kn, zs):
                 for l in range(s):
                     acc += A[i, l] * K[l, j]
                 zs[j] = z[j] + h * acc
-            vector_field(zs, prm, Kn[i])
+            vector_field(kern, zs, prm, Kn[i])
         diff = 0.0
         bad = False
         for i in range(s):
@@ -109,37 +106,38 @@ def gauss_step(z, h, prm, A, b, tol, maxit, K, Kn, zs):
 
 
 @njit(cache=True, nogil=True)
-def rk4_step(z, h, prm, k1, k2, k3, k4, zs):
+def rk4_step(kern, z, h, prm, k1, k2, k3, k4, zs):
     """Classical fourth-order Runge-Kutta step (not symplectic)."""
-    m = NSTATE
-    vector_field(z, prm, k1)
+    m = nstate(z)
+    vector_field(kern, z, prm, k1)
     for j in range(m):
         zs[j] = z[j] + 0.5 * h * k1[j]
-    vector_field(zs, prm, k2)
+    vector_field(kern, zs, prm, k2)
     for j in range(m):
         zs[j] = z[j] + 0.5 * h * k2[j]
-    vector_field(zs, prm, k3)
+    vector_field(kern, zs, prm, k3)
     for j in range(m):
         zs[j] = z[j] + h * k3[j]
-    vector_field(zs, prm, k4)
+    vector_field(kern, zs, prm, k4)
     for j in range(m):
         z[j] += h * (k1[j] + 2.0 * k2[j] + 2.0 * k3[j] + k4[j]) / 6.0
     return OK
 
 
 @njit(cache=True, nogil=True)
-def make_work(n_stages):
+def make_work(n_stages, m):
     """Scratch space for :func:`advance`: rows 0..n_stages-1 stage slopes, then 2*n_stages + 6
-    spare rows, each of length NSTATE."""
-    return np.zeros((2 * n_stages + 6, NSTATE))
+    spare rows, each of length ``m`` (the state size)."""
+    return np.zeros((2 * n_stages + 6, m))
 
 
 @njit(cache=True, nogil=True)
-def advance(z, h, prm, kind, weights, A, b, tol, maxit, work):
+def advance(kern, z, h, prm, kind, weights, A, b, tol, maxit, work):
     """Advance ``z`` in place by one step of the method ``kind``; returns a status code.
 
     Parameters
     ----------
+    kern : kernel
     z : ndarray, shape (2n,)
     h : float
         Step (may be negative: every method here runs backwards as well).
@@ -157,19 +155,20 @@ def advance(z, h, prm, kind, weights, A, b, tol, maxit, work):
     work : ndarray
         From :func:`make_work`.
     """
+    n = nstate(z) // 2
     if kind == COMPOSITION:
-        return composition_step(z, h, prm, weights, work[0, :NDOF], work[1, :NDOF])
+        return composition_step(kern, z, h, prm, weights, work[0, :n], work[1, :n])
     if kind == GAUSS:
         s = b.shape[0]
-        return gauss_step(z, h, prm, A, b, tol, maxit, work[:s], work[s:2 * s], work[2 * s])
+        return gauss_step(kern, z, h, prm, A, b, tol, maxit, work[:s], work[s:2 * s], work[2 * s])
     n0 = work.shape[0] - 5
-    return rk4_step(z, h, prm, work[n0], work[n0 + 1], work[n0 + 2], work[n0 + 3], work[n0 + 4])
+    return rk4_step(kern, z, h, prm, work[n0], work[n0 + 1], work[n0 + 2], work[n0 + 3], work[n0 + 4])
 
 
 @njit(cache=True, nogil=True)
 def check_state(z, box_lo, box_hi):
     """``OK``, ``NOT_FINITE`` or ``LEFT_BOX`` for the state ``z``."""
-    for j in range(NSTATE):
+    for j in range(z.shape[0]):
         v = z[j]
         if not (v == v) or v == np.inf or v == -np.inf:
             return NOT_FINITE
@@ -179,7 +178,7 @@ def check_state(z, box_lo, box_hi):
 
 
 @njit(cache=True, nogil=True, parallel=True)
-def run_orbits(Z0, prm, h, n_steps, save_every, kind, weights, A, b, tol, maxit,
+def run_orbits(kern, Z0, prm, h, n_steps, save_every, kind, weights, A, b, tol, maxit,
                box_lo, box_hi, out_states, out_energy, status, stop_step):
     """Integrate every orbit of ``Z0`` (shape ``(n_orbits, 2n)``) for ``n_steps`` steps,
     in parallel over orbits, saving every ``save_every`` steps.
@@ -187,25 +186,26 @@ def run_orbits(Z0, prm, h, n_steps, save_every, kind, weights, A, b, tol, maxit,
     ``out_states`` (``(n_orbits, n_saves, 2n)``) and ``out_energy`` (``(n_orbits,
     n_saves)``) must be pre-filled with NaN; sample 0 is the initial state. When
     ``n_steps`` is not a multiple of ``save_every`` and the arrays have room for one more
-    sample (``n_saves = n_steps // save_every + 2``), the final state is saved there too. An orbit that
-    leaves the box, goes non-finite or fails an implicit solve is stopped: ``status[o]`` gets
-    the code and ``stop_step[o]`` the step number at which it happened.
+    sample (``n_saves = n_steps // save_every + 2``), the final state is saved there too. An
+    orbit that leaves the box, goes non-finite or fails an implicit solve is stopped:
+    ``status[o]`` gets the code and ``stop_step[o]`` the step number at which it happened.
     """
     n_orb = Z0.shape[0]
+    m = Z0.shape[1]
     for o in prange(n_orb):
-        work = make_work(max(b.shape[0], 1))
+        work = make_work(max(b.shape[0], 1), m)
         z = Z0[o].copy()
         st = check_state(z, box_lo, box_hi)
         if st != OK:
             status[o] = st
             stop_step[o] = 0
             continue
-        for j in range(NSTATE):
+        for j in range(m):
             out_states[o, 0, j] = z[j]
-        out_energy[o, 0] = hamiltonian(z, prm)
+        out_energy[o, 0] = hamiltonian(kern, z, prm)
         k = 0
         for step in range(1, n_steps + 1):
-            st = advance(z, h, prm, kind, weights, A, b, tol, maxit, work)
+            st = advance(kern, z, h, prm, kind, weights, A, b, tol, maxit, work)
             if st == OK:
                 st = check_state(z, box_lo, box_hi)
             if st != OK:
@@ -214,9 +214,42 @@ def run_orbits(Z0, prm, h, n_steps, save_every, kind, weights, A, b, tol, maxit,
                 break
             if step % save_every == 0 or (step == n_steps and k + 1 < out_states.shape[1]):
                 k += 1
-                for j in range(NSTATE):
+                for j in range(m):
                     out_states[o, k, j] = z[j]
-                out_energy[o, k] = hamiltonian(z, prm)
+                out_energy[o, k] = hamiltonian(kern, z, prm)
+
+
+@njit(cache=True, nogil=True)
+def evaluate_points(kern, which, Z, prm, out):
+    """Evaluate one kernel at every row of ``Z`` (shape ``(n_points, 2n)``).
+
+    ``which`` 0: H into ``out[i, 0]``; 1, 2: dH/dq, dH/dp into ``out[i, :n]``; 3: the vector
+    field into ``out[i, :2n]``; 4: its Jacobian, row-major, into ``out[i, :(2n)^2]``; 5, 6:
+    a map's step and Jacobian likewise. ``out`` has shape ``(n_points, width)``.
+    """
+    m = Z.shape[1]
+    n = m // 2
+    jac = np.empty((m, m))
+    for i in range(Z.shape[0]):
+        z = Z[i]
+        if which == 0:
+            out[i, 0] = hamiltonian(kern, z, prm)
+        elif which == 1:
+            grad_q(kern, z, prm, out[i, :n])
+        elif which == 2:
+            grad_p(kern, z, prm, out[i, :n])
+        elif which == 3:
+            vector_field(kern, z, prm, out[i, :m])
+        elif which == 5:
+            map_step(kern, z, prm, out[i, :m])
+        else:
+            if which == 4:
+                jacobian(kern, z, prm, jac)
+            else:
+                map_jacobian(kern, z, prm, jac)
+            for r in range(m):
+                for c in range(m):
+                    out[i, r * m + c] = jac[r, c]
 
 
 # --------------------------------------------------------------------------- tangent maps
@@ -225,16 +258,16 @@ def run_orbits(Z0, prm, h, n_steps, save_every, kind, weights, A, b, tol, maxit,
 # ``(2n, k)``, one vector per column) by the exact derivative of the same discrete map that
 # ``advance`` applies: V <- (d Phi_h / d z) V. With ``V`` the identity they give the Jacobian
 # of one step, whose symplecticity can then be checked to round-off; the chaos indicators
-# use them for variational equations that are consistent with the orbit's own integrator.
+# and Newton's method for periodic orbits use them.
 
 
 @njit(cache=True, nogil=True)
-def _drift_tangent(z, V, c, prm, gp, jac):
+def drift_tangent(kern, z, V, c, prm, gp, jac):
     """q += c dH/dp(p) and its tangent dq += c (d2H/dp2) dp (separable H)."""
-    n = NDOF
+    n = nstate(z) // 2
     k = V.shape[1]
-    jacobian(z, prm, jac)
-    grad_p(z, prm, gp)
+    jacobian(kern, z, prm, jac)
+    grad_p(kern, z, prm, gp)
     for i in range(n):
         z[i] += c * gp[i]
     for col in range(k):
@@ -246,16 +279,16 @@ def _drift_tangent(z, V, c, prm, gp, jac):
 
 
 @njit(cache=True, nogil=True)
-def composition_tangent_step(z, V, h, prm, weights, gq, gp, jac):
+def composition_tangent_step(kern, z, V, h, prm, weights, gq, gp, jac):
     """:func:`composition_step` together with its exact tangent map."""
-    n = NDOF
+    n = nstate(z) // 2
     k = V.shape[1]
     s = weights.shape[0]
     c = 0.5 * weights[0] * h
     for st in range(s):
-        _drift_tangent(z, V, c, prm, gp, jac)
-        jacobian(z, prm, jac)
-        grad_q(z, prm, gq)
+        drift_tangent(kern, z, V, c, prm, gp, jac)
+        jacobian(kern, z, prm, jac)
+        grad_q(kern, z, prm, gq)
         d = weights[st] * h
         for i in range(n):
             z[n + i] -= d * gq[i]
@@ -270,18 +303,18 @@ def composition_tangent_step(z, V, h, prm, weights, gq, gp, jac):
             c = 0.5 * (weights[st] + weights[st + 1]) * h
         else:
             c = 0.5 * weights[st] * h
-    _drift_tangent(z, V, c, prm, gp, jac)
+    drift_tangent(kern, z, V, c, prm, gp, jac)
     return OK
 
 
 @njit(cache=True, nogil=True)
-def gauss_tangent(z_old, V, h, prm, A, b, K):
+def gauss_tangent(kern, z_old, V, h, prm, A, b, K):
     """Tangent of a converged Gauss-Legendre step from ``z_old`` with stage slopes ``K``.
 
     The stages Z_i = z + h sum_l A_il f(Z_l) differentiate to the linear system
     (I - h A (x) J(Z)) W = 1 (x) V, solved directly; then V <- V + h sum_i b_i J(Z_i) W_i.
     """
-    m = NSTATE
+    m = nstate(z_old)
     s = b.shape[0]
     k = V.shape[1]
     Js = np.empty((s, m, m))
@@ -292,7 +325,7 @@ def gauss_tangent(z_old, V, h, prm, A, b, K):
             for l in range(s):
                 acc += A[i, l] * K[l, j]
             zs[j] = z_old[j] + h * acc
-        jacobian(zs, prm, Js[i])
+        jacobian(kern, zs, prm, Js[i])
     S = s * m
     M = np.zeros((S, S))
     R = np.empty((S, k))
@@ -319,9 +352,9 @@ def gauss_tangent(z_old, V, h, prm, A, b, K):
 
 
 @njit(cache=True, nogil=True)
-def rk4_tangent_step(z, V, h, prm):
+def rk4_tangent_step(kern, z, V, h, prm):
     """:func:`rk4_step` together with its exact tangent map."""
-    m = NSTATE
+    m = nstate(z)
     k = V.shape[1]
     ks = np.empty((4, m))
     dks = np.empty((4, m, k))
@@ -330,8 +363,8 @@ def rk4_tangent_step(z, V, h, prm):
     jac = np.empty((m, m))
     frac = (0.5, 0.5, 1.0)
     for st in range(4):
-        vector_field(zs, prm, ks[st])
-        jacobian(zs, prm, jac)
+        vector_field(kern, zs, prm, ks[st])
+        jacobian(kern, zs, prm, jac)
         for r in range(m):
             for col in range(k):
                 acc = 0.0
@@ -353,29 +386,34 @@ def rk4_tangent_step(z, V, h, prm):
 
 
 @njit(cache=True, nogil=True)
-def advance_tangent(z, V, h, prm, kind, weights, A, b, tol, maxit, work, jac):
+def advance_tangent(kern, z, V, h, prm, kind, weights, A, b, tol, maxit, work, jac):
     """Advance ``z`` and the tangent vectors ``V`` (shape ``(2n, k)``) by one step of the
     method ``kind``, in place; returns the status code of the state step.
 
     Arguments are those of :func:`advance`, and ``jac`` is scratch space of shape
     ``(2n, 2n)``. ``V`` is left unchanged when the step fails.
     """
+    n = nstate(z) // 2
     if kind == COMPOSITION:
-        return composition_tangent_step(z, V, h, prm, weights, work[0, :NDOF], work[1, :NDOF], jac)
+        return composition_tangent_step(kern, z, V, h, prm, weights, work[0, :n], work[1, :n], jac)
     if kind == GAUSS:
         z_old = z.copy()
-        st = advance(z, h, prm, kind, weights, A, b, tol, maxit, work)
+        st = advance(kern, z, h, prm, kind, weights, A, b, tol, maxit, work)
         if st == OK:
-            gauss_tangent(z_old, V, h, prm, A, b, work[:b.shape[0]])
+            gauss_tangent(kern, z_old, V, h, prm, A, b, work[:b.shape[0]])
         return st
-    return rk4_tangent_step(z, V, h, prm)
+    return rk4_tangent_step(kern, z, V, h, prm)
 
 
 @njit(cache=True, nogil=True)
-def step_matrix(z, h, prm, kind, weights, A, b, tol, maxit):
-    """The Jacobian (shape ``(2n, 2n)``) of one step from ``z`` (``z`` is not modified)."""
-    work = make_work(max(b.shape[0], 1))
+def step_matrix(kern, z, h, prm, kind, weights, A, b, tol, maxit, out):
+    """The Jacobian of one step from ``z`` into ``out`` (shape ``(2n, 2n)``); ``z`` is not
+    modified. Returns the status code of the step."""
+    m = z.shape[0]
+    work = make_work(max(b.shape[0], 1), m)
     zz = z.copy()
-    V = np.eye(NSTATE)
-    advance_tangent(zz, V, h, prm, kind, weights, A, b, tol, maxit, work, np.empty((NSTATE, NSTATE)))
-    return V
+    for r in range(m):
+        for c in range(m):
+            out[r, c] = 1.0 if r == c else 0.0
+    return advance_tangent(kern, zz, out, h, prm, kind, weights, A, b, tol, maxit, work,
+                           np.empty((m, m)))

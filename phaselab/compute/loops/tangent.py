@@ -1,16 +1,20 @@
-"""Chaos indicators along orbits, compiled together with a system's kernels.
+"""Chaos indicators along orbits: Benettin's largest Lyapunov exponent, MEGNO, FLI, SALI.
 
-Like ``steppers.py`` this file is text compiled into each system's generated module; the
-kernel names (``jacobian``, ``map_step``, ``map_jacobian``), ``NDOF``, ``NSTATE`` and the
-steppers' ``advance_tangent`` are globals there.
+Loop text (see ``steppers.py`` for what the assembled module provides); ``advance_tangent``,
+``make_work`` and ``check_state`` come from ``steppers.py``. Names defined here start with
+``tangent_``.
 
 Deviation vectors are propagated by ``advance_tangent``, the exact derivative of the
-numerical step, so the tangent map is symplectic whenever the step is.
+numerical step, so the tangent map is symplectic whenever the step is. One deviation vector
+serves the Lyapunov exponent, MEGNO and FLI; SALI needs two (``W0.shape[2] == 2``).
 """
+
+REQUIRES = ("steppers",)
+PROVIDES = ("tangent_flow_indicators", "tangent_map_indicators")
 
 
 @njit(cache=True, nogil=True)
-def _norm(W, col):
+def tangent_norm(W, col):
     acc = 0.0
     for j in range(W.shape[0]):
         acc += W[j, col] * W[j, col]
@@ -18,39 +22,30 @@ def _norm(W, col):
 
 
 @njit(cache=True, nogil=True)
-def _normalise_columns(W):
+def tangent_normalise(W):
     for col in range(W.shape[1]):
-        g = _norm(W, col)
+        g = tangent_norm(W, col)
         for j in range(W.shape[0]):
             W[j, col] /= g
 
 
 @njit(cache=True, nogil=True)
-def _record(o, rec, lce, megno, fli, sali, out_lce, out_megno, out_fli, out_sali):
-    out_lce[o, rec] = lce
-    out_megno[o, rec] = megno
-    out_fli[o, rec] = fli
-    out_sali[o, rec] = sali
-
-
-@njit(cache=True, nogil=True)
-def _indicator_update(W, t, h, log_sum, fli, y_int, y_mean, use_sali):
+def tangent_update(W, t, h, acc):
     """Renormalise the deviation vectors after a step ending at time ``t`` and update the
-    running indicators. Returns (log_sum, fli, y_int, y_mean, sali)."""
-    g = _norm(W, 0)
+    running indicators in ``acc`` = [log_sum, fli, y_int, y_mean, sali]."""
+    g = tangent_norm(W, 0)
     growth = math.log(g)
-    log_sum += growth
-    if log_sum > fli:
-        fli = log_sum
+    acc[0] += growth
+    if acc[0] > acc[1]:
+        acc[1] = acc[0]
     # MEGNO: Y(t) = (2/t) int_0^t s d(ln|w|)/ds ds, averaged in time
-    y_int += 2.0 * (t - 0.5 * h) * growth
-    y_now = y_int / t
-    y_mean = y_mean + (y_now - y_mean) * h / t
+    acc[2] += 2.0 * (t - 0.5 * h) * growth
+    y_now = acc[2] / t
+    acc[3] += (y_now - acc[3]) * h / t
     for j in range(W.shape[0]):
         W[j, 0] /= g
-    sali = np.nan
-    if use_sali:
-        g2 = _norm(W, 1)
+    if W.shape[1] > 1:
+        g2 = tangent_norm(W, 1)
         for j in range(W.shape[0]):
             W[j, 1] /= g2
         plus = 0.0
@@ -58,92 +53,99 @@ def _indicator_update(W, t, h, log_sum, fli, y_int, y_mean, use_sali):
         for j in range(W.shape[0]):
             plus += (W[j, 0] + W[j, 1]) ** 2
             minus += (W[j, 0] - W[j, 1]) ** 2
-        sali = min(math.sqrt(plus), math.sqrt(minus))
-    return log_sum, fli, y_int, y_mean, sali
+        acc[4] = min(math.sqrt(plus), math.sqrt(minus))
+
+
+@njit(cache=True, nogil=True)
+def tangent_store(o, t, acc, out):
+    """Write [lyapunov, megno, fli, sali] at time ``t`` into ``out[o]`` (shape (4,))."""
+    out[o, 0] = acc[0] / t
+    out[o, 1] = acc[3]
+    out[o, 2] = acc[1]
+    out[o, 3] = acc[4]
 
 
 @njit(cache=True, nogil=True, parallel=True)
-def run_indicators(Z0, W0, prm, h, n_steps, record_every, kind, weights, A, b, tol, maxit,
-                   box_lo, box_hi, out_lce, out_megno, out_fli, out_sali, status,
-                   stop_step):
-    """Benettin's largest Lyapunov exponent, MEGNO, FLI and SALI along every orbit.
+def tangent_flow_indicators(kern, Z0, W0, prm, h, n_steps, record_every, kind, weights, A, b, tol,
+                            maxit, box_lo, box_hi, final, history, status, stop_step):
+    """Benettin's largest Lyapunov exponent, MEGNO, FLI and SALI along every orbit of a flow.
 
-    ``W0`` has shape ``(n_orbits, 2n, k)`` with ``k = 1`` or ``2`` (SALI needs two vectors).
-    The deviation vectors are renormalised after every step. Running values are recorded
-    every ``record_every`` steps into ``out_*`` (shape ``(n_orbits, n_records)``, pre-filled
-    with NaN); record ``r`` is taken at time ``(r + 1) * record_every * h``.
+    ``W0`` has shape ``(n_orbits, 2n, k)`` with ``k = 1`` or ``2`` (SALI needs two vectors;
+    with one it stays NaN). The deviation vectors are renormalised after every step.
+    ``final`` (``(n_orbits, 4)``, NaN-filled) receives [lyapunov, megno, fli, sali] at the
+    last step each orbit completed. With ``record_every > 0`` running values are also
+    recorded into ``history`` (shape ``(n_orbits, n_records, 4)``, NaN-filled) every
+    ``record_every`` steps; record ``r`` is taken at time ``(r + 1) * record_every * h``.
     """
     n_orb = Z0.shape[0]
-    k = W0.shape[2]
-    use_sali = k > 1
+    m = Z0.shape[1]
     for o in prange(n_orb):
-        work = make_work(max(b.shape[0], 1))
-        Jm = np.zeros((NSTATE, NSTATE))
+        work = make_work(max(b.shape[0], 1), m)
+        jac = np.zeros((m, m))
+        acc = np.zeros(5)
+        acc[4] = np.nan
         z = Z0[o].copy()
         W = W0[o].copy()
-        _normalise_columns(W)
+        tangent_normalise(W)
         st = check_state(z, box_lo, box_hi)
         if st != OK:
             status[o] = st
             stop_step[o] = 0
             continue
-        log_sum = 0.0
-        fli = 0.0
-        y_int = 0.0
-        y_mean = 0.0
         rec = 0
+        done = 0
         for step in range(1, n_steps + 1):
-            st = advance_tangent(z, W, h, prm, kind, weights, A, b, tol, maxit, work, Jm)
+            st = advance_tangent(kern, z, W, h, prm, kind, weights, A, b, tol, maxit, work, jac)
             if st == OK:
                 st = check_state(z, box_lo, box_hi)
             if st != OK:
                 status[o] = st
                 stop_step[o] = step
                 break
-            t = step * h
-            log_sum, fli, y_int, y_mean, sali = _indicator_update(
-                W, t, h, log_sum, fli, y_int, y_mean, use_sali)
-            if step % record_every == 0:
-                _record(o, rec, log_sum / t, y_mean, fli, sali, out_lce, out_megno, out_fli, out_sali)
+            tangent_update(W, step * h, h, acc)
+            done = step
+            if record_every > 0 and step % record_every == 0 and rec < history.shape[1]:
+                tangent_store(o, step * h, acc, history[:, rec])
                 rec += 1
+        if done > 0:
+            tangent_store(o, done * h, acc, final)
 
 
 @njit(cache=True, nogil=True, parallel=True)
-def run_map_indicators(Z0, W0, prm, n_iter, record_every, modulus, low, box_lo, box_hi,
-                       out_lce, out_megno, out_fli, out_sali, status, stop_step):
-    """The indicators of :func:`run_indicators` for an area-preserving map, one iterate being
-    one unit of time. ``modulus`` and ``low`` (shape ``(2n,)``) wrap a component into
-    ``[low, low + m)`` where ``m > 0``."""
+def tangent_map_indicators(kern, Z0, W0, prm, n_iter, record_every, modulus, low, box_lo, box_hi,
+                           final, history, status, stop_step):
+    """The indicators of :func:`tangent_flow_indicators` for an area-preserving map, one
+    iterate being one unit of time. ``modulus`` and ``low`` (shape ``(2n,)``) wrap a
+    component into ``[low, low + m)`` where ``m > 0``."""
     n_orb = Z0.shape[0]
-    k = W0.shape[2]
-    use_sali = k > 1
+    m = Z0.shape[1]
     for o in prange(n_orb):
-        Jm = np.zeros((NSTATE, NSTATE))
-        znew = np.zeros(NSTATE)
-        Wn = np.zeros((NSTATE, k))
+        k = W0.shape[2]
+        jac = np.zeros((m, m))
+        znew = np.zeros(m)
+        Wn = np.zeros((m, k))
+        acc = np.zeros(5)
+        acc[4] = np.nan
         z = Z0[o].copy()
         W = W0[o].copy()
-        _normalise_columns(W)
+        tangent_normalise(W)
         st = check_state(z, box_lo, box_hi)
         if st != OK:
             status[o] = st
             stop_step[o] = 0
             continue
-        log_sum = 0.0
-        fli = 0.0
-        y_int = 0.0
-        y_mean = 0.0
         rec = 0
+        done = 0
         for it in range(1, n_iter + 1):
-            map_jacobian(z, prm, Jm)
-            map_step(z, prm, znew)
-            for j in range(NSTATE):
+            map_jacobian(kern, z, prm, jac)
+            map_step(kern, z, prm, znew)
+            for j in range(m):
                 for col in range(k):
-                    acc = 0.0
-                    for l in range(NSTATE):
-                        acc += Jm[j, l] * W[l, col]
-                    Wn[j, col] = acc
-            for j in range(NSTATE):
+                    a = 0.0
+                    for l in range(m):
+                        a += jac[j, l] * W[l, col]
+                    Wn[j, col] = a
+            for j in range(m):
                 v = znew[j]
                 if modulus[j] > 0.0:
                     v = v - modulus[j] * math.floor((v - low[j]) / modulus[j])
@@ -155,8 +157,10 @@ def run_map_indicators(Z0, W0, prm, n_iter, record_every, modulus, low, box_lo, 
                 status[o] = st
                 stop_step[o] = it
                 break
-            log_sum, fli, y_int, y_mean, sali = _indicator_update(
-                W, float(it), 1.0, log_sum, fli, y_int, y_mean, use_sali)
-            if it % record_every == 0:
-                _record(o, rec, log_sum / it, y_mean, fli, sali, out_lce, out_megno, out_fli, out_sali)
+            tangent_update(W, float(it), 1.0, acc)
+            done = it
+            if record_every > 0 and it % record_every == 0 and rec < history.shape[1]:
+                tangent_store(o, float(it), acc, history[:, rec])
                 rec += 1
+        if done > 0:
+            tangent_store(o, float(done), acc, final)
