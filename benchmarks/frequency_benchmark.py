@@ -3,7 +3,8 @@
 1. Speed: 10^4 Henon-Heiles orbits (seeds on the energy shell E = 1/10, section plane
    x = 0), 4096 samples each, 0.5 time units apart (about 12 samples per period, 325
    periods), integrated by ``phaselab.trajectory`` with its default method and step, in
-   batches of 1000 orbits; then the same samples analysed by
+   batches of 1000 orbits (the system's inlined loops unless PHASELAB_LOOPS says otherwise);
+   then the same samples analysed by
    ``phaselab.compute.frequencies.analyse_samples`` (what ``phaselab.frequencies`` does after
    sampling: both degrees of freedom, leading line, diffusion from the two halves). Both
    warm (after one untimed small call). Target: analysis time <= integration time.
@@ -25,9 +26,13 @@ import time
 
 import numpy as np
 
-import phaselab
-from phaselab.compute.frequencies import analyse_samples
-from phaselab.compute.spectral import leading_lines
+# integrate with the system's inlined loops, built before the first call (the fastest tier, so
+# the comparison is conservative for the analysis); PHASELAB_LOOPS=generic to compare with that
+os.environ.setdefault("PHASELAB_LOOPS", "inlined")
+
+import phaselab  # noqa: E402
+from phaselab.compute.frequencies import analyse_samples  # noqa: E402
+from phaselab.compute.spectral import leading_lines  # noqa: E402
 
 N_SAMPLES = 4096
 SPACING = 0.5
@@ -91,7 +96,8 @@ def main():
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--orbits", type=int, default=10_000)
     args = parser.parse_args()
-    print(f"load average before: {os.getloadavg()[0]:.2f} (2 cores shared)")
+    print(f"load average before: {os.getloadavg()[0]:.2f} (2 cores shared); "
+          f"loops: {os.environ['PHASELAB_LOOPS']}")
     speed(args.orbits)
     accuracy()
     print(f"load average after: {os.getloadavg()[0]:.2f}")

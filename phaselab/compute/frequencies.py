@@ -26,24 +26,21 @@ import numpy as np
 
 from numba import njit, prange
 
+from phaselab.compute import codes, inputs
 from phaselab.compute.spectral import (MAX_WINDOW_ORDER, SpectralLines, Workspace, chunk_rows,
                                        leading_lines)
 from phaselab.compute.spectral import window as hann_window
-from phaselab.errors import ModelError, ParameterError, PhaselabError
+from phaselab.errors import ParameterError, PhaselabError
 
 __all__ = ["frequencies", "rotation_number", "Frequencies", "STATUS_TEXT", "DEFAULT_SAMPLES",
            "integration_step", "analyse_samples", "birkhoff_weights"]
 
-OK, LEFT_BOX, NOT_FINITE, NOT_CONVERGED, TIME_LIMIT, STILL = 0, 1, 2, 3, 8, 10
-STATUS_TEXT = {
-    OK: "ok",
-    LEFT_BOX: "left the box",
-    NOT_FINITE: "non-finite state",
-    NOT_CONVERGED: "implicit step did not converge",
-    TIME_LIMIT: "reached t_max before enough crossings",
-    STILL: "a degree of freedom does not move (its frequency is NaN)",
-}
-"""Why an orbit has no (or only a partial) result; codes 1-8 are those of the compiled loops."""
+OK, NOT_FINITE, TIME_LIMIT = codes.OK, codes.NOT_FINITE, codes.TIME_LIMIT
+STILL = 10
+"""Status of an orbit with a degree of freedom that does not move (its frequency is NaN)."""
+STATUS_TEXT = {**codes.STATUS, STILL: "a degree of freedom does not move (its frequency is NaN)"}
+"""Why an orbit has no (or only a partial) result: the codes of :mod:`phaselab.compute.codes`
+and ``STILL``."""
 
 DEFAULT_SAMPLES = 2048
 """Samples per orbit when ``n`` is not given."""
@@ -161,55 +158,19 @@ class Frequencies:
 
 
 # ----------------------------------------------------------------------------- argument checks
-def _check_count(value, what, low):
-    if isinstance(value, bool) or not isinstance(value, (int, np.integer)) or value < low:
-        raise ParameterError(f"{what} must be an integer >= {low}, got {value!r}")
-    return int(value)
-
-
-def _check_positive(value, what):
-    try:
-        v = float(value)
-    except (TypeError, ValueError):
-        raise ParameterError(f"{what} must be a positive number, got {value!r}") from None
-    if not (math.isfinite(v) and v > 0):
-        raise ParameterError(f"{what} must be positive and finite, got {value!r}")
-    return v
-
-
 def _check_states(system, seeds):
-    names = [s.name for s in system.state_symbols]
+    """Seeds as a (n_orbits, 2n) float array (:func:`phaselab.compute.inputs.states`); a
+    ShellSeeds must be valid everywhere. Non-finite rows are kept: the loops flag them."""
     from phaselab.compute.seeds import ShellSeeds
 
+    names = [s.name for s in system.state_symbols]
     if isinstance(seeds, ShellSeeds):
         if not np.all(seeds.valid):
             bad = np.flatnonzero(~np.asarray(seeds.valid)).tolist()
             raise ParameterError(f"seeds {bad[:10]} have no state on the shell; pass "
                                  "seeds.valid_states()")
         seeds = seeds.states
-    try:
-        Z = np.array(seeds, dtype=float)
-    except (TypeError, ValueError):
-        raise ParameterError(f"seeds must be numbers of shape (n_orbits, {len(names)}) ordered "
-                             f"({', '.join(names)})") from None
-    if Z.ndim == 1:
-        Z = Z[None, :]
-    if Z.ndim != 2 or Z.shape[1] != len(names) or Z.shape[0] == 0:
-        raise ParameterError(f"seeds must have shape ({len(names)},) or (n_orbits, {len(names)}) "
-                             f"with columns ({', '.join(names)}); got shape {np.shape(seeds)}")
-    if not np.all(np.isfinite(Z)):
-        rows = np.flatnonzero(~np.all(np.isfinite(Z), axis=1)).tolist()
-        raise ParameterError(f"seeds {rows[:10]} have non-finite entries")
-    return np.ascontiguousarray(Z)
-
-
-def _state_index(system, name, what):
-    names = [s.name for s in system.state_symbols]
-    key = getattr(name, "name", name)
-    if not isinstance(key, str) or key not in names:
-        raise ParameterError(f"{what} names unknown state component {name!r}; the state is "
-                             f"({', '.join(names)})")
-    return names.index(key)
+    return inputs.states(seeds, len(names), names)
 
 
 def _sampling(system, plane, t, n):
@@ -256,10 +217,10 @@ def _angles(system, angles):
         raise ParameterError(f"angles must map coordinate names to their periods, e.g. "
                              f"{{'theta': 2*pi}}, got {angles!r}")
     for name, period in angles.items():
-        i = _state_index(system, name, "angles")
+        i = inputs.state_index(system, name, "angle in angles")
         if i >= system.dof:
             raise ParameterError(f"angles: {name!r} is a momentum; name coordinates")
-        out[i] = _check_positive(period, f"the period of angle {name!r}")
+        out[i] = inputs.positive_number(period, f"the period of angle {name!r}")
     return out
 
 
@@ -287,14 +248,14 @@ def _acquire(system, Z0, how, n, t, params, dt, method, plane, direction, box, t
     if how == "time":
         from phaselab.compute.trajectory import trajectory
 
-        span = _check_positive(t, "t")
+        span = inputs.positive_number(t, "t")
         times = np.linspace(0.0, span, n)
         spacing = times[1] - times[0]
-        if dt is not None:
-            h = _check_positive(dt, "dt")
+        h = inputs.step(dt)
+        if h is not None:
             dt = spacing / max(1, math.ceil(spacing / h - 1e-9))
         tr = trajectory(system, Z0, times, dt=dt, method=method, params=params, box=box)
-        status = tr.status if tr.status is not None else np.where(tr.escaped, NOT_FINITE, OK)
+        status = tr.status
         complete = np.all(np.isfinite(tr.states), axis=(1, 2)) & (status == OK)
         drive = None
         if getattr(system, "period", None) is not None:
@@ -326,7 +287,7 @@ def _map_samples(system, Z0, n, params, box):
     each wrapped coordinate, and the lift is the wrapped value plus the right multiple of
     the period.
     """
-    from phaselab.compute.integrators import compiled
+    from phaselab.compute.compiled import loops
     from phaselab.compute.section import map_wrapping
 
     prm = system.param_values(params)
@@ -336,8 +297,9 @@ def _map_samples(system, Z0, n, params, box):
     # p a real number). Wrapping p as well (the standard map's torus) would add a whole turn
     # to q's lift each time p wraps.
     period[system.dof:] = 0.0
-    lo, hi = _map_box(system, box, m)
-    cs = compiled(system, "sections")
+    lo, hi = inputs.box(system, box)
+    inputs.check_budget(N, 2 * n, 2 * N * n * m, "frequencies")
+    cs = loops(system, "sections")
     pts = np.full((N, n - 1, m), np.nan)
     counts = np.zeros(N, dtype=np.int64)
     status = np.zeros(N, dtype=np.int64)
@@ -364,26 +326,6 @@ def _map_samples(system, Z0, n, params, box):
                     None, None)
 
 
-def _map_box(system, box, m):
-    lo = np.full(m, -np.inf)
-    hi = np.full(m, np.inf)
-    if box is None:
-        return lo, hi
-    if isinstance(box, Mapping):
-        for name, bounds in box.items():
-            j = _state_index(system, name, "box")
-            try:
-                a, b = (float(bounds[0]), float(bounds[1]))
-            except (TypeError, ValueError, IndexError):
-                raise ParameterError(f"box bounds of {name!r} must be (low, high), got {bounds!r}") from None
-            if not a < b:
-                raise ParameterError(f"box bounds of {name!r} need low < high, got {bounds!r}")
-            lo[j], hi[j] = a, b
-        return lo, hi
-    r = _check_positive(box, "box")
-    return np.full(m, -r), np.full(m, r)
-
-
 def integration_step(system, seeds, t=None, n=None, params=None, method="auto", plane=None):
     """The integration step a flow's :func:`frequencies` call chooses when ``dt`` is not given
     (:func:`phaselab.compute.integrators.default_step` over all the seeds). Scans call it
@@ -394,9 +336,10 @@ def integration_step(system, seeds, t=None, n=None, params=None, method="auto", 
     float or None
         None for maps and adaptive methods.
     """
-    from phaselab.compute.integrators import ADAPTIVE, choose_method, compiled, default_step, get_method
+    from phaselab.compute.compiled import loops
+    from phaselab.compute.integrators import ADAPTIVE, default_step
 
-    if getattr(system, "kind", "flow") == "map" or str(method).lower() in ADAPTIVE:
+    if getattr(system, "kind", "flow") == "map" or (isinstance(method, str) and method.lower() in ADAPTIVE):
         return None
     Z0 = _check_states(system, seeds)
     pdict = _params(system, params)
@@ -404,15 +347,15 @@ def integration_step(system, seeds, t=None, n=None, params=None, method="auto", 
     how = _sampling(system, plane, t, n)
     timed = not system.is_autonomous
     work = system.extended() if timed and how != "plane" else system
-    meth = choose_method(work) if str(method).lower() == "auto" else get_method(method, work)
+    meth = inputs.method(work, method)
     period = system.driving_period(pdict) if timed and system.period is not None else None
     if work is not system:
         with np.errstate(all="ignore"):
             e0 = np.atleast_1d(system.energy(Z0, params=pdict, t=0.0))
         n_ = system.dof
         Z0 = np.concatenate([Z0[:, :n_], np.zeros((len(Z0), 1)), Z0[:, n_:], -e0[:, None]], axis=1)
-    cs = compiled(work, "sections") if how != "time" else compiled(work)
-    span = _check_positive(t, "t") if how == "time" else np.inf
+    cs = loops(work, "sections") if how != "time" else loops(work)
+    span = inputs.positive_number(t, "t") if how == "time" else np.inf
     if how == "stroboscopic" and period is not None:
         span = period * (n or DEFAULT_SAMPLES)
     h = default_step(cs, meth, Z0, prm, span, period)
@@ -649,9 +592,8 @@ def frequencies(system, seeds, t=None, n=None, params=None, dt=None, method="aut
     use :func:`rotation_number`.
     """
     Z0, how, n, pdict = _common(system, seeds, plane, t, n, params, direction)
-    lines = _check_count(lines, "lines", 1)
-    if isinstance(window, bool) or not isinstance(window, (int, np.integer)) or not 0 <= window <= MAX_WINDOW_ORDER:
-        raise ParameterError(f"window must be an integer from 0 to {MAX_WINDOW_ORDER}, got {window!r}")
+    lines = inputs.count(lines, "lines")
+    window = inputs.count(window, "window", 0, MAX_WINDOW_ORDER)
     if fold not in ("signed", "positive"):
         raise ParameterError(f"fold must be 'signed' or 'positive', got {fold!r}")
     ang = _angles(system, angles)
@@ -687,9 +629,8 @@ def _common(system, seeds, plane, t, n, params, direction):
         raise ParameterError(f"system must be a Hamiltonian or an AreaPreservingMap, got "
                              f"{type(system).__name__}")
     Z0 = _check_states(system, seeds)
-    n = DEFAULT_SAMPLES if n is None else _check_count(n, "n", MIN_SAMPLES)
-    if direction not in (1, -1):
-        raise ParameterError(f"direction must be +1 or -1, got {direction!r}")
+    n = DEFAULT_SAMPLES if n is None else inputs.count(n, "n", MIN_SAMPLES)
+    inputs.direction(direction)
     how = _sampling(system, plane, t, n)
     pdict = _params(system, params)
     return Z0, how, n, pdict
@@ -764,21 +705,18 @@ def rotation_number(system, seeds, n=None, angle=None, params=None, t=None, dt=N
     if isinstance(angle, (tuple, list)):
         if len(angle) != 2:
             raise ParameterError(f"angle as a pair must name (q, p), got {angle!r}")
-        iq, ip = (_state_index(system, a, "angle") for a in angle)
+        iq, ip = (inputs.state_index(system, a, "angle component") for a in angle)
         label = f"angle({system.state_symbols[iq].name}, {system.state_symbols[ip].name})"
         if centre is None:
             qc, pc = 0.0, 0.0
         else:
-            try:
-                qc, pc = (float(c) for c in centre)
-            except (TypeError, ValueError):
-                raise ParameterError(f"centre must be (q_c, p_c), got {centre!r}") from None
-            if not (math.isfinite(qc) and math.isfinite(pc)):
-                raise ParameterError(f"centre must be finite, got {centre!r}")
+            if isinstance(centre, str) or not hasattr(centre, "__len__") or len(centre) != 2:
+                raise ParameterError(f"centre must be a pair (q_c, p_c), got {centre!r}")
+            qc, pc = (inputs.number(c, "centre") for c in centre)
     else:
         if centre is not None:
             raise ParameterError("centre is used only with a pair angle=(q, p)")
-        iq, ip = _state_index(system, angle, "angle"), None
+        iq, ip = inputs.state_index(system, angle, "angle"), None
         label = system.state_symbols[iq].name
     S = _acquire(system, Z0, how, n, t, pdict, dt, method, plane, direction, box, t_max)
     if S.fixed_dof is not None and (iq % dof == S.fixed_dof):
