@@ -305,10 +305,11 @@ def _project_all(x, w, omegas, m, active, residual, coef, with_residual):
 
 
 @njit(cache=True, nogil=True, parallel=True)
-def _remove_mean(x, w, residual, coef, total):
-    """The zero-frequency line: ``coef[i, 0]`` the windowed mean of row i, ``residual`` the
-    row minus it, ``total`` the row's windowed mean square (the first step of every
-    analysis, done in one pass instead of the general projection)."""
+def _remove_mean(x, w, residual, windowed, coef, total, left):
+    """The zero-frequency line, in two passes instead of the general projection:
+    ``coef[i, 0]`` the windowed mean of row i, ``residual`` the row minus it and
+    ``windowed`` that times the window (ready for the FFT); ``total`` and ``left`` the
+    windowed mean squares of the row and of the residual."""
     n_sig, n = x.shape
     wsum = 0.0
     for k in range(n):
@@ -323,8 +324,13 @@ def _remove_mean(x, w, residual, coef, total):
         mean = acc / wsum
         coef[i, 0] = mean
         total[i] = e / n
+        e = 0.0
         for k in range(n):
-            residual[i, k] = x[i, k] - mean
+            r = x[i, k] - mean
+            residual[i, k] = r
+            windowed[i, k] = w[k] * r
+            e += w[k] * (r.real * r.real + r.imag * r.imag)
+        left[i] = e / n
 
 
 @njit(cache=True, nogil=True, parallel=True)
@@ -388,11 +394,14 @@ def _peak_bins(spec, active, centre, start):
         start[i] = 2.0 * math.pi * (kk + delta) / n
 
 
-def _coarse(residual, w, active, buffer):
-    """Peak bin of the FFT of the windowed residual: (centre, start) in rad per sample."""
+def _coarse(residual, w, active, buffer, windowed=False):
+    """Peak bin of the FFT of the windowed residual: (centre, start) in rad per sample.
+    ``buffer`` is overwritten; ``windowed=True`` says it already holds the windowed
+    residual."""
     from scipy import fft as sfft
 
-    _windowed(residual, w, buffer)
+    if not windowed:
+        _windowed(residual, w, buffer)
     spec = sfft.fft(buffer, axis=1, overwrite_x=True, workers=_threads())
     centre = np.empty(len(residual))
     start = np.empty(len(residual))
@@ -478,8 +487,10 @@ def leading_lines(signals, lines: int = 1, window_order: int = 1,
     rows = chunk_rows(n)
     for a in range(0, n_sig, rows):
         b = min(n_sig, a + rows)
-        xc = ws.get("signal", b - a, n)
-        xc[...] = x[a:b]
+        xc = x[a:b]
+        if xc.dtype != np.complex128 or not xc.flags.c_contiguous:
+            xc = ws.get("signal", b - a, n)
+            xc[...] = x[a:b]
         _chunk(xc, ws.get("residual", b - a, n), ws.get("buffer", b - a, n), lines, p,
                amplitudes, nu[a:b], amp[a:b], phase[a:b])
     return SpectralLines(nu, amp, phase)
@@ -492,16 +503,17 @@ def _chunk(x, residual, buffer, lines, p, amplitudes, nu, amp, phase):
     coef = np.zeros((n_sig, lines + 1), dtype=np.complex128)
     active = np.ones(n_sig, dtype=bool)
     total = np.empty(n_sig)
-    _remove_mean(x, w, residual, coef, total)
+    left = np.empty(n_sig)
+    _remove_mean(x, w, residual, buffer, coef, total, left)
     half_width = (0.75 if p == 0 else 1.0) * 2.0 * np.pi / n
     found = np.zeros(n_sig, dtype=np.int64)
-    left = np.empty(n_sig)
     for j in range(1, lines + 1):
-        _energies(residual, w, left)
+        if j > 1:
+            _energies(residual, w, left)
         active &= left > _SILENT * total
         if not active.any():
             break
-        centre, start = _coarse(residual, w, active, buffer)
+        centre, start = _coarse(residual, w, active, buffer, windowed=j == 1)
         peak = np.empty(n_sig)
         _refine_all(residual, w, start, centre, half_width, active, peak)
         omegas[:, j] = np.where(active, peak, np.nan)
