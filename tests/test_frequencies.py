@@ -126,6 +126,24 @@ def test_pendulum_libration_frequency(oscillator):
     assert np.all(res.diffusion < -9)
 
 
+def test_rotating_pendulum_turns_at_the_elliptic_rate(oscillator):
+    """Derived with Abramowitz & Stegun 17.3 (scipy.special.ellipk): for
+    H = p^2/2 + 1 - cos x started at x = 0 with p0 > 2, one turn takes
+    T = int_0^2pi dx / sqrt(p0^2 - 4 sin^2(x/2)) = 4 K(m) / p0 with m = 4 / p0^2, so the
+    angle turns at 1/T = p0 / (4 K(m)) cycles per unit time. Both the frequency of
+    exp(i x) (x declared an angle) and the rotation number per unit time give it."""
+    p0 = np.array([2.5, 4.0])
+    seeds = np.column_stack([np.zeros(2), p0])
+    expected = p0 / (4.0 * ellipk(4.0 / p0**2))
+    freq = frequencies(oscillator, seeds, t=300.0, n=4096, dt=0.02, method="yoshida8", window=2,
+                       angles={"x": 2 * np.pi}, params={"s": 1.0})
+    np.testing.assert_allclose(freq.nu[:, 0], expected, rtol=1e-10)
+    rot = rotation_number(oscillator, seeds, t=300.0, n=4096, dt=0.02, method="yoshida8",
+                          params={"s": 1.0})
+    assert rot.unit == "turns per unit time"
+    np.testing.assert_allclose(rot.nu[:, 0], expected, rtol=1e-10)
+
+
 def test_weakly_anharmonic_oscillator_frequency_shift(oscillator):
     """Landau & Lifshitz, Mechanics, sec. 28, eq. (28.13): x'' + w0^2 x = -a x^2 - b x^3
     oscillates at w = w0 + [3b/(8 w0) - 5a^2/(12 w0^3)] A^2 + O(A^4), A the amplitude of
@@ -221,6 +239,11 @@ def test_standard_map_rotation_numbers(rotor):
     rot = rotation_number(sm, seeds, n=2048, params={"K": 0.5})
     tune = frequencies(sm, seeds, n=2048, params={"K": 0.5})
     assert abs(rot.nu[0, 0]) < 1e-12
+    line = phaselab.state_grid(sm, {"q": (0.1, 0.2, 2), "p": (0.5, 2.5, 4)})
+    profile = phaselab.frequency_map(sm, line, n=2048, params={"K": 0.5}, angle="q")
+    assert profile.kind == "rotation" and profile.image("nu").shape == (4, 2)
+    direct = rotation_number(sm, line.states, n=2048, params={"K": 0.5})
+    np.testing.assert_array_equal(profile.nu, direct.nu)
     assert tune.nu[0, 0] == pytest.approx(np.arccos(1 - 0.25) / (2 * np.pi), abs=1e-6)
     np.testing.assert_allclose(tune.nu[1:, 0], (rot.nu[1:, 0] + 0.5) % 1 - 0.5, atol=1e-9)
 
