@@ -291,7 +291,10 @@ def test_frequency_map_over_a_grid(tmp_path, kicked_rotation):
     back = xr.open_dataset(path)
     np.testing.assert_array_equal(back["nu"].values, ds["nu"].values)
     back.close()
-    assert sorted(os.listdir(tmp_path)) == ["tunes.nc"]
+    assert sorted(os.listdir(tmp_path)) == ["tunes.nc"]     # no temporary left behind
+    plain = tmp_path / "plain.txt"
+    plain.write_text("x")                                    # a file made the ordinary way
+    assert path.stat().st_mode & 0o777 == plain.stat().st_mode & 0o777
 
 
 def test_frequency_map_on_a_shell_grid_skips_forbidden_points(pair):

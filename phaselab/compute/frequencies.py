@@ -17,7 +17,7 @@ from __future__ import annotations
 import json
 import math
 import os
-import tempfile
+import uuid
 from collections.abc import Mapping
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -346,7 +346,9 @@ def integration_step(system, seeds, t=None, n=None, params=None, method="auto", 
     prm = system.param_values(params)
     how = _sampling(system, plane, t, n)
     timed = not system.is_autonomous
-    work = system.extended() if timed and how != "plane" else system
+    if timed and how == "plane":
+        return None          # frequencies() explains why a driven flow has no plane section
+    work = system.extended() if timed else system
     meth = inputs.method(work, method)
     period = system.driving_period(pdict) if timed and system.period is not None else None
     if work is not system:
@@ -847,20 +849,19 @@ def _to_xarray(res):
 
 
 def atomic_write(path, write) -> Path:
-    """Call ``write(temporary_path)`` for a file in ``path``'s folder, then rename it to
-    ``path`` (so a reader never sees a half-written file)."""
+    """Call ``write(temporary_path)`` for a file beside ``path`` (same suffix, so writers that
+    go by the suffix pick the right format), then rename it to ``path``: a reader never sees
+    a half-written file. The file gets the usual permissions (not a private temporary's)."""
     path = Path(path)
     folder = path.parent if str(path.parent) else Path(".")
     if not folder.is_dir():
-        raise PhaselabError(f"cannot save to {path}: folder {folder} does not exist")
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.stem}-", suffix=path.suffix, dir=folder)
-    os.close(fd)
+        raise ParameterError(f"cannot save to {path}: folder {folder} does not exist")
+    tmp = folder / f".{path.stem}.{os.getpid()}-{uuid.uuid4().hex[:8]}{path.suffix}"
     try:
-        write(tmp)
+        write(str(tmp))
         os.replace(tmp, path)
     except BaseException:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
+        tmp.unlink(missing_ok=True)
         raise
     return path
 

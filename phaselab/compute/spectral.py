@@ -44,6 +44,8 @@ from dataclasses import dataclass
 import numpy as np
 from numba import njit, prange
 
+from phaselab.errors import ParameterError
+
 __all__ = ["SpectralLines", "Workspace", "leading_lines", "window", "chunk_rows", "MAX_WINDOW_ORDER"]
 
 MAX_WINDOW_ORDER = 8
@@ -465,21 +467,23 @@ def leading_lines(signals, lines: int = 1, window_order: int = 1,
     Gram-Schmidt step), so earlier amplitudes are corrected as more lines are found.
     """
     x = np.asarray(signals)
+    if x.dtype.kind not in "iufc":
+        raise ParameterError(f"signals must be numbers, got dtype {x.dtype}")
     if x.ndim == 1:
         x = x[None, :]
     if x.ndim != 2:
-        raise ValueError(f"signals must have shape (n_signals, n_samples), got {x.shape}")
+        raise ParameterError(f"signals must have shape (n_signals, n_samples), got {x.shape}")
     lines = int(lines)
     p = int(window_order)
     if lines < 1:
-        raise ValueError("lines must be >= 1")
+        raise ParameterError("lines must be >= 1")
     if not 0 <= p <= MAX_WINDOW_ORDER:
-        raise ValueError(f"window order must be between 0 and {MAX_WINDOW_ORDER}")
+        raise ParameterError(f"window order must be between 0 and {MAX_WINDOW_ORDER}")
     n_sig, n = x.shape
     if n < 8:
-        raise ValueError(f"at least 8 samples are needed, got {n}")
+        raise ParameterError(f"at least 8 samples are needed, got {n}")
     if not np.all(np.isfinite(x)):
-        raise ValueError("signals must be finite")
+        raise ParameterError("signals must be finite")
     ws = workspace if workspace is not None else Workspace()
     nu = np.full((n_sig, lines), np.nan)
     amp = np.full((n_sig, lines), np.nan)

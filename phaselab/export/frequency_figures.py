@@ -19,7 +19,7 @@ from pathlib import Path
 
 import numpy as np
 
-from phaselab.errors import PhaselabError
+from phaselab.errors import ParameterError
 
 __all__ = ["Resonance", "resonances", "frequency_map_figure", "diffusion_map_figure",
            "frequency_profile_figure", "save_figure", "save_result"]
@@ -94,10 +94,10 @@ def resonances(order, xlim, ylim, base=1.0) -> list[Resonance]:
     ``m, n`` positive. ``base=None`` (an autonomous flow sampled in time) keeps ``p = 0``.
     """
     if isinstance(order, bool) or not isinstance(order, (int, np.integer)) or not 1 <= order <= 30:
-        raise PhaselabError(f"order must be an integer from 1 to 30, got {order!r}")
+        raise ParameterError(f"order must be an integer from 1 to 30, got {order!r}")
     (x0, x1), (y0, y1) = (sorted(map(float, xlim)), sorted(map(float, ylim)))
     if not all(math.isfinite(v) for v in (x0, x1, y0, y1)) or x0 == x1 or y0 == y1:
-        raise PhaselabError(f"the view must be finite and not empty, got {xlim!r} x {ylim!r}")
+        raise ParameterError(f"the view must be finite and not empty, got {xlim!r} x {ylim!r}")
     out = []
     for k in range(1, int(order) + 1):
         pairs = sorted({(m, n) for m in range(0, k + 1) for n in (k - m, m - k)
@@ -194,25 +194,25 @@ def _footer(result) -> str:
 def _check_result(result):
     for name in ("nu", "diffusion", "valid", "names", "unit"):
         if not hasattr(result, name):
-            raise PhaselabError(f"expected a Frequencies or FrequencyMap result, got "
+            raise ParameterError(f"expected a Frequencies or FrequencyMap result, got "
                                 f"{type(result).__name__} without .{name}")
     if not np.any(result.valid):
-        raise PhaselabError("no orbit was analysed in full: nothing to draw")
+        raise ParameterError("no orbit was analysed in full: nothing to draw")
 
 
 def _check_size(size, dpi):
     try:
         width, height = (float(v) for v in size)
     except (TypeError, ValueError):
-        raise PhaselabError(f"size must be (width, height) in inches, got {size!r}") from None
+        raise ParameterError(f"size must be (width, height) in inches, got {size!r}") from None
     if not (math.isfinite(width) and math.isfinite(height) and width >= 2.5 and height >= 2.0):
-        raise PhaselabError(f"size must be at least 2.5 x 2 inches, got {size!r}")
+        raise ParameterError(f"size must be at least 2.5 x 2 inches, got {size!r}")
     try:
         dpi = float(dpi)
     except (TypeError, ValueError):
-        raise PhaselabError(f"dpi must be a number, got {dpi!r}") from None
+        raise ParameterError(f"dpi must be a number, got {dpi!r}") from None
     if not (math.isfinite(dpi) and 10 <= dpi <= 2400):
-        raise PhaselabError(f"dpi must be between 10 and 2400, got {dpi!r}")
+        raise ParameterError(f"dpi must be between 10 and 2400, got {dpi!r}")
     return width, height, dpi
 
 
@@ -225,7 +225,7 @@ def _frame(width, height, dpi, title, footer_text, colorbar):
     top = 0.45 if title else 0.2
     ax_w, ax_h = width - left - right, height - bottom - top
     if ax_w < 1.0 or ax_h < 0.8:
-        raise PhaselabError(f"size ({width}, {height}) leaves no room for the plot; make it larger")
+        raise ParameterError(f"size ({width}, {height}) leaves no room for the plot; make it larger")
     ax = fig.add_axes((left / width, bottom / height, ax_w / width, ax_h / height))
     cax = None
     if colorbar:
@@ -306,14 +306,14 @@ def frequency_map_figure(result, columns=(0, 1), order=4, label_order=None, size
     try:
         i, j = (int(c) for c in columns)
     except (TypeError, ValueError):
-        raise PhaselabError(f"columns must be two column indices, got {columns!r}") from None
+        raise ParameterError(f"columns must be two column indices, got {columns!r}") from None
     if nu.shape[1] < 2:
-        raise PhaselabError(f"a frequency map needs two frequencies per orbit; this result has "
+        raise ParameterError(f"a frequency map needs two frequencies per orbit; this result has "
                             f"one ({', '.join(result.names)}): draw frequency_profile_figure instead")
     if not (0 <= i < nu.shape[1] and 0 <= j < nu.shape[1] and i != j):
-        raise PhaselabError(f"columns must be two different indices below {nu.shape[1]}, got {columns!r}")
+        raise ParameterError(f"columns must be two different indices below {nu.shape[1]}, got {columns!r}")
     if isinstance(order, bool) or not isinstance(order, (int, np.integer)) or not 0 <= order <= 30:
-        raise PhaselabError(f"order must be an integer from 0 to 30, got {order!r}")
+        raise ParameterError(f"order must be an integer from 0 to 30, got {order!r}")
     width, height, dpi = _check_size(size, dpi)
     ok = np.asarray(result.valid)
     x, y, d = nu[ok, i], nu[ok, j], np.asarray(result.diffusion, dtype=float)[ok]
@@ -384,7 +384,7 @@ def diffusion_map_figure(fmap, size=(6.0, 5.0), dpi=150, vmin=None, vmax=None, t
     _check_result(fmap)
     grid = getattr(fmap, "grid", None)
     if grid is None:
-        raise PhaselabError("a diffusion map needs a result computed over a grid "
+        raise ParameterError("a diffusion map needs a result computed over a grid "
                             "(frequency_map(system, state_grid(...)))")
     width, height, dpi = _check_size(size, dpi)
     img = fmap.image("diffusion")
@@ -448,12 +448,12 @@ def frequency_profile_figure(result, along=None, column=0, rationals=None, size=
     _check_result(result)
     nu = np.asarray(result.nu, dtype=float)
     if isinstance(column, bool) or not isinstance(column, (int, np.integer)) or not 0 <= column < nu.shape[1]:
-        raise PhaselabError(f"column must be an index below {nu.shape[1]}, got {column!r}")
+        raise ParameterError(f"column must be an index below {nu.shape[1]}, got {column!r}")
     width, height, dpi = _check_size(size, dpi)
     xs, xlabel = _along(result, along)
     ok = np.asarray(result.valid) & np.isfinite(xs)
     if not ok.any():
-        raise PhaselabError("no analysed orbit has a finite position along the profile")
+        raise ParameterError("no analysed orbit has a finite position along the profile")
     x, yv, d = xs[ok], nu[ok, column], np.asarray(result.diffusion, dtype=float)[ok]
     idx = np.argsort(x)
     x, yv, d = x[idx], yv[idx], d[idx]
@@ -461,7 +461,7 @@ def frequency_profile_figure(result, along=None, column=0, rationals=None, size=
     if rationals is None:
         rationals = 5 if base == 1.0 else 0
     if isinstance(rationals, bool) or not isinstance(rationals, (int, np.integer)) or not 0 <= rationals <= 50:
-        raise PhaselabError(f"rationals must be an integer from 0 to 50, got {rationals!r}")
+        raise ParameterError(f"rationals must be an integer from 0 to 50, got {rationals!r}")
     kind = getattr(result, "kind", "frequency")
     with matplotlib.rc_context(_RC):
         fig, ax, cax = _frame(width, height, dpi, title, _footer(result) if footer else "",
@@ -513,15 +513,15 @@ def _along(result, along):
         return seeds[:, k], _axis_label(state[k] if k < len(state) else f"z{k}")
     if isinstance(along, str):
         if along not in state:
-            raise PhaselabError(f"along names unknown state component {along!r}; the state is "
+            raise ParameterError(f"along names unknown state component {along!r}; the state is "
                                 f"({', '.join(state)})")
         return seeds[:, state.index(along)], _axis_label(along)
     try:
         values = np.asarray(along, dtype=float).ravel()
     except (TypeError, ValueError):
-        raise PhaselabError("along must be a state name or one number per orbit") from None
+        raise ParameterError("along must be a state name or one number per orbit") from None
     if values.shape != (n,):
-        raise PhaselabError(f"along must hold one value per orbit ({n}), got {np.shape(along)}")
+        raise ParameterError(f"along must hold one value per orbit ({n}), got {np.shape(along)}")
     return values, ""
 
 
@@ -536,7 +536,7 @@ def save_figure(fig, path) -> Path:
     path = Path(path)
     fmt = _SUFFIXES.get(path.suffix.lower())
     if fmt is None:
-        raise PhaselabError(f"a figure is written as .svg, .pdf or .png, not "
+        raise ParameterError(f"a figure is written as .svg, .pdf or .png, not "
                             f"{path.suffix or 'no suffix'!r}")
     metadata = {"Creator": "phaselab"} if fmt in ("pdf", "svg") else {"Software": "phaselab"}
 
@@ -556,10 +556,10 @@ def save_result(result, path, **kwargs) -> Path:
     suffix = path.suffix.lower()
     if suffix == ".nc":
         if kwargs:
-            raise PhaselabError(f".nc data files take no options, got {', '.join(sorted(kwargs))}")
+            raise ParameterError(f".nc data files take no options, got {', '.join(sorted(kwargs))}")
         return save_netcdf(result.to_xarray(), path)
     if suffix not in _SUFFIXES:
-        raise PhaselabError(f"cannot save as {suffix or 'a file without suffix'!r}; use .nc, .svg, "
+        raise ParameterError(f"cannot save as {suffix or 'a file without suffix'!r}; use .nc, .svg, "
                             ".pdf or .png")
     if getattr(result, "grid", None) is not None:
         fig = diffusion_map_figure(result, **kwargs)
