@@ -60,6 +60,9 @@ SECTION_CHECK_EVERY = 8
 """Steps between escape checks of the section loop (and at every crossing)."""
 SECTION_LANES = 4
 """Orbits stepped side by side on one thread by the section loop."""
+PERIODIC_REFINE_SUBSTEPS = 64
+"""Fixed RK4 sub-steps of Henon's step with the tangent carried along (a smooth map of the
+start, as Newton's method needs; its error is far below the refined crossings' 1e-12)."""
 ENERGY_LIMIT = 1e-3
 """Default bound on an orbit's relative energy error ``|H - H0| / max(|H0|, 1)``; an orbit
 above it keeps its numbers but gets ``ENERGY_DRIFT`` instead of ``OK``."""
@@ -70,6 +73,7 @@ LOOP_CONSTANTS = {
     "COMPOSITION": COMPOSITION, "GAUSS": GAUSS, "RK4": RK4,
     "SECTION_REFINE_TOL": SECTION_REFINE_TOL, "SECTION_REFINE_MAX": SECTION_REFINE_MAX,
     "SECTION_CHECK_EVERY": SECTION_CHECK_EVERY, "SECTION_LANES": SECTION_LANES,
+    "PERIODIC_REFINE_SUBSTEPS": PERIODIC_REFINE_SUBSTEPS,
 }
 """The constants handed to every assembled loop module (name -> int or float)."""
 

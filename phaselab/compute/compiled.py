@@ -342,10 +342,40 @@ def ready_signatures(name: str) -> dict:
     return data
 
 
-def _signature(args) -> tuple:
-    import numba
+_signatures: dict = {}
 
-    return tuple(numba.typeof(a) for a in args)
+
+def _type_key(a):
+    if isinstance(a, np.ndarray):
+        return ("a", a.dtype.str, a.ndim, a.flags.c_contiguous, a.flags.writeable)
+    if isinstance(a, (bool, np.bool_)):
+        return "b"
+    if isinstance(a, (int, np.integer)):
+        return "i"
+    if isinstance(a, (float, np.floating)):
+        return "f"
+    return ("o", type(a))
+
+
+def _signature(args) -> tuple:
+    """The numba types of ``args`` (looked up once per combination of cheap type keys: numba's
+    own typing costs most of a millisecond per call)."""
+    key = tuple(_type_key(a) for a in args)
+    sig = _signatures.get(key)
+    if sig is None:
+        import numba
+
+        sig = tuple(numba.typeof(a) for a in args)
+        _signatures[key] = sig
+    return sig
+
+
+def _rows(args) -> int:
+    """Rows (orbits) of the first array argument of two or more dimensions."""
+    for a in args:
+        if isinstance(a, np.ndarray) and a.ndim >= 2:
+            return a.shape[0]
+    return 0
 
 
 class LoopSet:
@@ -361,8 +391,9 @@ class LoopSet:
     files : tuple of LoopFile
     """
 
-    def __init__(self, system, files: tuple[LoopFile, ...]):
+    def __init__(self, system, files: tuple[LoopFile, ...], serial: bool = False):
         self.system = system
+        self._serial = serial
         self.files = files
         self.kernel = compile_kernel(system)
         self._generic = None
@@ -386,6 +417,18 @@ class LoopSet:
         if self._inlined is None:
             self._inlined = load_module(self._inlined_name, self._make_inlined_source)
         return self._inlined
+
+    @property
+    def serial(self) -> "LoopSet":
+        """The same loops run on the calling thread only (for small batches of cheap orbits,
+        where starting threads costs more than it gains)."""
+        twin = self.__dict__.get("_twin")
+        if twin is None:
+            twin = LoopSet.__new__(LoopSet)
+            twin.__dict__.update(self.__dict__)
+            twin._serial = True
+            self.__dict__["_twin"] = twin
+        return twin
 
     # ------------------------------------------------------------------ calls
     def __getattr__(self, name):
@@ -412,7 +455,19 @@ class LoopSet:
                 request_build(self.system, tuple(f.name for f in self.files), self._inlined_name, entry,
                               _signature((0, *args)))
         full = (0, *args) if inlined else (self.kernel.kernel, *args)
-        return self._prepare(entry, "inlined" if inlined else "generic", full)(*full)
+        disp = self._prepare(entry, "inlined" if inlined else "generic", full)
+        if self._serial or _rows(args) <= 1:
+            # one orbit gains nothing from threads, and waking them costs milliseconds on a
+            # busy machine
+            import numba
+
+            before = numba.get_num_threads()
+            numba.set_num_threads(1)
+            try:
+                return disp(*full)
+            finally:
+                numba.set_num_threads(before)
+        return disp(*full)
 
     def _prepare(self, entry, form, full):
         """The dispatcher of ``entry``, compiled (or loaded from numba's cache) for the types of

@@ -43,14 +43,51 @@ __all__ = ["save", "section_figure", "save_figure", "write_section_csv", "read_s
            "save_html", "section_metadata", "ORBIT_COLORS", "level_set_figure", "save_level_set"]
 
 
+def _save_section(section, path, **kwargs):
+    path = Path(path)
+    suffix = path.suffix.lower()
+    writer = _WRITERS.get(suffix)
+    if writer is None:
+        known = ", ".join(_WRITERS)
+        raise PhaselabError(
+            f"cannot save a section as {suffix or 'a file without suffix'!r} ({path.name}); "
+            f"use one of {known}")
+    check_section(section)
+    if suffix in (".csv", ".nc") and kwargs:
+        raise PhaselabError(
+            f"{suffix} data files take no options, got {', '.join(sorted(kwargs))}")
+    if not path.parent.exists():
+        raise PhaselabError(f"cannot save to {path}: folder {path.parent} does not exist")
+    return writer(section, path, **kwargs)
+
+
+def _save_structure(obj, path, **kwargs):
+    from phaselab.export.structures import save_structure
+
+    return save_structure(obj, path, **kwargs)
+
+
+SAVERS = {
+    "Section": _save_section,
+    "LevelSet": save_level_set,
+    "PeriodicOrbit": _save_structure,
+    "PeriodicOrbits": _save_structure,
+    "Manifold": _save_structure,
+    "Family": _save_structure,
+}
+"""How each result type is saved, by class name (the one table ``save`` dispatches on)."""
+
+
 def save(section, path, **kwargs):
-    """Write ``section`` to ``path`` in the format named by its suffix.
+    """Write a result to ``path`` in the format named by its suffix.
 
     Parameters
     ----------
-    section : phaselab.compute.results.Section
+    section : Section, LevelSet, PeriodicOrbit, PeriodicOrbits, Manifold or Family
+        The result (:data:`SAVERS` lists the types and their writers).
     path : str or pathlib.Path
-        Ending in .svg, .pdf, .png, .csv, .nc or .html.
+        For a section .svg, .pdf, .png, .csv, .nc or .html; for a level set a figure; for
+        orbits, manifolds and families .json, .nc or a figure.
     **kwargs
         Options of the writer: figure options (size, dpi, point_size, color, title,
         overlays, footer, ...) for images and HTML; none for data files.
@@ -66,20 +103,11 @@ def save(section, path, **kwargs):
         For an unknown suffix, a section without points, options a data file does not
         take, or (for .nc) a missing xarray.
     """
-    path = Path(path)
-    suffix = path.suffix.lower()
-    if hasattr(section, "levels") and hasattr(section, "lines"):  # a LevelSet
-        return save_level_set(section, path, **kwargs)
-    writer = _WRITERS.get(suffix)
-    if writer is None:
-        known = ", ".join(_WRITERS)
-        raise PhaselabError(
-            f"cannot save a section as {suffix or 'a file without suffix'!r} ({path.name}); "
-            f"use one of {known}")
-    check_section(section)
-    if suffix in (".csv", ".nc") and kwargs:
-        raise PhaselabError(
-            f"{suffix} data files take no options, got {', '.join(sorted(kwargs))}")
-    if not path.parent.exists():
-        raise PhaselabError(f"cannot save to {path}: folder {path.parent} does not exist")
-    return writer(section, path, **kwargs)
+    for cls in type(section).__mro__:
+        saver = SAVERS.get(cls.__name__)
+        if saver is not None:
+            return saver(section, path, **kwargs)
+    if hasattr(section, "points") and hasattr(section, "axes"):  # a section-like record
+        return _save_section(section, path, **kwargs)
+    raise PhaselabError(f"phaselab cannot save a {type(section).__name__}; it saves "
+                        + ", ".join(SAVERS))

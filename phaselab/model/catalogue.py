@@ -198,7 +198,9 @@ def standard_map() -> AreaPreservingMap:
 
     with both ``q`` and ``p`` wrapped into [0, 2 pi). ``K`` is the kick strength; the
     default 0.9716 is close to the value where the last invariant circle spanning the
-    cylinder breaks up (recalled from memory).
+    cylinder breaks up (recalled from memory). The map is reversible: R(q, p) =
+    (-q, p + K sin q) is an involution with R M R = M^-1 (its fixed lines q = 0 and q = pi
+    carry the symmetric periodic orbits of Greene's method).
 
     Source: B. V. Chirikov, "A universal instability of many-dimensional oscillator
     systems", Phys. Rep. 52, 263 (1979).
@@ -206,7 +208,8 @@ def standard_map() -> AreaPreservingMap:
     q, p, K = _real("q p K")
     two_pi = 2 * sp.pi
     return AreaPreservingMap([(p, p + K * sp.sin(q)), (q, q + p)], [q], [p],
-                             params={K: (0.9716, (0.0, 5.0))}, modulus=two_pi, name="standard_map")
+                             params={K: (0.9716, (0.0, 5.0))}, modulus=two_pi, name="standard_map",
+                             reversor=[-q, p + K * sp.sin(q)])
 
 
 def _count(n, low: int, who: str) -> int:

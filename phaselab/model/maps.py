@@ -64,6 +64,12 @@ class AreaPreservingMap(PhaseSpaceSystem):
         ``[2*pi, None]`` or ``[(-pi, pi), 2*pi]``. Numbers may be strings such as ``"2*pi"``.
     name : str, optional
         A label for plots and files.
+    reversor : sequence, optional
+        An involution R of phase space that reverses the map, R M R = M^-1, given like
+        ``update`` (2n expressions, or (target, expression) pairs). Its fixed sets are the
+        symmetry lines on which symmetric periodic orbits are searched (Greene's method, see
+        :func:`phaselab.periodic_orbit` with ``symmetric=True``). For the kick-then-drift
+        standard map, ``["-q", "p + K*sin(q)"]``. Checked at sample points.
 
     Attributes
     ----------
@@ -91,7 +97,7 @@ class AreaPreservingMap(PhaseSpaceSystem):
     period = None
     is_autonomous = True
 
-    def __init__(self, update, coords, momenta, params=None, modulus=None, name=None):
+    def __init__(self, update, coords, momenta, params=None, modulus=None, name=None, reversor=None):
         self._set_state(coords, momenta, "a map")
         names = [s.name for s in self.state_symbols]
         dupes = sorted({n for n in names if names.count(n) > 1})
@@ -104,6 +110,7 @@ class AreaPreservingMap(PhaseSpaceSystem):
         self.update: list[sp.Expr] = self._rules(update)
         self.modulus, self.modulus_low = self._modulus(modulus)
         self.determinant, self.area_check = self._check_area()
+        self.reversor = None if reversor is None else self._check_reversor(reversor)
 
     # ----------------------------------------------------------------- construction helpers
     def _expr(self, expr, what: str) -> sp.Expr:
@@ -186,6 +193,46 @@ class AreaPreservingMap(PhaseSpaceSystem):
             periods.append(high - low)
             lows.append(low)
         return tuple(periods), tuple(lows)
+
+    # ----------------------------------------------------------------- reversor
+    def _check_reversor(self, rules) -> list:
+        """The reversor's rules, checked at sample points: R(R(z)) = z and M(R(M(z))) = R(z)
+        (equivalent to R M R = M^-1 for an involution), both up to the modulus."""
+        exprs = self._rules(rules)
+        args = list(self.state_symbols) + list(self.param_symbols)
+        # lambdify prints sympy's own expression trees (never user text) into numpy code
+        r_fn = sp.lambdify(args, exprs, modules="numpy")
+        rng = np.random.default_rng(20241202)
+        z = self._sample_states(rng, N_SAMPLES)
+        k = self._sample_params(rng, N_SAMPLES)
+
+        def apply(fn, states, prm):
+            cols = fn(*[states[..., i] for i in range(states.shape[-1])], *prm)
+            return np.stack([np.broadcast_to(np.asarray(c, dtype=float), states.shape[:-1]) for c in cols],
+                            axis=-1)
+
+        worst = 0.0
+        with np.errstate(all="ignore"):
+            for zi, ki in zip(z, k):
+                zi = zi[None, :]
+                rz = apply(r_fn, zi, ki)
+                back = apply(r_fn, rz, ki)
+                mrm = apply(self._step_fn, apply(r_fn, apply(self._step_fn, zi, ki), ki), ki)
+                for a, b in ((back, zi), (mrm, rz)):
+                    gap = self._wrapped_gap(a - b)
+                    if np.isfinite(gap):
+                        worst = max(worst, gap)
+        if worst > 1e-8:
+            raise ModelError(f"the reversor of map {self.name!r} is not an involution that reverses the map "
+                             f"(R(R(z)) = z and M(R(M(z))) = R(z) fail by {worst:.3g} at sample points)")
+        return exprs
+
+    def _wrapped_gap(self, diff) -> float:
+        diff = np.array(diff, dtype=float)
+        for i, period in enumerate(self.modulus):
+            if period is not None:
+                diff[..., i] = (diff[..., i] + 0.5 * period) % period - 0.5 * period
+        return float(np.max(np.abs(diff)))
 
     # ----------------------------------------------------------------- area preservation
     @cached_property

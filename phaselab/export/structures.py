@@ -1,0 +1,285 @@
+"""Figures and data files of phase-space structure: periodic orbits, invariant manifolds,
+families of orbits.
+
+Periodic orbits are marked by their stability with a shape of their own, so that a figure
+printed in grey still tells them apart: a filled circle for stable, a cross for unstable, a
+triangle for inverse-unstable, a square for parabolic. Unstable manifold branches are solid
+lines, stable ones dashed. Figures may be drawn over a surface of section.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+import os
+import tempfile
+from pathlib import Path
+
+import numpy as np
+
+from phaselab.errors import PhaselabError
+
+MARKERS = {
+    "stable": ("o", "#2b5d7d"),
+    "unstable": ("X", "#b5452f"),
+    "inverse-unstable": ("^", "#7a5c9e"),
+    "parabolic": ("s", "#5b5b5b"),
+}
+"""Marker shape and colour per stability."""
+
+BRANCH_STYLE = {"unstable": ("#c0562f", "-"), "stable": ("#2b5d7d", "--")}
+"""Colour and line style of manifold branches."""
+
+MODEL_NOTE = ("Model results: confirm with validated tools and the responsible engineers before they "
+              "inform a design.")
+
+
+def _kind(obj) -> str:
+    return type(obj).__name__
+
+
+def _orbits_of(items):
+    out = []
+    for item in items:
+        if _kind(item) == "PeriodicOrbits":
+            out += list(item.orbits)
+        elif _kind(item) == "PeriodicOrbit":
+            out.append(item)
+        elif _kind(item) == "Family":
+            out += list(item.orbits)
+    return out
+
+
+def _manifolds_of(items):
+    return [item for item in items if _kind(item) == "Manifold"]
+
+
+def default_axes(system, plane=None) -> tuple[int, int]:
+    """The two state components shown by default, as :func:`phaselab.section` chooses them."""
+    m = len(system.state_symbols)
+    n = m // 2
+    if isinstance(plane, dict) and plane and n > 1:
+        name = next(iter(plane))
+        k = [s.name for s in system.state_symbols].index(getattr(name, "name", name))
+        other = 0 if k % n != 0 else 1
+        return other, n + other
+    return 0, n
+
+
+def structure_figure(items, section=None, axes=None, size=(6.0, 4.5), dpi=150, title=None, footer=True,
+                     xlim=None, ylim=None, note=MODEL_NOTE, marker_size=7.0, line_width=0.9):
+    """A static figure of periodic orbits and manifolds, over a section if one is given.
+
+    Parameters
+    ----------
+    items : sequence
+        :class:`~phaselab.compute.periodic.PeriodicOrbit`, ``PeriodicOrbits``,
+        :class:`~phaselab.compute.manifolds.Manifold` and ``Family`` objects.
+    section : Section, optional
+        Drawn first, in its own colours (see :func:`phaselab.export.section_figure`).
+    axes : pair of str, optional
+        The two state components shown (default: the section's, or the section convention).
+    Other parameters as for :func:`phaselab.export.section_figure`.
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    import matplotlib
+
+    from phaselab.export.describe import mathtext_label
+    from phaselab.export.figures import _RC, _check_size, section_figure
+
+    items = list(items)
+    orbits = _orbits_of(items)
+    manifolds = _manifolds_of(items)
+    if not orbits and not manifolds:
+        raise PhaselabError("nothing to draw: give periodic orbits, manifolds or families")
+    system = (orbits[0].system if orbits else manifolds[0].orbit.system)
+    if section is not None:
+        fig = section_figure(section, size=size, dpi=dpi, title=title, footer=footer, xlim=xlim, ylim=ylim,
+                             note=note, point_size=1.2)
+        ax = fig.axes[0]
+        i, j = section.axes
+    else:
+        width, height = _check_size(size, dpi)
+        if axes is not None:
+            names = [s.name for s in system.state_symbols]
+            i, j = (names.index(getattr(a, "name", a)) for a in axes)
+        else:
+            plane = orbits[0].plane if orbits else manifolds[0].orbit.plane
+            i, j = default_axes(system, plane if isinstance(plane, dict) else None)
+        with matplotlib.rc_context(_RC):
+            from matplotlib.figure import Figure
+
+            fig = Figure(figsize=(width, height), dpi=dpi, facecolor="white")
+            bottom = 0.55 + (0.2 if note else 0.0)
+            top = 0.42 if title else 0.18
+            ax = fig.add_axes((0.72 / width, bottom / height, (width - 0.94) / width,
+                               (height - bottom - top) / height))
+            syms = system.state_symbols
+            ax.set_xlabel(mathtext_label(syms[i]), fontsize=11, labelpad=3)
+            ax.set_ylabel(mathtext_label(syms[j]), fontsize=11, labelpad=4)
+            for spine in ("top", "right"):
+                ax.spines[spine].set_visible(False)
+            if title:
+                fig.text(0.72 / width, 1 - 0.12 / height, str(title), ha="left", va="top", fontsize=11)
+            if note:
+                fig.text(0.1 / width, 0.1 / height, note, ha="left", va="bottom", fontsize=6.5,
+                         color="#6a6a6a", style="italic")
+    with matplotlib.rc_context(_RC):
+        for man in manifolds:
+            colour, style = BRANCH_STYLE.get(man.branch, ("#333333", "-"))
+            for line in man.branches:
+                ax.plot(line[:, i], line[:, j], color=colour, linestyle=style, linewidth=line_width,
+                        zorder=3)
+        seen = set()
+        for orbit in orbits:
+            marker, colour = MARKERS.get(orbit.stability, ("D", "#333333"))
+            label = orbit.stability if orbit.stability not in seen else None
+            seen.add(orbit.stability)
+            ax.scatter(orbit.points[:, i], orbit.points[:, j], s=marker_size ** 2, marker=marker,
+                       c=colour, edgecolors="white", linewidths=0.6, zorder=4, label=label)
+        if seen:
+            ax.legend(loc="upper right", fontsize=7.5, frameon=False, handletextpad=0.3, borderaxespad=0.2)
+        if section is None:
+            ax.margins(0.06)
+            if xlim is not None:
+                ax.set_xlim(*xlim)
+            if ylim is not None:
+                ax.set_ylim(*ylim)
+    return fig
+
+
+# ----------------------------------------------------------------------------- data
+def _summary(orbit) -> dict:
+    names = [s.name for s in orbit.system.state_symbols]
+    return {
+        "stability": orbit.stability,
+        "residue": orbit.residue,
+        "rotation_number": orbit.rotation_number,
+        "period": orbit.period,
+        "crossings": orbit.crossings,
+        "energy": orbit.energy,
+        "points": {n: orbit.points[:, c].tolist() for c, n in enumerate(names)},
+        "monodromy": orbit.monodromy.tolist(),
+        "multipliers": [[float(m.real), float(m.imag)] for m in np.atleast_1d(orbit.multipliers)],
+        "coordinates": list(orbit.coordinates),
+        "residual": orbit.residual,
+        "params": orbit.params,
+        "method": orbit.method,
+        "dt": None if not math.isfinite(orbit.dt) else orbit.dt,
+    }
+
+
+def _provenance(system) -> dict:
+    from phaselab import __version__
+    from phaselab.export.describe import expression_text
+
+    return {"system": getattr(system, "name", ""), "expression": expression_text(system),
+            "state": json.dumps([s.name for s in system.state_symbols]),
+            "phaselab_version": __version__, "note": MODEL_NOTE}
+
+
+def periodic_orbit_dataset(orbit):
+    """One periodic orbit as an ``xarray.Dataset``: ``points`` (point, component),
+    ``monodromy`` (row, column), ``multipliers`` (real and imaginary parts), the stability,
+    residue, period and provenance as attributes."""
+    return orbits_dataset([orbit])
+
+
+def orbits_dataset(orbits):
+    """Several periodic orbits of one system as an ``xarray.Dataset`` (dimension ``orbit``;
+    point arrays padded with NaN to the longest orbit)."""
+    import xarray as xr
+
+    if not orbits:
+        raise PhaselabError("no orbits to write")
+    system = orbits[0].system
+    names = [s.name for s in system.state_symbols]
+    k = max(o.points.shape[0] for o in orbits)
+    d = max(o.monodromy.shape[0] if o.monodromy.ndim == 2 else 0 for o in orbits)
+    pts = np.full((len(orbits), k, len(names)), np.nan)
+    mono = np.full((len(orbits), d, d), np.nan)
+    mult = np.full((len(orbits), d, 2), np.nan)
+    for a, o in enumerate(orbits):
+        pts[a, :len(o.points)] = o.points
+        if d and o.monodromy.ndim == 2:
+            dd = o.monodromy.shape[0]
+            mono[a, :dd, :dd] = o.monodromy
+            mm = np.atleast_1d(o.multipliers)
+            mult[a, :len(mm), 0], mult[a, :len(mm), 1] = mm.real, mm.imag
+    coords = list(orbits[0].coordinates) if d else []
+    ds = xr.Dataset(
+        data_vars={
+            "points": (("orbit", "point", "component"), pts),
+            "monodromy": (("orbit", "row", "column"), mono),
+            "multipliers": (("orbit", "multiplier", "part"), mult),
+            "period": (("orbit",), np.array([o.period for o in orbits], float)),
+            "residue": (("orbit",), np.array([np.nan if o.residue is None else o.residue for o in orbits])),
+            "stability": (("orbit",), np.array([o.stability for o in orbits], dtype=object)),
+        },
+        coords={"orbit": np.arange(len(orbits)), "component": names, "row": coords[:d],
+                "column": coords[:d], "part": ["real", "imaginary"]},
+        attrs=_provenance(system))
+    ds["points"].attrs["description"] = "the orbit's points on its section; NaN past its period"
+    return ds
+
+
+def _write_atomic(path: Path, write) -> Path:
+    path = Path(path)
+    if not path.parent.exists():
+        raise PhaselabError(f"cannot save to {path}: folder {path.parent} does not exist")
+    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.stem}-", suffix=path.suffix)
+    os.close(fd)
+    try:
+        write(tmp)
+        os.replace(tmp, path)
+    except BaseException:
+        try:
+            os.unlink(tmp)
+        except OSError:
+            pass
+        raise
+    return path
+
+
+def save_structure(obj, path, **kwargs) -> Path:
+    """Write periodic orbits, manifolds or families: ``.json``, ``.nc`` or a figure."""
+    path = Path(path)
+    suffix = path.suffix.lower()
+    if suffix in (".svg", ".pdf", ".png"):
+        import matplotlib
+
+        from phaselab.export.figures import _RC
+
+        if _kind(obj) == "Family":
+            from phaselab.export.families import family_figure
+
+            fig = family_figure(obj, **kwargs)
+        else:
+            section = kwargs.pop("section", None)
+            items = [obj, obj.orbit] if _kind(obj) == "Manifold" else [obj]
+            fig = structure_figure(items, section=section, **kwargs)
+        with matplotlib.rc_context(_RC):
+            return _write_atomic(path, lambda tmp: fig.savefig(tmp, format=suffix[1:], dpi=fig.dpi,
+                                                                facecolor="white"))
+    if kwargs:
+        raise PhaselabError(f"{suffix} data files take no options, got {', '.join(sorted(kwargs))}")
+    if suffix == ".json":
+        data = obj.summary() if hasattr(obj, "summary") else _structure_summary(obj)
+        text = json.dumps(data, indent=1, allow_nan=True)
+        return _write_atomic(path, lambda tmp: Path(tmp).write_text(text + "\n", encoding="utf-8"))
+    if suffix == ".nc":
+        ds = obj.to_xarray()
+        return _write_atomic(path, lambda tmp: ds.to_netcdf(tmp))
+    raise PhaselabError(f"cannot save a {_kind(obj)} as {suffix or 'a file without suffix'!r}; use .json, "
+                        ".nc, .svg, .pdf or .png")
+
+
+def _structure_summary(obj) -> dict:
+    orbits = _orbits_of([obj])
+    system = orbits[0].system
+    out = {k: v for k, v in _provenance(system).items() if k != "state"}
+    out["orbits"] = [_summary(o) for o in orbits]
+    return out
