@@ -1,8 +1,8 @@
 """phaselab: explore the phase space of Hamiltonian systems.
 
-The model layer (``Hamiltonian``, ``AreaPreservingMap``, ``models``) is imported eagerly;
-numerics, export and widgets are imported on first use, so a script pays only for what it
-calls.
+``Hamiltonian`` and the error classes are imported with the package; everything else
+(``AreaPreservingMap``, ``models``, the numerics, export and the notebook widgets) is
+imported on first use, so a script pays only for what it calls.
 """
 
 __version__ = "0.1.0"

@@ -73,7 +73,7 @@ def test_henon_heiles_origin_and_saddles():
         assert e.energy == pytest.approx(1 / 6, abs=1e-12)  # saddle energy 1/6 (Henon & Heiles 1964)
         # linearisation checked with sympy's exact eigenvalues (reference library)
         assert same_spectrum(e.eigenvalues, sympy_eigenvalues(hh, e.state))
-        assert e.stability == "mixed"  # one saddle pair, one centre pair
+        assert e.stability == "saddle-centre"  # one saddle pair, one centre pair
     assert [e.energy for e in eqs] == sorted(e.energy for e in eqs)
 
 
@@ -164,7 +164,7 @@ def test_three_body_lagrange_points(mu):
     np.testing.assert_allclose([e.state[0] for e in collinear], [L3, L1, L2], atol=1e-10)
     np.testing.assert_allclose([e.state[1] for e in collinear], 0.0, atol=1e-12)
     for e in collinear:  # collinear points are saddle x centre for every mu (Szebehely 1967)
-        assert e.stability == "mixed"
+        assert e.stability == "saddle-centre"
 
 
 def test_routh_critical_mass_ratio():

@@ -3,8 +3,8 @@
 An equilibrium of Hamilton's equations is a state where the vector field
 ``(dH/dp, -dH/dq)`` vanishes, i.e. where ``grad H = 0`` (the symplectic matrix is
 invertible). Each one is classified by the eigenvalues of the linearised vector field
-``A = J * Hess H`` with ``J = [[0, I], [-I, 0]]`` (the same matrix as the compiled
-``jacobian`` kernel), evaluated here from the sympy Jacobian.
+``A = J * Hess H`` with ``J = [[0, I], [-I, 0]]``, the compiled ``jacobian`` kernel (the
+classification itself is :mod:`phaselab.compute.stability`).
 
 How they are found
 ------------------
@@ -61,14 +61,11 @@ import numpy as np
 import sympy as sp
 from scipy import optimize
 
+from phaselab.codegen import compile_kernel
+from phaselab.compute.stability import (STABILITIES, ZERO_EIGENVALUE, ZERO_REAL, classify_flow,  # noqa: F401
+                                        classify_map)
 from phaselab.errors import ModelError, ParameterError
 
-ZERO_REAL = 1e-9
-"""|Re(lambda)| below this times the scale of A counts as zero."""
-ZERO_EIGENVALUE = 1e-6
-"""|lambda| below this times the scale of A is a zero eigenvalue."""
-REPEATED = 1e-6
-"""Eigenvalues closer than this times the scale of A are repeated."""
 SAME_POINT = 1e-6
 """Solutions closer than this times (1 + |z|) are one equilibrium."""
 RESIDUAL = 1e-8
@@ -77,7 +74,6 @@ DEFAULT_HALF_WIDTH = 3.0
 """Default bounds of non-angle state variables: (-3, 3)."""
 MAX_DEGREE = 4
 MAX_BEZOUT = 64
-STABILITIES = ("elliptic", "hyperbolic", "mixed", "degenerate")
 
 
 @dataclass(repr=False, eq=False)
@@ -96,9 +92,11 @@ class Equilibrium:
     stability : str
         ``"elliptic"`` (flow: all purely imaginary and nonzero; map: all on the unit circle,
         none equal to 1), ``"hyperbolic"`` (flow: all with nonzero real part; map: all off the
-        unit circle), ``"mixed"`` (some of each, e.g. saddle-centre) or ``"degenerate"``
-        (zero eigenvalues, eigenvalue 1 for maps, or repeated eigenvalues forming a Jordan
-        block, where the linearisation does not decide).
+        unit circle), a name of the mixed type built from its pairs, such as
+        ``"saddle-centre"`` (one real pair, one imaginary pair) or ``"saddle-centre-centre"``,
+        or ``"degenerate"`` (zero eigenvalues, eigenvalue 1 for maps, or repeated eigenvalues
+        forming a Jordan block, where the linearisation does not decide). See
+        :mod:`phaselab.compute.stability`.
     names : tuple of str
         The state variable names, for display.
     method : str
@@ -146,79 +144,6 @@ def _cnum(v: complex) -> str:
     if re == "0":
         return f"{im}j"
     return f"{re}{'+' if v.imag > 0 else ''}{im}j"
-
-
-# --------------------------------------------------------------------------- classification
-def classify_flow(A: np.ndarray) -> tuple[np.ndarray, str]:
-    """Eigenvalues of a linearised Hamiltonian vector field and the stability they imply.
-
-    Parameters
-    ----------
-    A : ndarray, shape (2n, 2n)
-
-    Returns
-    -------
-    eigenvalues : ndarray of complex, shape (2n,), sorted by (real, imag)
-    stability : str, one of :data:`STABILITIES`
-    """
-    A = np.asarray(A, dtype=float)
-    lam = _sorted(np.linalg.eigvals(A))
-    if not np.all(np.isfinite(A)):
-        return lam, "degenerate"
-    scale = float(np.linalg.norm(A, 2))
-    if scale == 0.0 or np.any(np.abs(lam) < ZERO_EIGENVALUE * scale) or _defective(A, lam, scale):
-        return lam, "degenerate"
-    zero_re = np.abs(lam.real) < ZERO_REAL * scale
-    if zero_re.all():
-        return lam, "elliptic"
-    if not zero_re.any():
-        return lam, "hyperbolic"
-    return lam, "mixed"
-
-
-def classify_map(M: np.ndarray) -> tuple[np.ndarray, str]:
-    """Eigenvalues of the Jacobian of a map at a fixed point and the stability they imply.
-
-    On the unit circle (``||l| - 1| < 1e-9``) counts as elliptic, off it as hyperbolic; an
-    eigenvalue 1 or a Jordan block makes the fixed point degenerate.
-    """
-    M = np.asarray(M, dtype=float)
-    lam = _sorted(np.linalg.eigvals(M))
-    if not np.all(np.isfinite(M)):
-        return lam, "degenerate"
-    scale = max(1.0, float(np.linalg.norm(M, 2)))
-    if np.any(np.abs(lam - 1.0) < ZERO_EIGENVALUE) or _defective(M, lam, scale):
-        return lam, "degenerate"
-    on_circle = np.abs(np.abs(lam) - 1.0) < ZERO_REAL * scale
-    if on_circle.all():
-        return lam, "elliptic"
-    if not on_circle.any():
-        return lam, "hyperbolic"
-    return lam, "mixed"
-
-
-def _sorted(lam: np.ndarray) -> np.ndarray:
-    lam = np.asarray(lam, dtype=complex)
-    return lam[np.lexsort((lam.imag, np.round(lam.real, 12)))]
-
-
-def _defective(A: np.ndarray, lam: np.ndarray, scale: float) -> bool:
-    """True when a repeated eigenvalue has fewer independent eigenvectors than its multiplicity."""
-    n = len(lam)
-    seen = np.zeros(n, dtype=bool)
-    for i in range(n):
-        if seen[i]:
-            continue
-        close = np.abs(lam - lam[i]) < REPEATED * scale
-        seen |= close
-        m = int(close.sum())
-        if m < 2:
-            continue
-        centre = lam[close].mean()
-        sv = np.linalg.svd(A - centre * np.eye(n), compute_uv=False)
-        if int(np.sum(sv < REPEATED * scale)) < m:
-            return True
-    return False
 
 
 # --------------------------------------------------------------------------- public entry
@@ -296,11 +221,6 @@ def check_bounds(bounds, names: tuple[str, ...], what: str = "bounds") -> dict[s
     return out
 
 
-def _lambdify(args, exprs):
-    # lambdify prints sympy's own expression trees of the model into numpy code (no user text)
-    return sp.lambdify(args, exprs, modules="numpy")
-
-
 def _periodic_vars(fn, n_vars: int, candidates, rng, period=2 * np.pi) -> set[int]:
     """Indices among ``candidates`` in which ``fn`` is ``period`` periodic, tested numerically."""
     out = set()
@@ -352,7 +272,8 @@ class _Box:
         z = z.copy()
         for i, period in self.angles.items():
             if i in self.lows:
-                w = self.lows[i] + np.mod(z[i] - self.lows[i], period)
+                r = np.mod(z[i] - self.lows[i], period)
+                w = self.lows[i] + (0.0 if period - r <= 1e-12 * period else r)  # a hair below the top
             else:
                 w = period / 2 - np.mod(period / 2 - z[i], period)  # into (-period/2, period/2]
             if not (self.lo[i] - 1e-12 <= w <= self.hi[i] + 1e-12):
@@ -402,11 +323,12 @@ class _FlowSearch:
         self.fixed_idx = [i for i, s in enumerate(state) if s not in free]
         self.var_idx = [i for i in range(n2) if i not in self.fixed_idx]
         self.state = state
-        grad = [sp.diff(H, s) for s in state]
-        hess = [[sp.diff(g, s) for s in state] for g in grad]
-        self._H = _lambdify(state, H)
-        self._grad = _lambdify(state, grad)
-        self._hess = _lambdify(state, hess)
+        # numbers come from the compiled kernels: the vector field is (dH/dp, -dH/dq) and its
+        # Jacobian is J Hess H, J = [[0, I], [-I, 0]], so Hess H = -J (J Hess H)
+        self.kernel = compile_kernel(system)
+        n = system.dof
+        self._J = np.block([[np.zeros((n, n)), np.eye(n)], [-np.eye(n), np.zeros((n, n))]])
+        self._H = lambda *z: self.kernel.call("hamiltonian", np.array(z, dtype=float), self.values)
         rng = np.random.default_rng(12345)
         n = system.dof
         coord_idx = [i for i in range(n) if i not in self.fixed_idx]
@@ -422,10 +344,12 @@ class _FlowSearch:
         return z
 
     def grad(self, z):
-        return np.array([float(g) for g in self._grad(*z)])
+        f = self.kernel.call("vector_field", np.asarray(z, dtype=float), self.values)
+        n = len(f) // 2
+        return np.concatenate([-f[n:], f[:n]])
 
     def hess(self, z):
-        return np.array(self._hess(*z), dtype=float)
+        return -self._J @ self.kernel.call("jacobian", np.asarray(z, dtype=float), self.values)
 
     def _fun(self, x):
         return self.grad(self._full(x))[self.var_idx]
@@ -586,11 +510,7 @@ def _map_fixed_points(system, params, bounds, starts, seed) -> list[Equilibrium]
     names = tuple(s.name for s in state)
     given = check_bounds(bounds, names)
     values = system.param_values(params)
-    num = dict(zip(system.param_symbols, [sp.Float(v) for v in values]))
-    update = [e.xreplace(num) for e in system.update]
-    jac = [[sp.diff(e, s) for s in state] for e in update]
-    f_map = _lambdify(state, update)
-    f_jac = _lambdify(state, jac)
+    kernel = compile_kernel(system)
     n2 = len(state)
     periods = tuple(getattr(system, "modulus", None) or (None,) * n2)
     lows = tuple(getattr(system, "modulus_low", None) or (0.0,) * n2)
@@ -598,7 +518,7 @@ def _map_fixed_points(system, params, bounds, starts, seed) -> list[Equilibrium]
     box = _Box(names, given, periodic, lows={i: float(lows[i] or 0.0) for i in periodic})
 
     def step(z):
-        return np.array([float(v) for v in f_map(*z)])
+        return kernel.call("map_step", np.asarray(z, dtype=float), values)
 
     def residual(z):
         d = step(z) - z
@@ -607,7 +527,7 @@ def _map_fixed_points(system, params, bounds, starts, seed) -> list[Equilibrium]
         return d
 
     def jacobian(z):
-        return np.array(f_jac(*z), dtype=float) - np.eye(n2)
+        return kernel.call("map_jacobian", np.asarray(z, dtype=float), values) - np.eye(n2)
 
     found: list = []
     for z0 in box.random(starts, seed):
@@ -629,7 +549,7 @@ def _map_fixed_points(system, params, bounds, starts, seed) -> list[Equilibrium]
             _add_unique(found, z, res, "newton", box)
     out = []
     for z, res, method in found:
-        lam, stability = classify_map(np.array(f_jac(*z), dtype=float))
+        lam, stability = classify_map(kernel.call("map_jacobian", np.asarray(z, dtype=float), values))
         out.append(Equilibrium(state=z, energy=float("nan"), eigenvalues=lam, stability=stability,
                                names=names, method=method, residual=res, directions=np.zeros((0, n2))))
     out.sort(key=lambda e: tuple(e.state))

@@ -103,7 +103,7 @@ class Family:
         """The family as a labelled ``xarray.Dataset`` along dimension ``member``."""
         import xarray as xr
 
-        from phaselab.export.structures import _provenance
+        from phaselab.compute.labels import MODEL_NOTE, provenance
 
         names = [s.name for s in self.system.state_symbols]
         mult = np.atleast_2d(self.multipliers)
@@ -116,7 +116,7 @@ class Family:
              "multiplier_imag": (("member", "multiplier"), mult.imag),
              "arclength": (("member",), self.arclength)},
             coords={self.parameter: (("member",), self.values), "component": names},
-            attrs={**_provenance(self.system), "parameter": self.parameter,
+            attrs={**provenance(self.system, self.params, note=MODEL_NOTE), "parameter": self.parameter,
                    "bifurcations": repr(self.bifurcations), "complete": int(self.complete), "note": self.note})
         return ds
 

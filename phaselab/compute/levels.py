@@ -167,11 +167,6 @@ def _contour(x, y, values, level: float) -> list:
     return [np.asarray(piece, dtype=float) for piece in gen.lines(level)]
 
 
-def _lambdify(args, exprs):
-    # lambdify prints sympy's own expression trees of the model into numpy code (no user text)
-    return sp.lambdify(args, exprs, modules="numpy")
-
-
 def _as_grid(v, shape) -> np.ndarray:
     return np.broadcast_to(np.asarray(v, dtype=float), shape)
 
@@ -252,16 +247,16 @@ def level_set(system, ranges, levels, params=None, resolution=400, plane=None,
             f"coordinates {', '.join(stray)} are neither shown (ranges) nor fixed (plane); only "
             "momenta are eliminated, so fix them in plane=")
 
-    subs = dict(zip(system.param_symbols, [sp.Float(v) for v in values_p]))
-    subs.update({state[names.index(k)]: sp.Float(v) for k, v in fixed.items()})
-    H = system.expr.xreplace(subs)
-
     x = np.linspace(*rng[sx.name], nx)
     y = np.linspace(*rng[sy.name], ny)
     X, Y = np.meshgrid(x, y)
+    base = np.zeros(2 * n)
+    for k, v in fixed.items():
+        base[names.index(k)] = v
     with np.errstate(all="ignore"), warnings.catch_warnings():
         warnings.simplefilter("ignore")
-        values, minimisers = _minimised_values(H, sx, sy, elim, X, Y)
+        values, minimisers = _minimised_values(system, values_p, base, shown_idx,
+                                               [state.index(s) for s in elim], X, Y)
     values = np.where(np.isfinite(values), values, np.nan)
 
     description = _describe(system, sx, sy, fixed, elim)
@@ -303,51 +298,64 @@ def _check_plane(plane, names, shown) -> dict[str, float]:
     return out
 
 
-def _minimised_values(H, sx, sy, elim, X, Y):
-    """H on the grid, minimised over the eliminated momenta by vectorised Newton from p = 0."""
+def _minimised_values(system, prm, base, shown, elim, X, Y):
+    """H on the grid, minimised over the eliminated momenta by vectorised Newton from p = 0.
+
+    H, dH/dp and d2H/dp2 come from the system's compiled kernels (the vector field's first n
+    components are dH/dp, the rows of its Jacobian for them hold d2H/dp dz), evaluated over
+    the whole grid in one compiled call each.
+    """
+    from phaselab.compute.compiled import loops
+
+    cs = loops(system)
     shape = X.shape
+    n = system.dof
+    Z = np.tile(base, (X.size, 1))
+    Z[:, shown[0]] = X.ravel()
+    Z[:, shown[1]] = Y.ravel()
     if not elim:
-        f = _lambdify((sx, sy), H)
-        return np.array(_as_grid(f(X, Y), shape)), {}
+        return cs.evaluate("hamiltonian", Z, prm).reshape(shape), {}
+    names = [s.name for s in system.state_symbols]
     k = len(elim)
-    args = (sx, sy, *elim)
-    grad = [sp.diff(H, p) for p in elim]
-    hess = [[sp.diff(g, p) for p in elim] for g in grad]
-    f_H = _lambdify(args, H)
-    f_g = _lambdify(args, grad)
-    f_h = _lambdify(args, hess)
-    P = np.zeros((k,) + shape)
-    converged = np.zeros(shape, dtype=bool)
+    pos = [i - n for i in elim]          # eliminated momenta: p_(i - n)
+    converged = np.zeros(X.size, dtype=bool)
+
+    def grad_hess(Z):
+        f = cs.evaluate("vector_field", Z, prm)
+        J = cs.evaluate("jacobian", Z, prm)
+        g = f[:, pos]
+        Hm = J[:, pos][:, :, elim]
+        return g, Hm
+
     for _ in range(NEWTON_STEPS):
-        g = np.stack([_as_grid(v, shape) for v in f_g(X, Y, *P)], axis=-1)
-        Hm = np.stack([np.stack([_as_grid(v, shape) for v in row], axis=-1) for row in f_h(X, Y, *P)], axis=-2)
+        g, Hm = grad_hess(Z)
         ok = np.all(np.isfinite(g), axis=-1) & np.all(np.isfinite(Hm), axis=(-1, -2))
-        Hm_safe = np.where(ok[..., None, None], Hm, np.eye(k))
-        g_safe = np.where(ok[..., None], g, 0.0)
+        Hm_safe = np.where(ok[:, None, None], Hm, np.eye(k))
+        g_safe = np.where(ok[:, None], g, 0.0)
         try:
             step = np.linalg.solve(Hm_safe, g_safe[..., None])[..., 0]
         except np.linalg.LinAlgError:
             raise ModelError("the Hessian of H in the eliminated momenta "
-                             f"({', '.join(p.name for p in elim)}) is singular on the grid; H has no "
+                             f"({', '.join(names[i] for i in elim)}) is singular on the grid; H has no "
                              "unique minimum in them") from None
-        P = P - np.moveaxis(step, -1, 0)
+        Z[:, elim] -= step
         size = np.max(np.abs(step), axis=-1)
-        scale = 1.0 + np.max(np.abs(P), axis=0)
+        scale = 1.0 + np.max(np.abs(Z[:, elim]), axis=-1)
         converged = ok & (size <= NEWTON_TOL * scale)
         if np.all(converged | ~ok):
             break
-    Hm = np.stack([np.stack([_as_grid(v, shape) for v in row], axis=-1) for row in f_h(X, Y, *P)], axis=-2)
+    _, Hm = grad_hess(Z)
     finite = np.all(np.isfinite(Hm), axis=(-1, -2))
-    eig = np.linalg.eigvalsh(np.where(finite[..., None, None], Hm, np.eye(k)))
-    not_min = finite & (eig[..., 0] <= 0)
+    eig = np.linalg.eigvalsh(np.where(finite[:, None, None], Hm, np.eye(k)))
+    not_min = finite & (eig[:, 0] <= 0)
     if np.any(not_min):
         raise ModelError(
-            f"H has no minimum in the eliminated momenta ({', '.join(p.name for p in elim)}) at "
+            f"H has no minimum in the eliminated momenta ({', '.join(names[i] for i in elim)}) at "
             f"{int(not_min.sum())} grid points (d2H/dp2 not positive definite there); show or fix "
             "those momenta instead")
-    values = np.array(_as_grid(f_H(X, Y, *P), shape))
+    values = cs.evaluate("hamiltonian", Z, prm)
     values[~converged] = np.nan
-    return values, {p.name: P[i] for i, p in enumerate(elim)}
+    return values.reshape(shape), {names[i]: Z[:, i].reshape(shape) for i in elim}
 
 
 def _describe(system, sx, sy, fixed, elim) -> str:

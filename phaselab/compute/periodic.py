@@ -25,6 +25,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from phaselab.compute import codes, inputs
+from phaselab.compute.labels import MODEL_NOTE, provenance
 from phaselab.compute.returns import OFF_SHELL, ReturnMap, return_map
 from phaselab.errors import IntegrationError, ParameterError
 
@@ -128,9 +129,7 @@ class PeriodicOrbit:
 
     def to_xarray(self):
         """The orbit as a labelled ``xarray.Dataset`` (points, monodromy, multipliers)."""
-        from phaselab.export.structures import periodic_orbit_dataset
-
-        return periodic_orbit_dataset(self)
+        return orbits_dataset([self])
 
     def plot(self, **kwargs):
         """A static figure of the orbit's points (see :func:`phaselab.export.save`)."""
@@ -153,6 +152,48 @@ class PeriodicOrbit:
             per = f"period {self.period:.10g} ({self.crossings} return{'s' if self.crossings > 1 else ''})"
         first = ", ".join(f"{c:.6g}" for c in self.points[0])
         return f"PeriodicOrbit({self.stability}, {per}{res}, through ({first}))"
+
+
+# ----------------------------------------------------------------------------- labelled data
+def orbits_dataset(orbits):
+    """Periodic orbits of one system as an ``xarray.Dataset``: ``points`` (orbit, point,
+    component; NaN past an orbit's period), ``monodromy`` (orbit, row, column),
+    ``multipliers`` (real and imaginary parts), ``period``, ``residue`` and ``stability``
+    per orbit, with the provenance as attributes."""
+    import xarray as xr
+
+    if not orbits:
+        raise ParameterError("no orbits to label")
+    system = orbits[0].system
+    names = [s.name for s in system.state_symbols]
+    k = max(o.points.shape[0] for o in orbits)
+    d = max(o.monodromy.shape[0] if o.monodromy.ndim == 2 else 0 for o in orbits)
+    pts = np.full((len(orbits), k, len(names)), np.nan)
+    mono = np.full((len(orbits), d, d), np.nan)
+    mult = np.full((len(orbits), d, 2), np.nan)
+    for a, o in enumerate(orbits):
+        pts[a, :len(o.points)] = o.points
+        if d and o.monodromy.ndim == 2:
+            dd = o.monodromy.shape[0]
+            mono[a, :dd, :dd] = o.monodromy
+            mm = np.atleast_1d(o.multipliers)
+            mult[a, :len(mm), 0], mult[a, :len(mm), 1] = mm.real, mm.imag
+    coords = list(orbits[0].coordinates)[:d]
+    ds = xr.Dataset(
+        data_vars={
+            "points": (("orbit", "point", "component"), pts),
+            "monodromy": (("orbit", "row", "column"), mono),
+            "multipliers": (("orbit", "multiplier", "part"), mult),
+            "period": (("orbit",), np.array([o.period for o in orbits], float)),
+            "residue": (("orbit",), np.array([np.nan if o.residue is None else o.residue for o in orbits])),
+            "stability": (("orbit",), np.array([o.stability for o in orbits], dtype=object)),
+        },
+        coords={"orbit": np.arange(len(orbits)), "component": names, "row": coords, "column": coords,
+                "part": ["real", "imaginary"]},
+        attrs=provenance(system, orbits[0].params, note=MODEL_NOTE, method=orbits[0].method,
+                         dt=orbits[0].dt, energy=orbits[0].energy))
+    ds["points"].attrs["description"] = "the orbit's points on its section; NaN past its period"
+    return ds
 
 
 # ----------------------------------------------------------------------------- stability
@@ -605,8 +646,6 @@ class PeriodicOrbits:
 
     def to_xarray(self):
         """Every orbit in one ``xarray.Dataset`` (dimension ``orbit``)."""
-        from phaselab.export.structures import orbits_dataset
-
         return orbits_dataset(self.orbits)
 
     def save(self, path, **kwargs):

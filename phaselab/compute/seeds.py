@@ -289,11 +289,11 @@ def _solve_closed(system, fn, states, si, E, prm, sign, finite):
 def _solve_bracketed(system, states, si, E, prm, sign, finite):
     from scipy.optimize import brentq, minimize_scalar
 
+    from phaselab.codegen import compile_kernel
+
     n_pts = states.shape[0]
     name = system.state_symbols[si].name
-    args = list(system.state_symbols) + list(system.param_symbols)
-    # lambdify prints sympy's own expression tree (never user text) into numpy code
-    h = sp.lambdify(args, system.expr, modules="math")
+    kernel = compile_kernel(system)
     out = np.full(n_pts, np.nan)
     ok = np.zeros(n_pts, dtype=bool)
     why = [""] * n_pts
@@ -304,10 +304,8 @@ def _solve_bracketed(system, states, si, E, prm, sign, finite):
 
         def g(v, z=z):
             z[si] = v
-            try:
-                return h(*z, *prm) - E
-            except (ValueError, OverflowError, ZeroDivisionError):
-                return np.nan
+            value = kernel.call("hamiltonian", np.array(z, dtype=float), prm) - E
+            return value if np.isfinite(value) else np.nan
 
         try:
             m = minimize_scalar(g, bracket=(-1.0, 1.0), method="brent")

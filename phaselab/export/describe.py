@@ -10,6 +10,8 @@ import math
 
 import numpy as np
 
+from phaselab.compute.labels import expression_text  # noqa: F401  (re-exported)
+
 from phaselab.errors import PhaselabError
 
 #: Greek letter names that get a Unicode glyph in plain-text labels (bokeh, CSV readers).
@@ -152,24 +154,6 @@ def used_params(section) -> dict:
         params.update(defaults)
     params.update(getattr(section, "params", None) or {})
     return {str(k): _plain(v) for k, v in params.items()}
-
-
-def expression_text(system) -> str:
-    """The system's expression as text (``str`` of the sympy expression), '' when unknown.
-
-    A Hamiltonian gives ``str(H.expr)``; a map without ``expr`` but with update rules
-    (``.update``, one expression per state component) gives ``"q' = ...; p' = ..."``.
-    """
-    expr = getattr(system, "expr", None)
-    if expr is None:
-        update = getattr(system, "update", None)
-        syms = getattr(system, "state_symbols", None)
-        if isinstance(update, (list, tuple)) and syms is not None and len(syms) == len(update):
-            return "; ".join(f"{getattr(s, 'name', s)}' = {e}" for s, e in zip(syms, update))
-        return ""
-    if isinstance(expr, (list, tuple)):
-        return "; ".join(str(e) for e in expr)
-    return str(expr)
 
 
 def section_metadata(section) -> dict:

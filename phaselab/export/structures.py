@@ -30,8 +30,7 @@ MARKERS = {
 BRANCH_STYLE = {"unstable": ("#c0562f", "-"), "stable": ("#2b5d7d", "--")}
 """Colour and line style of manifold branches."""
 
-MODEL_NOTE = ("Model results: confirm with validated tools and the responsible engineers before they "
-              "inform a design.")
+from phaselab.compute.labels import MODEL_NOTE, provenance  # noqa: E402  (one note for all results)
 
 
 def _kind(obj) -> str:
@@ -172,60 +171,6 @@ def _summary(orbit) -> dict:
     }
 
 
-def _provenance(system) -> dict:
-    from phaselab import __version__
-    from phaselab.export.describe import expression_text
-
-    return {"system": getattr(system, "name", ""), "expression": expression_text(system),
-            "state": json.dumps([s.name for s in system.state_symbols]),
-            "phaselab_version": __version__, "note": MODEL_NOTE}
-
-
-def periodic_orbit_dataset(orbit):
-    """One periodic orbit as an ``xarray.Dataset``: ``points`` (point, component),
-    ``monodromy`` (row, column), ``multipliers`` (real and imaginary parts), the stability,
-    residue, period and provenance as attributes."""
-    return orbits_dataset([orbit])
-
-
-def orbits_dataset(orbits):
-    """Several periodic orbits of one system as an ``xarray.Dataset`` (dimension ``orbit``;
-    point arrays padded with NaN to the longest orbit)."""
-    import xarray as xr
-
-    if not orbits:
-        raise PhaselabError("no orbits to write")
-    system = orbits[0].system
-    names = [s.name for s in system.state_symbols]
-    k = max(o.points.shape[0] for o in orbits)
-    d = max(o.monodromy.shape[0] if o.monodromy.ndim == 2 else 0 for o in orbits)
-    pts = np.full((len(orbits), k, len(names)), np.nan)
-    mono = np.full((len(orbits), d, d), np.nan)
-    mult = np.full((len(orbits), d, 2), np.nan)
-    for a, o in enumerate(orbits):
-        pts[a, :len(o.points)] = o.points
-        if d and o.monodromy.ndim == 2:
-            dd = o.monodromy.shape[0]
-            mono[a, :dd, :dd] = o.monodromy
-            mm = np.atleast_1d(o.multipliers)
-            mult[a, :len(mm), 0], mult[a, :len(mm), 1] = mm.real, mm.imag
-    coords = list(orbits[0].coordinates) if d else []
-    ds = xr.Dataset(
-        data_vars={
-            "points": (("orbit", "point", "component"), pts),
-            "monodromy": (("orbit", "row", "column"), mono),
-            "multipliers": (("orbit", "multiplier", "part"), mult),
-            "period": (("orbit",), np.array([o.period for o in orbits], float)),
-            "residue": (("orbit",), np.array([np.nan if o.residue is None else o.residue for o in orbits])),
-            "stability": (("orbit",), np.array([o.stability for o in orbits], dtype=object)),
-        },
-        coords={"orbit": np.arange(len(orbits)), "component": names, "row": coords[:d],
-                "column": coords[:d], "part": ["real", "imaginary"]},
-        attrs=_provenance(system))
-    ds["points"].attrs["description"] = "the orbit's points on its section; NaN past its period"
-    return ds
-
-
 def _write_atomic(path: Path, write) -> Path:
     path = Path(path)
     if not path.parent.exists():
@@ -280,6 +225,6 @@ def save_structure(obj, path, **kwargs) -> Path:
 def _structure_summary(obj) -> dict:
     orbits = _orbits_of([obj])
     system = orbits[0].system
-    out = {k: v for k, v in _provenance(system).items() if k != "state"}
+    out = {k: v for k, v in provenance(system, orbits[0].params, note=MODEL_NOTE).items() if k != "state"}
     out["orbits"] = [_summary(o) for o in orbits]
     return out
