@@ -92,7 +92,7 @@ def _half(Q: int) -> int:
     return Q // 2 if Q % 2 == 0 else (Q + 1) // 2
 
 
-def symmetric_solve(system, guess, Q, prm, tol=1e-11, maxit=40, box=None):
+def symmetric_solve(system, guess, Q, prm, tol=1e-11, maxit=60, box=None):
     """The point on the fixed set of the reversor near ``guess`` that starts a symmetric
     orbit of period ``Q``: ``(z, iterations, residual)``.
 
@@ -111,10 +111,17 @@ def symmetric_solve(system, guess, Q, prm, tol=1e-11, maxit=40, box=None):
     if F is None:
         raise IntegrationError(f"no symmetric period-{Q} orbit from this guess: {codes.STATUS[st]}")
     norm = np.max(np.abs(F))
+    # a step is kept below a quarter of the spacing of neighbouring period-Q orbits on the
+    # line (a twist of one period over Q iterates), so the search stays on its branch
+    wrapped = ret_half.period[ret_half.period > 0]
+    cap = 0.25 * (wrapped.max() if wrapped.size else 2 * np.pi) / Q
     for it in range(maxit):
         if norm <= tol * (1.0 + np.max(np.abs(z))):
             return z, it, norm
         delta = np.linalg.lstsq(J, -F, rcond=None)[0]
+        size = np.max(np.abs(delta))
+        if size > cap:
+            delta *= cap / size
         lam = 1.0
         for _ in range(14):
             trial = z + lam * delta
@@ -132,7 +139,7 @@ def symmetric_solve(system, guess, Q, prm, tol=1e-11, maxit=40, box=None):
                            f"(residual {norm:.3g})")
 
 
-def symmetric_orbit(system, guess, period, params=None, tol=1e-11, maxit=40, box=None):
+def symmetric_orbit(system, guess, period, params=None, tol=1e-11, maxit=60, box=None):
     """A symmetric periodic orbit of a reversible map, found on a symmetry line (Greene's
     method); the :class:`~phaselab.compute.periodic.PeriodicOrbit` it returns has the full
     monodromy of ``period`` iterates, its residue and stability."""
@@ -161,7 +168,9 @@ def symmetric_orbit(system, guess, period, params=None, tol=1e-11, maxit=40, box
 
 # ----------------------------------------------------------------------------- torus breakup
 def convergents(x: float, max_period: int) -> list[Fraction]:
-    """The continued-fraction convergents m/Q of ``x`` with Q <= ``max_period`` (Q >= 1)."""
+    """The continued-fraction convergents m/Q of ``x`` with Q <= ``max_period`` (Q >= 1).
+
+    (:func:`torus_breakup` follows those with Q >= 2.)"""
     x = inputs.number(x, "rotation_number")
     out = []
     h0, h1, k0, k1 = 0, 1, 1, 0
@@ -198,8 +207,9 @@ class TorusBreakup:
         the reversor's fixed set, angle 0 and half a period) at each value; NaN where none
         was found.
     critical : ndarray, shape (n_convergents,)
-        For each convergent, the parameter where the residue of its elliptic orbit reaches
-        ``threshold`` (bisection); their trend estimates where the torus breaks.
+        For each convergent, the parameter where the residues of its symmetric orbits reach
+        ``threshold`` in size (bisection; the mean over the orbits followed that far); their
+        trend estimates where the torus breaks.
     estimate : float
         The estimate from the longest convergent.
     threshold : float
@@ -226,45 +236,59 @@ class TorusBreakup:
                 f"{self.parameter} = {self.estimate:.10g})\n" + self.table())
 
 
-def _start(system, frac: Fraction, line: int, angle: int, action: int) -> np.ndarray:
+def _start(system, frac: Fraction, line: int, angle: int, action: int, action_of) -> np.ndarray:
     z = np.zeros(len(system.state_symbols))
     period = system.modulus[angle] if system.modulus[angle] is not None else 2 * np.pi
     low = system.modulus_low[angle] or 0.0
     z[angle] = low + (0.5 * period if line else 0.0)
-    z[action] = period * frac.numerator / frac.denominator
+    nu = frac.numerator / frac.denominator
+    z[action] = period * nu if action_of is None else float(action_of(nu))
     return z
 
 
-def _follow(system, frac, line, name, values, params, angle, action, tol):
+def _follow(system, frac, line, name, values, params, angle, action, tol, action_of=None):
     """Residues of the symmetric orbit of rotation number ``frac`` started on ``line`` at
-    each parameter value in turn, each solve starting from the previous orbit."""
+    each parameter value in turn, each solve starting from the previous orbit. Between two
+    values the parameter is stepped in about Q / 30 sub-steps: a long orbit's neighbours on
+    the line are close, and a large step could land on one of them."""
     out = np.full(len(values), np.nan)
     points = [None] * len(values)
-    guess = _start(system, frac, line, angle, action)
+    guess = _start(system, frac, line, angle, action, action_of)
+    sub = 1 + frac.denominator // 30
+    last = None
     for i, v in enumerate(values):
-        p = dict(params, **{name: float(v)})
-        try:
-            orbit = symmetric_orbit(system, guess, frac.denominator, params=p, tol=tol)
-        except IntegrationError:
+        steps = [v] if last is None else list(np.linspace(last, v, sub + 1)[1:])
+        orbit = None
+        for w in steps:
+            try:
+                orbit = symmetric_orbit(system, guess, frac.denominator, params=dict(params, **{name: float(w)}),
+                                        tol=tol)
+            except IntegrationError:
+                orbit = None
+                break
+            turns = orbit.shift[angle] / (system.modulus[angle] or 2 * np.pi)
+            if round(turns) != frac.numerator:
+                orbit = None
+                break
+            guess = orbit.points[0]
+        if orbit is None:
             continue
-        turns = orbit.shift[angle] / (system.modulus[angle] or 2 * np.pi)
-        if round(turns) != frac.numerator:
-            continue
+        last = v
         out[i] = orbit.residue
         points[i] = orbit.points[0]
-        guess = orbit.points[0]
     return out, points
 
 
 def torus_breakup(system, rotation_number, parameter, bracket, params=None, *, max_period=200,
-                  threshold=0.25, steps=12, angle=None, tol=1e-11, xtol=1e-9) -> TorusBreakup:
+                  threshold=0.25, steps=12, angle=None, action_of=None, tol=1e-11,
+                  xtol=1e-9) -> TorusBreakup:
     """Where the invariant torus of a given rotation number breaks, by Greene's criterion.
 
     The residues of the symmetric periodic orbits whose rotation numbers are the
     continued-fraction convergents of ``rotation_number`` tend to 0 while the torus exists
-    and grow without bound once it is gone; at the breakup they tend to a value near 1/4
-    (Greene 1979). For each convergent the parameter where the residue of its elliptic
-    orbit reaches ``threshold`` is found by bisection; these converge to the breakup.
+    and grow without bound once it is gone; at the breakup they tend to about +-1/4
+    (Greene 1979). For each convergent the parameter where its symmetric orbits' residues
+    reach ``threshold`` in size is found by bisection; these converge to the breakup.
 
     Parameters
     ----------
@@ -286,8 +310,11 @@ def torus_breakup(system, rotation_number, parameter, bracket, params=None, *, m
     angle : str, optional
         The wrapped angle whose winding defines the rotation number (default: the first
         wrapped coordinate); its partner is the action. The search starts on the symmetry
-        lines angle = 0 and half a period, with the action at period x m/Q: right for twist
-        maps in the standard form (angle' = angle + action').
+        lines angle = 0 and half a period.
+    action_of : callable, optional
+        ``action_of(nu)``: the action where the unperturbed map turns the angle by ``nu``
+        turns per iterate, to start the search for rotation number ``nu = m/Q`` (default
+        ``period * nu``, right for twist maps in the standard form angle' = angle + action').
 
     Returns
     -------
@@ -313,18 +340,21 @@ def torus_breakup(system, rotation_number, parameter, bracket, params=None, *, m
         a = inputs.state_index(system, angle, "angle")
     n = system.dof
     b = (a + n) % (2 * n)
-    fracs = convergents(rotation_number, inputs.count(max_period, "max_period"))
+    fracs = [f for f in convergents(rotation_number, inputs.count(max_period, "max_period"))
+             if f.denominator >= 2]
     if not fracs:
         raise ParameterError(f"no convergent of {rotation_number} has a period up to {max_period}")
     base = dict(system.params, **(params or {}))
     values = np.linspace(lo, hi, inputs.count(steps, "steps", minimum=2))
-    ramp = np.linspace(0.0, lo, 6)[:-1] if lo > 0 else np.zeros(0)
     residues = np.full((len(fracs), len(values), 2), np.nan)
     critical = np.full(len(fracs), np.nan)
     for c, frac in enumerate(fracs):
+        # from the integrable end in steps that move a long orbit little
+        ramp = np.linspace(0.0, lo, 6 + frac.denominator // 8)[:-1] if lo > 0 else np.zeros(0)
         seeds = {}
         for line in (0, 1):
-            res, pts = _follow(system, frac, line, parameter, np.concatenate([ramp, values]), base, a, b, tol)
+            res, pts = _follow(system, frac, line, parameter, np.concatenate([ramp, values]), base, a, b, tol,
+                               action_of)
             residues[c, :, line] = res[len(ramp):]
             seeds[line] = (res[len(ramp):], pts[len(ramp):])
         critical[c] = _bisect(system, frac, parameter, values, seeds, base, threshold, tol, xtol)
@@ -336,34 +366,32 @@ def torus_breakup(system, rotation_number, parameter, bracket, params=None, *, m
 
 
 def _bisect(system, frac, name, values, seeds, params, threshold, tol, xtol):
-    """The parameter where the elliptic orbit's residue reaches ``threshold``."""
-    best = None
+    """The parameter where the residues of the convergent's symmetric orbits reach
+    ``threshold`` in size (the elliptic one rises to +1/4 and the hyperbolic one falls to
+    about -1/4 at the breakup, Greene 1979): bisection on each orbit that was followed
+    across the threshold, averaged."""
+    found = []
     for line in (0, 1):
-        res, _ = seeds[line]
-        ok = np.isfinite(res)
-        if ok.any() and res[ok][0] > 0:   # the elliptic one of the pair
-            best = line
-            break
-    if best is None:
-        return np.nan
-    res, pts = seeds[best]
-    above = np.flatnonzero(np.isfinite(res) & (res >= threshold))
-    if above.size == 0 or above[0] == 0:
-        return np.nan
-    i = above[0]
-    a, b = values[i - 1], values[i]
-    za = pts[i - 1]
-    if za is None:
-        return np.nan
-    while b - a > xtol * max(1.0, abs(b)):
-        mid = 0.5 * (a + b)
-        try:
-            orbit = symmetric_orbit(system, za, frac.denominator, params=dict(params, **{name: mid}), tol=tol)
-        except IntegrationError:
-            b = mid
+        res, pts = seeds[line]
+        size = np.abs(res)
+        # past the breakup an orbit may be lost altogether: that counts as beyond the threshold
+        beyond = ~np.isfinite(size) | (size >= threshold)
+        cross = [i for i in range(1, len(res)) if np.isfinite(size[i - 1]) and size[i - 1] < threshold
+                 and beyond[i] and pts[i - 1] is not None]
+        if not cross:
             continue
-        if orbit.residue is not None and orbit.residue < threshold:
-            a, za = mid, orbit.points[0]
-        else:
-            b = mid
-    return 0.5 * (a + b)
+        i = cross[0]
+        a, b, za = values[i - 1], values[i], pts[i - 1]
+        while b - a > xtol * max(1.0, abs(b)):
+            mid = 0.5 * (a + b)
+            try:
+                orbit = symmetric_orbit(system, za, frac.denominator, params=dict(params, **{name: mid}), tol=tol)
+            except IntegrationError:
+                b = mid
+                continue
+            if orbit.residue is not None and abs(orbit.residue) < threshold:
+                a, za = mid, orbit.points[0]
+            else:
+                b = mid
+        found.append(0.5 * (a + b))
+    return float(np.mean(found)) if found else np.nan
