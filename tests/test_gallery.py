@@ -33,6 +33,9 @@ GALLERY = Path(__file__).resolve().parents[1] / "gallery"
 SCENARIOS = ["bead_on_spinning_hoop", "two_mode_molecule", "satellite_near_a_moon",
              "driven_oscillator", "kicked_rotor", "oscillator_chain"]
 
+# notebooks that tell a story with one system (run with their defaults only)
+STORIES = ["field_line_islands"]
+
 # the one parameter changed in the second run of each notebook
 CHANGED = {
     "bead_on_spinning_hoop": {"R": 0.5, "periods": 40},
@@ -91,7 +94,7 @@ def execute(env, name: str, workdir: Path, parameters: dict) -> subprocess.Compl
 def runs(kernel_env, tmp_path_factory):
     """Every notebook with its defaults, then each scenario with one parameter changed."""
     base = tmp_path_factory.mktemp("gallery")
-    jobs = [(name, "default", {"out_dir": str(base / "default" / name)} if name in SCENARIOS else {})
+    jobs = [(name, "default", {"out_dir": str(base / "default" / name)} if name in SCENARIOS + STORIES else {})
             for name in notebooks()]
     jobs += [(name, "changed", {"out_dir": str(base / "changed" / name), **CHANGED[name]})
              for name in SCENARIOS if name in notebooks()]
@@ -457,3 +460,28 @@ def test_chain_shares_energy_only_when_nonlinear(runs):
     assert b["lowest_share"] > 1 - 1e-6
     assert a["lowest_share"] < 0.95
     assert np.isclose(sum(a["final_share"]), 1.0)
+
+
+def test_field_line_orbits_residues_against_a_numpy_product(runs):
+    """The O- and X-points of the bench ring's island chain: their residues recomputed from
+    the map's Jacobian written out by hand, multiplied along the five points with numpy.
+    For psi' = psi - eps sin(m theta), theta' = theta + 2 pi (i0 + s psi'), in (theta, psi):
+    dpsi'/dtheta = -eps m cos(m theta), dpsi'/dpsi = 1, dtheta'/dtheta = 1 + 2 pi s dpsi'/dtheta,
+    dtheta'/dpsi = 2 pi s (derived here); R = (2 - tr M)/4 (Greene 1979)."""
+    out = summary(runs, "field_line_islands")
+    eps, s, m = out["coil"], out["shear"], 5
+    words = set()
+    for orbit in out["orbits"]:
+        M = np.eye(2)
+        for th in orbit["theta"]:
+            a = -eps * m * math.cos(m * th)
+            M = np.array([[1 + 2 * math.pi * s * a, 2 * math.pi * s], [a, 1.0]]) @ M
+        assert orbit["residue"] == pytest.approx((2 - np.trace(M)) / 4, abs=1e-9)
+        np.testing.assert_allclose(orbit["psi"], out["resonant_psi"], atol=0.05)
+        words.add(orbit["stability"])
+    assert words == {"stable", "unstable"}
+    # at eps = 0 the map is the shear theta' = theta + 2 pi iota(psi): its Jacobian
+    # [[1, 2 pi s], [0, 1]] has trace 2 after any number of transits, so R = 0 there; the
+    # family of the O-point crosses it (a tangent crossing) at eps = 0
+    tangent = [b["parameter"] for b in out["bifurcations"] if b["kind"].startswith("tangent")]
+    assert tangent and min(abs(t) for t in tangent) < 1e-3

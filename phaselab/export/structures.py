@@ -66,7 +66,8 @@ def default_axes(system, plane=None) -> tuple[int, int]:
 
 
 def structure_figure(items, section=None, axes=None, size=(6.0, 4.5), dpi=150, title=None, footer=True,
-                     xlim=None, ylim=None, note=MODEL_NOTE, marker_size=7.0, line_width=0.9):
+                     xlim=None, ylim=None, note=MODEL_NOTE, marker_size=7.0, line_width=0.9,
+                     section_color="#c4c9cf"):
     """A static figure of periodic orbits and manifolds, over a section if one is given.
 
     Parameters
@@ -75,7 +76,8 @@ def structure_figure(items, section=None, axes=None, size=(6.0, 4.5), dpi=150, t
         :class:`~phaselab.compute.periodic.PeriodicOrbit`, ``PeriodicOrbits``,
         :class:`~phaselab.compute.manifolds.Manifold` and ``Family`` objects.
     section : Section, optional
-        Drawn first, in its own colours (see :func:`phaselab.export.section_figure`).
+        Drawn first, in ``section_color`` (``None`` keeps the section's own colours, see
+        :func:`phaselab.export.section_figure`), so the structure stands out.
     axes : pair of str, optional
         The two state components shown (default: the section's, or the section convention).
     Other parameters as for :func:`phaselab.export.section_figure`.
@@ -99,6 +101,9 @@ def structure_figure(items, section=None, axes=None, size=(6.0, 4.5), dpi=150, t
         fig = section_figure(section, size=size, dpi=dpi, title=title, footer=footer, xlim=xlim, ylim=ylim,
                              note=note, point_size=1.2)
         ax = fig.axes[0]
+        if section_color is not None:
+            for art in ax.collections:
+                art.set_color(section_color)
         i, j = section.axes
     else:
         width, height = _check_size(size, dpi)
