@@ -104,6 +104,7 @@ IMAGES = [
      "ripple_section.png", "rippling_ring.png"),
     ("driven_oscillator", {"n_seeds": 18, "periods": 250, "max_angle": 2.5}, "driven_section.png",
      "driven_arm.png"),
+    ("field_line_islands", {}, "tangle.png", "field_line_tangle.png"),
 ]
 
 
