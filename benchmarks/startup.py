@@ -143,8 +143,8 @@ def main():
         runs = []
         for _ in range(min(args.repeat, 2)):
             empty = tempfile.mkdtemp(prefix="phaselab-empty-")
-            runs.append(child(dict(base, PHASELAB_CACHE_DIR=empty, PHASELAB_LOOPS="generic"), "string",
-                              uuid.uuid4().hex[:6].translate(str.maketrans("abcdef", "123456"))))
+            tag = "1." + uuid.uuid4().hex[:6].translate(str.maketrans("abcdef", "123456"))
+            runs.append(child(dict(base, PHASELAB_CACHE_DIR=empty, PHASELAB_LOOPS="generic"), "string", tag))
             shutil.rmtree(empty, ignore_errors=True)
         rows[("string", "machine cold")] = runs
     # the shared loops, once

@@ -37,6 +37,15 @@ def _paths():
                                                                          history=True),
         "chaos indicators (implicit)": lambda: phaselab.chaos_indicators(mixed, [[0.1, 0.0]], 1.0, dt=0.1),
         "map indicators": lambda: phaselab.chaos_indicators(rotor, [[0.1, 0.2]], 4),
+        "periodic orbit (plane)": lambda: phaselab.periodic_orbit(flow, [0.0, 0.1, 0.3, 0.0], plane={"x": 0.0},
+                                                                  dt=0.1),
+        "periodic orbits (many starts)": lambda: phaselab.find_periodic_orbits(
+            flow, 1, seeds=seeds, plane={"x": 0.0}, energy=0.05, dt=0.1),
+        "periodic orbit (drive)": lambda: phaselab.periodic_orbit(driven, [0.1, 0.0], dt=0.5),
+        "periodic orbit (map)": lambda: phaselab.periodic_orbit(rotor, [0.01, 0.0]),
+        "manifold (map)": lambda: phaselab.manifold(phaselab.periodic_orbit(rotor, [0.01, 0.0]), length=0.5),
+        "frequencies": lambda: phaselab.frequencies(flow, seeds, t=25.6, n=256, dt=0.1),
+        "frequencies (map)": lambda: phaselab.frequencies(rotor, [[0.1, 0.2]], n=256),
     }
 
 
