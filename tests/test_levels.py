@@ -23,11 +23,6 @@ def pendulum():
     return phaselab.Hamiltonian("p**2/2 - w0**2*cos(q)", ["q"], ["p"], params={"w0": 1.0})
 
 
-@pytest.fixture(scope="module")
-def henon_heiles():
-    return phaselab.Hamiltonian("(px**2+py**2)/2 + (x**2+y**2)/2 + x**2*y - y**3/3", ["x", "y"], ["px", "py"])
-
-
 def three_body(mu):
     return phaselab.Hamiltonian(
         "(px**2+py**2)/2 + y*px - x*py - (1-mu)/sqrt((x+mu)**2+y**2) - mu/sqrt((x-1+mu)**2+y**2)",

@@ -14,11 +14,6 @@ from phaselab.model.maps import AreaPreservingMap
 
 # ----------------------------------------------------------------------------- systems
 @pytest.fixture(scope="module")
-def hh():
-    return phaselab.models.henon_heiles()
-
-
-@pytest.fixture(scope="module")
 def oscillators():
     return phaselab.Hamiltonian("(px**2 + py**2)/2 + (wx**2*x**2 + wy**2*y**2)/2", ["x", "y"], ["px", "py"],
                                 params={"wx": 1.0, "wy": 1.0})

@@ -8,11 +8,6 @@ from phaselab import ModelError, ParameterError
 from phaselab.compute.seeds import ShellSeeds, shell_seeds
 
 
-@pytest.fixture(scope="module")
-def hh():
-    return phaselab.models.henon_heiles()
-
-
 def hh_potential(x, y):
     # Henon & Heiles, Astron. J. 69, 73 (1964): V = (x^2 + y^2)/2 + x^2 y - y^3/3
     return (x**2 + y**2) / 2 + x**2 * y - y**3 / 3

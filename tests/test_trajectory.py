@@ -26,12 +26,6 @@ def bead():
 
 
 @pytest.fixture(scope="module")
-def hh():
-    return Hamiltonian("(px**2 + py**2)/2 + (x**2 + y**2)/2 + x**2*y - y**3/3",
-                       ["x", "y"], ["px", "py"], name="hh")
-
-
-@pytest.fixture(scope="module")
 def polar_moon():
     return Hamiltonian("pr**2/2 + pth**2/(2*r**2) - mu/r", ["r", "th"], ["pr", "pth"],
                        params={"mu": MU}, name="probe (polar)")
