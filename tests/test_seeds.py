@@ -94,15 +94,15 @@ def test_linear_term_in_momentum_takes_the_forward_root():
 
 
 def test_bad_input_errors_name_the_problem(hh):
-    with pytest.raises(ModelError, match="x, y, px, py"):
+    with pytest.raises(ParameterError, match="x, y, px, py"):
         shell_seeds(hh, 0.1, {"z": 0.0}, "px", [[0.0, 0.0]])
-    with pytest.raises(ModelError, match="x, y, px, py"):
+    with pytest.raises(ParameterError, match="x, y, px, py"):
         shell_seeds(hh, 0.1, {"x": 0.0}, "pz", [[0.0, 0.0]])
-    with pytest.raises(ModelError, match="both fixed"):
+    with pytest.raises(ParameterError, match="both fixed"):
         shell_seeds(hh, 0.1, {"x": 0.0, "px": 0.0}, "px", [[0.0]])
-    with pytest.raises(ModelError, match=r"\(y, py\)"):
+    with pytest.raises(ParameterError, match=r"\(y, py\)"):
         shell_seeds(hh, 0.1, {"x": 0.0}, "px", np.zeros((3, 3)))
-    with pytest.raises(ModelError, match="missing: py"):
+    with pytest.raises(ParameterError, match="missing: py"):
         shell_seeds(hh, 0.1, {"x": 0.0}, "px", {"y": [0.1]})
     with pytest.raises(ParameterError, match="energy"):
         shell_seeds(hh, float("nan"), {"x": 0.0}, "px", [[0.0, 0.0]])

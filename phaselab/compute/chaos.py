@@ -34,7 +34,7 @@ DEFAULT_RECORDS = 200
 
 
 @dataclass(repr=False)
-class ChaosIndicators:
+class ChaosIndicators(codes.StatusReport):
     """Chaos indicators of an ensemble of orbits.
 
     Attributes
@@ -72,14 +72,7 @@ class ChaosIndicators:
     dt: float
     params: dict = field(default_factory=dict)
 
-    @property
-    def escaped(self) -> np.ndarray:
-        """Orbits cut short, shape (n_orbits,)."""
-        return codes.stopped(self.status)
 
-    @property
-    def status_text(self) -> list[str]:
-        return codes.status_words(self.status)
 
     def __repr__(self) -> str:
         span = float(np.nanmax(self.t_end)) if np.isfinite(self.t_end).any() else 0.0

@@ -95,3 +95,20 @@ def status_words(codes) -> list[str]:
 def stopped(codes) -> np.ndarray:
     """True for orbits cut short (codes in :data:`STOPPED`), shape (n_orbits,)."""
     return np.isin(np.asarray(codes), STOPPED)
+
+
+class StatusReport:
+    """What every result with a ``status`` array (one code per orbit) offers: the words,
+    and which orbits were cut short. Mixed into the result dataclasses."""
+
+    status: np.ndarray
+
+    @property
+    def escaped(self) -> np.ndarray:
+        """Orbits cut short (left the box, non-finite, failed or refused step), shape (n_orbits,)."""
+        return stopped(self.status)
+
+    @property
+    def status_text(self) -> list[str]:
+        """The word of each orbit's status."""
+        return status_words(self.status)

@@ -26,7 +26,7 @@ def _array(value, dtype, shape, name):
 
 
 @dataclass(repr=False)
-class Section:
+class Section(codes.StatusReport):
     """Points where orbits pierce a surface of section (or iterates of a map).
 
     Attributes
@@ -103,15 +103,7 @@ class Section:
     def n_orbits(self) -> int:
         return self.points.shape[0]
 
-    @property
-    def escaped(self) -> np.ndarray:
-        """Orbits cut short (left the box, non-finite, failed step), shape (n_orbits,)."""
-        return codes.stopped(self.status)
 
-    @property
-    def status_text(self) -> list[str]:
-        """The word of each orbit's status."""
-        return codes.status_words(self.status)
 
     def xy(self, orbit: int | None = None) -> tuple[np.ndarray, np.ndarray]:
         """The shown coordinates, flattened over orbits (or of one orbit), NaNs removed.

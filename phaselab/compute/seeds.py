@@ -18,6 +18,7 @@ import numpy as np
 import sympy as sp
 
 from phaselab.model.params import finite_number
+from phaselab.compute.inputs import state_index
 from phaselab.errors import ModelError, ParameterError
 
 
@@ -78,22 +79,6 @@ class ShellSeeds:
                 f"{self.solve_for} solved by {self.method})")
 
 
-def state_index(system, name, what: str = "name") -> int:
-    """Index of a state component given by name or sympy symbol.
-
-    Raises
-    ------
-    ModelError
-        Listing the valid names.
-    """
-    names = [s.name for s in system.state_symbols]
-    key = getattr(name, "name", name)
-    if not isinstance(key, str) or key not in names:
-        raise ModelError(f"unknown {what} {name!r}; the state components of this system are: "
-                         + ", ".join(names))
-    return names.index(key)
-
-
 def _as_float(value, what: str) -> float:
     return finite_number(value, what)
 
@@ -138,7 +123,7 @@ def _broadcast_points(system, points, free: list[str]) -> np.ndarray:
         unknown = [n for n in keys if n not in free]
         missing = [n for n in free if n not in keys]
         if unknown or missing:
-            raise ModelError(
+            raise ParameterError(
                 "points must give exactly the free components " + ", ".join(free)
                 + (f"; unknown or fixed: {', '.join(map(str, unknown))}" if unknown else "")
                 + (f"; missing: {', '.join(missing)}" if missing else ""))
@@ -154,7 +139,7 @@ def _broadcast_points(system, points, free: list[str]) -> np.ndarray:
         elif arr.ndim == 1 and arr.shape[0] == k:
             arr = arr[None, :]
         if arr.ndim != 2 or arr.shape[1] != k:
-            raise ModelError(f"points must have shape (n_points, {k}) with columns ({', '.join(free)}), "
+            raise ParameterError(f"points must have shape (n_points, {k}) with columns ({', '.join(free)}), "
                              f"got shape {arr.shape}")
     return arr
 
@@ -204,14 +189,14 @@ def shell_seeds(system, energy, plane, solve_for, points, params=None, sign=+1) 
         raise ParameterError(f"sign must be +1 or -1, got {sign!r}")
     E = _as_float(energy, "energy")
     if not isinstance(plane, Mapping):
-        raise ModelError(f"plane must be a mapping of state names to values such as {{'x': 0.0}}, got {plane!r}")
+        raise ParameterError(f"plane must be a mapping of state names to values such as {{'x': 0.0}}, got {plane!r}")
     fixed = {}
     for name, value in plane.items():
         i = state_index(system, name, "plane component")
         fixed[i] = _as_float(value, f"plane value of {system.state_symbols[i].name}")
     si = state_index(system, solve_for, "solve_for component")
     if si in fixed:
-        raise ModelError(f"{system.state_symbols[si].name} is both fixed by the plane and solved for")
+        raise ParameterError(f"{system.state_symbols[si].name} is both fixed by the plane and solved for")
     names = [s.name for s in system.state_symbols]
     free_idx = [i for i in range(len(names)) if i not in fixed and i != si]
     free = [names[i] for i in free_idx]

@@ -31,7 +31,7 @@ MAX_SAMPLES_DEFAULT = 10_000
 
 
 @dataclass(repr=False)
-class Trajectory:
+class Trajectory(codes.StatusReport):
     """Orbits sampled at common times.
 
     Attributes
@@ -85,15 +85,7 @@ class Trajectory:
     def n_orbits(self) -> int:
         return self.states.shape[0]
 
-    @property
-    def escaped(self) -> np.ndarray:
-        """Orbits cut short (left the box, non-finite, failed or refused step), shape (n_orbits,)."""
-        return codes.stopped(self.status)
 
-    @property
-    def status_text(self) -> list[str]:
-        """The word of each orbit's status."""
-        return codes.status_words(self.status)
 
     def take(self, orbits) -> "Trajectory":
         """The trajectory of the selected orbits (index, indices or boolean mask), copied."""
