@@ -21,6 +21,7 @@ Run:  /work/venv/bin/python benchmarks/section_benchmark.py [--scipy-orbits N] [
 from __future__ import annotations
 
 import argparse
+import os
 import time
 
 import numba
@@ -29,7 +30,11 @@ import sympy as sp
 from numba import njit, prange
 from scipy.integrate import solve_ivp
 
-import phaselab
+# the compiled loops in the form they run in once warm (a system's kernels built into its
+# loops); run with PHASELAB_LOOPS=generic to time the form a new system answers with first
+os.environ.setdefault("PHASELAB_LOOPS", "inlined")
+
+import phaselab  # noqa: E402
 
 E = 1.0 / 8.0
 N_ORBITS = 20
@@ -229,7 +234,7 @@ def main():
     print(f"{'phaselab.section (warm)':28s}{t_pl:10.4f}{n_pl:11d}{e_pl:13.2e}")
     print(f"{'numba floor (specialised)':28s}{t_fl:10.4f}{n_fl:11d}{e_fl:13.2e}")
     print(f"{'scipy DOP853 + events':28s}{t_sc:10.2f}{N_ORBITS * n_sc // k:11d}{e_sc:13.2e}{scaled}")
-    print(f"phaselab / floor = {t_pl / t_fl:.2f}   (target <= 1.3)")
+    print(f"phaselab / floor = {t_pl / t_fl:.2f}   (target <= 1.3; loops in the {os.environ['PHASELAB_LOOPS']} form)")
     print(f"scipy / phaselab = {t_sc / t_pl:.0f}   (target >= 200)")
     print(f"first 5 crossings of {k} orbits, phaselab vs scipy: max |difference| = {d:.1e}")
     print("(the floor steps one orbit at a time per thread; phaselab steps up to 4 orbits side by "

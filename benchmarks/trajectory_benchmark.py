@@ -11,13 +11,18 @@ Run: /work/venv/bin/python benchmarks/trajectory_benchmark.py [--repeat 5]
 from __future__ import annotations
 
 import argparse
+import os
 import time
 
 import numba
 import numpy as np
 
-from phaselab import Hamiltonian
-from phaselab.compute.trajectory import trajectory
+# the compiled loops in the form they run in once warm (a system's kernels built into its
+# loops); run with PHASELAB_LOOPS=generic to time the form a new system answers with first
+os.environ.setdefault("PHASELAB_LOOPS", "inlined")
+
+from phaselab import Hamiltonian  # noqa: E402
+from phaselab.compute.trajectory import trajectory  # noqa: E402
 
 
 def seeds(n: int, energy: float = 0.12) -> np.ndarray:
