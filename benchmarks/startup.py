@@ -56,7 +56,7 @@ class Listener(event.Listener):
             compile_seconds[0] += time.perf_counter() - self.t
 
 listener = Listener()
-event.install_listener("numba:compile", listener)
+event.register("numba:compile", listener)
 
 which, tag = sys.argv[1], sys.argv[2]
 if which == "henon_heiles":
@@ -158,10 +158,10 @@ def main():
             shutil.copytree(shared, cache, dirs_exist_ok=True)      # shared loops cached, system new
             env = dict(base, PHASELAB_CACHE_DIR=cache, PHASELAB_LOOPS="auto")
             new.append(child(env, which, tag))
+            wait_for_builds(cache)       # the background build must not share the cores
             warm.append(child(dict(env, PHASELAB_LOOPS="generic"), which, tag))
-            wait_for_builds(cache)
             inlined.append(child(env, which, tag))
-            wait_for_builds(cache)
+            wait_for_builds(cache)       # a path first used above may have started one more build
             inlined[-1] = child(env, which, tag)
             shutil.rmtree(cache, ignore_errors=True)
         rows[(which, "new system")] = new
