@@ -48,11 +48,14 @@ from numba.core import event
 compile_seconds = [0.0]
 
 class Listener(event.Listener):
+    depth = 0
     def on_start(self, ev):
-        if ev.kind == "numba:compile":
+        if self.depth == 0:
             self.t = time.perf_counter()
+        self.depth += 1
     def on_end(self, ev):
-        if ev.kind == "numba:compile":
+        self.depth -= 1
+        if self.depth == 0:
             compile_seconds[0] += time.perf_counter() - self.t
 
 listener = Listener()
