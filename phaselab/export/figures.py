@@ -14,6 +14,7 @@ import numpy as np
 from phaselab.errors import PhaselabError
 from phaselab.export.describe import (FOOTER_SEPARATOR as _SEP, axis_symbols, check_section,
                                       footer_text, mathtext_label)
+from phaselab.export.files import atomic_path
 
 #: Orbit colours, cycled by orbit index: muted, well separated hues that stay apart on
 #: white paper and in greyscale print (dark and light entries alternate).
@@ -259,7 +260,7 @@ def save_figure(section, path, **kwargs):
             f"a static figure is written as .svg, .pdf or .png, not {path.suffix or 'no suffix'!r}")
     fig = section_figure(section, **kwargs)
     metadata = {"Creator": "phaselab"} if fmt in ("pdf", "svg") else {"Software": "phaselab"}
-    with matplotlib.rc_context(_RC):
+    with matplotlib.rc_context(_RC), atomic_path(path) as tmp:
         # No bbox cropping: the pixel size stays exactly size * dpi.
-        fig.savefig(path, format=fmt, dpi=fig.dpi, facecolor="white", metadata=metadata)
+        fig.savefig(tmp, format=fmt, dpi=fig.dpi, facecolor="white", metadata=metadata)
     return path

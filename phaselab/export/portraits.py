@@ -14,6 +14,7 @@ import numpy as np
 from phaselab.errors import PhaselabError
 from phaselab.export.describe import mathtext_label
 from phaselab.export.figures import _RC, _SUFFIXES, _check_size, scalar_colormap
+from phaselab.export.files import atomic_path
 
 #: Colour of separatrices and of the allowed-region boundary.
 SEPARATRIX_COLOR = "#8e3b2e"
@@ -115,5 +116,6 @@ def save_level_set(ls, path, **kwargs) -> Path:
     if not path.parent.exists():
         raise PhaselabError(f"folder {str(path.parent)!r} does not exist")
     fig = level_set_figure(ls, **kwargs)
-    fig.savefig(path, format=fmt, dpi=fig.dpi, facecolor="white")
+    with atomic_path(path) as tmp:
+        fig.savefig(tmp, format=fmt, dpi=fig.dpi, facecolor="white")
     return path
