@@ -136,3 +136,42 @@ def test_string_lagrangian_and_errors():
         Hamiltonian.from_lagrangian("vq**2", ["q"], ["vq", "w"])
     with pytest.raises(ModelError, match="no time symbol"):
         Hamiltonian.from_lagrangian("vq**2", ["q"], ["vq"], period=1.0)
+
+
+# ------------------------------------------------------------------ bounded symbolic work
+def test_velocity_equation_without_closed_form_is_refused_quickly():
+    """L = qd**5/5 + q qd**3 + qd**2 gives p = qd**4 + 3 q qd**2 + 2 qd (differentiated by
+    hand), a quartic in qd: no usable closed form, so the transform is refused with a clear
+    ModelError after bounded work (2 s of CPU, a few hundred MiB) instead of solving and
+    simplifying forever."""
+    from bounded import run_bounded
+
+    out = run_bounded("""
+        from phaselab import Hamiltonian
+        bounded(lambda: Hamiltonian.from_lagrangian("qd**5/5 + q*qd**3 + qd**2", ["q"], ["qd"]))
+    """)
+    assert out.finished, out
+    assert out.error == "ModelError", out
+    assert "no closed form" in out.message and "degree 4" in out.message, out
+    assert "give the Hamiltonian directly" in out.message
+    assert out.cpu < 2.0 and out.rss_mib < 400, out
+
+
+@pytest.mark.parametrize("L", ["qd**3 + sin(qd)", "qd**2*abs(qd)", "cosh(qd) + qd**4", "exp(qd)*qd"])
+def test_transcendental_velocity_equations_are_a_model_error(L):
+    # sympy raises NotImplementedError on some of these, or solves others with a branch of
+    # the Lambert W function; either way there is no bounded closed form to rely on
+    with pytest.raises(ModelError, match="no closed form"):
+        Hamiltonian.from_lagrangian(L, ["q"], ["qd"])
+
+
+def test_cubic_lagrangian_picks_the_branch_that_inverts_the_momentum():
+    """L = qd**3/3 + (2 + q) qd**2/2 gives p = qd**2 + (2 + q) qd, a quadratic in qd with two
+    roots; the one that gives back qd > -(2 + q)/2 (where d2L/dqd2 > 0) is kept. Check:
+    dH/dp at p(qd) returns qd (Hamilton's first equation, common practice)."""
+    H = Hamiltonian.from_lagrangian("qd**3/3 + (2 + q)*qd**2/2", ["q"], ["qd"])
+    qs, (ps,) = H.coords[0], H.momenta
+    for qv, vv in [(0.4, 0.3), (1.1, -0.2), (0.7, 1.5)]:
+        pv = vv**2 + (2 + qv) * vv
+        got = float(sp.diff(H.expr, ps).evalf(subs={qs: qv, ps: pv}))
+        assert got == pytest.approx(vv, rel=1e-12, abs=1e-12)

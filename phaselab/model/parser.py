@@ -276,7 +276,7 @@ def parse_expression(text: str, symbols: dict[str, sp.Symbol] | None = None,
                                       f"{MAX_EXPONENT}")
             if a.is_Rational and b.is_Rational and a not in (0, 1, -1):
                 # an exact power: its digits are those of the base times the exponent
-                digits = max(math.log10(abs(a.p)), math.log10(a.q)) * abs(float(b)) + 1
+                digits = int(max(math.log10(abs(a.p)), math.log10(a.q)) * abs(float(b))) + 1
                 if digits > MAX_DIGITS:
                     raise ExpressionError(
                         f"exponent too large in {_describe(node, src)}: the result would have about "

@@ -71,14 +71,14 @@ def read_system(f: Fields, data: dict):
             momenta = f.names(sysd, "system", "momenta", required=True)
             system = _guard("system.hamiltonian", f, lambda: Hamiltonian(
                 expr, coords, momenta, params=declared, time=time,
-                period=_period(f, sysd), name=name))
+                period=_period(f, sysd, declared), name=name))
         elif form == "lagrangian":
             expr = f.string(sysd, "system", "lagrangian", required=True)
             velocities = f.names(sysd, "system", "velocities", required=True)
             momenta = f.names(sysd, "system", "momenta")
             system = _guard("system.lagrangian", f, lambda: Hamiltonian.from_lagrangian(
                 expr, coords, velocities, params=declared, time=time,
-                period=_period(f, sysd), name=name, momenta=momenta))
+                period=_period(f, sysd, declared), name=name, momenta=momenta))
         else:
             momenta = f.names(sysd, "system", "momenta", required=True)
             rules = _map_rules(f, sysd["map"])
@@ -114,7 +114,7 @@ def _guard(key: str, f: Fields, build):
         raise f.error(key, f"cannot build the system ({type(exc).__name__}): {text}") from None
 
 
-def _period(f: Fields, sysd: dict):
+def _period(f: Fields, sysd: dict, declared: dict):
     if "period" not in sysd:
         return None
     value = sysd["period"]
@@ -123,6 +123,12 @@ def _period(f: Fields, sysd: dict):
     if not isinstance(value, str):
         f.get_number(sysd, "system", "period", positive=True)
         return float(value)
+    from phaselab.model.parser import parse_expression
+
+    try:  # checked here so that a problem is reported at its own key
+        parse_expression(value, allowed=set(declared))
+    except PhaselabError as exc:
+        raise f.error("system.period", str(exc)) from None
     return value
 
 
