@@ -551,18 +551,20 @@ def test_model_failures_are_study_file_errors(key, text):
 
 
 def test_large_float_in_an_expression_stays_a_float():
-    """1e-300*tan(2.9e260) is read as a float (not a 261-digit integer that numpy cannot take
+    """1e-300*tan(2.9e60) is read as a float (not a 61-digit integer that numpy cannot take
     the tangent of): H evaluates, and agrees with mpmath's tangent of the same binary64
-    number (reference library)."""
+    number (reference library). 2.9e260 is beyond the number limit: an error at its key."""
     import mpmath
 
-    study = parse_study(with_changes(**{"a*x*y**2": "a*x*y**2 + 1e-300*tan(2.9e260)*x"}))
+    study = parse_study(with_changes(**{"a*x*y**2": "a*x*y**2 + 1e-300*tan(2.9e60)*x"}))
     state = np.array([0.5, 0.2, 0.1, -0.3])
     with mpmath.workdps(60):
-        extra = float(mpmath.mpf(1e-300) * mpmath.tan(mpmath.mpf(2.9e260))) * 0.5
+        extra = float(mpmath.mpf(1e-300) * mpmath.tan(mpmath.mpf(2.9e60))) * 0.5
     # H at the state by hand: (px^2 + py^2)/2 + (x^2 + 2 y^2)/2 + a x y^2 + extra
     by_hand = (0.1**2 + 0.3**2) / 2 + (0.5**2 + 2 * 0.2**2) / 2 + 0.3 * 0.5 * 0.2**2 + extra
     assert study.system.energy(state) == pytest.approx(by_hand, rel=1e-14)
+    refused(with_changes(**{"a*x*y**2": "a*x*y**2 + 1e-300*tan(2.9e260)*x"}), "system.hamiltonian",
+            "2.9e260", "too large")
 
 
 @pytest.mark.parametrize("folder", ["sub\n", "sub\r", "a/b\n", "\nsub"])

@@ -27,18 +27,17 @@ from phaselab.errors import ExpressionError
 MAX_LENGTH = 5000
 MAX_DEPTH = 60
 MAX_NODES = 4000
-#: most decimal digits in the numerator or the denominator of an exact number; with this
-#: limit every exact number and every constant converts to a double-precision float
-MAX_DIGITS = 300
+#: most decimal digits in the numerator or the denominator of an exact number, and the
+#: largest magnitude (10**MAX_DIGITS) of any constant part of an expression. Far inside the
+#: double-precision range (about 1.8e308) on purpose: differentiating twice (the kernels'
+#: Jacobians) squares and multiplies constants, and c**4 must still be a finite double
+MAX_DIGITS = 75
 #: largest size of a constant exponent (x**1000 is accepted, x**1001 is not)
 MAX_EXPONENT = 1000
-#: precision (bits) of the values that follow constant parts of an expression; above the
-#: 1000 bits of the largest allowed magnitude, so sums that cancel keep their small part
-VALUE_BITS = 1100
+#: precision (bits) of the values that follow constant parts of an expression; far above
+#: the 250 bits of the largest allowed magnitude, so sums that cancel keep their small part
+VALUE_BITS = 600
 
-# largest binary exponent of an allowed constant: 2**997 < 10**300 < 2**998
-_MAX_MAG = int(MAX_DIGITS / math.log10(2))
-_LOG2_10 = math.log2(10)
 
 FUNCTIONS = {
     "sin": sp.sin,
@@ -79,6 +78,7 @@ _CHAINS = {ast.Add: "sum", ast.Sub: "sum", ast.Mult: "product", ast.Div: "produc
 # the values of constant parts: a private mpmath context, so the global one is untouched
 _MP = mpmath.MPContext()
 _MP.prec = VALUE_BITS
+_LIMIT = _MP.mpf(10) ** MAX_DIGITS
 
 _VALUE_FUNCTIONS = {
     "sin": _MP.sin, "cos": _MP.cos, "tan": _MP.tan, "asin": _MP.asin, "acos": _MP.acos,
@@ -121,7 +121,7 @@ def number_problem(number) -> str | None:
         if digits > MAX_DIGITS:
             return f"an exact number with about {digits} digits (the limit is {MAX_DIGITS})"
     elif number.is_Float:
-        if number != 0 and number._mpf_[2] + number._mpf_[3] > _MAX_MAG + 1:
+        if abs(_MP.make_mpf(number._mpf_)) > _LIMIT:
             return f"a number above 1e{MAX_DIGITS} in size"
     return None
 
@@ -173,8 +173,8 @@ def _value_problem(value) -> str | None:
     """Why a constant's numeric value cannot be accepted (infinite, undefined, too large)."""
     if not _MP.isfinite(value):
         return "undefined or infinite"
-    if value != 0 and _MP.mag(value) > _MAX_MAG + 1:
-        return f"about 10**{int(_MP.mag(value) / _LOG2_10)}, above 1e{MAX_DIGITS} in size"
+    if abs(value) > _LIMIT:
+        return f"about 10**{int(_MP.log10(abs(value)))}, above 1e{MAX_DIGITS} in size"
     return None
 
 
