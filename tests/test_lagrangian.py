@@ -175,3 +175,39 @@ def test_cubic_lagrangian_picks_the_branch_that_inverts_the_momentum():
         pv = vv**2 + (2 + qv) * vv
         got = float(sp.diff(H.expr, ps).evalf(subs={qs: qv, ps: pv}))
         assert got == pytest.approx(vv, rel=1e-12, abs=1e-12)
+
+
+def test_coupled_kinetic_matrices_are_transformed_with_bounded_work():
+    """Two velocities coupled through long trigonometric sums, and four coupled through a
+    state-dependent matrix: the transform must not simplify the inverse (sympy's own 2 x 2
+    determinant simplifies its products, and cancel multiplies the nested fractions of the
+    linear solve out). Each ends within 2 s of CPU in a child process with hard limits, and
+    dH/dp gives back the velocities (Hamilton's first equation, common practice)."""
+    from bounded import run_bounded
+
+    k = 60
+    s1 = "+".join(f"cos({i}*q0)" for i in range(1, k))
+    s2 = "+".join(f"sin({i}*q1+q0)" for i in range(1, k))
+    two = f"(3*{k}+{s1})*v0**2/2 + (3*{k}+{s2})*v1**2/2 + ({s1})*v0*v1/{k} - q0**2 - q1**2"
+    four = (" + ".join(f"(2+cos(q{i}))*v{i}**2/2" for i in range(4)) + " + "
+            + " + ".join(f"cos(q{i}-q{i + 1})*v{i}*v{i + 1}/3" for i in range(3)))
+    for L, n in ((two, 2), (four, 4)):
+        out = run_bounded(f"""
+            import sympy as sp
+            from phaselab import Hamiltonian
+            names = [f"q{{i}}" for i in range({n})], [f"v{{i}}" for i in range({n})]
+
+            def build_and_check():
+                H = Hamiltonian.from_lagrangian({L!r}, *names)
+                point = {{q: 0.3 + 0.2 * i for i, q in enumerate(H.coords)}}
+                vel = {{v: 0.5 - 0.3 * i for i, v in enumerate(H.velocity_symbols)}}
+                momenta = [sp.diff(H.lagrangian, v).evalf(subs={{**point, **vel}}) for v in H.velocity_symbols]
+                at = {{**point, **dict(zip(H.momenta, momenta))}}
+                back = [float(sp.diff(H.expr, p).evalf(subs=at)) for p in H.momenta]
+                return max(abs(b - float(vel[v])) for b, v in zip(back, H.velocity_symbols))
+
+            bounded(build_and_check)
+        """)
+        assert out.finished and out.error is None, out
+        assert float(out.value) < 1e-10, out
+        assert out.cpu < 2.0 and out.rss_mib < 400, out

@@ -4,8 +4,9 @@ Every step has a bounded cost. The momenta p = dL/dqdot are solved for the veloc
 in the cases that have a closed form of known size:
 
 * L quadratic in the velocities (the mechanical case): p is linear in qdot and the linear
-  system is solved exactly, for any number of velocities when the kinetic matrix is constant
-  or diagonal, and for up to :data:`MAX_COUPLED_VELOCITIES` velocities otherwise;
+  system is solved exactly, for up to :data:`MAX_VELOCITIES` velocities when the kinetic
+  matrix is diagonal, :data:`MAX_CONSTANT_COUPLED_VELOCITIES` when it is constant and
+  :data:`MAX_COUPLED_VELOCITIES` otherwise;
 * one velocity whose momentum equation is a polynomial of degree at most 2 in qdot, possibly
   after clearing square roots (the free relativistic particle is one).
 
@@ -22,7 +23,7 @@ import sympy as sp
 from sympy.polys.polyerrors import PolynomialError
 
 from phaselab.errors import ModelError
-from phaselab.model.limits import EXPAND_MAX_TERMS, expanded_terms, tree_size
+from phaselab.model.limits import EXPAND_MAX_TERMS, expanded_terms, plain_det, tree_size
 from phaselab.model.params import make_parameters
 from phaselab.model.system import as_symbols
 from phaselab.model.parser import parse_expression
@@ -31,13 +32,15 @@ from phaselab.model.zero import zero_check
 #: most velocities of a Lagrangian whose kinetic matrix depends on the state and is not
 #: diagonal (its symbolic inverse grows quickly with the size)
 MAX_COUPLED_VELOCITIES = 4
+#: most velocities coupled through a constant, non-diagonal kinetic matrix
+MAX_CONSTANT_COUPLED_VELOCITIES = 16
 #: most velocities of any Lagrangian handed to the transform
 MAX_VELOCITIES = 64
 #: largest momentum equation (tree nodes) for which square roots are cleared and sympy's
 #: solver is asked for the velocity
 SOLVE_MAX_NODES = 300
 #: largest expressions (tree nodes) that are tidied with cancel/factor/simplify
-TIDY_MAX_NODES = 400
+TIDY_MAX_NODES = 200
 
 _NO_CLOSED_FORM = ("the Legendre transform has no closed form here: {why}. phaselab solves "
                    "p = dL/dqdot when it is linear in the velocities (L quadratic in them) or, "
@@ -130,15 +133,21 @@ def _transform(L, q, v, p, parameters, t):
                         if vk in h.free_symbols)
     constant = all(not h.free_symbols for h in hessian)
     diagonal = all(hessian[i, j] == 0 for i in range(len(v)) for j in range(len(v)) if i != j)
-    if len(v) > MAX_COUPLED_VELOCITIES and not (quadratic and (constant or diagonal)):
-        raise ModelError(_NO_CLOSED_FORM.format(
-            why=f"{len(v)} velocities are coupled through a kinetic matrix that depends on the state "
-                f"(the limit for that is {MAX_COUPLED_VELOCITIES})"))
+    if not diagonal or not quadratic:
+        if quadratic and constant:
+            limit, what = MAX_CONSTANT_COUPLED_VELOCITIES, "a constant kinetic matrix"
+        else:
+            limit, what = MAX_COUPLED_VELOCITIES, "a kinetic matrix that depends on the state"
+        if len(v) > limit:
+            raise ModelError(_NO_CLOSED_FORM.format(
+                why=f"{len(v)} velocities are coupled through {what} (the limit for that is {limit})"))
 
     if diagonal:
         det = sp.Mul(*[hessian[i, i] for i in range(len(v))])
+    elif constant:
+        det = hessian.det(method="bareiss")  # exact numbers: no expressions to grow
     else:
-        det = hessian.det(method="berkowitz")
+        det = plain_det(hessian)
     if zero_check(det).zero:
         raise ModelError(
             "degenerate Lagrangian: the Hessian d2L/dqdot2 is singular, so the momenta "
@@ -155,8 +164,11 @@ def _transform(L, q, v, p, parameters, t):
             sol_vec = [s / hessian[i, i] for i, s in enumerate(shifted)]
         else:
             sol_vec = list(hessian.LUsolve(shifted))
-        solution = {vi: _tidy(s) for vi, s in zip(v, sol_vec)}
-        kinetic = _tidy(sum(si * solution[vi] for si, vi in zip(shifted, v)) / 2)
+        # tidying (one fraction, factored) pays for one or two velocities; past that the
+        # fractions of the linear solve multiply out, so the solution is kept as it is
+        tidy = _tidy if len(v) <= 2 else (lambda e: e)
+        solution = {vi: tidy(s) for vi, s in zip(v, sol_vec)}
+        kinetic = tidy(sum(si * solution[vi] for si, vi in zip(shifted, v)) / 2)
         return kinetic - L.subs(zero_v), solution, det
 
     if len(v) > 1:

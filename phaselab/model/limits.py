@@ -57,9 +57,11 @@ def expanded_terms(expr: sp.Basic, limit: int = EXPAND_MAX_TERMS) -> int:
     ``limit + 1``; cheap (no expansion is done).
 
     A sum has the terms of its parts, a product the product of their counts, a power
-    ``b**n`` with a positive whole ``n`` the number of monomials of degree ``n`` in the
-    terms of ``b``; a function call counts as one term, and its arguments (which ``expand``
-    also expands) must fit the limit themselves.
+    ``b**n`` with a whole ``n`` the number of monomials of degree ``|n|`` in the terms of
+    ``b`` (a denominator counts as fully as a numerator, since putting fractions over one
+    denominator multiplies it out); a function call counts as one term, and its arguments
+    (which ``expand`` also expands) must fit the limit themselves. The estimate also bounds
+    the work of ``together`` and ``cancel``.
     """
     cap = limit + 1
     memo: dict = {}
@@ -78,8 +80,10 @@ def expanded_terms(expr: sp.Basic, limit: int = EXPAND_MAX_TERMS) -> int:
         elif e.is_Pow:
             base = terms(e.base)
             exp_terms = terms(e.exp)
-            n = e.exp
+            n = abs(e.exp) if e.exp.is_Integer else e.exp
             if n.is_Integer and n > 0 and base > 1:
+                # b**-n counts as b**n: combining fractions (together, cancel) multiplies
+                # the denominators out
                 if n > limit:
                     out = cap
                 else:
@@ -94,3 +98,27 @@ def expanded_terms(expr: sp.Basic, limit: int = EXPAND_MAX_TERMS) -> int:
     if tree_size(expr, limit=50 * limit) > 50 * limit:
         return cap
     return terms(expr)
+
+
+def plain_det(matrix: sp.Matrix) -> sp.Expr:
+    """The determinant of a small square matrix by cofactor expansion, with no simplification.
+
+    sympy's ``Matrix.det`` simplifies its intermediate products (for 2 x 2 and 3 x 3
+    matrices always), which has no bound on entries that come from user expressions. The
+    expansion here costs ``n!`` products of entries and is meant for ``n <= 6``.
+    """
+    n = matrix.rows
+    if n != matrix.cols:
+        raise ValueError(f"a determinant needs a square matrix, got {matrix.rows} x {matrix.cols}")
+    if n == 0:
+        return sp.Integer(1)
+    if n == 1:
+        return matrix[0, 0]
+    terms = []
+    for j in range(n):
+        entry = matrix[0, j]
+        if entry == 0:
+            continue
+        minor = matrix[1:, [k for k in range(n) if k != j]]
+        terms.append((-1) ** j * entry * plain_det(minor))
+    return sp.Add(*terms)

@@ -32,7 +32,7 @@ import sympy as sp
 
 from phaselab.errors import ModelError
 from phaselab.model.system import PhaseSpaceSystem
-from phaselab.model.limits import EXPAND_MAX_TERMS, MAX_TREE_NODES, expanded_terms, tree_size
+from phaselab.model.limits import EXPAND_MAX_TERMS, MAX_TREE_NODES, expanded_terms, plain_det, tree_size
 from phaselab.model.params import Parameter, finite_number, make_parameters
 from phaselab.model.parser import parse_expression, size_problem
 from phaselab.model.zero import zero_check
@@ -225,7 +225,7 @@ class AreaPreservingMap(PhaseSpaceSystem):
         if len(self.state_symbols) > SYMBOLIC_DET_MAX_COMPONENTS:
             self._numeric_det_check(None)
             return None, "numeric"
-        det = self.jacobian_matrix.det(method="berkowitz")
+        det = plain_det(self.jacobian_matrix)
         residual = det - 1
         if (expanded_terms(residual) <= EXPAND_MAX_TERMS
                 and sp.count_ops(residual) <= SIMPLIFY_MAX_OPS):

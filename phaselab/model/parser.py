@@ -126,8 +126,12 @@ def number_problem(number) -> str | None:
     return None
 
 
-def _exponent_problem(exponent) -> str | None:
-    if exponent.is_Number and abs(exponent) > MAX_EXPONENT:
+def _node_problem(e: sp.Basic) -> str | None:
+    """Why the single node ``e`` is beyond the limits: an oversized number, or a power with a
+    constant exponent above :data:`MAX_EXPONENT`."""
+    if e.is_Number:
+        return number_problem(e)
+    if e.is_Pow and e.exp.is_Number and abs(e.exp) > MAX_EXPONENT:
         return f"a power with an exponent larger than {MAX_EXPONENT}"
     return None
 
@@ -138,19 +142,12 @@ def _near_problem(expr: sp.Basic) -> str | None:
     product, the constant of a sum, powers of powers, a number distributed over a sum)."""
     level = [expr]
     for depth in range(3):
-        following = []
         for e in level:
-            if e.is_Number:
-                problem = number_problem(e)
-            elif e.is_Pow:
-                problem = _exponent_problem(e.exp)
-            else:
-                problem = None
+            problem = _node_problem(e)
             if problem:
                 return problem
-            if depth < 2:
-                following.extend(e.args)
-        level = following
+        if depth < 2:
+            level = [a for e in level for a in e.args]
     return None
 
 
@@ -158,12 +155,7 @@ def size_problem(expr: sp.Basic) -> str | None:
     """Why ``expr`` holds a number or a constant exponent beyond the parser's limits (the
     first one found, in words), or None. Walks the whole tree once."""
     for e in sp.preorder_traversal(expr):
-        if e.is_Number:
-            problem = number_problem(e)
-        elif e.is_Pow:
-            problem = _exponent_problem(e.exp)
-        else:
-            problem = None
+        problem = _node_problem(e)
         if problem:
             return problem
     return None
