@@ -41,6 +41,8 @@ MAX_VELOCITIES = 64
 SOLVE_MAX_NODES = 300
 #: largest expressions (tree nodes) that are tidied with cancel/factor/simplify
 TIDY_MAX_NODES = 200
+#: largest expressions (tree nodes) handed to sympy.simplify
+SIMPLIFY_MAX_NODES = 80
 
 _NO_CLOSED_FORM = ("the Legendre transform has no closed form here: {why}. phaselab solves "
                    "p = dL/dqdot when it is linear in the velocities (L quadratic in them) or, "
@@ -252,7 +254,7 @@ def _tidy(expr, simplify: bool = False):
     if tree_size(expr, limit=TIDY_MAX_NODES) > TIDY_MAX_NODES or expanded_terms(expr) > EXPAND_MAX_TERMS:
         return expr
     if simplify:
-        return sp.simplify(expr)
+        return sp.simplify(expr) if tree_size(expr, limit=SIMPLIFY_MAX_NODES) <= SIMPLIFY_MAX_NODES else expr
     return sp.factor(sp.cancel(expr))
 
 

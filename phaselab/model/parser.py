@@ -161,12 +161,17 @@ def size_problem(expr: sp.Basic) -> str | None:
     return None
 
 
-def _value_problem(value) -> str | None:
-    """Why a constant's numeric value cannot be accepted (infinite, undefined, too large)."""
+def _value_problem(value) -> tuple[str, str] | None:
+    """Why a constant's numeric value cannot be accepted, as (kind, words): kind is
+    "undefined", "complex" or "large"."""
     if not _MP.isfinite(value):
-        return "undefined or infinite"
+        return "undefined", "undefined or infinite"
+    # (rounding at VALUE_BITS can leave a tiny imaginary part on a real value, as in
+    # asin of 1 + 1e-170: far below this tolerance)
+    if isinstance(value, _MP.mpc) and abs(value.imag) > 1e-30 * max(1, abs(value.real)):
+        return "complex", "not a real number"
     if abs(value) > _LIMIT:
-        return f"about 10**{int(_MP.log10(abs(value)))}, above 1e{MAX_DIGITS} in size"
+        return "large", f"about 10**{int(_MP.log10(abs(value)))}, above 1e{MAX_DIGITS} in size"
     return None
 
 
@@ -256,6 +261,18 @@ def parse_expression(text: str, symbols: dict[str, sp.Symbol] | None = None,
             raise ExpressionError(f"number too large in {_describe(node, src)}: {problem}")
         return out, _exact_value(out)
 
+    def check_value(value, node, power: bool) -> None:
+        """Refuse the value of a constant part: undefined, complex, or too large."""
+        problem = _value_problem(value)
+        if problem is None:
+            return
+        kind, words = problem
+        if kind == "complex":
+            raise ExpressionError(f"expression {_clip(src)} is complex-valued ({_describe(node, src)} is "
+                                  f"{words}); phaselab works with real expressions")
+        what = {"undefined": "undefined value", "large": "exponent too large" if power else "number too large"}
+        raise ExpressionError(f"{what[kind]} in {_describe(node, src)}: it is {words}")
+
     def combine(op, node, left, right):
         """``left op right`` as a sympy expression and its value, refusing oversized results
         before sympy builds them. ``left`` and ``right`` are (expression, value) pairs; the
@@ -281,12 +298,7 @@ def parse_expression(text: str, symbols: dict[str, sp.Symbol] | None = None,
                 raise ExpressionError(f"{_describe(node, src)} is undefined (a division by zero)") from None
             except (ValueError, TypeError, OverflowError) as exc:
                 raise ExpressionError(f"{_describe(node, src)} cannot be evaluated: {exc}") from None
-            problem = _value_problem(value)
-            if problem:
-                what = "exponent too large in" if op is ast.Pow else "number too large in"
-                if problem.startswith("undefined"):
-                    what = "undefined value in"
-                raise ExpressionError(f"{what} {_describe(node, src)}: it is {problem}")
+            check_value(value, node, op is ast.Pow)
         out = _BINARY[op](a, b)
         problem = _near_problem(out)
         if problem:
@@ -365,20 +377,17 @@ def parse_expression(text: str, symbols: dict[str, sp.Symbol] | None = None,
             expr, value = convert(arg, level + 1)
             args.append(expr)
             values.append(value)
+        if len(args) != (2 if name == "atan2" else 1):
+            raise ExpressionError(f"wrong number of arguments to `{name}` in {_describe(node, src)}")
         value = None
-        if values and all(v is not None for v in values):
+        if all(v is not None for v in values):
             try:
                 value = _VALUE_FUNCTIONS[name](*values)
-            except TypeError:
-                raise ExpressionError(f"wrong number of arguments to `{name}` in {_describe(node, src)}") from None
             except ZeroDivisionError:
                 raise ExpressionError(f"{_describe(node, src)} is undefined (a division by zero)") from None
-            except ValueError as exc:
+            except (ValueError, TypeError, ArithmeticError) as exc:
                 raise ExpressionError(f"{_describe(node, src)} cannot be evaluated: {exc}") from None
-            problem = _value_problem(value)
-            if problem:
-                what = "undefined value in" if problem.startswith("undefined") else "number too large in"
-                raise ExpressionError(f"{what} {_describe(node, src)}: it is {problem}")
+            check_value(value, node, False)
         try:
             out = FUNCTIONS[name](*args)
         except TypeError:

@@ -61,24 +61,113 @@ def _points(symbols, count: int, rng: random.Random, both_signs: bool):
             value = rng.uniform(0.3, 1.7) if not both_signs else rng.uniform(0.3, 3.0)
             if both_signs and rng.random() < 0.5:
                 value = -value
-            point[x] = sp.Float(value, DIGITS)
+            point[x] = value
         yield point
+
+
+class _OutOfRange(ArithmeticError):
+    """A value at a sample point is too large (or a function's argument too wild) to be worth
+    computing: the point is skipped, like a point where the expression is undefined."""
+
+
+#: values are followed up to 2**MAX_BITS in size; beyond, the point is skipped (a symbolic
+#: power tower such as x**(pi**(10**(10**px))) would otherwise need numbers with more
+#: digits than memory can hold)
+MAX_BITS = 100_000
+#: largest argument of a periodic function (its argument reduction needs that many bits)
+MAX_PERIODIC_ARGUMENT = _MP.mpf(2) ** 2000
+
+_PERIODIC = {"sin": _MP.sin, "cos": _MP.cos, "tan": _MP.tan, "cot": _MP.cot, "sec": _MP.sec,
+             "csc": _MP.csc}
+_GROWING = {"exp": _MP.exp, "sinh": _MP.sinh, "cosh": _MP.cosh}
+_OTHER = {"asin": _MP.asin, "acos": _MP.acos, "atan": _MP.atan, "acot": _MP.acot,
+          "tanh": _MP.tanh, "coth": _MP.coth, "sech": _MP.sech, "csch": _MP.csch,
+          "asinh": _MP.asinh, "acosh": _MP.acosh, "atanh": _MP.atanh, "log": _MP.log,
+          "Abs": abs, "sign": _MP.sign, "erf": _MP.erf, "erfc": _MP.erfc,
+          "LambertW": _MP.lambertw}
+
+
+def _power(base, exponent):
+    if base == 0:
+        return _MP.mpf(0) if _MP.re(exponent) > 0 else _MP.inf
+    if abs(exponent) * abs(_MP.log(abs(base), 2)) > MAX_BITS:
+        raise _OutOfRange
+    return _MP.power(base, exponent)
+
+
+def _function(name: str, args: list):
+    if name in _PERIODIC:
+        if abs(args[0]) > MAX_PERIODIC_ARGUMENT:
+            raise _OutOfRange
+        return _PERIODIC[name](args[0])
+    if name in _GROWING:
+        if abs(_MP.re(args[0])) > MAX_BITS * 0.69:
+            raise _OutOfRange
+        return _GROWING[name](args[0])
+    if name in _OTHER:
+        return _OTHER[name](*args)
+    if name == "atan2":
+        y, x = args
+        if isinstance(y, _MP.mpc) or isinstance(x, _MP.mpc):
+            raise _OutOfRange
+        return _MP.atan2(y, x)
+    if name == "Heaviside":
+        return _MP.mpf(0) if args[0] < 0 else (_MP.mpf(0.5) if args[0] == 0 else _MP.mpf(1))
+    if name == "DiracDelta":
+        return _MP.mpf(0) if args[0] != 0 else _MP.inf
+    raise _OutOfRange  # a function this evaluator does not know: no evidence either way
+
+
+def _evaluate(expr: sp.Expr, point: dict):
+    """The value of ``expr`` at ``point`` (symbols -> mpmath numbers), computed node by node
+    with the size guards above; shared subexpressions are computed once."""
+    values: dict = {}
+    stack = [(expr, False)]
+    while stack:
+        node, ready = stack.pop()
+        if node in values:
+            continue
+        if not ready:
+            if node.is_Symbol:
+                if node not in point:
+                    raise _OutOfRange
+                values[node] = point[node]
+                continue
+            if node.is_Number or node.is_NumberSymbol:
+                values[node] = _MP.mpmathify(node.evalf(DIGITS + 10))
+                continue
+            stack.append((node, True))
+            stack.extend((a, False) for a in node.args if a not in values)
+            continue
+        args = [values[a] for a in node.args]
+        if node.is_Add:
+            out = _MP.fsum(args)
+        elif node.is_Mul:
+            out = _MP.fprod(args)
+        elif node.is_Pow:
+            out = _power(*args)
+        elif isinstance(node, sp.Function):
+            out = _function(type(node).__name__, args)
+        else:
+            raise _OutOfRange
+        if not _MP.isfinite(out) or (out != 0 and _MP.mag(out) > MAX_BITS):
+            raise _OutOfRange
+        values[node] = out
+    return values[expr]
 
 
 def _value_at(expr: sp.Expr, point: dict):
     """(value, scale) of ``expr`` at ``point`` as mpmath numbers: the value and the size of
-    the largest term summed at the top level; (None, None) where it is undefined or not a
-    finite number. mpmath keeps values of any size (``5.0**998`` does not overflow)."""
+    the largest term summed at the top level; (None, None) where it is undefined, too large
+    to follow, or not a finite number. mpmath keeps values of any reasonable size
+    (``5.0**998`` does not overflow)."""
     terms = expr.args if expr.is_Add else (expr,)
     total, scale = _MP.mpc(0), _MP.mpf(0)
+    numbers = {x: _MP.mpf(v) for x, v in point.items()}
     for term in terms:
         try:
-            value = term.xreplace(point).evalf(DIGITS)
-            re, im = value.as_real_imag()
-            z = _MP.mpc(_MP.mpf(re), _MP.mpf(im))
-        except (TypeError, ValueError, AttributeError, ArithmeticError):
-            return None, None
-        if not _MP.isfinite(z):
+            z = _MP.mpc(_evaluate(term, numbers))
+        except (_OutOfRange, ValueError, TypeError, ZeroDivisionError, ArithmeticError):
             return None, None
         total += z
         scale = max(scale, abs(z))
