@@ -159,10 +159,17 @@ def test_velocity_equation_without_closed_form_is_refused_quickly():
 
 @pytest.mark.parametrize("L", ["qd**3 + sin(qd)", "qd**2*abs(qd)", "cosh(qd) + qd**4", "exp(qd)*qd"])
 def test_transcendental_velocity_equations_are_a_model_error(L):
-    # sympy raises NotImplementedError on some of these, or solves others with a branch of
-    # the Lambert W function; either way there is no bounded closed form to rely on
-    with pytest.raises(ModelError, match="no closed form"):
-        Hamiltonian.from_lagrangian(L, ["q"], ["qd"])
+    """sympy raises NotImplementedError on some of these, or solves others with a branch of
+    the Lambert W function; either way there is no bounded closed form to rely on: a
+    ModelError saying so, within 2 s of CPU (child process with hard limits)."""
+    from bounded import run_bounded
+
+    out = run_bounded(f"""
+        from phaselab import Hamiltonian
+        bounded(lambda: Hamiltonian.from_lagrangian({L!r}, ["q"], ["qd"]))
+    """)
+    assert out.finished and out.error == "ModelError", out
+    assert "no closed form" in out.message and out.cpu < 2.0, out
 
 
 def test_cubic_lagrangian_picks_the_branch_that_inverts_the_momentum():

@@ -545,9 +545,18 @@ def test_mathtext_that_typesets_and_lone_dollars_are_accepted():
         """)),
 ])
 def test_model_failures_are_study_file_errors(key, text):
-    # a tiny rational whose denominator is beyond a double, a 10,001-digit integer, sympy's
-    # NotImplementedError on a transcendental momentum equation, a quartic one
-    refused(text, f"bad.toml: {key}:")
+    """A tiny rational whose denominator is beyond a double, a 10,001-digit integer, sympy's
+    NotImplementedError on a transcendental momentum equation, a quartic one: each a
+    StudyFileError at its key, within 2 s of CPU (child process with hard limits)."""
+    from bounded import run_bounded
+
+    out = run_bounded(f"""
+        from phaselab.studies import parse_study
+        bounded(lambda: parse_study({text!r}, source="bad.toml"))
+    """)
+    assert out.finished and out.error == "StudyFileError", out
+    assert out.message.startswith(f"bad.toml: {key}:"), out
+    assert out.cpu < 2.0, out
 
 
 def test_large_float_in_an_expression_stays_a_float():
@@ -575,19 +584,34 @@ def test_output_names_with_line_breaks_are_refused(folder):
 
 def test_hostile_values_everywhere_give_only_study_file_errors():
     """A sweep of odd values through every key that takes an expression or a number: the
-    reader may accept or refuse, but never raises anything other than StudyFileError."""
+    reader may accept or refuse, but never raises anything other than StudyFileError, and
+    the whole sweep ends within bounds (a child process with hard limits, since a missing
+    guard would hang)."""
+    from bounded import run_bounded
+
     hostile = [TOWER, "(10**10)**1000", "1/(10**200+1)+1/(10**200+3)", "tan(pi/2)", "acosh(0)",
                "1e-300*tan(2.9e260)", "x**-1000", "zoo", "sin()", "(" * 70 + "1" + ")" * 70, "1/0",
-               "$\\frac{$", "2**0.5", "-0.0"]
+               "$\\frac{$", "2**0.5", "-0.0", "atan2(0, acos(2))", "x**pi**10**10**px**1.5"]
     lines = {'energy = 0.05': 'energy = {}', 'dt = 0.02': 'dt = {}', 'plane = "x = 0"': 'plane = "x = {}"',
              '"(px**2 + py**2)/2 + (x**2 + 2*y**2)/2 + a*x*y**2"': '"(px**2 + py**2)/2 + {}*x**2"',
              'a = { default = 0.3, range = [0.0, 1.0] }': 'a = {}',
              'line = { y = [-0.1, 0.1], py = [0.0, 0.0], count = 5 }': 'line = {{ y = [-0.1, {}], py = [0.0, 0.0], count = 5 }}',
              'title = "Puck on a dimpled table"': 'title = {}'}
-    for value in hostile:
-        for old, new in lines.items():
-            text = with_changes(**{old: new.format('"' + value.replace("\\", "\\\\") + '"')})
-            try:
-                parse_study(text, source="sweep.toml")
-            except StudyFileError as exc:
-                assert str(exc).startswith("sweep.toml: ")
+    texts = [with_changes(**{old: new.format('"' + value.replace("\\", "\\\\") + '"')})
+             for value in hostile for old, new in lines.items()]
+    out = run_bounded(f"""
+        from phaselab.errors import StudyFileError
+        from phaselab.studies import parse_study
+
+        def sweep():
+            for text in {texts!r}:
+                try:
+                    parse_study(text, source="sweep.toml")
+                except StudyFileError as exc:
+                    assert str(exc).startswith("sweep.toml: "), str(exc)
+            return len({texts!r})
+
+        bounded(sweep)
+    """, cpu=60)
+    assert out.finished and out.error is None, out
+    assert out.value == str(len(texts))
