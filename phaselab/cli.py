@@ -91,8 +91,12 @@ def cmd_render(args, demo: bool = False) -> int:
 def cmd_check(args) -> int:
     study = _read(args.study)
     sec = study.section
-    what = {"plane": f"plane {sec.coordinate} = {sec.value:g}", "stroboscopic": "once per driving period",
-            "map": "every iterate"}[sec.kind]
+    if sec.kind == "plane":
+        what = f"plane {sec.coordinate} = {sec.value:g}"
+    elif sec.kind == "stroboscopic":
+        what = "once per driving period"
+    else:
+        what = "every iterate"
     print(f"ok: {study.source}: {study.system.name} ({study.system_form}), {study.seeds.count} seeds, "
           f"{sec.crossings} crossings, section {what}")
     for spec in study.outputs:

@@ -216,3 +216,89 @@ def test_seeds_off_the_shell_are_reported(tmp_path, capsys):
     captured = capsys.readouterr()
     assert "note: seed 19 left out: outside the energetically allowed region" in captured.err
     assert "seeds off the energy shell left out" in captured.out
+
+
+# ------------------------------------------------------------------------------ every example
+@pytest.mark.parametrize("name", ["molecule", "kicked_rotor", "shaken_cart"])
+def test_check_and_equations_work_on_every_shipped_example(name, capsys):
+    from phaselab.studies import example_names
+
+    assert name in example_names()
+    assert main(["check", name]) == 0
+    out = capsys.readouterr().out
+    study = read_study(example_path(name))
+    kind = {"plane": "section plane", "stroboscopic": "once per driving period", "map": "every iterate"}
+    assert out.startswith(f"ok: {name}.toml: ") and kind[study.section.kind] in out
+    assert main(["equations", name]) == 0
+    assert study.system.name in capsys.readouterr().out
+
+
+def test_the_shipped_examples_are_the_ones_tested():
+    from phaselab.studies import example_names
+
+    assert example_names() == ["kicked_rotor", "molecule", "shaken_cart"]
+
+
+def test_every_shipped_example_renders(rendered):
+    for name in ("molecule", "kicked_rotor", "shaken_cart"):
+        png, csv = rendered / f"{name}.png", rendered / f"{name}.csv"
+        assert png.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"  # PNG signature (PNG specification, sec. 5.2)
+        meta, table = read_section_csv(csv)
+        assert len(table["orbit"]) == int(np.sum(meta["counts"])) > 0
+    # nothing but the outputs: no temporary files left beside them
+    assert sorted(p.name for p in rendered.iterdir()) == sorted(
+        f"{n}.{s}" for n in ("molecule", "kicked_rotor", "shaken_cart") for s in ("png", "csv"))
+
+
+# ------------------------------------------------------------------------------ hostile files
+def test_mathtext_title_is_a_study_file_error_not_a_traceback(tmp_path):
+    bad = tmp_path / "title.toml"
+    bad.write_text(example_path("kicked_rotor").read_text().replace(
+        'title = "Kicked rotor, kick strength 1.2"', 'title = "$\\\\frac{$"'))
+    proc = run("render", str(bad), "--out", str(tmp_path / "o"), "--quiet")
+    assert proc.returncode == 2, proc.stderr
+    assert "title.toml: study.title:" in proc.stderr and "Traceback" not in proc.stderr
+    assert not (tmp_path / "o").exists()
+
+
+def test_a_folder_swapped_for_a_link_during_the_write_is_not_followed(tmp_path, monkeypatch):
+    """The output path is checked, then (as if another process raced us) its folder is
+    replaced by a link to a folder outside; the write must not land outside."""
+    import phaselab.studies.render as render_module
+
+    text = example_path("kicked_rotor").read_text().replace("[output]", '[output]\nfolder = "sub"')
+    text = text.replace("crossings = 600", "crossings = 5")
+    study = tmp_path / "race.toml"
+    study.write_text(text)
+    out, outside = tmp_path / "out", tmp_path / "outside"
+    (out / "sub").mkdir(parents=True)
+    outside.mkdir()
+    checked = render_module.confined_path
+
+    def check_then_swap(*args, **kwargs):
+        path = checked(*args, **kwargs)
+        if (out / "sub").is_dir() and not (out / "sub").is_symlink():
+            (out / "sub").rmdir()
+            (out / "sub").symlink_to(outside, target_is_directory=True)
+        return path
+
+    monkeypatch.setattr(render_module, "confined_path", check_then_swap)
+    status = main(["render", str(study), "--out", str(out), "--quiet"])
+    assert list(outside.iterdir()) == []
+    assert status == 2
+
+
+@pytest.mark.skipif(os.geteuid() == 0, reason="root writes into read-only folders")
+def test_read_only_output_folder_is_a_clear_error(tmp_path, capsys):
+    text = example_path("kicked_rotor").read_text().replace("crossings = 600", "crossings = 5")
+    study = tmp_path / "ro.toml"
+    study.write_text(text)
+    out = tmp_path / "out"
+    out.mkdir()
+    out.chmod(0o500)
+    try:
+        assert main(["render", str(study), "--out", str(out), "--quiet"]) == 2
+    finally:
+        out.chmod(0o700)
+    err = capsys.readouterr().err
+    assert "ro.toml: output.figure" in err and "Permission denied" in err

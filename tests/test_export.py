@@ -7,10 +7,12 @@ vibrations of a model molecule (made-up stiffnesses) sectioned at x = 0, px > 0.
 
 from __future__ import annotations
 
+import os
 import re
 import subprocess
 import sys
 import xml.etree.ElementTree as ET
+from pathlib import Path
 
 import numpy as np
 import pytest
@@ -372,3 +374,99 @@ def test_level_set_figures_phase_portrait_and_allowed_region(tmp_path):
     assert Image.open(png).size == (400, 300)
     with pytest.raises(phaselab.PhaselabError, match="svg, .pdf or .png"):
         zv.save(tmp_path / "allowed.csv")
+
+
+# ------------------------------------------------------------------------------ atomic writes
+def _half_then_fail(exc):
+    """A stand-in writer: writes half of a file to the path it is given, then fails."""
+    def write(path):
+        with open(path, "wb") as fh:
+            fh.write(b"half a fi")
+        raise exc
+    return write
+
+
+@pytest.mark.parametrize("suffix", [".png", ".svg", ".pdf", ".csv", ".html", ".nc"])
+@pytest.mark.parametrize("exc", [OSError(28, "No space left on device"), KeyboardInterrupt()])
+def test_a_save_that_fails_midway_keeps_the_previous_file(tmp_path, rotor, monkeypatch, suffix, exc):
+    """The previous good file survives a writer that dies after writing half (a full disk,
+    an interrupt), and no temporary file is left in the folder."""
+    import matplotlib.figure
+    import pathlib
+
+    if suffix == ".nc":
+        xr = pytest.importorskip("xarray")
+    target = tmp_path / f"rotor{suffix}"
+    options = {"size": (3, 2.5), "dpi": 40} if suffix in (".png", ".svg", ".pdf") else {}
+    save(rotor, target, **options)
+    good = target.read_bytes()
+    if suffix in (".png", ".svg", ".pdf"):
+        monkeypatch.setattr(matplotlib.figure.Figure, "savefig", lambda self, path, **kw: _half_then_fail(exc)(path))
+    elif suffix == ".nc":
+        monkeypatch.setattr(xr.Dataset, "to_netcdf", lambda self, path, **kw: _half_then_fail(exc)(path))
+    else:
+        monkeypatch.setattr(pathlib.Path, "write_text", lambda self, *a, **kw: _half_then_fail(exc)(self))
+    expected = PhaselabError if isinstance(exc, OSError) else KeyboardInterrupt
+    with pytest.raises(expected):
+        save(rotor, target, **options)
+    assert target.read_bytes() == good
+    assert [p.name for p in tmp_path.iterdir()] == [target.name]
+
+
+def test_save_into_a_folder_that_cannot_be_written_is_a_phaselab_error(tmp_path, rotor):
+    if os.geteuid() == 0:
+        folder = Path("/sys")  # not writable even by root: sysfs makes no new files
+    else:
+        folder = tmp_path / "locked"
+        folder.mkdir()
+        folder.chmod(0o500)
+    try:
+        with pytest.raises(PhaselabError, match="Permission denied"):
+            save(rotor, folder / "rotor.csv")
+    finally:
+        if folder != Path("/sys"):
+            folder.chmod(0o700)
+
+
+def test_truncated_csv_does_not_load(tmp_path, molecule):
+    sec, _ = molecule
+    out = save(sec, tmp_path / "m.csv")
+    text = out.read_text()
+    lines = text.splitlines(keepends=True)
+    cut_rows = tmp_path / "rows.csv"
+    cut_rows.write_text("".join(lines[:-7]))  # cut at a line boundary: seven rows missing
+    with pytest.raises(PhaselabError, match="declares 200 section points but the file has 193 rows"):
+        load_section(cut_rows)
+    cut_mid = tmp_path / "mid.csv"
+    cut_mid.write_text(text[:-5])  # cut inside the last number
+    with pytest.raises(PhaselabError, match="truncated"):
+        load_section(cut_mid)
+    assert load_section(out).points.shape == sec.points.shape
+
+
+def test_crafted_header_is_refused_before_allocating(tmp_path, rotor):
+    """A header declaring 10**6 orbits x 10**6 crossings x 2 components asks for 2e12 floats
+    (16 TB). It is refused, naming the limit, within a few hundred MiB (child process with a
+    2 GiB address-space limit, so a missing check cannot exhaust the machine)."""
+    from bounded import run_bounded
+
+    out = save(rotor, tmp_path / "rotor.csv")
+    lines = out.read_text().splitlines()
+    n = 10**6
+    header = {"n_orbits": n, "max_crossings": n, "counts": [0] * 5}
+    crafted = []
+    for line in lines:
+        key = line[2:].partition(":")[0] if line.startswith("# ") else None
+        if key in ("n_orbits", "max_crossings"):
+            line = f"# {key}: {header[key]}"
+        crafted.append(line)
+    bad = tmp_path / "crafted.csv"
+    bad.write_text("\n".join(crafted) + "\n")
+    result = run_bounded(f"""
+        from phaselab.export import load_section
+        bounded(lambda: load_section({str(bad)!r}))
+    """)
+    assert result.finished, result
+    assert "PhaselabError" in result.kinds, result
+    assert "sections are loaded up to" in result.message and "2000000000000 values" in result.message, result
+    assert result.rss_mib < 400, result

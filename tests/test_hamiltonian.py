@@ -219,3 +219,33 @@ def test_systems_pickle_after_use():
         copy = pickle.loads(pickle.dumps(system))
         after = copy.energy(z) if copy.kind == "flow" else copy.step(z)
         np.testing.assert_array_equal(before, after)
+
+
+# ------------------------------------------------------------------ bounded symbolic work
+def test_separability_of_a_high_power_is_decided_without_expanding():
+    """H = (x + y + px + py + 1)**1000 is not separable: d2H/dx dpx = 999000 s**998 with
+    s = x + y + px + py + 1 is nonzero wherever s is (differentiated by hand). Expanding H
+    first (half a million terms per derivative) must not happen: the decision, and the
+    integrator choice of method="auto" that rests on it, stay within 2 s of CPU and a few
+    hundred MiB, in a child process with hard limits."""
+    from bounded import run_bounded
+
+    out = run_bounded("""
+        from phaselab import Hamiltonian
+        from phaselab.compute.integrators import choose_method
+        H = Hamiltonian("(x + y + px + py + 1)**1000", ["x", "y"], ["px", "py"])
+        bounded(lambda: (H.is_separable, choose_method(H).separable_only))
+    """)
+    assert out.finished and out.error is None, out
+    assert out.value == "(False, False)", out
+    assert out.cpu < 2.0 and out.rss_mib < 400, out
+
+
+def test_separability_says_how_it_was_decided():
+    assert models.henon_heiles().separable_check == "symbolic"
+    # p (sin 2q - 2 sin q cos q) vanishes by the double-angle identity (common practice), but
+    # sympy keeps both terms: the mixed derivative is zero only numerically, and it says so
+    H = Hamiltonian(p**2 / 2 + q**2 / 2 + p * (sp.sin(2 * q) - 2 * sp.sin(q) * sp.cos(q)), [q], [p])
+    assert H.is_separable and H.separable_check == "numeric"
+    H = Hamiltonian(p**2 / 2 + q * p * (sp.sin(2 * q) - sp.sin(q) * sp.cos(q)), [q], [p])
+    assert not H.is_separable

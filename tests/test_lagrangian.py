@@ -136,3 +136,85 @@ def test_string_lagrangian_and_errors():
         Hamiltonian.from_lagrangian("vq**2", ["q"], ["vq", "w"])
     with pytest.raises(ModelError, match="no time symbol"):
         Hamiltonian.from_lagrangian("vq**2", ["q"], ["vq"], period=1.0)
+
+
+# ------------------------------------------------------------------ bounded symbolic work
+def test_velocity_equation_without_closed_form_is_refused_quickly():
+    """L = qd**5/5 + q qd**3 + qd**2 gives p = qd**4 + 3 q qd**2 + 2 qd (differentiated by
+    hand), a quartic in qd: no usable closed form, so the transform is refused with a clear
+    ModelError after bounded work (2 s of CPU, a few hundred MiB) instead of solving and
+    simplifying forever."""
+    from bounded import run_bounded
+
+    out = run_bounded("""
+        from phaselab import Hamiltonian
+        bounded(lambda: Hamiltonian.from_lagrangian("qd**5/5 + q*qd**3 + qd**2", ["q"], ["qd"]))
+    """)
+    assert out.finished, out
+    assert out.error == "ModelError", out
+    assert "no closed form" in out.message and "degree 4" in out.message, out
+    assert "give the Hamiltonian directly" in out.message
+    assert out.cpu < 2.0 and out.rss_mib < 400, out
+
+
+@pytest.mark.parametrize("L", ["qd**3 + sin(qd)", "qd**2*abs(qd)", "cosh(qd) + qd**4", "exp(qd)*qd"])
+def test_transcendental_velocity_equations_are_a_model_error(L):
+    """sympy raises NotImplementedError on some of these, or solves others with a branch of
+    the Lambert W function; either way there is no bounded closed form to rely on: a
+    ModelError saying so, within 2 s of CPU (child process with hard limits)."""
+    from bounded import run_bounded
+
+    out = run_bounded(f"""
+        from phaselab import Hamiltonian
+        bounded(lambda: Hamiltonian.from_lagrangian({L!r}, ["q"], ["qd"]))
+    """)
+    assert out.finished and out.error == "ModelError", out
+    assert "no closed form" in out.message and out.cpu < 2.0, out
+
+
+def test_cubic_lagrangian_picks_the_branch_that_inverts_the_momentum():
+    """L = qd**3/3 + (2 + q) qd**2/2 gives p = qd**2 + (2 + q) qd, a quadratic in qd with two
+    roots; the one that gives back qd > -(2 + q)/2 (where d2L/dqd2 > 0) is kept. Check:
+    dH/dp at p(qd) returns qd (Hamilton's first equation, common practice)."""
+    H = Hamiltonian.from_lagrangian("qd**3/3 + (2 + q)*qd**2/2", ["q"], ["qd"])
+    qs, (ps,) = H.coords[0], H.momenta
+    for qv, vv in [(0.4, 0.3), (1.1, -0.2), (0.7, 1.5)]:
+        pv = vv**2 + (2 + qv) * vv
+        got = float(sp.diff(H.expr, ps).evalf(subs={qs: qv, ps: pv}))
+        assert got == pytest.approx(vv, rel=1e-12, abs=1e-12)
+
+
+def test_coupled_kinetic_matrices_are_transformed_with_bounded_work():
+    """Two velocities coupled through long trigonometric sums, and four coupled through a
+    state-dependent matrix: the transform must not simplify the inverse (sympy's own 2 x 2
+    determinant simplifies its products, and cancel multiplies the nested fractions of the
+    linear solve out). Each ends within 2 s of CPU in a child process with hard limits, and
+    dH/dp gives back the velocities (Hamilton's first equation, common practice)."""
+    from bounded import run_bounded
+
+    k = 60
+    s1 = "+".join(f"cos({i}*q0)" for i in range(1, k))
+    s2 = "+".join(f"sin({i}*q1+q0)" for i in range(1, k))
+    two = f"(3*{k}+{s1})*v0**2/2 + (3*{k}+{s2})*v1**2/2 + ({s1})*v0*v1/{k} - q0**2 - q1**2"
+    four = (" + ".join(f"(2+cos(q{i}))*v{i}**2/2" for i in range(4)) + " + "
+            + " + ".join(f"cos(q{i}-q{i + 1})*v{i}*v{i + 1}/3" for i in range(3)))
+    for L, n in ((two, 2), (four, 4)):
+        out = run_bounded(f"""
+            import sympy as sp
+            from phaselab import Hamiltonian
+            names = [f"q{{i}}" for i in range({n})], [f"v{{i}}" for i in range({n})]
+
+            def build_and_check():
+                H = Hamiltonian.from_lagrangian({L!r}, *names)
+                point = {{q: 0.3 + 0.2 * i for i, q in enumerate(H.coords)}}
+                vel = {{v: 0.5 - 0.3 * i for i, v in enumerate(H.velocity_symbols)}}
+                momenta = [sp.diff(H.lagrangian, v).evalf(subs={{**point, **vel}}) for v in H.velocity_symbols]
+                at = {{**point, **dict(zip(H.momenta, momenta))}}
+                back = [float(sp.diff(H.expr, p).evalf(subs=at)) for p in H.momenta]
+                return max(abs(b - float(vel[v])) for b, v in zip(back, H.velocity_symbols))
+
+            bounded(build_and_check)
+        """)
+        assert out.finished and out.error is None, out
+        assert float(out.value) < 1e-10, out
+        assert out.cpu < 2.0 and out.rss_mib < 400, out

@@ -3,6 +3,7 @@ valid input read into the same sympy expression that sympy builds directly."""
 
 import math
 
+import mpmath
 import pytest
 import sympy as sp
 from hypothesis import given, settings
@@ -83,7 +84,7 @@ def test_deep_nesting_refused():
 
 
 @pytest.mark.parametrize("text", ["9**9**9", "2**10000", "x**(10**1000)", "(10**999)**(10**999)",
-                                  "x**1e300", "x**-5000", "(3**900)**30"])
+                                  "x**1e50", "x**-5000", "(3**900)**30"])
 def test_huge_exponents_refused(text):
     assert "exponent too large" in refused(text)
 
@@ -176,8 +177,87 @@ def _extend(children):
 @given(st.recursive(LEAVES, _extend, max_leaves=12))
 def test_random_expression_trees_read_as_sympy_builds_them(pair):
     text, expected = pair
-    got = parse_expression(text, symbols={"x": x, "y": y})
+    try:
+        got = parse_expression(text, symbols={"x": x, "y": y})
+    except ExpressionError as exc:
+        # the only way these leaves and operations (at most 12 leaves of size <= pi) leave
+        # the range of doubles is an exp of an exp (exp(exp(exp(2))) is about 10**702)
+        assert "too large" in str(exc) and "exp(exp(" in text.replace(" ", ""), (text, exc)
+        return
     # reference: sympy's own evaluation of the directly built expression at a point
     point = {x: sp.Float("0.37"), y: sp.Float("-1.21")}
     a, b = complex(got.evalf(subs=point)), complex(expected.evalf(subs=point))
     assert math.isclose(a.real, b.real, rel_tol=1e-12, abs_tol=1e-12)
+
+
+# ------------------------------------------------------------------ size limits
+from bounded import run_bounded  # noqa: E402  (a helper module beside the tests)
+
+# short inputs whose numbers grow without bound when nothing stops them (each is well under
+# MAX_LENGTH characters)
+EXPENSIVE = {
+    "constant power tower": "E**E**E**E**E",
+    "product of big powers": "*".join(["(10**10)**1000"] * 333),
+    "sum of rationals with 10^4-digit denominators":
+        "+".join(f"1/(10**10+{k})**1000" for k in range(200)),
+    "10,001-digit integer": "(10**10)**1000",
+    "tower of exponentials": "exp(exp(exp(exp(2))))",
+}
+
+
+@pytest.mark.parametrize("what", sorted(EXPENSIVE))
+def test_expensive_numbers_are_refused_within_bounds(what):
+    """Each input must be refused with an ExpressionError naming the problem, within 2 s of
+    CPU and a few hundred MiB (the issue's bound), in a child process with hard limits."""
+    text = EXPENSIVE[what]
+    assert len(text) <= MAX_LENGTH
+    out = run_bounded(f"""
+        from phaselab.model.parser import parse_expression
+        bounded(lambda: parse_expression({text!r}))
+    """)
+    assert out.finished, out
+    assert out.error == "ExpressionError", out
+    assert "too large" in out.message, out
+    assert out.cpu < 2.0 and out.rss_mib < 400, out
+
+
+def test_power_tower_as_a_number_is_refused_at_the_level_that_overflows():
+    # E**E**E = exp(exp(e)) is about 3.8e6, so E**E**E**E = exp(3.8e6) is about 10**(1.65e6):
+    # the first level beyond the limits (values from mpmath, reference library)
+    assert float(mpmath.e ** mpmath.e ** mpmath.e) == pytest.approx(3814279.1, rel=1e-6)
+    msg = refused("E**E**E**E**E")
+    assert "E**E**E**E" in msg and "exponent too large" in msg
+    assert parse_expression("E**E**E").is_number
+
+
+@pytest.mark.parametrize("text", ["10**76", "x/10**76", "2**250", "10**74*x*10*10", "1/(10**40+1) + 1/(10**40+3)",
+                                  "2*(x + 10**74)*10", "exp(173)", "pi**151", "tan(pi/2)", "1e76", "2.9e260",
+                                  "(x**1000)**2", "(x**999*y)**3"])
+def test_numbers_beyond_the_limits_are_refused(text):
+    # the limits: exact numbers of at most 75 digits, constants below 1e75, exponents of at
+    # most 1000 (e**173 is about 1.4e75 and pi**151 about 1.2e75, mpmath)
+    msg = refused(text)
+    assert "too large" in msg
+
+
+@pytest.mark.parametrize("text", ["10**74", "x/10**74", "2**248", "x**1000", "x**-1000", "(x**10)**100",
+                                  "exp(172)", "1e74*x", "sqrt(2)**248", "(10**10)**7"])
+def test_numbers_within_the_limits_are_accepted(text):
+    got = parse_expression(text, symbols=SYMS)
+    # every exact number, and its fourth power (what differentiating twice can form), is a
+    # finite double
+    for number in got.atoms(sp.Rational):
+        assert math.isfinite(float(number.p) ** 4) and math.isfinite(float(number.q) ** 4)
+
+
+def test_large_float_literal_stays_a_float():
+    """2.9e60 is read as the float it is, not as a 61-digit integer; the value of
+    1e-300*tan(2.9e60) agrees with mpmath evaluating tan at the same binary64 number with
+    60 digits (reference library)."""
+    got = parse_expression("1e-300*tan(2.9e60)")
+    assert not any(abs(n) > 2**53 for n in got.atoms(sp.Integer))
+    with mpmath.workdps(60):
+        reference = mpmath.mpf(1e-300) * mpmath.tan(mpmath.mpf(2.9e60))
+    assert float(got) == pytest.approx(float(reference), rel=1e-12)
+    assert parse_expression("2.0*x", symbols=SYMS) == 2 * x  # small whole floats stay exact
+    assert "2.9e260" in refused("1e-300*tan(2.9e260)")

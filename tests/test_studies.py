@@ -454,3 +454,164 @@ def test_map_refuses_flow_keys():
         points = { q = [1.0], p = [0.0] }
         """)
     refused(text, "section.dt", "not used for a map")
+
+
+# ------------------------------------------------------------------------------- hardening
+TOWER = "E**E**E**E**E"
+DRIVEN = textwrap.dedent("""
+    [system]
+    hamiltonian = "p**2/2 + x**2/2 - f*x*cos(w*t)"
+    coordinates = ["x"]
+    momenta = ["p"]
+    time = "t"
+    period = "2*pi/w"
+
+    [parameters]
+    f = 0.1
+    w = 1.3
+
+    [section]
+    plane = "stroboscopic"
+    crossings = 10
+
+    [seeds]
+    line = { x = [-1.0, 1.0], p = [0.0, 0.0], count = 4 }
+    """)
+
+
+@pytest.mark.parametrize("where, text", [
+    ("section.energy", with_changes(**{"energy = 0.05": f'energy = "{TOWER}"'})),
+    ("parameters.a", with_changes(**{"a = { default = 0.3, range = [0.0, 1.0] }": f'a = "{TOWER}"'})),
+    ("system.period", DRIVEN.replace('period = "2*pi/w"', f'period = "{TOWER}"')),
+    ("section.plane", with_changes(**{'plane = "x = 0"': f'plane = "x = {TOWER}"'})),
+])
+def test_power_tower_numbers_are_refused_within_bounds(where, text):
+    """E**E**E**E**E is about exp(10**(1.65e6)): no number. Refused as a StudyFileError at
+    its key within 2 s of CPU and a few hundred MiB, in a child process with hard limits."""
+    from bounded import run_bounded
+
+    out = run_bounded(f"""
+        from phaselab.studies import parse_study
+        bounded(lambda: parse_study({text!r}, source="tower.toml"))
+    """)
+    assert out.finished, out
+    assert out.error == "StudyFileError", out
+    assert out.message.startswith(f"tower.toml: {where}:") and "too large" in out.message, out
+    assert out.cpu < 2.0 and out.rss_mib < 400, out
+
+
+@pytest.mark.parametrize("key, old, new", [
+    ("study.title", 'title = "Puck on a dimpled table"', 'title = "$\\\\frac{$"'),
+    ("study.title", 'title = "Puck on a dimpled table"', 'title = "gain $\\\\gainfactor$"'),
+    ("study.title", 'title = "Puck on a dimpled table"', 'title = "${{{{{{{{{{{{{{{{x}}}}}}}}}}}}}}}}$"'),
+    ("study.note", '[system]', 'note = "$x^$"\n\n[system]'),
+    ("output.figure[0].title", 'dpi = 80', 'dpi = 80\ntitle = "$\\\\left($"'),
+])
+def test_mathtext_that_cannot_be_typeset_is_refused_at_its_key(key, old, new):
+    msg = refused(with_changes(**{old: new}), f"bad.toml: {key}:", "math")
+    assert "$" in msg
+
+
+def test_mathtext_that_typesets_and_lone_dollars_are_accepted():
+    study = parse_study(with_changes(**{'title = "Puck on a dimpled table"':
+                                        'title = "Puck, $\\\\theta$ and $p_\\\\theta$, cost $5"'}))
+    assert "theta" in study.title
+
+
+@pytest.mark.parametrize("key, text", [
+    ("system.hamiltonian", with_changes(**{"a*x*y**2": "a*x*y**2 + x**2/10**400"})),
+    ("system.hamiltonian", with_changes(**{"a*x*y**2": "a*x*y**2 + (10**10)**1000*x"})),
+    ("system.lagrangian", textwrap.dedent("""
+        [system]
+        lagrangian = "qd**3 + sin(qd)"
+        coordinates = ["q"]
+        velocities = ["qd"]
+        [section]
+        plane = "q = 0"
+        crossings = 5
+        [seeds]
+        points = { p_q = [0.1] }
+        """)),
+    ("system.lagrangian", textwrap.dedent("""
+        [system]
+        lagrangian = "qd**5/5 + q*qd**3 + qd**2"
+        coordinates = ["q"]
+        velocities = ["qd"]
+        [section]
+        plane = "q = 0"
+        crossings = 5
+        [seeds]
+        points = { p_q = [0.1] }
+        """)),
+])
+def test_model_failures_are_study_file_errors(key, text):
+    """A tiny rational whose denominator is beyond a double, a 10,001-digit integer, sympy's
+    NotImplementedError on a transcendental momentum equation, a quartic one: each a
+    StudyFileError at its key, within 2 s of CPU (child process with hard limits)."""
+    from bounded import run_bounded
+
+    out = run_bounded(f"""
+        from phaselab.studies import parse_study
+        bounded(lambda: parse_study({text!r}, source="bad.toml"))
+    """)
+    assert out.finished and out.error == "StudyFileError", out
+    assert out.message.startswith(f"bad.toml: {key}:"), out
+    assert out.cpu < 2.0, out
+
+
+def test_large_float_in_an_expression_stays_a_float():
+    """1e-300*tan(2.9e60) is read as a float (not a 61-digit integer that numpy cannot take
+    the tangent of): H evaluates, and agrees with mpmath's tangent of the same binary64
+    number (reference library). 2.9e260 is beyond the number limit: an error at its key."""
+    import mpmath
+
+    study = parse_study(with_changes(**{"a*x*y**2": "a*x*y**2 + 1e-300*tan(2.9e60)*x"}))
+    state = np.array([0.5, 0.2, 0.1, -0.3])
+    with mpmath.workdps(60):
+        extra = float(mpmath.mpf(1e-300) * mpmath.tan(mpmath.mpf(2.9e60))) * 0.5
+    # H at the state by hand: (px^2 + py^2)/2 + (x^2 + 2 y^2)/2 + a x y^2 + extra
+    by_hand = (0.1**2 + 0.3**2) / 2 + (0.5**2 + 2 * 0.2**2) / 2 + 0.3 * 0.5 * 0.2**2 + extra
+    assert study.system.energy(state) == pytest.approx(by_hand, rel=1e-14)
+    refused(with_changes(**{"a*x*y**2": "a*x*y**2 + 1e-300*tan(2.9e260)*x"}), "system.hamiltonian",
+            "2.9e260", "too large")
+
+
+@pytest.mark.parametrize("folder", ["sub\n", "sub\r", "a/b\n", "\nsub"])
+def test_output_names_with_line_breaks_are_refused(folder):
+    text = with_changes(**{'[output]': f'[output]\nfolder = {folder!r}'.replace("'", '"')})
+    refused(text, "output.folder", "may hold only")
+
+
+def test_hostile_values_everywhere_give_only_study_file_errors():
+    """A sweep of odd values through every key that takes an expression or a number: the
+    reader may accept or refuse, but never raises anything other than StudyFileError, and
+    the whole sweep ends within bounds (a child process with hard limits, since a missing
+    guard would hang)."""
+    from bounded import run_bounded
+
+    hostile = [TOWER, "(10**10)**1000", "1/(10**200+1)+1/(10**200+3)", "tan(pi/2)", "acosh(0)",
+               "1e-300*tan(2.9e260)", "x**-1000", "zoo", "sin()", "(" * 70 + "1" + ")" * 70, "1/0",
+               "$\\frac{$", "2**0.5", "-0.0", "atan2(0, acos(2))", "x**pi**10**10**px**1.5"]
+    lines = {'energy = 0.05': 'energy = {}', 'dt = 0.02': 'dt = {}', 'plane = "x = 0"': 'plane = "x = {}"',
+             '"(px**2 + py**2)/2 + (x**2 + 2*y**2)/2 + a*x*y**2"': '"(px**2 + py**2)/2 + {}*x**2"',
+             'a = { default = 0.3, range = [0.0, 1.0] }': 'a = {}',
+             'line = { y = [-0.1, 0.1], py = [0.0, 0.0], count = 5 }': 'line = {{ y = [-0.1, {}], py = [0.0, 0.0], count = 5 }}',
+             'title = "Puck on a dimpled table"': 'title = {}'}
+    texts = [with_changes(**{old: new.format('"' + value.replace("\\", "\\\\") + '"')})
+             for value in hostile for old, new in lines.items()]
+    out = run_bounded(f"""
+        from phaselab.errors import StudyFileError
+        from phaselab.studies import parse_study
+
+        def sweep():
+            for text in {texts!r}:
+                try:
+                    parse_study(text, source="sweep.toml")
+                except StudyFileError as exc:
+                    assert str(exc).startswith("sweep.toml: "), str(exc)
+            return len({texts!r})
+
+        bounded(sweep)
+    """, cpu=60)
+    assert out.finished and out.error is None, out
+    assert out.value == str(len(texts))

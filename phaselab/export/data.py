@@ -37,11 +37,18 @@ import numpy as np
 from phaselab.compute.codes import LEFT_BOX, OK, STATUS
 from phaselab.errors import PhaselabError
 from phaselab.export.describe import _plain, check_section, section_metadata
+from phaselab.export.files import atomic_path
 
 FORMAT_LINE = "# phaselab section data"
+#: most numbers (orbits x crossings x components) a section file may declare when loaded;
+#: 50 million float64 values are 400 MB
+MAX_LOAD_VALUES = 50_000_000
+#: largest section CSV file read, in bytes
+MAX_CSV_BYTES = 2_000_000_000
 _FIXED_COLUMNS = ("orbit", "crossing", "time")
 # Attributes stored as JSON text in NetCDF (attrs hold only strings and numbers).
 _JSON_ATTRS = ("state", "axes", "params", "plane", "energy")
+_NC_VARIABLES = ("points", "times", "counts", "energy_error", "escaped", "seeds")
 
 
 def _per_orbit(section) -> dict:
@@ -108,7 +115,8 @@ def write_section_csv(section, path):
     fmt = repr  # shortest string that reads back to the same binary64 (Python's float repr)
     for o, c, t, z in zip(orbit.tolist(), crossing.tolist(), time.tolist(), states.tolist()):
         lines.append(f"{o},{c},{fmt(t)}," + ",".join(map(fmt, z)))
-    path.write_text("\n".join(lines) + "\n", encoding="utf-8")
+    with atomic_path(path) as tmp:
+        tmp.write_text("\n".join(lines) + "\n", encoding="utf-8")
     return path
 
 
@@ -127,16 +135,28 @@ def read_section_csv(path):
     Raises
     ------
     PhaselabError
-        If the file is not phaselab section data or a line is malformed (the line is named).
+        If the file is not phaselab section data, a line is malformed (the line is named),
+        the rows are fewer or more than the header declares (a truncated file), or the
+        header declares more than :data:`MAX_LOAD_VALUES` numbers.
     """
     path = Path(path)
+    try:
+        size = path.stat().st_size
+    except OSError as exc:
+        raise PhaselabError(f"cannot read {path}: {exc.strerror or exc}") from None
+    if size > MAX_CSV_BYTES:
+        raise PhaselabError(f"{path} is {size} bytes; section CSV files are read up to {MAX_CSV_BYTES} bytes")
     try:
         text = path.read_text(encoding="utf-8")
     except OSError as exc:
         raise PhaselabError(f"cannot read {path}: {exc.strerror or exc}") from None
+    except UnicodeDecodeError:
+        raise PhaselabError(f"{path} is not a phaselab section CSV (not UTF-8 text)") from None
     lines = text.splitlines()
     if not lines or lines[0].strip() != FORMAT_LINE:
         raise PhaselabError(f"{path} is not a phaselab section CSV (first line should be {FORMAT_LINE!r})")
+    if not text.endswith("\n"):
+        raise PhaselabError(f"{path} is truncated: its last line is incomplete")
     meta = {}
     k = 1
     while k < len(lines) and lines[k].startswith("#"):
@@ -145,8 +165,9 @@ def read_section_csv(path):
             raise PhaselabError(f"{path}, line {k + 1}: expected '# key: value', got {lines[k]!r}")
         try:
             meta[key.strip()] = json.loads(value)
-        except json.JSONDecodeError as exc:
-            raise PhaselabError(f"{path}, line {k + 1}: value of {key.strip()!r} is not valid: {exc.msg}") from None
+        except (json.JSONDecodeError, RecursionError) as exc:
+            why = getattr(exc, "msg", "nested too deeply")
+            raise PhaselabError(f"{path}, line {k + 1}: value of {key.strip()!r} is not valid: {why}") from None
         k += 1
     if k >= len(lines):
         raise PhaselabError(f"{path}: the column header row is missing")
@@ -154,7 +175,12 @@ def read_section_csv(path):
     ncomp = len(header) - len(_FIXED_COLUMNS)
     if tuple(header[:3]) != _FIXED_COLUMNS or ncomp < 1:
         raise PhaselabError(f"{path}, line {k + 1}: expected columns orbit,crossing,time,<state...>")
+    n, max_c, counts = _layout(path, meta, ncomp)
     body = lines[k + 1:]
+    declared = int(counts.sum())
+    if len(body) != declared:
+        raise PhaselabError(f"{path}: the header declares {declared} section points but the file has "
+                            f"{len(body)} rows (a truncated or edited file)")
     values = np.empty((len(body), len(header)), dtype=float)
     for r, line in enumerate(body):
         cells = line.split(",")
@@ -165,19 +191,61 @@ def read_section_csv(path):
             values[r] = [float(c) for c in cells]
         except ValueError:
             raise PhaselabError(f"{path}, line {k + 2 + r}: a value is not a number: {line!r}") from None
+    orbit, crossing = values[:, 0], values[:, 1]
+    bad = ~((orbit >= 0) & (orbit < n) & (orbit == np.floor(orbit)) & (crossing >= 0)
+            & (crossing == np.floor(crossing)))
+    if not bad.any():
+        bad = crossing >= counts[orbit.astype(np.int64)]
+    if bad.any():
+        r = int(np.argmax(bad))
+        raise PhaselabError(f"{path}, line {k + 2 + r}: orbit {body[r].split(',')[0]}, crossing "
+                            f"{body[r].split(',')[1]} is not one the header declares")
     data = {
-        "orbit": values[:, 0].astype(np.int64),
-        "crossing": values[:, 1].astype(np.int64),
+        "orbit": orbit.astype(np.int64),
+        "crossing": crossing.astype(np.int64),
         "time": values[:, 2].copy(),
         "states": values[:, 3:].copy(),
     }
-    for key in ("counts", "energy_error", "escaped", "status", "seeds"):
+    meta["counts"] = counts
+    for key, dtype in (("energy_error", float), ("escaped", bool), ("status", np.int64), ("seeds", float)):
         if key in meta:
-            dtype = {"counts": np.int64, "escaped": bool, "status": np.int64}.get(key, float)
-            meta[key] = np.asarray(meta[key], dtype=dtype)
-            if key == "seeds":
-                meta[key] = meta[key].reshape(-1, ncomp)
+            try:
+                arr = np.asarray(meta[key], dtype=dtype)
+                meta[key] = arr.reshape(n, ncomp) if key == "seeds" else arr.reshape(n)
+            except (TypeError, ValueError):
+                raise PhaselabError(f"{path}: header value {key!r} does not hold one entry per orbit "
+                                    f"({n})") from None
     return meta, data
+
+
+def _layout(path, meta: dict, ncomp: int):
+    """(n_orbits, max_crossings, counts) from a header, checked to describe arrays of at most
+    :data:`MAX_LOAD_VALUES` numbers and counts within the crossings."""
+    for key in ("n_orbits", "max_crossings", "counts", "state", "axes"):
+        if key not in meta:
+            raise PhaselabError(f"{path}: the header lacks {key!r}")
+    n, max_c = meta["n_orbits"], meta["max_crossings"]
+    for key, value in (("n_orbits", n), ("max_crossings", max_c)):
+        if isinstance(value, bool) or not isinstance(value, int) or value < 0:
+            raise PhaselabError(f"{path}: header value {key!r} must be a whole number >= 0, got {value!r}")
+    total = n * max_c * ncomp
+    if total > MAX_LOAD_VALUES:
+        raise PhaselabError(
+            f"{path}: the header declares {n} orbits x {max_c} crossings x {ncomp} components = "
+            f"{total} values; sections are loaded up to {MAX_LOAD_VALUES} values")
+    try:
+        counts = np.asarray(meta["counts"], dtype=np.int64)
+    except (TypeError, ValueError, OverflowError):
+        raise PhaselabError(f"{path}: header value 'counts' must be whole numbers") from None
+    if counts.shape != (n,) or np.any(counts < 0) or np.any(counts > max_c):
+        raise PhaselabError(f"{path}: header value 'counts' must hold {n} numbers between 0 and {max_c}")
+    state, axes = meta["state"], meta["axes"]
+    if not isinstance(state, list) or len(state) != ncomp or not all(isinstance(s, str) for s in state):
+        raise PhaselabError(f"{path}: header value 'state' must name the {ncomp} state columns")
+    if (not isinstance(axes, list) or len(axes) != 2
+            or not all(isinstance(a, int) and not isinstance(a, bool) and 0 <= a < ncomp for a in axes)):
+        raise PhaselabError(f"{path}: header value 'axes' must be two column indices below {ncomp}")
+    return n, max_c, counts
 
 
 # ---------------------------------------------------------------------------------- NetCDF
@@ -237,11 +305,12 @@ def write_section_netcdf(section, path):
     ds["escaped"].attrs["description"] = "1 where the orbit left the box or went non-finite"
     ds["status"].attrs["description"] = "why each orbit stopped: " + "; ".join(
         f"{k} {v}" for k, v in STATUS.items())
-    try:
-        ds.to_netcdf(path)
-    except ValueError as exc:  # xarray says so when no NetCDF engine is installed
-        raise PhaselabError(
-            f"cannot write NetCDF ({exc}); install netCDF4 with pip install 'phaselab[lab]'") from None
+    with atomic_path(path) as tmp:
+        try:
+            ds.to_netcdf(tmp)
+        except ValueError as exc:  # xarray says so when no NetCDF engine is installed
+            raise PhaselabError(
+                f"cannot write NetCDF ({exc}); install netCDF4 with pip install 'phaselab[lab]'") from None
     return path
 
 
@@ -261,28 +330,43 @@ def read_section_netcdf(path):
     if not path.exists():
         raise PhaselabError(f"cannot read {path}: no such file")
     try:
-        with xr.open_dataset(path) as ds:
-            ds = ds.load()
-    except (OSError, ValueError) as exc:
+        with xr.open_dataset(path) as lazy:
+            if lazy.attrs.get("format") != "phaselab section data":
+                raise PhaselabError(f"{path} is not a phaselab section NetCDF file")
+            missing = [v for v in _NC_VARIABLES if v not in lazy.variables]
+            if missing:
+                raise PhaselabError(f"{path}: variable {missing[0]!r} is missing")
+            total = sum(math.prod(lazy[v].shape) for v in _NC_VARIABLES)
+            if total > MAX_LOAD_VALUES:
+                raise PhaselabError(f"{path}: its arrays hold {total} values; sections are loaded up to "
+                                    f"{MAX_LOAD_VALUES} values")
+            ds = lazy.load()
+    except (OSError, ValueError, KeyError, RuntimeError) as exc:
         raise PhaselabError(f"cannot read {path} as NetCDF: {exc}") from None
-    if ds.attrs.get("format") != "phaselab section data":
-        raise PhaselabError(f"{path} is not a phaselab section NetCDF file")
     meta = {}
     for key, value in ds.attrs.items():
         if key == "format":
             continue
-        meta[key] = json.loads(value) if key in _JSON_ATTRS else _plain(value)
-    if "dt" in meta:
-        meta["dt"] = float(meta["dt"])
-    meta["counts"] = ds["counts"].values.astype(np.int64)
-    meta["energy_error"] = ds["energy_error"].values.astype(float)
-    meta["escaped"] = ds["escaped"].values.astype(bool)
-    if "status" in ds:
-        meta["status"] = ds["status"].values.astype(np.int64)
-    meta["seeds"] = ds["seeds"].values.astype(float)
-    meta["n_orbits"] = int(ds.sizes["orbit"])
-    meta["max_crossings"] = int(ds.sizes["crossing"])
-    data = {"points": ds["points"].values.astype(float), "times": ds["times"].values.astype(float)}
+        try:
+            meta[key] = json.loads(value) if key in _JSON_ATTRS else _plain(value)
+        except (TypeError, ValueError, RecursionError):
+            raise PhaselabError(f"{path}: attribute {key!r} is not valid") from None
+    try:
+        if "dt" in meta:
+            meta["dt"] = float(meta["dt"])
+        meta["counts"] = ds["counts"].values.astype(np.int64)
+        meta["energy_error"] = ds["energy_error"].values.astype(float)
+        meta["escaped"] = ds["escaped"].values.astype(bool)
+        if "status" in ds:
+            meta["status"] = ds["status"].values.astype(np.int64)
+        meta["seeds"] = ds["seeds"].values.astype(float)
+        meta["n_orbits"] = int(ds.sizes["orbit"])
+        meta["max_crossings"] = int(ds.sizes["crossing"])
+        data = {"points": ds["points"].values.astype(float), "times": ds["times"].values.astype(float)}
+    except (TypeError, ValueError, KeyError) as exc:
+        raise PhaselabError(f"{path}: not a valid phaselab section NetCDF file ({exc})") from None
+    ncomp = data["points"].shape[-1] if data["points"].ndim == 3 else 0
+    _layout(path, meta, ncomp)
     return meta, data
 
 
@@ -296,6 +380,13 @@ def load_section(path):
     Returns
     -------
     phaselab.compute.results.Section
+
+    Raises
+    ------
+    PhaselabError
+        For a file that is not a complete phaselab section file (see the readers), or whose
+        header declares more than :data:`MAX_LOAD_VALUES` numbers: the arrays are checked
+        before they are allocated.
     """
     import sympy as sp
 
@@ -319,13 +410,21 @@ def load_section(path):
     names = meta["state"]
     axes = tuple(int(a) for a in meta["axes"])
     symbols = tuple(sp.Symbol(names[a], real=True) for a in axes)
-    energy = meta.get("energy")
+    n, ncomp = points.shape[0], points.shape[-1]
+    try:
+        energy = meta.get("energy")
+        energy = None if energy is None else float(energy)
+        dt = float(meta.get("dt", math.nan))
+        plane = dict(meta.get("plane") or {})
+        params = dict(meta.get("params") or {})
+    except (TypeError, ValueError):
+        raise PhaselabError(f"{path}: the header values energy, dt, plane or params are not valid") from None
     status = meta.get("status")
     if status is None:  # files written before status codes were recorded
-        status = np.where(meta["escaped"], LEFT_BOX, OK)
+        status = np.where(meta.get("escaped", np.zeros(n, bool)), LEFT_BOX, OK)
     return Section(points=points, counts=meta["counts"], times=times, axes=axes,
-                   axis_symbols=symbols, energy_error=meta["energy_error"],
-                   status=status, seeds=meta["seeds"], plane=meta.get("plane", {}),
-                   energy=None if energy is None else float(energy),
-                   method=meta.get("method", ""), dt=float(meta.get("dt", math.nan)),
-                   system=None, params=dict(meta.get("params", {})))
+                   axis_symbols=symbols, energy_error=meta.get("energy_error", np.full(n, np.nan)),
+                   status=status,
+                   seeds=meta.get("seeds", np.full((n, ncomp), np.nan)), plane=plane,
+                   energy=energy, method=str(meta.get("method", "")), dt=dt,
+                   system=None, params=params)

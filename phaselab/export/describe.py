@@ -124,6 +124,51 @@ def mathtext_label(symbol) -> str:
     return label
 
 
+#: deepest nesting of braces accepted in mathtext (titles and notes of figures)
+MAX_BRACE_DEPTH = 10
+
+
+def _has_math(text: str) -> bool:
+    """Whether matplotlib typesets ``text`` as mathtext: an even, nonzero number of dollar
+    signs that are not escaped as ``\\$`` (matplotlib's own rule)."""
+    dollars = text.count("$") - text.count(r"\$")
+    return dollars > 0 and dollars % 2 == 0
+
+
+def text_problem(text: str) -> str | None:
+    """Why matplotlib could not draw ``text`` (a title or a note), or None when it can.
+
+    Text without paired dollar signs is drawn as it is. Text with them is mathtext: its
+    braces may nest at most :data:`MAX_BRACE_DEPTH` deep and matplotlib's mathtext parser
+    must accept it (unknown macros, unclosed groups and the like are refused here, before a
+    figure is drawn, instead of failing inside matplotlib).
+    """
+    if not isinstance(text, str):
+        return f"must be text, got {type(text).__name__}"
+    if not _has_math(text):
+        return None
+    depth = deepest = 0
+    for ch in text:
+        depth += (ch == "{") - (ch == "}")
+        deepest = max(deepest, depth)
+    if deepest > MAX_BRACE_DEPTH:
+        return f"its math ($...$) nests braces {deepest} deep; the limit is {MAX_BRACE_DEPTH}"
+    try:
+        from matplotlib.mathtext import MathTextParser
+
+        MathTextParser("path").parse(text)
+    except RecursionError:
+        return "its math ($...$) is nested too deeply to typeset"
+    except Exception as exc:  # matplotlib reports every mathtext problem as some exception
+        first = str(exc).strip().splitlines()
+        why = first[-1].strip() if first else type(exc).__name__
+        if len(why) > 120:
+            why = why[:117] + "..."
+        return (f"its math ($...$) cannot be typeset: {why} (write \\$ for a dollar sign, or "
+                "remove the $...$)")
+    return None
+
+
 def plain_label(symbol) -> str:
     """A one-line Unicode label for a symbol: ``p_theta`` -> ``p_θ``, ``omega`` -> ``ω``."""
     name = momentum_subscript(getattr(symbol, "name", str(symbol)))

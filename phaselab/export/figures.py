@@ -13,7 +13,8 @@ import numpy as np
 
 from phaselab.errors import PhaselabError
 from phaselab.export.describe import (FOOTER_SEPARATOR as _SEP, axis_symbols, check_section,
-                                      footer_text, mathtext_label)
+                                      footer_text, mathtext_label, text_problem)
+from phaselab.export.files import atomic_path
 
 #: Orbit colours, cycled by orbit index: muted, well separated hues that stay apart on
 #: white paper and in greyscale print (dark and light entries alternate).
@@ -109,6 +110,17 @@ def _wrap_footer(text, width_in, fontsize=6.5):
     return lines
 
 
+def check_texts(**texts) -> None:
+    """Refuse a title or note matplotlib could not draw (see
+    :func:`phaselab.export.describe.text_problem`), naming the option."""
+    for name, text in texts.items():
+        if text is None:
+            continue
+        problem = text_problem(str(text))
+        if problem:
+            raise PhaselabError(f"{name}: {problem}")
+
+
 def _per_orbit_scalar(color, n_orbits):
     values = np.asarray(color, dtype=float).ravel()
     if values.shape != (n_orbits,):
@@ -161,6 +173,7 @@ def section_figure(section, size=(6.0, 4.5), dpi=150, point_size=1.6, color=None
     if not (np.isfinite(point_size) and point_size > 0):
         raise PhaselabError(f"point_size must be a positive number of points, got {point_size!r}")
     curves = _check_overlays(overlays)
+    check_texts(title=title, note=note, color_label=color_label)
     x, y = section.xy()
     orbit = section.orbit_index()
     scalar = None if color is None else _per_orbit_scalar(color, section.n_orbits)
@@ -228,8 +241,9 @@ def section_figure(section, size=(6.0, 4.5), dpi=150, point_size=1.6, color=None
                      fontsize=6.5, color="#6a6a6a", style="italic")
             y_text += 0.16
         for line in reversed(footer_lines):
+            # names in the footer are shown as written, never typeset as math
             fig.text(0.1 / width, y_text / height, line, ha="left", va="bottom",
-                     fontsize=6.5, color="#555555")
+                     fontsize=6.5, color="#555555", parse_math=False)
             y_text += 0.14
     return fig
 
@@ -259,7 +273,7 @@ def save_figure(section, path, **kwargs):
             f"a static figure is written as .svg, .pdf or .png, not {path.suffix or 'no suffix'!r}")
     fig = section_figure(section, **kwargs)
     metadata = {"Creator": "phaselab"} if fmt in ("pdf", "svg") else {"Software": "phaselab"}
-    with matplotlib.rc_context(_RC):
+    with matplotlib.rc_context(_RC), atomic_path(path) as tmp:
         # No bbox cropping: the pixel size stays exactly size * dpi.
-        fig.savefig(path, format=fmt, dpi=fig.dpi, facecolor="white", metadata=metadata)
+        fig.savefig(tmp, format=fmt, dpi=fig.dpi, facecolor="white", metadata=metadata)
     return path

@@ -14,6 +14,7 @@ import numpy as np
 from phaselab.errors import PhaselabError
 from phaselab.export.describe import axis_symbols, check_section, footer_text, plain_label
 from phaselab.export.figures import MISSING_COLOR, ORBIT_COLORS, SCALAR_STOPS
+from phaselab.export.files import atomic_path
 
 
 def _scalar_palette(n=256):
@@ -137,5 +138,6 @@ def save_html(section, path, title=None, **kwargs):
     footer = Div(text=f'<span style="font: 12px sans-serif; color: #555">'
                       f'{html.escape(footer_text(section))}</span>', width=fig.width)
     page = file_html(column(fig, footer), resources=INLINE, title=title or "phaselab section")
-    path.write_text(page, encoding="utf-8")
+    with atomic_path(path) as tmp:
+        tmp.write_text(page, encoding="utf-8")
     return path

@@ -13,7 +13,8 @@ import numpy as np
 
 from phaselab.errors import PhaselabError
 from phaselab.export.describe import mathtext_label
-from phaselab.export.figures import _RC, _SUFFIXES, _check_size, scalar_colormap
+from phaselab.export.figures import _RC, _SUFFIXES, _check_size, check_texts, scalar_colormap
+from phaselab.export.files import atomic_path
 
 #: Colour of separatrices and of the allowed-region boundary.
 SEPARATRIX_COLOR = "#8e3b2e"
@@ -57,6 +58,7 @@ def level_set_figure(ls, size=(5.5, 4.5), dpi=150, title=None, shade_forbidden=N
 
     _check_level_set(ls)
     width, height = _check_size(size, dpi)
+    check_texts(title=title)
     levels = np.atleast_1d(np.asarray(ls.levels, dtype=float))
     shade = (len(levels) == 1) if shade_forbidden is None else bool(shade_forbidden)
     with matplotlib.rc_context(_RC):
@@ -99,7 +101,8 @@ def level_set_figure(ls, size=(5.5, 4.5), dpi=150, title=None, shade_forbidden=N
             params = ", ".join(f"{k} = {v:g}" for k, v in (getattr(ls, "params", {}) or {}).items())
             text = " · ".join(t for t in (getattr(ls, "description", ""), params,
                                            f"{len(levels)} level{'s' if len(levels) != 1 else ''}") if t)
-            fig.text(0.1 / width, 0.1 / height, text, ha="left", va="bottom", fontsize=6.5, color="#555555")
+            fig.text(0.1 / width, 0.1 / height, text, ha="left", va="bottom", fontsize=6.5, color="#555555",
+                     parse_math=False)
     return fig
 
 
@@ -115,5 +118,6 @@ def save_level_set(ls, path, **kwargs) -> Path:
     if not path.parent.exists():
         raise PhaselabError(f"folder {str(path.parent)!r} does not exist")
     fig = level_set_figure(ls, **kwargs)
-    fig.savefig(path, format=fmt, dpi=fig.dpi, facecolor="white")
+    with atomic_path(path) as tmp:
+        fig.savefig(tmp, format=fmt, dpi=fig.dpi, facecolor="white")
     return path

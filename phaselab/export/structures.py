@@ -11,12 +11,11 @@ from __future__ import annotations
 
 import json
 import math
-import os
-import tempfile
 from pathlib import Path
 
 import numpy as np
 
+from phaselab.compute.labels import MODEL_NOTE, provenance
 from phaselab.errors import PhaselabError
 
 MARKERS = {
@@ -30,7 +29,6 @@ MARKERS = {
 BRANCH_STYLE = {"unstable": ("#c0562f", "-"), "stable": ("#2b5d7d", "--")}
 """Colour and line style of manifold branches."""
 
-from phaselab.compute.labels import MODEL_NOTE, provenance  # noqa: E402  (one note for all results)
 
 
 def _kind(obj) -> str:
@@ -177,20 +175,14 @@ def _summary(orbit) -> dict:
 
 
 def _write_atomic(path: Path, write) -> Path:
+    """``write(tmp)`` into a temporary file beside ``path``, then rename it into place."""
+    from phaselab.export.files import atomic_path
+
     path = Path(path)
     if not path.parent.exists():
         raise PhaselabError(f"cannot save to {path}: folder {path.parent} does not exist")
-    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.stem}-", suffix=path.suffix)
-    os.close(fd)
-    try:
+    with atomic_path(path) as tmp:
         write(tmp)
-        os.replace(tmp, path)
-    except BaseException:
-        try:
-            os.unlink(tmp)
-        except OSError:
-            pass
-        raise
     return path
 
 

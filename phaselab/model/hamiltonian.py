@@ -112,18 +112,38 @@ class Hamiltonian(PhaseSpaceSystem):
     def is_separable(self) -> bool:
         """True when H = T(p) + V(q) (time treated as a parameter).
 
-        Decided by d2H/dq_i dp_j == 0 for every pair: a nonzero value at a sample point
-        settles "not separable", otherwise sympy simplifies the derivative.
+        Decided by d2H/dq_i dp_j == 0 for every pair, differentiating without expanding: a
+        nonzero value of a mixed derivative at a sample point settles "not separable";
+        derivatives that vanish everywhere they are tried are confirmed with bounded work
+        (see :func:`phaselab.model.zero.zero_check`). :attr:`separable_check` says whether
+        the answer is symbolic or rests on random points.
         """
-        from phaselab.model.zero import identically_zero
+        return self._separability.zero
 
+    @property
+    def separable_check(self) -> str:
+        """``"symbolic"`` or ``"numeric"``: how :attr:`is_separable` was decided."""
+        return self._separability.how
+
+    @cached_property
+    def _separability(self):
+        from phaselab.model.zero import ZeroCheck, zero_check
+
+        how = "symbolic"
         for q in self.coords:
             dq = sp.diff(self.expr, q)
+            if dq == 0:
+                continue
+            present = dq.free_symbols
             for p in self.momenta:
-                mixed = sp.diff(dq, p)
-                if mixed != 0 and not identically_zero(mixed):
-                    return False
-        return True
+                if p not in present:
+                    continue
+                check = zero_check(sp.diff(dq, p))
+                if not check.zero:
+                    return ZeroCheck(False, check.how)
+                if check.how == "numeric":
+                    how = "numeric"
+        return ZeroCheck(True, how)
 
     @property
     def cyclic_coordinates(self) -> tuple[sp.Symbol, ...]:

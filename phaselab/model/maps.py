@@ -32,15 +32,22 @@ import sympy as sp
 
 from phaselab.errors import ModelError
 from phaselab.model.system import PhaseSpaceSystem
+from phaselab.model.limits import EXPAND_MAX_TERMS, MAX_TREE_NODES, expanded_terms, plain_det, tree_size
 from phaselab.model.params import Parameter, finite_number, make_parameters
-from phaselab.model.parser import parse_expression
+from phaselab.model.parser import parse_expression, size_problem
+from phaselab.model.zero import zero_check
 
 #: number of random points used when the determinant cannot be simplified to 1
 N_SAMPLES = 20
 #: tolerance of the numerical determinant check, |det - 1| <= DET_TOL * max(1, |terms|)
 DET_TOL = 1e-9
-#: expressions with more operations than this skip sympy.simplify (numerical check instead)
+#: determinants with more operations than this are not expanded (numerical check instead)
 SIMPLIFY_MAX_OPS = 400
+#: most state components whose Jacobian determinant is formed symbolically; larger maps are
+#: checked with the Jacobian evaluated at sample points
+SYMBOLIC_DET_MAX_COMPONENTS = 6
+#: most state components of a map (12 degrees of freedom)
+MAX_COMPONENTS = 24
 
 
 class AreaPreservingMap(PhaseSpaceSystem):
@@ -79,16 +86,19 @@ class AreaPreservingMap(PhaseSpaceSystem):
         The period of each state component (``None``: not wrapped).
     modulus_low : tuple of (float or None)
         The low end of each wrapped component's interval.
-    determinant : sympy.Expr
-        The Jacobian determinant as found (``1`` when shown symbolically).
+    determinant : sympy.Expr or None
+        The Jacobian determinant as found (``1`` when shown symbolically; None for maps of
+        more than :data:`SYMBOLIC_DET_MAX_COMPONENTS` components, checked numerically).
     area_check : str
         ``"symbolic"`` or ``"numeric"``: how det = 1 was established.
 
     Raises
     ------
     ModelError
-        For rules that do not match the state, unknown symbols, or a map whose Jacobian
-        determinant is not 1 (the message shows the determinant found).
+        For rules that do not match the state, unknown symbols, a map whose Jacobian
+        determinant is not 1 (the message shows the determinant found), more than
+        :data:`MAX_COMPONENTS` state components, or sequential rules that compose into an
+        expression beyond :data:`phaselab.model.limits.MAX_TREE_NODES` nodes.
     """
 
     kind = "map"
@@ -99,6 +109,9 @@ class AreaPreservingMap(PhaseSpaceSystem):
 
     def __init__(self, update, coords, momenta, params=None, modulus=None, name=None, reversor=None):
         self._set_state(coords, momenta, "a map")
+        if len(self.state_symbols) > MAX_COMPONENTS:
+            raise ModelError(f"a map has at most {MAX_COMPONENTS} state components; this one has "
+                             f"{len(self.state_symbols)}")
         names = [s.name for s in self.state_symbols]
         dupes = sorted({n for n in names if names.count(n) > 1})
         if dupes:
@@ -151,7 +164,7 @@ class AreaPreservingMap(PhaseSpaceSystem):
                 sym = self._target(target)
                 new = self._expr(expr, f"the update of {sym.name}")
                 # express the rule in the old variables: substitute the values so far
-                current[sym] = new.xreplace(current)
+                current[sym] = self._bounded(new.xreplace(current), sym)
             return [current[s] for s in state]
         if any(pairs):
             raise ModelError("update mixes (target, expression) pairs with bare expressions; use one form")
@@ -159,6 +172,21 @@ class AreaPreservingMap(PhaseSpaceSystem):
             raise ModelError(f"update gives {len(update)} expressions but the state has {len(state)} "
                              f"components ({', '.join(s.name for s in state)})")
         return [self._expr(e, f"the update of {s.name}") for s, e in zip(state, update)]
+
+    def _bounded(self, expr: sp.Expr, target: sp.Symbol) -> sp.Expr:
+        """Refuse a composed rule that is too large to work with (each substitution can
+        double its size) or that holds a number or exponent beyond the parser's limits."""
+        size = tree_size(expr, limit=MAX_TREE_NODES)
+        if size > MAX_TREE_NODES:
+            raise ModelError(
+                f"the update rules of map {self.name!r} compose into an expression for "
+                f"{target.name} of more than {MAX_TREE_NODES} nodes; write the map with fewer "
+                "nested substitutions")
+        problem = size_problem(expr)
+        if problem:
+            raise ModelError(f"the update rules of map {self.name!r} compose into an expression for "
+                             f"{target.name} that holds {problem}")
+        return expr
 
     def _number(self, value, what: str) -> float:
         if isinstance(value, str):
@@ -241,19 +269,21 @@ class AreaPreservingMap(PhaseSpaceSystem):
         return sp.Matrix([[sp.diff(e, x) for x in self.state_symbols] for e in self.update])
 
     def _check_area(self):
-        det = self.jacobian_matrix.det(method="berkowitz")
-        residual = sp.expand(det - 1)
-        if residual == 0:
-            return sp.Integer(1), "symbolic"
-        if sp.count_ops(residual) <= SIMPLIFY_MAX_OPS:
-            simple = sp.simplify(residual)
-            if simple == 0:
+        if len(self.state_symbols) > SYMBOLIC_DET_MAX_COMPONENTS:
+            self._numeric_det_check(None)
+            return None, "numeric"
+        det = plain_det(self.jacobian_matrix)
+        residual = det - 1
+        if (expanded_terms(residual) <= EXPAND_MAX_TERMS
+                and sp.count_ops(residual) <= SIMPLIFY_MAX_OPS):
+            residual = sp.expand(residual)
+            if residual == 0:
                 return sp.Integer(1), "symbolic"
-            if simple.is_number:
+            if residual.is_number:
                 raise ModelError(
                     f"map {self.name!r} is not area-preserving: its Jacobian determinant is "
-                    f"{sp.simplify(det)}, not 1")
-            det = simple + 1
+                    f"{residual + 1}, not 1")
+            det = residual + 1
         self._numeric_det_check(det)
         return det, "numeric"
 
@@ -276,10 +306,21 @@ class AreaPreservingMap(PhaseSpaceSystem):
             out[0, j] = prm.default
         return out
 
-    def _numeric_det_check(self, det: sp.Expr) -> None:
+    def _numeric_det_check(self, det: sp.Expr | None) -> None:
+        """Check det = 1 at sample states and parameters: from the determinant expression
+        ``det``, or (None) from the Jacobian matrix evaluated at each point."""
         args = list(self.state_symbols) + list(self.param_symbols)
         # lambdify prints sympy's own expression tree (never user text) into numpy code
-        fn = sp.lambdify(args, det, modules="numpy")
+        if det is not None:
+            fn = sp.lambdify(args, det, modules="numpy")
+            shown = _short(det)
+        else:
+            jac = sp.lambdify(args, self.jacobian_matrix, modules="numpy")
+
+            def fn(*values):
+                return np.linalg.det(np.asarray(jac(*values), dtype=float))
+
+            shown = f"(a {len(self.state_symbols)} x {len(self.state_symbols)} Jacobian)"
         rng = np.random.default_rng(20240607)
         z = self._sample_states(rng, 4 * N_SAMPLES)
         k = self._sample_params(rng, 4 * N_SAMPLES)
@@ -288,7 +329,7 @@ class AreaPreservingMap(PhaseSpaceSystem):
             for zi, ki in zip(z, k):
                 try:
                     value = complex(fn(*zi, *ki))
-                except (ZeroDivisionError, ValueError, OverflowError, TypeError):
+                except (ZeroDivisionError, ValueError, OverflowError, TypeError, np.linalg.LinAlgError):
                     continue
                 if not (np.isfinite(value.real) and np.isfinite(value.imag)):
                     continue
@@ -296,29 +337,30 @@ class AreaPreservingMap(PhaseSpaceSystem):
                     point = ", ".join(f"{s.name}={v:.4g}" for s, v in zip(args, list(zi) + list(ki)))
                     raise ModelError(
                         f"map {self.name!r} is not area-preserving: its Jacobian determinant is "
-                        f"{_short(det)}, which is {value.real:.6g} at {point}")
+                        f"{shown}, which is {value.real:.6g} at {point}")
                 good += 1
                 if good >= N_SAMPLES:
                     return
         if good == 0:
             raise ModelError(
                 f"cannot check that map {self.name!r} is area-preserving: its Jacobian determinant "
-                f"{_short(det)} is undefined at every sample point")
+                f"{shown} is undefined at every sample point")
 
     # ----------------------------------------------------------------- structure
     @cached_property
     def is_symplectic(self) -> bool:
         """True when J^T Omega J = Omega holds identically (for one degree of freedom this is
-        the same as det J = 1). Checked with sympy; expressions it cannot simplify count as
-        not shown."""
+        the same as det J = 1). Each entry of the difference is tested with bounded work
+        (:func:`phaselab.model.zero.zero_check`): a nonzero value at a sample point settles
+        "not symplectic"."""
         n = self.dof
         omega = sp.zeros(2 * n, 2 * n)
         for i in range(n):
             omega[i, n + i] = 1
             omega[n + i, i] = -1
         J = self.jacobian_matrix
-        diff = (J.T * omega * J - omega).applyfunc(sp.expand)
-        return all(d == 0 or sp.simplify(d) == 0 for d in diff)
+        diff = J.T * omega * J - omega
+        return all(d == 0 or zero_check(d).zero for d in diff)
 
     # ----------------------------------------------------------------- numbers
     @cached_property

@@ -87,6 +87,19 @@ class Fields:
             raise self.error(full, f"is {len(value)} characters long; the limit is {max_length}")
         return value
 
+    def drawn_text(self, table: dict, path: str, key: str, default=None, required=False,
+                   max_length: int = 300) -> str | None:
+        """A string drawn on figures (a title or a note): math between dollar signs must be
+        something matplotlib can typeset (:func:`phaselab.export.describe.text_problem`)."""
+        value = self.string(table, path, key, default=default, required=required, max_length=max_length)
+        if value:
+            from phaselab.export.describe import text_problem
+
+            problem = text_problem(value)
+            if problem:
+                raise self.error(self.join(path, key), problem)
+        return value
+
     def name(self, value, full: str) -> str:
         """A symbol name: a plain identifier not starting with an underscore."""
         if not isinstance(value, str):

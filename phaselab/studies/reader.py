@@ -8,182 +8,39 @@ catalogue model is looked up by name in a fixed table, every value is type- and
 range-checked, unknown keys are refused, sizes are capped, and output paths are confined to
 the output folder. Every problem raises :class:`~phaselab.errors.StudyFileError` naming the
 file, the dotted key and what is wrong.
+
+This module holds the entry points; the records are in :mod:`.spec`, the table readers in
+:mod:`.tables` and the output path checks in :mod:`.paths`.
 """
 
 from __future__ import annotations
 
-import inspect
-import math
-import re
 import sys
-from dataclasses import dataclass, field
-from pathlib import Path, PurePosixPath
-
-import numpy as np
+from pathlib import Path
 
 from phaselab.errors import PhaselabError, StudyFileError
 from phaselab.studies.fields import Fields
+from phaselab.studies.paths import check_relative, confined_path
+from phaselab.studies.spec import (DATA_SUFFIXES, FIGURE_SUFFIXES, MAX_CROSSINGS, MAX_ORBITS,
+                                   MAX_OUTPUTS, MAX_PIXELS, MAX_POINTS, OutputSpec, SectionSpec,
+                                   SeedSpec, Study)
+from phaselab.studies.tables import read_output, read_seeds, read_section, read_system
 
 if sys.version_info >= (3, 11):
     import tomllib
 else:  # pragma: no cover - exercised on Python 3.10 only
     import tomli as tomllib
 
+__all__ = ["read_study", "parse_study", "Study", "SectionSpec", "SeedSpec", "OutputSpec",
+           "check_relative", "confined_path", "MAX_FILE_BYTES", "MAX_ORBITS", "MAX_CROSSINGS",
+           "MAX_POINTS", "MAX_OUTPUTS", "MAX_PIXELS", "FIGURE_SUFFIXES", "DATA_SUFFIXES"]
+
 #: largest study file read, in bytes
 MAX_FILE_BYTES = 256 * 1024
-#: most orbits (seeds) one study may ask for
-MAX_ORBITS = 5_000
-#: most crossings (or map iterates) per orbit
-MAX_CROSSINGS = 100_000
-#: most section points in total (orbits x crossings)
-MAX_POINTS = 5_000_000
-#: most output files
-MAX_OUTPUTS = 20
-#: largest figure side in pixels (size x dpi)
-MAX_PIXELS = 6_000
-
-FIGURE_SUFFIXES = (".svg", ".pdf", ".png")
-DATA_SUFFIXES = (".csv", ".nc")
 
 _TOP_KEYS = ("study", "system", "parameters", "section", "seeds", "output")
-_SYSTEM_FORMS = ("hamiltonian", "lagrangian", "map", "model")
-_SYSTEM_KEYS = _SYSTEM_FORMS + ("coordinates", "momenta", "velocities", "time", "period",
-                                "modulus", "name", "options")
-_SECTION_KEYS = ("plane", "direction", "energy", "crossings", "method", "dt", "show", "box")
-_SEED_FORMS = ("points", "line", "grid")
-_SEED_KEYS = _SEED_FORMS + ("solve_for", "fixed")
-_PATH_PART = re.compile(r"^[A-Za-z0-9][A-Za-z0-9._-]{0,79}$")
 
 
-@dataclass
-class SectionSpec:
-    """What to section.
-
-    Attributes
-    ----------
-    kind : str
-        ``"plane"`` (a coordinate equal to a value), ``"stroboscopic"`` (once per driving
-        period of a time-periodic H) or ``"map"`` (every iterate of a map).
-    coordinate : str or None
-        The coordinate of the plane.
-    value : float or None
-        Its value on the plane.
-    direction : int
-        +1 for crossings with the coordinate increasing, -1 for decreasing.
-    energy : float or None
-        The energy shell the seeds are put on (with ``seeds.solve_for``).
-    crossings : int
-        Crossings (or iterates) recorded per orbit.
-    method : str
-        Integrator name, or ``"auto"``.
-    dt : float or None
-        Step size (model time units); None lets the library choose.
-    show : tuple of str or None
-        The two state components to plot (None: the library's default for the plane).
-    box : float or None
-        Escape radius: an orbit with any |component| above it is stopped and flagged.
-    """
-
-    kind: str
-    coordinate: str | None
-    value: float | None
-    direction: int
-    energy: float | None
-    crossings: int
-    method: str
-    dt: float | None
-    show: tuple | None = None
-    box: float | None = None
-
-
-@dataclass
-class SeedSpec:
-    """Initial conditions.
-
-    Attributes
-    ----------
-    form : str
-        ``"points"``, ``"line"`` or ``"grid"`` (how the file gave them).
-    columns : tuple of str
-        The state components given, in state order.
-    values : ndarray, shape (n_orbits, len(columns))
-        Their values, one row per orbit.
-    solve_for : str or None
-        The momentum solved from H = energy (None: the seeds are full states).
-    """
-
-    form: str
-    columns: tuple
-    values: np.ndarray
-    solve_for: str | None
-
-    @property
-    def count(self) -> int:
-        return int(self.values.shape[0])
-
-
-@dataclass
-class OutputSpec:
-    """One file to write: a figure (.svg/.pdf/.png) or a data file (.csv/.nc).
-
-    Attributes
-    ----------
-    kind : str
-        ``"figure"`` or ``"data"``.
-    file : str
-        Path relative to the output folder (checked not to leave it).
-    options : dict
-        Figure options (size in inches, dpi, title, point_size); empty for data files.
-    """
-
-    kind: str
-    file: str
-    options: dict = field(default_factory=dict)
-
-
-@dataclass
-class Study:
-    """A checked study file.
-
-    Attributes
-    ----------
-    source : str
-        The file name (or ``"<text>"``), used in messages.
-    title, about, note : str
-        Free text: a title for figures, a description, and a note printed under figures.
-    system : Hamiltonian or AreaPreservingMap
-        The system, built through the safe parser or taken from the catalogue.
-    system_form : str
-        ``"hamiltonian"``, ``"lagrangian"``, ``"map"`` or ``"model"``.
-    params : dict of str to float
-        The parameter values used (defaults of the file's own parameters, or the overrides
-        given for a catalogue model).
-    section : SectionSpec
-    seeds : SeedSpec
-    folder : str
-        Sub-folder of the output folder the files go in ("" for the output folder itself).
-    outputs : list of OutputSpec
-    """
-
-    source: str
-    title: str
-    about: str
-    note: str
-    system: object
-    system_form: str
-    params: dict
-    section: SectionSpec
-    seeds: SeedSpec
-    folder: str
-    outputs: list
-
-    def output_paths(self, out_dir) -> list[Path]:
-        """The paths the outputs are written to under ``out_dir`` (confined to it)."""
-        base = Path(out_dir)
-        return [confined_path(base, self.folder, spec.file, self.source) for spec in self.outputs]
-
-
-# ====================================================================== entry points
 def read_study(path) -> Study:
     """Read and check the study file at ``path``.
 
@@ -231,485 +88,31 @@ def parse_study(text: str, source: str = "<text>") -> Study:
     f.check_nesting(data)
     f.only_keys(data, "", _TOP_KEYS)
 
+    try:
+        return _build(f, data)
+    except StudyFileError:
+        raise
+    except PhaselabError as exc:  # pragma: no cover - the table readers name the key first
+        raise f.error("", str(exc)) from None
+    except RecursionError:
+        raise f.error("", "nested too deeply to read") from None
+    except MemoryError:  # pragma: no cover - the size limits keep this away
+        raise f.error("", "too large to read") from None
+
+
+def _build(f: Fields, data: dict) -> Study:
     info = f.table(data, "", "study")
     f.only_keys(info, "study", ("title", "about", "note"))
-    title = f.string(info, "study", "title", default="", max_length=200)
+    title = f.drawn_text(info, "study", "title", default="", max_length=200)
     about = f.string(info, "study", "about", default="", max_length=5000)
-    note = f.string(info, "study", "note", default="", max_length=300)
+    note = f.drawn_text(info, "study", "note", default="", max_length=300)
 
-    system, form, params = _read_system(f, data)
-    section = _read_section(f, data, system, params)
-    seeds = _read_seeds(f, data, system, section)
+    system, form, params = read_system(f, data)
+    section = read_section(f, data, system, params)
+    seeds = read_seeds(f, data, system, section)
     total = seeds.count * section.crossings
     if total > MAX_POINTS:
         raise f.error("section.crossings", f"{seeds.count} orbits x {section.crossings} crossings "
                                            f"= {total} points; the limit is {MAX_POINTS}")
-    folder, outputs = _read_output(f, data)
-    return Study(source, title, about, note, system, form, params, section, seeds, folder, outputs)
-
-
-# ====================================================================== [system], [parameters]
-def _read_system(f: Fields, data: dict):
-    from phaselab.model.hamiltonian import Hamiltonian
-    from phaselab.model.maps import AreaPreservingMap
-
-    sysd = f.table(data, "", "system", required=True)
-    f.only_keys(sysd, "system", _SYSTEM_KEYS)
-    forms = [k for k in _SYSTEM_FORMS if k in sysd]
-    if len(forms) != 1:
-        got = ", ".join(f"system.{k}" for k in forms) or "none"
-        raise f.error("system", "give exactly one of system.hamiltonian, system.lagrangian, "
-                                f"system.map or system.model (got {got})")
-    form = forms[0]
-    allowed_extra = {
-        "hamiltonian": {"coordinates", "momenta", "time", "period", "name"},
-        "lagrangian": {"coordinates", "velocities", "momenta", "time", "period", "name"},
-        "map": {"coordinates", "momenta", "modulus", "name"},
-        "model": {"options"},
-    }[form]
-    extra = [k for k in sysd if k != form and k not in allowed_extra]
-    if extra:
-        raise f.error(", ".join(f"system.{k}" for k in extra),
-                      f"not used with system.{form}; keys for this form: "
-                      + ", ".join(sorted(allowed_extra | {form})))
-    prm_table = f.table(data, "", "parameters")
-
-    if form == "model":
-        system = _catalogue_model(f, sysd)
-        params = _parameter_overrides(f, prm_table, system)
-        return system, form, params
-
-    declared = _declared_parameters(f, prm_table)
-    name = f.string(sysd, "system", "name", default=None, max_length=80)
-    coords = f.names(sysd, "system", "coordinates", required=True)
-    time = f.name(sysd["time"], "system.time") if "time" in sysd else None
-    try:
-        if form == "hamiltonian":
-            expr = f.string(sysd, "system", "hamiltonian", required=True)
-            momenta = f.names(sysd, "system", "momenta", required=True)
-            system = _guard("system.hamiltonian", f, lambda: Hamiltonian(
-                expr, coords, momenta, params=declared, time=time,
-                period=_period(f, sysd), name=name))
-        elif form == "lagrangian":
-            expr = f.string(sysd, "system", "lagrangian", required=True)
-            velocities = f.names(sysd, "system", "velocities", required=True)
-            momenta = f.names(sysd, "system", "momenta")
-            system = _guard("system.lagrangian", f, lambda: Hamiltonian.from_lagrangian(
-                expr, coords, velocities, params=declared, time=time,
-                period=_period(f, sysd), name=name, momenta=momenta))
-        else:
-            momenta = f.names(sysd, "system", "momenta", required=True)
-            rules = _map_rules(f, sysd["map"])
-            modulus = _modulus(f, sysd, coords + momenta)
-            system = _guard("system.map", f, lambda: AreaPreservingMap(
-                rules, coords, momenta, params=declared, modulus=modulus, name=name))
-    except RecursionError:  # pragma: no cover - _guard catches it first
-        raise f.error(f"system.{form}", "expression too deeply nested") from None
-    params = {p.name: p.default for p in system.parameters}
-    return system, form, params
-
-
-def _guard(key: str, f: Fields, build):
-    """Run a model constructor, turning its errors into errors at ``key``."""
-    try:
-        return build()
-    except StudyFileError:
-        raise
-    except PhaselabError as exc:
-        raise f.error(key, str(exc)) from None
-    except RecursionError:
-        raise f.error(key, "expression too deeply nested") from None
-    except (ArithmeticError, TypeError, ValueError) as exc:  # sympy refusing odd input
-        raise f.error(key, f"cannot build the system: {exc}") from None
-
-
-def _period(f: Fields, sysd: dict):
-    if "period" not in sysd:
-        return None
-    value = sysd["period"]
-    if isinstance(value, bool) or not isinstance(value, (int, float, str)):
-        raise f.error("system.period", "must be a number or an expression string in the parameters")
-    if not isinstance(value, str):
-        f.get_number(sysd, "system", "period", positive=True)
-        return float(value)
-    return value
-
-
-def _declared_parameters(f: Fields, table: dict) -> dict:
-    """``[parameters]`` of a file's own system: name = value or {default, range}."""
-    out = {}
-    for key, value in table.items():
-        full = f"parameters.{key}"
-        f.name(key, full)
-        if isinstance(value, dict):
-            f.only_keys(value, full, ("default", "range"))
-            default = f.get_number(value, full, "default", required=True)
-            if "range" in value:
-                low, high = f.numbers(value["range"], f"{full}.range", length=2)
-                if not low < high:
-                    raise f.error(f"{full}.range", f"must be [low, high] with low < high, got [{low:g}, {high:g}]")
-                if not low <= default <= high:
-                    raise f.error(f"{full}.default", f"{default:g} lies outside its range [{low:g}, {high:g}]")
-                out[key] = (default, (low, high))
-            else:
-                out[key] = default
-        else:
-            out[key] = f.number(value, full)
-    return out
-
-
-def _parameter_overrides(f: Fields, table: dict, system) -> dict:
-    """``[parameters]`` of a catalogue model: overrides of its own parameters by name."""
-    known = {p.name: p for p in system.parameters}
-    out = {}
-    for key, value in table.items():
-        full = f"parameters.{key}"
-        if key not in known:
-            raise f.error(full, f"model {system.name!r} has no parameter {key!r}; its parameters: "
-                                + (", ".join(known) or "none"))
-        if isinstance(value, dict):
-            raise f.error(full, "a catalogue model's parameter takes a value only (its range is "
-                                "the model's own)")
-        out[key] = f.number(value, full)
-    return out
-
-
-def _catalogue_model(f: Fields, sysd: dict):
-    from phaselab.model.catalogue import MODELS
-
-    name = sysd["model"]
-    if not isinstance(name, str) or name not in MODELS:
-        shown = name if isinstance(name, str) else type(name).__name__
-        raise f.error("system.model", f"unknown model {shown!r}; the catalogue has: "
-                                      + ", ".join(MODELS))
-    options = f.table(sysd, "system", "options")
-    build = MODELS[name]
-    accepted = set(inspect.signature(build).parameters)
-    kwargs = {}
-    for key, value in options.items():
-        full = f"system.options.{key}"
-        if key not in accepted:
-            raise f.error(full, f"model {name!r} takes no option {key!r}; its options: "
-                                + (", ".join(sorted(accepted)) or "none"))
-        if isinstance(value, bool) or not isinstance(value, (int, float, str)):
-            raise f.error(full, f"must be a number or a string, got {type(value).__name__}")
-        if isinstance(value, int) and not 0 <= value <= 256:
-            raise f.error(full, f"must lie between 0 and 256, got {value}")
-        kwargs[key] = value
-    return _guard(f"system.model", f, lambda: build(**kwargs))
-
-
-def _map_rules(f: Fields, rules):
-    """``system.map``: a list of strings (new values in state order, all in the old values)
-    or of ``[target, expression]`` pairs applied one after another."""
-    if not isinstance(rules, list) or not rules:
-        raise f.error("system.map", "must be a list of expression strings or of [target, expression] pairs")
-    if len(rules) > 200:
-        raise f.error("system.map", f"has {len(rules)} rules; the limit is 200")
-    out = []
-    for i, rule in enumerate(rules):
-        full = f"system.map[{i}]"
-        if isinstance(rule, str):
-            out.append(rule)
-        elif isinstance(rule, list) and len(rule) == 2 and all(isinstance(r, str) for r in rule):
-            out.append((f.name(rule[0], f"{full}[0]"), rule[1]))
-        else:
-            raise f.error(full, "must be an expression string or a [target, expression] pair of strings")
-    return out
-
-
-def _modulus(f: Fields, sysd: dict, state_names: list[str]):
-    """``system.modulus``: one period for every component, or a table by component name of a
-    period or a [low, high] interval (components not named are not wrapped)."""
-    if "modulus" not in sysd:
-        return None
-    value = sysd["modulus"]
-    if not isinstance(value, dict):
-        return f.number(value, "system.modulus")
-    entries = []
-    for name in value:
-        if name not in state_names:
-            raise f.error(f"system.modulus.{name}", f"not a coordinate or momentum; the state is "
-                                                    + ", ".join(state_names))
-    for name in state_names:
-        if name not in value:
-            entries.append(None)
-            continue
-        full = f"system.modulus.{name}"
-        entry = value[name]
-        if isinstance(entry, list):
-            low, high = f.numbers(entry, full, length=2)
-            if not low < high:
-                raise f.error(full, f"must be [low, high] with low < high, got [{low:g}, {high:g}]")
-            entries.append((low, high))
-        else:
-            period = f.number(entry, full)
-            if not period > 0:
-                raise f.error(full, f"a period must be positive, got {period:g}")
-            entries.append(period)
-    return entries
-
-
-# ====================================================================== [section]
-def _read_section(f: Fields, data: dict, system, params) -> SectionSpec:
-    sec = f.table(data, "", "section", required=True)
-    f.only_keys(sec, "section", _SECTION_KEYS)
-    crossings = f.integer(sec, "section", "crossings", required=True, low=1, high=MAX_CROSSINGS)
-    state = [s.name for s in system.state_symbols]
-    show = None
-    if "show" in sec:
-        show = tuple(f.names(sec, "section", "show"))
-        if len(show) != 2:
-            raise f.error("section.show", f"must name two state components, got {len(show)}")
-        for i, name in enumerate(show):
-            if name not in state:
-                raise f.error(f"section.show[{i}]", f"{name!r} is not a coordinate or momentum; the state is "
-                                                   + ", ".join(state))
-    box = f.get_number(sec, "section", "box", positive=True)
-    is_map = getattr(system, "kind", "flow") == "map"
-    if is_map:
-        for key in ("plane", "direction", "energy", "method", "dt"):
-            if key in sec:
-                raise f.error(f"section.{key}", "not used for a map (its section is every iterate); "
-                                                "give section.crossings (and optionally show, box)")
-        return SectionSpec("map", None, None, 1, None, crossings, "map", None, show, box)
-
-    plane = f.string(sec, "section", "plane", required=True, max_length=200)
-    coords = [s.name for s in system.coords]
-    if plane.strip() == "stroboscopic":
-        if system.is_autonomous or getattr(system, "period", None) is None:
-            raise f.error("section.plane", "a stroboscopic section needs a time-periodic system "
-                                           "(system.time and system.period)")
-        kind, coord, value = "stroboscopic", None, None
-        for key in ("direction", "energy"):
-            if key in sec:
-                raise f.error(f"section.{key}", "not used for a stroboscopic section")
-    else:
-        if not system.is_autonomous:
-            raise f.error("section.plane", "this system depends on time; use plane = \"stroboscopic\"")
-        if plane.count("=") != 1:
-            raise f.error("section.plane", f"write the plane as \"<coordinate> = <value>\" (for example "
-                                           f"\"{coords[0]} = 0\") or \"stroboscopic\", got {plane!r}")
-        left, right = (s.strip() for s in plane.split("="))
-        if left not in coords:
-            raise f.error("section.plane", f"{left!r} is not a coordinate of this system; its coordinates: "
-                                           + ", ".join(coords))
-        kind, coord = "plane", left
-        value = f.number(right, "section.plane")
-    direction = 1
-    if "direction" in sec:
-        d = sec["direction"]
-        if d in ("up", 1) and not isinstance(d, bool):
-            direction = 1
-        elif d in ("down", -1) and not isinstance(d, bool):
-            direction = -1
-        else:
-            raise f.error("section.direction", f"must be \"up\" (the coordinate increasing through the plane) "
-                                               f"or \"down\", got {d!r}")
-    energy = f.get_number(sec, "section", "energy")
-    method = f.string(sec, "section", "method", default="auto", max_length=40)
-    if method != "auto":
-        from phaselab.compute.integrators import get_method
-
-        try:
-            get_method(method, system.extended() if kind == "stroboscopic" else system)
-        except PhaselabError as exc:
-            raise f.error("section.method", str(exc)) from None
-    dt = f.get_number(sec, "section", "dt", positive=True)
-    if dt is not None and dt < 1e-7:
-        raise f.error("section.dt", f"{dt:g} is too small a step (the limit is 1e-7)")
-    return SectionSpec(kind, coord, value, direction, energy, crossings, method, dt, show, box)
-
-
-# ====================================================================== [seeds]
-def _read_seeds(f: Fields, data: dict, system, section: SectionSpec) -> SeedSpec:
-    sd = f.table(data, "", "seeds", required=True)
-    f.only_keys(sd, "seeds", _SEED_KEYS)
-    forms = [k for k in _SEED_FORMS if k in sd]
-    if len(forms) != 1:
-        got = ", ".join(f"seeds.{k}" for k in forms) or "none"
-        raise f.error("seeds", f"give exactly one of seeds.points, seeds.line or seeds.grid (got {got})")
-    form = forms[0]
-    state = [s.name for s in system.state_symbols]
-    momenta = [s.name for s in system.momenta]
-
-    solve_for = None
-    if "solve_for" in sd:
-        if section.kind != "plane":
-            raise f.error("seeds.solve_for", "only a plane section puts seeds on an energy shell")
-        solve_for = f.name(sd["solve_for"], "seeds.solve_for")
-        if solve_for not in momenta:
-            raise f.error("seeds.solve_for", f"{solve_for!r} is not a momentum; the momenta: " + ", ".join(momenta))
-        if section.energy is None:
-            raise f.error("section.energy", "missing; seeds.solve_for needs the energy of the shell")
-    elif section.energy is not None and section.kind == "plane":
-        raise f.error("section.energy", "given but seeds.solve_for is not; name the momentum to solve "
-                                        "from H = energy, or drop the energy")
-
-    # components the file must give: all but the plane's coordinate and the solved momentum
-    implied = {section.coordinate, solve_for} - {None}
-    needed = [s for s in state if s not in implied]
-
-    table = sd[form]
-    full = f"seeds.{form}"
-    if not isinstance(table, dict):
-        raise f.error(full, f"must be a table of columns by component name, e.g. {{ {needed[0]} = [...] }}")
-    fixed = f.table(sd, "seeds", "fixed")
-    for name in list(table) + list(fixed):
-        if name == "count" and form == "line":
-            continue
-        where = f"{full}.{name}" if name in table else f"seeds.fixed.{name}"
-        if name not in state:
-            raise f.error(where, f"{name!r} is not a coordinate or momentum; the state is " + ", ".join(state))
-        if name in implied:
-            what = "the plane sets it" if name == section.coordinate else "it is solved from the energy"
-            raise f.error(where, f"{name!r} cannot be given: {what}")
-    both = set(table) & set(fixed)
-    if both:
-        raise f.error(f"seeds.fixed.{sorted(both)[0]}", "given both here and in " + full)
-
-    columns: dict[str, np.ndarray] = {}
-    if form == "points":
-        lengths = set()
-        for name, col in table.items():
-            vals = f.numbers(col, f"{full}.{name}")
-            if len(vals) > MAX_ORBITS:
-                raise f.error(f"{full}.{name}", f"{len(vals)} seeds; the limit is {MAX_ORBITS}")
-            columns[name] = np.array(vals, dtype=float)
-            lengths.add(len(vals))
-        if len(lengths) > 1:
-            raise f.error(full, f"columns have different lengths: {sorted(lengths)}")
-        count = lengths.pop() if lengths else 0
-    elif form == "line":
-        count = f.integer(table, full, "count", required=True, low=1, high=MAX_ORBITS)
-        for name, ends in table.items():
-            if name == "count":
-                continue
-            a, b = f.numbers(ends, f"{full}.{name}", length=2)
-            columns[name] = np.linspace(a, b, count)
-    else:
-        sizes = []
-        axes = []
-        for name, spec in table.items():
-            where = f"{full}.{name}"
-            if not isinstance(spec, list) or len(spec) != 3:
-                raise f.error(where, "must be [low, high, count]")
-            low, high = f.numbers(spec[:2], where)
-            n = spec[2]
-            if isinstance(n, bool) or not isinstance(n, int) or n < 1:
-                raise f.error(f"{where}[2]", f"the count must be a whole number >= 1, got {n!r}")
-            if n > MAX_ORBITS:
-                raise f.error(f"{where}[2]", f"{n} seeds; the limit is {MAX_ORBITS}")
-            sizes.append(n)
-            axes.append((name, np.linspace(low, high, n)))
-        count = math.prod(sizes) if sizes else 0
-        if count > MAX_ORBITS:
-            raise f.error(full, f"the grid has {' x '.join(map(str, sizes))} = {count} seeds; "
-                                f"the limit is {MAX_ORBITS}")
-        if axes:
-            mesh = np.meshgrid(*[a for _, a in axes], indexing="ij")
-            columns = {name: m.ravel() for (name, _), m in zip(axes, mesh)}
-    if count < 1:
-        raise f.error(full, "gives no seeds")
-    for name, value in fixed.items():
-        columns[name] = np.full(count, f.number(value, f"seeds.fixed.{name}"))
-    missing = [s for s in needed if s not in columns]
-    if missing:
-        raise f.error(full, "missing value" + ("s" if len(missing) > 1 else "") + " for "
-                      + ", ".join(missing) + " (give them as columns or in seeds.fixed)")
-    order = tuple(s for s in state if s in columns)
-    values = np.column_stack([columns[s] for s in order]).astype(float)
-    return SeedSpec(form, order, values, solve_for)
-
-
-# ====================================================================== [output]
-def _read_output(f: Fields, data: dict):
-    out = f.table(data, "", "output")
-    f.only_keys(out, "output", ("folder", "figure", "data"))
-    folder = ""
-    if "folder" in out:
-        folder = f.string(out, "output", "folder", max_length=200)
-        check_relative(f, folder, "output.folder")
-    specs: list[OutputSpec] = []
-    for kind in ("figure", "data"):
-        items = out.get(kind, [])
-        if isinstance(items, dict):
-            items = [items]
-        if not isinstance(items, list):
-            raise f.error(f"output.{kind}", "must be a list of tables ([[output." + kind + "]])")
-        for i, item in enumerate(items):
-            full = f"output.{kind}[{i}]"
-            if not isinstance(item, dict):
-                raise f.error(full, "must be a table with at least a file key")
-            if kind == "figure":
-                f.only_keys(item, full, ("file", "size", "dpi", "title", "point_size"))
-            else:
-                f.only_keys(item, full, ("file",))
-            name = f.string(item, full, "file", required=True, max_length=300)
-            check_relative(f, name, f"{full}.file")
-            suffixes = FIGURE_SUFFIXES if kind == "figure" else DATA_SUFFIXES
-            suffix = PurePosixPath(name).suffix.lower()
-            if suffix not in suffixes:
-                raise f.error(f"{full}.file", f"a {kind} file ends in {', '.join(suffixes)}, got {name!r}")
-            options = {}
-            if kind == "figure":
-                if "size" in item:
-                    w, h = f.numbers(item["size"], f"{full}.size", length=2)
-                    if not (2.0 <= w <= 40.0 and 1.5 <= h <= 40.0):
-                        raise f.error(f"{full}.size", f"must be [width, height] in inches between 2 x 1.5 "
-                                                      f"and 40 x 40, got [{w:g}, {h:g}]")
-                    options["size"] = (w, h)
-                dpi = f.get_number(item, full, "dpi", low=20, high=600)
-                if dpi is not None:
-                    options["dpi"] = dpi
-                w, h = options.get("size", (6.0, 4.5))
-                if max(w, h) * options.get("dpi", 150) > MAX_PIXELS:
-                    raise f.error(f"{full}.dpi", f"the figure would be {w * options.get('dpi', 150):.0f} x "
-                                                 f"{h * options.get('dpi', 150):.0f} pixels; the limit is "
-                                                 f"{MAX_PIXELS} on a side")
-                if "title" in item:
-                    options["title"] = f.string(item, full, "title", max_length=200)
-                ps = f.get_number(item, full, "point_size", positive=True, high=20)
-                if ps is not None:
-                    options["point_size"] = ps
-            specs.append(OutputSpec(kind, name, options))
-    if len(specs) > MAX_OUTPUTS:
-        raise f.error("output", f"{len(specs)} files; the limit is {MAX_OUTPUTS}")
-    targets = [PurePosixPath(s.file).as_posix() for s in specs]
-    dupes = sorted({t for t in targets if targets.count(t) > 1})
-    if dupes:
-        raise f.error("output", f"file {dupes[0]!r} is named twice")
-    return folder, specs
-
-
-def check_relative(f: Fields, name: str, key: str) -> None:
-    """Refuse a path that is absolute, climbs out (``..``) or uses odd characters."""
-    if not name:
-        raise f.error(key, "is empty")
-    if name.startswith(("/", "\\", "~")) or (len(name) > 1 and name[1] == ":") or "\\" in name:
-        raise f.error(key, f"{name!r} must be a relative path inside the output folder "
-                           "(no absolute paths, drive letters, backslashes or ~)")
-    parts = name.split("/")
-    if any(p == ".." for p in parts):
-        raise f.error(key, f"{name!r} leaves the output folder (\"..\" is not allowed)")
-    parts = [p for p in parts if p not in ("", ".")]
-    if not parts or len(parts) > 4:
-        raise f.error(key, f"{name!r} must name a file at most 4 folders deep")
-    for p in parts:
-        if not _PATH_PART.match(p):
-            raise f.error(key, f"{name!r}: part {p!r} may hold only letters, digits, '.', '_' and '-' "
-                               "and must start with a letter or digit")
-
-
-def confined_path(base: Path, folder: str, name: str, source: str = "<study>") -> Path:
-    """``base / folder / name``, checked (after resolving links) to lie inside ``base``."""
-    f = Fields(source)
-    if folder:
-        check_relative(f, folder, "output.folder")
-    check_relative(f, name, "output.file")
-    root = Path(base).resolve()
-    target = (root / folder / name).resolve()
-    if target != root and root not in target.parents:
-        raise f.error("output", f"{folder + '/' if folder else ''}{name} resolves to {target}, outside "
-                                f"the output folder {root}")
-    return target
+    folder, outputs = read_output(f, data)
+    return Study(f.source, title, about, note, system, form, params, section, seeds, folder, outputs)

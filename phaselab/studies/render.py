@@ -10,6 +10,7 @@ in batches (for a progress bar) does not change any number.
 from __future__ import annotations
 
 import math
+import os
 import warnings
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -18,7 +19,8 @@ import numpy as np
 
 from phaselab.errors import PhaselabError, StudyFileError
 from phaselab.studies.fields import Fields
-from phaselab.studies.reader import Study, confined_path
+from phaselab.studies.paths import confined_path, open_output_folder
+from phaselab.studies.spec import Study
 
 #: batches per render, for progress reporting (each batch keeps at least MIN_BATCH orbits so
 #: both cores stay busy)
@@ -181,6 +183,11 @@ def compute_section(study: Study, progress=None):
                 raise
             except PhaselabError as exc:
                 raise StudyFileError(f"{study.source}: section: {exc}") from None
+            except (ArithmeticError, RecursionError, NotImplementedError) as exc:
+                # the system's numbers are bounded when it is read; this is a last line so a
+                # study file never ends in a traceback
+                raise StudyFileError(f"{study.source}: section: cannot compute ({type(exc).__name__}: "
+                                     f"{exc})") from None
         for w in caught:
             text = str(w.message)
             if start:
@@ -199,29 +206,48 @@ def join_sections(parts):
 
 
 def write_outputs(study: Study, sec, out_dir) -> list[Path]:
-    """Write every output the study names, under ``out_dir`` (folders made as needed)."""
+    """Write every output the study names, under ``out_dir`` (folders made as needed).
+
+    Each path is checked to resolve inside ``out_dir``; the file is then written through a
+    handle on its folder, opened part by part without following links
+    (:func:`~phaselab.studies.paths.open_output_folder`), as a temporary file renamed into
+    place (:func:`~phaselab.export.files.atomic_path`). A link swapped in after the check
+    cannot redirect the write, and an interrupted write leaves the previous file intact.
+
+    Returns
+    -------
+    list of pathlib.Path
+        The files written (their resolved paths under ``out_dir``).
+    """
     from phaselab.export import save
+    from phaselab.export.files import folder_path
 
     files = []
     f = Fields(study.source)
-    for i, spec in enumerate(study.outputs):
+    for spec in study.outputs:
         key = f"output.{spec.kind}"
         path = confined_path(Path(out_dir), study.folder, spec.file, study.source)
-        try:
-            path.parent.mkdir(parents=True, exist_ok=True)
-        except OSError as exc:
-            raise f.error(key, f"cannot make folder {path.parent}: {exc.strerror or exc}") from None
         options = dict(spec.options)
         if spec.kind == "figure":
             options.setdefault("title", study.title or None)
             if study.note:
                 options.setdefault("note", study.note)
+        fd = open_output_folder(Path(out_dir), study.folder, spec.file, study.source)
         try:
-            files.append(save(sec, path, **options))
+            target = folder_path(fd, path.parent) / path.name
+            # without /proc the write goes by path: re-check that it still names the same folder
+            if target.parent == path.parent and not os.path.samestat(os.fstat(fd), os.stat(path.parent)):
+                raise f.error(key, f"folder {path.parent} changed while it was being written to")
+            save(sec, target, **options)
+        except StudyFileError:
+            raise
         except PhaselabError as exc:
             raise f.error(f"{key} ({spec.file})", str(exc)) from None
         except OSError as exc:
             raise f.error(f"{key} ({spec.file})", f"cannot write {path}: {exc.strerror or exc}") from None
+        finally:
+            os.close(fd)
+        files.append(path)
     return files
 
 

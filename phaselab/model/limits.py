@@ -1,0 +1,124 @@
+"""Size limits on symbolic work: how big an expression is, and how big it would get expanded.
+
+sympy's ``expand``, ``simplify`` and ``solve`` have no bound on their cost: ``(x + y + 1)**1000``
+is a short expression whose expansion has half a million terms. Model code measures first
+and only hands sympy work whose size is known to be small; past these limits it decides
+numerically or refuses with a clear error.
+"""
+
+from __future__ import annotations
+
+import math
+
+import sympy as sp
+
+#: most terms an expansion may produce before it is skipped
+EXPAND_MAX_TERMS = 400
+#: most nodes (counted as a tree, shared parts counted each time they are used) an
+#: expression built from user rules may have
+MAX_TREE_NODES = 20_000
+
+
+def tree_size(expr: sp.Basic, limit: int | None = None) -> int:
+    """Nodes of ``expr`` counted as a tree: a subexpression used twice counts twice.
+
+    This is what tree walks (printing, differentiation, substitution) cost, even when sympy
+    stores the shared parts once. Counting is linear in the number of *distinct* parts, so a
+    composition that doubles its size at each step is measured without being walked.
+
+    Parameters
+    ----------
+    expr : sympy.Basic
+    limit : int, optional
+        Stop counting once the size exceeds ``limit`` (the result is then ``limit + 1``).
+    """
+    cap = math.inf if limit is None else limit + 1
+    sizes: dict = {}
+    stack = [(expr, False)]
+    while stack:
+        node, ready = stack.pop()
+        if node in sizes:
+            continue
+        if not node.args:
+            sizes[node] = 1
+            continue
+        if ready:
+            sizes[node] = min(cap, 1 + sum(sizes[a] for a in node.args))
+            if sizes[node] >= cap:
+                return int(cap)
+            continue
+        stack.append((node, True))
+        stack.extend((a, False) for a in node.args if a not in sizes)
+    return int(min(sizes[expr], cap))
+
+
+def expanded_terms(expr: sp.Basic, limit: int = EXPAND_MAX_TERMS) -> int:
+    """An upper estimate of the number of terms of ``sympy.expand(expr)``, capped at
+    ``limit + 1``; cheap (no expansion is done).
+
+    A sum has the terms of its parts, a product the product of their counts, a power
+    ``b**n`` with a whole ``n`` the number of monomials of degree ``|n|`` in the terms of
+    ``b`` (a denominator counts as fully as a numerator, since putting fractions over one
+    denominator multiplies it out); a function call counts as one term, and its arguments
+    (which ``expand`` also expands) must fit the limit themselves. The estimate also bounds
+    the work of ``together`` and ``cancel``.
+    """
+    cap = limit + 1
+    memo: dict = {}
+
+    def terms(e) -> int:
+        if e in memo:
+            return memo[e]
+        if not e.args:
+            out = 1
+        elif e.is_Add:
+            out = min(cap, sum(terms(a) for a in e.args))
+        elif e.is_Mul:
+            out = 1
+            for a in e.args:
+                out = min(cap, out * terms(a))
+        elif e.is_Pow:
+            base = terms(e.base)
+            exp_terms = terms(e.exp)
+            n = abs(e.exp) if e.exp.is_Integer else e.exp
+            if n.is_Integer and n > 0 and base > 1:
+                # b**-n counts as b**n: combining fractions (together, cancel) multiplies
+                # the denominators out
+                if n > limit:
+                    out = cap
+                else:
+                    out = min(cap, math.comb(base + int(n) - 1, int(n)))
+            else:
+                out = cap if max(base, exp_terms) >= cap else 1
+        else:  # a function: one term if its arguments are small
+            out = cap if any(terms(a) >= cap for a in e.args) else 1
+        memo[e] = out
+        return out
+
+    if tree_size(expr, limit=50 * limit) > 50 * limit:
+        return cap
+    return terms(expr)
+
+
+def plain_det(matrix: sp.Matrix) -> sp.Expr:
+    """The determinant of a small square matrix by cofactor expansion, with no simplification.
+
+    sympy's ``Matrix.det`` simplifies its intermediate products (for 2 x 2 and 3 x 3
+    matrices always), which has no bound on entries that come from user expressions. The
+    expansion here costs ``n!`` products of entries and is meant for ``n <= 6``.
+    """
+    n = matrix.rows
+    if n != matrix.cols:
+        raise ValueError(f"a determinant needs a square matrix, got {matrix.rows} x {matrix.cols}")
+    if n == 0:
+        return sp.Integer(1)
+    if n == 1:
+        return matrix[0, 0]
+    terms = []
+    for j in range(n):
+        entry = matrix[0, j]
+        if entry == 0:
+            continue
+        minor = matrix[1:, [k for k in range(n) if k != j]]
+        terms.append((-1) ** j * entry * plain_det(minor))
+    return sp.Add(*terms)

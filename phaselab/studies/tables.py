@@ -1,0 +1,479 @@
+"""The readers of a study file's tables: ``[system]`` with ``[parameters]``, ``[section]``,
+``[seeds]`` and ``[output]``.
+
+Each reader takes the :class:`~phaselab.studies.fields.Fields` context of the file and the
+parsed TOML data, checks every key it owns (types, ranges, sizes, unknown keys) and returns
+plain checked values or the records of :mod:`phaselab.studies.spec`. Expressions go only to
+the safe parser (through the model constructors); every problem is a
+:class:`~phaselab.errors.StudyFileError` naming the file, the dotted key and what is wrong.
+"""
+
+from __future__ import annotations
+
+import inspect
+import math
+from pathlib import PurePosixPath
+
+import numpy as np
+
+from phaselab.errors import PhaselabError, StudyFileError
+from phaselab.studies.fields import Fields
+from phaselab.studies.paths import check_relative
+from phaselab.studies.spec import (DATA_SUFFIXES, FIGURE_SUFFIXES, MAX_CROSSINGS, MAX_ORBITS,
+                                   MAX_OUTPUTS, MAX_PIXELS, OutputSpec, SectionSpec, SeedSpec)
+
+_SYSTEM_FORMS = ("hamiltonian", "lagrangian", "map", "model")
+_SYSTEM_KEYS = _SYSTEM_FORMS + ("coordinates", "momenta", "velocities", "time", "period",
+                                "modulus", "name", "options")
+_SECTION_KEYS = ("plane", "direction", "energy", "crossings", "method", "dt", "show", "box")
+_SEED_FORMS = ("points", "line", "grid")
+_SEED_KEYS = _SEED_FORMS + ("solve_for", "fixed")
+
+
+# ====================================================================== [system], [parameters]
+def read_system(f: Fields, data: dict):
+    from phaselab.model.hamiltonian import Hamiltonian
+    from phaselab.model.maps import AreaPreservingMap
+
+    sysd = f.table(data, "", "system", required=True)
+    f.only_keys(sysd, "system", _SYSTEM_KEYS)
+    forms = [k for k in _SYSTEM_FORMS if k in sysd]
+    if len(forms) != 1:
+        got = ", ".join(f"system.{k}" for k in forms) or "none"
+        raise f.error("system", "give exactly one of system.hamiltonian, system.lagrangian, "
+                                f"system.map or system.model (got {got})")
+    form = forms[0]
+    allowed_extra = {
+        "hamiltonian": {"coordinates", "momenta", "time", "period", "name"},
+        "lagrangian": {"coordinates", "velocities", "momenta", "time", "period", "name"},
+        "map": {"coordinates", "momenta", "modulus", "name"},
+        "model": {"options"},
+    }[form]
+    extra = [k for k in sysd if k != form and k not in allowed_extra]
+    if extra:
+        raise f.error(", ".join(f"system.{k}" for k in extra),
+                      f"not used with system.{form}; keys for this form: "
+                      + ", ".join(sorted(allowed_extra | {form})))
+    prm_table = f.table(data, "", "parameters")
+
+    if form == "model":
+        system = _catalogue_model(f, sysd)
+        params = _parameter_overrides(f, prm_table, system)
+        return system, form, params
+
+    declared = _declared_parameters(f, prm_table)
+    name = f.string(sysd, "system", "name", default=None, max_length=80)
+    coords = f.names(sysd, "system", "coordinates", required=True)
+    time = f.name(sysd["time"], "system.time") if "time" in sysd else None
+    try:
+        if form == "hamiltonian":
+            expr = f.string(sysd, "system", "hamiltonian", required=True)
+            momenta = f.names(sysd, "system", "momenta", required=True)
+            system = _guard("system.hamiltonian", f, lambda: Hamiltonian(
+                expr, coords, momenta, params=declared, time=time,
+                period=_period(f, sysd, declared), name=name))
+        elif form == "lagrangian":
+            expr = f.string(sysd, "system", "lagrangian", required=True)
+            velocities = f.names(sysd, "system", "velocities", required=True)
+            momenta = f.names(sysd, "system", "momenta")
+            system = _guard("system.lagrangian", f, lambda: Hamiltonian.from_lagrangian(
+                expr, coords, velocities, params=declared, time=time,
+                period=_period(f, sysd, declared), name=name, momenta=momenta))
+        else:
+            momenta = f.names(sysd, "system", "momenta", required=True)
+            rules = _map_rules(f, sysd["map"])
+            modulus = _modulus(f, sysd, coords + momenta)
+            system = _guard("system.map", f, lambda: AreaPreservingMap(
+                rules, coords, momenta, params=declared, modulus=modulus, name=name))
+    except RecursionError:  # pragma: no cover - _guard catches it first
+        raise f.error(f"system.{form}", "expression too deeply nested") from None
+    params = {p.name: p.default for p in system.parameters}
+    return system, form, params
+
+
+def _guard(key: str, f: Fields, build):
+    """Run a model constructor, turning its errors into errors at ``key``.
+
+    This is where text from the file meets sympy, so besides phaselab's own errors any
+    exception sympy raises on odd input (``NotImplementedError``, its polynomial errors,
+    arithmetic and type errors) becomes a :class:`StudyFileError` at ``key``."""
+    try:
+        return build()
+    except StudyFileError:
+        raise
+    except PhaselabError as exc:
+        raise f.error(key, str(exc)) from None
+    except RecursionError:
+        raise f.error(key, "expression too deeply nested") from None
+    except MemoryError:
+        raise f.error(key, "the system is too large to build") from None
+    except Exception as exc:  # sympy refusing odd input, in whatever way it does
+        text = str(exc) or type(exc).__name__
+        if len(text) > 200:
+            text = text[:197] + "..."
+        raise f.error(key, f"cannot build the system ({type(exc).__name__}): {text}") from None
+
+
+def _period(f: Fields, sysd: dict, declared: dict):
+    if "period" not in sysd:
+        return None
+    value = sysd["period"]
+    if isinstance(value, bool) or not isinstance(value, (int, float, str)):
+        raise f.error("system.period", "must be a number or an expression string in the parameters")
+    if not isinstance(value, str):
+        f.get_number(sysd, "system", "period", positive=True)
+        return float(value)
+    from phaselab.model.parser import parse_expression
+
+    try:  # checked here so that a problem is reported at its own key
+        parse_expression(value, allowed=set(declared))
+    except PhaselabError as exc:
+        raise f.error("system.period", str(exc)) from None
+    return value
+
+
+def _declared_parameters(f: Fields, table: dict) -> dict:
+    """``[parameters]`` of a file's own system: name = value or {default, range}."""
+    out = {}
+    for key, value in table.items():
+        full = f"parameters.{key}"
+        f.name(key, full)
+        if isinstance(value, dict):
+            f.only_keys(value, full, ("default", "range"))
+            default = f.get_number(value, full, "default", required=True)
+            if "range" in value:
+                low, high = f.numbers(value["range"], f"{full}.range", length=2)
+                if not low < high:
+                    raise f.error(f"{full}.range", f"must be [low, high] with low < high, got [{low:g}, {high:g}]")
+                if not low <= default <= high:
+                    raise f.error(f"{full}.default", f"{default:g} lies outside its range [{low:g}, {high:g}]")
+                out[key] = (default, (low, high))
+            else:
+                out[key] = default
+        else:
+            out[key] = f.number(value, full)
+    return out
+
+
+def _parameter_overrides(f: Fields, table: dict, system) -> dict:
+    """``[parameters]`` of a catalogue model: overrides of its own parameters by name."""
+    known = {p.name: p for p in system.parameters}
+    out = {}
+    for key, value in table.items():
+        full = f"parameters.{key}"
+        if key not in known:
+            raise f.error(full, f"model {system.name!r} has no parameter {key!r}; its parameters: "
+                                + (", ".join(known) or "none"))
+        if isinstance(value, dict):
+            raise f.error(full, "a catalogue model's parameter takes a value only (its range is "
+                                "the model's own)")
+        out[key] = f.number(value, full)
+    return out
+
+
+def _catalogue_model(f: Fields, sysd: dict):
+    from phaselab.model.catalogue import MODELS
+
+    name = sysd["model"]
+    if not isinstance(name, str) or name not in MODELS:
+        shown = name if isinstance(name, str) else type(name).__name__
+        raise f.error("system.model", f"unknown model {shown!r}; the catalogue has: "
+                                      + ", ".join(MODELS))
+    options = f.table(sysd, "system", "options")
+    build = MODELS[name]
+    accepted = set(inspect.signature(build).parameters)
+    kwargs = {}
+    for key, value in options.items():
+        full = f"system.options.{key}"
+        if key not in accepted:
+            raise f.error(full, f"model {name!r} takes no option {key!r}; its options: "
+                                + (", ".join(sorted(accepted)) or "none"))
+        if isinstance(value, bool) or not isinstance(value, (int, float, str)):
+            raise f.error(full, f"must be a number or a string, got {type(value).__name__}")
+        if isinstance(value, int) and not 0 <= value <= 256:
+            raise f.error(full, f"must lie between 0 and 256, got {value}")
+        kwargs[key] = value
+    return _guard(f"system.model", f, lambda: build(**kwargs))
+
+
+def _map_rules(f: Fields, rules):
+    """``system.map``: a list of strings (new values in state order, all in the old values)
+    or of ``[target, expression]`` pairs applied one after another."""
+    if not isinstance(rules, list) or not rules:
+        raise f.error("system.map", "must be a list of expression strings or of [target, expression] pairs")
+    if len(rules) > 200:
+        raise f.error("system.map", f"has {len(rules)} rules; the limit is 200")
+    out = []
+    for i, rule in enumerate(rules):
+        full = f"system.map[{i}]"
+        if isinstance(rule, str):
+            out.append(rule)
+        elif isinstance(rule, list) and len(rule) == 2 and all(isinstance(r, str) for r in rule):
+            out.append((f.name(rule[0], f"{full}[0]"), rule[1]))
+        else:
+            raise f.error(full, "must be an expression string or a [target, expression] pair of strings")
+    return out
+
+
+def _modulus(f: Fields, sysd: dict, state_names: list[str]):
+    """``system.modulus``: one period for every component, or a table by component name of a
+    period or a [low, high] interval (components not named are not wrapped)."""
+    if "modulus" not in sysd:
+        return None
+    value = sysd["modulus"]
+    if not isinstance(value, dict):
+        return f.number(value, "system.modulus")
+    entries = []
+    for name in value:
+        if name not in state_names:
+            raise f.error(f"system.modulus.{name}", f"not a coordinate or momentum; the state is "
+                                                    + ", ".join(state_names))
+    for name in state_names:
+        if name not in value:
+            entries.append(None)
+            continue
+        full = f"system.modulus.{name}"
+        entry = value[name]
+        if isinstance(entry, list):
+            low, high = f.numbers(entry, full, length=2)
+            if not low < high:
+                raise f.error(full, f"must be [low, high] with low < high, got [{low:g}, {high:g}]")
+            entries.append((low, high))
+        else:
+            period = f.number(entry, full)
+            if not period > 0:
+                raise f.error(full, f"a period must be positive, got {period:g}")
+            entries.append(period)
+    return entries
+
+
+# ====================================================================== [section]
+def read_section(f: Fields, data: dict, system, params) -> SectionSpec:
+    sec = f.table(data, "", "section", required=True)
+    f.only_keys(sec, "section", _SECTION_KEYS)
+    crossings = f.integer(sec, "section", "crossings", required=True, low=1, high=MAX_CROSSINGS)
+    state = [s.name for s in system.state_symbols]
+    show = None
+    if "show" in sec:
+        show = tuple(f.names(sec, "section", "show"))
+        if len(show) != 2:
+            raise f.error("section.show", f"must name two state components, got {len(show)}")
+        for i, name in enumerate(show):
+            if name not in state:
+                raise f.error(f"section.show[{i}]", f"{name!r} is not a coordinate or momentum; the state is "
+                                                   + ", ".join(state))
+    box = f.get_number(sec, "section", "box", positive=True)
+    is_map = getattr(system, "kind", "flow") == "map"
+    if is_map:
+        for key in ("plane", "direction", "energy", "method", "dt"):
+            if key in sec:
+                raise f.error(f"section.{key}", "not used for a map (its section is every iterate); "
+                                                "give section.crossings (and optionally show, box)")
+        return SectionSpec("map", None, None, 1, None, crossings, "map", None, show, box)
+
+    plane = f.string(sec, "section", "plane", required=True, max_length=200)
+    coords = [s.name for s in system.coords]
+    if plane.strip() == "stroboscopic":
+        if system.is_autonomous or getattr(system, "period", None) is None:
+            raise f.error("section.plane", "a stroboscopic section needs a time-periodic system "
+                                           "(system.time and system.period)")
+        kind, coord, value = "stroboscopic", None, None
+        for key in ("direction", "energy"):
+            if key in sec:
+                raise f.error(f"section.{key}", "not used for a stroboscopic section")
+    else:
+        if not system.is_autonomous:
+            raise f.error("section.plane", "this system depends on time; use plane = \"stroboscopic\"")
+        if plane.count("=") != 1:
+            raise f.error("section.plane", f"write the plane as \"<coordinate> = <value>\" (for example "
+                                           f"\"{coords[0]} = 0\") or \"stroboscopic\", got {plane!r}")
+        left, right = (s.strip() for s in plane.split("="))
+        if left not in coords:
+            raise f.error("section.plane", f"{left!r} is not a coordinate of this system; its coordinates: "
+                                           + ", ".join(coords))
+        kind, coord = "plane", left
+        value = f.number(right, "section.plane")
+    direction = 1
+    if "direction" in sec:
+        d = sec["direction"]
+        if d in ("up", 1) and not isinstance(d, bool):
+            direction = 1
+        elif d in ("down", -1) and not isinstance(d, bool):
+            direction = -1
+        else:
+            raise f.error("section.direction", f"must be \"up\" (the coordinate increasing through the plane) "
+                                               f"or \"down\", got {d!r}")
+    energy = f.get_number(sec, "section", "energy")
+    method = f.string(sec, "section", "method", default="auto", max_length=40)
+    if method != "auto":
+        from phaselab.compute.integrators import get_method
+
+        try:
+            get_method(method, system.extended() if kind == "stroboscopic" else system)
+        except PhaselabError as exc:
+            raise f.error("section.method", str(exc)) from None
+    dt = f.get_number(sec, "section", "dt", positive=True)
+    if dt is not None and dt < 1e-7:
+        raise f.error("section.dt", f"{dt:g} is too small a step (the limit is 1e-7)")
+    return SectionSpec(kind, coord, value, direction, energy, crossings, method, dt, show, box)
+
+
+# ====================================================================== [seeds]
+def read_seeds(f: Fields, data: dict, system, section: SectionSpec) -> SeedSpec:
+    sd = f.table(data, "", "seeds", required=True)
+    f.only_keys(sd, "seeds", _SEED_KEYS)
+    forms = [k for k in _SEED_FORMS if k in sd]
+    if len(forms) != 1:
+        got = ", ".join(f"seeds.{k}" for k in forms) or "none"
+        raise f.error("seeds", f"give exactly one of seeds.points, seeds.line or seeds.grid (got {got})")
+    form = forms[0]
+    state = [s.name for s in system.state_symbols]
+    momenta = [s.name for s in system.momenta]
+
+    solve_for = None
+    if "solve_for" in sd:
+        if section.kind != "plane":
+            raise f.error("seeds.solve_for", "only a plane section puts seeds on an energy shell")
+        solve_for = f.name(sd["solve_for"], "seeds.solve_for")
+        if solve_for not in momenta:
+            raise f.error("seeds.solve_for", f"{solve_for!r} is not a momentum; the momenta: " + ", ".join(momenta))
+        if section.energy is None:
+            raise f.error("section.energy", "missing; seeds.solve_for needs the energy of the shell")
+    elif section.energy is not None and section.kind == "plane":
+        raise f.error("section.energy", "given but seeds.solve_for is not; name the momentum to solve "
+                                        "from H = energy, or drop the energy")
+
+    # components the file must give: all but the plane's coordinate and the solved momentum
+    implied = {section.coordinate, solve_for} - {None}
+    needed = [s for s in state if s not in implied]
+
+    table = sd[form]
+    full = f"seeds.{form}"
+    if not isinstance(table, dict):
+        raise f.error(full, f"must be a table of columns by component name, e.g. {{ {needed[0]} = [...] }}")
+    fixed = f.table(sd, "seeds", "fixed")
+    for name in list(table) + list(fixed):
+        if name == "count" and form == "line":
+            continue
+        where = f"{full}.{name}" if name in table else f"seeds.fixed.{name}"
+        if name not in state:
+            raise f.error(where, f"{name!r} is not a coordinate or momentum; the state is " + ", ".join(state))
+        if name in implied:
+            what = "the plane sets it" if name == section.coordinate else "it is solved from the energy"
+            raise f.error(where, f"{name!r} cannot be given: {what}")
+    both = set(table) & set(fixed)
+    if both:
+        raise f.error(f"seeds.fixed.{sorted(both)[0]}", "given both here and in " + full)
+
+    columns: dict[str, np.ndarray] = {}
+    if form == "points":
+        lengths = set()
+        for name, col in table.items():
+            vals = f.numbers(col, f"{full}.{name}")
+            if len(vals) > MAX_ORBITS:
+                raise f.error(f"{full}.{name}", f"{len(vals)} seeds; the limit is {MAX_ORBITS}")
+            columns[name] = np.array(vals, dtype=float)
+            lengths.add(len(vals))
+        if len(lengths) > 1:
+            raise f.error(full, f"columns have different lengths: {sorted(lengths)}")
+        count = lengths.pop() if lengths else 0
+    elif form == "line":
+        count = f.integer(table, full, "count", required=True, low=1, high=MAX_ORBITS)
+        for name, ends in table.items():
+            if name == "count":
+                continue
+            a, b = f.numbers(ends, f"{full}.{name}", length=2)
+            columns[name] = np.linspace(a, b, count)
+    else:
+        sizes = []
+        axes = []
+        for name, spec in table.items():
+            where = f"{full}.{name}"
+            if not isinstance(spec, list) or len(spec) != 3:
+                raise f.error(where, "must be [low, high, count]")
+            low, high = f.numbers(spec[:2], where)
+            n = spec[2]
+            if isinstance(n, bool) or not isinstance(n, int) or n < 1:
+                raise f.error(f"{where}[2]", f"the count must be a whole number >= 1, got {n!r}")
+            if n > MAX_ORBITS:
+                raise f.error(f"{where}[2]", f"{n} seeds; the limit is {MAX_ORBITS}")
+            sizes.append(n)
+            axes.append((name, np.linspace(low, high, n)))
+        count = math.prod(sizes) if sizes else 0
+        if count > MAX_ORBITS:
+            raise f.error(full, f"the grid has {' x '.join(map(str, sizes))} = {count} seeds; "
+                                f"the limit is {MAX_ORBITS}")
+        if axes:
+            mesh = np.meshgrid(*[a for _, a in axes], indexing="ij")
+            columns = {name: m.ravel() for (name, _), m in zip(axes, mesh)}
+    if count < 1:
+        raise f.error(full, "gives no seeds")
+    for name, value in fixed.items():
+        columns[name] = np.full(count, f.number(value, f"seeds.fixed.{name}"))
+    missing = [s for s in needed if s not in columns]
+    if missing:
+        raise f.error(full, "missing value" + ("s" if len(missing) > 1 else "") + " for "
+                      + ", ".join(missing) + " (give them as columns or in seeds.fixed)")
+    order = tuple(s for s in state if s in columns)
+    values = np.column_stack([columns[s] for s in order]).astype(float)
+    return SeedSpec(form, order, values, solve_for)
+
+
+# ====================================================================== [output]
+def read_output(f: Fields, data: dict):
+    out = f.table(data, "", "output")
+    f.only_keys(out, "output", ("folder", "figure", "data"))
+    folder = ""
+    if "folder" in out:
+        folder = f.string(out, "output", "folder", max_length=200)
+        check_relative(f, folder, "output.folder")
+    specs: list[OutputSpec] = []
+    for kind in ("figure", "data"):
+        items = out.get(kind, [])
+        if isinstance(items, dict):
+            items = [items]
+        if not isinstance(items, list):
+            raise f.error(f"output.{kind}", "must be a list of tables ([[output." + kind + "]])")
+        for i, item in enumerate(items):
+            full = f"output.{kind}[{i}]"
+            if not isinstance(item, dict):
+                raise f.error(full, "must be a table with at least a file key")
+            if kind == "figure":
+                f.only_keys(item, full, ("file", "size", "dpi", "title", "point_size"))
+            else:
+                f.only_keys(item, full, ("file",))
+            name = f.string(item, full, "file", required=True, max_length=300)
+            check_relative(f, name, f"{full}.file")
+            suffixes = FIGURE_SUFFIXES if kind == "figure" else DATA_SUFFIXES
+            suffix = PurePosixPath(name).suffix.lower()
+            if suffix not in suffixes:
+                raise f.error(f"{full}.file", f"a {kind} file ends in {', '.join(suffixes)}, got {name!r}")
+            options = {}
+            if kind == "figure":
+                if "size" in item:
+                    w, h = f.numbers(item["size"], f"{full}.size", length=2)
+                    if not (2.0 <= w <= 40.0 and 1.5 <= h <= 40.0):
+                        raise f.error(f"{full}.size", f"must be [width, height] in inches between 2 x 1.5 "
+                                                      f"and 40 x 40, got [{w:g}, {h:g}]")
+                    options["size"] = (w, h)
+                dpi = f.get_number(item, full, "dpi", low=20, high=600)
+                if dpi is not None:
+                    options["dpi"] = dpi
+                w, h = options.get("size", (6.0, 4.5))
+                if max(w, h) * options.get("dpi", 150) > MAX_PIXELS:
+                    raise f.error(f"{full}.dpi", f"the figure would be {w * options.get('dpi', 150):.0f} x "
+                                                 f"{h * options.get('dpi', 150):.0f} pixels; the limit is "
+                                                 f"{MAX_PIXELS} on a side")
+                if "title" in item:
+                    options["title"] = f.drawn_text(item, full, "title", max_length=200)
+                ps = f.get_number(item, full, "point_size", positive=True, high=20)
+                if ps is not None:
+                    options["point_size"] = ps
+            specs.append(OutputSpec(kind, name, options))
+    if len(specs) > MAX_OUTPUTS:
+        raise f.error("output", f"{len(specs)} files; the limit is {MAX_OUTPUTS}")
+    targets = [PurePosixPath(s.file).as_posix() for s in specs]
+    dupes = sorted({t for t in targets if targets.count(t) > 1})
+    if dupes:
+        raise f.error("output", f"file {dupes[0]!r} is named twice")
+    return folder, specs
