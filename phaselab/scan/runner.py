@@ -338,8 +338,11 @@ def run_chunks(work: Callable, rows: np.ndarray, valid: np.ndarray, chunk: int, 
     finally:
         bar.close()
     reused = [k for k in range(n_chunks) if done[k]]
-    for k in reused:
-        parts[k] = st.read_chunk(k)
+    if reused:
+        stored = st.read()          # one read per field (zarr fetches its chunks concurrently)
+        for k in reused:
+            a, b = bounds[k]
+            parts[k] = {name: values[a:b] for name, values in stored.items()}
     info = infos[0] if infos else (st.info() if st is not None else None)
     fields = _assemble(parts, bounds, n, fill or {})
     run = RunInfo(chunks=n_chunks, computed=len(todo), reused=len(reused), chunk=chunk,

@@ -73,6 +73,8 @@ class ScanStore:
         self.n = n
         self.chunk = chunk
         self.where = where
+        self._arrays = {name: group[name] for name in group.array_keys()}
+        self._has_info = INFO_KEY in group.attrs.asdict()
 
     @property
     def n_chunks(self) -> int:
@@ -149,7 +151,7 @@ class ScanStore:
 
     def done(self) -> np.ndarray:
         """Finished chunks, bool of shape (n_chunks,)."""
-        flags = np.asarray(self.group[DONE][:], dtype=bool)
+        flags = np.asarray(self._arrays[DONE][:], dtype=bool)
         return flags[:self.n_chunks]
 
     def info(self):
@@ -174,30 +176,31 @@ class ScanStore:
             if values.dtype == object or values.dtype.kind not in "biuf":
                 raise ParameterError(f"store {self.where}: field {name!r} holds {values.dtype} values; "
                                      "a store keeps numbers only")
-            if name not in self.group:
+            arr = self._arrays.get(name)
+            if arr is None:
                 fill = np.nan if values.dtype.kind == "f" else 0
-                self.group.create_array(name, shape=(self.n,) + values.shape[1:],
-                                        chunks=(self.chunk,) + values.shape[1:], dtype=values.dtype,
-                                        fill_value=fill)
-            arr = self.group[name]
+                arr = self.group.create_array(name, shape=(self.n,) + values.shape[1:],
+                                              chunks=(self.chunk,) + values.shape[1:], dtype=values.dtype,
+                                              fill_value=fill)
+                self._arrays[name] = arr
             if tuple(arr.shape[1:]) != values.shape[1:]:
                 raise ParameterError(f"store {self.where}: field {name!r} has rows of shape "
                                      f"{tuple(arr.shape[1:])} in the store, {values.shape[1:]} now")
             arr[start:stop] = values
-        if info is not None and INFO_KEY not in self.group.attrs.asdict():
+        if info is not None and not self._has_info:
             self.group.attrs.update({INFO_KEY: json.dumps(info, allow_nan=True, default=str)})
-        self.group[DONE][k] = 1
+            self._has_info = True
+        self._arrays[DONE][k] = 1
 
     def read(self, names=None) -> dict:
         """The stored fields as full arrays (rows of unfinished chunks hold fill values)."""
-        names = [k for k in self.group.array_keys() if k != DONE] if names is None else names
-        return {name: np.asarray(self.group[name][:]) for name in names}
+        names = [k for k in self._arrays if k != DONE] if names is None else names
+        return {name: np.asarray(self._arrays[name][:]) for name in names}
 
     def read_chunk(self, k: int) -> dict:
         """The fields of one finished chunk."""
         start, stop = self.bounds(k)
-        return {name: np.asarray(self.group[name][start:stop])
-                for name in self.group.array_keys() if name != DONE}
+        return {name: np.asarray(arr[start:stop]) for name, arr in self._arrays.items() if name != DONE}
 
 
 __all__ = ["ScanStore", "seeds_digest"]
