@@ -176,7 +176,7 @@ def parameter_scan(function: Callable, grid: Mapping, client=None, progress=None
     work = partial(_points_chunk, names=names, function=function, numeric=store is not None)
     out = run_chunks(work, rows, np.ones(len(rows), dtype=bool), chunk_size(len(rows), batch_size, client),
                      client=client, progress=progress, desc="parameters", store=store,
-                     fingerprint=fingerprint)
+                     fingerprint=fingerprint, unit="point")
     values = out.fields["result"]
     results = list(values) if values.dtype == object else [v if v.ndim else float(v) for v in values]
     meta = labels.provenance(None, None, function=fname, parameters=list(names))

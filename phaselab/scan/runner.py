@@ -17,6 +17,9 @@ progress bar and of a resumable store) once it is large, and never starves a cor
 a chunk the orbits are interleaved across the threads (thread ``k`` of ``P`` gets rows
 ``k, k + P, ...``), so that a region of cheap orbits (escaping early) is shared out rather
 than handed to one thread.
+
+The progress bar advances by chunks (a compiled call reports nothing until it returns), so
+a scan of a single chunk shows none.
 """
 
 from __future__ import annotations
@@ -115,7 +118,8 @@ class Progress:
         if moved:
             # backdate the bar to the scan's start so that its rate (and time left) counts
             # the rows already done in this run
-            self.bar.start_t = self.bar._time() - (time.perf_counter() - self.start)
+            now = getattr(self.bar, "_time", time.time)()
+            self.bar.start_t = now - (time.perf_counter() - self.start)
             self.bar.last_print_t = self.bar.start_t
             self.bar.last_print_n = self.initial
             self.bar.update(moved)
@@ -270,7 +274,7 @@ class ChunkRun:
 
 def run_chunks(work: Callable, rows: np.ndarray, valid: np.ndarray, chunk: int, client=None,
                progress=None, desc: str = "scan", store=None, fingerprint: dict | None = None,
-               fill: dict | None = None) -> ChunkRun:
+               fill: dict | None = None, unit: str = "seed") -> ChunkRun:
     """Run ``work`` over consecutive chunks of ``rows``, gathering its fields.
 
     Parameters
@@ -296,6 +300,8 @@ def run_chunks(work: Callable, rows: np.ndarray, valid: np.ndarray, chunk: int, 
     fill : dict, optional
         Fill value per field for rows of chunks that were never computed (not used when
         every chunk completes).
+    unit : str
+        What a row is, for the progress bar.
 
     Returns
     -------
@@ -317,7 +323,7 @@ def run_chunks(work: Callable, rows: np.ndarray, valid: np.ndarray, chunk: int, 
     todo = [k for k in range(n_chunks) if not done[k]]
     bounds = [(k * chunk, min(n, (k + 1) * chunk)) for k in range(n_chunks)]
     rows_done = sum(b - a for k, (a, b) in enumerate(bounds) if done[k])
-    bar = Progress(n, desc, progress, initial=rows_done)
+    bar = Progress(n, desc, progress, initial=rows_done, unit=unit)
     parts: dict = {}
     infos: list = []
 
