@@ -264,6 +264,12 @@ def test_progress_bar_shows_when_asked_or_when_long(kicked_rotor, capsys, monkey
     assert "megno" in err and "36/36" in err
 
 
+def test_run_batches_keeps_the_order():
+    from phaselab.scan import run_batches
+
+    assert run_batches(sum, [[1, 2], [3], [4, 5, 6]], progress=False) == [3, 3, 15]
+
+
 # ----------------------------------------------------------------------------- bad input
 def test_bad_input(kicked_rotor, oscillator):
     with pytest.raises(ParameterError, match="unknown indicator"):
