@@ -150,6 +150,23 @@ def test_interrupted_scan_resumes_from_its_store(tmp_path, kicked_rotor, monkeyp
         chaos_map(kicked_rotor, grid, 300, store=tmp_path / "notes.txt")
 
 
+def test_frequency_map_resumes_and_is_labelled_by_the_same_helper(tmp_path, kicked_rotor):
+    """A frequency map read back from its store equals the computed one, descriptions and
+    all (the first chunk's description is kept in the store)."""
+    pytest.importorskip("zarr")
+    grid = state_grid(kicked_rotor, {"q": (0.1, 6.0, 4), "p": (0.5, 2.5, 3)})
+    first = phaselab.frequency_map(kicked_rotor, grid, n=256, params={"K": 0.5}, batch_size=4,
+                                   store=tmp_path / "tunes.zarr")
+    again = phaselab.frequency_map(kicked_rotor, grid, n=256, params={"K": 0.5},
+                                   store=tmp_path / "tunes.zarr")
+    assert (first.run.computed, again.run.computed, again.run.reused) == (3, 0, 3)
+    np.testing.assert_array_equal(first.nu, again.nu)
+    assert again.names == first.names and again.unit == first.unit
+    a, b = first.to_xarray(), again.to_xarray()
+    assert a["nu"].dims == ("p", "q", "dof") and a.attrs["expression"] == b.attrs["expression"]
+    assert a.attrs["params"] == b.attrs["params"] and a.attrs["phaselab_version"] == phaselab.__version__
+
+
 # ----------------------------------------------------------------------------- escape maps
 def first_exit(q0, p0, R):
     """First t > 0 with |q(t)| > R for q(t) = r cos(t - phi) (closed form, common practice):
