@@ -17,8 +17,8 @@ with Yoshida 4 and dt = 0.01.
    (``PHASELAB_LOOPS=inlined``: the system's kernels compiled into the loops, built in this
    process before timing) and, for comparison, with the generic loops (kernels called
    through a function pointer, compiled once per machine). Target: inlined / floor <= 1.5.
-   The floor measured on the 2-core development machine (2026-12, other work running,
-   load average about 3; best of runs): 1.08-1.13 s.
+   The floor measured on the 2-core development machine (2026-12, shared, load average
+   2-7 from other work; best of 3 runs): 1.07-1.13 CPU seconds, 0.63-1.7 s wall.
 2. The same map on a LocalCluster of two worker processes with one thread each (each
    chunk a task on one thread) against the local run (both cores, one process). Target:
    Dask / local <= 1.3, identical values.
