@@ -20,6 +20,7 @@ def test_readme_tour_runs(tmp_path, monkeypatch):
     assert (tmp_path / "section.svg").stat().st_size > 0
     assert (tmp_path / "bead_portrait.svg").stat().st_size > 0
     assert scope["picture"].shape == (200, 200)
+    assert (tmp_path / "megno.nc").stat().st_size > 0 and (tmp_path / "megno.zarr").is_dir()
 
 
 def test_readme_commands_match_ci():

@@ -103,7 +103,7 @@ class Family:
         """The family as a labelled ``xarray.Dataset`` along dimension ``member``."""
         import xarray as xr
 
-        from phaselab.compute.labels import MODEL_NOTE, provenance
+        from phaselab.compute.labels import netcdf_attrs, provenance
 
         names = [s.name for s in self.system.state_symbols]
         mult = np.atleast_2d(self.multipliers)
@@ -116,8 +116,9 @@ class Family:
              "multiplier_imag": (("member", "multiplier"), mult.imag),
              "arclength": (("member",), self.arclength)},
             coords={self.parameter: (("member",), self.values), "component": names},
-            attrs={**provenance(self.system, self.params, note=MODEL_NOTE), "parameter": self.parameter,
-                   "bifurcations": repr(self.bifurcations), "complete": int(self.complete), "note": self.note})
+            attrs=netcdf_attrs(provenance(self.system, self.params, parameter=self.parameter,
+                                          bifurcations=self.bifurcations, complete=self.complete,
+                                          stopped=self.note)))
         return ds
 
     def plot(self, y="residue", **kwargs):

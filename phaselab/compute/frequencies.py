@@ -14,13 +14,9 @@ responsible engineers.
 
 from __future__ import annotations
 
-import json
 import math
-import os
-import uuid
 from collections.abc import Mapping
 from dataclasses import dataclass, field
-from pathlib import Path
 
 import numpy as np
 
@@ -30,7 +26,7 @@ from phaselab.compute import codes, inputs
 from phaselab.compute.spectral import (MAX_WINDOW_ORDER, SpectralLines, Workspace, chunk_rows,
                                        leading_lines)
 from phaselab.compute.spectral import window as hann_window
-from phaselab.errors import ParameterError, PhaselabError
+from phaselab.errors import ParameterError
 
 __all__ = ["frequencies", "rotation_number", "Frequencies", "STATUS_TEXT", "DEFAULT_SAMPLES",
            "integration_step", "analyse_samples", "birkhoff_weights"]
@@ -752,80 +748,25 @@ def rotation_number(system, seeds, n=None, angle=None, params=None, t=None, dt=N
                        window=None, plane=S.plane, system=system)
 
 
-# ----------------------------------------------------------------------------- provenance, files
-def expression_text(system) -> str:
-    """The system's defining expression as text (H, or a map's update rules)."""
-    if system is None:
-        return ""
-    if hasattr(system, "expr"):
-        return str(system.expr)
-    update = getattr(system, "update", None)
-    if update is not None:
-        return "; ".join(f"{s.name}' = {e}" for s, e in zip(system.state_symbols, update))
-    return ""
-
-
-def versions() -> dict:
-    """Versions of phaselab and the numeric libraries, for provenance."""
-    import platform
-
-    import numba
-
-    import phaselab
-
-    return {"phaselab_version": phaselab.__version__, "numpy_version": np.__version__,
-            "numba_version": numba.__version__, "python_version": platform.python_version()}
-
-
+# ----------------------------------------------------------------------------- provenance
 def _metadata(res) -> dict:
-    system = res.system
-    meta = {
-        "system": getattr(system, "name", "") or "",
-        "expression": expression_text(system),
-        "state": [s.name for s in getattr(system, "state_symbols", ())],
-        "params": dict(res.params),
-        "kind": res.kind,
-        "unit": res.unit,
-        "sampling": res.sampling,
-        "plane": res.plane,
-        "method": res.method,
-        "dt": float(res.dt),
-        "sample_step": float(res.sample_step),
-        "n_samples": int(res.n_samples),
-        "window": -1 if res.window is None else int(res.window),
-        "base_frequency": float("nan") if res.base_frequency is None else float(res.base_frequency),
-        "diffusion_definition": "log10 of the Euclidean norm of nu(second half) - nu(first half)",
-        "status_codes": {str(k): v for k, v in STATUS_TEXT.items()},
-        "note": "model results; confirm with validated tools and the responsible engineers "
-                "before they inform a design decision",
-    }
-    meta.update(versions())
-    return meta
+    from phaselab.compute import labels
 
-
-def xarray_module():
-    try:
-        import xarray
-    except ImportError:
-        raise PhaselabError("labelled results need xarray; install it with "
-                            "pip install 'phaselab[lab]'") from None
-    return xarray
-
-
-def attrs_for_netcdf(meta: dict) -> dict:
-    """Attributes NetCDF can hold: dicts, lists and None as JSON text."""
-    out = {}
-    for key, value in meta.items():
-        if isinstance(value, (dict, list, tuple)) or value is None:
-            out[key] = json.dumps(value, allow_nan=True)
-        else:
-            out[key] = value
-    return out
+    return labels.provenance(
+        res.system, res.params, kind=res.kind, unit=res.unit, sampling=res.sampling, plane=res.plane,
+        method=res.method, dt=float(res.dt), sample_step=float(res.sample_step),
+        n_samples=int(res.n_samples), window=-1 if res.window is None else int(res.window),
+        base_frequency=float("nan") if res.base_frequency is None else float(res.base_frequency),
+        diffusion_definition="log10 of the Euclidean norm of nu(second half) - nu(first half)",
+        status_codes={str(k): v for k, v in STATUS_TEXT.items()})
 
 
 def _to_xarray(res):
-    xr = xarray_module()
-    state = list(_metadata(res)["state"]) or [f"z{k}" for k in range(res.seeds.shape[1])]
+    from phaselab.compute import labels
+
+    xr = labels.xarray_module()
+    meta = _metadata(res)
+    state = list(meta["state"]) or [f"z{k}" for k in range(res.seeds.shape[1])]
     data = {
         "nu": (("orbit", "dof"), res.nu),
         "diffusion": (("orbit",), res.diffusion),
@@ -841,38 +782,8 @@ def _to_xarray(res):
               "state": np.array(state, dtype=object)}
     if res.lines is not None:
         coords["line"] = np.arange(res.lines.nu.shape[-1])
-    ds = xr.Dataset(data_vars=data, coords=coords, attrs=attrs_for_netcdf(_metadata(res)))
+    ds = xr.Dataset(data_vars=data, coords=coords, attrs=labels.netcdf_attrs(meta))
     ds["nu"].attrs.update(units=res.unit, description=f"{res.kind} of each degree of freedom")
     ds["diffusion"].attrs.update(units=f"log10({res.unit})")
     ds["valid"].attrs["description"] = "1 where the orbit was analysed in full"
     return ds
-
-
-def atomic_write(path, write) -> Path:
-    """Call ``write(temporary_path)`` for a file beside ``path`` (same suffix, so writers that
-    go by the suffix pick the right format), then rename it to ``path``: a reader never sees
-    a half-written file. The file gets the usual permissions (not a private temporary's)."""
-    path = Path(path)
-    folder = path.parent if str(path.parent) else Path(".")
-    if not folder.is_dir():
-        raise ParameterError(f"cannot save to {path}: folder {folder} does not exist")
-    tmp = folder / f".{path.stem}.{os.getpid()}-{uuid.uuid4().hex[:8]}{path.suffix}"
-    try:
-        write(str(tmp))
-        os.replace(tmp, path)
-    except BaseException:
-        tmp.unlink(missing_ok=True)
-        raise
-    return path
-
-
-def save_netcdf(dataset, path) -> Path:
-    """Write an xarray Dataset to NetCDF atomically."""
-    def write(tmp):
-        try:
-            dataset.to_netcdf(tmp)
-        except ValueError as exc:
-            raise PhaselabError(f"cannot write NetCDF ({exc}); install netCDF4 with "
-                                "pip install 'phaselab[lab]'") from None
-
-    return atomic_write(path, write)

@@ -25,7 +25,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from phaselab.compute import codes, inputs
-from phaselab.compute.labels import MODEL_NOTE, provenance
+from phaselab.compute.labels import netcdf_attrs, provenance
 from phaselab.compute.returns import OFF_SHELL, ReturnMap, return_map
 from phaselab.errors import IntegrationError, ParameterError
 
@@ -190,8 +190,8 @@ def orbits_dataset(orbits):
         },
         coords={"orbit": np.arange(len(orbits)), "component": names, "row": coords, "column": coords,
                 "part": ["real", "imaginary"]},
-        attrs=provenance(system, orbits[0].params, note=MODEL_NOTE, method=orbits[0].method,
-                         dt=orbits[0].dt, energy=orbits[0].energy))
+        attrs=netcdf_attrs(provenance(system, orbits[0].params, method=orbits[0].method,
+                                      dt=orbits[0].dt, energy=orbits[0].energy)))
     ds["points"].attrs["description"] = "the orbit's points on its section; NaN past its period"
     return ds
 

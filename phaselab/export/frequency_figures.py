@@ -531,7 +531,7 @@ def save_figure(fig, path) -> Path:
     folder, renamed into place when complete."""
     import matplotlib
 
-    from phaselab.compute.frequencies import atomic_write
+    from phaselab.scan.labels import atomic_write
 
     path = Path(path)
     fmt = _SUFFIXES.get(path.suffix.lower())
@@ -550,7 +550,7 @@ def save_figure(fig, path) -> Path:
 def save_result(result, path, **kwargs) -> Path:
     """Save a Frequencies or FrequencyMap: ``.nc`` data, or a figure by suffix (a diffusion
     map for a grid, a frequency map for two or more frequencies, else a profile)."""
-    from phaselab.compute.frequencies import save_netcdf
+    from phaselab.scan.labels import save_netcdf
 
     path = Path(path)
     suffix = path.suffix.lower()

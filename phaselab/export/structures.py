@@ -222,6 +222,6 @@ def save_structure(obj, path, **kwargs) -> Path:
 def _structure_summary(obj) -> dict:
     orbits = _orbits_of([obj])
     system = orbits[0].system
-    out = {k: v for k, v in provenance(system, orbits[0].params, note=MODEL_NOTE).items() if k != "state"}
+    out = provenance(system, orbits[0].params)
     out["orbits"] = [_summary(o) for o in orbits]
     return out

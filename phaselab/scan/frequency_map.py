@@ -17,15 +17,17 @@ from functools import partial
 
 import numpy as np
 
-from phaselab.compute.frequencies import (STATUS_TEXT, attrs_for_netcdf, frequencies,
-                                          integration_step, rotation_number, xarray_module)
+from phaselab.compute import inputs
+from phaselab.compute.frequencies import STATUS_TEXT, frequencies, integration_step, rotation_number
 from phaselab.errors import ParameterError
-from phaselab.scan.grids import StateGrid
-from phaselab.scan.runner import run_batches
+from phaselab.scan import labels
+from phaselab.scan.grids import StateGrid, scan_rows
+from phaselab.scan.runner import RunInfo, chunk_size, interleave, numba_threads, run_chunks
+from phaselab.scan.store import seeds_digest
 
 __all__ = ["FrequencyMap", "frequency_map"]
 
-NOT_RUN = -1
+NOT_RUN = labels.NOT_RUN
 """Status of a seed that was not analysed (invalid grid point)."""
 
 
@@ -51,6 +53,8 @@ class FrequencyMap:
     meta : dict
         Provenance: system, expression, params, method, dt, sample_step, n_samples, window,
         plane, versions.
+    run : RunInfo or None
+        How the scan ran (chunks computed and reused, time, where).
     """
 
     nu: np.ndarray
@@ -64,6 +68,7 @@ class FrequencyMap:
     sampling: str
     base_frequency: float | None
     meta: dict = field(default_factory=dict)
+    run: RunInfo | None = None
 
     @property
     def valid(self) -> np.ndarray:
@@ -87,47 +92,30 @@ class FrequencyMap:
         """An ``xarray.Dataset``: for a grid, dims named after the two grid components
         (vertical first, as in a picture) and ``dof``; for seeds, dim ``seed``. Variables
         ``nu``, ``diffusion``, ``status``, ``valid`` (1/0) and ``seeds``; provenance in
-        ``attrs``."""
-        xr = xarray_module()
-        state = list(self.meta.get("state") or [f"z{k}" for k in range(self.seeds.shape[1])])
-        taken = {"nu", "diffusion", "status", "valid", "seeds", "dof", "state", "seed"}
-        if self.grid is not None:
-            xn, yn = (_free(str(a), taken) for a in self.grid.axis_names)
-            ny, nx = self.grid.shape
-            where = (yn, xn)
-            coords = {yn: self.grid.y, xn: self.grid.x}
-
-            def shaped(a):
-                return a.reshape((ny, nx) + a.shape[1:])
-        else:
-            where = ("seed",)
-            coords = {"seed": np.arange(len(self.seeds))}
-
-            def shaped(a):
-                return a
-        coords["dof"] = np.array(self.names, dtype=object)
-        coords["state"] = np.array(state, dtype=object)
-        ds = xr.Dataset(
-            data_vars={
-                "nu": (where + ("dof",), shaped(self.nu)),
-                "diffusion": (where, shaped(self.diffusion)),
-                "status": (where, shaped(self.status.astype(np.int32))),
-                "valid": (where, shaped(self.valid.astype(np.int8))),
-                "seeds": (where + ("state",), shaped(self.seeds)),
-            },
-            coords=coords, attrs=attrs_for_netcdf(self.meta))
-        ds["nu"].attrs.update(units=self.unit, description=f"{self.kind} of each degree of freedom")
-        ds["diffusion"].attrs.update(units=f"log10({self.unit})",
-                                     description="change of the frequencies between the two "
-                                                 "halves of each orbit")
-        ds["valid"].attrs["description"] = "1 where the seed was analysed in full"
-        ds["status"].attrs["description"] = "-1 not run; other codes in the status_codes attribute"
-        return ds
+        ``attrs`` (see :mod:`phaselab.scan.labels`)."""
+        variables = {
+            "nu": (self.nu, {"units": self.unit, "description": f"{self.kind} of each degree of freedom"},
+                   ("dof",)),
+            "diffusion": (self.diffusion, {"units": f"log10({self.unit})",
+                                           "description": "change of the frequencies between the two "
+                                                          "halves of each orbit"}),
+            "status": (self.status.astype(np.int32),
+                       {"description": "-1 not run; other codes in the status_codes attribute"}),
+            "valid": (self.valid.astype(np.int8), {"description": "1 where the seed was analysed in full"}),
+        }
+        return labels.seed_dataset(self.grid, self.seeds, variables, self.meta,
+                                   extra_coords={"dof": np.array(self.names, dtype=object)})
 
     def save(self, path, **kwargs):
-        """Write to ``path``: ``.nc`` (NetCDF of :meth:`to_xarray`), or ``.svg``, ``.pdf``,
-        ``.png``: the diffusion map over the grid (for seeds without a grid, the frequency
-        map). Written atomically."""
+        """Write to ``path``: ``.nc`` or ``.zarr`` (NetCDF or Zarr of :meth:`to_xarray`; no
+        suffix: by size), or ``.svg``, ``.pdf``, ``.png``: the diffusion map over the grid
+        (for seeds without a grid, the frequency map). Written atomically."""
+        from pathlib import Path
+
+        if Path(path).suffix.lower() in ("", ".nc", ".zarr"):
+            if kwargs:
+                raise ParameterError(f"data files take no options, got {', '.join(sorted(kwargs))}")
+            return labels.save_dataset(self.to_xarray(), path)
         from phaselab.export.frequency_figures import save_result
 
         return save_result(self, path, **kwargs)
@@ -138,28 +126,44 @@ class FrequencyMap:
                 f"valid={int(self.valid.sum())})")
 
 
-def _free(name, taken):
-    out = name
-    while out in taken:
-        out = f"grid_{out}"
-    taken.add(out)
-    return out
-
-
-def _batch(states, system, angle, options):
-    if angle is not None:
-        res = rotation_number(system, states, angle=angle, **options)
-    else:
-        res = frequencies(system, states, **options)
-    info = {"names": res.names, "unit": res.unit, "kind": res.kind, "sampling": res.sampling,
+def _chunk(states, valid, threads, system, angle, options, k):
+    """One chunk: the frequencies of every valid row (interleaved over the threads)."""
+    n = len(states)
+    nu = np.full((n, k), np.nan)
+    diff = np.full(n, np.nan)
+    status = np.full(n, NOT_RUN, dtype=np.int32)
+    idx = np.flatnonzero(valid)
+    if not idx.size:
+        return {"nu": nu, "diffusion": diff, "status": status}, None
+    order = idx[interleave(idx.size, threads)]
+    with numba_threads(threads):
+        if angle is not None:
+            res = rotation_number(system, states[order], angle=angle, **options)
+        else:
+            res = frequencies(system, states[order], **options)
+    if res.nu.shape[1] != k:
+        raise RuntimeError(f"frequency_map expected {k} frequencies per seed, got {res.nu.shape[1]}")
+    nu[order] = res.nu
+    diff[order] = res.diffusion
+    status[order] = res.status
+    info = {"names": list(res.names), "unit": res.unit, "kind": res.kind, "sampling": res.sampling,
             "base_frequency": res.base_frequency, "meta": res.metadata()}
-    return res.nu, res.diffusion, res.status, info
+    return {"nu": nu, "diffusion": diff, "status": status}, info
+
+
+def _columns(system, angle, plane) -> int:
+    """Frequencies per seed: 1 rotation number, else one per degree of freedom, less the one
+    a section through a plane fixes."""
+    if angle is not None:
+        return 1
+    dof = len(system.state_symbols) // 2
+    return dof - 1 if isinstance(plane, dict) or (plane is not None and not isinstance(plane, str)) else dof
 
 
 def frequency_map(system, seeds, t=None, n=None, params=None, dt=None, method="auto", plane=None,
                   direction=+1, window=1, angles=None, angle=None, box=None, t_max=None,
-                  fold="signed", batch_size=512, client=None, progress=False) -> FrequencyMap:
-    """Frequencies and diffusion for every seed of a grid, computed in batches.
+                  fold="signed", batch_size=None, client=None, progress=None, store=None) -> FrequencyMap:
+    """Frequencies and diffusion for every seed of a grid, computed in chunks.
 
     Parameters
     ----------
@@ -172,33 +176,29 @@ def frequency_map(system, seeds, t=None, n=None, params=None, dt=None, method="a
     angle : str or (str, str), optional
         Rotation numbers of this angle instead of frequencies
         (:func:`phaselab.compute.frequencies.rotation_number`).
-    batch_size : int
-        Seeds per compiled call (and per Dask task).
+    batch_size : int, optional
+        Seeds per chunk (one compiled call, one Dask task, one step of a store); default
+        from the rule in :mod:`phaselab.scan.runner`.
     client : distributed.Client, optional
-        Run the batches on a Dask cluster; default: the local cores.
-    progress : bool
-        Show a progress bar over batches.
+        Run the chunks on a Dask cluster; default: the local cores.
+    progress : bool or None
+        A progress bar with the time left: None (default) when the scan is expected to take
+        more than about two seconds; True always, False never.
+    store : str, os.PathLike or zarr store, optional
+        A Zarr store that keeps each finished chunk; running the same scan again computes
+        only the chunks not yet done.
 
     Returns
     -------
     FrequencyMap
     """
-    if isinstance(batch_size, bool) or not isinstance(batch_size, (int, np.integer)) or batch_size < 1:
-        raise ParameterError(f"batch_size must be a positive integer, got {batch_size!r}")
-    grid = seeds if isinstance(seeds, StateGrid) else None
-    try:
-        states = np.array(grid.states if grid is not None else seeds, dtype=float)
-    except (TypeError, ValueError):
-        raise ParameterError("seeds must be a StateGrid or numbers of shape (n_seeds, 2n)") from None
-    if states.ndim == 1:
-        states = states[None, :]
-    width = len(system.state_symbols)
-    if states.ndim != 2 or states.shape[1] != width or len(states) == 0:
-        raise ParameterError(f"seeds must have shape (n_seeds, {width}), got {states.shape}")
-    valid = grid.valid.copy() if grid is not None else np.ones(len(states), dtype=bool)
-    valid &= np.all(np.isfinite(states), axis=1)
+    if batch_size is not None:
+        inputs.count(batch_size, "batch_size")
+    states, valid, grid = scan_rows(system, seeds)
     todo = np.flatnonzero(valid)
-    system.param_values(params)  # refuse unknown parameters before any work
+    if not todo.size:
+        raise ParameterError("no valid seeds to analyse (every grid point is invalid)")
+    used = system.param_values(params)  # refuse unknown parameters before any work
     options = dict(t=t, n=n, params=params, dt=dt, method=method, plane=plane, direction=direction,
                    box=box, t_max=t_max)
     if angle is None:
@@ -206,28 +206,25 @@ def frequency_map(system, seeds, t=None, n=None, params=None, dt=None, method="a
     elif getattr(system, "kind", "flow") == "flow" and plane is None and t is None \
             and getattr(system, "period", None) is not None:
         options["plane"] = "stroboscopic"
-    if dt is None and todo.size and getattr(system, "kind", "flow") == "flow":
+    if dt is None and getattr(system, "kind", "flow") == "flow":
         options["dt"] = integration_step(system, states[todo], t=t, n=n, params=params,
                                          method=method, plane=options["plane"])
-    batches = [states[idx] for idx in (todo[i:i + batch_size] for i in range(0, len(todo), batch_size))]
-    work = partial(_batch, system=system, angle=angle, options=options)
-    results = run_batches(work, batches, client=client, progress=progress, desc="frequencies")
-    if not results:
-        raise ParameterError("no valid seeds to analyse (every grid point is invalid)")
-    first = results[0][3]
-    k = results[0][0].shape[1]
-    nu = np.full((len(states), k), np.nan)
-    diff = np.full(len(states), np.nan)
-    status = np.full(len(states), NOT_RUN, dtype=np.int64)
-    nu[todo] = np.concatenate([r[0] for r in results])
-    diff[todo] = np.concatenate([r[1] for r in results])
-    status[todo] = np.concatenate([r[2] for r in results])
+    k = _columns(system, angle, options["plane"])
+    fingerprint = {"scan": "frequency_map", "system": system.key, "params": used.tolist(),
+                   "angle": angle, "options": {key: v for key, v in options.items() if key != "params"},
+                   "seeds": seeds_digest(states, valid)}
+    work = partial(_chunk, system=system, angle=angle, options=options, k=k)
+    out = run_chunks(work, states, valid, chunk_size(len(states), batch_size, client), client=client,
+                     progress=progress, desc="frequencies", store=store, fingerprint=fingerprint,
+                     fill={"status": NOT_RUN})
+    first = out.info
     meta = dict(first["meta"])
-    meta["status_codes"] = {str(NOT_RUN): "not run (invalid seed)",
-                            **{str(c): v for c, v in STATUS_TEXT.items()}}
+    meta["status_codes"] = labels.status_codes(STATUS_TEXT)
     if grid is not None:
         meta["grid_axes"] = list(grid.axis_names)
         meta["energy"] = float("nan") if grid.energy is None else float(grid.energy)
-    return FrequencyMap(nu=nu, diffusion=diff, status=status, seeds=states, grid=grid,
-                        names=first["names"], unit=first["unit"], kind=first["kind"],
-                        sampling=first["sampling"], base_frequency=first["base_frequency"], meta=meta)
+    f = out.fields
+    return FrequencyMap(nu=f["nu"], diffusion=f["diffusion"], status=f["status"], seeds=states, grid=grid,
+                        names=tuple(first["names"]), unit=first["unit"], kind=first["kind"],
+                        sampling=first["sampling"], base_frequency=first["base_frequency"], meta=meta,
+                        run=out.run)
