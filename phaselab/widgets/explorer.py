@@ -555,7 +555,7 @@ class Explorer(W.VBox):
     def find_periodic_orbit(self, x, y, period=None):
         """Find the periodic orbit of ``period`` (default the control's) nearest ``(x, y)``;
         it is marked with its stability's shape and its residue is shown in the status."""
-        k = int(period or self.controls.period.value)
+        k = int(self.controls.period.value if period is None else period)
         view, energy, params = self.view, self.session.energy, self.params
         manifolds = bool(self.controls.manifolds.value)
 
