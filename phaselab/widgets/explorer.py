@@ -151,6 +151,11 @@ class Explorer(W.VBox):
         self.figures.probe.on_change("data", self._on_drag)
         self.figures.latest.on_change("data", self._on_drag)
         self.bokeh = LiveBokehModel(self.figures.layout, combine_events=True)
+        # a view built between a display and its first patch may have missed changes: when
+        # the page says a view is ready, send the current document if anything changed
+        self.figures.main.js_on_change("inner_width", self.figures.ready_callback)
+        self.figures.ready.on_change("data", lambda attr, old, new: self.bokeh.refresh(send=True))
+        self.bokeh.refresh(send=True)
 
         if self.view.uses_energy and energy is not None:
             lo, hi = energy_range if energy_range is not None else (energy - (abs(energy) or 1.0),

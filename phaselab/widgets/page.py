@@ -46,6 +46,8 @@ class LiveBokehModel(BokehModel):
         self._document.on_change(self._count)
 
     def _count(self, event):
+        if getattr(event, "setter", None) is self:
+            return  # came from the page: the views there have it already
         self.changes += 1
 
     @property
