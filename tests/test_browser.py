@@ -121,11 +121,11 @@ JS_HELPERS = """() => {
   window.__pl.view = () => {
     if (!window.Bokeh) return null;
     let found = null;
-    for (const root of window.Bokeh.index) {
-      for (const v of root.all_views()) {
-        if (v.model && v.model.name === 'phaselab-main' && v.el && v.el.isConnected) found = v;
-      }
-    }
+    const walk = (v) => {
+      if (v.model && v.model.name === 'phaselab-main' && v.el && v.el.isConnected) found = v;
+      for (const c of (v.child_views || [])) walk(c);
+    };
+    for (const root of window.Bokeh.index) walk(root);
     return found;
   };
   window.__pl.screen = (x, y) => {
@@ -323,6 +323,7 @@ def test_explorer_in_jupyterlab(lab):
                           f"finished: {summary2}")
             assert not [c for c in console2 if "Failed to create view" in c], console2
             page2.locator(".phaselab-explorer").first.screenshot(path=str(ARTIFACTS / "explorer-second-tab.png"))
+            page2.wait_for_timeout(4000)  # the saved-notebook picture is drawn after a quiet spell
             page2.evaluate("() => window.jupyterapp.commands.execute('docmanager:save')")
             page2.wait_for_timeout(1500)
             page2.reload()
@@ -335,9 +336,6 @@ def test_explorer_in_jupyterlab(lab):
             page2.locator(".phaselab-explorer").first.screenshot(path=str(ARTIFACTS / "explorer-after-reload.png"))
 
             # ---------------------------------------------------------- no kernel: the saved picture
-            page2.wait_for_timeout(4000)  # the picture is redrawn after a quiet spell
-            page2.evaluate("() => window.jupyterapp.commands.execute('docmanager:save')")
-            page2.wait_for_timeout(1500)
             req = urllib.request.Request(f"{lab['url']}/api/kernels?token={lab['token']}")
             for k in json.loads(urllib.request.urlopen(req, timeout=10).read()):
                 urllib.request.urlopen(urllib.request.Request(

@@ -523,3 +523,18 @@ def test_phaselab_export_reachable_after_import():
     code = "import phaselab; print(phaselab.export.save.__name__)"
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=120)
     assert out.stdout.strip() == "save", out.stderr
+
+
+def test_driven_system_view_and_panels_fit_the_system():
+    drv = phaselab.models.driven_pendulum()
+    ex = phaselab.explore(drv, crossings=60, background=False)
+    # the window comes from bounded orbits of this system, not a fixed box
+    assert ex.view.ranges != ((-np.pi, np.pi), (-3.0, 3.0))
+    assert [f.title.text for f in (ex.figures.panel1, ex.figures.panel2)] == [
+        "Orbit in phase space, first periods", "Energy over time (driven: not conserved)"]
+    ex.add_seed(0.5, 0.0)
+    # the energy panel holds H(q, p, t) along the traced orbit (the model's own energy)
+    x, y = ex.figures.panel1_source.data["x"], ex.figures.panel1_source.data["y"]
+    t, h = np.asarray(ex.figures.panel2_source.data["x"]), np.asarray(ex.figures.panel2_source.data["y"])
+    states = np.column_stack([x, y])
+    np.testing.assert_allclose(h, drv.energy(states, t=t), rtol=1e-12, atol=1e-12)

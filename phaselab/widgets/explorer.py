@@ -43,7 +43,7 @@ __all__ = ["explore", "Explorer", "OrbitRecord", "load_bokehjs"]
 CHAOS_INDICATORS = scales.CHAOS_INDICATORS
 EXPORT_FORMATS = (".png", ".svg", ".pdf", ".csv", ".nc", ".html")
 #: Seconds of quiet after which the saved-notebook picture is redrawn.
-PICTURE_DELAY = 3.0
+PICTURE_DELAY = 1.5
 
 
 def load_bokehjs(force=True):
@@ -711,7 +711,14 @@ class Explorer(W.VBox):
 
     def wait(self, timeout=60.0) -> bool:
         """Block until pending computations are done and shown (scripts and tests)."""
-        return self.jobs.wait(timeout)
+        end = time.monotonic() + timeout
+        while True:
+            ok = self.jobs.wait(max(end - time.monotonic(), 0.0)) and \
+                self.idle_jobs.wait(max(end - time.monotonic(), 0.0))
+            if not ok:
+                return False
+            if not self.jobs.busy and not self.idle_jobs.busy:
+                return True
 
     # ================================================================= events
     def _on_tap(self, event):
@@ -990,10 +997,10 @@ class Explorer(W.VBox):
             until = float(rec.section.times[0, int(rec.section.counts[0]) - 1])
         if view.kind == "map":
             until = rec.crossings
-        rid, rev, crossings = rec.id, rec.revision, rec.crossings
+        rid, rev, crossings, section = rec.id, rec.revision, rec.crossings, rec.section
 
         def compute():
-            return tasks.trace(view, state, params, until, crossings)
+            return tasks.trace(view, state, params, until, crossings, section)
 
         def deliver(out: Outcome):
             now = self.session.current
@@ -1014,7 +1021,8 @@ class Explorer(W.VBox):
                 base = self._message.split(" | ")[0]
                 self._say(f"{base} | orbit {rid} frequencies: {freq} ({tr.nu_unit})", refused=self._refused)
 
-        self._submit("trace", "", compute, deliver, delay=0.03)
+        # on the second worker thread: the companion curves never delay a click or a drag
+        self._submit("trace", "", compute, deliver, delay=0.03, runner=self.idle_jobs)
 
     def _warm_up(self):
         """Compile the kernels in the background while the user reads the plot."""

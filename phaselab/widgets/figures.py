@@ -174,7 +174,11 @@ class Figures:
         # set by the page when a view of the document has been built (see Explorer)
         self.ready = ColumnDataSource(dict(n=[]), name="phaselab-ready")
         main.tags = [self.ready]  # part of the document without a view of its own
-        self.ready_callback = CustomJS(args=dict(ready=self.ready), code="ready.data = {n: [Date.now()]};")
+        self.ready_callback = CustomJS(args=dict(ready=self.ready), code="""
+            const doc = cb_obj.document;
+            if (doc == null || doc.__phaselab_ready) return;
+            doc.__phaselab_ready = true;
+            ready.data = {n: [Date.now()]};""")
 
         bar = figure(width=96, height=FRAME_H + 60, toolbar_location=None, tools=[], min_border=0,
                      outline_line_color=None, name="phaselab-colorbar", x_range=(0, 1), y_range=(0, 1))

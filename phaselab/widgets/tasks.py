@@ -212,13 +212,33 @@ class TraceResult:
     nu_unit: str = ""
 
 
-def trace(view, state, params, until, crossings) -> TraceResult | None:
-    """Curves for the two companion panels of the selected orbit (see ``view.panels``)."""
+def section_frequencies(view, section):
+    """Frequencies (cycles per crossing) from the crossings already computed for one orbit of
+    a surface of section, without integrating again; ``((), ())`` when too few."""
+    from phaselab.compute.frequencies import MIN_SAMPLES, analyse_samples
+
+    c = int(section.counts[0])
+    if c < MIN_SAMPLES:
+        return (), ()
+    n = len(view.names) // 2
+    fixed = view.names.index(next(iter(view.plane))) % n
+    cols = [i for i in range(n) if i != fixed]
+    out = analyse_samples(section.points[:, :c], cols, step=1.0, diffusion=False)
+    return tuple(float(v) for v in out.nu[0]), tuple(view.names[i] for i in cols)
+
+
+def trace(view, state, params, until, crossings, section=None) -> TraceResult | None:
+    """Curves for the two companion panels of the selected orbit (see ``view.panels``) and its
+    frequencies (from its own crossings for a section; sampled afresh otherwise)."""
     tr = view.trace(state, params, until)
     nu, names, unit = (), (), ""
     try:
-        fr = orbit_frequencies(view, np.asarray(state, float)[None, :], params, min(max(crossings, 64), 2048))
-        nu, names, unit = tuple(float(v) for v in fr.nu[0]), tuple(fr.names), fr.unit
+        if view.kind == "section" and section is not None:
+            nu, names = section_frequencies(view, section)
+            unit = "cycles per crossing"
+        else:
+            fr = orbit_frequencies(view, np.asarray(state, float)[None, :], params, min(max(crossings, 64), 2048))
+            nu, names, unit = tuple(float(v) for v in fr.nu[0]), tuple(fr.names), fr.unit
     except PhaselabError:
         pass
     if tr is None:
