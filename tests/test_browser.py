@@ -73,7 +73,8 @@ def lab(tmp_path_factory):
     nb["cells"].append({"cell_type": "code", "execution_count": None, "metadata": {}, "outputs": [],
                         "source": "print(f'KERNEL_ORBITS={len(explorer.orbits)} "
                                   "KERNEL_POINTS={sum(len(o.points) for o in explorer.orbits)}')\n"
-                                  "print('KERNEL_RANGES=' + __import__('json').dumps([v for r in explorer.figures.view_ranges for v in r]))"})
+                                  "print('KERNEL_RANGES=' + __import__('json').dumps([v for r in explorer.figures.view_ranges for v in r]))\n"
+                                  "print('KERNEL_TIMING=' + repr({k: round(v, 4) for k, v in explorer.last_timing.items()}))"})
     (work / "explorer_demo.ipynb").write_text(json.dumps(nb))
     port, token = _free_port(), secrets.token_hex(16)
     env = dict(os.environ)
@@ -311,6 +312,8 @@ def test_explorer_in_jupyterlab(lab):
             kernel = json.loads(re.search(r"KERNEL_RANGES=(\[.*\])", _kernel_text(page)).group(1))
             np.testing.assert_allclose(kernel, page_ranges, rtol=1e-9)
             assert kernel[1] - kernel[0] < 0.9 * (before[1] - before[0])  # zoomed in
+            report.append("kernel timings (last click, drag, slider; seconds): "
+                          + re.search(r"KERNEL_TIMING=(.*)", _kernel_text(page)).group(1))
             report.append(f"export after zoom: page window {np.round(page_ranges, 4).tolist()}, "
                           f"exported window {np.round(kernel, 4).tolist()}")
 
@@ -323,7 +326,7 @@ def test_explorer_in_jupyterlab(lab):
                           f"finished: {summary2}")
             assert not [c for c in console2 if "Failed to create view" in c], console2
             page2.locator(".phaselab-explorer").first.screenshot(path=str(ARTIFACTS / "explorer-second-tab.png"))
-            page2.wait_for_timeout(4000)  # the saved-notebook picture is drawn after a quiet spell
+            page2.wait_for_timeout(9000)  # the saved-notebook picture is drawn after a quiet spell
             page2.evaluate("() => window.jupyterapp.commands.execute('docmanager:save')")
             page2.wait_for_timeout(1500)
             page2.reload()

@@ -43,7 +43,7 @@ __all__ = ["explore", "Explorer", "OrbitRecord", "load_bokehjs"]
 CHAOS_INDICATORS = scales.CHAOS_INDICATORS
 EXPORT_FORMATS = (".png", ".svg", ".pdf", ".csv", ".nc", ".html")
 #: Seconds of quiet after which the saved-notebook picture is redrawn.
-PICTURE_DELAY = 1.5
+PICTURE_DELAY = 6.0
 
 
 def load_bokehjs(force=True):
