@@ -693,11 +693,10 @@ class Explorer(W.VBox):
             self.color_by, self.scale = None, None
         self.figures.color_by_value(self.scale)
         self._show_scale()
-        self.view.fit_ranges(self.session.energy, self.session.params)
-        self._fitted = self.view.ranges
-        self._frame = self.view.frame(self.session.energy, self.session.params) if not self.jobs.background \
-            else self._frame
         rng = v.get("ranges")
+        if not rng or not self.jobs.background:
+            self.view.fit_ranges(self.session.energy, self.session.params)
+        self._fitted = self.view.ranges
         self._equal = bool(v.get("equal_aspect", False))
         self.figures.set_ranges(tuple(tuple(map(float, r)) for r in rng) if rng else self._fitted)
         self._draw_all()
