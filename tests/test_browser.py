@@ -250,6 +250,14 @@ def test_explorer_in_jupyterlab(lab):
                           f"sent to the kernel: median {np.nanmedian(parts):.0f} ms; load average before "
                           f"{load_before[0]:.2f}, after {load_after[0]:.2f}")
             assert page.evaluate("() => window.__pl.len('phaselab-seeds', 'x')") == 23, _status(page)
+            # the readout under the plot names the orbit point under the pointer
+            px, py = page.evaluate("() => { const d = window.__pl.src('phaselab-newest').data;"
+                                   " return window.__pl.screen(d.x[5], d.y[5]); }")
+            page.mouse.move(px - 3, py)
+            page.mouse.move(px, py)
+            page.wait_for_function("() => /orbit 23, crossing/.test(document.querySelector("
+                                   "'.phaselab-explorer .pl-readout').textContent)", timeout=10_000)
+            report.append("pointer readout: " + page.locator(".phaselab-explorer .pl-readout").first.inner_text())
             page.locator(".phaselab-explorer").first.screenshot(path=str(ARTIFACTS / "explorer-after-clicks.png"))
 
             # ---------------------------------------------------------- drag the ringed seed

@@ -155,19 +155,39 @@ class Figures:
         """))
         drag = PointDrawTool(renderers=[latest], add=False, drag=True, description="Drag the ringed seed")
         wheel = WheelZoomTool()
-        hover = HoverTool(renderers=self.point_renderers, tooltips=[
-            ("orbit", "@orbit"), ("crossing", "@crossing"), (labels[0], "@x{0.0000}"),
-            (labels[1], "@y{0.0000}")], point_policy="snap_to_data")
+        # the readout under the plot: the orbit point under the pointer (orbit, crossing,
+        # coordinates, the value it is coloured by), else the pointer's coordinates; written
+        # into the page directly, no message to the kernel
+        self.color_bar_title = ColumnDataSource(dict(t=[""]), name="phaselab-value-name")
+        # names travel as data, never as script text
+        self.axis_names = ColumnDataSource(dict(x=[labels[0]], y=[labels[1]]), name="phaselab-axis-names")
+        hover = HoverTool(renderers=self.point_renderers, tooltips=None, callback=CustomJS(
+            args=dict(name=self.color_bar_title, axes=self.axis_names, rid=readout_id), code="""
+            const el = document.getElementById(rid);
+            if (!el) return;
+            const g = cb_data.geometry, idx = cb_data.index.indices;
+            const st = window.__phaselab_hover || (window.__phaselab_hover = {});
+            const key = g.sx + ',' + g.sy;
+            if (!idx.length) { if (st.key === key && st.hit) return; st.key = key; st.hit = false; return; }
+            st.key = key; st.hit = true;
+            const d = cb_data.renderer.data_source.data, i = idx[0];
+            const xl = axes.data.x[0], yl = axes.data.y[0];
+            let text = `orbit ${d.orbit[i]}, crossing ${d.crossing[i]}:  ${xl} = ${d.x[i].toPrecision(5)},  ${yl} = ${d.y[i].toPrecision(5)}`;
+            const v = d.value[i], nm = name.data.t[0];
+            if (nm && Number.isFinite(v)) text += `,  ${nm} ${v.toPrecision(4)}`;
+            el.textContent = text;
+        """))
         self.hover = hover
         hover_po = HoverTool(renderers=[po_r], tooltips=[("", "@what")])
         hover_stop = HoverTool(renderers=[stop_r], tooltips=[("orbit @orbit stopped", "@why")])
         main.add_tools(drag, PanTool(), wheel, BoxZoomTool(), ResetTool(), hover, hover_po, hover_stop)
         main.toolbar.active_drag = drag
         main.toolbar.active_scroll = wheel
-        # pointer position, written into the page (no message to the kernel)
-        main.js_on_event(events.MouseMove, CustomJS(code=f"""
-            const el = document.getElementById('{readout_id}');
-            if (el) el.textContent = `{labels[0]} = ${{cb_obj.x.toPrecision(5)}},  {labels[1]} = ${{cb_obj.y.toPrecision(5)}}`;
+        main.js_on_event(events.MouseMove, CustomJS(args=dict(axes=self.axis_names, rid=readout_id), code="""
+            const el = document.getElementById(rid);
+            const st = window.__phaselab_hover || {};
+            if (!el || (st.hit && st.key === cb_obj.sx + ',' + cb_obj.sy)) return;
+            el.textContent = `${axes.data.x[0]} = ${cb_obj.x.toPrecision(5)},  ${axes.data.y[0]} = ${cb_obj.y.toPrecision(5)}`;
         """))
         self.main = main
         self.drag_tool = drag
@@ -222,8 +242,7 @@ class Figures:
 
     def set_axis_labels(self, labels):
         self.main.xaxis.axis_label, self.main.yaxis.axis_label = labels
-        self.hover.tooltips = [("orbit", "@orbit"), ("crossing", "@crossing"), (labels[0], "@x{0.0000}"),
-                               (labels[1], "@y{0.0000}")] + self.hover.tooltips[4:]
+        self.axis_names.data = dict(x=[labels[0]], y=[labels[1]])
 
     def set_panels(self, panels):
         for fig, (title, xl, yl) in zip((self.panel1, self.panel2), panels):
@@ -237,14 +256,14 @@ class Figures:
         if scale is None:
             spec = {"field": "shade", "transform": self.orbit_mapper}
             self.bar.visible = False
-            self.hover.tooltips = self.hover.tooltips[:4]
+            self.color_bar_title.data = dict(t=[""])
         else:
             self.scalar_mapper.palette = scale.palette()
             self.scalar_mapper.low, self.scalar_mapper.high = scale.low, scale.high
             self.color_bar.title = scale.label
             spec = {"field": "value", "transform": self.scalar_mapper}
             self.bar.visible = True
-            self.hover.tooltips = self.hover.tooltips[:4] + [(scale.label.split(" (")[0], "@value{0.0000}")]
+            self.color_bar_title.data = dict(t=[scale.label.split(" (")[0]])
         for r in self.point_renderers:
             r.glyph.fill_color = spec
 

@@ -49,7 +49,7 @@ def view_figure(snap: Snapshot, size=(7.2, 5.4), dpi=150):
     with matplotlib.rc_context(_RC):
         fig = Figure(figsize=(width, height), dpi=dpi, facecolor="white")
         right = 1.15 if snap.scale is not None else 0.25
-        left, bottom, top = 0.8, 0.75 if snap.footer else 0.55, 0.62 if snap.subtitle else 0.42
+        left, bottom, top = 0.8, 0.75 if snap.footer else 0.55, 0.78 if snap.subtitle else 0.42
         ax = fig.add_axes((left / width, bottom / height, (width - left - right) / width,
                            (height - bottom - top) / height))
         ax.set_facecolor(theme.GROUND)
@@ -110,8 +110,13 @@ def view_figure(snap: Snapshot, size=(7.2, 5.4), dpi=150):
                 bar.ax.axhline(snap.scale.anchor, color="black", linewidth=0.8)
         fig.text(left / width, 1 - 0.12 / height, snap.title, ha="left", va="top", fontsize=12, color=theme.INK)
         if snap.subtitle:
-            fig.text(left / width, 1 - 0.36 / height, snap.subtitle, ha="left", va="top", fontsize=8.5,
-                     color=theme.MUTED)
+            import textwrap
+
+            # about 0.55 em per character of a sans-serif font (common practice for estimates)
+            chars = max(30, int((width - left - 0.2) * 72 / (0.55 * 8.5)))
+            lines = textwrap.wrap(snap.subtitle, chars)[:2]
+            fig.text(left / width, 1 - 0.34 / height, "\n".join(lines), ha="left", va="top", fontsize=8.5,
+                     color=theme.MUTED, linespacing=1.2)
         if snap.footer:
             fig.text(0.1 / width, 0.08 / height, snap.footer, ha="left", va="bottom", fontsize=6.5,
                      color="#555555")
