@@ -1067,21 +1067,33 @@ class Explorer(W.VBox):
         return self.color_by
 
     def _held(self):
-        """Collect the bokeh changes made inside into one message to the page."""
-        from contextlib import contextmanager
+        """Collect the bokeh changes made inside into one message to the page, sent before
+        the changes of the status, count and orbit list (the points come first)."""
+        from contextlib import ExitStack, contextmanager
 
         doc = self.figures.main.document
+        c = self.controls
 
         @contextmanager
         def hold():
-            if doc is None:
-                yield
+            if getattr(self, "_hold_depth", 0):
+                self._hold_depth += 1  # inside an outer hold: it sends everything
+                try:
+                    yield
+                finally:
+                    self._hold_depth -= 1
                 return
-            doc.hold("combine")
+            self._hold_depth = 1
             try:
-                yield
+                with ExitStack() as stack:
+                    for w in (c.status, c.count, c.pick):
+                        stack.enter_context(w.hold_sync())
+                    if doc is not None:
+                        doc.hold("combine")
+                        stack.callback(doc.unhold)
+                    yield
             finally:
-                doc.unhold()
+                self._hold_depth = 0
         return hold()
 
     def _columns(self, records):
