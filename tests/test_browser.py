@@ -160,6 +160,12 @@ def _open_notebook(page, lab, console):
 
 def _run_all_and_time(page, timeout_ms):
     """Run All; returns (ms from the last cell finishing to a complete first display, summary)."""
+    # every text the header and the status line show, from the start
+    page.evaluate("""() => { window.__seen = [];
+        new MutationObserver(() => {
+            for (const el of document.querySelectorAll('.phaselab-explorer .pl-count, .phaselab-explorer .pl-status'))
+                if (window.__seen[window.__seen.length - 1] !== el.innerText) window.__seen.push(el.innerText);
+        }).observe(document.body, {subtree: true, childList: true, characterData: true}); }""")
     page.evaluate("() => window.jupyterapp.commands.execute('notebook:run-all-cells')")
     page.wait_for_function("() => [...document.querySelectorAll('.jp-OutputArea-output')]"
                            ".some(e => e.innerText.includes('KERNEL_ORBITS='))", timeout=timeout_ms)
@@ -203,6 +209,12 @@ def test_explorer_in_jupyterlab(lab):
             page.wait_for_timeout(500)
             page.locator(".phaselab-explorer").first.screenshot(path=str(ARTIFACTS / "explorer-start.png"))
             assert summary["seeds"] == 3 and summary["ring"] == 1 and summary["boundary"] > 0
+            seen = page.evaluate("() => window.__seen")
+            assert not [t for t in seen if "no orbits yet" in t], seen  # never while orbits are on the way
+            busy = [t for t in seen if "compiling" in t or "computing" in t or "on the way" in t]
+            report.append(f"shown while the first orbits were on the way: {busy[:4]}")
+            if ms > 5000:  # a cold kernel cache: the wait was explained
+                assert any("compiling kernels" in t for t in seen), seen
 
             # ---------------------------------------------------------- 20 clicks
             rng = np.random.default_rng(11)

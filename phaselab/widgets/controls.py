@@ -19,6 +19,9 @@ BUSY_DELAY = 0.25
 CSS = f"""
 .phaselab-explorer {{ font-family: {theme.FONT}; color: {theme.INK}; background: #ffffff;
   border: 1px solid {theme.RULE}; border-radius: 6px; padding: 14px 16px 10px 16px; }}
+.phaselab-explorer .pl-plot {{ contain: layout style paint; }}
+.phaselab-explorer .pl-status, .phaselab-explorer .pl-count, .phaselab-explorer .pl-readout {{
+  contain: layout style paint; }}
 .phaselab-explorer .pl-title {{ font-size: 15px; font-weight: 600; letter-spacing: 0.01em; }}
 .phaselab-explorer .pl-sub {{ font-size: 12px; color: {theme.MUTED}; }}
 .phaselab-explorer .pl-count {{ font-size: 12px; color: {theme.MUTED}; text-align: right; }}

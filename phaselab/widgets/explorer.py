@@ -151,6 +151,7 @@ class Explorer(W.VBox):
         self.figures.probe.on_change("data", self._on_drag)
         self.figures.latest.on_change("data", self._on_drag)
         self.bokeh = LiveBokehModel(self.figures.layout, combine_events=False)
+        self.bokeh.add_class("pl-plot")
         # a view built between a display and its first patch may have missed changes: when
         # the page says a view is ready, send the current document if anything changed
         self.figures.main.js_on_change("inner_width", self.figures.ready_callback)

@@ -226,6 +226,8 @@ class Figures:
         self.panel2_source = ColumnDataSource(dict(x=[], y=[]), name="phaselab-panel2-data")
         self.panel2_line = p2.line("x", "y", source=self.panel2_source, line_width=1.0,
                                    line_color=theme.ORBIT_COLORS[0])
+        for fig in (p1, p2):
+            fig.grid.visible = False  # fewer styled parts to paint on every new orbit
         self.panel1, self.panel2 = p1, p2
         self.layout = row(main, bar, column(p1, p2, spacing=10), spacing=8)
 
