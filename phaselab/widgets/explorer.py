@@ -21,7 +21,6 @@ validated tools and the responsible engineers.
 
 from __future__ import annotations
 
-import math
 import re
 import secrets
 import time
@@ -30,9 +29,10 @@ from pathlib import Path
 import ipywidgets as W
 import numpy as np
 
-from phaselab.errors import ModelError, ParameterError, PhaselabError
+from phaselab.errors import ParameterError, PhaselabError
 from phaselab.model.params import finite_number
-from phaselab.widgets import scales, tasks, theme
+from phaselab.widgets import messages, scales, tasks, theme
+from phaselab.widgets.messages import number  # noqa: F401  (part of this module's surface)
 from phaselab.widgets.controls import Controls, slider_range
 from phaselab.widgets.session import OrbitRecord, Session, read_session, write_session
 from phaselab.widgets.views import make_view
@@ -56,17 +56,6 @@ def load_bokehjs(force=True):
 def _slug(text) -> str:
     s = re.sub(r"[^A-Za-z0-9._-]+", "-", str(text)).strip("-.")
     return s or "explorer"
-
-
-def number(v, span=1.0) -> str:
-    """A coordinate for the status line: 4 significant digits, rounding noise far below the
-    window's size shown as 0."""
-    v = float(v)
-    if not math.isfinite(v):
-        return str(v)
-    if abs(v) < 1e-9 * max(abs(span), 1e-300):
-        return "0"
-    return f"{v:.4g}"
 
 
 class Explorer(W.VBox):
@@ -579,13 +568,7 @@ class Explorer(W.VBox):
             found = out.value
             self.structures.append(found)
             self._draw_structures()
-            po = found.orbit
-            residue = "" if po.residue is None else f", residue {po.residue:.4g}"
-            T = "" if view.kind == "map" else f", period T = {po.period:.5g}"
-            where = ", ".join(f"({self._num(a, 0)}, {self._num(b, 1)})" for a, b in found.points[:4])
-            more = " ..." if len(found.points) > 4 else ""
-            note = f" Manifolds: {found.manifold_note}." if found.manifold_note else ""
-            self._say(f"Periodic orbit of period {k}{T}: {po.stability}{residue}; at {where}{more}.{note}")
+            self._say(messages.periodic(found, view.kind, view.ranges))
             self._schedule_picture()
 
         self._submit("periodic", f"searching a period-{k} orbit", compute, deliver)
@@ -1097,97 +1080,44 @@ class Explorer(W.VBox):
                 self._hold_depth = 0
         return hold()
 
-    def _columns(self, records):
-        from phaselab.widgets.figures import point_columns
-
-        return point_columns(records, len(theme.ORBIT_COLORS))
+    def _ring_colors(self, shown):
+        if self.scale is None:
+            return [o.color for o in shown]
+        return self.scale.colors([o.scalar for o in shown])
 
     def _draw_all(self):
         with self._held():
-            orbits = self.session.orbits
-            newest = orbits[-1:] if orbits else []
-            self.figures.points.data = self._columns(orbits[:-1])
-            self.figures.newest.data = self._columns(newest)
+            self.figures.show_orbits(self.session.orbits)
             self._draw_seeds()
             self._draw_selected()
             self._update_pick()
             self._count()
 
     def _draw_added(self, previous, records):
-        """Records were appended: the old newest and all but the last new one join the older
-        points (streamed), the last one becomes the newest."""
         with self._held():
-            older = ([previous] if previous is not None else []) + records[:-1]
-            cols = self._columns(older)
-            if len(cols["x"]):
-                self.figures.points.stream(cols)
-            self.figures.newest.data = self._columns(records[-1:])
+            self.figures.show_added(previous, records)
             self._draw_seeds()
             self._draw_selected()
             self._count()
 
     def _draw_newest(self):
         with self._held():
-            self.figures.newest.data = self._columns(self.session.orbits[-1:])
+            self.figures.show_orbits(self.session.orbits[-1:], newest_only=True)
             self._draw_seeds(keep_latest=True)
             self._draw_selected()
             self._count()
 
-    def _ring_colors(self, shown):
-        if self.scale is None:
-            return [o.color for o in shown]
-        return self.scale.colors([o.scalar for o in shown])
-
     def _draw_seeds(self, keep_latest=False):
-        f = self.figures
         shown = self.session.shown()
-        f.seeds.data = dict(x=[o.seed[0] for o in shown], y=[o.seed[1] for o in shown],
-                            color=self._ring_colors(shown), orbit=[o.id for o in shown])
-        f.stops.data = dict(x=[o.stop[0] for o in shown if o.stop], y=[o.stop[1] for o in shown if o.stop],
-                            orbit=[o.id for o in shown if o.stop], why=[o.note for o in shown if o.stop])
-        newest = self.session.newest
-        self._quiet = True
-        try:
-            if newest is not None and newest.state is not None:
-                if not keep_latest:
-                    f.latest.data = dict(x=[newest.seed[0]], y=[newest.seed[1]])
-            else:
-                f.latest.data = dict(x=[], y=[])
-        finally:
-            self._quiet = False
+        self.figures.show_seeds(shown, self._ring_colors(shown), self.session.newest, keep_latest)
 
     def _draw_selected(self):
         rec = self.session.get(self.session.selected) if self.session.selected is not None else None
-        if rec is None or rec.state is None:
-            self.figures.selected.data = dict(x=[], y=[])
-        else:
-            self.figures.selected.data = dict(x=rec.points[:, 0], y=rec.points[:, 1])
+        self.figures.show_selected(rec)
 
     def _draw_structures(self):
-        from phaselab.widgets.figures import BOKEH_MARKERS
-
-        f = self.figures
-        xs, ys, marks, cols, what = [], [], [], [], []
-        for s in self.structures:
-            marker, colour = f.markers.get(s.orbit.stability, ("D", "#333333"))
-            r = s.orbit.residue
-            label = f"period {s.orbit.crossings}, {s.orbit.stability}" + ("" if r is None else f", residue {r:.4g}")
-            for a, b in s.points:
-                xs.append(float(a))
-                ys.append(float(b))
-                marks.append(BOKEH_MARKERS.get(marker, "diamond"))
-                cols.append(colour)
-                what.append(label)
         with self._held():
-            f.periodic.data = dict(x=xs, y=ys, marker=marks, color=cols, what=what)
-            show = bool(self.controls.manifolds.value)
-            lines = {"unstable": [], "stable": []}
-            if show:
-                for s in self.structures:
-                    for branch, ls in s.manifolds:
-                        lines[branch].extend(ls)
-            f.unstable.data = dict(xs=[c[:, 0] for c in lines["unstable"]], ys=[c[:, 1] for c in lines["unstable"]])
-            f.stable.data = dict(xs=[c[:, 0] for c in lines["stable"]], ys=[c[:, 1] for c in lines["stable"]])
+            self.figures.show_structures(self.structures, bool(self.controls.manifolds.value))
 
     def _after(self, change):
         """Redraw after a session change; compute what must be computed."""
@@ -1279,32 +1209,13 @@ class Explorer(W.VBox):
         return number(v, (x1 - x0) if axis == 0 else (y1 - y0))
 
     def _orbit_message(self, records, seconds):
-        if len(records) == 1:
-            rec = records[0]
-            extra = ""
-            if rec.note:
-                where = f" at ({self._num(rec.stop[0], 0)}, {self._num(rec.stop[1], 1)})" if rec.stop else ""
-                extra = f"; stopped{where} after {len(rec.points)}: {rec.note} (marked with a cross)"
-            value = ""
-            if self.scale is not None and np.isfinite(rec.scalar):
-                value = f", {self.scale.label.split(' (')[0]} {rec.scalar:.4g}"
-            return (f"Orbit {rec.id}: {len(rec.points)} {self.view.noun} from ({self._num(rec.seed[0], 0)}, "
-                    f"{self._num(rec.seed[1], 1)}) in {seconds * 1000:.0f} ms{value}{extra}.")
-        n = int(sum(len(r.points) for r in records))
-        stopped = [r for r in records if r.note]
-        return f"{len(records)} orbits, {n} {self.view.noun}." + self._stopped_text(stopped)
+        return messages.orbits(records, seconds, self.view.noun, self.view.ranges, self.scale)
 
     def _stopped_text(self, stopped):
-        if not stopped:
-            return ""
-        parts = [f"orbit {r.id} after {len(r.points)}: {r.note}" for r in stopped[:4]]
-        more = f" and {len(stopped) - 4} more" if len(stopped) > 4 else ""
-        return " Stopped early (crosses on the plot): " + "; ".join(parts) + more + "."
+        return messages.stopped(stopped)
 
     def _setting_text(self, energy, params):
-        parts = [f"E = {energy:.4g}"] if energy is not None and self.view.uses_energy else []
-        parts += [f"{k} = {v:.4g}" for k, v in params.items()]
-        return ", ".join(parts) or "these settings"
+        return messages.setting(energy, params, self.view.uses_energy)
 
     def _setting_key(self):
         return (self.session.energy, tuple(sorted(self.session.params.items())))

@@ -253,8 +253,6 @@ class Figures:
 
     def color_by_value(self, scale):
         """Colour points (and seed rings) by the ``value`` column on ``scale``; None: own colours."""
-        from bokeh.models import HoverTool  # noqa: F401  (bokeh loaded already)
-
         if scale is None:
             spec = {"field": "shade", "transform": self.orbit_mapper}
             self.bar.visible = False
@@ -268,6 +266,66 @@ class Figures:
             self.color_bar_title.data = dict(t=[scale.label.split(" (")[0]])
         for r in self.point_renderers:
             r.glyph.fill_color = spec
+
+    def show_orbits(self, orbits, newest_only=False):
+        """All orbits: the older ones in ``points``, the last in ``newest`` (only that one
+        with ``newest_only``)."""
+        n = len(theme.ORBIT_COLORS)
+        if not newest_only:
+            self.points.data = point_columns(orbits[:-1], n)
+        self.newest.data = point_columns(orbits[-1:], n)
+
+    def show_added(self, previous, records):
+        """Records were appended: the former newest and all but the last new one join the
+        older points (streamed), the last one becomes the newest."""
+        n = len(theme.ORBIT_COLORS)
+        cols = point_columns(([previous] if previous is not None else []) + records[:-1], n)
+        if len(cols["x"]):
+            self.points.stream(cols)
+        self.newest.data = point_columns(records[-1:], n)
+
+    def show_seeds(self, shown, ring_colors, newest, keep_latest=False):
+        """Seed rings (in the orbits' colours or on the colour scale), stop marks, and the
+        ringed newest seed (left where the page put it while it is being dragged)."""
+        self.seeds.data = dict(x=[o.seed[0] for o in shown], y=[o.seed[1] for o in shown],
+                               color=list(ring_colors), orbit=[o.id for o in shown])
+        stops = [o for o in shown if o.stop]
+        self.stops.data = dict(x=[o.stop[0] for o in stops], y=[o.stop[1] for o in stops],
+                               orbit=[o.id for o in stops], why=[o.note for o in stops])
+        if newest is not None and newest.state is not None:
+            if not keep_latest:
+                self.latest.data = dict(x=[newest.seed[0]], y=[newest.seed[1]])
+        else:
+            self.latest.data = dict(x=[], y=[])
+
+    def show_selected(self, rec):
+        if rec is None or rec.state is None:
+            self.selected.data = dict(x=[], y=[])
+        else:
+            self.selected.data = dict(x=rec.points[:, 0], y=rec.points[:, 1])
+
+    def show_structures(self, structures, manifolds=False):
+        """Periodic orbits (a shape and colour per stability, as in static figures) and, with
+        ``manifolds``, their stable (dashed) and unstable branches."""
+        xs, ys, marks, cols, what = [], [], [], [], []
+        for s in structures:
+            marker, colour = self.markers.get(s.orbit.stability, ("D", "#333333"))
+            r = s.orbit.residue
+            label = f"period {s.orbit.crossings}, {s.orbit.stability}" + ("" if r is None else f", residue {r:.4g}")
+            for a, b in s.points:
+                xs.append(float(a))
+                ys.append(float(b))
+                marks.append(BOKEH_MARKERS.get(marker, "diamond"))
+                cols.append(colour)
+                what.append(label)
+        self.periodic.data = dict(x=xs, y=ys, marker=marks, color=cols, what=what)
+        lines = {"unstable": [], "stable": []}
+        if manifolds:
+            for s in structures:
+                for branch, ls in s.manifolds:
+                    lines[branch].extend(ls)
+        self.unstable.data = dict(xs=[c[:, 0] for c in lines["unstable"]], ys=[c[:, 1] for c in lines["unstable"]])
+        self.stable.data = dict(xs=[c[:, 0] for c in lines["stable"]], ys=[c[:, 1] for c in lines["stable"]])
 
     def set_ranges(self, ranges):
         (x0, x1), (y0, y1) = ranges

@@ -41,7 +41,6 @@ def view_figure(snap: Snapshot, size=(7.2, 5.4), dpi=150):
     from matplotlib.colors import LinearSegmentedColormap, ListedColormap
     from matplotlib.figure import Figure
 
-    from phaselab.export.describe import mathtext_label  # noqa: F401  (labels are plain text here)
     from phaselab.export.figures import _RC
     from phaselab.export.structures import BRANCH_STYLE, MARKERS
 
