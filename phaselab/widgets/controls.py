@@ -36,7 +36,7 @@ CSS = f"""
   animation: pl-turn 0.8s linear infinite; vertical-align: -1px; }}
 @keyframes pl-turn {{ to {{ transform: rotate(360deg); }} }}
 @keyframes pl-show {{ to {{ opacity: 1; }} }}
-.phaselab-explorer .pl-group {{ font-size: 11px; color: {theme.MUTED}; width: 70px; padding-top: 5px; }}
+.phaselab-explorer .pl-group {{ font-size: 11px; color: {theme.MUTED}; width: 70px; }}
 .phaselab-explorer .widget-label {{ color: {theme.INK}; }}
 .phaselab-explorer .widget-button {{ background: {theme.PANEL}; color: {theme.INK};
   border: 1px solid {theme.RULE}; border-radius: 4px; }}
@@ -156,20 +156,23 @@ class Controls:
         return s
 
     def layout(self, bokeh, kind, has_plane, has_structures):
+        def line(items):
+            return W.HBox(items, layout=W.Layout(align_items="center"))
+
         header = W.HBox([self.title, self.count], layout=W.Layout(justify_content="space-between"))
         rows = [self.style, header, bokeh, self.readout]
         if self.sliders:
             rows.append(W.VBox(list(self.sliders.values())))
-        rows.append(W.HBox([_label("orbits"), self.pick, self.delete, self.more, self.undo, self.clear]))
+        rows.append(line([_label("orbits"), self.pick, self.delete, self.more, self.undo, self.clear]))
         view = [self.equal]
         if has_plane:
             view = [self.plane, self.plane_value, self.axes, self.direction, self.equal]
-        rows.append(W.HBox([_label("view")] + view))
-        rows.append(W.HBox([_label("colour")] + [self.color, self.scale_box]))
+        rows.append(line([_label("view")] + view))
+        rows.append(line([_label("colour")] + [self.color, self.scale_box]))
         if has_structures:
-            rows.append(W.HBox([_label("structures"), self.click, self.period, self.manifolds,
+            rows.append(line([_label("structures"), self.click, self.period, self.manifolds,
                                 self.clear_structures]))
-        rows.append(W.HBox([_label("files"), self.stem, self.export, self.session_path, self.save, self.load]))
+        rows.append(line([_label("files"), self.stem, self.export, self.session_path, self.save, self.load]))
         rows.append(self.status)
         return rows
 
