@@ -44,6 +44,8 @@ CHAOS_INDICATORS = scales.CHAOS_INDICATORS
 EXPORT_FORMATS = (".png", ".svg", ".pdf", ".csv", ".nc", ".html")
 #: Seconds of quiet after which the saved-notebook picture is redrawn.
 PICTURE_DELAY = 6.0
+#: Seconds of quiet after which the companion panels follow the selected orbit.
+TRACE_DELAY = 0.3
 
 
 def load_bokehjs(force=True):
@@ -1004,8 +1006,9 @@ class Explorer(W.VBox):
                 base = self._message.split(" | ")[0]
                 self._say(f"{base} | orbit {rid} frequencies: {freq} ({tr.nu_unit})", refused=self._refused)
 
-        # on the second worker thread: the companion curves never delay a click or a drag
-        self._submit("trace", "", compute, deliver, delay=0.03, runner=self.idle_jobs)
+        # on the second worker thread, once clicks and drags pause for TRACE_DELAY: the
+        # companion curves never delay a click or a drag, on the kernel or on the page
+        self._submit("trace", "", compute, deliver, delay=TRACE_DELAY, runner=self.idle_jobs)
 
     def _warm_up(self):
         """Compile the kernels in the background while the user reads the plot."""

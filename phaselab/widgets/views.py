@@ -29,7 +29,7 @@ from phaselab.errors import ModelError, ParameterError, PhaselabError
 #: Grid points per axis for the allowed-region boundary and the phase portrait.
 GRID = 160
 #: Samples kept of a companion trace.
-TRACE_SAMPLES = 1500
+TRACE_SAMPLES = 800
 
 
 @dataclass
