@@ -51,6 +51,11 @@ def main(repeats: int = 7) -> None:
     E = 0.125
     plane = {"x": 0.0}
     ex = phaselab.explore(H, energy=E, crossings=300, background=False)
+    # in a notebook the companion panels are computed on a second thread after a 0.3 s pause,
+    # not on the click's path: give them a real thread here too (its results are not shown)
+    from phaselab.widgets.worker import JobRunner
+
+    ex.idle_jobs = JobRunner(True)
     rng = np.random.default_rng(3)
 
     def allowed_points(n):
@@ -118,6 +123,7 @@ def main(repeats: int = 7) -> None:
     row("click -> 300 points (Henon-Heiles)", click, bare_click, 0.150)
     row("drag step -> orbit redrawn", drag, bare_drag, 0.100)
     row("energy slider -> 30 orbits redrawn", move, bare_move, 1.0)
+    ex.close()
 
 
 if __name__ == "__main__":

@@ -292,8 +292,9 @@ def test_explorer_in_jupyterlab(lab):
             moving = time.monotonic() - t0
             during = page.evaluate("() => { window.__pl.dragging = false; return window.__pl.updates; }")
             page.mouse.up()
-            report.append(f"drag: {during} orbit updates while the pointer moved for {moving:.1f} s "
-                          f"({during / moving:.1f} per second)")
+            report.append(f"drag: {during} orbit updates for {steps} pointer moves in {moving:.1f} s "
+                          f"({during / moving:.1f} per second; the moves themselves came "
+                          f"{steps / moving:.1f} per second)")
             assert during >= 3, f"the orbit did not follow the drag ({during} updates in {moving:.1f} s)"
             page.wait_for_timeout(800)
             page.locator(".phaselab-explorer").first.screenshot(path=str(ARTIFACTS / "explorer-after-drag.png"))
