@@ -17,9 +17,13 @@ seed_points = [(0.3, 0.0), (0.9, 0.2), (-0.6, 0.45)]   # (b, p_b) on the section
 # A toy molecule of our own making: a stretch `s` and a bend `b`, coupled because stretching
 # the bond softens the bend. The surface of section is the plane `s = 0` crossed with growing
 # `s`; a click on the plot picks `(b, p_b)`, the stretch momentum follows from the energy.
-# Regular orbits draw closed curves, chaotic ones scatter. Drag the ringed seed, move the
-# sliders, and save what you see with **Export**. These are model results, not a validated
-# molecular potential.
+# Regular orbits draw closed curves, chaotic ones scatter. Drag the ringed seed and its orbit
+# follows; move the sliders; hover a point to read its orbit and coordinates. Below the plot:
+# pick, delete or extend an orbit, change the plane, colour orbits by a chaos indicator (the
+# scale is split where the indicator's meaning changes) or a frequency, let a click find a
+# periodic orbit, and save what you see with **Export** or the whole session with
+# **Save session**. The status line says what is running. These are model results, not a
+# validated molecular potential.
 
 # %%
 import phaselab

@@ -41,6 +41,7 @@ _LAZY = {
     "frequency_map": "phaselab.scan.frequency_map",
     "FrequencyMap": "phaselab.scan.frequency_map",
     "explore": "phaselab.widgets.explorer",
+    "export": "phaselab.export",
     "periodic_orbit": "phaselab.compute.periodic",
     "find_periodic_orbits": "phaselab.compute.periodic",
     "PeriodicOrbit": "phaselab.compute.periodic",
@@ -71,7 +72,7 @@ def __getattr__(name):
                     f"phaselab.{name} needs the notebook extras ({exc.name} is missing); "
                     "install them with pip install 'phaselab[lab]'") from None
             raise
-        value = module if name == "models" else getattr(module, name)
+        value = module if name in ("models", "export") else getattr(module, name)
         globals()[name] = value
         return value
     raise AttributeError(f"module 'phaselab' has no attribute {name!r}")

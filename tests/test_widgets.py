@@ -54,8 +54,8 @@ def send_tap(explorer, x, y):
 
 
 def send_drag(explorer, x, y):
-    """What the page sends when the point-draw tool moves the newest seed to (x, y)."""
-    src = explorer.figures.latest
+    """What the page sends while the ringed seed is dragged to (x, y) (the drag position)."""
+    src = explorer.figures.probe
     content = {"event": "jsevent", "kind": "ModelChanged", "model": _serialize(explorer, src),
                "attr": "data", "new": _serialize(explorer, {"x": [x], "y": [y]})}
     explorer.bokeh._sync_model(explorer.bokeh, content, [])
@@ -71,7 +71,7 @@ def direct(system, seed, energy, params=None, crossings=300, solve_for="px"):
 
 
 def source_xy(explorer, orbit_id=None):
-    d = explorer.figures.points.data
+    d = explorer.figures.all_points()
     x, y, o = np.asarray(d["x"]), np.asarray(d["y"]), np.asarray(d["orbit"])
     if orbit_id is not None:
         keep = o == orbit_id
@@ -102,8 +102,8 @@ def test_tap_starts_an_orbit_matching_a_direct_section(hh):
     assert list(ex.figures.latest.data["x"]) == [0.1]
     assert "Orbit 1" in ex.status and "300 crossings" in ex.status
     # the companion views hold the orbit's configuration trace and energy error
-    assert len(ex.figures.trace_source.data["x"]) > 10
-    assert np.max(np.abs(ex.figures.error_source.data["y"])) < 1e-4
+    assert len(ex.figures.panel1_source.data["x"]) > 10
+    assert np.max(np.abs(ex.figures.panel2_source.data["y"])) < 1e-4
 
 
 def test_second_tap_appends_and_colours_differ(hh):
@@ -116,7 +116,7 @@ def test_second_tap_appends_and_colours_differ(hh):
     rx, ry = direct(hh, (-0.2, 0.1), E0).xy()
     np.testing.assert_allclose(x2, rx, atol=1e-12)
     np.testing.assert_allclose(y2, ry, atol=1e-12)
-    assert len(set(np.asarray(ex.figures.points.data["shade"]).tolist())) == 2
+    assert len(set(np.asarray(ex.figures.all_points()["shade"]).tolist())) == 2
 
 
 def test_energy_slider_recomputes_every_orbit(hh):
@@ -191,7 +191,7 @@ def test_forbidden_click_is_refused_with_a_message(hh):
     send_tap(ex, 0.0, 0.8)
     assert ex.orbits == []
     assert "outside the energetically allowed region" in ex.status
-    assert "refused" in ex._status.value
+    assert "refused" in ex.controls.status.value
     send_tap(ex, 0.1, 0.05)  # and the widget keeps working
     assert len(ex.orbits) == 1
 
@@ -243,7 +243,7 @@ def test_background_worker_delivers_the_same_points(hh):
 def test_colour_by_scalar_and_export(hh, tmp_path):
     ex = phaselab.explore(hh, energy=E0, background=False, color_by="energy_error", export_dir=tmp_path)
     ex.add_seeds([(0.1, 0.05), (-0.2, 0.1)])
-    vals = np.asarray(ex.figures.points.data["value"])
+    vals = np.asarray(ex.figures.all_points()["value"])
     assert np.isfinite(vals).all()
     assert set(np.round(vals, 18)) == {round(float(o.section.energy_error[0]), 18) for o in ex.orbits}
     paths = ex.export("hh-test")
@@ -255,12 +255,14 @@ def test_colour_by_scalar_and_export(hh, tmp_path):
     ex.clear()
     ex._export_clicked()
     assert "no orbits to export" in ex.status
+    ex.undo()
     # the button writes the formats chosen at construction; the PDF parses (pypdf, reference)
     from pypdf import PdfReader
 
     ey = phaselab.explore(hh, energy=E0, background=False, export_dir=tmp_path,
                           export_formats=(".svg", ".pdf"))
     ey.add_seed(0.1, 0.0)
+    assert " " not in ey._stem.value  # default file names have no spaces
     ey._export_clicked()
     assert (tmp_path / f"{ey._stem.value}.svg").stat().st_size > 0
     assert len(PdfReader(tmp_path / f"{ey._stem.value}.pdf").pages) == 1
@@ -284,7 +286,18 @@ def test_colour_by_chaos_indicator(hh):
         assert v == pytest.approx(float(ref.megno[0]), rel=1e-12)
     assert abs(vals[0] - 2.0) < 0.5
     assert vals[1] > 5.0
-    assert np.isfinite(np.asarray(ex.figures.points.data["value"])).all()
+    # the scale is fixed and split at MEGNO 2, not stretched to this run's values: the
+    # quasi-periodic orbit's ring is on the cool side, the chaotic one's on the warm side
+    from phaselab.widgets import scales
+
+    m = ex.figures.scalar_mapper
+    assert (m.low, m.high) == (0.0, 8.0)
+    rings = ex.figures.seeds.data["color"]
+    cool, warm = scales.Scale(0, 8, 2, "").palette()[:64], scales.Scale(0, 8, 2, "").palette()[64:]
+    assert (rings[0] in cool) == (vals[0] < 2.0) and rings[1] in warm
+    ex.set_scale(low=0.0, anchor=3.0, high=10.0)
+    assert (m.low, m.high) == (0.0, 10.0) and len(m.palette) == 256
+    assert np.isfinite(np.asarray(ex.figures.all_points()["value"])).all()
 
 
 def test_map_and_portrait_views(hh):
@@ -301,6 +314,9 @@ def test_map_and_portrait_views(hh):
     np.testing.assert_allclose(source_xy(px)[0], tr.states[0, :, 0], atol=1e-12)
     # one level curve through the clicked energy drawn strongly: the frame has curves
     assert len(px.figures.lines.data["xs"]) > 0
+    # panels fit the kind: a map shows q and p by iterate, no energy panel
+    assert ex.figures.panel1.title.text == "Coordinate by iterate"
+    np.testing.assert_allclose(ex.figures.panel2_source.data["y"][:200], ref.points[0, :, 1], atol=1e-12)
 
 
 def test_importing_phaselab_does_not_import_the_widget_layer():
@@ -318,3 +334,207 @@ def test_explorer_without_the_notebook_extras_names_the_extra():
             "try:\n    phaselab.explore\nexcept phaselab.PhaselabError as exc:\n    print(exc)\n")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=120)
     assert "phaselab[lab]" in out.stdout, out.stderr
+
+
+# ----------------------------------------------------------------------------- session
+def test_session_says_what_changed_without_widgets():
+    import sys
+
+    from phaselab.widgets.session import Session
+
+    s = Session(0.1, {"a": 1.0}, ["#111111", "#222222"])
+    recs = [s.new_record((0.1 * k, 0.0), np.zeros(4), 300) for k in range(3)]
+    ch = s.add(recs[:2])
+    assert ch.added == [1, 2] and s.newest.id == 2
+    s.add(recs[2:])
+    ch = s.remove(2)
+    assert ch.removed == [2] and s.ids() == [1, 3]
+    ch = s.undo()  # the deletion: orbit 2 comes back in its place and is recomputed
+    assert s.ids() == [1, 2, 3] and ch.recompute == [2]
+    ch = s.set_energy(0.2)
+    assert ch.setting and ch.recompute == [1, 2, 3]
+    assert s.set_energy(0.2).anything is False
+    with pytest.raises(phaselab.ParameterError, match="unknown parameters b"):
+        s.set_params({"b": 1.0})
+    assert s.more_crossings(1).recompute == [1] and s.get(1).crossings == 600
+    assert "bokeh" not in sys.modules.get("phaselab.widgets.session").__dict__
+
+
+def test_session_file_round_trip_and_errors(hh, tmp_path):
+    ex = phaselab.explore(hh, energy=E0, background=False, color_by="megno", crossings=120)
+    ex.add_seeds([(0.1, 0.05), (-0.2, 0.1)])
+    ex.more_crossings(1)
+    ex.select(2)
+    path = ex.save_session(tmp_path / "s.json")
+    import json
+
+    data = json.loads(path.read_text())
+    assert data["format"] == "phaselab-explorer-session" and data["energy"] == E0
+    assert [o["crossings"] for o in data["orbits"]] == [240, 120] and data["selected"] == 2
+    assert data["color"] == {"by": "megno", "low": 0.0, "anchor": 2.0, "high": 8.0}
+    ey = phaselab.explore(hh, energy=0.1, background=False, session=path)
+    assert ey.energy == E0 and [o.seed for o in ey.orbits] == [(0.1, 0.05), (-0.2, 0.1)]
+    assert [o.crossings for o in ey.orbits] == [240, 120] and ey.color_by == "megno"
+    x, _ = source_xy(ey, 1)
+    np.testing.assert_allclose(x, source_xy(ex, 1)[0], atol=1e-12)
+    bad = tmp_path / "bad.json"
+    bad.write_text(json.dumps({**data, "orbits": [{"seed": [0.1]}]}))
+    with pytest.raises(phaselab.ParameterError, match=r"bad.json: orbits\[0\]"):
+        ey.load_session(bad)
+    ey._load_clicked()  # the button: a message, not a traceback
+    assert "Session not loaded" in ey.status
+
+
+def test_delete_more_crossings_selection_and_stops(hh):
+    ex = phaselab.explore(hh, energy=E0, background=False, crossings=100)
+    ex.add_seeds([(0.1, 0.05), (-0.2, 0.1), (0.3, -0.1)])
+    ex.select(2)
+    assert len(ex.figures.selected.data["x"]) == 100
+    ex.delete(2)
+    assert [o.id for o in ex.orbits] == [1, 3] and len(ex.figures.selected.data["x"]) == 0
+    ex.undo()
+    assert [o.id for o in ex.orbits] == [1, 2, 3]
+    ex.more_crossings(3)
+    assert len(source_xy(ex, 3)[0]) == 200
+    # the first 100 of 200 crossings are those of the 100-crossing orbit (same step: the
+    # step is chosen from the system, not the crossing count)
+    np.testing.assert_allclose(source_xy(ex, 3)[0][:100], direct(hh, (0.3, -0.1), E0, crossings=100).xy()[0],
+                               atol=1e-9)
+    # above the escape energy 1/6 (Henon & Heiles 1964) an orbit leaves: its stop is marked
+    # with a cross and the status says why
+    ex.set_energy(0.3)
+    stops = ex.figures.stops.data
+    assert len(stops["x"]) >= 1 and all(stops["why"])
+    assert "Stopped early" in ex.status and "left the box" in ex.status or "non-finite" in ex.status
+
+
+def test_view_controls_plane_axes_direction_and_aspect(hh):
+    ex = phaselab.explore(hh, energy=E0, background=False)
+    ex.add_seed(0.1, 0.05)
+    state = ex.orbits[0].state.copy()
+    ex.set_view(plane={"y": 0.0}, solve_for="py")  # shown (x, px)
+    assert ex.view.axis_names == ("x", "px") and ex.figures.main.xaxis.axis_label == "x"
+    # the orbit is the same trajectory, now cut by y = 0 (direct section from its state)
+    ref = phaselab.section(hh, state[None, :], {"y": 0.0}, crossings=300, energy=E0, axes=("x", "px"))
+    np.testing.assert_allclose(source_xy(ex)[0], ref.xy()[0], atol=1e-10)
+    ex.controls.direction.value = -1
+    assert ex.view.sign == -1 and "decreasing" in ex.controls.title.value
+    ex.set_equal_aspect(True)
+    (x0, x1), (y0, y1) = ex.figures.view_ranges
+    from phaselab.widgets.figures import FRAME_H, FRAME_W
+
+    assert (x1 - x0) / FRAME_W == pytest.approx((y1 - y0) / FRAME_H)
+    ex.set_view(plane={"y": 0.0}, solve_for="y")
+    assert "both fixed" in ex.status
+
+
+def test_periodic_orbit_on_the_standard_map():
+    # the standard map's fixed point (pi, 0) has residue K/4 (Greene 1979, J. Math. Phys. 20,
+    # 1183: R = (2 - tr M)/4 with tr M = 2 - K there); (0, 0) is hyperbolic
+    m = phaselab.models.standard_map()
+    K = m.params["K"]
+    ex = phaselab.explore(m, background=False)
+    ex.controls.manifolds.value = True
+    ex.find_periodic_orbit(3.0, 0.1, period=1)
+    po = ex.structures[0].orbit
+    assert po.stability == "stable" and po.residue == pytest.approx(K / 4, rel=1e-9)
+    assert f"residue {K / 4:.4g}" in ex.status
+    assert ex.figures.periodic.data["marker"] == ["circle"]
+    ex.find_periodic_orbit(0.1, 0.05, period=1)
+    assert ex.structures[1].orbit.stability == "unstable"
+    assert ex.figures.periodic.data["marker"][1] == "x"  # shape, not only colour
+    assert len(ex.figures.unstable.data["xs"]) >= 2 and len(ex.figures.stable.data["xs"]) >= 2
+    ex.find_periodic_orbit(1.0, 1.0, period=0)
+    assert "period" in ex.status and "refused" in ex.controls.status.value
+
+
+def test_frequency_colouring_matches_a_direct_call(hh):
+    ex = phaselab.explore(hh, energy=E0, background=False, color_by="frequency", crossings=256)
+    ex.add_seeds([(0.1, 0.05), (0.3, 0.0)])
+    seeds = np.array([o.state for o in ex.orbits])
+    ref = phaselab.frequencies(hh, seeds, n=256, plane=PLANE, direction=+1)
+    np.testing.assert_allclose([o.scalar for o in ex.orbits], ref.nu[:, 0], rtol=1e-12)
+    assert "frequencies" in ex.status
+
+
+def test_first_display_holds_everything_and_busy_status(hh):
+    ex = phaselab.explore(hh, energy=E0)
+    try:
+        ex.add_seeds([(0.1, 0.05), (-0.2, 0.1)])
+        assert "orbits on the way" in ex.controls.count.value  # never "no orbits" meanwhile
+        assert "data-busy='1'" in ex.controls.status.value and "computing 2 orbits" in ex.controls.status.value
+        assert ex.wait(120)
+        assert "data-busy='0'" in ex.controls.status.value
+        # the bundle a new view is built from holds the boundary, both orbits and the ring
+        import json
+
+        assert ex.bokeh.stale
+        ex.bokeh.refresh(send=True)
+        text = json.dumps(ex.bokeh.render_bundle) if isinstance(ex.bokeh.render_bundle, dict) else ex.bokeh.render_bundle
+        assert "phaselab-latest" in text and not ex.bokeh.stale
+        ex.add_seed(0.3, -0.1)
+        assert ex.wait(120) and ex.bokeh.stale
+        state = ex.bokeh.get_state()  # what a page rebuilding its widgets asks for
+        assert not ex.bokeh.stale and state["render_bundle"].count('"phaselab-newest"') == 1
+    finally:
+        ex.close()
+
+
+def test_compile_events_show_in_the_status(hh):
+    from phaselab.codegen import progress
+
+    ex = phaselab.explore(hh, energy=E0, background=False)
+    with progress.compiling("kernels of this system (test)"):
+        assert "compiling kernels for this system (first time only)" in ex.controls.status.value
+    assert "compiling" not in ex.controls.status.value
+    ex.close()
+    with progress.compiling("after close"):
+        pass  # a closed explorer no longer listens
+
+
+def test_status_numbers_and_labels(hh):
+    from phaselab.widgets.explorer import number
+
+    assert number(2.069e-16, 0.5) == "0" and number(0.12345, 0.5) == "0.1235"
+    ex = phaselab.explore(hh, energy=E0, background=False)
+    ex.add_seed(2.069e-16, 0.05)
+    assert "(0, 0.05)" in ex.status
+    # the same labels as the HTML export (phaselab.export.describe.plain_label)
+    assert (ex.figures.main.xaxis.axis_label, ex.figures.main.yaxis.axis_label) == ("y", "p_y")
+
+
+def test_export_is_the_current_view(hh, tmp_path):
+    from PIL import Image
+
+    ex = phaselab.explore(hh, energy=E0, background=False, export_dir=tmp_path)
+    ex.add_seeds([(0.1, 0.05), (-0.2, 0.1)])
+    ex.figures.set_ranges(((0.0, 0.2), (-0.1, 0.1)))  # what a zoom sends back from the page
+    snap = ex.snapshot()
+    assert snap.ranges == ((0.0, 0.2), (-0.1, 0.1)) and snap.accents and snap.seeds and snap.forbidden
+    png, = ex.export("zoomed", formats=(".png",))
+    fig = __import__("phaselab.widgets.picture", fromlist=["view_figure"]).view_figure(snap)
+    assert fig.axes[0].get_xlim() == (0.0, 0.2)
+    with Image.open(png) as img:
+        assert img.size[0] > 500
+    assert ex.export("two words", formats=(".csv",))[0].name == "two-words.csv"
+
+
+def test_phaselab_export_reachable_after_import():
+    code = "import phaselab; print(phaselab.export.save.__name__)"
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=120)
+    assert out.stdout.strip() == "save", out.stderr
+
+
+def test_driven_system_view_and_panels_fit_the_system():
+    drv = phaselab.models.driven_pendulum()
+    ex = phaselab.explore(drv, crossings=60, background=False)
+    # the window comes from bounded orbits of this system, not a fixed box
+    assert ex.view.ranges != ((-np.pi, np.pi), (-3.0, 3.0))
+    assert [f.title.text for f in (ex.figures.panel1, ex.figures.panel2)] == [
+        "Orbit in phase space, first periods", "Energy over time (driven: not conserved)"]
+    ex.add_seed(0.5, 0.0)
+    # the energy panel holds H(q, p, t) along the traced orbit (the model's own energy)
+    x, y = ex.figures.panel1_source.data["x"], ex.figures.panel1_source.data["y"]
+    t, h = np.asarray(ex.figures.panel2_source.data["x"]), np.asarray(ex.figures.panel2_source.data["y"])
+    states = np.column_stack([x, y])
+    np.testing.assert_allclose(h, drv.energy(states, t=t), rtol=1e-12, atol=1e-12)

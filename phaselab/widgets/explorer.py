@@ -1,18 +1,19 @@
 """``phaselab.explore``: an interactive surface of section for a JupyterLab notebook.
 
-The widget is an ``ipywidgets.VBox`` holding one bokeh layout (through
-``jupyter_bokeh.BokehModel``, so bokeh's tap and drag events reach Python without a bokeh
-server), sliders for the energy and every model parameter, a few buttons and a status line.
+The explorer wires four parts together and does little else:
 
-* a click on the plot starts an orbit there (for a section the missing momentum is solved
-  from the current energy; a click outside the allowed region is refused in the status line);
-* the newest seed (the ringed one) can be dragged: its orbit follows, newest position wins;
-* moving a slider recomputes every orbit with the new value;
-* the two small plots show the selected orbit in configuration space and its energy error.
+* :class:`~phaselab.widgets.session.Session` holds the orbits, the undo history, the
+  selection, the energy and the parameters, and says what each change changed;
+* :class:`~phaselab.widgets.worker.JobRunner` runs every computation (orbits, colour values,
+  companion curves, frames, periodic orbits, manifolds, pictures) in a worker thread,
+  newest request first, so the notebook stays responsive;
+* :class:`~phaselab.widgets.figures.Figures` draws (bokeh, through jupyter_bokeh);
+* :class:`~phaselab.widgets.controls.Controls` are the ipywidgets around the plot.
 
-Computations run in a worker thread (compiled kernels release the GIL) and their results
-are applied on the kernel's event loop, so the notebook stays responsive. ``background=False``
-computes in the calling thread instead (scripts, tests, timing).
+A click starts an orbit (for a section the missing momentum is solved from the energy; a
+click outside the allowed region is refused with the reason), the ringed newest seed can be
+dragged and its orbit follows, sliders recompute every orbit, and the status line says what
+is running (compiling kernels the first time, computing n orbits) with a busy mark.
 
 Section points are model results; where they inform a design decision confirm them with
 validated tools and the responsible engineers.
@@ -20,131 +21,43 @@ validated tools and the responsible engineers.
 
 from __future__ import annotations
 
-import math
+import re
+import secrets
 import time
-from dataclasses import dataclass, field
 from pathlib import Path
 
 import ipywidgets as W
 import numpy as np
 
-from phaselab.model.params import finite_number
 from phaselab.errors import ParameterError, PhaselabError
-from phaselab.widgets import theme
+from phaselab.model.params import finite_number
+from phaselab.widgets import messages, scales, tasks, theme
+from phaselab.widgets.messages import number  # noqa: F401  (part of this module's surface)
+from phaselab.widgets.controls import Controls, slider_range
+from phaselab.widgets.session import OrbitRecord, Session, read_session, write_session
 from phaselab.widgets.views import make_view
-from phaselab.widgets.worker import JobRunner, Outcome
-
-CHAOS_INDICATORS = ("megno", "lyapunov", "fli", "sali")
+from phaselab.widgets.worker import JobRunner, Outcome, _current_loop
 
 __all__ = ["explore", "Explorer", "OrbitRecord", "load_bokehjs"]
 
-#: Seconds of computation per new orbit below which a click is answered without the worker
-#: thread (the event loop is then held for at most about this long).
-INLINE_BUDGET = 0.04
+CHAOS_INDICATORS = scales.CHAOS_INDICATORS
+EXPORT_FORMATS = (".png", ".svg", ".pdf", ".csv", ".nc", ".html")
+#: Seconds of quiet after which the saved-notebook picture is redrawn.
+PICTURE_DELAY = 6.0
+#: Seconds of quiet after which the companion panels follow the selected orbit.
+TRACE_DELAY = 0.3
 
 
-@dataclass
-class OrbitRecord:
-    """One orbit on the plot.
+def load_bokehjs(force=True):
+    """Put the core BokehJS library into the page (inline: no network)."""
+    from phaselab.widgets.page import load_bokehjs as load
 
-    Attributes
-    ----------
-    id : int
-        Stable identifier (1, 2, ... in order of creation).
-    seed : tuple of float
-        The clicked point in the shown plane ``(x, y)``.
-    state : ndarray, shape (2n,), or None
-        The full initial state at the current energy and parameters (None when the seed is
-        outside the allowed region there).
-    points : ndarray, shape (m, 2)
-        The shown coordinates of its crossings (iterates, samples).
-    section : Section or None
-        The one-orbit result the points came from.
-    color : str
-    scalar : float
-        The per-orbit value used for colouring when ``color_by`` is given (NaN otherwise).
-    note : str
-        Why the orbit is hidden, when it is.
-    """
-
-    id: int
-    seed: tuple
-    state: np.ndarray | None = None
-    points: np.ndarray = field(default_factory=lambda: np.empty((0, 2)))
-    section: object = None
-    color: str = theme.ORBIT_COLORS[0]
-    scalar: float = float("nan")
-    note: str = ""
-    revision: int = 0
+    load()
 
 
-def _slider_range(param):
-    if param.range is not None:
-        return param.range
-    d = float(param.default)
-    if d > 0:
-        return (d / 4.0, d * 4.0)
-    if d < 0:
-        return (d * 4.0, d / 4.0)
-    return (-1.0, 1.0)
-
-
-def _slider_grid(lo, hi, value):
-    """A round step near (hi - lo) / 400, refined until ``value`` lies on the grid (the page
-    snaps slider values to min + k * step), and the range widened to multiples of it."""
-    raw = (hi - lo) / 400.0
-    k = math.floor(math.log10(raw))
-    step = next(m * 10.0 ** k for m in (1, 2, 5, 10) if m * 10.0 ** k >= raw * (1 - 1e-12))
-    for _ in range(6):
-        q = value / step
-        if abs(q - round(q)) < 1e-7:
-            break
-        step /= 10.0
-    lo = min(math.floor(lo / step + 1e-9) * step, value)
-    hi = max(math.ceil(hi / step - 1e-9) * step, value)
-    return lo, hi, step
-
-
-def _finite(value, what):
-    return finite_number(value, what)
-
-
-_CSS = f"""
-<style>
-.phaselab-explorer {{ font-family: {theme.FONT}; color: {theme.INK}; background: #ffffff;
-  border: 1px solid {theme.RULE}; border-radius: 6px; padding: 14px 16px 10px 16px; }}
-.phaselab-explorer .pl-title {{ font-size: 15px; font-weight: 600; letter-spacing: 0.01em; }}
-.phaselab-explorer .pl-sub {{ font-size: 12px; color: {theme.MUTED}; }}
-.phaselab-explorer .pl-count {{ font-size: 12px; color: {theme.MUTED}; text-align: right; }}
-.phaselab-explorer .pl-status {{ font-size: 12px; color: {theme.MUTED}; border-top: 1px solid {theme.RULE};
-  padding-top: 6px; min-height: 18px; }}
-.phaselab-explorer .pl-status.refused {{ color: {theme.REFUSED}; }}
-.phaselab-explorer .widget-label {{ color: {theme.INK}; }}
-.phaselab-explorer .widget-button {{ background: {theme.PANEL}; color: {theme.INK};
-  border: 1px solid {theme.RULE}; border-radius: 4px; }}
-.phaselab-explorer .widget-button:hover {{ background: #ebe8de; }}
-</style>
-"""
-
-
-_BOKEHJS_SHOWN = False
-
-
-def load_bokehjs(force=False):
-    """Put BokehJS (the version matching the Python bokeh, inline: no network) into the page.
-
-    jupyter_bokeh renders with the BokehJS already on the page, so the explorer calls this
-    before it is first displayed in a kernel session; call it again with ``force=True``
-    after reloading the browser tab.
-    """
-    global _BOKEHJS_SHOWN
-    if _BOKEHJS_SHOWN and not force:
-        return
-    from bokeh.io import output_notebook
-    from bokeh.resources import INLINE
-
-    output_notebook(resources=INLINE, hide_banner=True)
-    _BOKEHJS_SHOWN = True
+def _slug(text) -> str:
+    s = re.sub(r"[^A-Za-z0-9._-]+", "-", str(text)).strip("-.")
+    return s or "explorer"
 
 
 class Explorer(W.VBox):
@@ -154,128 +67,162 @@ class Explorer(W.VBox):
     ----------
     orbits : list of OrbitRecord
     params : dict of str to float
-        Current parameter values (a copy; change them with the sliders or :meth:`set_params`).
     energy : float or None
-        Current energy (assign to change it).
     figures : phaselab.widgets.figures.Figures
-        The bokeh models and their data sources.
+    controls : phaselab.widgets.controls.Controls
+    session : phaselab.widgets.session.Session
     status : str
-        The text of the status line.
+        The text of the status line (without the busy part).
+    busy : list of str
+        What is running now.
+    structures : list
+        Periodic orbits found (with their manifolds).
     """
 
     def __init__(self, system, energy=None, plane=None, solve_for=None, crossings=300, params=None,
                  ranges=None, sign=+1, energy_range=None, color_by=None, color_label=None,
                  background=True, export_dir=".", export_formats=(".png", ".csv"), duration=None,
-                 method="auto", dt=None, title=None):
-        from jupyter_bokeh import BokehModel
-
+                 method="auto", dt=None, title=None, scale=None, session=None):
         from phaselab.widgets.figures import Figures
+        from phaselab.widgets.page import LiveBokehModel, StaticPicture
 
         self.system = system
-        self.view = make_view(system, plane=plane, solve_for=solve_for, crossings=crossings,
-                              ranges=ranges, sign=sign, duration=duration, method=method, dt=dt)
-        self._params = dict(system.params)
+        self._view_options = dict(crossings=crossings, ranges=ranges, duration=duration, method=method, dt=dt)
+        self.view = make_view(system, plane=plane, solve_for=solve_for, sign=sign, **self._view_options)
+        p0 = dict(system.params)
         if params:
             system.param_values(params)  # names and values checked, errors name the problem
-            self._params.update({str(getattr(k, "name", k)): float(v) for k, v in params.items()})
+            p0.update({str(getattr(k, "name", k)): float(v) for k, v in params.items()})
         if self.view.uses_energy and self.view.kind == "section":
             if energy is None:
                 raise ParameterError("a surface of section needs an energy: pass energy=E (units of H)")
-            self._energy = _finite(energy, "energy")
-        else:
-            self._energy = None if energy is None else _finite(energy, "energy")
-        self.color_by = color_by
+            energy = finite_number(energy, "energy")
+        elif energy is not None:
+            energy = finite_number(energy, "energy")
+        self.crossings = int(self.view.crossings)
+        self.session = Session(energy, p0, theme.ORBIT_COLORS)
         self.export_dir = Path(export_dir)
-        allowed = (".png", ".svg", ".pdf", ".csv", ".nc", ".html")
         self.export_formats = tuple(str(f) if str(f).startswith(".") else f".{f}" for f in export_formats)
-        bad = [f for f in self.export_formats if f not in allowed]
+        bad = [f for f in self.export_formats if f not in EXPORT_FORMATS]
         if bad or not self.export_formats:
-            raise ParameterError(f"export_formats must be some of {', '.join(allowed)}; got {export_formats!r}")
-        self.orbits: list[OrbitRecord] = []
-        self._history: list[tuple] = []
-        self._next_id = 1
-        self._version = 0
-        self._selected: int | None = None
-        self._quiet = False
+            raise ParameterError(f"export_formats must be some of {', '.join(EXPORT_FORMATS)}; got {export_formats!r}")
+        self._check_color_by(color_by)
+        self.color_by = color_by
+        self.scale = scales.scale_for(color_by, color_label) if color_by is not None else None
+        if scale is not None and self.scale is not None:
+            self.scale = self.scale.with_limits(*scale)
+        self._scale_fixed = scale is not None or (isinstance(color_by, str) and color_by in scales.DEFAULT_SCALES)
+        self._color_label = color_label
         self.jobs = JobRunner(background)
-        self._cost: float | None = None
+        self.idle_jobs = JobRunner(background)
+        self._loop = _current_loop()
         self.last_timing: dict[str, float] = {}
+        self.last_error = None
+        self._message, self._refused = "", False
+        self._busy: dict[str, str] = {}
+        self._compiling: list[str] = []
+        self._pending = 0
+        self._serial = 0
+        self._frame = None
+        self._fitted = None
+        self.structures: list = []
+        self._quiet = False
+        self._uid = secrets.token_hex(6)
+        self.name = title or getattr(system, "name", "system")
 
-        self.view.fit_ranges(self._energy, self._params)
-        trace_labels = self._trace_labels()
-        self._color_label = (color_label or (color_by if isinstance(color_by, str) else "value")) \
-            if color_by is not None else None
-        self.figures = Figures(self.view.axis_names, self.view.ranges, trace_labels,
-                               scalar_label=self._color_label)
+        self.view.fit_ranges(energy, p0)
+        self._fitted = self.view.ranges
+        self.picture = StaticPicture(self._uid)
+        self.controls = c = Controls(self.name, self.view.describe(), f"pl-readout-{self._uid}",
+                                     self.picture.hide_rule)
+        self.figures = Figures(self.view.axis_labels, self.view.ranges, self.view.panels(), f"pl-readout-{self._uid}")
         from bokeh.events import Tap
 
         self.figures.main.on_event(Tap, self._on_tap)
+        self.figures.probe.on_change("data", self._on_drag)
         self.figures.latest.on_change("data", self._on_drag)
-        self.bokeh = BokehModel(self.figures.layout)
+        self.bokeh = LiveBokehModel(self.figures.layout, combine_events=False)
+        self.bokeh.add_class("pl-plot")
+        # a view built between a display and its first patch may have missed changes: when
+        # the page says a view is ready, send the current document if anything changed
+        self.figures.main.js_on_change("inner_width", self.figures.ready_callback)
+        self.figures.ready.on_change("data", lambda attr, old, new: self.bokeh.refresh(send=True))
+        self.bokeh.refresh(send=True)
 
-        # ---------------------------------------------------------------- controls
-        name = title or getattr(system, "name", "system")
-        self._title = W.HTML(f"<div class='pl-title'>{name}</div><div class='pl-sub'>{self.view.describe()}</div>")
-        self._count = W.HTML("<div class='pl-count'>no orbits yet: click the plot</div>",
-                             layout=W.Layout(width="260px"))
-        slider_style = {"description_width": "90px"}
-        self.sliders: dict[str, W.FloatSlider] = {}
-        rows = []
-        if self.view.uses_energy and self._energy is not None:
-            lo, hi = energy_range if energy_range is not None else self._energy_range(self._energy)
-            lo, hi = _finite(lo, "energy_range low"), _finite(hi, "energy_range high")
+        if self.view.uses_energy and energy is not None:
+            lo, hi = energy_range if energy_range is not None else (energy - (abs(energy) or 1.0),
+                                                                     energy + (abs(energy) or 1.0))
+            lo, hi = finite_number(lo, "energy_range low"), finite_number(hi, "energy_range high")
             if not lo < hi:
                 raise ParameterError(f"energy_range must be (low, high) with low < high, got {energy_range!r}")
-            lo, hi, step = _slider_grid(lo, hi, self._energy)
-            s = W.FloatSlider(value=self._energy, min=lo, max=hi, step=step, description="energy E", readout_format=".4g",
-                              continuous_update=True, style=slider_style, layout=W.Layout(width="420px"))
-            s.observe(self._on_energy_slider, "value")
-            self.sliders["energy"] = s
-            rows.append(s)
-        for p in system.parameters:
-            lo, hi = _slider_range(p)
-            v = self._params[p.name]
-            lo, hi, step = _slider_grid(lo, hi, v)
-            s = W.FloatSlider(value=v, min=lo, max=hi, step=step, description=p.name, readout_format=".4g", continuous_update=True,
-                              style=slider_style, layout=W.Layout(width="420px"))
-            s.observe(self._on_param_slider, "value")
-            self.sliders[p.name] = s
-            rows.append(s)
-        bl = W.Layout(width="84px")
-        self._clear = W.Button(description="Clear", tooltip="Remove every orbit", layout=bl)
-        self._undo = W.Button(description="Undo", tooltip="Take back the last seed or the last clear", layout=bl)
-        self._export = W.Button(description="Export", tooltip="Save figure (PNG) and data (CSV)", layout=bl)
-        self._stem = W.Text(value=f"{name}-section", placeholder="file name", layout=W.Layout(width="180px"))
-        self._clear.on_click(lambda _: self.clear())
-        self._undo.on_click(lambda _: self.undo())
-        self._export.on_click(lambda _: self._export_clicked())
-        self._pick = W.Dropdown(options=[("newest", 0)], value=0, description="trace of",
-                                style={"description_width": "56px"}, layout=W.Layout(width="180px"))
-        self._pick.observe(self._on_pick, "value")
-        self._status = W.HTML("")
-        self._status_text = ""
-        controls = W.HBox([W.VBox(rows, layout=W.Layout(flex="1 1 auto")),
-                           W.VBox([W.HBox([self._clear, self._undo, self._export]),
-                                   W.HBox([self._stem]), self._pick],
-                                  layout=W.Layout(align_items="flex-end"))],
-                          layout=W.Layout(justify_content="space-between", margin="6px 0 4px 0"))
-        header = W.HBox([self._title, self._count], layout=W.Layout(justify_content="space-between"))
-        super().__init__([W.HTML(_CSS), header, self.bokeh, controls, self._status],
+            c.add_slider("energy", "energy E", energy, lo, hi).observe(self._on_energy_slider, "value")
+        for prm in system.parameters:
+            lo, hi = slider_range(prm)
+            c.add_slider(prm.name, prm.name, p0[prm.name], lo, hi).observe(self._on_param_slider, "value")
+        c.stem.value = f"{_slug(self.name)}-{self.view.kind}"
+        c.clear.on_click(lambda _: self.clear())
+        c.undo.on_click(lambda _: self.undo())
+        c.delete.on_click(lambda _: self.delete(self.session.current.id if self.session.current else None))
+        c.more.on_click(lambda _: self.more_crossings())
+        c.pick.observe(self._on_pick, "value")
+        c.export.on_click(lambda _: self._export_clicked())
+        c.save.on_click(lambda _: self._save_clicked())
+        c.load.on_click(lambda _: self._load_clicked())
+        c.clear_structures.on_click(lambda _: self.clear_structures())
+        c.manifolds.observe(lambda ch: self._on_manifolds(ch["new"]), "value")
+        c.equal.observe(lambda ch: self.set_equal_aspect(ch["new"]), "value")
+        self._fill_view_controls()
+        c.plane.observe(self._on_plane_control, "value")
+        c.plane_value.observe(self._on_plane_control, "value")
+        c.axes.observe(self._on_plane_control, "value")
+        c.direction.observe(self._on_plane_control, "value")
+        options = [("own colours", "")] + [(n, n) for n in ("megno", "lyapunov", "fli", "sali", "frequency",
+                                                            "diffusion")]
+        if color_by is not None and not (isinstance(color_by, str) and color_by in dict(options).values()):
+            options.append((color_label or (color_by if isinstance(color_by, str) else "custom value"), "custom"))
+        c.color.options = options
+        c.color.value = "" if color_by is None else (color_by if isinstance(color_by, str) and
+                                                     color_by in dict(options).values() else "custom")
+        self._custom_color = color_by if c.color.value == "custom" else None
+        c.color.observe(self._on_color_control, "value")
+        for w in (c.low, c.anchor, c.high):
+            w.observe(self._on_scale_control, "value")
+        self._show_scale()
+
+        has_plane = self.view.kind == "section" and system.dof == 2
+        has_structures = self.view.kind in ("section", "map", "strobe")
+        super().__init__(c.layout(self.bokeh, self.view.kind, has_plane, has_structures),
                          layout=W.Layout(width="fit-content"))
         self.add_class("phaselab-explorer")
-        self._apply_frame(self.view.frame(self._energy, self._params))
+        with self._held():
+            self._frame = self.view.frame(energy, p0)
+            self.figures.set_frame(self._frame)
+            self.figures.color_by_value(self.scale)
         self._say("Click the plot to start an orbit; drag the ringed seed to move it.")
+        self._draw_all()
+        from phaselab.codegen import progress
+
+        self._progress = progress
+        progress.add_listener(self._on_compile_event)
+        for what in progress.active():
+            self._compiling.append(what)
         if self.jobs.background:
             self._warm_up()
+        if session is not None:
+            self.load_session(session)
 
     # ================================================================= public surface
     @property
+    def orbits(self):
+        return self.session.orbits
+
+    @property
     def params(self) -> dict:
-        return dict(self._params)
+        return dict(self.session.params)
 
     @property
     def energy(self):
-        return self._energy
+        return self.session.energy
 
     @energy.setter
     def energy(self, value):
@@ -283,94 +230,176 @@ class Explorer(W.VBox):
 
     @property
     def status(self) -> str:
-        return self._status_text
+        return self._message
+
+    @property
+    def busy(self) -> list:
+        return self._busy_lines()
+
+    @property
+    def sliders(self):
+        return self.controls.sliders
+
+    @property
+    def _stem(self):
+        return self.controls.stem
 
     def add_seed(self, x, y):
-        """Start an orbit at ``(x, y)`` in the shown plane; returns its record (or None if refused)."""
+        """Start an orbit at ``(x, y)`` in the shown plane; returns its record when computed at
+        once (``background=False``), else None (see :meth:`wait`)."""
         out = self.add_seeds([(x, y)])
         return out[0] if out else None
 
-    def add_seeds(self, points):
-        """Start orbits at several points ``[(x, y), ...]``; returns the accepted records.
-
-        Points outside the allowed region (or not finite) are refused with a message.
-        """
+    def add_seeds(self, points, crossings=None):
+        """Start orbits at several points ``[(x, y), ...]``. Points outside the allowed region
+        (or not finite) are refused with a message. Returns the accepted records when they
+        were computed at once (``background=False``), else ``[]``."""
         try:
             pts = np.atleast_2d(np.asarray(points, dtype=float))
-            if pts.ndim != 2 or pts.shape[1] != 2:
+            if pts.ndim != 2 or pts.shape[1] != 2 or len(pts) == 0:
                 raise ParameterError(f"seeds must be (x, y) pairs in the shown plane, got shape {pts.shape}")
-            seeding = self.view.seeds(pts, self._energy, self._params)
-        except (PhaselabError, ValueError, TypeError) as exc:
+        except (ValueError, TypeError, ParameterError) as exc:
             self._say(f"Seed refused: {exc}", refused=True)
             return []
-        records = []
-        refused = []
-        for k, (x, y) in enumerate(pts):
-            if not seeding.valid[k]:
-                refused.append((x, y, seeding.reasons[k]))
-                continue
-            rec = OrbitRecord(id=self._next_id, seed=(float(x), float(y)), state=seeding.states[k].copy(),
-                              color=theme.orbit_color(self._next_id - 1))
-            self._next_id += 1
-            records.append(rec)
-        if refused:
-            x, y, why = refused[0]
-            more = f" ({len(refused)} points refused)" if len(refused) > 1 else ""
-            self._say(f"No orbit at ({x:.4g}, {y:.4g}): {why}{more}.", refused=True)
-        if not records:
-            return []
-        self.orbits.extend(records)
-        self._history.append(("add", [r.id for r in records]))
-        self._selected = None
-        with self._held():
-            self._render_seeds()
-            self._compute_orbits(records, key=f"orbits-{records[0].id}", stream=True)
-        self._update_pick()
-        return records
+        n = len(pts)
+        cross = self.crossings if crossings is None else crossings
+        view, energy, params, color = self.view, self.session.energy, self.params, self._color_spec()
+        setting = self._setting_key()
+        self._serial += 1
+        self._pending += n
+        self._count()
+        t_asked = time.perf_counter()
+        accepted = []
 
-    def _held(self):
-        """Collect the bokeh changes made inside into one message to the page."""
-        from contextlib import contextmanager
+        def compute():
+            return tasks.seed_and_orbits(view, pts, energy, params, cross, color)
 
-        doc = self.figures.main.document
-
-        @contextmanager
-        def hold():
-            if doc is None:
-                yield
+        def deliver(out: Outcome):
+            self._pending -= n
+            if out.error is not None:
+                self._report(out)
+                self._count()
                 return
-            doc.hold("combine")
-            try:
-                yield
-            finally:
-                doc.unhold()
-        return hold()
+            batch = out.value
+            if view is not self.view:  # the plane changed meanwhile: these points meant another plane
+                self._count()
+                return
+            refused = [(pts[k], why) for k, why in enumerate(batch.reasons) if why]
+            records = []
+            for k, part in enumerate(batch.parts):
+                if part is None:
+                    continue
+                rec = self.session.new_record(pts[k], batch.states[k],
+                                              np.broadcast_to(np.asarray(cross), (n,))[k])
+                self._apply(rec, part)
+                records.append(rec)
+            if records:
+                previous = self.session.newest
+                self.session.add(records)
+                self._draw_added(previous, records)
+                self._update_pick()
+            accepted.extend(records)
+            self.last_timing["orbit"] = time.perf_counter() - t_asked
+            self.last_timing["orbit_compute"] = out.seconds
+            self.last_timing["shown_wall"] = time.time()
+            if refused:
+                (x, y), why = refused[0]
+                more = f" ({len(refused)} points refused)" if len(refused) > 1 else ""
+                self._say(f"No orbit at ({self._num(x, 0)}, {self._num(y, 1)}): {why}{more}.", refused=True)
+            elif records:
+                self._say(self._orbit_message(records, out.seconds), refused=bool(records[-1].note))
+            if batch.value_error:
+                self._say(f"{self._message} Colour values failed: {batch.value_error}", refused=True)
+            if records and setting != self._setting_key():
+                self._recompute([r.id for r in records])
+            self._count()
+            if records:
+                self._update_trace()
+                self._schedule_picture()
+
+        self._submit(f"seeds-{self._serial}", f"computing {n} orbit{'s' if n != 1 else ''}", compute, deliver)
+        return accepted
+
+    def move_seed(self, x, y):
+        """Move the newest seed to ``(x, y)`` and recompute its orbit (what a drag does; the
+        newest request wins)."""
+        rec = self.session.newest
+        if rec is None:
+            return
+        rid, view, energy, params, color = rec.id, self.view, self.session.energy, self.params, self._color_spec()
+        crossings = rec.crossings
+        t_asked = time.perf_counter()
+
+        def compute():
+            return tasks.seed_and_orbits(view, [(x, y)], energy, params, crossings, color)
+
+        def deliver(out: Outcome):
+            if out.error is not None:
+                self._report(out)
+                return
+            now = self.session.get(rid)
+            batch = out.value
+            if now is None or view is not self.view or now is not self.session.newest:
+                return
+            if batch.parts[0] is None:
+                self._say(f"Cannot move the seed to ({self._num(x, 0)}, {self._num(y, 1)}): {batch.reasons[0]}.",
+                          refused=True)
+                return
+            self.session.move(rid, (x, y), batch.states[0])
+            self._apply(now, batch.parts[0])
+            self._draw_newest()
+            self.last_timing["drag"] = time.perf_counter() - t_asked
+            self._say(self._orbit_message([now], out.seconds), refused=bool(now.note))
+            self._update_trace()
+            self._schedule_picture()
+
+        self._submit("drag", f"moving orbit {rid}", compute, deliver)
 
     def undo(self):
-        """Take back the last action: the last seeds added, or the last clear."""
-        if not self._history:
-            self._say("Nothing to undo.")
-            return
-        kind, payload = self._history.pop()
-        if kind == "add":
-            ids = set(payload)
-            self.orbits = [o for o in self.orbits if o.id not in ids]
-            self._say(f"Removed {len(ids)} orbit{'s' if len(ids) > 1 else ''}.")
-        else:
-            self.orbits = payload + self.orbits
-            self._say(f"Restored {len(payload)} orbits.")
-            self._recompute_all()
-        self._redraw()
+        """Take back the last action: seeds added, an orbit deleted, or a clear."""
+        change = self.session.undo()
+        self._after(change)
 
     def clear(self):
         """Remove every orbit (Undo brings them back)."""
-        if self.orbits:
-            self._history.append(("clear", list(self.orbits)))
-        self.orbits = []
-        self.jobs.cancel()
-        self._version += 1
-        self._redraw()
-        self._say("Cleared.")
+        for key in list(self._busy):
+            if key.startswith("seeds-") or key in ("drag", "all"):
+                self.jobs.cancel(key)
+        change = self.session.clear()
+        self._after(change)
+
+    def delete(self, orbit_id=None):
+        """Remove one orbit (default the selected one); Undo brings it back."""
+        if orbit_id is None:
+            self._say("No orbit to delete.", refused=True)
+            return
+        self._after(self.session.remove(orbit_id))
+
+    def more_crossings(self, orbit_id=None, factor=2):
+        """Compute ``factor`` times as many crossings for one orbit (default the selected one)."""
+        rec = self.session.get(orbit_id) if orbit_id is not None else self.session.current
+        if rec is None:
+            self._say("No orbit selected.", refused=True)
+            return
+        change = self.session.more_crossings(rec.id, factor)
+        self._say(change.message, refused=change.refused)
+        if change.recompute:
+            self._recompute(change.recompute)
+
+    def select(self, orbit_id):
+        """Highlight orbit ``orbit_id`` and show it in the companion panels (None: the newest)."""
+        change = self.session.select(orbit_id)
+        if change.refused:
+            self._say(change.message, refused=True)
+            return
+        self._quiet = True
+        try:
+            self.controls.pick.value = orbit_id or 0
+        finally:
+            self._quiet = False
+        with self._held():
+            self._draw_selected()
+        self._update_trace()
 
     def set_energy(self, value):
         """Change the energy and recompute every orbit at it."""
@@ -378,71 +407,303 @@ class Explorer(W.VBox):
             self._say("This plot has no energy to set.", refused=True)
             return
         try:
-            value = _finite(value, "energy")
+            change = self.session.set_energy(value)
         except ParameterError as exc:
             self._say(str(exc), refused=True)
             self._sync_sliders()
             return
-        self._energy = value
         self._sync_sliders()
-        self._recompute_all()
+        if change.setting:
+            self._recompute_all()
 
     def set_params(self, **values):
         """Change parameter values by name and recompute every orbit."""
         try:
-            new = {k: _finite(v, f"parameter {k!r}") for k, v in values.items()}
-            self.system.param_values({**self._params, **new})
+            self.system.param_values({**self.session.params, **{k: v for k, v in values.items()
+                                                                if k in self.session.params}})
+            change = self.session.set_params(values)
         except PhaselabError as exc:
             self._say(str(exc), refused=True)
             self._sync_sliders()
             return
-        self._params.update(new)
         self._sync_sliders()
-        self._recompute_all()
+        if change.setting:
+            self._recompute_all()
 
-    def select(self, orbit_id):
-        """Show orbit ``orbit_id`` in the companion views."""
-        if not any(o.id == orbit_id for o in self.orbits):
-            self._say(f"There is no orbit {orbit_id}.", refused=True)
-            return
-        self._selected = orbit_id
+    def set_color(self, color_by, low=None, anchor=None, high=None):
+        """Colour orbits by ``color_by`` (an indicator, "frequency", "diffusion", None for
+        their own colours) on a fixed scale; the values are computed in the worker."""
+        self._check_color_by(color_by)
+        self.color_by = color_by
+        self.scale = scales.scale_for(color_by) if color_by is not None else None
+        self._scale_fixed = isinstance(color_by, str) and color_by in scales.DEFAULT_SCALES
+        if self.scale is not None and any(v is not None for v in (low, anchor, high)):
+            self.scale = self.scale.with_limits(low, anchor, high)
+            self._scale_fixed = True
         self._quiet = True
         try:
-            self._pick.value = orbit_id
+            self.controls.color.value = color_by if isinstance(color_by, str) and color_by in dict(
+                self.controls.color.options).values() else ("" if color_by is None else "custom")
         finally:
             self._quiet = False
-        self._compute_trace()
+        self._show_scale()
+        with self._held():
+            self.figures.color_by_value(self.scale)
+            self._draw_seeds()
+        if color_by is not None and self.session.orbits:
+            self._recompute_all(frame=False, what=f"computing {color_by} of {len(self.session.orbits)} orbits")
+
+    def set_scale(self, low=None, anchor=None, high=None):
+        """Move the colour scale's ends or its split value (nothing is recomputed)."""
+        if self.scale is None:
+            self._say("Orbits are in their own colours; choose a value to colour by first.", refused=True)
+            return
+        try:
+            self.scale = self.scale.with_limits(low, anchor, high)
+        except ParameterError as exc:
+            self._say(str(exc), refused=True)
+            self._show_scale()
+            return
+        self._scale_fixed = True
+        with self._held():
+            self.figures.color_by_value(self.scale)
+            self._draw_seeds()
+        self._schedule_picture()
+
+    def set_view(self, plane=None, solve_for=None, sign=None):
+        """Change the section plane, the solved component (and so the shown pair of axes) or
+        the crossing direction; every orbit is followed from its current state and shown on
+        the new plane."""
+        if self.view.kind != "section":
+            self._say("Only a surface of section has a plane to choose.", refused=True)
+            return
+        plane = dict(self.view.plane) if plane is None else plane
+        solve_for = self.view.solve_for if solve_for is None else solve_for
+        sign = self.view.sign if sign is None else sign
+        try:
+            view = make_view(self.system, plane=plane, solve_for=solve_for, sign=sign, **self._view_options)
+        except PhaselabError as exc:
+            self._say(f"View refused: {exc}", refused=True)
+            self._fill_view_controls()
+            return
+        old = self.view
+        self.view = view
+        self.session.invalidate()
+        energy, params, color = self.session.energy, self.params, self._color_spec()
+        records = [(o.id, o.state, o.crossings, o.revision) for o in self.session.orbits if o.state is not None]
+
+        def compute():
+            view.fit_ranges(energy, params)
+            frame = view.frame(energy, params)
+            batch = tasks.orbits(view, np.array([r[1] for r in records]), energy, params,
+                                 [r[2] for r in records], color) if records else None
+            return frame, batch
+
+        def deliver(out: Outcome):
+            if self.view is not view:
+                return
+            if out.error is not None:
+                self.view = old
+                self._report(out, what="view")
+                self._fill_view_controls()
+                return
+            frame, batch = out.value
+            self._fitted = view.ranges
+            self._frame = frame
+            self.figures.set_frame(frame)
+            self.figures.set_ranges(self._aspect_ranges(view.ranges))
+            self.figures.set_axis_labels(view.axis_labels)
+            self.controls.set_title(self.name, view.describe())
+            lost = []
+            for k, (rid, _, _, rev) in enumerate(records):
+                rec = self.session.get(rid)
+                if rec is None or rec.revision != rev:
+                    continue
+                part = batch.parts[k]
+                if part is None or not len(part.points):
+                    rec.state, rec.points, rec.note = None, np.empty((0, 2)), "never crossed this plane"
+                    lost.append(rid)
+                    continue
+                first = part.section.points[0, 0]
+                rec.seed = (float(part.points[0, 0]), float(part.points[0, 1]))
+                rec.state = np.asarray(first, float).copy()
+                self._apply(rec, part)
+            self._draw_all()
+            msg = f"Now showing {view.describe()}."
+            if lost:
+                msg += f" Orbits {', '.join(map(str, lost))} never crossed this plane and are hidden."
+            self._say(msg, refused=bool(lost))
+            self._update_trace()
+            self._schedule_picture()
+
+        self._submit("view", "computing the new plane", compute, deliver)
+
+    def set_equal_aspect(self, on=True):
+        """Show both axes at the same scale (the window widens along one axis)."""
+        self._equal = bool(on)
+        self._quiet = True
+        try:
+            self.controls.equal.value = bool(on)
+        finally:
+            self._quiet = False
+        self.figures.set_ranges(self._aspect_ranges(self.figures.view_ranges if on else self._fitted))
+        self._schedule_picture()
+
+    def find_periodic_orbit(self, x, y, period=None):
+        """Find the periodic orbit of ``period`` (default the control's) nearest ``(x, y)``;
+        it is marked with its stability's shape and its residue is shown in the status."""
+        k = int(self.controls.period.value if period is None else period)
+        view, energy, params = self.view, self.session.energy, self.params
+        manifolds = bool(self.controls.manifolds.value)
+
+        def compute():
+            return tasks.periodic(view, (x, y), k, energy, params, manifolds=manifolds)
+
+        def deliver(out: Outcome):
+            if view is not self.view:
+                return
+            if out.error is not None:
+                why = out.error if isinstance(out.error, PhaselabError) else f"{type(out.error).__name__}: {out.error}"
+                self._say(f"No period-{k} orbit found near ({self._num(x, 0)}, {self._num(y, 1)}): {why}",
+                          refused=True)
+                return
+            found = out.value
+            self.structures.append(found)
+            self._draw_structures()
+            self._say(messages.periodic(found, view.kind, view.ranges))
+            self._schedule_picture()
+
+        self._submit("periodic", f"searching a period-{k} orbit", compute, deliver)
+
+    def clear_structures(self):
+        self.structures = []
+        self._draw_structures()
+        self._say("Removed the periodic orbits and manifolds.")
 
     def section(self):
         """All shown orbits as one :class:`~phaselab.compute.results.Section` (None if none)."""
         from phaselab.widgets.records import merge_sections
 
-        return merge_sections([o.section for o in self.orbits if o.section is not None and o.state is not None])
+        return merge_sections([o.section for o in self.session.orbits if o.section is not None and o.state is not None])
+
+    def snapshot(self):
+        """What the plot shows now, as plain numbers (:class:`phaselab.widgets.picture.Snapshot`)."""
+        from phaselab.widgets.picture import Snapshot
+
+        shown = self.session.shown()
+        frame = self._frame
+        forbidden = None
+        if frame is not None and frame.forbidden is not None:
+            forbidden = (frame.grid_x, frame.grid_y, frame.forbidden)
+        ring = self._ring_colors(shown)
+        manifolds = {}
+        for f in self.structures:
+            for branch, lines in f.manifolds:
+                manifolds.setdefault(branch, []).extend(lines)
+        setting = self._setting_text(self.session.energy, self.session.params)
+        return Snapshot(
+            title=self.name, subtitle=f"{self.view.describe()}; {setting}",
+            labels=self.view.axis_labels, ranges=self.figures.view_ranges,
+            lines=list(frame.lines) if frame else [], accents=list(frame.accents) if frame else [],
+            forbidden=forbidden,
+            orbits=[(o.points, o.color, o.scalar) for o in shown],
+            seeds=[(o.seed[0], o.seed[1], c) for o, c in zip(shown, ring)],
+            stops=[o.stop for o in shown if o.stop is not None],
+            periodic=[(float(a), float(b), f.orbit.stability) for f in self.structures for a, b in f.points],
+            manifolds=manifolds, scale=self.scale,
+            footer=f"{len(shown)} orbits. Model results: confirm with validated tools before they inform a design.",
+            equal_aspect=getattr(self, "_equal", False))
 
     def export(self, stem=None, formats=None):
-        """Save the figure and the data with :func:`phaselab.export.save` in ``formats``
-        (default the explorer's ``export_formats``); returns the paths."""
+        """Save what the plot shows: figures (.png .svg .pdf) of the current window with
+        everything drawn, data (.csv .nc) and an interactive page (.html) of the orbits.
+        Runs in the calling thread; returns the paths."""
         from phaselab.export import save
+        from phaselab.widgets.picture import write_figure
 
         sec = self.section()
         if sec is None:
             raise PhaselabError("there are no orbits to export yet")
-        stem = (stem or self._stem.value or "section").strip()
+        stem = (stem or self.controls.stem.value or "section").strip()
         if not stem or any(c in stem for c in "/\\") or stem.startswith("."):
             raise PhaselabError(f"file name {stem!r} must be a plain name without folders")
+        stem = _slug(stem)
+        snap = self.snapshot()
         paths = []
         for suffix in formats or self.export_formats:
-            kwargs = {}
-            if suffix in (".png", ".svg", ".pdf", ".html"):
-                if self.color_by is not None:
-                    kwargs["color"] = np.array([o.scalar for o in self.orbits if o.section is not None and o.state is not None])
-                    kwargs["color_label"] = self._color_label
-            paths.append(save(sec, self.export_dir / f"{stem}{suffix}", **kwargs))
+            path = self.export_dir / f"{stem}{suffix}"
+            if suffix in (".png", ".svg", ".pdf"):
+                paths.append(write_figure(snap, path))
+            elif suffix == ".html":
+                paths.append(save(sec, path, title=self.name, overlays=[c for c in snap.accents]))
+            else:
+                paths.append(save(sec, path))
         return paths
+
+    def save_session(self, path):
+        """Write seeds, energy, parameters, view and colouring to a JSON file (see
+        :mod:`phaselab.widgets.session`); returns the path."""
+        return write_session(path, self.session.to_dict(self.name, self.view.kind, self._view_dict(),
+                                                         self._color_dict()))
+
+    def load_session(self, path):
+        """Restore a session file: energy, parameters, view, colouring and orbits."""
+        data = read_session(path)
+        v = data.get("view") or {}
+        if data.get("kind") != self.view.kind:
+            raise ParameterError(f"{path}: kind: the file holds a {data.get('kind')} view, this explorer shows "
+                                 f"a {self.view.kind}")
+        unknown = [k for k in data["params"] if k not in self.session.params]
+        if unknown:
+            raise ParameterError(f"{path}: params: {', '.join(unknown)} not parameters of this system")
+        if self.view.kind == "section" and (v.get("plane") or v.get("solve_for") or v.get("direction")):
+            plane = {str(k): float(x) for k, x in (v.get("plane") or self.view.plane).items()}
+            view = make_view(self.system, plane=plane, solve_for=v.get("solve_for") or self.view.solve_for,
+                             sign=int(v.get("direction") or self.view.sign), **self._view_options)
+            self.view = view
+            self.figures.set_axis_labels(view.axis_labels)
+            self.controls.set_title(self.name, view.describe())
+            self._fill_view_controls()
+        self.session.clear()
+        self.session.history.clear()
+        self.session.params.update(data["params"])
+        if data.get("energy") is not None and self.view.uses_energy:
+            self.session.energy = data["energy"]
+        self._sync_sliders()
+        col = data.get("color") or {}
+        by = col.get("by")
+        if by in scales.DEFAULT_SCALES:
+            self.color_by = by
+            self.scale = scales.scale_for(by).with_limits(col.get("low"), col.get("anchor"), col.get("high"))
+        elif by is None:
+            self.color_by, self.scale = None, None
+        self.figures.color_by_value(self.scale)
+        self._show_scale()
+        rng = v.get("ranges")
+        if not rng or not self.jobs.background:
+            self.view.fit_ranges(self.session.energy, self.session.params)
+        self._fitted = self.view.ranges
+        self._equal = bool(v.get("equal_aspect", False))
+        self.figures.set_ranges(tuple(tuple(map(float, r)) for r in rng) if rng else self._fitted)
+        self._draw_all()
+        self._recompute_all(frame=True, keep_ranges=True)
+        by_crossings = {}
+        for o in data["orbits"]:
+            by_crossings.setdefault(o["crossings"], []).append(o["seed"])
+        for c, seeds in by_crossings.items():
+            self.add_seeds(seeds, crossings=c)
+        self._say(f"Restored {len(data['orbits'])} orbits from {path}.")
 
     def wait(self, timeout=60.0) -> bool:
         """Block until pending computations are done and shown (scripts and tests)."""
-        return self.jobs.wait(timeout)
+        end = time.monotonic() + timeout
+        while True:
+            ok = self.jobs.wait(max(end - time.monotonic(), 0.0)) and \
+                self.idle_jobs.wait(max(end - time.monotonic(), 0.0))
+            if not ok:
+                return False
+            if not self.jobs.busy and not self.idle_jobs.busy:
+                return True
 
     # ================================================================= events
     def _on_tap(self, event):
@@ -450,42 +711,24 @@ class Explorer(W.VBox):
         x, y = event.x, event.y
         if x is None or y is None:
             return
-        self.add_seed(x, y)
+        if self.controls.click.value == "periodic":
+            self.find_periodic_orbit(x, y)
+        else:
+            self.add_seed(x, y)
 
     def _on_drag(self, attr, old, new):
-        if self._quiet or not self.orbits:
+        if self._quiet or not self.session.orbits:
             return
         xs, ys = list(new.get("x", [])), list(new.get("y", []))
-        rec = self.orbits[-1]
         if len(xs) != 1 or len(ys) != 1:
-            self._render_seeds()  # a deleted or added point: put the newest seed back
             return
         try:
             x, y = float(xs[0]), float(ys[0])
         except (TypeError, ValueError):
             return
-        if (x, y) == rec.seed:
+        if (x, y) == self.session.newest.seed:
             return
         self.move_seed(x, y)
-
-    def move_seed(self, x, y):
-        """Move the newest seed to ``(x, y)`` and recompute its orbit (what a drag does)."""
-        if not self.orbits:
-            return
-        rec = self.orbits[-1]
-        try:
-            seeding = self.view.seeds([(x, y)], self._energy, self._params)
-        except PhaselabError as exc:
-            self._say(f"Seed refused: {exc}", refused=True)
-            return
-        if not seeding.valid[0]:
-            self._say(f"Cannot move the seed to ({x:.4g}, {y:.4g}): {seeding.reasons[0]}.", refused=True)
-            return
-        rec.seed = (float(x), float(y))
-        rec.state = seeding.states[0].copy()
-        rec.revision += 1
-        self._render_seeds(keep_latest=True)
-        self._compute_orbits([rec], key="drag", delay=0.02)
 
     @staticmethod
     def _same(a, b):
@@ -496,7 +739,7 @@ class Explorer(W.VBox):
             return False
 
     def _on_energy_slider(self, change):
-        if self._quiet or self._same(change["new"], self._energy):
+        if self._quiet or self._same(change["new"], self.session.energy):
             return
         self.set_energy(change["new"])
 
@@ -504,239 +747,273 @@ class Explorer(W.VBox):
         if self._quiet:
             return
         name = next(k for k, s in self.sliders.items() if s is change["owner"])
-        if self._same(change["new"], self._params[name]):
+        if self._same(change["new"], self.session.params[name]):
             return
         self.set_params(**{name: change["new"]})
 
     def _on_pick(self, change):
         if self._quiet:
             return
-        self._selected = change["new"] or None
-        self._compute_trace()
+        self.select(change["new"] or None)
+
+    def _on_color_control(self, change):
+        if self._quiet:
+            return
+        v = change["new"]
+        self.set_color(None if v == "" else (self._custom_color if v == "custom" else v))
+
+    def _on_scale_control(self, change):
+        if self._quiet or self.scale is None:
+            return
+        c = self.controls
+        self.set_scale(c.low.value, c.anchor.value if self.scale.anchor is not None else None, c.high.value)
+
+    def _on_manifolds(self, on):
+        if self._quiet or not on:
+            self._draw_structures()
+            return
+        todo = [f for f in self.structures if f.orbit.stability in ("unstable", "inverse-unstable") and not f.manifolds]
+        if not todo:
+            return
+        view = self.view
+
+        def compute():
+            return [tasks.grow_manifolds(view, f.orbit) for f in todo]
+
+        def deliver(out: Outcome):
+            if out.error is not None:
+                self._report(out, what="manifolds")
+                return
+            for f, (lines, note) in zip(todo, out.value):
+                f.manifolds, f.manifold_note = lines, note
+            self._draw_structures()
+            notes = [f.manifold_note for f in todo if f.manifold_note]
+            self._say("Drew the manifolds" + (f" ({'; '.join(notes)})." if notes else "."))
+
+        self._submit("manifolds", "growing manifolds", compute, deliver)
+
+    def _on_plane_control(self, change):
+        if self._quiet:
+            return
+        c = self.controls
+        comp = c.plane.value
+        pair = c.axes.value
+        if comp is None or pair is None:
+            return
+        rest = [n for n in self.view.names if n != comp and n not in pair]
+        if len(rest) != 1:
+            self._fill_view_controls()
+            return
+        self.set_view(plane={comp: float(c.plane_value.value)}, solve_for=rest[0], sign=int(c.direction.value))
+
+    def _on_compile_event(self, event, what):
+        # called from any thread: hand it to the widgets' thread
+        def apply():
+            if event == "start":
+                self._compiling.append(what)
+            elif what in self._compiling:
+                self._compiling.remove(what)
+            self._show_status()
+
+        self.jobs.call_soon(apply, self._loop)
 
     def _export_clicked(self):
-        try:
-            paths = self.export()
-        except PhaselabError as exc:
-            self._say(f"Export: {exc}", refused=True)
+        if self.section() is None:
+            self._say("Export: there are no orbits to export yet.", refused=True)
             return
-        self._say("Saved " + ", ".join(str(p) for p in paths))
+        stem, formats = self.controls.stem.value, self.export_formats
+        try:
+            snap_check = _slug((stem or "section").strip())
+        except Exception:
+            snap_check = "section"
+        if not stem.strip() or any(c in stem for c in "/\\") or stem.strip().startswith("."):
+            self._say(f"Export: file name {stem!r} must be a plain name without folders.", refused=True)
+            return
+
+        def compute():
+            return self.export(snap_check, formats)
+
+        def deliver(out: Outcome):
+            if out.error is not None:
+                self._report(out, what="export")
+                return
+            self._say("Saved " + ", ".join(str(p) for p in out.value))
+
+        self._submit("export", "saving files", compute, deliver)
+
+    def _save_clicked(self):
+        try:
+            path = self.save_session(self.export_dir / self.controls.session_path.value.strip())
+        except PhaselabError as exc:
+            self._say(f"Session not saved: {exc}", refused=True)
+            return
+        self._say(f"Saved the session to {path}.")
+
+    def _load_clicked(self):
+        try:
+            self.load_session(self.export_dir / self.controls.session_path.value.strip())
+        except PhaselabError as exc:
+            self._say(f"Session not loaded: {exc}", refused=True)
 
     # ================================================================= computing
-    def _compute_orbits(self, records, key, stream=False, delay=0.0):
-        states = np.array([r.state for r in records])
-        wanted = [(r.id, r.revision) for r in records]
-        energy, params, version = self._energy, dict(self._params), self._version
-        t_asked = time.perf_counter()
+    def _submit(self, key, busy, compute, deliver, delay=0.0, runner=None):
+        """Queue ``compute`` for the worker; ``busy`` says what runs meanwhile; the bokeh
+        changes of ``deliver`` reach the page as one message."""
+        if busy:
+            self._busy[key] = busy
+            self._show_status()
 
-        def compute():
-            return self.view.compute(states, energy, params)
-
-        def deliver(out: Outcome):
-            if version != self._version:
-                return
-            if out.error is not None:
-                self._report(out)
-                return
-            self._learn_cost(out, len(wanted))
-            live = {o.id: o for o in self.orbits}
-            fresh = []
-            for k, (oid, rev) in enumerate(wanted):
-                rec = live.get(oid)
-                if rec is None or rec.revision != rev:
-                    continue
-                self._store(rec, out.value, k)
-                fresh.append(rec)
-            if not fresh:
-                return
-            if stream and len(fresh) == len(wanted):
-                self._stream_points(fresh)
-            else:
-                self._render_points()
-            self.last_timing["orbit"] = time.perf_counter() - t_asked
-            self.last_timing["orbit_compute"] = out.seconds
-            self.last_timing["shown_wall"] = time.time()
-            n = int(sum(len(r.points) for r in fresh))
-            rec = fresh[-1]
-            extra = f" (stopped: {rec.note})" if rec.note else ""
-            self._say(f"Orbit {rec.id}: {len(rec.points)} {self.view.noun} from "
-                      f"({rec.seed[0]:.4g}, {rec.seed[1]:.4g}) in {out.seconds * 1000:.0f} ms{extra}."
-                      if len(fresh) == 1 else f"{len(fresh)} orbits, {n} {self.view.noun}.")
-            self._update_count()
-            self._compute_trace()
-
-        budget = INLINE_BUDGET * len(records)
-        if stream and self.jobs.background and self._cost is not None and self._cost * len(records) < budget:
-            # cheap enough to answer a click at once (well under the ~100 ms the event loop
-            # may be held): no thread hop, one combined message to the page
-            self.jobs.submit_inline(compute, deliver)
-        else:
-            self._submit(key, compute, deliver, delay=delay)
-
-    def _submit(self, key, compute, deliver, delay=0.0):
-        """Queue ``compute`` for the worker; its bokeh changes reach the page as one message."""
         def held(out):
+            self._busy.pop(key, None)
+            if out.error is not None:
+                self.last_error = out
             with self._held():
                 deliver(out)
-        self.jobs.submit(key, compute, held, delay=delay)
+            self._show_status()
 
-    def _learn_cost(self, out: Outcome, n_orbits: int):
-        """Running estimate of the seconds one orbit's computation takes."""
-        if out.error is None and n_orbits > 0:
-            self._cost = out.seconds / n_orbits  # the latest one (the first includes compiling)
+        (runner or self.jobs).submit(key, compute, held, delay=delay)
 
-    def _store(self, rec, sec, k):
-        from phaselab.widgets.records import one_orbit
-
-        part = one_orbit(sec, k)
-        i, j = self.view.axes
-        pts = part.points[0, : int(part.counts[0])]
-        rec.points = np.column_stack([pts[:, i], pts[:, j]]) if len(pts) else np.empty((0, 2))
-        rec.section = part
-        rec.note = "escaped or stopped early" if bool(part.escaped[0]) else ""
-        rec.scalar = self._scalar(part)
-
-    def _scalar(self, part):
-        if self.color_by is None:
-            return float("nan")
-        try:
-            if isinstance(self.color_by, str) and self.color_by in CHAOS_INDICATORS:
-                return self._indicator(part)
-            if callable(self.color_by):
-                return float(np.ravel(self.color_by(part))[0])
-            return float(np.ravel(getattr(part, self.color_by))[0])
-        except Exception as exc:  # a user function: report, never break the widget
-            self._say(f"color_by failed: {exc}", refused=True)
-            return float("nan")
-
-    def _indicator(self, part):
-        """A chaos indicator of the orbit's seed, over the time its section points span."""
-        from phaselab.compute.chaos import chaos_indicators
-
-        count = int(part.counts[0])
-        if count == 0:
-            return float("nan")
-        is_map = getattr(self.system, "kind", "flow") == "map"
-        span = float(count) if is_map else float(part.times[0, count - 1])
-        if not span > 0:
-            return float("nan")
-        seed = part.seeds[:, : len(self.system.state_symbols)]
-        options = {} if is_map else {"dt": part.dt, "method": part.method}
-        ind = chaos_indicators(self.system, seed, span, params=dict(self._params),
-                               vectors=2 if self.color_by == "sali" else 1, **options)
-        return float(getattr(ind, self.color_by)[0])
-
-    def _recompute_all(self):
-        self._version += 1
-        version = self._version
-        energy, params = self._energy, dict(self._params)
-        snapshot = [(o.id, o.seed) for o in self.orbits]
-        view = self.view
+    def _recompute_all(self, frame=True, what=None, keep_ranges=False):
+        n = len(self.session.orbits)
+        view, energy, params, color = self.view, self.session.energy, self.params, self._color_spec()
+        snapshot = [(o.id, o.seed, o.crossings, o.revision) for o in self.session.orbits]
         t_asked = time.perf_counter()
 
         def compute():
-            frame = view.frame(energy, params)
-            if not snapshot:
-                return frame, None, None
-            seeding = view.seeds([s for _, s in snapshot], energy, params)
-            sec = None
-            if seeding.valid.any():
-                sec = view.compute(seeding.states[seeding.valid], energy, params)
-            return frame, seeding, sec
+            return tasks.recompute(view, [s for _, s, _, _ in snapshot], energy, params,
+                                   [c for _, _, c, _ in snapshot], color, frame=frame)
 
         def deliver(out: Outcome):
-            if version != self._version:
+            if view is not self.view:
                 return
             if out.error is not None:
                 self._report(out)
                 return
-            frame, seeding, sec = out.value
-            if sec is not None:
-                self._learn_cost(out, sec.n_orbits)
-            self._apply_frame(frame)
-            hidden = 0
-            if seeding is not None:
-                live = {o.id: o for o in self.orbits}
-                row = 0
-                for k, (oid, _) in enumerate(snapshot):
-                    rec = live.get(oid)
-                    if not seeding.valid[k]:
-                        if rec is not None:
-                            rec.state, rec.section, rec.points = None, None, np.empty((0, 2))
-                            rec.note = seeding.reasons[k]
-                        hidden += 1
+            res = out.value
+            if res.frame is not None:
+                self._frame = res.frame
+                self.figures.set_frame(res.frame)
+            hidden, stopped = [], []
+            if res.batch is not None:
+                for k, (rid, _, _, rev) in enumerate(snapshot):
+                    rec = self.session.get(rid)
+                    if rec is None or rec.revision != rev:
                         continue
-                    if rec is not None:
-                        rec.state = seeding.states[k].copy()
-                        rec.revision += 1
-                        self._store(rec, sec, row)
-                    row += 1
-            self._render_points()
-            self._render_seeds()
+                    part = res.batch.parts[k]
+                    if part is None:
+                        rec.state, rec.section, rec.points, rec.stop = None, None, np.empty((0, 2)), None
+                        rec.note = res.batch.reasons[k]
+                        hidden.append(rid)
+                        continue
+                    rec.state = res.batch.states[k].copy()
+                    self._apply(rec, part)
+                    if rec.note:
+                        stopped.append(rec)
+            self._draw_all()
             self.last_timing["all"] = time.perf_counter() - t_asked
-            self._update_count()
-            what = self._setting_text(energy, params)
-            if frame.empty:
-                self._say(f"At {what} the shown plane has no energetically allowed region (the energy "
+            what_text = self._setting_text(energy, params)
+            if res.frame is not None and res.frame.empty:
+                self._say(f"At {what_text} the shown plane has no energetically allowed region (the energy "
                           "shell is empty here); orbits are kept and come back when it is not.", refused=True)
             elif hidden:
-                self._say(f"At {what}: {hidden} of {len(snapshot)} seeds lie outside the allowed region "
-                          "and are hidden.", refused=True)
-            else:
-                self._say(f"Recomputed {len(snapshot)} orbit{'s' if len(snapshot) != 1 else ''} at {what} "
-                          f"in {out.seconds * 1000:.0f} ms.")
-            self._compute_trace()
+                self._say(f"At {what_text}: {len(hidden)} of {len(snapshot)} seeds lie outside the allowed region "
+                          f"and are hidden (orbit{'s' if len(hidden) > 1 else ''} {', '.join(map(str, hidden))})."
+                          + self._stopped_text(stopped), refused=True)
+            elif snapshot:
+                self._say(f"Recomputed {len(snapshot)} orbit{'s' if len(snapshot) != 1 else ''} at {what_text} "
+                          f"in {out.seconds * 1000:.0f} ms." + self._stopped_text(stopped), refused=bool(stopped))
+            if res.batch is not None and res.batch.value_error:
+                self._say(f"{self._message} Colour values failed: {res.batch.value_error}", refused=True)
+            self._update_trace()
+            self._schedule_picture()
 
-        self._submit("all", compute, deliver)
+        busy = what or (f"computing {n} orbit{'s' if n != 1 else ''} at "
+                        f"{self._setting_text(energy, params)}" if n else "drawing the allowed region")
+        self._submit("all", busy, compute, deliver)
 
-    def _compute_trace(self):
-        rec = self._selected_record()
-        src_t, src_e = self.figures.trace_source, self.figures.error_source
+    def _recompute(self, ids):
+        """Compute some orbits again from their seeds (after undo, or more crossings)."""
+        view, energy, params, color = self.view, self.session.energy, self.params, self._color_spec()
+        recs = [self.session.get(i) for i in ids]
+        snapshot = [(r.id, r.seed, r.crossings, r.revision) for r in recs if r is not None]
+        if not snapshot:
+            return
+
+        def compute():
+            return tasks.seed_and_orbits(view, [s for _, s, _, _ in snapshot], energy, params,
+                                         [c for _, _, c, _ in snapshot], color)
+
+        def deliver(out: Outcome):
+            if view is not self.view:
+                return
+            if out.error is not None:
+                self._report(out)
+                return
+            batch = out.value
+            for k, (rid, _, _, rev) in enumerate(snapshot):
+                rec = self.session.get(rid)
+                if rec is None or rec.revision != rev:
+                    continue
+                if batch.parts[k] is None:
+                    rec.state, rec.points, rec.note = None, np.empty((0, 2)), batch.reasons[k]
+                    continue
+                rec.state = batch.states[k].copy()
+                self._apply(rec, batch.parts[k])
+            self._draw_all()
+            recs_now = [self.session.get(i) for i, *_ in snapshot]
+            recs_now = [r for r in recs_now if r is not None and r.state is not None]
+            if recs_now:
+                self._say(self._orbit_message(recs_now, out.seconds), refused=bool(recs_now[-1].note))
+            self._update_trace()
+            self._schedule_picture()
+
+        n = len(snapshot)
+        self._submit(f"some-{self._next_serial()}", f"computing {n} orbit{'s' if n != 1 else ''}", compute, deliver)
+
+    def _update_trace(self):
+        rec = self.session.current
+        f = self.figures
         if rec is None or rec.state is None:
-            src_t.data, src_e.data = dict(x=[], y=[]), dict(x=[], y=[])
+            f.panel1_source.data, f.panel2_source.data = dict(x=[], y=[]), dict(x=[], y=[])
             return
-        if self.view.kind == "map":
-            n = np.arange(len(rec.points), dtype=float)
-            src_t.data = dict(x=n, y=rec.points[:, 0])
-            src_e.data = dict(x=[], y=[])
-            self.figures.trace_line.glyph.line_color = rec.color
-            return
-        state, params, version = rec.state.copy(), dict(self._params), self._version
+        view, state, params = self.view, rec.state.copy(), self.params
         until = np.nan
         if rec.section is not None and rec.section.counts[0] > 0:
             until = float(rec.section.times[0, int(rec.section.counts[0]) - 1])
-        view, rid, rrev = self.view, rec.id, rec.revision
+        if view.kind == "map":
+            until = rec.crossings
+        rid, rev, crossings, section = rec.id, rec.revision, rec.crossings, rec.section
 
         def compute():
-            return view.trace(state, params, until)
+            return tasks.trace(view, state, params, until, crossings, section)
 
         def deliver(out: Outcome):
-            if version != self._version:
-                return
-            now = self._selected_record()
-            if now is None or now.id != rid or now.revision != rrev:
+            now = self.session.current
+            if now is None or now.id != rid or now.revision != rev or view is not self.view:
                 return
             if out.error is not None:
-                self._report(out, what="trace")
+                self._say(f"{self._message} | no trace of this orbit: {out.error}", refused=True)
                 return
             tr = out.value
-            if tr is None:
-                return
-            step = max(1, len(tr.t) // 1500)
-            a, b = view.trace_axes
-            xs = tr.t[::step] if a == "t" else tr.states[0, ::step, a]
-            ys = tr.states[0, ::step, b]
-            src_t.data = dict(x=np.asarray(xs, float), y=np.asarray(ys, float))
-            src_e.data = dict(x=np.asarray(tr.t[::step], float), y=np.asarray(tr.energy_error[0, ::step], float))
-            self.figures.trace_line.glyph.line_color = now.color
-            self.figures.error_line.glyph.line_color = now.color
+            (x1, y1), (x2, y2) = tr.panel1, tr.panel2
+            f.panel1_source.data = dict(x=np.asarray(x1, float), y=np.asarray(y1, float))
+            f.panel2_source.data = dict(x=np.asarray(x2, float), y=np.asarray(y2, float))
+            f.panel1_line.glyph.line_color = now.color
+            f.panel2_line.glyph.line_color = now.color
+            now.nu = tr.nu or now.nu
+            if tr.nu:
+                freq = ", ".join(f"{n} {v:.6g}" for n, v in zip(tr.nu_names, tr.nu))
+                base = self._message.split(" | ")[0]
+                self._say(f"{base} | orbit {rid} frequencies: {freq} ({tr.nu_unit})", refused=self._refused)
 
-        self._submit("trace", compute, deliver, delay=0.05)
+        # on the second worker thread, once clicks and drags pause for TRACE_DELAY: the
+        # companion curves never delay a click or a drag, on the kernel or on the page
+        self._submit("trace", "", compute, deliver, delay=TRACE_DELAY, runner=self.idle_jobs)
 
     def _warm_up(self):
         """Compile the kernels in the background while the user reads the plot."""
         (x0, x1), (y0, y1) = self.view.ranges
-        view, energy, params = self.view, self._energy, dict(self._params)
+        view, energy, params = self.view, self.session.energy, self.params
 
         def compute():
             rng = np.random.default_rng(7)
@@ -744,164 +1021,271 @@ class Explorer(W.VBox):
                 p = (rng.uniform(x0, x1), rng.uniform(y0, y1))
                 s = view.seeds([p], energy, params)
                 if s.valid[0]:
-                    view.compute(s.states[:1], energy, params)
+                    view.compute(s.states[:1], energy, params, crossings=4)
                     view.trace(s.states[0], params, 1.0)
                     return True
             return False
 
-        self.jobs.submit("warm-up", compute, lambda out: None)
+        self._submit("warm-up", "", compute, lambda out: None)
+
+    def _schedule_picture(self):
+        """Redraw the picture kept for a notebook opened without a kernel (after a quiet spell)."""
+        if self.picture.handle is None or not self.jobs.background:
+            return
+        snap = self.snapshot()
+        caption = f"{self.name}: picture of the explorer's last state (run the notebook for the live explorer)"
+
+        def compute():
+            return tasks.picture_png(snap, dpi=80)
+
+        def deliver(out: Outcome):
+            if out.error is None:
+                self.picture.update(out.value, caption)
+
+        self.idle_jobs.submit("picture", compute, deliver, delay=PICTURE_DELAY)
 
     # ================================================================= drawing
-    def _apply_frame(self, frame):
-        f = self.figures
-        f.lines.data = dict(xs=[c[:, 0] for c in frame.lines], ys=[c[:, 1] for c in frame.lines])
-        f.accents.data = dict(xs=[c[:, 0] for c in frame.accents], ys=[c[:, 1] for c in frame.accents])
-        if frame.forbidden is not None:
-            gx, gy = frame.grid_x, frame.grid_y
-            f.forbidden.data = dict(image=[frame.forbidden.astype(float)], x=[gx[0]], y=[gy[0]],
-                                    dw=[gx[-1] - gx[0]], dh=[gy[-1] - gy[0]])
-        self._frame = frame
+    def _apply(self, rec, part):
+        rec.section, rec.points, rec.scalar = part.section, part.points, part.scalar
+        rec.nu = part.nu or rec.nu
+        rec.note, rec.stop = part.note, part.stop
 
-    def _point_columns(self, records):
-        shown = [r for r in records if r.state is not None and len(r.points)]
-        if not shown:
-            return dict(x=np.empty(0), y=np.empty(0), shade=np.empty(0, np.int32), orbit=np.empty(0, np.int32),
-                        value=np.empty(0))
-        x = np.concatenate([r.points[:, 0] for r in shown])
-        y = np.concatenate([r.points[:, 1] for r in shown])
-        n_colors = len(theme.ORBIT_COLORS)
-        shade = np.concatenate([np.full(len(r.points), (r.id - 1) % n_colors, np.int32) for r in shown])
-        orbit = np.concatenate([np.full(len(r.points), r.id, np.int32) for r in shown])
-        value = np.concatenate([np.full(len(r.points), r.scalar) for r in shown])
-        return dict(x=x, y=y, shade=shade, orbit=orbit, value=value)
+    def _color_spec(self):
+        return self.color_by
 
-    def _render_points(self):
-        self.figures.points.data = self._point_columns(self.orbits)
-        self._update_scale()
+    def _held(self):
+        """Collect the bokeh changes made inside into one message to the page, sent before
+        the changes of the status, count and orbit list (the points come first)."""
+        from contextlib import ExitStack, contextmanager
 
-    def _stream_points(self, records):
-        self.figures.points.stream(self._point_columns(records))
-        self._update_scale()
+        doc = self.figures.main.document
+        c = self.controls
 
-    def _update_scale(self):
-        m = self.figures.scalar_mapper
-        if m is None:
-            return
-        v = np.array([o.scalar for o in self.orbits if o.state is not None], float)
-        v = v[np.isfinite(v)]
-        if v.size:
-            lo, hi = float(v.min()), float(v.max())
-            if hi <= lo:
-                hi = lo + (abs(lo) * 1e-3 or 1e-12)
-            m.low, m.high = lo, hi
+        @contextmanager
+        def hold():
+            if getattr(self, "_hold_depth", 0):
+                self._hold_depth += 1  # inside an outer hold: it sends everything
+                try:
+                    yield
+                finally:
+                    self._hold_depth -= 1
+                return
+            self._hold_depth = 1
+            try:
+                with ExitStack() as stack:
+                    for w in (c.status, c.count, c.pick):
+                        stack.enter_context(w.hold_sync())
+                    if doc is not None:
+                        doc.hold("combine")
+                        stack.callback(doc.unhold)
+                    yield
+            finally:
+                self._hold_depth = 0
+        return hold()
 
-    def _render_seeds(self, keep_latest=False):
-        shown = [o for o in self.orbits if o.state is not None]
-        self.figures.seeds.data = dict(x=[o.seed[0] for o in shown], y=[o.seed[1] for o in shown],
-                                       color=[o.color for o in shown])
-        self._quiet = True
-        try:
-            if self.orbits and self.orbits[-1].state is not None:
-                s = self.orbits[-1].seed
-                cur = self.figures.latest.data
-                if not (keep_latest and list(cur.get("x", [])) == [s[0]] and list(cur.get("y", [])) == [s[1]]):
-                    self.figures.latest.data = dict(x=[s[0]], y=[s[1]])
-            else:
-                self.figures.latest.data = dict(x=[], y=[])
-        finally:
-            self._quiet = False
+    def _ring_colors(self, shown):
+        if self.scale is None:
+            return [o.color for o in shown]
+        return self.scale.colors([o.scalar for o in shown])
 
-    def _redraw(self):
-        self._render_points()
-        self._render_seeds()
-        self._update_pick()
-        self._update_count()
-        self._compute_trace()
+    def _draw_all(self):
+        with self._held():
+            self.figures.show_orbits(self.session.orbits)
+            self._draw_seeds()
+            self._draw_selected()
+            self._update_pick()
+            self._count()
 
-    def _update_count(self):
-        shown = [o for o in self.orbits if o.state is not None]
-        n = sum(len(o.points) for o in shown)
-        text = (f"{len(shown)} orbit{'s' if len(shown) != 1 else ''} &middot; {n} points"
-                if self.orbits else "no orbits yet: click the plot")
-        self._count.value = f"<div class='pl-count' data-orbits='{len(shown)}' data-points='{n}'>{text}</div>"
+    def _draw_added(self, previous, records):
+        with self._held():
+            self.figures.show_added(previous, records)
+            self._draw_seeds()
+            self._draw_selected()
+            self._count()
+
+    def _draw_newest(self):
+        with self._held():
+            self.figures.show_orbits(self.session.orbits[-1:], newest_only=True)
+            self._draw_seeds(keep_latest=True)
+            self._draw_selected()
+            self._count()
+
+    def _draw_seeds(self, keep_latest=False):
+        shown = self.session.shown()
+        self.figures.show_seeds(shown, self._ring_colors(shown), self.session.newest, keep_latest)
+
+    def _draw_selected(self):
+        rec = self.session.get(self.session.selected) if self.session.selected is not None else None
+        self.figures.show_selected(rec)
+
+    def _draw_structures(self):
+        with self._held():
+            self.figures.show_structures(self.structures, bool(self.controls.manifolds.value))
+
+    def _after(self, change):
+        """Redraw after a session change; compute what must be computed."""
+        if change.removed or change.added or change.selection:
+            self._draw_all()
+        if change.message:
+            self._say(change.message, refused=change.refused)
+        if change.recompute:
+            self._recompute(change.recompute)
+        self._update_trace()
+        self._schedule_picture()
 
     def _update_pick(self):
         self._quiet = True
         try:
-            options = [("newest", 0)] + [(f"orbit {o.id}", o.id) for o in self.orbits]
-            keep = self._pick.value if any(v == self._pick.value for _, v in options) else 0
-            self._pick.options = options
-            self._pick.value = keep
-            if keep == 0:
-                self._selected = None
+            options = [("newest", 0)] + [(f"orbit {o.id}", o.id) for o in self.session.orbits]
+            sel = self.session.selected
+            self.controls.pick.options = options
+            self.controls.pick.value = sel if sel in [v for _, v in options] else 0
         finally:
             self._quiet = False
 
-    def _selected_record(self):
-        if not self.orbits:
-            return None
-        if self._selected is None:
-            return self.orbits[-1]
-        return next((o for o in self.orbits if o.id == self._selected), self.orbits[-1])
+    def _count(self):
+        shown = self.session.shown()
+        self.controls.set_count(len(shown), int(sum(len(o.points) for o in shown)), self._pending)
 
     def _sync_sliders(self):
         self._quiet = True
         try:
-            if "energy" in self.sliders and self._energy is not None:
-                self.sliders["energy"].value = self._energy
+            if "energy" in self.sliders and self.session.energy is not None:
+                self.sliders["energy"].value = self.session.energy
             for name, s in self.sliders.items():
                 if name != "energy":
-                    s.value = self._params[name]
+                    s.value = self.session.params[name]
         finally:
             self._quiet = False
 
-    def _energy_range(self, e):
-        half = abs(e) if e != 0 else 1.0
-        return (e - half, e + half)
+    def _fill_view_controls(self):
+        c = self.controls
+        self._quiet = True
+        try:
+            if self.view.kind != "section" or self.system.dof != 2:
+                return
+            names = self.view.names
+            comp = next(iter(self.view.plane))
+            c.plane.options = [(f"{n} =", n) for n in names]
+            c.plane.value = comp
+            c.plane_value.value = float(self.view.plane[comp])
+            rest = [n for n in names if n != comp]
+            pairs = []
+            for k in range(3):
+                pair = tuple(n for j, n in enumerate(rest) if j != k)
+                pairs.append((f"{pair[0]}, {pair[1]} ({rest[k]} solved)", pair))
+            c.axes.options = pairs
+            c.axes.value = tuple(n for n in rest if n != self.view.solve_for)
+            c.direction.value = self.view.sign
+        finally:
+            self._quiet = False
+
+    def _show_scale(self):
+        c = self.controls
+        self._quiet = True
+        try:
+            if self.scale is None:
+                c.scale_box.layout.display = "none"
+                return
+            c.scale_box.layout.display = ""
+            c.low.value, c.high.value = self.scale.low, self.scale.high
+            c.anchor.layout.display = "" if self.scale.anchor is not None else "none"
+            if self.scale.anchor is not None:
+                c.anchor.value = self.scale.anchor
+        finally:
+            self._quiet = False
+
+    def _aspect_ranges(self, ranges):
+        from phaselab.widgets.figures import FRAME_H, FRAME_W
+
+        if not getattr(self, "_equal", False):
+            return ranges
+        (x0, x1), (y0, y1) = ranges
+        sx, sy = (x1 - x0) / FRAME_W, (y1 - y0) / FRAME_H
+        s = max(sx, sy)
+        cx, cy = (x0 + x1) / 2, (y0 + y1) / 2
+        return ((cx - s * FRAME_W / 2, cx + s * FRAME_W / 2), (cy - s * FRAME_H / 2, cy + s * FRAME_H / 2))
+
+    # ================================================================= text
+    def _num(self, v, axis):
+        (x0, x1), (y0, y1) = self.view.ranges
+        return number(v, (x1 - x0) if axis == 0 else (y1 - y0))
+
+    def _orbit_message(self, records, seconds):
+        return messages.orbits(records, seconds, self.view.noun, self.view.ranges, self.scale)
+
+    def _stopped_text(self, stopped):
+        return messages.stopped(stopped)
 
     def _setting_text(self, energy, params):
-        parts = [f"E = {energy:.4g}"] if energy is not None and self.view.uses_energy else []
-        parts += [f"{k} = {v:.4g}" for k, v in params.items()]
-        return ", ".join(parts) or "these settings"
+        return messages.setting(energy, params, self.view.uses_energy)
 
-    def _trace_labels(self):
-        a, b = self.view.trace_axes
-        names = self.view.names
-        if a == "t":
-            return ("t", names[b])
-        if a == "n":
-            return ("iterate", names[b])
-        return (names[a], names[b])
+    def _setting_key(self):
+        return (self.session.energy, tuple(sorted(self.session.params.items())))
+
+    def _busy_lines(self):
+        lines = []
+        if self._compiling:
+            lines.append("compiling kernels for this system (first time only)")
+        lines += [t for t in self._busy.values() if t]
+        return lines
+
+    def _show_status(self):
+        self.controls.say(self._message, self._refused, self._busy_lines())
+
+    def _say(self, text, refused=False):
+        self._message, self._refused = text, refused
+        self._show_status()
 
     def _report(self, out: Outcome, what="orbit"):
         exc = out.error
         self.last_error = out
-        if what == "trace":
-            # the orbit itself is fine: keep its message, add why the side views are empty
-            base = self._status_text.split(" | ")[0]
-            self._say(f"{base} | no trace of this orbit: {exc}", refused=True)
-            return
         if isinstance(exc, PhaselabError):
             self._say(f"Could not compute the {what}: {exc}", refused=True)
         else:
             self._say(f"Could not compute the {what} ({type(exc).__name__}: {exc}); the explorer "
                       "keeps working.", refused=True)
-        self.last_error = out
 
-    def _say(self, text, refused=False):
-        import html
+    def _next_serial(self):
+        self._serial += 1
+        return self._serial
 
-        self._status_text = text
-        cls = "pl-status refused" if refused else "pl-status"
-        self._status.value = f"<div class='{cls}'>{html.escape(text)}</div>"
+    def _check_color_by(self, color_by):
+        if color_by is None or callable(color_by):
+            return
+        if not isinstance(color_by, str):
+            raise ParameterError(f"color_by must be an indicator name, 'frequency', 'diffusion', a per-orbit field "
+                                 f"or a function, got {color_by!r}")
 
+    def _view_dict(self):
+        v = self.view
+        out = {"axes": list(v.axis_names), "ranges": [list(r) for r in self.figures.view_ranges],
+               "equal_aspect": bool(getattr(self, "_equal", False)), "crossings": self.crossings}
+        if v.kind == "section":
+            out.update(plane=dict(v.plane), solve_for=v.solve_for, direction=v.sign)
+        return out
+
+    def _color_dict(self):
+        if self.scale is None or not isinstance(self.color_by, str):
+            return {"by": None}
+        return {"by": self.color_by, "low": self.scale.low, "anchor": self.scale.anchor, "high": self.scale.high}
+
+    # ================================================================= display
     def _repr_mimebundle_(self, **kwargs):
-        load_bokehjs()
+        from phaselab.widgets.page import load_bokehjs as load
+
+        load()
+        self.bokeh.refresh(send=True)
+        self.picture.show()
+        self._schedule_picture()
         return super()._repr_mimebundle_(**kwargs)
 
     def close(self):
-        if hasattr(self, "jobs"):
-            self.jobs.close()
+        if hasattr(self, "_progress"):
+            self._progress.remove_listener(self._on_compile_event)
+        for runner in ("jobs", "idle_jobs"):
+            if hasattr(self, runner):
+                getattr(self, runner).close()
         super().close()
 
 
@@ -925,19 +1309,25 @@ def explore(system, energy=None, plane=None, solve_for=None, crossings=300, para
     **options
         ``ranges`` ((x0, x1), (y0, y1)) or by name; ``sign`` (+1/-1, root and crossing
         direction); ``energy_range`` (low, high) of the energy slider; ``color_by`` (a
-        chaos indicator, ``"megno"``, ``"lyapunov"``, ``"fli"`` or ``"sali"``, computed
-        for each orbit over the time its points span; a function of a one-orbit Section
-        returning a number; or the name of a per-orbit field such as ``"energy_error"``)
-        and ``color_label``; ``background`` (False to
-        compute in the calling thread); ``export_dir`` and ``export_formats`` (what the Export
-        button writes, default PNG and CSV; any of .png .svg .pdf .csv .nc .html); ``duration`` (time traced per
-        orbit of a phase portrait); ``method``, ``dt``; ``title``.
+        chaos indicator ``"megno"``, ``"lyapunov"``, ``"fli"`` or ``"sali"`` computed for
+        each orbit over the time its points span; ``"frequency"`` or ``"diffusion"`` from
+        Laskar's frequency analysis; a function of a one-orbit Section returning a number;
+        or the name of a per-orbit field such as ``"energy_error"``), ``color_label`` and
+        ``scale`` ((low, anchor, high) of the colour scale; indicators have fixed defaults,
+        MEGNO split at 2); ``background`` (False to compute in the calling thread);
+        ``export_dir`` and ``export_formats`` (what Export writes, default PNG and CSV;
+        any of .png .svg .pdf .csv .nc .html); ``duration`` (time traced per orbit of a
+        phase portrait); ``method``, ``dt``; ``title``; ``session`` (a session JSON file
+        to restore, see :mod:`phaselab.widgets.session`).
 
     Returns
     -------
     Explorer
         An ``ipywidgets`` widget; ``.orbits``, ``.params``, ``.energy``, ``add_seed``,
-        ``add_seeds``, ``undo``, ``clear``, ``set_energy``, ``set_params``, ``export``.
+        ``add_seeds``, ``move_seed``, ``undo``, ``clear``, ``delete``, ``more_crossings``,
+        ``select``, ``set_energy``, ``set_params``, ``set_color``, ``set_scale``,
+        ``set_view``, ``set_equal_aspect``, ``find_periodic_orbit``, ``export``,
+        ``save_session``, ``load_session``, ``wait``.
     """
     return Explorer(system, energy=energy, plane=plane, solve_for=solve_for, crossings=crossings,
                     params=params, **options)

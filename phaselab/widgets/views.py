@@ -29,7 +29,7 @@ from phaselab.errors import ModelError, ParameterError, PhaselabError
 #: Grid points per axis for the allowed-region boundary and the phase portrait.
 GRID = 160
 #: Samples kept of a companion trace.
-TRACE_SAMPLES = 1500
+TRACE_SAMPLES = 800
 
 
 @dataclass
@@ -137,6 +137,34 @@ class _View:
 
     def describe(self) -> str:
         return ""
+
+    def label(self, k) -> str:
+        """The plain label of state component ``k`` (as the HTML export writes it)."""
+        from phaselab.export.describe import plain_label
+
+        return plain_label(self.system.state_symbols[k])
+
+    @property
+    def axis_labels(self):
+        return (self.label(self.axes[0]), self.label(self.axes[1]))
+
+    def panels(self):
+        """Title, x label and y label of the two companion panels."""
+        n = len(self.names) // 2
+        if n >= 2:
+            first = ("Orbit in configuration space", self.label(0), self.label(1))
+        else:
+            first = ("Coordinate over time", "t", self.label(0))
+        return [first, ("Energy error along the orbit", "t", "relative error")]
+
+    def panel_curves(self, tr, params):
+        """The two panels' (x, y) curves from a trajectory of the selected orbit."""
+        step = max(1, len(tr.t) // TRACE_SAMPLES)
+        st = tr.states[0, ::step]
+        t = np.asarray(tr.t[::step], float)
+        n = len(self.names) // 2
+        first = (st[:, 0], st[:, 1]) if n >= 2 else (t, st[:, 0])
+        return first, (t, np.asarray(tr.energy_error[0, ::step], float))
 
 
 class SectionView(_View):
@@ -266,12 +294,12 @@ class SectionView(_View):
         s = shell_seeds(self.system, energy, self.plane, self.solve_for, pts, params=params, sign=self.sign)
         return Seeding(s.states, s.valid, list(s.reasons))
 
-    def compute(self, states, energy, params):
+    def compute(self, states, energy, params, crossings=None):
         from phaselab.compute.section import section
 
         with warnings.catch_warnings():
             warnings.simplefilter("ignore", RuntimeWarning)
-            return section(self.system, states, self.plane, direction=self.sign, crossings=self.crossings,
+            return section(self.system, states, self.plane, direction=self.sign, crossings=crossings or self.crossings,
                            params=params, dt=self.dt, method=self.method, energy=energy,
                            axes=self.axis_names)
 
@@ -284,7 +312,6 @@ class SectionView(_View):
             warnings.simplefilter("ignore", RuntimeWarning)
             return trajectory(self.system, state, t_end, dt=self.dt, method=self.method, params=params)
 
-    trace_axes = property(lambda self: (0, 1))  # configuration space (q1, q2)
 
 
 class PortraitView(_View):
@@ -339,14 +366,14 @@ class PortraitView(_View):
             accents.extend(sep.lines)
         return Frame(lines=lines, accents=accents)
 
-    def compute(self, states, energy, params):
+    def compute(self, states, energy, params, crossings=None):
         """The traced orbits as a Section-like record of samples (time as crossing index)."""
         from phaselab.compute.results import Section
         from phaselab.compute.trajectory import trajectory
 
         with warnings.catch_warnings():
             warnings.simplefilter("ignore", RuntimeWarning)
-            tr = trajectory(self.system, states, np.linspace(0.0, self.duration, self.crossings),
+            tr = trajectory(self.system, states, np.linspace(0.0, self.duration, crossings or self.crossings),
                             method=self.method, params=params)
         pts = tr.states
         counts = np.isfinite(pts[..., 0]).sum(axis=1)
@@ -365,7 +392,6 @@ class PortraitView(_View):
             warnings.simplefilter("ignore", RuntimeWarning)
             return trajectory(self.system, state, self.duration, method=self.method, params=params)
 
-    trace_axes = property(lambda self: ("t", 0))
 
 
 class StrobeView(_View):
@@ -387,14 +413,43 @@ class StrobeView(_View):
         return "stroboscopic section: the state once per driving period"
 
     def fit_ranges(self, energy, params):
+        """The given ranges, else a box around the bounded orbits of a probe: 24 seeds on
+        the axes followed for 40 driving periods (orbits that run off are left out)."""
+        if self._ranges_given is not None:
+            return self.ranges
+        a = np.linspace(-2.0, 2.0, 12)
+        seeds = np.array([[v, 0.0] for v in a] + [[0.0, v] for v in a])
+        try:
+            sec = self.compute(seeds, energy, params, crossings=40)
+        except PhaselabError:
+            return self.ranges
+        pts = sec.points[..., :2]
+        bounded = np.all(np.isfinite(pts), axis=(1, 2)) & np.all(np.abs(np.nan_to_num(pts)) < 10.0, axis=(1, 2))
+        if bounded.sum() < 3:
+            return self.ranges
+        p = pts[bounded].reshape(-1, 2)
+        lo, hi = p.min(axis=0), p.max(axis=0)
+        pad = 0.08 * (hi - lo) + 1e-6
+        self.ranges = ((float(lo[0] - pad[0]), float(hi[0] + pad[0])), (float(lo[1] - pad[1]), float(hi[1] + pad[1])))
         return self.ranges
 
-    def compute(self, states, energy, params):
+    def panels(self):
+        return [("Orbit in phase space, first periods", self.label(0), self.label(1)),
+                ("Energy over time (driven: not conserved)", "t", "H")]
+
+    def panel_curves(self, tr, params):
+        step = max(1, len(tr.t) // TRACE_SAMPLES)
+        st = tr.states[0, ::step]
+        t = np.asarray(tr.t[::step], float)
+        h = np.asarray(self.system.energy(st, params, t=t), float)
+        return (st[:, 0], st[:, 1]), (t, h)
+
+    def compute(self, states, energy, params, crossings=None):
         from phaselab.compute.section import section
 
         with warnings.catch_warnings():
             warnings.simplefilter("ignore", RuntimeWarning)
-            return section(self.system, states, "stroboscopic", crossings=self.crossings, params=params,
+            return section(self.system, states, "stroboscopic", crossings=crossings or self.crossings, params=params,
                            dt=self.dt, method=self.method)
 
     def trace(self, state, params, until):
@@ -405,7 +460,6 @@ class StrobeView(_View):
             warnings.simplefilter("ignore", RuntimeWarning)
             return trajectory(self.system, state, 20 * period, dt=self.dt, method=self.method, params=params)
 
-    trace_axes = property(lambda self: ("t", 0))
 
 
 class MapView(_View):
@@ -432,14 +486,27 @@ class MapView(_View):
     def fit_ranges(self, energy, params):
         return self.ranges
 
-    def compute(self, states, energy, params):
+    def compute(self, states, energy, params, crossings=None):
         from phaselab.compute.section import section
 
         with warnings.catch_warnings():
             warnings.simplefilter("ignore", RuntimeWarning)
-            return section(self.system, states, crossings=self.crossings, params=params)
+            return section(self.system, states, crossings=crossings or self.crossings, params=params)
 
-    trace_axes = property(lambda self: ("n", 0))
+    def trace(self, state, params, until):
+        """The iterates of one state (at most 2000), as a Section."""
+        n = int(until) if until and np.isfinite(until) and until > 0 else self.crossings
+        return self.compute(np.asarray(state, float)[None, :], None, params, crossings=min(max(n, 2), 2000))
+
+    def panels(self):
+        return [("Coordinate by iterate", "iterate", self.label(0)),
+                ("Momentum by iterate", "iterate", self.label(1))]
+
+    def panel_curves(self, sec, params):
+        c = int(sec.counts[0])
+        pts = sec.points[0, :c]
+        n = np.arange(c, dtype=float)
+        return (n, pts[:, 0]), (n, pts[:, 1])
 
 
 def make_view(system, plane=None, solve_for=None, crossings=300, ranges=None, sign=+1, duration=None,

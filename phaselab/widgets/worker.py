@@ -107,6 +107,22 @@ class JobRunner:
         """Compute and deliver at once in the calling thread (for work known to be short)."""
         deliver(_run(compute))
 
+    def call_soon(self, fn: Callable[[], None], loop=None) -> None:
+        """Run ``fn()`` on the widgets' thread: through ``loop`` (from any thread) when it
+        runs, else at the next :meth:`flush` or :meth:`wait` (scripts and tests)."""
+        if loop is not None and not loop.is_closed() and loop.is_running():
+            try:
+                loop.call_soon_threadsafe(fn)
+                return
+            except RuntimeError:
+                pass
+        if not self.background and threading.current_thread() is threading.main_thread():
+            fn()
+            return
+        with self._cond:
+            self._delivered.append((lambda _outcome: fn(), Outcome()))
+            self._cond.notify_all()
+
     def cancel(self, key: str | None = None) -> None:
         """Drop waiting requests (all of them, or those under ``key``)."""
         with self._cond:

@@ -1,0 +1,110 @@
+"""Getting the explorer onto the page, every time a view of it is made.
+
+Three things go wrong with a plain ``jupyter_bokeh.BokehModel`` and are handled here:
+
+* BokehJS must be on the page before a bokeh view is created, in every browser tab.
+  :func:`load_bokehjs` puts the core library (inline, no network) into the output each
+  time the explorer is displayed, so a second tab running the notebook, or a reloaded
+  saved notebook, has it too.
+* A view is built from the model's ``render_bundle``, which jupyter_bokeh fills once, when
+  the model is made; later changes travel as patches to views that exist. A view made
+  later (the first display after seeds were added, another tab, a reload) would show the
+  first state. :class:`LiveBokehModel` serialises the document afresh whenever a view may
+  be made from it: when it is displayed and whenever the page asks for its state.
+* A notebook saved and opened without a kernel has no widget to draw.
+  :class:`StaticPicture` keeps a PNG of the last state in an ordinary output next to the
+  widget; the explorer's own style sheet hides it while the live explorer is on the page.
+"""
+
+from __future__ import annotations
+
+import base64
+import html
+
+from jupyter_bokeh import BokehModel
+
+
+def load_bokehjs():
+    """Display the core BokehJS library inline (no network, no banner)."""
+    from bokeh.io import output_notebook
+    from bokeh.resources import Resources
+
+    output_notebook(resources=Resources(mode="inline", components=["bokeh"]), hide_banner=True)
+
+
+class LiveBokehModel(BokehModel):
+    """A BokehModel whose ``render_bundle`` is brought up to date before a view is made.
+
+    ``changes`` counts document changes; the bundle is serialised again only when some
+    happened since it was last serialised.
+    """
+
+    def __init__(self, model, **kwargs):
+        self.changes = 0
+        self._bundled = 0
+        super().__init__(model, **kwargs)
+        self._document.on_change(self._count)
+
+    def _count(self, event):
+        if getattr(event, "setter", None) is self:
+            return  # came from the page: the views there have it already
+        self.changes += 1
+
+    @property
+    def stale(self) -> bool:
+        return self._bundled != self.changes
+
+    def refresh(self, send=True):
+        """Serialise the document into ``render_bundle`` if it changed; ``send`` pushes it to
+        the page (views there rebuild from it)."""
+        if not self.stale:
+            return False
+        bundle = self._model_to_traits(self._model)
+        self._bundled = self.changes
+        if send:
+            self.render_bundle = bundle
+        else:
+            self._trait_values["render_bundle"] = bundle  # sent with the state being asked for
+        return True
+
+    def get_state(self, key=None, drop_defaults=False):
+        # a full state is asked for when a page (re)builds its widgets: give the current plot
+        if key is None:
+            self.refresh(send=False)
+        return super().get_state(key=key, drop_defaults=drop_defaults)
+
+
+_HIDE_RULE = ".jp-OutputArea-child:has(.{cls}) {{ display: none; }}"
+
+
+class StaticPicture:
+    """A PNG of the explorer's last state, in an output of its own, shown only when the
+    live explorer is not on the page (a saved notebook opened without a kernel)."""
+
+    def __init__(self, uid: str):
+        self.cls = f"pl-still-{uid}"
+        self.handle = None
+        self.png = b""
+
+    @property
+    def hide_rule(self) -> str:
+        return _HIDE_RULE.format(cls=self.cls)
+
+    def _html(self, caption):
+        if not self.png:
+            return f"<div class='{self.cls}'></div>"
+        data = base64.b64encode(self.png).decode("ascii")
+        return (f"<div class='{self.cls}'><img alt='explorer picture' src='data:image/png;base64,{data}'/>"
+                f"<div style='font-size:11px;color:#7b7f86'>{html.escape(caption)}</div></div>")
+
+    def show(self, caption=""):
+        from IPython.display import HTML, display
+
+        self.handle = display(HTML(self._html(caption)), display_id=True)
+
+    def update(self, png: bytes, caption=""):
+        self.png = png
+        if self.handle is not None:
+            from IPython.display import HTML
+
+            self.handle.update(HTML(self._html(caption)))
