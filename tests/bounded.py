@@ -21,10 +21,26 @@ MEMORY_LIMIT = 2 * 1024**3
 
 _HARNESS = """
 import json, resource, sys, time, traceback
+# the limits are set here, not in a preexec hook: a hook forces a plain fork, and the child
+# would then report the test runner's own peak memory as its own
+resource.setrlimit(resource.RLIMIT_CPU, ({cpu}, {cpu}))
+resource.setrlimit(resource.RLIMIT_AS, ({memory}, {memory}))
 
 def _report(**fields):
     sys.stdout.write("\\n@@RESULT@@" + json.dumps(fields) + "\\n")
     sys.stdout.flush()
+
+def _peak_mib():
+    # VmHWM is the peak of this program's own memory (it starts afresh at exec); ru_maxrss
+    # also counts what the parent had when it forked the child
+    try:
+        with open("/proc/self/status") as fh:
+            for line in fh:
+                if line.startswith("VmHWM:"):
+                    return int(line.split()[1]) / 1024
+    except OSError:
+        pass
+    return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
 
 def bounded(call):
     before = resource.getrusage(resource.RUSAGE_SELF)
@@ -41,7 +57,7 @@ def bounded(call):
     cpu = time.process_time() - start
     after = resource.getrusage(resource.RUSAGE_SELF)
     _report(error=error, error_mro=error_mro, message=message, cpu=cpu,
-            rss_mib=after.ru_maxrss / 1024, value=None if value is None else repr(value)[:2000])
+            rss_mib=_peak_mib(), value=None if value is None else repr(value)[:2000])
 """
 
 
@@ -72,13 +88,6 @@ class Outcome:
                 f"cpu={self.cpu}, rss_mib={self.rss_mib}, returncode={self.returncode}, stderr={tail!r})")
 
 
-def _limits(cpu, memory):
-    def apply():
-        resource.setrlimit(resource.RLIMIT_CPU, (cpu, cpu))
-        resource.setrlimit(resource.RLIMIT_AS, (memory, memory))
-    return apply
-
-
 def run_bounded(code: str, cpu: int = CPU_LIMIT, memory: int = MEMORY_LIMIT) -> Outcome:
     """Run ``code`` (which calls ``bounded(lambda: ...)`` once) in a child interpreter.
 
@@ -88,7 +97,8 @@ def run_bounded(code: str, cpu: int = CPU_LIMIT, memory: int = MEMORY_LIMIT) -> 
     """
     env = dict(os.environ)
     env["PYTHONPATH"] = os.pathsep.join(p for p in sys.path if p)
-    source = _HARNESS + "\n" + textwrap.dedent(code)
+    source = _HARNESS.replace("{cpu}", str(int(cpu))).replace("{memory}", str(int(memory))) + "\n" \
+        + textwrap.dedent(code)
     proc = subprocess.run([sys.executable, "-c", source], capture_output=True, text=True, env=env,
-                          timeout=4 * cpu, preexec_fn=_limits(cpu, memory))
+                          timeout=4 * cpu)
     return Outcome(proc)
