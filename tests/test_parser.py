@@ -199,7 +199,7 @@ EXPENSIVE = {
     "constant power tower": "E**E**E**E**E",
     "product of big powers": "*".join(["(10**10)**1000"] * 333),
     "sum of rationals with 10^4-digit denominators":
-        "+".join(f"1/(10**10+{k})**1000" for k in range(200)),
+        "+".join(f"1/((10**10)**1000+{k})" for k in range(200)),
     "10,001-digit integer": "(10**10)**1000",
     "tower of exponentials": "exp(exp(exp(exp(2))))",
 }
