@@ -163,3 +163,29 @@ def test_compiled_wrap_matches_numpy_mod():
     q_new = z[:, 0] + p_new
     np.testing.assert_allclose(got[:, 0], -np.pi + np.mod(q_new + np.pi, 2 * np.pi), atol=1e-12)
     np.testing.assert_array_equal(got[:, 1], p_new)
+
+
+def test_composed_rules_are_checked_with_bounded_work():
+    """Sequential rules substitute into each other, so an expression can double at each
+    rule. Five kick-drift pairs p += q sin q, q += p are area-preserving (each is a shear
+    with unit determinant, common practice) and must pass, though expanding the composed
+    determinant is out of budget (the check evaluates it at 30 digits, where the
+    cancellation between its large products cannot pass for a failure). Forty pairs of
+    p += sin q + cos q, q += sin p + cos p double past any size and are refused with a clear
+    error. Each within 2 s of CPU in a child process with hard limits."""
+    from bounded import run_bounded
+
+    five = [["p", "p + sin(q)*q"], ["q", "q + p"]] * 5
+    forty = [["p", "p + sin(q) + cos(q)"], ["q", "q + sin(p) + cos(p)"]] * 40
+    out = run_bounded(f"""
+        from phaselab import AreaPreservingMap
+        bounded(lambda: AreaPreservingMap({five!r}, ["q"], ["p"]).area_check)
+    """)
+    assert out.finished and out.error is None and out.value in ("'numeric'", "'symbolic'"), out
+    assert out.cpu < 2.0, out
+    out = run_bounded(f"""
+        from phaselab import AreaPreservingMap
+        bounded(lambda: AreaPreservingMap({forty!r}, ["q"], ["p"]))
+    """)
+    assert out.finished and out.error == "ModelError" and "compose into an expression" in out.message, out
+    assert out.cpu < 2.0, out

@@ -168,7 +168,7 @@ def _value_problem(value) -> tuple[str, str] | None:
         return "undefined", "undefined or infinite"
     # (rounding at VALUE_BITS can leave a tiny imaginary part on a real value, as in
     # asin of 1 + 1e-170: far below this tolerance)
-    if isinstance(value, _MP.mpc) and abs(value.imag) > 1e-30 * max(1, abs(value.real)):
+    if isinstance(value, _MP.mpc) and abs(value.imag) > 1e-30 * abs(value):
         return "complex", "not a real number"
     if abs(value) > _LIMIT:
         return "large", f"about 10**{int(_MP.log10(abs(value)))}, above 1e{MAX_DIGITS} in size"
@@ -261,11 +261,12 @@ def parse_expression(text: str, symbols: dict[str, sp.Symbol] | None = None,
             raise ExpressionError(f"number too large in {_describe(node, src)}: {problem}")
         return out, _exact_value(out)
 
-    def check_value(value, node, power: bool) -> None:
-        """Refuse the value of a constant part: undefined, complex, or too large."""
+    def check_value(value, node, power: bool):
+        """The value of a constant part as a real number; refused when it is undefined,
+        complex, or too large."""
         problem = _value_problem(value)
         if problem is None:
-            return
+            return _MP.re(value) if isinstance(value, _MP.mpc) else value
         kind, words = problem
         if kind == "complex":
             raise ExpressionError(f"expression {_clip(src)} is complex-valued ({_describe(node, src)} is "
@@ -298,7 +299,7 @@ def parse_expression(text: str, symbols: dict[str, sp.Symbol] | None = None,
                 raise ExpressionError(f"{_describe(node, src)} is undefined (a division by zero)") from None
             except (ValueError, TypeError, OverflowError) as exc:
                 raise ExpressionError(f"{_describe(node, src)} cannot be evaluated: {exc}") from None
-            check_value(value, node, op is ast.Pow)
+            value = check_value(value, node, op is ast.Pow)
         out = _BINARY[op](a, b)
         problem = _near_problem(out)
         if problem:
@@ -387,7 +388,7 @@ def parse_expression(text: str, symbols: dict[str, sp.Symbol] | None = None,
                 raise ExpressionError(f"{_describe(node, src)} is undefined (a division by zero)") from None
             except (ValueError, TypeError, ArithmeticError) as exc:
                 raise ExpressionError(f"{_describe(node, src)} cannot be evaluated: {exc}") from None
-            check_value(value, node, False)
+            value = check_value(value, node, False)
         try:
             out = FUNCTIONS[name](*args)
         except TypeError:

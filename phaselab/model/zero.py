@@ -156,11 +156,25 @@ def _evaluate(expr: sp.Expr, point: dict):
     return values[expr]
 
 
-def _value_at(expr: sp.Expr, point: dict):
-    """(value, scale) of ``expr`` at ``point`` as mpmath numbers: the value and the size of
-    the largest term summed at the top level; (None, None) where it is undefined, too large
-    to follow, or not a finite number. mpmath keeps values of any reasonable size
-    (``5.0**998`` does not overflow)."""
+def value_at(expr: sp.Expr, point: dict):
+    """(value, scale) of ``expr`` at ``point`` as mpmath numbers, with :data:`DIGITS`
+    significant digits.
+
+    Parameters
+    ----------
+    expr : sympy.Expr
+    point : dict of sympy.Symbol to float
+        A value for every free symbol.
+
+    Returns
+    -------
+    value : mpmath.mpc or None
+    scale : mpmath.mpf or None
+        The size of the largest term summed at the top level, against which cancellation
+        is judged. Both None where the expression is undefined, too large to follow, or not
+        a finite number. mpmath keeps values of any reasonable size (``5.0**998`` does not
+        overflow).
+    """
     terms = expr.args if expr.is_Add else (expr,)
     total, scale = _MP.mpc(0), _MP.mpf(0)
     numbers = {x: _MP.mpf(v) for x, v in point.items()}
@@ -203,7 +217,7 @@ def zero_check(expr: sp.Expr, samples: int = 4) -> ZeroCheck:
     rng = random.Random(1234)
     symbols = sorted(expr.free_symbols, key=lambda x: x.name)
     for point in _points(symbols, samples, rng, both_signs=False):
-        if _nonzero(*_value_at(expr, point)):
+        if _nonzero(*value_at(expr, point)):
             return ZeroCheck(False, "symbolic")
     if expanded_terms(expr) <= EXPAND_MAX_TERMS:
         expanded = sp.expand(expr)
@@ -213,7 +227,7 @@ def zero_check(expr: sp.Expr, samples: int = 4) -> ZeroCheck:
             return ZeroCheck(False, "symbolic")
     defined = 0
     for point in _points(symbols, 4 * CONFIRM_POINTS, rng, both_signs=True):
-        value, scale = _value_at(expr, point)
+        value, scale = value_at(expr, point)
         if _nonzero(value, scale):
             return ZeroCheck(False, "symbolic")
         defined += value is not None
