@@ -29,7 +29,8 @@ class KernelPrinter(PythonCodePrinter):
         return repr(float(expr))
 
     def _print_Rational(self, expr):
-        return f"({float(expr.p)!r}/{float(expr.q)!r})"
+        # the correctly rounded value of p/q (float(p) and float(q) apart could overflow)
+        return repr(_as_float(expr))
 
     def _print_Half(self, expr):
         return "0.5"

@@ -148,9 +148,14 @@ def get_method(name: str, system=None) -> Method:
     if system is not None and method.separable_only and not system.is_separable:
         raise ModelError(
             f"method {method.name!r} is an explicit splitting method and needs H = T(p) + V(q), "
-            f"but this H mixes coordinates and momenta ({system.expr}); use 'gauss6', "
+            f"but this H mixes coordinates and momenta ({_short(system.expr)}); use 'gauss6', "
             "'gauss4' or 'implicit_midpoint' (or method='auto')")
     return method
+
+
+def _short(expr, limit: int = 120) -> str:
+    text = str(expr)
+    return text if len(text) <= limit else text[:limit - 3] + "..."
 
 
 def choose_method(system) -> Method:
