@@ -227,12 +227,29 @@ def chaos_indicators(system, states, t, params=None, dt=None, method="auto", vec
     status = np.zeros(len(z), dtype=np.int64)
     stop = np.full(len(z), -1, dtype=np.int64)
     cs = loops(flow, "tangent")
-    cs.tangent_flow_indicators(z, np.ascontiguousarray(W0), values, dt, n_steps, every, m.kind, m.weights,
-                               m.A, m.b, tol, maxit, lo, hi, final, hist, status, stop)
+    W0 = np.ascontiguousarray(W0)
+    if m.kind == codes.COMPOSITION:
+        cs.tangent_composition_indicators(z, W0, values, dt, n_steps, every, m.weights,
+                                          _constant_pp(cs, z, values), lo, hi, final, hist, status, stop)
+    else:
+        cs.tangent_flow_indicators(z, W0, values, dt, n_steps, every, m.kind, m.weights, m.A, m.b, tol,
+                                   maxit, lo, hi, final, hist, status, stop)
     seeds = z if flow is system else np.column_stack([z[:, :n], z[:, n + 1:2 * n + 1]])
     t_end = np.where(status == codes.OK, n_steps * dt, np.maximum(stop - 1, 0) * dt)
     return _result(final, hist, status, t_end, every * dt * np.arange(1, n_rec + 1), seeds, m.name, dt,
                    used, history)
+
+
+def _constant_pp(cs, z, values) -> bool:
+    """Whether d2H/dp2 is the same at every state (a kinetic energy quadratic in the
+    momenta): the same matrix at the seeds and at scattered states around them."""
+    finite = z[np.all(np.isfinite(z), axis=1)]
+    if not len(finite):
+        return False
+    rng = np.random.default_rng(7)
+    probes = np.vstack([finite[:4], finite[0] + rng.normal(scale=1.0 + np.abs(finite[0]), size=(4, z.shape[1]))])
+    blocks = [cs.kernel.call("hess_pp", p, values) for p in probes]
+    return bool(all(np.array_equal(blocks[0], b) for b in blocks[1:]))
 
 
 def _records(n_steps, record_every, history):

@@ -10,7 +10,7 @@ and may use, besides its own and its required files' functions, only the names t
 assembled module defines (:data:`MODULE_NAMES`): ``np``, ``math``, ``njit``, ``prange``, the
 constants of :mod:`phaselab.compute.codes`, and the kernel access functions
 ``hamiltonian(kern, z, prm)``, ``grad_q(kern, z, prm, out)``, ``grad_p``, ``vector_field``,
-``jacobian``, ``map_step``, ``map_jacobian`` and ``nstate(z)``. A test checks every file's
+``jacobian``, ``hess_pp``, ``hess_qq``, ``map_step``, ``map_jacobian`` and ``nstate(z)``. A test checks every file's
 free names against this contract.
 
 The same text is assembled into two kinds of module:
@@ -50,8 +50,8 @@ from phaselab.errors import ParameterError
 
 LOOPS_DIR = Path(__file__).parent / "loops"
 
-ACCESS_NAMES = ("hamiltonian", "grad_q", "grad_p", "vector_field", "jacobian", "map_step",
-                "map_jacobian", "nstate")
+ACCESS_NAMES = ("hamiltonian", "grad_q", "grad_p", "vector_field", "jacobian", "hess_pp", "hess_qq",
+                "map_step", "map_jacobian", "nstate")
 MODULE_NAMES = frozenset({"np", "math", "njit", "prange", *codes.LOOP_CONSTANTS, *ACCESS_NAMES})
 """Names every assembled loop module defines for the loop files."""
 
@@ -92,6 +92,16 @@ def vector_field(kern, z, prm, out):
 @njit(cache=True, nogil=True)
 def jacobian(kern, z, prm, out):
     kern({jacobian}, z.ctypes, prm.ctypes, out.ctypes)
+
+
+@njit(cache=True, nogil=True)
+def hess_pp(kern, z, prm, out):
+    kern({hess_pp}, z.ctypes, prm.ctypes, out.ctypes)
+
+
+@njit(cache=True, nogil=True)
+def hess_qq(kern, z, prm, out):
+    kern({hess_qq}, z.ctypes, prm.ctypes, out.ctypes)
 
 
 @njit(cache=True, nogil=True)
@@ -136,6 +146,16 @@ def jacobian(kern, z, prm, out):
 
 
 @njit(cache=True, nogil=True)
+def hess_pp(kern, z, prm, out):
+    k_hess_pp(z, prm, out)
+
+
+@njit(cache=True, nogil=True)
+def hess_qq(kern, z, prm, out):
+    k_hess_qq(z, prm, out)
+
+
+@njit(cache=True, nogil=True)
 def map_step(kern, z, prm, out):
     pass
 
@@ -173,6 +193,16 @@ def vector_field(kern, z, prm, out):
 
 @njit(cache=True, nogil=True)
 def jacobian(kern, z, prm, out):
+    pass
+
+
+@njit(cache=True, nogil=True)
+def hess_pp(kern, z, prm, out):
+    pass
+
+
+@njit(cache=True, nogil=True)
+def hess_qq(kern, z, prm, out):
     pass
 
 

@@ -262,11 +262,12 @@ def evaluate_points(kern, which, Z, prm, out):
 
 
 @njit(cache=True, nogil=True)
-def drift_tangent(kern, z, V, c, prm, gp, jac):
-    """q += c dH/dp(p) and its tangent dq += c (d2H/dp2) dp (separable H)."""
+def drift_tangent(kern, z, V, c, prm, gp, hp):
+    """q += c dH/dp(p) and its tangent dq += c (d2H/dp2) dp (separable H); ``hp`` is n x n
+    scratch."""
     n = nstate(z) // 2
     k = V.shape[1]
-    jacobian(kern, z, prm, jac)
+    hess_pp(kern, z, prm, hp)
     grad_p(kern, z, prm, gp)
     for i in range(n):
         z[i] += c * gp[i]
@@ -274,36 +275,37 @@ def drift_tangent(kern, z, V, c, prm, gp, jac):
         for i in range(n):
             acc = 0.0
             for j in range(n):
-                acc += jac[i, n + j] * V[n + j, col]
+                acc += hp[i, j] * V[n + j, col]
             V[i, col] += c * acc
 
 
 @njit(cache=True, nogil=True)
-def composition_tangent_step(kern, z, V, h, prm, weights, gq, gp, jac):
-    """:func:`composition_step` together with its exact tangent map."""
+def composition_tangent_step(kern, z, V, h, prm, weights, gq, gp, hess):
+    """:func:`composition_step` together with its exact tangent map; ``hess`` is n x n
+    scratch for the blocks d2H/dp2 and d2H/dq2."""
     n = nstate(z) // 2
     k = V.shape[1]
     s = weights.shape[0]
     c = 0.5 * weights[0] * h
     for st in range(s):
-        drift_tangent(kern, z, V, c, prm, gp, jac)
-        jacobian(kern, z, prm, jac)
+        drift_tangent(kern, z, V, c, prm, gp, hess)
+        hess_qq(kern, z, prm, hess)
         grad_q(kern, z, prm, gq)
         d = weights[st] * h
         for i in range(n):
             z[n + i] -= d * gq[i]
-        # dp += d * (-d2H/dq2) dq, and jac[n:, :n] = -d2H/dq2
+        # dp -= d (d2H/dq2) dq
         for col in range(k):
             for i in range(n):
                 acc = 0.0
                 for j in range(n):
-                    acc += jac[n + i, j] * V[j, col]
-                V[n + i, col] += d * acc
+                    acc += hess[i, j] * V[j, col]
+                V[n + i, col] -= d * acc
         if st + 1 < s:
             c = 0.5 * (weights[st] + weights[st + 1]) * h
         else:
             c = 0.5 * weights[st] * h
-    drift_tangent(kern, z, V, c, prm, gp, jac)
+    drift_tangent(kern, z, V, c, prm, gp, hess)
     return OK
 
 
@@ -395,7 +397,9 @@ def advance_tangent(kern, z, V, h, prm, kind, weights, A, b, tol, maxit, work, j
     """
     n = nstate(z) // 2
     if kind == COMPOSITION:
-        return composition_tangent_step(kern, z, V, h, prm, weights, work[0, :n], work[1, :n], jac)
+        # the first n*n entries of the (C-ordered) scratch matrix serve as an n x n block
+        hess = jac.reshape(jac.shape[0] * jac.shape[1])[:n * n].reshape((n, n))
+        return composition_tangent_step(kern, z, V, h, prm, weights, work[0, :n], work[1, :n], hess)
     if kind == GAUSS:
         z_old = z.copy()
         st = advance(kern, z, h, prm, kind, weights, A, b, tol, maxit, work)

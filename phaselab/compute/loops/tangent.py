@@ -10,7 +10,7 @@ serves the Lyapunov exponent, MEGNO and FLI; SALI needs two (``W0.shape[2] == 2`
 """
 
 REQUIRES = ("steppers",)
-PROVIDES = ("tangent_flow_indicators", "tangent_map_indicators")
+PROVIDES = ("tangent_flow_indicators", "tangent_composition_indicators", "tangent_map_indicators")
 
 
 @njit(cache=True, nogil=True)
@@ -98,6 +98,86 @@ def tangent_flow_indicators(kern, Z0, W0, prm, h, n_steps, record_every, kind, w
             st = advance_tangent(kern, z, W, h, prm, kind, weights, A, b, tol, maxit, work, jac)
             if st == OK:
                 st = check_state(z, box_lo, box_hi)
+            if st != OK:
+                status[o] = st
+                stop_step[o] = step
+                break
+            tangent_update(W, step * h, h, acc)
+            done = step
+            if record_every > 0 and step % record_every == 0 and rec < history.shape[1]:
+                tangent_store(o, step * h, acc, history[:, rec])
+                rec += 1
+        if done > 0:
+            tangent_store(o, done * h, acc, final)
+
+
+@njit(cache=True, nogil=True, parallel=True)
+def tangent_composition_indicators(kern, Z0, W0, prm, h, n_steps, record_every, weights, constant_pp,
+                                   box_lo, box_hi, final, history, status, stop_step):
+    """:func:`tangent_flow_indicators` for a composition of leapfrogs (a separable H), with
+    the step and its tangent map written out in the orbit loop: the same arithmetic in the
+    same order as ``composition_tangent_step``, without its calls, so the compiler keeps
+    the small arrays of one orbit close at hand (the hot loop of chaos maps). With
+    ``constant_pp`` (d2H/dp2 the same everywhere, as for a kinetic energy quadratic in the
+    momenta) that block is evaluated once per orbit."""
+    n_orb = Z0.shape[0]
+    m = Z0.shape[1]
+    s = weights.shape[0]
+    cc = np.empty(s + 1)
+    dd = np.empty(s)
+    cc[0] = 0.5 * weights[0] * h
+    for i in range(s):
+        dd[i] = weights[i] * h
+        cc[i + 1] = 0.5 * (weights[i] + weights[i + 1]) * h if i + 1 < s else 0.5 * weights[i] * h
+    for o in prange(n_orb):
+        n = nstate(Z0[o]) // 2
+        k = W0.shape[2]
+        gp = np.empty(n)
+        gq = np.empty(n)
+        hp = np.empty((n, n))
+        hq = np.empty((n, n))
+        acc = np.zeros(5)
+        acc[4] = np.nan
+        z = Z0[o].copy()
+        W = W0[o].copy()
+        tangent_normalise(W)
+        st = check_state(z, box_lo, box_hi)
+        if st != OK:
+            status[o] = st
+            stop_step[o] = 0
+            continue
+        if constant_pp:
+            hess_pp(kern, z, prm, hp)
+        rec = 0
+        done = 0
+        for step in range(1, n_steps + 1):
+            for i in range(s + 1):
+                c = cc[i]
+                if not constant_pp:
+                    hess_pp(kern, z, prm, hp)
+                grad_p(kern, z, prm, gp)
+                for a in range(n):
+                    z[a] += c * gp[a]
+                for col in range(k):
+                    for a in range(n):
+                        t = 0.0
+                        for b in range(n):
+                            t += hp[a, b] * W[n + b, col]
+                        W[a, col] += c * t
+                if i == s:
+                    break
+                d = dd[i]
+                hess_qq(kern, z, prm, hq)
+                grad_q(kern, z, prm, gq)
+                for a in range(n):
+                    z[n + a] -= d * gq[a]
+                for col in range(k):
+                    for a in range(n):
+                        t = 0.0
+                        for b in range(n):
+                            t += hq[a, b] * W[b, col]
+                        W[n + a, col] -= d * t
+            st = check_state(z, box_lo, box_hi)
             if st != OK:
                 status[o] = st
                 stop_step[o] = step
