@@ -99,6 +99,11 @@ def cmd_check(args) -> int:
         what = "every iterate"
     print(f"ok: {study.source}: {study.system.name} ({study.system_form}), {study.seeds.count} seeds, "
           f"{sec.crossings} crossings, section {what}")
+    if study.structure is not None:
+        st = study.structure
+        region = ", ".join(f"{k} in [{lo:g}, {hi:g}]" for k, (lo, hi) in st.region.items())
+        print(f"  finds period-{st.period} orbits from {st.resolution} x {st.resolution} starts ({region})"
+              + (", with the manifolds of the unstable ones" if st.manifolds else ""))
     for spec in study.outputs:
         print(f"  writes {study.folder + '/' if study.folder else ''}{spec.file}")
     return OK

@@ -236,7 +236,7 @@ def test_check_and_equations_work_on_every_shipped_example(name, capsys):
 def test_the_shipped_examples_are_the_ones_tested():
     from phaselab.studies import example_names
 
-    assert example_names() == ["kicked_rotor", "molecule", "shaken_cart"]
+    assert example_names() == ["field_lines", "kicked_rotor", "molecule", "shaken_cart"]
 
 
 def test_every_shipped_example_renders(rendered):

@@ -615,3 +615,61 @@ def test_hostile_values_everywhere_give_only_study_file_errors():
     """, cpu=60)
     assert out.finished and out.error is None, out
     assert out.value == str(len(texts))
+
+
+def test_structure_table_finds_the_island_chain_and_writes_it(tmp_path):
+    """The shipped field-line study: its [structure] table finds the O- and X-points of the
+    2/5 island chain. Their residues, recomputed from the map's Jacobian written out by hand
+    and multiplied along the five points with numpy, agree: for psi' = psi - eps sin(5 theta),
+    theta' = theta + 2 pi (i0 + s psi'), in (theta, psi): dpsi'/dtheta = -5 eps cos(5 theta),
+    dtheta'/dtheta = 1 + 2 pi s dpsi'/dtheta, dtheta'/dpsi = 2 pi s (derived here);
+    R = (2 - tr M)/4 (Greene 1979)."""
+    import json
+    import math
+
+    from phaselab.studies import example_path, read_study, render_study
+
+    study = read_study(example_path("field_lines"))
+    assert study.structure.period == 5 and study.structure.manifolds
+    done = render_study(study, tmp_path)
+    data = json.loads((tmp_path / "island_chain.json").read_text())
+    eps, s = study.params["eps"], study.params["s"]
+    words = set()
+    for orbit in data["orbits"]:
+        M = np.eye(2)
+        for th in orbit["points"]["theta"]:
+            a = -5 * eps * math.cos(5 * th)
+            M = np.array([[1 + 2 * math.pi * s * a, 2 * math.pi * s], [a, 1.0]]) @ M
+        assert orbit["residue"] == pytest.approx((2 - np.trace(M)) / 4, abs=1e-9)
+        words.add(orbit["stability"])
+    assert words == {"stable", "unstable"}
+    assert len(done.manifolds) == 4 and (tmp_path / "field_lines.png").stat().st_size > 10_000
+
+
+def test_structure_table_errors_name_the_key():
+    from phaselab.errors import StudyFileError
+    from phaselab.studies import parse_study
+
+    base = """
+[system]
+map = [["p", "p + k*sin(q)"], ["q", "q + p"]]
+coordinates = ["q"]
+momenta = ["p"]
+[parameters]
+k = 0.5
+[section]
+crossings = 10
+[seeds]
+points = { q = [0.1], p = [0.2] }
+"""
+    with pytest.raises(StudyFileError, match="structure.period"):
+        parse_study(base + "[structure]\nregion = { q = [0, 1], p = [0, 1] }\n", "s.toml")
+    with pytest.raises(StudyFileError, match="structure.region"):
+        parse_study(base + "[structure]\nperiod = 2\nregion = { q = [0, 1] }\n", "s.toml")
+    with pytest.raises(StudyFileError, match="structure.region.z"):
+        parse_study(base + "[structure]\nperiod = 2\nregion = { q = [0, 1], z = [0, 1] }\n", "s.toml")
+    with pytest.raises(StudyFileError, match="structure.resolution"):
+        parse_study(base + "[structure]\nperiod = 2\nregion = { q = [0, 1], p = [0, 1] }\nresolution = 50\n",
+                    "s.toml")
+    with pytest.raises(StudyFileError, match="output.orbits"):
+        parse_study(base + '[output]\n[[output.orbits]]\nfile = "o.json"\n', "s.toml")

@@ -44,6 +44,8 @@ def _paths():
         "periodic orbit (drive)": lambda: phaselab.periodic_orbit(driven, [0.1, 0.0], dt=0.5),
         "periodic orbit (map)": lambda: phaselab.periodic_orbit(rotor, [0.01, 0.0]),
         "manifold (map)": lambda: phaselab.manifold(phaselab.periodic_orbit(rotor, [0.01, 0.0]), length=0.5),
+        "manifold (map, stable)": lambda: phaselab.manifold(phaselab.periodic_orbit(rotor, [0.01, 0.0]),
+                                                            branch="stable", length=0.5),
         "frequencies": lambda: phaselab.frequencies(flow, seeds, t=25.6, n=256, dt=0.1),
         "frequencies (map)": lambda: phaselab.frequencies(rotor, [[0.1, 0.2]], n=256),
     }

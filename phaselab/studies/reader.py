@@ -24,7 +24,7 @@ from phaselab.studies.paths import check_relative, confined_path
 from phaselab.studies.spec import (DATA_SUFFIXES, FIGURE_SUFFIXES, MAX_CROSSINGS, MAX_ORBITS,
                                    MAX_OUTPUTS, MAX_PIXELS, MAX_POINTS, OutputSpec, SectionSpec,
                                    SeedSpec, Study)
-from phaselab.studies.tables import read_output, read_seeds, read_section, read_system
+from phaselab.studies.tables import read_output, read_seeds, read_section, read_structure, read_system
 
 if sys.version_info >= (3, 11):
     import tomllib
@@ -38,7 +38,7 @@ __all__ = ["read_study", "parse_study", "Study", "SectionSpec", "SeedSpec", "Out
 #: largest study file read, in bytes
 MAX_FILE_BYTES = 256 * 1024
 
-_TOP_KEYS = ("study", "system", "parameters", "section", "seeds", "output")
+_TOP_KEYS = ("study", "system", "parameters", "section", "seeds", "structure", "output")
 
 
 def read_study(path) -> Study:
@@ -114,5 +114,9 @@ def _build(f: Fields, data: dict) -> Study:
     if total > MAX_POINTS:
         raise f.error("section.crossings", f"{seeds.count} orbits x {section.crossings} crossings "
                                            f"= {total} points; the limit is {MAX_POINTS}")
+    structure = read_structure(f, data, system, section)
     folder, outputs = read_output(f, data)
-    return Study(f.source, title, about, note, system, form, params, section, seeds, folder, outputs)
+    if structure is None and any(spec.kind == "orbits" for spec in outputs):
+        raise f.error("output.orbits", "writes the periodic orbits of a [structure] table, and the file has none")
+    return Study(f.source, title, about, note, system, form, params, section, seeds, folder, outputs,
+                 structure)

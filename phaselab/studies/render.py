@@ -41,12 +41,18 @@ class Rendered:
         Seeds without a state on the energy shell (index in the file's seed list, reason).
     messages : list of str
         Warnings raised while computing (orbits that never crossed, stopped orbits, ...).
+    orbits : PeriodicOrbits or None
+        The periodic orbits of the study's ``[structure]`` table.
+    manifolds : list of Manifold
+        Their manifolds, when asked for.
     """
 
     section: object
     files: list
     left_out: list = field(default_factory=list)
     messages: list = field(default_factory=list)
+    orbits: object = None
+    manifolds: list = field(default_factory=list)
 
     @property
     def n_orbits(self) -> int:
@@ -79,6 +85,12 @@ class Rendered:
             text += f", {escaped} stopped early"
         if self.left_out:
             text += f", {len(self.left_out)} seeds off the energy shell left out"
+        if self.orbits is not None:
+            words = [o.stability for o in self.orbits]
+            text += (f"; {len(words)} periodic orbits ({words.count('stable')} stable, "
+                     f"{len(words) - words.count('stable')} not)")
+            if self.manifolds:
+                text += f" and {len(self.manifolds)} manifold branches"
         return text
 
 
@@ -198,6 +210,39 @@ def compute_section(study: Study, progress=None):
     return join_sections(parts), left_out, messages
 
 
+def compute_structure(study: Study, sec):
+    """The periodic orbits (and manifolds) of the study's ``[structure]`` table, on the
+    section's plane, energy, step and method. Model results: figures carry the note."""
+    from phaselab.compute.manifolds import manifold
+    from phaselab.compute.periodic import find_periodic_orbits
+
+    spec = study.structure
+    opts = {"params": study.params, "region": spec.region, "resolution": spec.resolution}
+    kind = study.section.kind
+    if kind == "plane":
+        opts.update(plane=plane_of(study), energy=sec.energy, direction=study.section.direction,
+                    dt=sec.dt, method=sec.method)
+    elif kind == "stroboscopic":
+        opts.update(dt=sec.dt, method=sec.method)
+    try:
+        found = find_periodic_orbits(study.system, spec.period, **opts)
+        branches = []
+        if spec.manifolds:
+            for orbit in found:
+                if orbit.stability in ("unstable", "inverse-unstable") and orbit.monodromy.shape == (2, 2):
+                    for branch in ("unstable", "stable"):
+                        for side in (+1, -1):
+                            branches.append(manifold(orbit, branch=branch, side=side,
+                                                     length=spec.manifold_length))
+    except StudyFileError:
+        raise
+    except PhaselabError as exc:
+        raise StudyFileError(f"{study.source}: structure: {exc}") from None
+    except (ArithmeticError, RecursionError, NotImplementedError) as exc:
+        raise StudyFileError(f"{study.source}: structure: cannot compute ({type(exc).__name__}: {exc})") from None
+    return found, branches
+
+
 def join_sections(parts):
     """One :class:`Section` from sections of consecutive orbit batches."""
     from phaselab.compute.results import Section
@@ -205,7 +250,7 @@ def join_sections(parts):
     return Section.concat(parts)
 
 
-def write_outputs(study: Study, sec, out_dir) -> list[Path]:
+def write_outputs(study: Study, sec, out_dir, orbits=None, manifolds=()) -> list[Path]:
     """Write every output the study names, under ``out_dir`` (folders made as needed).
 
     Each path is checked to resolve inside ``out_dir``; the file is then written through a
@@ -232,13 +277,30 @@ def write_outputs(study: Study, sec, out_dir) -> list[Path]:
             options.setdefault("title", study.title or None)
             if study.note:
                 options.setdefault("note", study.note)
+        what = sec
+        if spec.kind == "orbits":
+            what = orbits
+        elif spec.kind == "figure" and orbits is not None:
+            # the structure over the section (the figure says these are model results)
+            from phaselab.export.structures import MODEL_NOTE, structure_figure
+
+            options.pop("point_size", None)
+            if "model result" not in (options.get("note") or "").lower():
+                options["note"] = " ".join(t for t in (options.get("note"), MODEL_NOTE) if t)
+            what = _StructureFigure(structure_figure(list(manifolds) + [orbits], section=sec,
+                                                     **{k: v for k, v in options.items() if k != "dpi"}),
+                                    options.get("dpi", 150))
+            options = {}
         fd = open_output_folder(Path(out_dir), study.folder, spec.file, study.source)
         try:
             target = folder_path(fd, path.parent) / path.name
             # without /proc the write goes by path: re-check that it still names the same folder
             if target.parent == path.parent and not os.path.samestat(os.fstat(fd), os.stat(path.parent)):
                 raise f.error(key, f"folder {path.parent} changed while it was being written to")
-            save(sec, target, **options)
+            if isinstance(what, _StructureFigure):
+                what.save(target)
+            else:
+                save(what, target, **options)
         except StudyFileError:
             raise
         except PhaselabError as exc:
@@ -269,5 +331,25 @@ def render_study(study: Study, out_dir, progress=None) -> Rendered:
     """
     out_dir = Path(out_dir)
     sec, left_out, messages = compute_section(study, progress=progress)
-    files = write_outputs(study, sec, out_dir)
-    return Rendered(sec, files, left_out, messages)
+    orbits, branches = (None, [])
+    if study.structure is not None:
+        orbits, branches = compute_structure(study, sec)
+    files = write_outputs(study, sec, out_dir, orbits, branches)
+    return Rendered(sec, files, left_out, messages, orbits, branches)
+
+
+@dataclass
+class _StructureFigure:
+    """A finished matplotlib figure of the structure, written atomically by suffix."""
+
+    figure: object
+    dpi: float
+
+    def save(self, path):
+        import matplotlib
+
+        from phaselab.export.figures import _RC
+        from phaselab.export.files import atomic_path
+
+        with matplotlib.rc_context(_RC), atomic_path(path) as tmp:
+            self.figure.savefig(tmp, format=Path(path).suffix[1:].lower(), dpi=self.dpi, facecolor="white")

@@ -97,13 +97,44 @@ class SeedSpec:
 
 
 @dataclass
+class StructureSpec:
+    """The ``[structure]`` table: periodic orbits to find (and the manifolds of the unstable
+    ones to grow), drawn over the section's figures and written by ``[[output.orbits]]``.
+
+    Attributes
+    ----------
+    period : int
+        Returns per period (iterates, drive periods or crossings of the plane).
+    region : dict of str to (float, float)
+        Two state components and the ranges a grid of starts covers.
+    resolution : int
+        Starts per axis of that grid.
+    manifolds : bool
+        Grow both branches of the stable and unstable manifolds of every unstable orbit.
+    manifold_length : float
+        Arclength of each branch from each orbit point (reduced coordinates).
+    """
+
+    period: int
+    region: dict
+    resolution: int = 8
+    manifolds: bool = False
+    manifold_length: float = 2.0
+
+
+MAX_STARTS = 400
+"""Most starting points of a study's periodic-orbit search (resolution squared)."""
+
+
+@dataclass
 class OutputSpec:
-    """One file to write: a figure (.svg/.pdf/.png) or a data file (.csv/.nc).
+    """One file to write: a figure (.svg/.pdf/.png), a section data file (.csv/.nc), or the
+    periodic orbits of ``[structure]`` (.json/.nc).
 
     Attributes
     ----------
     kind : str
-        ``"figure"`` or ``"data"``.
+        ``"figure"``, ``"data"`` or ``"orbits"``.
     file : str
         Path relative to the output folder (checked not to leave it).
     options : dict
@@ -137,6 +168,8 @@ class Study:
     folder : str
         Sub-folder of the output folder the files go in ("" for the output folder itself).
     outputs : list of OutputSpec
+    structure : StructureSpec or None
+        Periodic orbits (and manifolds) to find, from ``[structure]``.
     """
 
     source: str
@@ -150,6 +183,7 @@ class Study:
     seeds: SeedSpec
     folder: str
     outputs: list
+    structure: StructureSpec | None = None
 
     def output_paths(self, out_dir) -> list[Path]:
         """The paths the outputs are written to under ``out_dir`` (confined to it)."""

@@ -422,13 +422,13 @@ def read_seeds(f: Fields, data: dict, system, section: SectionSpec) -> SeedSpec:
 # ====================================================================== [output]
 def read_output(f: Fields, data: dict):
     out = f.table(data, "", "output")
-    f.only_keys(out, "output", ("folder", "figure", "data"))
+    f.only_keys(out, "output", ("folder", "figure", "data", "orbits"))
     folder = ""
     if "folder" in out:
         folder = f.string(out, "output", "folder", max_length=200)
         check_relative(f, folder, "output.folder")
     specs: list[OutputSpec] = []
-    for kind in ("figure", "data"):
+    for kind in ("figure", "data", "orbits"):
         items = out.get(kind, [])
         if isinstance(items, dict):
             items = [items]
@@ -444,7 +444,7 @@ def read_output(f: Fields, data: dict):
                 f.only_keys(item, full, ("file",))
             name = f.string(item, full, "file", required=True, max_length=300)
             check_relative(f, name, f"{full}.file")
-            suffixes = FIGURE_SUFFIXES if kind == "figure" else DATA_SUFFIXES
+            suffixes = {"figure": FIGURE_SUFFIXES, "data": DATA_SUFFIXES, "orbits": ORBIT_SUFFIXES}[kind]
             suffix = PurePosixPath(name).suffix.lower()
             if suffix not in suffixes:
                 raise f.error(f"{full}.file", f"a {kind} file ends in {', '.join(suffixes)}, got {name!r}")
@@ -477,3 +477,40 @@ def read_output(f: Fields, data: dict):
     if dupes:
         raise f.error("output", f"file {dupes[0]!r} is named twice")
     return folder, specs
+
+
+ORBIT_SUFFIXES = (".json", ".nc")
+
+
+def read_structure(f: Fields, data: dict, system, section):
+    """The optional ``[structure]`` table (see :class:`~phaselab.studies.spec.StructureSpec`)."""
+    from phaselab.studies.spec import MAX_STARTS, StructureSpec
+
+    if "structure" not in data:
+        return None
+    table = f.table(data, "", "structure")
+    f.only_keys(table, "structure", ("period", "region", "resolution", "manifolds", "manifold_length"))
+    period = f.integer(table, "structure", "period", required=True, low=1, high=1000)
+    region = table.get("region")
+    if not isinstance(region, dict) or len(region) != 2:
+        raise f.error("structure.region", "must name two state components with [low, high], "
+                                          "e.g. { y = [-0.4, 0.6], py = [-0.3, 0.3] }")
+    names = [s.name for s in system.state_symbols]
+    checked = {}
+    for key, rng in region.items():
+        if key not in names:
+            raise f.error(f"structure.region.{key}", f"is not a state component; the state is "
+                                                     f"{', '.join(names)}")
+        lo, hi = f.numbers(rng, f"structure.region.{key}", length=2)
+        if not lo < hi:
+            raise f.error(f"structure.region.{key}", f"needs low < high, got [{lo:g}, {hi:g}]")
+        checked[key] = (lo, hi)
+    resolution = f.integer(table, "structure", "resolution", default=8, low=1, high=100)
+    if resolution ** 2 > MAX_STARTS:
+        raise f.error("structure.resolution", f"{resolution} x {resolution} starts; the limit is {MAX_STARTS}")
+    manifolds = table.get("manifolds", False)
+    if not isinstance(manifolds, bool):
+        raise f.error("structure.manifolds", f"must be true or false, got {manifolds!r}")
+    length = f.get_number(table, "structure", "manifold_length", positive=True, high=100)
+    return StructureSpec(period=int(period), region=checked, resolution=resolution, manifolds=manifolds,
+                         manifold_length=2.0 if length is None else float(length))
