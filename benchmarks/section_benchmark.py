@@ -260,7 +260,6 @@ def main():
         print(f"20-orbit section: 1 thread {t1:.4f} s, 2 threads {t2:.4f} s, speed-up {t1 / t2:.2f}x")
     else:
         print("only one numba thread available: no thread speed-up measured")
-    import os
 
     print(f"load average while running: {os.getloadavg()[0]:.2f} on {os.cpu_count()} cores "
           "(timings are best-of-runs; a loaded machine makes the 2-thread figures pessimistic)")
