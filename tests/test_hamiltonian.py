@@ -241,6 +241,24 @@ def test_separability_of_a_high_power_is_decided_without_expanding():
     assert out.cpu < 2.0 and out.rss_mib < 400, out
 
 
+@pytest.mark.parametrize("text", [
+    "(x + y + 1)**7", "(x + 1)**(5/2)", "(E + 5)**(6 - x)", "(pi + E)**(3 + y)",
+    "(x + y)**(-4)", "exp(x + 1)**3", "(x + 1)**y", "(2 + sqrt(3))**(4 - x) * (x + y)**2",
+    "x**1000", "(x + y + 1)**3 / (x - y)**2",
+])
+def test_expansion_estimate_bounds_sympys_expansion(text):
+    """expanded_terms is an upper bound on the terms sympy's own ``expand`` produces (the
+    reference), including the powers ``expand`` splits off an exponent ``c + rest`` of a
+    positive base (``(E + 5)**(6 - x)`` becomes six terms over ``(E + 5)**x``)."""
+    from phaselab.model.limits import expanded_terms
+
+    x, y = sp.symbols("x y")
+    expr = sp.sympify(text, locals={"x": x, "y": y})
+    expanded = sp.expand(expr)
+    actual = len(expanded.args) if expanded.is_Add else 1
+    assert actual <= expanded_terms(expr) <= 400, (actual, expanded_terms(expr))
+
+
 def test_separability_says_how_it_was_decided():
     assert models.henon_heiles().separable_check == "symbolic"
     # p (sin 2q - 2 sin q cos q) vanishes by the double-angle identity (common practice), but

@@ -80,16 +80,15 @@ def expanded_terms(expr: sp.Basic, limit: int = EXPAND_MAX_TERMS) -> int:
         elif e.is_Pow:
             base = terms(e.base)
             exp_terms = terms(e.exp)
-            n = abs(e.exp) if e.exp.is_Integer else e.exp
-            if n.is_Integer and n > 0 and base > 1:
+            n = _whole_part(e.exp, limit)
+            if max(base, exp_terms) >= cap or (n > limit and base > 1):
+                out = cap
+            elif n > 0 and base > 1:
                 # b**-n counts as b**n: combining fractions (together, cancel) multiplies
                 # the denominators out
-                if n > limit:
-                    out = cap
-                else:
-                    out = min(cap, math.comb(base + int(n) - 1, int(n)))
+                out = min(cap, math.comb(base + n - 1, n))
             else:
-                out = cap if max(base, exp_terms) >= cap else 1
+                out = 1
         else:  # a function: one term if its arguments are small
             out = cap if any(terms(a) >= cap for a in e.args) else 1
         memo[e] = out
@@ -98,6 +97,24 @@ def expanded_terms(expr: sp.Basic, limit: int = EXPAND_MAX_TERMS) -> int:
     if tree_size(expr, limit=50 * limit) > 50 * limit:
         return cap
     return terms(expr)
+
+
+def _whole_part(exponent: sp.Basic, limit: int) -> int:
+    """The whole power ``expand`` may multiply out of ``b**exponent``, capped at ``limit + 1``.
+
+    An integer exponent is multiplied out in full, a fraction ``p/q`` by its whole part (``b**(5/2)``
+    becomes ``b**2 * sqrt(b)``), and an exponent ``c + rest`` with a number ``c`` is split
+    into ``b**c * b**rest`` when sympy knows ``b`` is positive, so ``(E + 5)**(1000 - x)``
+    expands ``(E + 5)**1000``. A float part counts the same way (an over-estimate: floats
+    are left unexpanded), which keeps the estimate an upper bound.
+    """
+    coeff = exponent.as_coeff_Add()[0] if (exponent.is_Add or exponent.is_Number) else None
+    if coeff is None or not coeff.is_Number or not coeff.is_finite:
+        return 0 if coeff is None or coeff.is_finite is not False else limit + 1
+    size = abs(coeff)
+    if size > limit:
+        return limit + 1
+    return int(size)
 
 
 def plain_det(matrix: sp.Matrix) -> sp.Expr:
