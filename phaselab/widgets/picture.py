@@ -64,8 +64,8 @@ def view_figure(snap: Snapshot, size=(7.2, 5.4), dpi=150):
             ax.plot(c[:, 0], c[:, 1], color=theme.BOUNDARY, linewidth=1.0, zorder=1.5)
         art = None
         if snap.scale is not None:
-            cmap = LinearSegmentedColormap.from_list("explorer", snap.scale.palette(), N=256)
-            cmap.set_bad(theme.MISSING_COLOR)
+            cmap = LinearSegmentedColormap.from_list("explorer", snap.scale.palette(), N=256).with_extremes(
+                bad=theme.MISSING_COLOR)
         for pts, colour, value in snap.orbits:
             if not len(pts):
                 continue
