@@ -45,15 +45,21 @@ def tangent_update(W, t, h, acc):
     for j in range(W.shape[0]):
         W[j, 0] /= g
     if W.shape[1] > 1:
-        g2 = tangent_norm(W, 1)
-        for j in range(W.shape[0]):
-            W[j, 1] /= g2
-        plus = 0.0
-        minus = 0.0
-        for j in range(W.shape[0]):
-            plus += (W[j, 0] + W[j, 1]) ** 2
-            minus += (W[j, 0] - W[j, 1]) ** 2
-        acc[4] = min(math.sqrt(plus), math.sqrt(minus))
+        tangent_second(W, acc)
+
+
+@njit(cache=True, nogil=True)
+def tangent_second(W, acc):
+    """Renormalise the second deviation vector and put SALI into ``acc[4]``."""
+    g2 = tangent_norm(W, 1)
+    for j in range(W.shape[0]):
+        W[j, 1] /= g2
+    plus = 0.0
+    minus = 0.0
+    for j in range(W.shape[0]):
+        plus += (W[j, 0] + W[j, 1]) ** 2
+        minus += (W[j, 0] - W[j, 1]) ** 2
+    acc[4] = min(math.sqrt(plus), math.sqrt(minus))
 
 
 @njit(cache=True, nogil=True)
@@ -119,7 +125,11 @@ def tangent_composition_indicators(kern, Z0, W0, prm, h, n_steps, record_every, 
     same order as ``composition_tangent_step``, without its calls, so the compiler keeps
     the small arrays of one orbit close at hand (the hot loop of chaos maps). With
     ``constant_pp`` (d2H/dp2 the same everywhere, as for a kinetic energy quadratic in the
-    momenta) that block is evaluated once per orbit."""
+    momenta) that block is evaluated once per orbit, and when it is also diagonal the drift
+    of the deviation vectors multiplies by its diagonal only (the same numbers: the full
+    product adds exact zeros). The running sums of :func:`tangent_update` are kept in local
+    variables and written to ``acc`` only when stored; the arithmetic is the same, in the
+    same order, so the values agree with :func:`tangent_flow_indicators` to the last bit."""
     n_orb = Z0.shape[0]
     m = Z0.shape[1]
     s = weights.shape[0]
@@ -146,10 +156,22 @@ def tangent_composition_indicators(kern, Z0, W0, prm, h, n_steps, record_every, 
             status[o] = st
             stop_step[o] = 0
             continue
+        diagonal_pp = False
+        hpd = np.empty(n)
         if constant_pp:
             hess_pp(kern, z, prm, hp)
+            diagonal_pp = True
+            for a in range(n):
+                hpd[a] = hp[a, a]
+                for b in range(n):
+                    if a != b and hp[a, b] != 0.0:
+                        diagonal_pp = False
         rec = 0
         done = 0
+        log_sum = 0.0
+        fli = 0.0
+        y_int = 0.0
+        y_mean = 0.0
         for step in range(1, n_steps + 1):
             for i in range(s + 1):
                 c = cc[i]
@@ -158,12 +180,17 @@ def tangent_composition_indicators(kern, Z0, W0, prm, h, n_steps, record_every, 
                 grad_p(kern, z, prm, gp)
                 for a in range(n):
                     z[a] += c * gp[a]
-                for col in range(k):
-                    for a in range(n):
-                        t = 0.0
-                        for b in range(n):
-                            t += hp[a, b] * W[n + b, col]
-                        W[a, col] += c * t
+                if diagonal_pp:
+                    for col in range(k):
+                        for a in range(n):
+                            W[a, col] += c * (hpd[a] * W[n + a, col])
+                else:
+                    for col in range(k):
+                        for a in range(n):
+                            t = 0.0
+                            for b in range(n):
+                                t += hp[a, b] * W[n + b, col]
+                            W[a, col] += c * t
                 if i == s:
                     break
                 d = dd[i]
@@ -182,11 +209,28 @@ def tangent_composition_indicators(kern, Z0, W0, prm, h, n_steps, record_every, 
                 status[o] = st
                 stop_step[o] = step
                 break
-            tangent_update(W, step * h, h, acc)
+            # tangent_update, with the running sums in local variables
+            g = 0.0
+            for j in range(2 * n):
+                g += W[j, 0] * W[j, 0]
+            g = math.sqrt(g)
+            growth = math.log(g)
+            log_sum += growth
+            if log_sum > fli:
+                fli = log_sum
+            now = step * h
+            y_int += 2.0 * (now - 0.5 * h) * growth
+            y_mean += (y_int / now - y_mean) * h / now
+            for j in range(2 * n):
+                W[j, 0] /= g
+            if k > 1:
+                tangent_second(W, acc)
             done = step
             if record_every > 0 and step % record_every == 0 and rec < history.shape[1]:
-                tangent_store(o, step * h, acc, history[:, rec])
+                acc[0], acc[1], acc[2], acc[3] = log_sum, fli, y_int, y_mean
+                tangent_store(o, now, acc, history[:, rec])
                 rec += 1
+        acc[0], acc[1], acc[2], acc[3] = log_sum, fli, y_int, y_mean
         if done > 0:
             tangent_store(o, done * h, acc, final)
 
