@@ -19,6 +19,8 @@ from pathlib import Path
 
 import numpy as np
 
+from phaselab.compute.labels import plain
+
 #: Time-averaged MEGNO above which an orbit is called chaotic. On quasi-periodic orbits the
 #: MEGNO tends to 2, on stable isochronous motion to 0, and on chaotic orbits it grows like
 #: lambda t / 2 (Cincotta & Simo 2000, Astron. Astrophys. Suppl. 147, 205), so 3 separates
@@ -215,24 +217,9 @@ def megno_panels(maps, titles, xlabel: str, ylabel: str, threshold: float = MEGN
     return fig
 
 
-def _plain(value):
-    """JSON form of numpy scalars and arrays (NaN becomes null)."""
-    if isinstance(value, dict):
-        return {str(k): _plain(v) for k, v in value.items()}
-    if isinstance(value, (list, tuple)):
-        return [_plain(v) for v in value]
-    if isinstance(value, np.ndarray):
-        return _plain(value.tolist())
-    if isinstance(value, np.generic):
-        value = value.item()
-    if isinstance(value, float) and not math.isfinite(value):
-        return None
-    return value
-
-
 def write_summary(out_dir, **values) -> Path:
     """Record the numbers this run produced as ``out_dir/summary.json`` (the gallery tests
     read it back)."""
-    text = json.dumps(_plain(values), indent=1)
+    text = json.dumps(plain(values, nan_as_none=True), indent=1)
     path = output_folder(out_dir) / "summary.json"
     return write_atomically(path, lambda tmp: tmp.write_text(text))

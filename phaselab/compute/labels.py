@@ -124,7 +124,7 @@ def netcdf_attrs(meta: dict) -> dict:
     out = {}
     for key, value in meta.items():
         if isinstance(value, (dict, list, tuple)) or value is None:
-            out[key] = json.dumps(_plain(value), allow_nan=True)
+            out[key] = json.dumps(plain(value), allow_nan=True)
         elif isinstance(value, (bool, np.bool_)):
             out[key] = int(value)
         elif isinstance(value, np.generic):
@@ -134,13 +134,18 @@ def netcdf_attrs(meta: dict) -> dict:
     return out
 
 
-def _plain(value):
+def plain(value, nan_as_none: bool = False):
+    """numpy scalars and arrays inside ``value`` (dicts, lists and tuples, to any depth)
+    turned into Python numbers and lists, for JSON and for file attributes; with
+    ``nan_as_none`` non-finite floats become ``None`` (JSON ``null``)."""
     if isinstance(value, dict):
-        return {str(k): _plain(v) for k, v in value.items()}
+        return {str(k): plain(v, nan_as_none) for k, v in value.items()}
     if isinstance(value, (list, tuple)):
-        return [_plain(v) for v in value]
+        return [plain(v, nan_as_none) for v in value]
     if isinstance(value, np.ndarray):
-        return _plain(value.tolist())
+        return plain(value.tolist(), nan_as_none)
     if isinstance(value, np.generic):
-        return value.item()
+        value = value.item()
+    if nan_as_none and isinstance(value, float) and not np.isfinite(value):
+        return None
     return value

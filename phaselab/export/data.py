@@ -36,7 +36,8 @@ import numpy as np
 
 from phaselab.compute.codes import LEFT_BOX, OK, STATUS
 from phaselab.errors import PhaselabError
-from phaselab.export.describe import _plain, check_section, section_metadata
+from phaselab.compute.labels import plain
+from phaselab.export.describe import check_section, section_metadata
 from phaselab.export.files import atomic_path
 
 FORMAT_LINE = "# phaselab section data"
@@ -86,7 +87,7 @@ def _rows(section, counts):
 
 
 def _dump(value) -> str:
-    return json.dumps(_plain(value), ensure_ascii=False, allow_nan=True)
+    return json.dumps(plain(value), ensure_ascii=False, allow_nan=True)
 
 
 # ---------------------------------------------------------------------------------- CSV
@@ -348,7 +349,7 @@ def read_section_netcdf(path):
         if key == "format":
             continue
         try:
-            meta[key] = json.loads(value) if key in _JSON_ATTRS else _plain(value)
+            meta[key] = json.loads(value) if key in _JSON_ATTRS else plain(value)
         except (TypeError, ValueError, RecursionError):
             raise PhaselabError(f"{path}: attribute {key!r} is not valid") from None
     try:

@@ -10,7 +10,7 @@ import math
 
 import numpy as np
 
-from phaselab.compute.labels import expression_text  # noqa: F401  (re-exported)
+from phaselab.compute.labels import expression_text, plain  # noqa: F401  (expression_text re-exported)
 
 from phaselab.errors import PhaselabError
 
@@ -177,19 +177,6 @@ def plain_label(symbol) -> str:
     return "_".join(parts)
 
 
-def _plain(value):
-    """numpy scalars and arrays -> Python numbers and lists (for JSON and attrs)."""
-    if isinstance(value, np.generic):
-        return value.item()
-    if isinstance(value, np.ndarray):
-        return value.tolist()
-    if isinstance(value, dict):
-        return {str(k): _plain(v) for k, v in value.items()}
-    if isinstance(value, (list, tuple)):
-        return [_plain(v) for v in value]
-    return value
-
-
 def used_params(section) -> dict:
     """Parameter values in force: the system's defaults overridden by ``section.params``."""
     system = getattr(section, "system", None)
@@ -198,7 +185,7 @@ def used_params(section) -> dict:
     if isinstance(defaults, dict):
         params.update(defaults)
     params.update(getattr(section, "params", None) or {})
-    return {str(k): _plain(v) for k, v in params.items()}
+    return {str(k): plain(v) for k, v in params.items()}
 
 
 def section_metadata(section) -> dict:
@@ -223,7 +210,7 @@ def section_metadata(section) -> dict:
         "axes": [int(a) for a in section.axes],
         "params": used_params(section),
         "energy": None if energy is None else float(energy),
-        "plane": _plain(dict(getattr(section, "plane", None) or {})),
+        "plane": plain(dict(getattr(section, "plane", None) or {})),
         "method": str(getattr(section, "method", "") or ""),
         "dt": float(getattr(section, "dt", math.nan)),
         "phaselab_version": __version__,
