@@ -509,7 +509,7 @@ class LoopSet:
         mark = (entry, form, str(sig))
         if mark in self._checked:
             return disp
-        what = f"{entry} for this system" if form == "inlined" else f"{entry} (once per machine)"
+        what = f"the loop {entry} " + ("for this system" if form == "inlined" else "that all systems share")
         try:
             with compiling(what):
                 disp.compile(sig)
