@@ -244,7 +244,7 @@ def test_separability_of_a_high_power_is_decided_without_expanding():
 @pytest.mark.parametrize("text", [
     "(x + y + 1)**7", "(x + 1)**(5/2)", "(E + 5)**(6 - x)", "(pi + E)**(3 + y)",
     "(x + y)**(-4)", "exp(x + 1)**3", "(x + 1)**y", "(2 + sqrt(3))**(4 - x) * (x + y)**2",
-    "x**1000", "(x + y + 1)**3 / (x - y)**2",
+    "x**1000", "(x + y + 1)**3 / (x - y)**2", "7**(6 - x) * (x + 1)",
 ])
 def test_expansion_estimate_bounds_sympys_expansion(text):
     """expanded_terms is an upper bound on the terms sympy's own ``expand`` produces (the
@@ -257,6 +257,19 @@ def test_expansion_estimate_bounds_sympys_expansion(text):
     expanded = sp.expand(expr)
     actual = len(expanded.args) if expanded.is_Add else 1
     assert actual <= expanded_terms(expr) <= 400, (actual, expanded_terms(expr))
+
+
+def test_powers_that_would_compute_huge_numbers_are_recognised():
+    """7**(10**15 - x) expands (and cse's preprocessing factors) to 7**(10**15) * 7**(-x),
+    a number of 2.8e15 bits; 7**(6 - x) gives 117649 * 7**(-x), which is harmless."""
+    from phaselab.model.limits import EXPAND_MAX_TERMS, expanded_terms, has_huge_number_power
+
+    x = sp.Symbol("x")
+    huge = sp.Integer(7) ** (10**15 - x)
+    assert has_huge_number_power(huge) and expanded_terms(huge) > EXPAND_MAX_TERMS
+    assert has_huge_number_power(sp.Rational(3, 2) ** (sp.Rational(10**6, 7) + x))
+    assert not has_huge_number_power(sp.Integer(7) ** (6 - x))
+    assert not has_huge_number_power(sp.Float(2.5) ** (10**15 + x))  # floats are cheap
 
 
 def test_separability_says_how_it_was_decided():

@@ -16,6 +16,7 @@ from sympy.printing.codeprinter import PrintMethodNotImplementedError
 from sympy.printing.pycode import PythonCodePrinter
 
 from phaselab.errors import ModelError
+from phaselab.model.limits import has_huge_number_power
 
 
 class KernelPrinter(PythonCodePrinter):
@@ -199,8 +200,11 @@ def print_expressions(exprs: Sequence[sp.Expr], skip_zero: bool = False, what: s
         return Printed([], [], set())
     for i, e in pairs:
         check_supported(e, f"{what} (entry {i})", display)
+    # cse's "basic" preprocessing pulls numbers out of powers exactly: a power such as
+    # 7**(10**15 - x) would be computed to 10**15 digits, so such sets are taken as they are
+    plain = any(has_huge_number_power(e) for _, e in pairs)
     replacements, reduced = sp.cse([e for _, e in pairs], symbols=sp.numbered_symbols("c"),
-                                   optimizations="basic")
+                                   optimizations=None if plain else "basic")
     printer = KernelPrinter()
     temps, values = [], []
     used: set[str] = set()

@@ -17,6 +17,9 @@ EXPAND_MAX_TERMS = 400
 #: most nodes (counted as a tree, shared parts counted each time they are used) an
 #: expression built from user rules may have
 MAX_TREE_NODES = 20_000
+#: largest number (in bits) an expansion may compute exactly: the parser's own cap on the
+#: numbers a user writes is 4,300 digits, about 14,300 bits
+MAX_NUMBER_BITS = 20_000
 
 
 def tree_size(expr: sp.Basic, limit: int | None = None) -> int:
@@ -80,8 +83,8 @@ def expanded_terms(expr: sp.Basic, limit: int = EXPAND_MAX_TERMS) -> int:
         elif e.is_Pow:
             base = terms(e.base)
             exp_terms = terms(e.exp)
-            n = _whole_part(e.exp, limit)
-            if max(base, exp_terms) >= cap or (n > limit and base > 1):
+            n = _whole_part(e.exp, MAX_NUMBER_BITS)
+            if max(base, exp_terms) >= cap or (n > limit and base > 1) or _number_too_big(e.base, n):
                 out = cap
             elif n > 0 and base > 1:
                 # b**-n counts as b**n: combining fractions (together, cancel) multiplies
@@ -97,6 +100,26 @@ def expanded_terms(expr: sp.Basic, limit: int = EXPAND_MAX_TERMS) -> int:
     if tree_size(expr, limit=50 * limit) > 50 * limit:
         return cap
     return terms(expr)
+
+
+def has_huge_number_power(expr: sp.Basic) -> bool:
+    """Whether some power in ``expr`` has a rational base (or a product with a rational
+    coefficient) and an exponent whose number part would make that number exceed
+    :data:`MAX_NUMBER_BITS` bits if computed exactly, as ``expand``, ``factor_terms`` and
+    the "basic" preprocessing of ``cse`` do (``7**(10**15 - x)``)."""
+    return any(_number_too_big(p.base, _whole_part(p.exp, MAX_NUMBER_BITS)) for p in expr.atoms(sp.Pow))
+
+
+def _number_too_big(base: sp.Basic, n: int) -> bool:
+    """Whether expanding ``base**(n + ...)`` would compute a number of more than
+    :data:`MAX_NUMBER_BITS` bits: ``expand`` raises a rational base, or the rational
+    coefficient of a product, to the whole power ``n`` exactly (``7**(10**15 - x)`` becomes
+    ``7**(10**15) * 7**(-x)``)."""
+    number = base if base.is_Number else (base.as_coeff_Mul()[0] if base.is_Mul else None)
+    if number is None or not number.is_Rational or n <= 1:
+        return False
+    size = max(abs(number.p), abs(number.q))
+    return size > 1 and n * size.bit_length() > MAX_NUMBER_BITS
 
 
 def _whole_part(exponent: sp.Basic, limit: int) -> int:
