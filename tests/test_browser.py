@@ -209,6 +209,8 @@ def test_explorer_in_jupyterlab(lab):
             page.wait_for_timeout(500)
             page.locator(".phaselab-explorer").first.screenshot(path=str(ARTIFACTS / "explorer-start.png"))
             assert summary["seeds"] == 3 and summary["ring"] == 1 and summary["boundary"] > 0
+            # every orbit of the demo has 300 crossings: the page holds each exactly once
+            assert summary["points"] == 3 * 300, summary
             seen = page.evaluate("() => window.__seen")
             assert not [t for t in seen if "no orbits yet" in t], seen  # never while orbits are on the way
             busy = [t for t in seen if "compiling" in t or "computing" in t or "on the way" in t]
@@ -262,6 +264,7 @@ def test_explorer_in_jupyterlab(lab):
                           f"sent to the kernel: median {np.nanmedian(parts):.0f} ms; load average before "
                           f"{load_before[0]:.2f}, after {load_after[0]:.2f}")
             assert page.evaluate("() => window.__pl.len('phaselab-seeds', 'x')") == 23, _status(page)
+            assert page.evaluate("() => window.__pl.summary()")["points"] == 23 * 300
             # the readout under the plot names the orbit point under the pointer
             px, py = page.evaluate("() => { const d = window.__pl.src('phaselab-newest').data;"
                                    " return window.__pl.screen(d.x[5], d.y[5]); }")

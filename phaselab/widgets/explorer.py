@@ -296,7 +296,13 @@ class Explorer(W.VBox):
             if records:
                 previous = self.session.newest
                 self.session.add(records)
-                self._draw_added(previous, records)
+                if previous is None:
+                    # the first orbits (often while the page is still building its view from
+                    # a fresh copy of the document): set the data whole, which a page cannot
+                    # apply twice, where a stream arriving after that copy would be doubled
+                    self._draw_all()
+                else:
+                    self._draw_added(previous, records)
                 self._update_pick()
             accepted.extend(records)
             self.last_timing["orbit"] = time.perf_counter() - t_asked
