@@ -43,13 +43,14 @@ def _serialize(explorer, event_or_value):
     return Serializer(references=set(doc.models)).encode(event_or_value)
 
 
-def send_tap(explorer, x, y):
-    """What the page sends for a click at data coordinates (x, y)."""
+def send_tap(explorer, x, y, name="tap"):
+    """What the page sends for a click at data coordinates (x, y) (``name="doubletap"`` for
+    a click within 300 ms of the one before, which the page reports as a double tap)."""
     model_ref = _serialize(explorer, explorer.figures.main)  # {"id": ...}
     values = {"type": "map", "entries": [["model", model_ref], ["sx", 200.0], ["sy", 150.0],
                                          ["x", x], ["y", y]]}
     content = {"event": "jsevent", "kind": "MessageSent", "msg_type": "bokeh_event",
-               "msg_data": {"type": "event", "name": "tap", "values": values}}
+               "msg_data": {"type": "event", "name": name, "values": values}}
     explorer.bokeh._sync_model(explorer.bokeh, content, [])
 
 
@@ -117,6 +118,18 @@ def test_second_tap_appends_and_colours_differ(hh):
     np.testing.assert_allclose(x2, rx, atol=1e-12)
     np.testing.assert_allclose(y2, ry, atol=1e-12)
     assert len(set(np.asarray(ex.figures.all_points()["shade"]).tolist())) == 2
+
+
+def test_quick_second_click_elsewhere_is_a_click(hh):
+    """BokehJS reports any click within 300 ms of the previous one as a double tap, wherever
+    it lands (its doubletap_threshold): elsewhere it starts an orbit like a click; on the
+    same spot (a double click) it adds nothing."""
+    ex = phaselab.explore(hh, energy=E0, background=False)
+    send_tap(ex, 0.1, 0.05)
+    send_tap(ex, -0.2, 0.1, name="doubletap")
+    assert [o.seed for o in ex.orbits] == [(0.1, 0.05), (-0.2, 0.1)]
+    send_tap(ex, -0.2, 0.1, name="doubletap")
+    assert len(ex.orbits) == 2
 
 
 def test_energy_slider_recomputes_every_orbit(hh):

@@ -124,6 +124,7 @@ class Explorer(W.VBox):
         self._pending = 0
         self._serial = 0
         self._frame = None
+        self._last_tap = None
         self._fitted = None
         self.structures: list = []
         self._quiet = False
@@ -136,9 +137,12 @@ class Explorer(W.VBox):
         self.controls = c = Controls(self.name, self.view.describe(), f"pl-readout-{self._uid}",
                                      self.picture.hide_rule)
         self.figures = Figures(self.view.axis_labels, self.view.ranges, self.view.panels(), f"pl-readout-{self._uid}")
-        from bokeh.events import Tap
+        from bokeh.events import DoubleTap, Tap
 
         self.figures.main.on_event(Tap, self._on_tap)
+        # the page calls a second click within 300 ms a double tap, wherever it lands: it is
+        # a click too (unless it repeats the last one on the same spot)
+        self.figures.main.on_event(DoubleTap, self._on_double_tap)
         self.figures.probe.on_change("data", self._on_drag)
         self.figures.latest.on_change("data", self._on_drag)
         self.bokeh = LiveBokehModel(self.figures.layout, combine_events=False)
@@ -717,10 +721,19 @@ class Explorer(W.VBox):
         x, y = event.x, event.y
         if x is None or y is None:
             return
+        self._last_tap = (x, y)
         if self.controls.click.value == "periodic":
             self.find_periodic_orbit(x, y)
         else:
             self.add_seed(x, y)
+
+    def _on_double_tap(self, event):
+        last = self._last_tap
+        if last is not None and event.x is not None and event.y is not None:
+            (x0, x1), (y0, y1) = self.figures.view_ranges
+            if abs(event.x - last[0]) <= 0.005 * abs(x1 - x0) and abs(event.y - last[1]) <= 0.005 * abs(y1 - y0):
+                return  # a double click: its first click made the orbit already
+        self._on_tap(event)
 
     def _on_drag(self, attr, old, new):
         if self._quiet or not self.session.orbits:
@@ -1060,8 +1073,8 @@ class Explorer(W.VBox):
         return self.color_by
 
     def _held(self):
-        """Collect the bokeh changes made inside into one message to the page, sent before
-        the changes of the status, count and orbit list (the points come first)."""
+        """Collect the bokeh changes made inside into one patch to the page (applied and drawn
+        at once), sent before the changes of the status, count and orbit list."""
         from contextlib import ExitStack, contextmanager
 
         doc = self.figures.main.document
@@ -1082,6 +1095,8 @@ class Explorer(W.VBox):
                     for w in (c.status, c.count, c.pick):
                         stack.enter_context(w.hold_sync())
                     if doc is not None:
+                        # the batch closes after unhold has replayed the held changes into it
+                        stack.enter_context(self.bokeh.batch())
                         doc.hold("combine")
                         stack.callback(doc.unhold)
                     yield

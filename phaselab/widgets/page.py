@@ -19,7 +19,9 @@ Three things go wrong with a plain ``jupyter_bokeh.BokehModel`` and are handled 
 from __future__ import annotations
 
 import base64
+import contextlib
 import html
+import json
 
 from jupyter_bokeh import BokehModel
 
@@ -66,6 +68,43 @@ class LiveBokehModel(BokehModel):
         else:
             self._trait_values["render_bundle"] = bundle  # sent with the state being asked for
         return True
+
+    # ------------------------------------------------------------------ one patch per batch
+    def _document_patched(self, event):
+        batch = self.__dict__.get("_batch")
+        if batch is not None and getattr(event, "setter", None) is not self:
+            batch.append(event)
+            return
+        super()._document_patched(event)
+
+    @contextlib.contextmanager
+    def batch(self):
+        """Send the document changes made inside as one patch: the page applies them at once
+        and draws once, instead of drawing after each (one message per change is
+        jupyter_bokeh's own way)."""
+        if self.__dict__.get("_batch") is not None:
+            yield  # inside an outer batch: it sends everything
+            return
+        self._batch = []
+        try:
+            yield
+        finally:
+            events, self._batch = self._batch, None
+            if events:
+                self._send_patch(events)
+
+    def _send_patch(self, events):
+        """One PATCH-DOC message for ``events``, in the framing jupyter_bokeh's page side reads
+        (header, metadata, content, then each buffer's reference and its bytes)."""
+        from bokeh.protocol import Protocol
+
+        msg = Protocol().create("PATCH-DOC", events)
+        self.send({"msg": "patch", "payload": msg.header_json})
+        self.send({"msg": "patch", "payload": msg.metadata_json})
+        self.send({"msg": "patch", "payload": msg.content_json})
+        for buffer in msg.buffers:
+            self.send({"msg": "patch", "payload": json.dumps(buffer.ref)})
+            self.send({"msg": "patch"}, [buffer.to_bytes()])
 
     def get_state(self, key=None, drop_defaults=False):
         # a full state is asked for when a page (re)builds its widgets: give the current plot
