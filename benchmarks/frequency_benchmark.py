@@ -5,7 +5,7 @@
    periods), integrated by ``phaselab.trajectory`` with its default method and step, in
    batches of 1000 orbits (the system's inlined loops unless PHASELAB_LOOPS says otherwise);
    then the same samples analysed by
-   ``phaselab.compute.frequencies.analyse_samples`` (what ``phaselab.frequencies`` does after
+   ``phaselab.frequency.frequencies.analyse_samples`` (what ``phaselab.frequencies`` does after
    sampling: both degrees of freedom, leading line, diffusion from the two halves). Both
    warm (after one untimed small call). Target: analysis time <= integration time.
 2. Accuracy: the leading frequency of a clean quasi-periodic signal of 4096 samples (three
@@ -31,8 +31,8 @@ import numpy as np
 os.environ.setdefault("PHASELAB_LOOPS", "inlined")
 
 import phaselab  # noqa: E402
-from phaselab.compute.frequencies import analyse_samples  # noqa: E402
-from phaselab.compute.spectral import leading_lines  # noqa: E402
+from phaselab.frequency.frequencies import analyse_samples  # noqa: E402
+from phaselab.frequency.spectral import leading_lines  # noqa: E402
 
 N_SAMPLES = 4096
 SPACING = 0.5

@@ -12,7 +12,7 @@ with Yoshida 4 and dt = 0.01.
    dq += c dp, kick dp -= d Hess V(q) dq with the Hessian written by hand), one deviation
    vector renormalised after every step, and the time-averaged MEGNO accumulated as
    phaselab does it (Cincotta & Simo 2000). Both start from the same deviation vectors
-   (phaselab.compute.chaos.deviation_vectors), so their values agree to round-off on
+   (phaselab.orbits.chaos.deviation_vectors), so their values agree to round-off on
    regular orbits; the agreement is printed. phaselab runs with its inlined loops
    (``PHASELAB_LOOPS=inlined``: the system's kernels compiled into the loops, built in this
    process before timing) and, for comparison, with the generic loops (kernels called
@@ -49,7 +49,7 @@ import numpy as np
 from numba import njit, prange
 
 import phaselab
-from phaselab.compute.chaos import deviation_vectors
+from phaselab.orbits.chaos import deviation_vectors
 
 E = 1.0 / 8.0
 N = 48

@@ -22,7 +22,7 @@ import numpy as np
 os.environ.setdefault("PHASELAB_LOOPS", "inlined")
 
 from phaselab import Hamiltonian  # noqa: E402
-from phaselab.compute.trajectory import trajectory  # noqa: E402
+from phaselab.orbits.trajectory import trajectory  # noqa: E402
 
 
 def seeds(n: int, energy: float = 0.12) -> np.ndarray:

@@ -19,7 +19,7 @@ from pathlib import Path
 
 import numpy as np
 
-from phaselab.compute.labels import plain
+from phaselab.engine.provenance import plain
 
 #: Time-averaged MEGNO above which an orbit is called chaotic. On quasi-periodic orbits the
 #: MEGNO tends to 2, on stable isochronous motion to 0, and on chaotic orbits it grows like

@@ -156,7 +156,7 @@ def cmd_examples(args) -> int:
 def cmd_warm(args) -> int:
     """Compile the generic loops once for this machine (or find them in the kernel cache)."""
     from phaselab.codegen.cache import cache_dir
-    from phaselab.compute.warm import warm
+    from phaselab.engine.warm import warm
 
     print(f"compiling phaselab's loops into {cache_dir()} (once per machine; a few minutes the first time)")
     report = warm(verbose=True)

@@ -20,7 +20,7 @@ The rule
 - :class:`StudyFileError`: anything wrong with a study file, as ``file: key: problem``.
 
 Failures that concern one orbit of a batch are not raised at all: the orbit is flagged in the
-result's ``status`` (see :mod:`phaselab.compute.codes`) and the rest of the batch is returned.
+result's ``status`` (see :mod:`phaselab.engine.status`) and the rest of the batch is returned.
 """
 
 

@@ -5,7 +5,7 @@ import pytest
 from scipy.integrate import solve_ivp
 
 import phaselab
-from phaselab.compute.chaos import chaos_indicators
+from phaselab.orbits.chaos import chaos_indicators
 from phaselab.errors import ParameterError
 
 

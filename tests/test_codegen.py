@@ -189,7 +189,7 @@ def test_generated_source_holds_no_user_text(name):
     """A name, a title or a parameter description reaches no generated source: the kernel
     module and the loop modules of systems named with hostile text contain none of it (the
     key and the printed expressions are all they hold)."""
-    from phaselab.compute.compiled import closure, generic_source, inlined_source
+    from phaselab.engine.compiled import closure, generic_source, inlined_source
 
     H = Hamiltonian("px**2/2 + x**4/4 + w*x", ["x"], ["px"], params={"w": 0.5}, name=name)
     M = phaselab.AreaPreservingMap(["q + p", "p - k*sin(q + p)"], ["q"], ["p"], params={"k": 0.3},

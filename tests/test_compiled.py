@@ -13,8 +13,8 @@ import numpy as np
 import pytest
 
 import phaselab
-from phaselab.compute import codes
-from phaselab.compute.compiled import LOOPS_DIR, MODULE_NAMES, closure, loop_file
+from phaselab.engine import status as codes
+from phaselab.engine.compiled import LOOPS_DIR, MODULE_NAMES, closure, loop_file
 
 LOOP_FILES = sorted(p.stem for p in LOOPS_DIR.glob("*.py") if not p.stem.startswith("_"))
 
@@ -42,7 +42,7 @@ def test_loop_file_uses_only_what_it_declares(name):
     tree = ast.parse((LOOPS_DIR / f"{name}.py").read_text())
     module_assigned = {t.id for n in tree.body if isinstance(n, ast.Assign) for t in n.targets
                        if isinstance(t, ast.Name)}
-    assert module_assigned <= {"REQUIRES", "PROVIDES"}, "constants belong in compute/codes.py"
+    assert module_assigned <= {"REQUIRES", "PROVIDES"}, "constants belong in engine/status.py"
     for node in tree.body:
         if isinstance(node, ast.FunctionDef):
             stray = _free_names(node) - allowed
@@ -54,7 +54,7 @@ def test_loop_file_uses_only_what_it_declares(name):
 
 
 def test_status_codes_are_defined_once():
-    """The loop files hold no numbers for status codes: they come from compute/codes.py."""
+    """The loop files hold no numbers for status codes: they come from engine/status.py."""
     for name in LOOP_FILES:
         text = (LOOPS_DIR / f"{name}.py").read_text()
         for const in ("OK", "LEFT_BOX", "NOT_FINITE", "NOT_CONVERGED", "TIME_LIMIT"):
@@ -97,8 +97,8 @@ def test_generic_and_inlined_loops_agree_to_the_last_bit():
 def test_background_build_switches_to_the_inlined_module(tmp_path):
     """In ``auto`` the first call answers with the generic loops and starts a background
     build; once its marker lists the signature, the next call uses the inlined module."""
-    from phaselab.compute import background
-    from phaselab.compute.compiled import loops, ready_signatures
+    from phaselab.engine import inlined_build as background
+    from phaselab.engine.compiled import loops, ready_signatures
 
     H = phaselab.Hamiltonian("p**2/2 + q**2/2 + 0.1*q**4 + 0.0123*q**3", ["q"], ["p"])
     env_before = os.environ.get("PHASELAB_LOOPS")

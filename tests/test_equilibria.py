@@ -9,7 +9,7 @@ import sympy as sp
 from scipy.optimize import brentq
 
 import phaselab
-from phaselab.compute.equilibria import classify_flow, equilibria
+from phaselab.structures.equilibria import classify_flow, equilibria
 from phaselab.errors import ModelError, ParameterError
 
 

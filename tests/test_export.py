@@ -19,7 +19,7 @@ import pytest
 import sympy as sp
 
 import phaselab
-from phaselab.compute.results import Section
+from phaselab.orbits.section_result import Section
 from phaselab.errors import PhaselabError
 from phaselab.export import (bokeh_figure, load_section, read_section_csv, read_section_netcdf,
                              save, section_figure)
@@ -320,7 +320,7 @@ def test_catalogue_map_metadata(tmp_path):
 
 
 def test_importing_export_does_not_import_bokeh():
-    code = ("import sys, phaselab.export, phaselab.compute.results; "
+    code = ("import sys, phaselab.export, phaselab.orbits.section_result; "
             "print('bokeh' in sys.modules, 'matplotlib' in sys.modules)")
     res = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=60)
     assert res.returncode == 0, res.stderr

@@ -11,8 +11,8 @@ import pytest
 from scipy.special import ellipk
 
 import phaselab
-from phaselab.compute.frequencies import STATUS_TEXT, birkhoff_weights, frequencies, rotation_number
-from phaselab.compute.spectral import leading_lines
+from phaselab.frequency.frequencies import STATUS_TEXT, birkhoff_weights, frequencies, rotation_number
+from phaselab.frequency.spectral import leading_lines
 from phaselab.errors import ParameterError, PhaselabError
 
 
@@ -329,7 +329,7 @@ def test_resonance_lines():
     hand: order 1: nu1 = 0, 1 and nu2 = 0, 1 (4); order 2: nu1 = 1/2, nu2 = 1/2,
     nu1 + nu2 = 0, 1, 2 (0 and 2 touch only a corner, so 1 line), nu1 - nu2 = -1, 0, 1
     (-1 and 1 touch a corner: 1 line): 4 lines."""
-    from phaselab.export.frequency_figures import resonances
+    from phaselab.frequency.resonances import resonances
 
     lines = resonances(2, (0.0, 1.0), (0.0, 1.0))
     got = sorted((r.m, r.n, r.p) for r in lines)
@@ -341,7 +341,7 @@ def test_resonance_lines():
 
 def _fake_result(n=60, seed=3):
     """A Frequencies result built by hand (no integration), for the pictures."""
-    from phaselab.compute.frequencies import Frequencies
+    from phaselab.frequency.frequencies import Frequencies
 
     rng = np.random.default_rng(seed)
     nu = np.column_stack([0.20 + 0.05 * rng.random(n), 0.30 + 0.05 * rng.random(n)])

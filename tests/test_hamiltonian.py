@@ -232,7 +232,7 @@ def test_separability_of_a_high_power_is_decided_without_expanding():
 
     out = run_bounded("""
         from phaselab import Hamiltonian
-        from phaselab.compute.integrators import choose_method
+        from phaselab.engine.integrators import choose_method
         H = Hamiltonian("(x + y + px + py + 1)**1000", ["x", "y"], ["px", "py"])
         bounded(lambda: (H.is_separable, choose_method(H).separable_only))
     """)

@@ -9,8 +9,8 @@ import sympy as sp
 from scipy.special import ellipj, ellipk
 
 from phaselab import Hamiltonian, ModelError, ParameterError
-from phaselab.compute.compiled import loops
-from phaselab.compute.integrators import METHODS, choose_method, gauss_legendre_tableau, get_method
+from phaselab.engine.compiled import loops
+from phaselab.engine.integrators import METHODS, choose_method, gauss_legendre_tableau, get_method
 
 SYMPLECTIC_EXPLICIT = ["leapfrog", "yoshida4", "yoshida6", "yoshida8"]
 SYMPLECTIC_IMPLICIT = ["implicit_midpoint", "gauss4", "gauss6"]

@@ -9,7 +9,7 @@ from scipy import ndimage
 from scipy.optimize import brentq
 
 import phaselab
-from phaselab.compute.levels import allowed_mask, level_set
+from phaselab.structures.levels import allowed_mask, level_set
 from phaselab.errors import ModelError, ParameterError
 
 

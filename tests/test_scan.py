@@ -95,7 +95,7 @@ def test_chaos_map_is_labelled(tmp_path, hh, monkeypatch):
     zr = cmap.save(tmp_path / "megno.zarr")
     auto = cmap.save(tmp_path / "small")
     assert auto.name == "small.nc"
-    monkeypatch.setattr(phaselab.scan.labels, "SMALL_BYTES", 0)
+    monkeypatch.setattr(phaselab.scan.datasets, "SMALL_BYTES", 0)
     assert cmap.save(tmp_path / "large").name == "large.zarr"
     for path, engine in ((nc, None), (zr, "zarr")):
         back = xr.open_dataset(path, engine=engine)

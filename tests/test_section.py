@@ -7,8 +7,8 @@ from scipy.integrate import solve_ivp
 
 import phaselab
 from phaselab import IntegrationError, ModelError, ParameterError
-from phaselab.compute.seeds import shell_seeds
-from phaselab.compute.section import section
+from phaselab.orbits.seeds import shell_seeds
+from phaselab.orbits.section import section
 from phaselab.model.maps import AreaPreservingMap
 
 
@@ -123,7 +123,7 @@ def test_escapes_and_bad_seeds_are_flagged_while_the_rest_survive(hh):
                    [0.0, -0.1, 0.35, 0.05]])
     sec = section(hh, Z0, {"x": 0.0}, crossings=50, dt=0.02, box=4.0)
     np.testing.assert_array_equal(sec.escaped, [False, True, True, False])
-    from phaselab.compute.codes import LEFT_BOX, NOT_FINITE
+    from phaselab.engine.status import LEFT_BOX, NOT_FINITE
     assert sec.status[1] == LEFT_BOX and sec.status[2] == NOT_FINITE
     assert sec.counts[0] == 50 and sec.counts[3] == 50 and sec.counts[2] == 0
     assert sec.counts[1] < 50

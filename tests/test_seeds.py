@@ -5,7 +5,7 @@ import pytest
 
 import phaselab
 from phaselab import ModelError, ParameterError
-from phaselab.compute.seeds import ShellSeeds, shell_seeds
+from phaselab.orbits.seeds import ShellSeeds, shell_seeds
 
 
 def hh_potential(x, y):

@@ -14,7 +14,7 @@ from scipy.special import ellipk
 
 import phaselab
 from phaselab import Hamiltonian, IntegrationError, ModelError, ParameterError
-from phaselab.compute.trajectory import trajectory
+from phaselab.orbits.trajectory import trajectory
 
 W = 1.3     # small-oscillation frequency of the bead (rad per unit time)
 MU = 2.5    # gravitational parameter of the invented moon
@@ -329,7 +329,7 @@ def test_one_bad_orbit_does_not_refuse_the_batch(hh):
     """The step probe is per orbit: an orbit for which dt is far too large is flagged and
     not integrated, the others are returned (energy errors: common practice for a
     fourth-order method, error ~ (omega dt)^4 small at E = 1e-4)."""
-    from phaselab.compute.codes import OK, STEP_TOO_LARGE
+    from phaselab.engine.status import OK, STEP_TOO_LARGE
 
     small = [0.0, 0.01, 0.01, 0.0]          # E ~ 1e-4
     fast = [0.0, 0.0, 30.0, 30.0]           # E = 900: leaves at once, huge error per step
@@ -343,7 +343,7 @@ def test_one_bad_orbit_does_not_refuse_the_batch(hh):
 def test_orbit_through_a_singularity_is_not_reported_ok():
     """A radial Kepler orbit (zero angular momentum) falls into r = 0, where H is singular:
     the integration cannot keep H (common practice), and the status says so."""
-    from phaselab.compute.codes import OK
+    from phaselab.engine.status import OK
 
     kepler = phaselab.Hamiltonian("(px**2 + py**2)/2 - 1/sqrt(x**2 + y**2)", ["x", "y"], ["px", "py"])
     circular = [1.0, 0.0, 0.0, 1.0]        # r = 1, v = 1: a circle, H = -1/2 exactly

@@ -287,7 +287,7 @@ def test_colour_by_chaos_indicator(hh):
     # MEGNO near 2 on an invariant torus and large in the chaotic sea (Cincotta & Simo 2000,
     # A&AS 147, 205); the widget's value must equal a direct chaos_indicators call over the
     # same span with the same step and method
-    from phaselab.compute.chaos import chaos_indicators
+    from phaselab.orbits.chaos import chaos_indicators
 
     ex = phaselab.explore(hh, energy=E0, crossings=200, background=False, color_by="megno")
     ex.add_seeds([(0.0, 0.0), (-0.2, 0.0)])
@@ -525,7 +525,7 @@ def test_export_is_the_current_view(hh, tmp_path):
     snap = ex.snapshot()
     assert snap.ranges == ((0.0, 0.2), (-0.1, 0.1)) and snap.accents and snap.seeds and snap.forbidden
     png, = ex.export("zoomed", formats=(".png",))
-    fig = __import__("phaselab.widgets.picture", fromlist=["view_figure"]).view_figure(snap)
+    fig = __import__("phaselab.widgets.snapshot", fromlist=["view_figure"]).view_figure(snap)
     assert fig.axes[0].get_xlim() == (0.0, 0.2)
     with Image.open(png) as img:
         assert img.size[0] > 500

@@ -11,7 +11,7 @@
 ``.html``  self-contained interactive bokeh page (works offline)
 =========  ====================================================================
 
-A :class:`~phaselab.compute.levels.LevelSet` (phase portrait, zero-velocity curves) is
+A :class:`~phaselab.structures.levels.LevelSet` (phase portrait, zero-velocity curves) is
 saved as .svg, .pdf or .png through :func:`save_level_set`.
 
 Importing this package imports neither bokeh nor matplotlib; each is loaded on first use.

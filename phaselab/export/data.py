@@ -15,7 +15,7 @@ full precision, NaN as ``NaN``), then one header row and one row per crossing::
 
 Floats are written with Python's shortest round-trip repr, so reading gives back the same
 binary64 numbers. Per-orbit fields (counts, seeds, energy errors, escapes) are header lines
-too, so :func:`load_section` rebuilds the whole :class:`~phaselab.compute.results.Section`
+too, so :func:`load_section` rebuilds the whole :class:`~phaselab.orbits.section_result.Section`
 (without the system object, whose name and expression are kept as text).
 
 NetCDF layout
@@ -34,11 +34,11 @@ from pathlib import Path
 
 import numpy as np
 
-from phaselab.compute.codes import LEFT_BOX, OK, STATUS
+from phaselab.engine.status import LEFT_BOX, OK, STATUS
 from phaselab.errors import PhaselabError
-from phaselab.compute.labels import plain
+from phaselab.engine.provenance import plain
 from phaselab.export.describe import check_section, section_metadata
-from phaselab.export.files import atomic_path
+from phaselab.base.files import atomic_path
 
 FORMAT_LINE = "# phaselab section data"
 #: most numbers (orbits x crossings x components) a section file may declare when loaded;
@@ -96,7 +96,7 @@ def write_section_csv(section, path):
 
     Parameters
     ----------
-    section : phaselab.compute.results.Section
+    section : phaselab.orbits.section_result.Section
     path : str or pathlib.Path
 
     Returns
@@ -373,14 +373,14 @@ def read_section_netcdf(path):
 
 # ---------------------------------------------------------------------------------- Section
 def load_section(path):
-    """Rebuild a :class:`~phaselab.compute.results.Section` from a .csv or .nc file.
+    """Rebuild a :class:`~phaselab.orbits.section_result.Section` from a .csv or .nc file.
 
     The system object is not rebuilt (``system`` is None); its name, expression and
     parameters come back in ``section.params`` and in the metadata of the readers.
 
     Returns
     -------
-    phaselab.compute.results.Section
+    phaselab.orbits.section_result.Section
 
     Raises
     ------
@@ -391,7 +391,7 @@ def load_section(path):
     """
     import sympy as sp
 
-    from phaselab.compute.results import Section
+    from phaselab.orbits.section_result import Section
 
     path = Path(path)
     suffix = path.suffix.lower()

@@ -10,7 +10,7 @@ import math
 
 import numpy as np
 
-from phaselab.compute.labels import expression_text, plain  # noqa: F401  (expression_text re-exported)
+from phaselab.engine.provenance import expression_text, plain  # noqa: F401  (expression_text re-exported)
 
 from phaselab.errors import PhaselabError
 
@@ -35,7 +35,7 @@ def check_section(section) -> None:
     Raises
     ------
     PhaselabError
-        If ``section`` lacks the fields of :class:`phaselab.compute.results.Section`, or
+        If ``section`` lacks the fields of :class:`phaselab.orbits.section_result.Section`, or
         has no finite point on the shown axes.
     """
     for name in ("points", "counts", "times", "axes"):

@@ -11,7 +11,8 @@ from __future__ import annotations
 import numpy as np
 
 from phaselab.errors import PhaselabError
-from phaselab.export.structures import MARKERS, MODEL_NOTE
+from phaselab.engine.provenance import MODEL_NOTE
+from phaselab.export.marks import MARKERS
 
 
 def family_figure(family, y="residue", size=(6.0, 4.2), dpi=150, title=None, note=MODEL_NOTE):
@@ -23,14 +24,14 @@ def family_figure(family, y="residue", size=(6.0, 4.2), dpi=150, title=None, not
     """
     import matplotlib
 
-    from phaselab.export.figures import _RC, _check_size
+    from phaselab.export.figures import REPORT_RC, check_size
 
     if y not in ("residue", "period"):
         raise PhaselabError(f"y must be 'residue' or 'period', got {y!r}")
-    width, height = _check_size(size, dpi)
+    width, height = check_size(size, dpi)
     x = np.asarray(family.values, dtype=float)
     v = np.asarray(getattr(family, y), dtype=float)
-    with matplotlib.rc_context(_RC):
+    with matplotlib.rc_context(REPORT_RC):
         from matplotlib.figure import Figure
 
         fig = Figure(figsize=(width, height), dpi=dpi, facecolor="white")

@@ -14,7 +14,7 @@ import numpy as np
 from phaselab.errors import PhaselabError
 from phaselab.export.describe import (FOOTER_SEPARATOR as _SEP, axis_symbols, check_section,
                                       footer_text, mathtext_label, text_problem)
-from phaselab.export.files import atomic_path
+from phaselab.base.files import atomic_path
 
 #: Orbit colours, cycled by orbit index: muted, well separated hues that stay apart on
 #: white paper and in greyscale print (dark and light entries alternate).
@@ -38,10 +38,10 @@ SCALAR_STOPS = ("#1d2f4a", "#2b5d7d", "#3f9a96", "#b8c98a", "#e0b64a", "#d2824b"
 #: The colour of points whose scalar is NaN (an indicator that could not be computed).
 MISSING_COLOR = "#b9b9b9"
 
-_SUFFIXES = {".svg": "svg", ".pdf": "pdf", ".png": "png"}
+FIGURE_SUFFIXES = {".svg": "svg", ".pdf": "pdf", ".png": "png"}
 
 # Text as text in vector files (searchable, selectable); TrueType in PDF so readers extract it.
-_RC = {"svg.fonttype": "none", "pdf.fonttype": 42, "font.size": 9.0, "axes.linewidth": 0.7,
+REPORT_RC = {"svg.fonttype": "none", "pdf.fonttype": 42, "font.size": 9.0, "axes.linewidth": 0.7,
        "xtick.major.width": 0.6, "ytick.major.width": 0.6, "xtick.major.size": 3.0,
        "ytick.major.size": 3.0, "xtick.direction": "out", "ytick.direction": "out"}
 
@@ -54,7 +54,7 @@ def scalar_colormap():
     return cmap.with_extremes(bad=MISSING_COLOR)
 
 
-def _check_size(size, dpi):
+def check_size(size, dpi):
     try:
         width, height = (float(v) for v in size)
     except (TypeError, ValueError):
@@ -66,7 +66,7 @@ def _check_size(size, dpi):
     return width, height
 
 
-def _check_overlays(overlays):
+def check_overlays(overlays):
     """Turn overlays into a list of (x, y) float arrays; None -> []."""
     if overlays is None:
         return []
@@ -121,7 +121,7 @@ def check_texts(**texts) -> None:
             raise PhaselabError(f"{name}: {problem}")
 
 
-def _per_orbit_scalar(color, n_orbits):
+def per_orbit_scalar(color, n_orbits):
     values = np.asarray(color, dtype=float).ravel()
     if values.shape != (n_orbits,):
         raise PhaselabError(
@@ -136,7 +136,7 @@ def section_figure(section, size=(6.0, 4.5), dpi=150, point_size=1.6, color=None
 
     Parameters
     ----------
-    section : phaselab.compute.results.Section
+    section : phaselab.orbits.section_result.Section
     size : (float, float)
         Figure width and height in inches.
     dpi : float
@@ -169,19 +169,19 @@ def section_figure(section, size=(6.0, 4.5), dpi=150, point_size=1.6, color=None
     import matplotlib
 
     check_section(section)
-    width, height = _check_size(size, dpi)
+    width, height = check_size(size, dpi)
     if not (np.isfinite(point_size) and point_size > 0):
         raise PhaselabError(f"point_size must be a positive number of points, got {point_size!r}")
-    curves = _check_overlays(overlays)
+    curves = check_overlays(overlays)
     check_texts(title=title, note=note, color_label=color_label)
     x, y = section.xy()
     orbit = section.orbit_index()
-    scalar = None if color is None else _per_orbit_scalar(color, section.n_orbits)
+    scalar = None if color is None else per_orbit_scalar(color, section.n_orbits)
     footer_lines = _wrap_footer(footer_text(section), width) if footer else []
     if rasterize is None:
         rasterize = x.size > 20_000
 
-    with matplotlib.rc_context(_RC):
+    with matplotlib.rc_context(REPORT_RC):
         from matplotlib.figure import Figure
 
         fig = Figure(figsize=(width, height), dpi=dpi, facecolor="white")
@@ -253,7 +253,7 @@ def save_figure(section, path, **kwargs):
 
     Parameters
     ----------
-    section : phaselab.compute.results.Section
+    section : phaselab.orbits.section_result.Section
     path : str or pathlib.Path
         The suffix picks the format.
     **kwargs
@@ -267,13 +267,13 @@ def save_figure(section, path, **kwargs):
     import matplotlib
 
     path = Path(path)
-    fmt = _SUFFIXES.get(path.suffix.lower())
+    fmt = FIGURE_SUFFIXES.get(path.suffix.lower())
     if fmt is None:
         raise PhaselabError(
             f"a static figure is written as .svg, .pdf or .png, not {path.suffix or 'no suffix'!r}")
     fig = section_figure(section, **kwargs)
     metadata = {"Creator": "phaselab"} if fmt in ("pdf", "svg") else {"Software": "phaselab"}
-    with matplotlib.rc_context(_RC), atomic_path(path) as tmp:
+    with matplotlib.rc_context(REPORT_RC), atomic_path(path) as tmp:
         # No bbox cropping: the pixel size stays exactly size * dpi.
         fig.savefig(tmp, format=fmt, dpi=fig.dpi, facecolor="white", metadata=metadata)
     return path

@@ -5,7 +5,7 @@ Each function returns a :class:`matplotlib.figure.Figure` built without pyplot (
 left in pyplot's list of open figures); :func:`save_figure` writes one as SVG, PDF or PNG
 through a temporary file in the same folder. matplotlib is imported on first use.
 
-The pictures take a :class:`phaselab.compute.frequencies.Frequencies` or a
+The pictures take a :class:`phaselab.frequency.frequencies.Frequencies` or a
 :class:`phaselab.scan.frequency_map.FrequencyMap` (both have ``nu``, ``diffusion``,
 ``valid``, ``names``, ``unit`` and ``base_frequency``).
 """
@@ -13,18 +13,18 @@ The pictures take a :class:`phaselab.compute.frequencies.Frequencies` or a
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
 from fractions import Fraction
 from pathlib import Path
 
 import numpy as np
 
 from phaselab.errors import ParameterError
+from phaselab.export.figures import FIGURE_SUFFIXES, REPORT_RC
+from phaselab.frequency.resonances import Resonance, resonances
 
 __all__ = ["Resonance", "resonances", "frequency_map_figure", "diffusion_map_figure",
            "frequency_profile_figure", "save_figure", "save_result"]
 
-_SUFFIXES = {".svg": "svg", ".pdf": "pdf", ".png": "png"}
 
 #: Resonance lines by order: the lowest orders dark and thick, higher ones paler and finer.
 LINE_SHADES = ("#22303c", "#3d5568", "#627d90", "#8ea3b2", "#b4c3cd", "#cfd8de")
@@ -34,89 +34,6 @@ PROFILE_LINE = "#7d8a94"
 #: Reference lines at rational values in profiles.
 RATIONAL_SHADE = "#c9a26b"
 
-_RC = {"svg.fonttype": "none", "pdf.fonttype": 42, "font.size": 9.0, "axes.linewidth": 0.7,
-       "xtick.major.width": 0.6, "ytick.major.width": 0.6, "xtick.major.size": 3.0,
-       "ytick.major.size": 3.0, "xtick.direction": "out", "ytick.direction": "out"}
-
-
-# ----------------------------------------------------------------------------- resonances
-@dataclass(frozen=True)
-class Resonance:
-    """The line ``m nu_1 + n nu_2 = p * base`` inside a view, as a segment.
-
-    Attributes
-    ----------
-    m, n, p : int
-    order : int
-        ``|m| + |n|``.
-    start, end : (float, float)
-        Where the line enters and leaves the view.
-    """
-
-    m: int
-    n: int
-    p: int
-    order: int
-    start: tuple
-    end: tuple
-
-
-def _clip(m, n, c, xlim, ylim):
-    x0, x1 = xlim
-    y0, y1 = ylim
-    pts = []
-    tol = 1e-12 * max(1.0, abs(x1 - x0), abs(y1 - y0))
-    if n != 0:
-        for x in (x0, x1):
-            y = (c - m * x) / n
-            if y0 - tol <= y <= y1 + tol:
-                pts.append((x, min(max(y, y0), y1)))
-    if m != 0:
-        for y in (y0, y1):
-            x = (c - n * y) / m
-            if x0 - tol <= x <= x1 + tol:
-                pts.append((min(max(x, x0), x1), y))
-    unique = []
-    for p in pts:
-        if all(abs(p[0] - q[0]) > tol or abs(p[1] - q[1]) > tol for q in unique):
-            unique.append(p)
-    if len(unique) < 2:
-        return None
-    unique.sort()
-    return unique[0], unique[-1]
-
-
-def resonances(order, xlim, ylim, base=1.0) -> list[Resonance]:
-    """Every resonance line ``m nu_1 + n nu_2 = p * base`` of order ``|m| + |n| <= order``
-    that crosses the view ``xlim x ylim``.
-
-    Lines are listed once: ``(m, n, p)`` with no common factor and the first non-zero of
-    ``m, n`` positive. ``base=None`` (an autonomous flow sampled in time) keeps ``p = 0``.
-    """
-    if isinstance(order, bool) or not isinstance(order, (int, np.integer)) or not 1 <= order <= 30:
-        raise ParameterError(f"order must be an integer from 1 to 30, got {order!r}")
-    (x0, x1), (y0, y1) = (sorted(map(float, xlim)), sorted(map(float, ylim)))
-    if not all(math.isfinite(v) for v in (x0, x1, y0, y1)) or x0 == x1 or y0 == y1:
-        raise ParameterError(f"the view must be finite and not empty, got {xlim!r} x {ylim!r}")
-    out = []
-    for k in range(1, int(order) + 1):
-        pairs = sorted({(m, n) for m in range(0, k + 1) for n in (k - m, m - k)
-                        if m > 0 or n > 0})
-        for m, n in pairs:
-            corners = [m * x + n * y for x in (x0, x1) for y in (y0, y1)]
-            if base is None:
-                ps = [0] if min(corners) <= 0 <= max(corners) else []
-            else:
-                lo = math.ceil(min(corners) / base - 1e-12)
-                hi = math.floor(max(corners) / base + 1e-12)
-                ps = range(lo, hi + 1) if hi - lo < 10_000 else []
-            for p in ps:
-                if math.gcd(math.gcd(m, abs(n)), abs(p)) != 1:
-                    continue
-                seg = _clip(m, n, 0.0 if base is None else p * base, (x0, x1), (y0, y1))
-                if seg is not None:
-                    out.append(Resonance(m, n, int(p), k, seg[0], seg[1]))
-    return out
 
 
 # ----------------------------------------------------------------------------- labels
@@ -200,7 +117,7 @@ def _check_result(result):
         raise ParameterError("no orbit was analysed in full: nothing to draw")
 
 
-def _check_size(size, dpi):
+def _check_frame_size(size, dpi):
     try:
         width, height = (float(v) for v in size)
     except (TypeError, ValueError):
@@ -278,7 +195,7 @@ def frequency_map_figure(result, columns=(0, 1), order=4, label_order=None, size
         Which two columns of ``nu`` to draw (horizontal, vertical).
     order : int
         Resonance lines ``m nu_1 + n nu_2 = p`` (times the sampling clock's frequency, see
-        :attr:`~phaselab.compute.frequencies.Frequencies.base_frequency`) are drawn up to
+        :attr:`~phaselab.frequency.frequencies.Frequencies.base_frequency`) are drawn up to
         ``|m| + |n| = order``; 0 draws none.
     label_order : int, optional
         Lines up to this order get a label (default: ``order``).
@@ -314,14 +231,14 @@ def frequency_map_figure(result, columns=(0, 1), order=4, label_order=None, size
         raise ParameterError(f"columns must be two different indices below {nu.shape[1]}, got {columns!r}")
     if isinstance(order, bool) or not isinstance(order, (int, np.integer)) or not 0 <= order <= 30:
         raise ParameterError(f"order must be an integer from 0 to 30, got {order!r}")
-    width, height, dpi = _check_size(size, dpi)
+    width, height, dpi = _check_frame_size(size, dpi)
     ok = np.asarray(result.valid)
     x, y, d = nu[ok, i], nu[ok, j], np.asarray(result.diffusion, dtype=float)[ok]
     xlim = xlim or _span(x)
     ylim = ylim or _span(y)
     names = (result.names[i], result.names[j])
     kind = getattr(result, "kind", "frequency")
-    with matplotlib.rc_context(_RC):
+    with matplotlib.rc_context(REPORT_RC):
         fig, ax, cax = _frame(width, height, dpi, title, _footer(result) if footer else "", True)
         if order:
             lines = resonances(int(order), xlim, ylim, getattr(result, "base_frequency", 1.0))
@@ -386,11 +303,11 @@ def diffusion_map_figure(fmap, size=(6.0, 5.0), dpi=150, vmin=None, vmax=None, t
     if grid is None:
         raise ParameterError("a diffusion map needs a result computed over a grid "
                             "(frequency_map(system, state_grid(...)))")
-    width, height, dpi = _check_size(size, dpi)
+    width, height, dpi = _check_frame_size(size, dpi)
     img = fmap.image("diffusion")
     lo, hi = _color_limits(img, vmin, vmax)
     x, y = np.asarray(grid.x, dtype=float), np.asarray(grid.y, dtype=float)
-    with matplotlib.rc_context(_RC):
+    with matplotlib.rc_context(REPORT_RC):
         fig, ax, cax = _frame(width, height, dpi, title, _footer(fmap) if footer else "", True)
         art = ax.pcolormesh(_edges(x), _edges(y), np.ma.masked_invalid(img), cmap=scalar_colormap(),
                             vmin=lo, vmax=hi, shading="flat", rasterized=True)
@@ -449,7 +366,7 @@ def frequency_profile_figure(result, along=None, column=0, rationals=None, size=
     nu = np.asarray(result.nu, dtype=float)
     if isinstance(column, bool) or not isinstance(column, (int, np.integer)) or not 0 <= column < nu.shape[1]:
         raise ParameterError(f"column must be an index below {nu.shape[1]}, got {column!r}")
-    width, height, dpi = _check_size(size, dpi)
+    width, height, dpi = _check_frame_size(size, dpi)
     xs, xlabel = _along(result, along)
     ok = np.asarray(result.valid) & np.isfinite(xs)
     if not ok.any():
@@ -463,7 +380,7 @@ def frequency_profile_figure(result, along=None, column=0, rationals=None, size=
     if isinstance(rationals, bool) or not isinstance(rationals, (int, np.integer)) or not 0 <= rationals <= 50:
         raise ParameterError(f"rationals must be an integer from 0 to 50, got {rationals!r}")
     kind = getattr(result, "kind", "frequency")
-    with matplotlib.rc_context(_RC):
+    with matplotlib.rc_context(REPORT_RC):
         fig, ax, cax = _frame(width, height, dpi, title, _footer(result) if footer else "",
                               bool(color_by_diffusion))
         ax.plot(x, yv, color=PROFILE_LINE, linewidth=0.7, zorder=2)
@@ -531,17 +448,17 @@ def save_figure(fig, path) -> Path:
     folder, renamed into place when complete."""
     import matplotlib
 
-    from phaselab.scan.labels import atomic_write
+    from phaselab.scan.datasets import atomic_write
 
     path = Path(path)
-    fmt = _SUFFIXES.get(path.suffix.lower())
+    fmt = FIGURE_SUFFIXES.get(path.suffix.lower())
     if fmt is None:
         raise ParameterError(f"a figure is written as .svg, .pdf or .png, not "
                             f"{path.suffix or 'no suffix'!r}")
     metadata = {"Creator": "phaselab"} if fmt in ("pdf", "svg") else {"Software": "phaselab"}
 
     def write(tmp):
-        with matplotlib.rc_context(_RC):
+        with matplotlib.rc_context(REPORT_RC):
             fig.savefig(tmp, format=fmt, dpi=fig.dpi, facecolor="white", metadata=metadata)
 
     return atomic_write(path, write)
@@ -550,7 +467,7 @@ def save_figure(fig, path) -> Path:
 def save_result(result, path, **kwargs) -> Path:
     """Save a Frequencies or FrequencyMap: ``.nc`` data, or a figure by suffix (a diffusion
     map for a grid, a frequency map for two or more frequencies, else a profile)."""
-    from phaselab.scan.labels import save_netcdf
+    from phaselab.scan.datasets import save_netcdf
 
     path = Path(path)
     suffix = path.suffix.lower()
@@ -558,7 +475,7 @@ def save_result(result, path, **kwargs) -> Path:
         if kwargs:
             raise ParameterError(f".nc data files take no options, got {', '.join(sorted(kwargs))}")
         return save_netcdf(result.to_xarray(), path)
-    if suffix not in _SUFFIXES:
+    if suffix not in FIGURE_SUFFIXES:
         raise ParameterError(f"cannot save as {suffix or 'a file without suffix'!r}; use .nc, .svg, "
                             ".pdf or .png")
     if getattr(result, "grid", None) is not None:

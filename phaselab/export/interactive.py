@@ -14,7 +14,7 @@ import numpy as np
 from phaselab.errors import PhaselabError
 from phaselab.export.describe import axis_symbols, check_section, footer_text, plain_label
 from phaselab.export.figures import MISSING_COLOR, ORBIT_COLORS, SCALAR_STOPS
-from phaselab.export.files import atomic_path
+from phaselab.base.files import atomic_path
 
 
 def _scalar_palette(n=256):
@@ -31,7 +31,7 @@ def bokeh_figure(section, width=640, height=480, point_size=3.0, color=None, col
 
     Parameters
     ----------
-    section : phaselab.compute.results.Section
+    section : phaselab.orbits.section_result.Section
     width, height : int
         Size in screen pixels.
     point_size : float
@@ -55,12 +55,12 @@ def bokeh_figure(section, width=640, height=480, point_size=3.0, color=None, col
     from bokeh.models import ColorBar, ColumnDataSource, HoverTool, LinearColorMapper
     from bokeh.plotting import figure
 
-    from phaselab.export.figures import _check_overlays, _per_orbit_scalar
+    from phaselab.export.figures import check_overlays, per_orbit_scalar
 
     check_section(section)
     if not (int(width) >= 100 and int(height) >= 100):
         raise PhaselabError(f"width and height must be at least 100 pixels, got {width} x {height}")
-    curves = _check_overlays(overlays)
+    curves = check_overlays(overlays)
     x, y = section.xy()
     orbit = section.orbit_index()
     i, j = section.axes
@@ -86,7 +86,7 @@ def bokeh_figure(section, width=640, height=480, point_size=3.0, color=None, col
         fig.scatter("x", "y", source=source, size=point_size, color="color",
                     line_color=None, alpha=0.9)
     else:
-        scalar = _per_orbit_scalar(color, section.n_orbits)
+        scalar = per_orbit_scalar(color, section.n_orbits)
         data["value"] = scalar[orbit]
         finite = scalar[np.isfinite(scalar)]
         low, high = (float(finite.min()), float(finite.max())) if finite.size else (0.0, 1.0)
@@ -117,7 +117,7 @@ def save_html(section, path, title=None, **kwargs):
 
     Parameters
     ----------
-    section : phaselab.compute.results.Section
+    section : phaselab.orbits.section_result.Section
     path : str or pathlib.Path
     title : str, optional
         Plot and page title.

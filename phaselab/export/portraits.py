@@ -13,8 +13,8 @@ import numpy as np
 
 from phaselab.errors import PhaselabError
 from phaselab.export.describe import mathtext_label
-from phaselab.export.figures import _RC, _SUFFIXES, _check_size, check_texts, scalar_colormap
-from phaselab.export.files import atomic_path
+from phaselab.export.figures import REPORT_RC, FIGURE_SUFFIXES, check_size, check_texts, scalar_colormap
+from phaselab.base.files import atomic_path
 
 #: Colour of separatrices and of the allowed-region boundary.
 SEPARATRIX_COLOR = "#8e3b2e"
@@ -32,7 +32,7 @@ def _check_level_set(ls) -> None:
 
 def level_set_figure(ls, size=(5.5, 4.5), dpi=150, title=None, shade_forbidden=None, footer=True,
                      line_width=0.8):
-    """A static figure of a :class:`~phaselab.compute.levels.LevelSet`.
+    """A static figure of a :class:`~phaselab.structures.levels.LevelSet`.
 
     Parameters
     ----------
@@ -57,11 +57,11 @@ def level_set_figure(ls, size=(5.5, 4.5), dpi=150, title=None, shade_forbidden=N
     import matplotlib
 
     _check_level_set(ls)
-    width, height = _check_size(size, dpi)
+    width, height = check_size(size, dpi)
     check_texts(title=title)
     levels = np.atleast_1d(np.asarray(ls.levels, dtype=float))
     shade = (len(levels) == 1) if shade_forbidden is None else bool(shade_forbidden)
-    with matplotlib.rc_context(_RC):
+    with matplotlib.rc_context(REPORT_RC):
         from matplotlib.figure import Figure
 
         fig = Figure(figsize=(width, height), dpi=dpi, facecolor="white")
@@ -112,7 +112,7 @@ def save_level_set(ls, path, **kwargs) -> Path:
     ``kwargs`` go to :func:`level_set_figure`. Returns the path written.
     """
     path = Path(path)
-    fmt = _SUFFIXES.get(path.suffix.lower())
+    fmt = FIGURE_SUFFIXES.get(path.suffix.lower())
     if fmt is None:
         raise PhaselabError(f"a level set is written as .svg, .pdf or .png, not {path.suffix or 'no suffix'!r}")
     if not path.parent.exists():

@@ -15,19 +15,10 @@ from pathlib import Path
 
 import numpy as np
 
-from phaselab.compute.labels import MODEL_NOTE, provenance
+from phaselab.engine.provenance import MODEL_NOTE, provenance
 from phaselab.errors import PhaselabError
+from phaselab.export.marks import BRANCH_STYLE, MARKERS
 
-MARKERS = {
-    "stable": ("o", "#2b5d7d"),
-    "unstable": ("X", "#b5452f"),
-    "inverse-unstable": ("^", "#7a5c9e"),
-    "parabolic": ("s", "#5b5b5b"),
-}
-"""Marker shape and colour per stability."""
-
-BRANCH_STYLE = {"unstable": ("#c0562f", "-"), "stable": ("#2b5d7d", "--")}
-"""Colour and line style of manifold branches."""
 
 
 
@@ -71,8 +62,8 @@ def structure_figure(items, section=None, axes=None, size=(6.0, 4.5), dpi=150, t
     Parameters
     ----------
     items : sequence
-        :class:`~phaselab.compute.periodic.PeriodicOrbit`, ``PeriodicOrbits``,
-        :class:`~phaselab.compute.manifolds.Manifold` and ``Family`` objects.
+        :class:`~phaselab.structures.periodic.PeriodicOrbit`, ``PeriodicOrbits``,
+        :class:`~phaselab.structures.manifolds.Manifold` and ``Family`` objects.
     section : Section, optional
         Drawn first, in ``section_color`` (``None`` keeps the section's own colours, see
         :func:`phaselab.export.section_figure`), so the structure stands out.
@@ -87,7 +78,7 @@ def structure_figure(items, section=None, axes=None, size=(6.0, 4.5), dpi=150, t
     import matplotlib
 
     from phaselab.export.describe import mathtext_label
-    from phaselab.export.figures import _RC, _check_size, section_figure
+    from phaselab.export.figures import REPORT_RC, check_size, section_figure
 
     items = list(items)
     orbits = _orbits_of(items)
@@ -104,14 +95,14 @@ def structure_figure(items, section=None, axes=None, size=(6.0, 4.5), dpi=150, t
                 art.set_color(section_color)
         i, j = section.axes
     else:
-        width, height = _check_size(size, dpi)
+        width, height = check_size(size, dpi)
         if axes is not None:
             names = [s.name for s in system.state_symbols]
             i, j = (names.index(getattr(a, "name", a)) for a in axes)
         else:
             plane = orbits[0].plane if orbits else manifolds[0].orbit.plane
             i, j = default_axes(system, plane if isinstance(plane, dict) else None)
-        with matplotlib.rc_context(_RC):
+        with matplotlib.rc_context(REPORT_RC):
             from matplotlib.figure import Figure
 
             fig = Figure(figsize=(width, height), dpi=dpi, facecolor="white")
@@ -129,7 +120,7 @@ def structure_figure(items, section=None, axes=None, size=(6.0, 4.5), dpi=150, t
             if note:
                 fig.text(0.1 / width, 0.1 / height, note, ha="left", va="bottom", fontsize=6.5,
                          color="#6a6a6a", style="italic")
-    with matplotlib.rc_context(_RC):
+    with matplotlib.rc_context(REPORT_RC):
         for man in manifolds:
             colour, style = BRANCH_STYLE.get(man.branch, ("#333333", "-"))
             for line in man.branches:
@@ -176,7 +167,7 @@ def _summary(orbit) -> dict:
 
 def _write_atomic(path: Path, write) -> Path:
     """``write(tmp)`` into a temporary file beside ``path``, then rename it into place."""
-    from phaselab.export.files import atomic_path
+    from phaselab.base.files import atomic_path
 
     path = Path(path)
     if not path.parent.exists():
@@ -193,7 +184,7 @@ def save_structure(obj, path, **kwargs) -> Path:
     if suffix in (".svg", ".pdf", ".png"):
         import matplotlib
 
-        from phaselab.export.figures import _RC
+        from phaselab.export.figures import REPORT_RC
 
         if _kind(obj) == "Family":
             from phaselab.export.families import family_figure
@@ -203,7 +194,7 @@ def save_structure(obj, path, **kwargs) -> Path:
             section = kwargs.pop("section", None)
             items = [obj, obj.orbit] if _kind(obj) == "Manifold" else [obj]
             fig = structure_figure(items, section=section, **kwargs)
-        with matplotlib.rc_context(_RC):
+        with matplotlib.rc_context(REPORT_RC):
             return _write_atomic(path, lambda tmp: fig.savefig(tmp, format=suffix[1:], dpi=fig.dpi,
                                                                 facecolor="white"))
     if kwargs:

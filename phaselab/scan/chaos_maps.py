@@ -4,7 +4,7 @@ local cores or a Dask cluster, resumable through a Zarr store.
 Only what is asked is computed: one deviation vector per orbit for the Lyapunov exponent,
 MEGNO and FLI, two only for SALI, and no running history. Each orbit's initial deviation
 vectors depend only on ``seed`` and its own state
-(:func:`phaselab.compute.chaos.deviation_vectors`), so the map does not depend on the
+(:func:`phaselab.orbits.chaos.deviation_vectors`), so the map does not depend on the
 chunking, on the order of the orbits, on the cluster, or on whether it was resumed.
 """
 
@@ -15,9 +15,11 @@ from functools import partial
 
 import numpy as np
 
-from phaselab.compute import codes, inputs
+from phaselab.engine import status as codes
+
+from phaselab.engine import inputs
 from phaselab.errors import ParameterError
-from phaselab.scan import labels
+from phaselab.scan import datasets as labels
 from phaselab.scan.grids import StateGrid, scan_rows
 from phaselab.scan.runner import RunInfo, chunk_size, interleave, numba_threads, run_chunks
 from phaselab.scan.store import seeds_digest
@@ -48,7 +50,7 @@ class ChaosMap:
     values : ndarray, shape (n_seeds,)
         The indicator's final value per seed (NaN for seeds not run or stopped early).
     status : ndarray of int, shape (n_seeds,)
-        Why each orbit stopped (:mod:`phaselab.compute.codes`), -1 for a seed not run.
+        Why each orbit stopped (:mod:`phaselab.engine.status`), -1 for a seed not run.
     t_end : ndarray, shape (n_seeds,)
         Time (iterate) each orbit reached: ``t``, or earlier for a stopped orbit.
     seeds : ndarray, shape (n_seeds, 2n)
@@ -57,7 +59,7 @@ class ChaosMap:
     t : float
         Integration time (iterates for maps).
     meta : dict
-        Provenance (see :func:`phaselab.scan.labels.provenance`).
+        Provenance (see :func:`phaselab.scan.datasets.provenance`).
     run : RunInfo or None
         How the scan ran (chunks computed and reused, time, where).
     """
@@ -118,7 +120,7 @@ class ChaosMap:
 
 def _chunk(states, valid, threads, system, t, indicator, params, seed, options):
     """One chunk: the indicator of every valid row (interleaved over the threads)."""
-    from phaselab.compute.chaos import chaos_indicators
+    from phaselab.orbits.chaos import chaos_indicators
 
     n = len(states)
     values = np.full(n, np.nan)
@@ -155,7 +157,7 @@ def chaos_map(system, seeds, t, indicator: str = "megno", params=None, dt=None, 
     indicator : {"lyapunov", "megno", "fli", "sali"}
     params : mapping, optional
     dt, method, box, tol, maxit
-        As in :func:`phaselab.compute.chaos.chaos_indicators` (``dt`` default 0.01, 0.005
+        As in :func:`phaselab.orbits.chaos.chaos_indicators` (``dt`` default 0.01, 0.005
         for second-order methods).
     seed : int
         Seed of the initial deviation vectors (each orbit's depend only on it and the

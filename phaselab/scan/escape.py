@@ -25,9 +25,11 @@ from functools import partial
 
 import numpy as np
 
-from phaselab.compute import codes, inputs
+from phaselab.engine import status as codes
+
+from phaselab.engine import inputs
 from phaselab.errors import ParameterError
-from phaselab.scan import labels
+from phaselab.scan import datasets as labels
 from phaselab.scan.grids import StateGrid, scan_rows
 from phaselab.scan.runner import RunInfo, chunk_size, interleave, numba_threads, run_chunks
 from phaselab.scan.store import seeds_digest
@@ -218,7 +220,7 @@ class EscapeMap:
 
 # ----------------------------------------------------------------------------- chunks
 def _flow_chunk(states, valid, threads, system, t, dt, method, params, box):
-    from phaselab.compute.trajectory import trajectory
+    from phaselab.orbits.trajectory import trajectory
 
     n = len(states)
     survival = np.full(n, np.nan)
@@ -239,7 +241,7 @@ def _flow_chunk(states, valid, threads, system, t, dt, method, params, box):
 
 
 def _map_chunk(states, valid, threads, system, n_iter, params, box):
-    from phaselab.compute.section import section
+    from phaselab.orbits.section import section
 
     n = len(states)
     survival = np.full(n, np.nan)
@@ -292,7 +294,7 @@ def escape_map(system, seeds, t, box, params=None, dt=None, method="auto", batch
     params : mapping, optional
     dt : float, optional
         Step of a flow; by default chosen once for all seeds
-        (:func:`phaselab.compute.integrators.default_step` over the seeds), so the map does
+        (:func:`phaselab.engine.integrators.default_step` over the seeds), so the map does
         not depend on the chunking. An orbit is found outside at the first step past the
         boundary: escape times are resolved to ``dt``.
     method : str
@@ -331,7 +333,7 @@ def escape_map(system, seeds, t, box, params=None, dt=None, method="auto", batch
         inputs.method(system.extended() if not system.is_autonomous else system, method)
         dt = inputs.step(dt)
         if dt is None and valid.any():
-            from phaselab.compute.frequencies import integration_step
+            from phaselab.frequency.frequencies import integration_step
 
             dt = integration_step(system, states[valid], t=t, params=params, method=method)
         options = {"dt": dt, "method": method}

@@ -1,7 +1,7 @@
 """Frequency maps: the frequencies and their diffusion for every seed of a grid.
 
-:func:`frequency_map` runs :func:`phaselab.compute.frequencies.frequencies` (or
-:func:`~phaselab.compute.frequencies.rotation_number`) over a
+:func:`frequency_map` runs :func:`phaselab.frequency.frequencies.frequencies` (or
+:func:`~phaselab.frequency.frequencies.rotation_number`) over a
 :class:`~phaselab.scan.grids.StateGrid` or an array of seeds, in batches, on the local cores
 or on a Dask client, and returns a :class:`FrequencyMap` that labels itself as an
 ``xarray.Dataset`` (:meth:`FrequencyMap.to_xarray`).
@@ -17,10 +17,10 @@ from functools import partial
 
 import numpy as np
 
-from phaselab.compute import inputs
-from phaselab.compute.frequencies import STATUS_TEXT, frequencies, integration_step, rotation_number
+from phaselab.engine import inputs
+from phaselab.frequency.frequencies import STATUS_TEXT, frequencies, integration_step, rotation_number
 from phaselab.errors import ParameterError
-from phaselab.scan import labels
+from phaselab.scan import datasets as labels
 from phaselab.scan.grids import StateGrid, scan_rows
 from phaselab.scan.runner import RunInfo, chunk_size, interleave, numba_threads, run_chunks
 from phaselab.scan.store import seeds_digest
@@ -38,11 +38,11 @@ class FrequencyMap:
     Attributes
     ----------
     nu : ndarray, shape (n_seeds, k)
-        As :attr:`phaselab.compute.frequencies.Frequencies.nu`; NaN where invalid.
+        As :attr:`phaselab.frequency.frequencies.Frequencies.nu`; NaN where invalid.
     diffusion : ndarray, shape (n_seeds,)
         log10 of the change of the frequencies between the two halves of each orbit.
     status : ndarray of int, shape (n_seeds,)
-        Codes of :data:`phaselab.compute.frequencies.STATUS_TEXT`; -1 for a seed not run
+        Codes of :data:`phaselab.frequency.frequencies.STATUS_TEXT`; -1 for a seed not run
         (an invalid grid point, e.g. outside the energy shell).
     seeds : ndarray, shape (n_seeds, 2n)
     grid : StateGrid or None
@@ -92,7 +92,7 @@ class FrequencyMap:
         """An ``xarray.Dataset``: for a grid, dims named after the two grid components
         (vertical first, as in a picture) and ``dof``; for seeds, dim ``seed``. Variables
         ``nu``, ``diffusion``, ``status``, ``valid`` (1/0) and ``seeds``; provenance in
-        ``attrs`` (see :mod:`phaselab.scan.labels`)."""
+        ``attrs`` (see :mod:`phaselab.scan.datasets`)."""
         variables = {
             "nu": (self.nu, {"units": self.unit, "description": f"{self.kind} of each degree of freedom"},
                    ("dof",)),
@@ -172,10 +172,10 @@ def frequency_map(system, seeds, t=None, n=None, params=None, dt=None, method="a
         A grid from :func:`phaselab.state_grid` or :func:`phaselab.shell_grid` (invalid
         grid points are skipped), or seeds.
     t, n, params, dt, method, plane, direction, window, angles, box, t_max, fold
-        As in :func:`phaselab.compute.frequencies.frequencies`.
+        As in :func:`phaselab.frequency.frequencies.frequencies`.
     angle : str or (str, str), optional
         Rotation numbers of this angle instead of frequencies
-        (:func:`phaselab.compute.frequencies.rotation_number`).
+        (:func:`phaselab.frequency.frequencies.rotation_number`).
     batch_size : int, optional
         Seeds per chunk (one compiled call, one Dask task, one step of a store); default
         from the rule in :mod:`phaselab.scan.runner`.

@@ -116,7 +116,7 @@ def shell_grid(system, energy, plane, solve_for, ranges, resolution: int = 100, 
     The component ``solve_for`` is solved from H = E (see :func:`phaselab.shell_seeds`);
     grid points in the energetically forbidden region are marked invalid.
     """
-    from phaselab.compute.seeds import shell_seeds
+    from phaselab.orbits.seeds import shell_seeds
 
     xn, x, yn, y = _two_ranges(ranges, resolution)
     X, Y = np.meshgrid(x, y)
@@ -147,7 +147,7 @@ def scan_rows(system, seeds) -> tuple[np.ndarray, np.ndarray, StateGrid | None]:
     ParameterError
         Seeds that are not real numbers of shape (n_seeds, 2n), or none at all.
     """
-    from phaselab.compute import inputs
+    from phaselab.engine import inputs
 
     grid = seeds if isinstance(seeds, StateGrid) else None
     names = [s.name for s in system.state_symbols]

@@ -12,7 +12,7 @@ from typing import Callable, Mapping
 import numpy as np
 
 from phaselab.errors import ParameterError
-from phaselab.scan import labels
+from phaselab.scan import datasets as labels
 from phaselab.scan.runner import RunInfo, chunk_size, numba_threads, run_chunks
 from phaselab.scan.store import seeds_digest
 

@@ -32,7 +32,7 @@ from typing import Callable, Sequence
 
 import numpy as np
 
-from phaselab.compute import inputs
+from phaselab.engine import inputs
 from phaselab.errors import ParameterError
 
 AUTO_PROGRESS_SECONDS = 2.0

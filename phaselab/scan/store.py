@@ -31,7 +31,7 @@ from pathlib import Path
 import numpy as np
 
 from phaselab.errors import ParameterError
-from phaselab.scan.labels import zarr_module
+from phaselab.scan.datasets import zarr_module
 
 FORMAT = 1
 DONE = "chunk_done"

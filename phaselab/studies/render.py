@@ -34,7 +34,7 @@ class Rendered:
 
     Attributes
     ----------
-    section : phaselab.compute.results.Section
+    section : phaselab.orbits.section_result.Section
     files : list of pathlib.Path
         The files written, in the order of the study's outputs.
     left_out : list of (int, str)
@@ -110,7 +110,7 @@ def seed_states(study: Study):
     Returns
     -------
     seeds : ShellSeeds or ndarray, shape (n_orbits, 2n)
-        A :class:`~phaselab.compute.seeds.ShellSeeds` when the study solves a momentum from
+        A :class:`~phaselab.orbits.seeds.ShellSeeds` when the study solves a momentum from
         the energy, else full states.
     """
     spec, seeds = study.section, study.seeds
@@ -118,7 +118,7 @@ def seed_states(study: Study):
     names = [s.name for s in system.state_symbols]
     columns = {name: seeds.values[:, i] for i, name in enumerate(seeds.columns)}
     if seeds.solve_for is not None:
-        from phaselab.compute.seeds import shell_seeds
+        from phaselab.orbits.seeds import shell_seeds
 
         return shell_seeds(system, spec.energy, {spec.coordinate: spec.value}, seeds.solve_for,
                            columns, params=study.params, sign=spec.direction)
@@ -164,8 +164,8 @@ def compute_section(study: Study, progress=None):
     left_out : list of (int, str)
     messages : list of str
     """
-    from phaselab.compute.section import section
-    from phaselab.compute.seeds import ShellSeeds
+    from phaselab.orbits.section import section
+    from phaselab.orbits.seeds import ShellSeeds
 
     seeds = seed_states(study)
     energy = None
@@ -213,8 +213,8 @@ def compute_section(study: Study, progress=None):
 def compute_structure(study: Study, sec):
     """The periodic orbits (and manifolds) of the study's ``[structure]`` table, on the
     section's plane, energy, step and method. Model results: figures carry the note."""
-    from phaselab.compute.manifolds import manifold
-    from phaselab.compute.periodic import find_periodic_orbits
+    from phaselab.structures.manifolds import manifold
+    from phaselab.structures.periodic import find_periodic_orbits
 
     spec = study.structure
     opts = {"params": study.params, "region": spec.region, "resolution": spec.resolution}
@@ -245,7 +245,7 @@ def compute_structure(study: Study, sec):
 
 def join_sections(parts):
     """One :class:`Section` from sections of consecutive orbit batches."""
-    from phaselab.compute.results import Section
+    from phaselab.orbits.section_result import Section
 
     return Section.concat(parts)
 
@@ -256,7 +256,7 @@ def write_outputs(study: Study, sec, out_dir, orbits=None, manifolds=()) -> list
     Each path is checked to resolve inside ``out_dir``; the file is then written through a
     handle on its folder, opened part by part without following links
     (:func:`~phaselab.studies.paths.open_output_folder`), as a temporary file renamed into
-    place (:func:`~phaselab.export.files.atomic_path`). A link swapped in after the check
+    place (:func:`~phaselab.base.files.atomic_path`). A link swapped in after the check
     cannot redirect the write, and an interrupted write leaves the previous file intact.
 
     Returns
@@ -265,7 +265,7 @@ def write_outputs(study: Study, sec, out_dir, orbits=None, manifolds=()) -> list
         The files written (their resolved paths under ``out_dir``).
     """
     from phaselab.export import save
-    from phaselab.export.files import folder_path
+    from phaselab.base.files import folder_path
 
     files = []
     f = Fields(study.source)
@@ -348,8 +348,8 @@ class _StructureFigure:
     def save(self, path):
         import matplotlib
 
-        from phaselab.export.figures import _RC
-        from phaselab.export.files import atomic_path
+        from phaselab.export.figures import REPORT_RC
+        from phaselab.base.files import atomic_path
 
-        with matplotlib.rc_context(_RC), atomic_path(path) as tmp:
+        with matplotlib.rc_context(REPORT_RC), atomic_path(path) as tmp:
             self.figure.savefig(tmp, format=Path(path).suffix[1:].lower(), dpi=self.dpi, facecolor="white")

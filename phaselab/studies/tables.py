@@ -306,7 +306,7 @@ def read_section(f: Fields, data: dict, system, params) -> SectionSpec:
     energy = f.get_number(sec, "section", "energy")
     method = f.string(sec, "section", "method", default="auto", max_length=40)
     if method != "auto":
-        from phaselab.compute.integrators import get_method
+        from phaselab.engine.integrators import get_method
 
         try:
             get_method(method, system.extended() if kind == "stroboscopic" else system)

@@ -1,0 +1,1 @@
+"""The notebook explorer: ipywidgets and bokeh views of a system's phase space, fed by a worker thread."""

@@ -31,12 +31,13 @@ import numpy as np
 
 from phaselab.errors import ParameterError, PhaselabError
 from phaselab.model.params import finite_number
-from phaselab.widgets import messages, scales, tasks, theme
+from phaselab.widgets import messages, scales, theme
+from phaselab.widgets import computations as tasks
 from phaselab.widgets.messages import number  # noqa: F401  (part of this module's surface)
 from phaselab.widgets.controls import Controls, slider_range
 from phaselab.widgets.session import OrbitRecord, Session, read_session, write_session
 from phaselab.widgets.views import make_view
-from phaselab.widgets.worker import JobRunner, Outcome, _current_loop
+from phaselab.widgets.worker import JobRunner, Outcome, current_loop
 
 __all__ = ["explore", "Explorer", "OrbitRecord", "load_bokehjs"]
 
@@ -115,7 +116,7 @@ class Explorer(W.VBox):
         self._color_label = color_label
         self.jobs = JobRunner(background)
         self.idle_jobs = JobRunner(background)
-        self._loop = _current_loop()
+        self._loop = current_loop()
         self.last_timing: dict[str, float] = {}
         self.last_error = None
         self._message, self._refused = "", False
@@ -591,14 +592,14 @@ class Explorer(W.VBox):
         self._say("Removed the periodic orbits and manifolds.")
 
     def section(self):
-        """All shown orbits as one :class:`~phaselab.compute.results.Section` (None if none)."""
+        """All shown orbits as one :class:`~phaselab.orbits.section_result.Section` (None if none)."""
         from phaselab.widgets.records import merge_sections
 
         return merge_sections([o.section for o in self.session.orbits if o.section is not None and o.state is not None])
 
     def snapshot(self):
-        """What the plot shows now, as plain numbers (:class:`phaselab.widgets.picture.Snapshot`)."""
-        from phaselab.widgets.picture import Snapshot
+        """What the plot shows now, as plain numbers (:class:`phaselab.widgets.snapshot.Snapshot`)."""
+        from phaselab.widgets.snapshot import Snapshot
 
         shown = self.session.shown()
         frame = self._frame
@@ -629,7 +630,7 @@ class Explorer(W.VBox):
         everything drawn, data (.csv .nc) and an interactive page (.html) of the orbits.
         Runs in the calling thread; returns the paths."""
         from phaselab.export import save
-        from phaselab.widgets.picture import write_figure
+        from phaselab.widgets.snapshot import write_figure
 
         sec = self.section()
         if sec is None:

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from phaselab.compute.results import Section
+from phaselab.orbits.section_result import Section
 
 
 def one_orbit(sec, k: int):

@@ -233,7 +233,7 @@ class SectionView(_View):
         key = (tuple(sorted((params or {}).items())), ranges)
         ls = self._levels_cache.get(key)
         if ls is None:
-            from phaselab.compute.levels import level_set
+            from phaselab.structures.levels import level_set
 
             rng = {self.axis_names[0]: ranges[0], self.axis_names[1]: ranges[1]}
             with warnings.catch_warnings():
@@ -286,7 +286,7 @@ class SectionView(_View):
 
     # ---------------------------------------------------------------- orbits
     def seeds(self, points, energy, params) -> Seeding:
-        from phaselab.compute.seeds import shell_seeds
+        from phaselab.orbits.seeds import shell_seeds
 
         pts = np.atleast_2d(np.asarray(points, dtype=float))
         if pts.ndim != 2 or pts.shape[1] != 2:
@@ -295,7 +295,7 @@ class SectionView(_View):
         return Seeding(s.states, s.valid, list(s.reasons))
 
     def compute(self, states, energy, params, crossings=None):
-        from phaselab.compute.section import section
+        from phaselab.orbits.section import section
 
         with warnings.catch_warnings():
             warnings.simplefilter("ignore", RuntimeWarning)
@@ -304,7 +304,7 @@ class SectionView(_View):
                            axes=self.axis_names)
 
     def trace(self, state, params, until):
-        from phaselab.compute.trajectory import trajectory
+        from phaselab.orbits.trajectory import trajectory
 
         t_end = float(until) if until and np.isfinite(until) and until > 0 else 50.0
         t_end = min(t_end, 400.0)
@@ -340,7 +340,7 @@ class PortraitView(_View):
         key = tuple(sorted((params or {}).items()))
         ls = self._cache.get(key)
         if ls is None:
-            from phaselab.compute.levels import level_set
+            from phaselab.structures.levels import level_set
 
             rng = {self.axis_names[0]: self.ranges[0], self.axis_names[1]: self.ranges[1]}
             with warnings.catch_warnings():
@@ -368,8 +368,8 @@ class PortraitView(_View):
 
     def compute(self, states, energy, params, crossings=None):
         """The traced orbits as a Section-like record of samples (time as crossing index)."""
-        from phaselab.compute.results import Section
-        from phaselab.compute.trajectory import trajectory
+        from phaselab.orbits.section_result import Section
+        from phaselab.orbits.trajectory import trajectory
 
         with warnings.catch_warnings():
             warnings.simplefilter("ignore", RuntimeWarning)
@@ -386,7 +386,7 @@ class PortraitView(_View):
                        method=tr.method, dt=tr.dt, system=self.system, params=tr.params)
 
     def trace(self, state, params, until):
-        from phaselab.compute.trajectory import trajectory
+        from phaselab.orbits.trajectory import trajectory
 
         with warnings.catch_warnings():
             warnings.simplefilter("ignore", RuntimeWarning)
@@ -445,7 +445,7 @@ class StrobeView(_View):
         return (st[:, 0], st[:, 1]), (t, h)
 
     def compute(self, states, energy, params, crossings=None):
-        from phaselab.compute.section import section
+        from phaselab.orbits.section import section
 
         with warnings.catch_warnings():
             warnings.simplefilter("ignore", RuntimeWarning)
@@ -453,7 +453,7 @@ class StrobeView(_View):
                            dt=self.dt, method=self.method)
 
     def trace(self, state, params, until):
-        from phaselab.compute.trajectory import trajectory
+        from phaselab.orbits.trajectory import trajectory
 
         period = self.system.driving_period(params)
         with warnings.catch_warnings():
@@ -487,7 +487,7 @@ class MapView(_View):
         return self.ranges
 
     def compute(self, states, energy, params, crossings=None):
-        from phaselab.compute.section import section
+        from phaselab.orbits.section import section
 
         with warnings.catch_warnings():
             warnings.simplefilter("ignore", RuntimeWarning)

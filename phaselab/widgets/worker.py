@@ -49,7 +49,7 @@ def _run(compute) -> Outcome:
     return Outcome(value=value, seconds=time.perf_counter() - start)
 
 
-def _current_loop():
+def current_loop():
     try:
         return asyncio.get_running_loop()
     except RuntimeError:
@@ -96,7 +96,7 @@ class JobRunner:
                 return
             self._serial += 1
             self._pending[key] = _Job(time.monotonic() + max(delay, 0.0), self._serial, key,
-                                      compute, deliver, _current_loop())
+                                      compute, deliver, current_loop())
             if self._thread is None or not self._thread.is_alive():
                 self._thread = threading.Thread(target=self._work, name="phaselab-explorer",
                                                 daemon=True)

@@ -1,0 +1,1 @@
+"""The shared base under every layer: atomic file writing and thread settings."""

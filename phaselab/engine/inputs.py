@@ -1,0 +1,346 @@
+"""The argument checks shared by every compute call: one accepted form per argument, one
+error per mistake.
+
+Every function here returns the checked value in the form the compiled loops take (C-ordered
+float64 arrays, Python ints and floats) or raises :class:`~phaselab.errors.ParameterError`
+naming the argument, what was expected and what was given. Requests whose cost can be
+known up front (memory of the output, number of integrator steps) are checked against
+:data:`LIMITS`, which :func:`set_limits` raises for a session.
+"""
+
+from __future__ import annotations
+
+import math
+import numbers
+from dataclasses import dataclass, replace
+from typing import Mapping
+
+import numpy as np
+
+from phaselab.engine import status as codes
+from phaselab.errors import ParameterError
+
+
+# ----------------------------------------------------------------------------- limits
+@dataclass(frozen=True)
+class Limits:
+    """Bounds on what one call may ask for.
+
+    Attributes
+    ----------
+    memory_bytes : float
+        Largest output (saved states, section points, records) one call may allocate.
+    orbit_steps : float
+        Largest number of integrator steps (or map iterates) summed over the orbits of one
+        call: at ~10^8 steps per second and core, 10^11 is about ten minutes on a laptop.
+    """
+
+    memory_bytes: float = 2 * 2**30
+    orbit_steps: float = 1e11
+
+
+LIMITS = Limits()
+"""The limits in force (see :func:`set_limits`)."""
+
+
+def set_limits(memory_bytes: float | None = None, orbit_steps: float | None = None) -> Limits:
+    """Raise (or lower) the limits on one call's memory and work for this session.
+
+    Parameters
+    ----------
+    memory_bytes : float, optional
+        Largest output one call may allocate, in bytes (default 2 GiB).
+    orbit_steps : float, optional
+        Largest number of integrator steps or map iterates, summed over orbits (default 1e11).
+
+    Returns
+    -------
+    Limits
+        The limits that were in force before, so a caller can restore them.
+    """
+    global LIMITS
+    before = LIMITS
+    changes = {}
+    if memory_bytes is not None:
+        changes["memory_bytes"] = positive_number(memory_bytes, "memory_bytes")
+    if orbit_steps is not None:
+        changes["orbit_steps"] = positive_number(orbit_steps, "orbit_steps")
+    LIMITS = replace(LIMITS, **changes)
+    return before
+
+
+def check_budget(n_orbits: int, steps_per_orbit: float, output_values: float, what: str) -> None:
+    """Refuse a request over :data:`LIMITS` before any memory is allocated or work begun.
+
+    Parameters
+    ----------
+    n_orbits : int
+    steps_per_orbit : float
+        Integrator steps or iterates per orbit (may be huge or infinite: it is checked first).
+    output_values : float
+        Number of float64 values the outputs will hold.
+    what : str
+        The call, for the message (``"section"``).
+    """
+    steps = float(n_orbits) * float(steps_per_orbit)
+    if not math.isfinite(steps) or steps > LIMITS.orbit_steps:
+        raise ParameterError(
+            f"{what} would take {_amount(steps)} integrator steps ({n_orbits} orbits x "
+            f"{_amount(steps_per_orbit)} steps), more than the limit of {LIMITS.orbit_steps:.3g}; "
+            "ask for less (shorter time, larger step, fewer orbits) or raise the limit with "
+            "phaselab.set_limits(orbit_steps=...)")
+    size = 8.0 * float(output_values)
+    if not math.isfinite(size) or size > LIMITS.memory_bytes:
+        raise ParameterError(
+            f"{what} would need {size / 2**30:.3g} GiB for its results, more than the limit of "
+            f"{LIMITS.memory_bytes / 2**30:.3g} GiB; ask for fewer samples or orbits or raise the "
+            "limit with phaselab.set_limits(memory_bytes=...)")
+
+
+def _amount(x: float) -> str:
+    return "infinitely many" if not math.isfinite(x) else f"{x:.3g}"
+
+
+# ----------------------------------------------------------------------------- numbers
+def number(value, what: str) -> float:
+    """A finite real number (int, float or numpy scalar; not bool, complex or str)."""
+    if isinstance(value, (bool, np.bool_)) or not isinstance(value, numbers.Real):
+        raise ParameterError(f"{what} must be a real number, got {_show(value)}")
+    try:
+        v = float(value)
+    except (OverflowError, TypeError, ValueError):
+        raise ParameterError(f"{what} must be a real number that fits a float, got {_show(value)}") from None
+    if not math.isfinite(v):
+        raise ParameterError(f"{what} must be finite, got {v}")
+    return v
+
+
+def positive_number(value, what: str) -> float:
+    """A finite real number > 0."""
+    v = number(value, what)
+    if not v > 0:
+        raise ParameterError(f"{what} must be positive, got {v:g}")
+    return v
+
+
+def count(value, what: str, minimum: int = 1, maximum: int | None = None) -> int:
+    """An integer in ``[minimum, maximum]`` (int or numpy integer, or a float with an integral
+    value; not bool or str)."""
+    if isinstance(value, (bool, np.bool_)):
+        raise ParameterError(f"{what} must be an integer, got {value!r}")
+    if isinstance(value, numbers.Integral):
+        k = int(value)
+    elif isinstance(value, numbers.Real) and math.isfinite(float(value)) and float(value).is_integer():
+        k = int(value)
+    else:
+        raise ParameterError(f"{what} must be an integer, got {_show(value)}")
+    if k < minimum:
+        raise ParameterError(f"{what} must be at least {minimum}, got {k}")
+    if maximum is not None and k > maximum:
+        raise ParameterError(f"{what} must be at most {maximum}, got {k}")
+    return k
+
+
+def step(dt, what: str = "dt") -> float | None:
+    """A step: ``None`` (the call chooses one) or a positive finite number above 1e-300.
+
+    How many steps a span takes is checked later, against :data:`LIMITS`."""
+    if dt is None:
+        return None
+    h = positive_number(dt, what)
+    if h < 1e-300:
+        raise ParameterError(f"{what} = {h:g} is too small to be a step")
+    return h
+
+
+def direction(value) -> int:
+    """+1 or -1."""
+    if isinstance(value, (bool, np.bool_)) or value not in (1, -1):
+        raise ParameterError(f"direction must be +1 or -1, got {value!r}")
+    return int(value)
+
+
+def tolerance(value, what: str = "tol") -> float:
+    """A relative tolerance in (0, 1)."""
+    v = positive_number(value, what)
+    if v >= 1:
+        raise ParameterError(f"{what} must be below 1, got {v:g}")
+    return v
+
+
+def iterations(value, what: str = "maxit") -> int:
+    """An iteration cap between 1 and 100000."""
+    return count(value, what, minimum=1, maximum=100_000)
+
+
+def _show(value) -> str:
+    text = repr(value)
+    return text if len(text) <= 60 else text[:57] + "..."
+
+
+# ----------------------------------------------------------------------------- states
+def states(value, width: int, names=None, what: str = "seeds") -> np.ndarray:
+    """A batch of states as a C-ordered float64 array of shape ``(n_orbits, width)``.
+
+    A single state of shape ``(width,)`` becomes one row. Entries must be real numbers
+    (bool, complex and text are refused); NaN or infinite entries are kept, so that the
+    orbit is flagged in the result's status rather than the batch refused.
+
+    Parameters
+    ----------
+    value : array_like, shape (n_orbits, width) or (width,)
+    width : int
+        Number of state components (2n; 2n + 2 in extended phase space).
+    names : sequence of str, optional
+        Component names, for the message.
+    what : str
+        The argument's name, for the message.
+    """
+    order = f" ordered ({', '.join(names)})" if names else ""
+    try:
+        arr = np.asarray(value)
+    except ValueError:  # ragged nested sequences
+        raise ParameterError(f"{what} must be an array of shape (n_orbits, {width}){order}; "
+                             "got rows of different lengths") from None
+    if arr.dtype == object or arr.dtype.kind not in "iuf":
+        kind = {"b": "booleans", "c": "complex numbers", "U": "text", "S": "text",
+                "O": "mixed or ragged entries"}.get(arr.dtype.kind, f"dtype {arr.dtype}")
+        raise ParameterError(f"{what} must be real numbers of shape (n_orbits, {width}){order}; "
+                             f"got {kind}")
+    if arr.ndim == 1:
+        arr = arr[None, :]
+    if arr.ndim != 2 or arr.shape[1] != width:
+        raise ParameterError(f"{what} must have shape ({width},) or (n_orbits, {width}){order}; "
+                             f"got shape {np.shape(value)}")
+    if arr.shape[0] == 0:
+        raise ParameterError(f"{what} holds no states")
+    return np.ascontiguousarray(arr, dtype=np.float64)
+
+
+def state_index(system, name, what: str = "name") -> int:
+    """Index of a state component given by name or sympy symbol."""
+    names = [s.name for s in system.state_symbols]
+    key = getattr(name, "name", name)
+    if not isinstance(key, str) or key not in names:
+        raise ParameterError(f"unknown {what} {name!r}; the state components of this system are: "
+                             + ", ".join(names))
+    return names.index(key)
+
+
+# ----------------------------------------------------------------------------- box
+def box(system, value, positions=None) -> tuple[np.ndarray, np.ndarray]:
+    """Escape region as ``(low, high)`` arrays over the state the loops integrate.
+
+    One form for every call: ``None`` (no bound), a positive number ``R`` (every component
+    within ``[-R, R]``), or a mapping ``{name: (low, high)}`` bounding the named components
+    (``-inf``/``inf`` for an open side).
+
+    Parameters
+    ----------
+    system : Hamiltonian or AreaPreservingMap
+    value : None, float or mapping
+    positions : sequence of int, optional
+        Where each of the system's state components sits in the integrated state (for
+        extended phase space, where tau and p_tau are inserted); default the identity.
+
+    Returns
+    -------
+    low, high : ndarray, shape (width,)
+        ``width`` is ``max(positions) + 1`` (+ 1 for the trailing p_tau in extended space).
+    """
+    names = [s.name for s in system.state_symbols]
+    pos = list(range(len(names))) if positions is None else list(positions)
+    width = len(names) if positions is None else len(names) + 2
+    lo = np.full(width, -np.inf)
+    hi = np.full(width, np.inf)
+    if value is None:
+        return lo, hi
+    if isinstance(value, Mapping):
+        for key, bounds in value.items():
+            j = state_index(system, key, "box component")
+            name = names[j]
+            try:
+                a, b = (float(bounds[0]), float(bounds[1]))
+                if len(bounds) != 2:
+                    raise ValueError
+            except (TypeError, ValueError, IndexError, KeyError):
+                raise ParameterError(f"box bounds of {name!r} must be a pair (low, high), got "
+                                     f"{_show(bounds)}") from None
+            if math.isnan(a) or math.isnan(b) or not a < b:
+                raise ParameterError(f"box bounds of {name!r} need low < high, got ({a}, {b})")
+            lo[pos[j]], hi[pos[j]] = a, b
+        return lo, hi
+    if isinstance(value, numbers.Real) and not isinstance(value, (bool, np.bool_)):
+        r = positive_number(value, "box")
+        lo[pos] = -r
+        hi[pos] = r
+        return lo, hi
+    raise ParameterError("box must be a positive number R (every component within [-R, R]) or a "
+                         f"mapping name -> (low, high), got {_show(value)}")
+
+
+# ----------------------------------------------------------------------------- method
+def method(system, value, adaptive: bool = False):
+    """The integrator for ``method=...``: ``"auto"`` or a name of the method table.
+
+    Parameters
+    ----------
+    system : Hamiltonian
+        The (autonomous, possibly extended) system to integrate.
+    value : str
+    adaptive : bool
+        Whether the call accepts the adaptive scipy reference (``"dop853"``).
+
+    Returns
+    -------
+    Method or str
+        A :class:`~phaselab.engine.integrators.Method`, or ``"dop853"``.
+
+    Raises
+    ------
+    ParameterError
+        An unknown name, or ``"dop853"`` where it is not available.
+    ModelError
+        A splitting method for a Hamiltonian that is not separable.
+    """
+    from phaselab.engine.integrators import ADAPTIVE, choose_method, get_method
+
+    if not isinstance(value, str):
+        raise ParameterError(f"method must be a name such as 'auto' or 'yoshida4', got {_show(value)}")
+    key = value.lower()
+    if key == "auto":
+        return choose_method(system)
+    if key in ADAPTIVE:
+        if adaptive:
+            return key
+        raise ParameterError(f"method {value!r} is the adaptive scipy reference, available in "
+                             "trajectory() only; here choose a fixed-step method such as "
+                             "'yoshida6' or 'gauss6'")
+    return get_method(key, system)
+
+
+def symplectic(meth) -> None:
+    """Refuse a method that is not symplectic (the tangent-map indicators need one)."""
+    if not getattr(meth, "symplectic", False):
+        name = getattr(meth, "name", meth)
+        raise ParameterError(f"method {name!r} is not symplectic; use leapfrog, yoshida4/6/8, "
+                             "implicit_midpoint, gauss4 or gauss6")
+
+
+def implicit_solver(tol, maxit) -> tuple[float, int]:
+    """The implicit step's tolerance and iteration cap, checked (defaults in
+    :mod:`phaselab.engine.status`)."""
+    return (tolerance(codes.IMPLICIT_TOL if tol is None else tol),
+            iterations(codes.IMPLICIT_MAXIT if maxit is None else maxit))
+
+
+def flow(system, what: str):
+    """Refuse anything but a Hamiltonian flow."""
+    if getattr(system, "kind", None) != "flow" or not hasattr(system, "expr"):
+        got = "an area-preserving map" if getattr(system, "kind", None) == "map" else type(system).__name__
+        raise ParameterError(f"{what} needs a Hamiltonian flow, got {got}")
+
+
+__all__ = ["LIMITS", "Limits", "set_limits", "check_budget", "number", "positive_number", "count",
+           "step", "direction", "tolerance", "iterations", "states", "state_index", "box", "method",
+           "symplectic", "implicit_solver", "flow"]

@@ -1,0 +1,151 @@
+"""What labelled results record beside their numbers: the model, the parameters, the
+versions of the software that made them, and the reminder that they are model results.
+
+The one place for the provenance of every labelled result (``to_xarray()``, data files):
+orbits, manifolds and families in the compute layer, and the scans
+(:mod:`phaselab.scan.datasets` builds their datasets on these functions).
+"""
+
+from __future__ import annotations
+
+import json
+import platform
+
+import numpy as np
+
+from phaselab.errors import PhaselabError
+
+NOTE = ("model results; confirm with validated tools and the responsible engineers before they "
+        "inform a design decision")
+"""The reminder every labelled result carries."""
+
+MODEL_NOTE = ("Model results: confirm with validated tools and the responsible engineers before they "
+              "inform a design.")
+"""The same reminder as a sentence, for figures."""
+
+LIBRARIES = ("numpy", "scipy", "sympy", "numba", "xarray", "zarr", "netCDF4", "dask", "distributed")
+"""Libraries whose versions are recorded (those installed)."""
+
+
+def xarray_module():
+    """xarray, or a clear error naming the extra that installs it."""
+    try:
+        import xarray
+    except ImportError:
+        raise PhaselabError("labelled results need xarray; install it with "
+                            "pip install 'phaselab[lab]'") from None
+    return xarray
+
+
+
+def expression_text(system) -> str:
+    """The system's defining expression as text: ``str(H.expr)``, or a map's update rules as
+    ``"q' = ...; p' = ..."``; '' when unknown."""
+    if system is None:
+        return ""
+    expr = getattr(system, "expr", None)
+    if expr is not None:
+        return "; ".join(str(e) for e in expr) if isinstance(expr, (list, tuple)) else str(expr)
+    update = getattr(system, "update", None)
+    syms = getattr(system, "state_symbols", None)
+    if update is not None and syms is not None and len(update) == len(syms):
+        return "; ".join(f"{s.name}' = {e}" for s, e in zip(syms, update))
+    return ""
+
+
+def versions() -> dict:
+    """Versions of phaselab, Python and the numeric libraries installed, as
+    ``{"phaselab_version": ..., "numpy_version": ..., ...}`` (read from the installed
+    packages' metadata, without importing them)."""
+    from importlib import metadata
+
+    import phaselab
+
+    out = {"phaselab_version": phaselab.__version__, "python_version": platform.python_version()}
+    for name in LIBRARIES:
+        try:
+            out[f"{name}_version"] = metadata.version(name)
+        except metadata.PackageNotFoundError:
+            continue
+    return out
+
+
+def state_names(system, width: int | None = None) -> list[str]:
+    """Names of the state components (``z0, z1, ...`` when the system gives none)."""
+    names = [s.name for s in getattr(system, "state_symbols", ())]
+    if not names and width is not None:
+        names = [f"z{k}" for k in range(width)]
+    return names
+
+
+def provenance(system=None, params=None, **fields) -> dict:
+    """The record kept beside a result's numbers.
+
+    Parameters
+    ----------
+    system : Hamiltonian or AreaPreservingMap, optional
+    params : mapping, optional
+        Parameter values used (the system's defaults fill the rest).
+    **fields
+        What else describes the computation: ``energy``, ``method``, ``dt``, ``t``, ...
+        (None is kept and written as JSON ``null`` in files).
+
+    Returns
+    -------
+    dict
+        ``system`` (name), ``system_kind`` ("flow" or "map"), ``expression``, ``state``,
+        ``params``, the given fields, ``note``, and the versions of :func:`versions`.
+    """
+    used = {}
+    if system is not None:
+        try:
+            values = system.param_values(params)
+            used = {p.name: float(v) for p, v in zip(system.parameters, values)}
+        except Exception:  # a result rebuilt without its system: keep what was given
+            used = {str(k): float(v) for k, v in (params or {}).items()}
+    else:
+        used = {str(k): v for k, v in (params or {}).items()}
+    meta = {
+        "system": str(getattr(system, "name", "") or "") if system is not None else "",
+        "system_kind": str(getattr(system, "kind", "") or "") if system is not None else "",
+        "expression": expression_text(system),
+        "state": state_names(system),
+        "params": used,
+    }
+    meta.update(fields)
+    meta["note"] = NOTE
+    meta.update(versions())
+    return meta
+
+
+def netcdf_attrs(meta: dict) -> dict:
+    """Attributes that NetCDF and Zarr can hold: dicts, lists and None become JSON text,
+    booleans become 0/1."""
+    out = {}
+    for key, value in meta.items():
+        if isinstance(value, (dict, list, tuple)) or value is None:
+            out[key] = json.dumps(plain(value), allow_nan=True)
+        elif isinstance(value, (bool, np.bool_)):
+            out[key] = int(value)
+        elif isinstance(value, np.generic):
+            out[key] = value.item()
+        else:
+            out[key] = value
+    return out
+
+
+def plain(value, nan_as_none: bool = False):
+    """numpy scalars and arrays inside ``value`` (dicts, lists and tuples, to any depth)
+    turned into Python numbers and lists, for JSON and for file attributes; with
+    ``nan_as_none`` non-finite floats become ``None`` (JSON ``null``)."""
+    if isinstance(value, dict):
+        return {str(k): plain(v, nan_as_none) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [plain(v, nan_as_none) for v in value]
+    if isinstance(value, np.ndarray):
+        return plain(value.tolist(), nan_as_none)
+    if isinstance(value, np.generic):
+        value = value.item()
+    if nan_as_none and isinstance(value, float) and not np.isfinite(value):
+        return None
+    return value
