@@ -49,14 +49,15 @@ def classify_flow(A: np.ndarray) -> tuple[np.ndarray, str]:
 
     Returns
     -------
-    eigenvalues : ndarray of complex, shape (2n,), sorted by (real, imag)
+    eigenvalues : ndarray of complex, shape (2n,), sorted by (real, imag); NaN when ``A`` is
+        not finite (a singular point of the model), which is then "degenerate"
     stability : str
         One of :data:`STABILITIES`, or the name of a mixed type such as ``"saddle-centre"``.
     """
     A = np.asarray(A, dtype=float)
-    lam = _sorted(np.linalg.eigvals(A))
     if not np.all(np.isfinite(A)):
-        return lam, "degenerate"
+        return np.full(len(A), np.nan + 0j), "degenerate"
+    lam = _sorted(np.linalg.eigvals(A))
     scale = float(np.linalg.norm(A, 2))
     if scale == 0.0 or np.any(np.abs(lam) < ZERO_EIGENVALUE * scale) or _defective(A, lam, scale):
         return lam, "degenerate"
@@ -75,9 +76,9 @@ def classify_map(M: np.ndarray) -> tuple[np.ndarray, str]:
     eigenvalue 1 or a Jordan block makes the fixed point degenerate.
     """
     M = np.asarray(M, dtype=float)
-    lam = _sorted(np.linalg.eigvals(M))
     if not np.all(np.isfinite(M)):
-        return lam, "degenerate"
+        return np.full(len(M), np.nan + 0j), "degenerate"
+    lam = _sorted(np.linalg.eigvals(M))
     scale = max(1.0, float(np.linalg.norm(M, 2)))
     if np.any(np.abs(lam - 1.0) < ZERO_EIGENVALUE) or _defective(M, lam, scale):
         return lam, "degenerate"
