@@ -6,8 +6,9 @@ sources of each model.
 
 from phaselab.model.catalogue import (MODELS, available, double_pendulum, driven_pendulum,
                                       fput_chain, henon_heiles, kepler, pendulum,
-                                      restricted_three_body, standard_map, toda_lattice)
+                                      restricted_three_body, spatial_restricted_three_body,
+                                      standard_map, toda_lattice)
 
 __all__ = ["MODELS", "available", "pendulum", "henon_heiles", "kepler", "double_pendulum",
-           "restricted_three_body", "toda_lattice", "fput_chain", "driven_pendulum",
-           "standard_map"]
+           "restricted_three_body", "spatial_restricted_three_body", "toda_lattice", "fput_chain",
+           "driven_pendulum", "standard_map"]
