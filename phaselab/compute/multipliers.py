@@ -45,7 +45,8 @@ class Pairs:
     multipliers : ndarray of complex, shape (m, 2)
         The two multipliers of each pair, the larger in size first.
     weights : ndarray, shape (m, d)
-        How much of each pair's eigenvectors lies in each reduced coordinate (rows sum to 1).
+        How much of each pair's invariant plane lies in each reduced coordinate (rows sum
+        to 1).
     """
 
     indices: np.ndarray
@@ -85,7 +86,7 @@ def multiplier_pairs(M) -> Pairs:
     nan = Pairs(np.full(m, np.nan + 0j), np.full((m, 2), np.nan + 0j), np.full((m, d), np.nan))
     if d % 2 or not np.all(np.isfinite(M)):
         return nan
-    lam, vec = np.linalg.eig(M)
+    lam = np.linalg.eigvals(M)
     if np.any(lam == 0):
         return nan
     groups = _pair_up(lam)
@@ -97,11 +98,26 @@ def multiplier_pairs(M) -> Pairs:
             i, j = j, i
         mult[k] = lam[i], lam[j]
         indices[k] = np.trace(M) if d == 2 else lam[i] + 1.0 / lam[i]
-        w = np.abs(vec[:, i]) ** 2 + np.abs(vec[:, j]) ** 2
-        weights[k] = w / w.sum()
+        weights[k] = _subspace_weights(M, np.delete(lam, [i, j]))
     real = np.abs(indices.imag) <= REAL_TOL * (1.0 + np.abs(indices))
     indices[real] = indices[real].real
     return Pairs(indices, mult, weights)
+
+
+def _subspace_weights(M: np.ndarray, others: np.ndarray) -> np.ndarray:
+    """Share of each coordinate in the invariant plane of one pair: the range of
+    prod (M - mu I) over the other multipliers mu (the pair's generalised eigenspace, well
+    defined also where the pair is nearly a Jordan block), from its two leading singular
+    vectors."""
+    d = M.shape[0]
+    P = np.eye(d, dtype=complex)
+    for mu in others:
+        F = M - mu * np.eye(d)
+        P = F @ P
+        P /= max(np.linalg.norm(P), 1e-300)
+    u = np.linalg.svd(P)[0][:, :2]
+    w = np.sum(np.abs(u) ** 2, axis=1)
+    return w / w.sum()
 
 
 def _pair_up(lam: np.ndarray) -> list:
