@@ -263,3 +263,23 @@ def test_indices_of_a_symplectic_matrix_and_a_krein_collision():
     assert len(leave) == 1 and leave[0]["between"] == (first_off - 1, first_off)
     assert len(back) == 1 and back[0]["between"] == (last_off, last_off + 1)
     assert leave[0]["pairs"] in ((0, 1), (1, 0))
+
+
+def test_a_spatial_family_draws_its_indices_and_saves(spatial_family, tmp_path):
+    """The stability diagram of a 4-D section map shows the indices (the residue is not
+    defined); the data file carries them and the bifurcation with its pair."""
+    import json
+
+    import xarray as xr
+
+    _, _, fam = spatial_family
+    fig = fam.plot()
+    assert fig.axes[0].get_yscale() == "symlog" and "stability index" in fig.axes[0].get_ylabel()
+    out = fam.save(tmp_path / "family.nc")
+    with xr.open_dataset(out) as ds:
+        np.testing.assert_allclose(ds["stability_index_real"].values, fam.stability_indices.real)
+        bif = json.loads(ds.attrs["bifurcations"])
+    assert [b["kind"] for b in bif] == ["tangent (multiplier +1)"]
+    summary = json.loads(fam.save(tmp_path / "family.json").read_text())
+    assert summary["bifurcations"][0]["pair"] == fam.bifurcations[0]["pair"]
+    assert fam.save(tmp_path / "family.png").stat().st_size > 1000

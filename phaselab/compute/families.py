@@ -143,9 +143,11 @@ class Family:
                                           stopped=self.note)))
         return ds
 
-    def plot(self, y="residue", **kwargs):
-        """A stability diagram: the parameter against the residue (or ``y="period"``), stable
-        and unstable members told apart by line style and marker, bifurcations marked."""
+    def plot(self, y=None, **kwargs):
+        """A stability diagram: the parameter against the residue (``y="residue"``, the
+        default for 2-D section maps), the stability index of each multiplier pair
+        (``y="index"``, the default otherwise) or ``y="period"``; stable and unstable
+        members told apart by line style and marker, bifurcations marked."""
         from phaselab.export.families import family_figure
 
         return family_figure(self, y=y, **kwargs)
