@@ -126,7 +126,8 @@ class Family:
 
         names = [s.name for s in self.system.state_symbols]
         mult = np.atleast_2d(self.multipliers)
-        idx = np.asarray(self.stability_indices, dtype=complex).reshape(len(self.values), -1)
+        idx = np.asarray(self.stability_indices, dtype=complex)
+        idx = idx.reshape(len(self.values), -1) if idx.size else np.zeros((len(self.values), 0), complex)
         ds = xr.Dataset(
             {"state": (("member", "component"), self.states),
              "period": (("member",), self.period),
