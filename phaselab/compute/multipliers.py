@@ -240,12 +240,12 @@ def _collisions(values, B, i, names) -> list:
         while len(cols) >= 2:
             k = cols.pop(0)
             ref = B[i + 1, k] if leaving else B[i, k]
-            l = min(cols, key=lambda c: abs((B[i + 1, c] if leaving else B[i, c]) - np.conj(ref)))
-            cols.remove(l)
+            other = min(cols, key=lambda c: abs((B[i + 1, c] if leaving else B[i, c]) - np.conj(ref)))
+            cols.remove(other)
             # (b_k - b_l)^2 is positive for two real indices and negative for a conjugate couple
-            da, db = (B[i, k] - B[i, l]) ** 2, (B[i + 1, k] - B[i + 1, l]) ** 2
+            da, db = (B[i, k] - B[i, other]) ** 2, (B[i + 1, k] - B[i + 1, other]) ** 2
             frac = da.real / (da.real - db.real) if da.real != db.real else 0.5
-            meet = 0.5 * ((B[i, k] + B[i, l]) if leaving else (B[i + 1, k] + B[i + 1, l])).real
+            meet = 0.5 * ((B[i, k] + B[i, other]) if leaving else (B[i + 1, k] + B[i + 1, other])).real
             on_circle = abs(meet) < 2.0
             if leaving:
                 kind = ("Krein collision (two pairs leave the unit circle)" if on_circle
@@ -254,8 +254,8 @@ def _collisions(values, B, i, names) -> list:
                 kind = ("two pairs return to the unit circle" if on_circle
                         else "a complex quartet returns to the real axis")
             rec = _record(kind, values, i, frac, k, B, names)
-            rec["pairs"] = (int(k), int(l))
-            rec["coordinates"] = sorted(set(names[i + 1][k]) | set(names[i + 1][l]))
+            rec["pairs"] = (int(k), int(other))
+            rec["coordinates"] = sorted(set(names[i + 1][k]) | set(names[i + 1][other]))
             out.append(rec)
     return out
 
