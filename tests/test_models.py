@@ -14,7 +14,7 @@ from phaselab.codegen import compile_kernel
 from phaselab.errors import ModelError
 
 FLOWS = ["pendulum", "henon_heiles", "kepler", "double_pendulum", "restricted_three_body",
-         "toda_lattice", "fput_chain", "driven_pendulum"]
+         "spatial_restricted_three_body", "toda_lattice", "fput_chain", "driven_pendulum"]
 
 
 def compiled(system):

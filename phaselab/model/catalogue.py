@@ -8,7 +8,8 @@ results: a stability or orbit question of a real machine or spacecraft is to be 
 with validated tools and the responsible engineers.
 
 Available: :func:`pendulum`, :func:`henon_heiles`, :func:`kepler`,
-:func:`double_pendulum`, :func:`restricted_three_body`, :func:`toda_lattice`,
+:func:`double_pendulum`, :func:`restricted_three_body`,
+:func:`spatial_restricted_three_body`, :func:`toda_lattice`,
 :func:`fput_chain`, :func:`driven_pendulum`, :func:`standard_map`.
 """
 
@@ -113,6 +114,28 @@ def restricted_three_body() -> Hamiltonian:
     H = (px**2 + py**2) / 2 + y * px - x * py - (1 - mu) / r1 - mu / r2
     return Hamiltonian(H, [x, y], [px, py], params={mu: (0.01, (0.0, 0.5))},
                        name="restricted_three_body")
+
+
+def spatial_restricted_three_body() -> Hamiltonian:
+    """The spatial circular restricted three-body problem in the rotating frame,
+
+    H = (px^2 + py^2 + pz^2)/2 + y px - x py - (1 - mu)/r1 - mu/r2,
+    r1 = |(x, y, z) - (-mu, 0, 0)|,  r2 = |(x, y, z) - (1 - mu, 0, 0)|,
+
+    in the units of :func:`restricted_three_body` (the primaries' separation, their total
+    mass and their angular velocity are 1; ``mu`` the mass ratio of the smaller primary,
+    0 < mu <= 1/2). The plane z = pz = 0 is invariant and carries the planar problem; H is
+    the negative half of the Jacobi constant. State ``(x, y, z, px, py, pz)``.
+
+    Source: V. Szebehely, *Theory of Orbits: The Restricted Problem of Three Bodies*
+    (Academic Press, 1967).
+    """
+    x, y, z, px, py, pz, mu = _real("x y z px py pz mu")
+    r1 = sp.sqrt((x + mu)**2 + y**2 + z**2)
+    r2 = sp.sqrt((x - 1 + mu)**2 + y**2 + z**2)
+    H = (px**2 + py**2 + pz**2) / 2 + y * px - x * py - (1 - mu) / r1 - mu / r2
+    return Hamiltonian(H, [x, y, z], [px, py, pz], params={mu: (0.01, (0.0, 0.5))},
+                       name="spatial_restricted_three_body")
 
 
 def toda_lattice(n: int = 3) -> Hamiltonian:
@@ -225,6 +248,7 @@ MODELS = {
     "kepler": kepler,
     "double_pendulum": double_pendulum,
     "restricted_three_body": restricted_three_body,
+    "spatial_restricted_three_body": spatial_restricted_three_body,
     "toda_lattice": toda_lattice,
     "fput_chain": fput_chain,
     "driven_pendulum": driven_pendulum,

@@ -28,6 +28,7 @@ from phaselab.engine import status as codes
 
 from phaselab.engine import inputs
 from phaselab.engine.provenance import netcdf_attrs, provenance
+from phaselab.structures.multipliers import multiplier_pairs
 from phaselab.structures.returns import OFF_SHELL, ReturnMap, return_map
 from phaselab.errors import IntegrationError, ParameterError
 
@@ -89,6 +90,9 @@ class PeriodicOrbit:
         Newton steps taken.
     system, params, plane, method, dt
         How it was computed.
+    stability_indices : ndarray of complex, shape (d/2,)
+        Broucke's index b = lambda + 1/lambda of each multiplier pair, any d (see
+        :mod:`phaselab.structures.multipliers`); b = tr M = 2 - 4 residue when d = 2.
     """
 
     points: np.ndarray
@@ -111,6 +115,7 @@ class PeriodicOrbit:
     method: str = ""
     dt: float = float("nan")
     settings: dict = field(default_factory=dict)
+    stability_indices: np.ndarray | None = None
 
     def return_map(self, k: int | None = None) -> ReturnMap:
         """The return map this orbit is a fixed point of (or its ``k``-th return map), with
@@ -459,7 +464,8 @@ def _orbit(ret, k, points, M, period, shift, residual, iterations) -> PeriodicOr
         residual=float(residual), iterations=int(iterations), system=system, params=params,
         plane=getattr(ret, "plane", None) if ret.kind == "plane" else ret.kind,
         method="map" if ret.kind == "map" else ret.method.name,
-        dt=float(getattr(ret, "h", float("nan"))), settings=_settings(ret))
+        dt=float(getattr(ret, "h", float("nan"))), settings=_settings(ret),
+        stability_indices=multiplier_pairs(M).indices)
 
 
 def _settings(ret: ReturnMap) -> dict:
