@@ -26,7 +26,7 @@ import time
 
 import numpy as np
 
-# integrate with the system's inlined loops, built before the first call (the fastest tier, so
+# integrate with the system's inlined loops, built before the first call (the faster form, so
 # the comparison is conservative for the analysis); PHASELAB_LOOPS=generic to compare with that
 os.environ.setdefault("PHASELAB_LOOPS", "inlined")
 

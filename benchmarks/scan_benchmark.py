@@ -132,8 +132,8 @@ def part_floor(H, repeat):
     print(f"1. MEGNO map: {N} x {N} grid of (y, py), {len(Z)} seeds on the shell; t = {T:g}, yoshida4, "
           f"dt = {DT}; numba threads = {numba.get_num_threads()}")
 
-    def run(tier):
-        os.environ["PHASELAB_LOOPS"] = tier
+    def run(form):
+        os.environ["PHASELAB_LOOPS"] = form
         return megno(H, g, T)
 
     def floor():
@@ -141,8 +141,8 @@ def part_floor(H, repeat):
         return out.copy()
 
     # warm: compile the floor, the generic loops and the inlined module (in this process)
-    for tier in ("generic", "inlined"):
-        os.environ["PHASELAB_LOOPS"] = tier
+    for form in ("generic", "inlined"):
+        os.environ["PHASELAB_LOOPS"] = form
         megno(H, Z[:8], 1.0)
     floor_megno(Z[:2], W[:2], DT, 10, out[:2])
 

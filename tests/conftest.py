@@ -1,4 +1,4 @@
-"""What every test shares: one private kernel cache for the whole session, the loop tier,
+"""What every test shares: one private kernel cache for the whole session, the loops' form,
 and the model fixtures used across files.
 
 The cache is ``$PHASELAB_CACHE_DIR`` when set (CI sets a fresh one), else ``.cache/kernels``

@@ -334,15 +334,16 @@ def generic_module(files):
     return load_module(name, lambda: generic_source(files))
 
 
-# ----------------------------------------------------------------------------- tiers
-TIERS = ("auto", "generic", "inlined")
+# ----------------------------------------------------------------------------- loop form chosen
+LOOP_FORM_CHOICES = ("auto", "generic", "inlined")
 
 
-def tier() -> str:
-    """The tier policy in force (``PHASELAB_LOOPS``; default ``auto``)."""
+def loop_form_choice() -> str:
+    """Which form of the loops runs, from ``PHASELAB_LOOPS`` (default ``auto``): ``generic``,
+    ``inlined``, or ``auto`` (the inlined module where it is built for the call, else generic)."""
     value = os.environ.get("PHASELAB_LOOPS", "auto").strip().lower() or "auto"
-    if value not in TIERS:
-        raise ParameterError(f"PHASELAB_LOOPS must be one of {', '.join(TIERS)}, got {value!r}")
+    if value not in LOOP_FORM_CHOICES:
+        raise ParameterError(f"PHASELAB_LOOPS must be one of {', '.join(LOOP_FORM_CHOICES)}, got {value!r}")
     return value
 
 
@@ -473,7 +474,7 @@ class LoopSet:
 
     def run(self, entry: str, *args):
         """Call the entry point ``entry`` with ``args`` (without the kernel)."""
-        policy = tier()
+        policy = loop_form_choice()
         inlined = policy == "inlined"
         if policy == "auto":
             sig = str(_signature((0, *args)))

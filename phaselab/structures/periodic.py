@@ -246,7 +246,7 @@ class _Solve:
     reason: list
     residual: np.ndarray
     iterations: np.ndarray
-    images: object         # Images of the N*k points (row-major over orbits, then points)
+    images: object         # ReturnImages of the N*k points (row-major over orbits, then points)
 
 
 def _evaluate(ret1: ReturnMap, U, shifts):
@@ -355,10 +355,10 @@ def newton(ret1: ReturnMap, U0, shifts, tol: float = 1e-11, maxit: int = 30) -> 
 
 
 def _take_images(images, idx, k):
-    from phaselab.structures.returns import Images
+    from phaselab.structures.returns import ReturnImages
 
     rows = (np.asarray(idx)[:, None] * k + np.arange(k)[None, :]).ravel()
-    return Images(u=images.u[rows], jacobian=images.jacobian[rows], state=images.state[rows],
+    return ReturnImages(u=images.u[rows], jacobian=images.jacobian[rows], state=images.state[rows],
                   time=images.time[rows], status=images.status[rows])
 
 
@@ -507,9 +507,9 @@ def _orbit_points(ret: ReturnMap, z0) -> np.ndarray:
 
 
 def _image(images, i):
-    from phaselab.structures.returns import Images
+    from phaselab.structures.returns import ReturnImages
 
-    return Images(u=images.u[i], jacobian=images.jacobian[i], state=images.state[i], time=images.time[i],
+    return ReturnImages(u=images.u[i], jacobian=images.jacobian[i], state=images.state[i], time=images.time[i],
                   status=images.status[i])
 
 

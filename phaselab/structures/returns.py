@@ -35,7 +35,7 @@ OFF_SHELL = 100
 
 
 @dataclass
-class Images:
+class ReturnImages:
     """The return map on a batch of coordinates.
 
     Attributes
@@ -115,7 +115,7 @@ class ReturnMap:
         dz[:, self.index, np.arange(d)] = 1.0
         return z, dz, np.all(np.isfinite(u), axis=1)
 
-    def apply(self, u) -> Images:
+    def apply(self, u) -> ReturnImages:
         raise NotImplementedError
 
     def images(self, u, inverse: bool = False) -> tuple[np.ndarray, np.ndarray]:
@@ -125,7 +125,7 @@ class ReturnMap:
 
 
 def _empty_images(n, d, m):
-    return Images(u=np.full((n, d), np.nan), jacobian=np.full((n, d, d), np.nan),
+    return ReturnImages(u=np.full((n, d), np.nan), jacobian=np.full((n, d, d), np.nan),
                   state=np.full((n, m), np.nan), time=np.full(n, np.nan),
                   status=np.full(n, codes.NOT_FINITE, dtype=np.int64))
 
@@ -144,7 +144,7 @@ class MapReturn(ReturnMap):
         self.period, self.low = map_wrapping(system)
         self.loops = loops(system, "periodic")
 
-    def apply(self, u) -> Images:
+    def apply(self, u) -> ReturnImages:
         z, _, valid = self.lift(u)
         n, m = z.shape
         out = _empty_images(n, m, m)
@@ -269,7 +269,7 @@ class StrobeReturn(ReturnMap):
         X[:, :n], X[:, n + 1:2 * n + 1], X[:, -1] = z[:, :n], z[:, n:], -e
         return np.ascontiguousarray(X)
 
-    def apply(self, u) -> Images:
+    def apply(self, u) -> ReturnImages:
         z, _, valid = self.lift(u)
         n2 = z.shape[1]
         out = _empty_images(len(z), n2, n2)
@@ -374,7 +374,7 @@ class PlaneReturn(ReturnMap):
             dz[valid, self.solve_index, :] = -grad[:, self.index] / grad[:, [self.solve_index]]
         return z, dz, valid
 
-    def apply(self, u) -> Images:
+    def apply(self, u) -> ReturnImages:
         z, dz, valid = self.lift(u)
         n_pts, m = z.shape
         d = self.dim

@@ -45,9 +45,9 @@ class LiveBokehModel(BokehModel):
         self.changes = 0
         self._bundled = 0
         super().__init__(model, **kwargs)
-        self._document.on_change(self._count)
+        self._document.on_change(self._count_change)
 
-    def _count(self, event):
+    def _count_change(self, event):
         if getattr(event, "setter", None) is self:
             return  # came from the page: the views there have it already
         self.changes += 1

@@ -1,0 +1,284 @@
+"""The notebook explorer (``phaselab.explore``), one file per responsibility so each part is found by name.
+
+An interactive surface of section for a JupyterLab notebook. The explorer wires four parts
+together and does little else:
+
+* :class:`~phaselab.widgets.session.Session` holds the orbits, the undo history, the
+  selection, the energy and the parameters, and says what each change changed;
+* :class:`~phaselab.widgets.worker.JobRunner` runs every computation (orbits, colour values,
+  companion curves, frames, periodic orbits, manifolds, pictures) in a worker thread,
+  newest request first, so the notebook stays responsive;
+* :class:`~phaselab.widgets.figures.Figures` draws (bokeh, through jupyter_bokeh);
+* :class:`~phaselab.widgets.controls.Controls` are the ipywidgets around the plot.
+
+A click starts an orbit (for a section the missing momentum is solved from the energy; a
+click outside the allowed region is refused with the reason), the ringed newest seed can be
+dragged and its orbit follows, sliders recompute every orbit, and the status line says what
+is running (compiling kernels the first time, computing n orbits) with a busy mark.
+
+Section points are model results; where they inform a design decision confirm them with
+validated tools and the responsible engineers.
+
+The :class:`Explorer` is assembled here from one plain class per file:
+:mod:`~phaselab.widgets.explorer.orbit_commands` and
+:mod:`~phaselab.widgets.explorer.view_commands` (the public commands),
+:mod:`~phaselab.widgets.explorer.wiring` (controls and figure events to commands),
+:mod:`~phaselab.widgets.explorer.scheduling` (worker requests and the status text),
+:mod:`~phaselab.widgets.explorer.drawing` (the figures, one patch per update) and
+:mod:`~phaselab.widgets.explorer.files` (session files and Export).
+"""
+
+from __future__ import annotations
+
+import secrets
+import time
+from pathlib import Path
+
+import ipywidgets as W
+
+from phaselab.errors import ParameterError
+from phaselab.model.params import finite_number
+from phaselab.widgets import messages, scales, theme
+from phaselab.widgets.controls import Controls
+from phaselab.widgets.explorer.drawing import Drawing
+from phaselab.widgets.explorer.files import EXPORT_FORMATS, SessionFiles, safe_stem
+from phaselab.widgets.explorer.orbit_commands import OrbitCommands
+from phaselab.widgets.explorer.scheduling import Scheduling
+from phaselab.widgets.explorer.view_commands import ViewCommands
+from phaselab.widgets.explorer.wiring import Wiring
+from phaselab.widgets.session import OrbitRecord, Session
+from phaselab.widgets.views import make_view
+from phaselab.widgets.worker import JobRunner, current_loop
+
+__all__ = ["explore", "Explorer", "OrbitRecord", "load_bokehjs"]
+
+CHAOS_INDICATORS = scales.CHAOS_INDICATORS
+#: How the status line writes a number (importable from here as before the split).
+number = messages.number
+
+
+def load_bokehjs(force=True):
+    """Put the core BokehJS library into the page (inline: no network)."""
+    from phaselab.widgets.page import load_bokehjs as load
+
+    load()
+
+
+class Explorer(OrbitCommands, ViewCommands, Wiring, Scheduling, Drawing, SessionFiles, W.VBox):
+    """The interactive explorer (see :func:`explore` for the parameters).
+
+    Attributes
+    ----------
+    orbits : list of OrbitRecord
+    params : dict of str to float
+    energy : float or None
+    figures : phaselab.widgets.figures.Figures
+    controls : phaselab.widgets.controls.Controls
+    session : phaselab.widgets.session.Session
+    status : str
+        The text of the status line (without the busy part).
+    busy : list of str
+        What is running now.
+    structures : list
+        Periodic orbits found (with their manifolds).
+    """
+
+    def __init__(self, system, energy=None, plane=None, solve_for=None, crossings=300, params=None,
+                 ranges=None, sign=+1, energy_range=None, color_by=None, color_label=None,
+                 background=True, export_dir=".", export_formats=(".png", ".csv"), duration=None,
+                 method="auto", dt=None, title=None, scale=None, session=None):
+        from phaselab.widgets.figures import Figures
+        from phaselab.widgets.page import LiveBokehModel, StaticPicture
+
+        self.system = system
+        self._view_options = dict(crossings=crossings, ranges=ranges, duration=duration, method=method, dt=dt)
+        self.view = make_view(system, plane=plane, solve_for=solve_for, sign=sign, **self._view_options)
+        p0 = dict(system.params)
+        if params:
+            system.param_values(params)  # names and values checked, errors name the problem
+            p0.update({str(getattr(k, "name", k)): float(v) for k, v in params.items()})
+        if self.view.uses_energy and self.view.kind == "section":
+            if energy is None:
+                raise ParameterError("a surface of section needs an energy: pass energy=E (units of H)")
+            energy = finite_number(energy, "energy")
+        elif energy is not None:
+            energy = finite_number(energy, "energy")
+        self.crossings = int(self.view.crossings)
+        self.session = Session(energy, p0, theme.ORBIT_COLORS)
+        self.export_dir = Path(export_dir)
+        self.export_formats = tuple(str(f) if str(f).startswith(".") else f".{f}" for f in export_formats)
+        bad = [f for f in self.export_formats if f not in EXPORT_FORMATS]
+        if bad or not self.export_formats:
+            raise ParameterError(f"export_formats must be some of {', '.join(EXPORT_FORMATS)}; got {export_formats!r}")
+        self._check_color_by(color_by)
+        self.color_by = color_by
+        self.scale = scales.scale_for(color_by, color_label) if color_by is not None else None
+        if scale is not None and self.scale is not None:
+            self.scale = self.scale.with_limits(*scale)
+        self._scale_fixed = scale is not None or (isinstance(color_by, str) and color_by in scales.DEFAULT_SCALES)
+        self._color_label = color_label
+        self.jobs = JobRunner(background)
+        self.idle_jobs = JobRunner(background)
+        self._loop = current_loop()
+        self.last_timing: dict[str, float] = {}
+        self.last_error = None
+        self._message, self._refused = "", False
+        self._busy: dict[str, str] = {}
+        self._compiling: list[str] = []
+        self._pending = 0
+        self._serial = 0
+        self._frame = None
+        self._last_tap = None
+        self._fitted = None
+        self.structures: list = []
+        # True while the explorer sets its own controls: their observers then do nothing
+        self._setting_controls = False
+        self._uid = secrets.token_hex(6)
+        self.name = title or getattr(system, "name", "system")
+
+        self.view.fit_ranges(energy, p0)
+        self._fitted = self.view.ranges
+        self.picture = StaticPicture(self._uid)
+        self.controls = c = Controls(self.name, self.view.describe(), f"pl-readout-{self._uid}",
+                                     self.picture.hide_rule)
+        self.figures = Figures(self.view.axis_labels, self.view.ranges, self.view.panels(), f"pl-readout-{self._uid}")
+        self._wire_figure_events()
+        self.bokeh = LiveBokehModel(self.figures.layout, combine_events=False)
+        self.bokeh.add_class("pl-plot")
+        # a view built between a display and its first patch may have missed changes: when
+        # the page says a view is ready, send the current document if anything changed
+        self.figures.main.js_on_change("inner_width", self.figures.ready_callback)
+        self.figures.ready.on_change("data", lambda attr, old, new: self.bokeh.refresh(send=True))
+        self.bokeh.refresh(send=True)
+
+        self._add_sliders(system, energy, energy_range, p0)
+        c.stem.value = f"{safe_stem(self.name)}-{self.view.kind}"
+        self._wire_controls(color_by, color_label)
+
+        has_plane = self.view.kind == "section" and system.dof == 2
+        has_structures = self.view.kind in ("section", "map", "strobe")
+        super().__init__(c.layout(self.bokeh, self.view.kind, has_plane, has_structures),
+                         layout=W.Layout(width="fit-content"))
+        self.add_class("phaselab-explorer")
+        with self._held():
+            self._frame = self.view.frame(energy, p0)
+            self.figures.set_frame(self._frame)
+            self.figures.color_by_value(self.scale)
+        self._say("Click the plot to start an orbit; drag the ringed seed to move it.")
+        self._draw_all()
+        from phaselab.codegen import progress
+
+        self._progress = progress
+        progress.add_listener(self._on_compile_event)
+        for what in progress.active():
+            self._compiling.append(what)
+        if self.jobs.background:
+            self._warm_up()
+        if session is not None:
+            self.load_session(session)
+
+    # ================================================================= public surface
+    @property
+    def orbits(self):
+        return self.session.orbits
+
+    @property
+    def params(self) -> dict:
+        return dict(self.session.params)
+
+    @property
+    def energy(self):
+        return self.session.energy
+
+    @energy.setter
+    def energy(self, value):
+        self.set_energy(value)
+
+    @property
+    def status(self) -> str:
+        return self._message
+
+    @property
+    def busy(self) -> list:
+        return self._busy_lines()
+
+    @property
+    def sliders(self):
+        return self.controls.sliders
+
+    @property
+    def _stem(self):
+        return self.controls.stem
+
+    def wait(self, timeout=60.0) -> bool:
+        """Block until pending computations are done and shown (scripts and tests)."""
+        end = time.monotonic() + timeout
+        while True:
+            ok = self.jobs.wait(max(end - time.monotonic(), 0.0)) and \
+                self.idle_jobs.wait(max(end - time.monotonic(), 0.0))
+            if not ok:
+                return False
+            if not self.jobs.busy and not self.idle_jobs.busy:
+                return True
+
+    # ================================================================= display
+    def _repr_mimebundle_(self, **kwargs):
+        from phaselab.widgets.page import load_bokehjs as load
+
+        load()
+        self.bokeh.refresh(send=True)
+        self.picture.show()
+        self._schedule_picture()
+        return super()._repr_mimebundle_(**kwargs)
+
+    def close(self):
+        if hasattr(self, "_progress"):
+            self._progress.remove_listener(self._on_compile_event)
+        for runner in ("jobs", "idle_jobs"):
+            if hasattr(self, runner):
+                getattr(self, runner).close()
+        super().close()
+
+
+def explore(system, energy=None, plane=None, solve_for=None, crossings=300, params=None, **options):
+    """An interactive surface of section (or phase portrait, or map iterates) for a notebook.
+
+    Parameters
+    ----------
+    system : Hamiltonian or AreaPreservingMap
+    energy : float, optional
+        The energy E of the shell (needed for a surface of section; for one degree of
+        freedom the level curve drawn strongly).
+    plane : dict, optional
+        Fixed components of the section, default ``{q1: 0.0}``.
+    solve_for : str, optional
+        The component solved from H = E (default the momentum of the plane's coordinate).
+    crossings : int
+        Crossings (periods, iterates, samples) per orbit.
+    params : dict, optional
+        Starting parameter values.
+    **options
+        ``ranges`` ((x0, x1), (y0, y1)) or by name; ``sign`` (+1/-1, root and crossing
+        direction); ``energy_range`` (low, high) of the energy slider; ``color_by`` (a
+        chaos indicator ``"megno"``, ``"lyapunov"``, ``"fli"`` or ``"sali"`` computed for
+        each orbit over the time its points span; ``"frequency"`` or ``"diffusion"`` from
+        Laskar's frequency analysis; a function of a one-orbit Section returning a number;
+        or the name of a per-orbit field such as ``"energy_error"``), ``color_label`` and
+        ``scale`` ((low, anchor, high) of the colour scale; indicators have fixed defaults,
+        MEGNO split at 2); ``background`` (False to compute in the calling thread);
+        ``export_dir`` and ``export_formats`` (what Export writes, default PNG and CSV;
+        any of .png .svg .pdf .csv .nc .html); ``duration`` (time traced per orbit of a
+        phase portrait); ``method``, ``dt``; ``title``; ``session`` (a session JSON file
+        to restore, see :mod:`phaselab.widgets.session`).
+
+    Returns
+    -------
+    Explorer
+        An ``ipywidgets`` widget; ``.orbits``, ``.params``, ``.energy``, ``add_seed``,
+        ``add_seeds``, ``move_seed``, ``undo``, ``clear``, ``delete``, ``more_crossings``,
+        ``select``, ``set_energy``, ``set_params``, ``set_color``, ``set_scale``,
+        ``set_view``, ``set_equal_aspect``, ``find_periodic_orbit``, ``export``,
+        ``save_session``, ``load_session``, ``wait``.
+    """
+    return Explorer(system, energy=energy, plane=plane, solve_for=solve_for, crossings=crossings,
+                    params=params, **options)

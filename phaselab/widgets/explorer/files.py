@@ -1,0 +1,157 @@
+"""The explorer's files: the session JSON file (save and restore) and Export (figures, data,
+an interactive page), with their buttons."""
+
+from __future__ import annotations
+
+import re
+
+from phaselab.errors import ParameterError, PhaselabError
+from phaselab.widgets import scales
+from phaselab.widgets.session import read_session, write_session
+from phaselab.widgets.views import make_view
+from phaselab.widgets.worker import Outcome
+
+EXPORT_FORMATS = (".png", ".svg", ".pdf", ".csv", ".nc", ".html")
+
+
+def safe_stem(text) -> str:
+    """``text`` as a file name stem: runs of characters other than letters, digits, ``.``,
+    ``_`` and ``-`` become ``-`` (``"explorer"`` if nothing is left)."""
+    s = re.sub(r"[^A-Za-z0-9._-]+", "-", str(text)).strip("-.")
+    return s or "explorer"
+
+
+class SessionFiles:
+    """Export, save_session and load_session, and the buttons that call them (mixed into
+    :class:`Explorer`)."""
+
+    def export(self, stem=None, formats=None):
+        """Save what the plot shows: figures (.png .svg .pdf) of the current window with
+        everything drawn, data (.csv .nc) and an interactive page (.html) of the orbits.
+        Runs in the calling thread; returns the paths."""
+        from phaselab.export import save
+        from phaselab.widgets.snapshot import write_figure
+
+        sec = self.section()
+        if sec is None:
+            raise PhaselabError("there are no orbits to export yet")
+        stem = (stem or self.controls.stem.value or "section").strip()
+        if not stem or any(c in stem for c in "/\\") or stem.startswith("."):
+            raise PhaselabError(f"file name {stem!r} must be a plain name without folders")
+        stem = safe_stem(stem)
+        snap = self.snapshot()
+        paths = []
+        for suffix in formats or self.export_formats:
+            path = self.export_dir / f"{stem}{suffix}"
+            if suffix in (".png", ".svg", ".pdf"):
+                paths.append(write_figure(snap, path))
+            elif suffix == ".html":
+                paths.append(save(sec, path, title=self.name, overlays=[c for c in snap.accents]))
+            else:
+                paths.append(save(sec, path))
+        return paths
+
+    def save_session(self, path):
+        """Write seeds, energy, parameters, view and colouring to a JSON file (see
+        :mod:`phaselab.widgets.session`); returns the path."""
+        return write_session(path, self.session.to_dict(self.name, self.view.kind, self._view_dict(),
+                                                         self._color_dict()))
+
+    def load_session(self, path):
+        """Restore a session file: energy, parameters, view, colouring and orbits."""
+        data = read_session(path)
+        v = data.get("view") or {}
+        if data.get("kind") != self.view.kind:
+            raise ParameterError(f"{path}: kind: the file holds a {data.get('kind')} view, this explorer shows "
+                                 f"a {self.view.kind}")
+        unknown = [k for k in data["params"] if k not in self.session.params]
+        if unknown:
+            raise ParameterError(f"{path}: params: {', '.join(unknown)} not parameters of this system")
+        if self.view.kind == "section" and (v.get("plane") or v.get("solve_for") or v.get("direction")):
+            plane = {str(k): float(x) for k, x in (v.get("plane") or self.view.plane).items()}
+            view = make_view(self.system, plane=plane, solve_for=v.get("solve_for") or self.view.solve_for,
+                             sign=int(v.get("direction") or self.view.sign), **self._view_options)
+            self.view = view
+            self.figures.set_axis_labels(view.axis_labels)
+            self.controls.set_title(self.name, view.describe())
+            self._fill_view_controls()
+        self.session.clear()
+        self.session.history.clear()
+        self.session.params.update(data["params"])
+        if data.get("energy") is not None and self.view.uses_energy:
+            self.session.energy = data["energy"]
+        self._sync_sliders()
+        col = data.get("color") or {}
+        by = col.get("by")
+        if by in scales.DEFAULT_SCALES:
+            self.color_by = by
+            self.scale = scales.scale_for(by).with_limits(col.get("low"), col.get("anchor"), col.get("high"))
+        elif by is None:
+            self.color_by, self.scale = None, None
+        self.figures.color_by_value(self.scale)
+        self._show_scale()
+        rng = v.get("ranges")
+        if not rng or not self.jobs.background:
+            self.view.fit_ranges(self.session.energy, self.session.params)
+        self._fitted = self.view.ranges
+        self._equal = bool(v.get("equal_aspect", False))
+        self.figures.set_ranges(tuple(tuple(map(float, r)) for r in rng) if rng else self._fitted)
+        self._draw_all()
+        self._recompute_all(frame=True, keep_ranges=True)
+        by_crossings = {}
+        for o in data["orbits"]:
+            by_crossings.setdefault(o["crossings"], []).append(o["seed"])
+        for c, seeds in by_crossings.items():
+            self.add_seeds(seeds, crossings=c)
+        self._say(f"Restored {len(data['orbits'])} orbits from {path}.")
+
+    def _export_clicked(self):
+        if self.section() is None:
+            self._say("Export: there are no orbits to export yet.", refused=True)
+            return
+        stem, formats = self.controls.stem.value, self.export_formats
+        try:
+            snap_check = safe_stem((stem or "section").strip())
+        except Exception:
+            snap_check = "section"
+        if not stem.strip() or any(c in stem for c in "/\\") or stem.strip().startswith("."):
+            self._say(f"Export: file name {stem!r} must be a plain name without folders.", refused=True)
+            return
+
+        def compute():
+            return self.export(snap_check, formats)
+
+        def deliver(out: Outcome):
+            if out.error is not None:
+                self._report(out, what="export")
+                return
+            self._say("Saved " + ", ".join(str(p) for p in out.value))
+
+        self._submit("export", "saving files", compute, deliver)
+
+    def _save_clicked(self):
+        try:
+            path = self.save_session(self.export_dir / self.controls.session_path.value.strip())
+        except PhaselabError as exc:
+            self._say(f"Session not saved: {exc}", refused=True)
+            return
+        self._say(f"Saved the session to {path}.")
+
+    def _load_clicked(self):
+        try:
+            self.load_session(self.export_dir / self.controls.session_path.value.strip())
+        except PhaselabError as exc:
+            self._say(f"Session not loaded: {exc}", refused=True)
+
+    def _view_dict(self):
+        v = self.view
+        out = {"axes": list(v.axis_names), "ranges": [list(r) for r in self.figures.view_ranges],
+               "equal_aspect": bool(getattr(self, "_equal", False)), "crossings": self.crossings}
+        if v.kind == "section":
+            out.update(plane=dict(v.plane), solve_for=v.solve_for, direction=v.sign)
+        return out
+
+    def _color_dict(self):
+        if self.scale is None or not isinstance(self.color_by, str):
+            return {"by": None}
+        return {"by": self.color_by, "low": self.scale.low, "anchor": self.scale.anchor, "high": self.scale.high}

@@ -1,0 +1,262 @@
+"""When the explorer's computations run and what the status line says about them: the worker
+requests, the recomputations, the warm-up, the delayed picture, and the status text."""
+
+from __future__ import annotations
+
+import time
+
+import numpy as np
+
+from phaselab.errors import PhaselabError
+from phaselab.widgets import computations, messages
+from phaselab.widgets.messages import number
+from phaselab.widgets.worker import Outcome
+
+#: Seconds of quiet after which the saved-notebook picture is redrawn.
+PICTURE_DELAY = 6.0
+#: Seconds of quiet after which the companion panels follow the selected orbit.
+TRACE_DELAY = 0.3
+
+
+class Scheduling:
+    """Requests to the worker threads (newest wins, results delivered as one patch), the
+    recomputations after a change, and the status line's text (mixed into :class:`Explorer`)."""
+
+    def _submit(self, key, busy, compute, deliver, delay=0.0, runner=None):
+        """Queue ``compute`` for the worker; ``busy`` says what runs meanwhile; the bokeh
+        changes of ``deliver`` reach the page as one message."""
+        if busy:
+            self._busy[key] = busy
+            self._show_status()
+
+        def held(out):
+            self._busy.pop(key, None)
+            if out.error is not None:
+                self.last_error = out
+            with self._held():
+                deliver(out)
+            self._show_status()
+
+        (runner or self.jobs).submit(key, compute, held, delay=delay)
+
+    def _recompute_all(self, frame=True, what=None, keep_ranges=False):
+        n = len(self.session.orbits)
+        view, energy, params, color = self.view, self.session.energy, self.params, self._color_spec()
+        snapshot = [(o.id, o.seed, o.crossings, o.revision) for o in self.session.orbits]
+        t_asked = time.perf_counter()
+
+        def compute():
+            return computations.recompute(view, [s for _, s, _, _ in snapshot], energy, params,
+                                   [c for _, _, c, _ in snapshot], color, frame=frame)
+
+        def deliver(out: Outcome):
+            if view is not self.view:
+                return
+            if out.error is not None:
+                self._report(out)
+                return
+            res = out.value
+            if res.frame is not None:
+                self._frame = res.frame
+                self.figures.set_frame(res.frame)
+            hidden, stopped = [], []
+            if res.batch is not None:
+                for k, (rid, _, _, rev) in enumerate(snapshot):
+                    rec = self.session.get(rid)
+                    if rec is None or rec.revision != rev:
+                        continue
+                    part = res.batch.parts[k]
+                    if part is None:
+                        rec.state, rec.section, rec.points, rec.stop = None, None, np.empty((0, 2)), None
+                        rec.note = res.batch.reasons[k]
+                        hidden.append(rid)
+                        continue
+                    rec.state = res.batch.states[k].copy()
+                    self._store_part(rec, part)
+                    if rec.note:
+                        stopped.append(rec)
+            self._draw_all()
+            self.last_timing["all"] = time.perf_counter() - t_asked
+            what_text = self._setting_text(energy, params)
+            if res.frame is not None and res.frame.empty:
+                self._say(f"At {what_text} the shown plane has no energetically allowed region (the energy "
+                          "shell is empty here); orbits are kept and come back when it is not.", refused=True)
+            elif hidden:
+                self._say(f"At {what_text}: {len(hidden)} of {len(snapshot)} seeds lie outside the allowed region "
+                          f"and are hidden (orbit{'s' if len(hidden) > 1 else ''} {', '.join(map(str, hidden))})."
+                          + self._stopped_text(stopped), refused=True)
+            elif snapshot:
+                self._say(f"Recomputed {len(snapshot)} orbit{'s' if len(snapshot) != 1 else ''} at {what_text} "
+                          f"in {out.seconds * 1000:.0f} ms." + self._stopped_text(stopped), refused=bool(stopped))
+            if res.batch is not None and res.batch.value_error:
+                self._say(f"{self._message} Colour values failed: {res.batch.value_error}", refused=True)
+            self._update_trace()
+            self._schedule_picture()
+
+        busy = what or (f"computing {n} orbit{'s' if n != 1 else ''} at "
+                        f"{self._setting_text(energy, params)}" if n else "drawing the allowed region")
+        self._submit("all", busy, compute, deliver)
+
+    def _recompute(self, ids):
+        """Compute some orbits again from their seeds (after undo, or more crossings)."""
+        view, energy, params, color = self.view, self.session.energy, self.params, self._color_spec()
+        recs = [self.session.get(i) for i in ids]
+        snapshot = [(r.id, r.seed, r.crossings, r.revision) for r in recs if r is not None]
+        if not snapshot:
+            return
+
+        def compute():
+            return computations.seed_and_orbits(view, [s for _, s, _, _ in snapshot], energy, params,
+                                         [c for _, _, c, _ in snapshot], color)
+
+        def deliver(out: Outcome):
+            if view is not self.view:
+                return
+            if out.error is not None:
+                self._report(out)
+                return
+            batch = out.value
+            for k, (rid, _, _, rev) in enumerate(snapshot):
+                rec = self.session.get(rid)
+                if rec is None or rec.revision != rev:
+                    continue
+                if batch.parts[k] is None:
+                    rec.state, rec.points, rec.note = None, np.empty((0, 2)), batch.reasons[k]
+                    continue
+                rec.state = batch.states[k].copy()
+                self._store_part(rec, batch.parts[k])
+            self._draw_all()
+            recs_now = [self.session.get(i) for i, *_ in snapshot]
+            recs_now = [r for r in recs_now if r is not None and r.state is not None]
+            if recs_now:
+                self._say(self._orbit_message(recs_now, out.seconds), refused=bool(recs_now[-1].note))
+            self._update_trace()
+            self._schedule_picture()
+
+        n = len(snapshot)
+        self._submit(f"some-{self._next_serial()}", f"computing {n} orbit{'s' if n != 1 else ''}", compute, deliver)
+
+    def _update_trace(self):
+        rec = self.session.current
+        f = self.figures
+        if rec is None or rec.state is None:
+            f.panel1_source.data, f.panel2_source.data = dict(x=[], y=[]), dict(x=[], y=[])
+            return
+        view, state, params = self.view, rec.state.copy(), self.params
+        until = np.nan
+        if rec.section is not None and rec.section.counts[0] > 0:
+            until = float(rec.section.times[0, int(rec.section.counts[0]) - 1])
+        if view.kind == "map":
+            until = rec.crossings
+        rid, rev, crossings, section = rec.id, rec.revision, rec.crossings, rec.section
+
+        def compute():
+            return computations.trace(view, state, params, until, crossings, section)
+
+        def deliver(out: Outcome):
+            now = self.session.current
+            if now is None or now.id != rid or now.revision != rev or view is not self.view:
+                return
+            if out.error is not None:
+                self._say(f"{self._message} | no trace of this orbit: {out.error}", refused=True)
+                return
+            tr = out.value
+            (x1, y1), (x2, y2) = tr.panel1, tr.panel2
+            f.panel1_source.data = dict(x=np.asarray(x1, float), y=np.asarray(y1, float))
+            f.panel2_source.data = dict(x=np.asarray(x2, float), y=np.asarray(y2, float))
+            f.panel1_line.glyph.line_color = now.color
+            f.panel2_line.glyph.line_color = now.color
+            now.nu = tr.nu or now.nu
+            if tr.nu:
+                freq = ", ".join(f"{n} {v:.6g}" for n, v in zip(tr.nu_names, tr.nu))
+                base = self._message.split(" | ")[0]
+                self._say(f"{base} | orbit {rid} frequencies: {freq} ({tr.nu_unit})", refused=self._refused)
+
+        # on the second worker thread, once clicks and drags pause for TRACE_DELAY: the
+        # companion curves never delay a click or a drag, on the kernel or on the page
+        self._submit("trace", "", compute, deliver, delay=TRACE_DELAY, runner=self.idle_jobs)
+
+    def _warm_up(self):
+        """Compile the kernels in the background while the user reads the plot."""
+        (x0, x1), (y0, y1) = self.view.ranges
+        view, energy, params = self.view, self.session.energy, self.params
+
+        def compute():
+            rng = np.random.default_rng(7)
+            for _ in range(40):
+                p = (rng.uniform(x0, x1), rng.uniform(y0, y1))
+                s = view.seeds([p], energy, params)
+                if s.valid[0]:
+                    view.compute(s.states[:1], energy, params, crossings=4)
+                    view.trace(s.states[0], params, 1.0)
+                    return True
+            return False
+
+        self._submit("warm-up", "", compute, lambda out: None)
+
+    def _schedule_picture(self):
+        """Redraw the picture kept for a notebook opened without a kernel (after a quiet spell)."""
+        if self.picture.handle is None or not self.jobs.background:
+            return
+        snap = self.snapshot()
+        caption = f"{self.name}: picture of the explorer's last state (run the notebook for the live explorer)"
+
+        def compute():
+            return computations.picture_png(snap, dpi=80)
+
+        def deliver(out: Outcome):
+            if out.error is None:
+                self.picture.update(out.value, caption)
+
+        self.idle_jobs.submit("picture", compute, deliver, delay=PICTURE_DELAY)
+
+    def _store_part(self, rec, part):
+        """Copy a computed orbit part (points, colour value, frequencies, note) into its record."""
+        rec.section, rec.points, rec.scalar = part.section, part.points, part.scalar
+        rec.nu = part.nu or rec.nu
+        rec.note, rec.stop = part.note, part.stop
+
+    def _axis_number(self, v, axis):
+        """``v`` as the status line writes a coordinate on ``axis`` (0 or 1): 4 significant
+        digits, rounding noise far below the axis range shown as 0."""
+        (x0, x1), (y0, y1) = self.view.ranges
+        return number(v, (x1 - x0) if axis == 0 else (y1 - y0))
+
+    def _orbit_message(self, records, seconds):
+        return messages.orbits(records, seconds, self.view.noun, self.view.ranges, self.scale)
+
+    def _stopped_text(self, stopped):
+        return messages.stopped(stopped)
+
+    def _setting_text(self, energy, params):
+        return messages.setting(energy, params, self.view.uses_energy)
+
+    def _setting_key(self):
+        return (self.session.energy, tuple(sorted(self.session.params.items())))
+
+    def _busy_lines(self):
+        lines = []
+        if self._compiling:
+            lines.append("compiling kernels for this system (first time only)")
+        lines += [t for t in self._busy.values() if t]
+        return lines
+
+    def _show_status(self):
+        self.controls.say(self._message, self._refused, self._busy_lines())
+
+    def _say(self, text, refused=False):
+        self._message, self._refused = text, refused
+        self._show_status()
+
+    def _report(self, out: Outcome, what="orbit"):
+        exc = out.error
+        self.last_error = out
+        if isinstance(exc, PhaselabError):
+            self._say(f"Could not compute the {what}: {exc}", refused=True)
+        else:
+            self._say(f"Could not compute the {what} ({type(exc).__name__}: {exc}); the explorer "
+                      "keeps working.", refused=True)
+
+    def _next_serial(self):
+        self._serial += 1
+        return self._serial
