@@ -11,7 +11,7 @@ from pathlib import Path
 import pytest
 
 PACKAGE = Path(__file__).resolve().parents[1] / "phaselab"
-LAYERS = {"model": 0, "models": 0, "errors": 0, "codegen": 1, "compute": 2, "scan": 3, "export": 4,
+LAYERS = {"model": 0, "models": 0, "errors": 0, "atomic": 0, "codegen": 1, "compute": 2, "scan": 3, "export": 4,
           "widgets": 5, "studies": 5, "cli": 5, "__init__": 5}
 FORBIDDEN = {
     "model": {"numba", "bokeh", "ipywidgets", "jupyter_bokeh", "matplotlib", "xarray", "dask"},

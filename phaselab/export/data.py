@@ -40,7 +40,7 @@ from phaselab.compute.labels import plain
 from phaselab.errors import DataFileError, ParameterError, PhaselabError
 from phaselab.export import section_checks as checks
 from phaselab.export.describe import check_section, section_metadata
-from phaselab.export.files import atomic_path
+from phaselab.export.files import atomic_path, checked_path
 
 FORMAT_LINE = "# phaselab section data"
 #: largest section CSV file read, in bytes (what a file may declare is bounded by the memory
@@ -144,7 +144,7 @@ def read_section_csv(path):
         than the header declares (a truncated file) or repeat a crossing, or the header
         declares more than the memory limit allows.
     """
-    path = Path(path)
+    path = checked_path(path)
     try:
         size = path.stat().st_size
         handle = open(path, "rb")
@@ -367,7 +367,7 @@ def read_section_netcdf(path):
         For a file that is not such a NetCDF file, or declares more than the limit allows.
     """
     xr = _xarray()
-    path = Path(path)
+    path = checked_path(path)
     if not path.is_file():
         raise DataFileError(f"cannot read {path}: no such file")
     try:
@@ -426,7 +426,7 @@ def load_section(path):
 
     from phaselab.compute.results import Section
 
-    path = Path(path)
+    path = checked_path(path)
     suffix = path.suffix.lower()
     if suffix == ".csv":
         meta, data = read_section_csv(path)

@@ -42,6 +42,7 @@ from pathlib import Path
 
 import numpy as np
 
+from phaselab.atomic import checked_path
 from phaselab.errors import DataFileError, ParameterError
 from phaselab.scan.labels import zarr_module
 
@@ -149,7 +150,7 @@ class ScanStore:
         zarr = zarr_module()
         where = str(target) if isinstance(target, (str, os.PathLike)) else type(target).__name__
         if isinstance(target, (str, os.PathLike)):
-            path = Path(target)
+            path = checked_path(target)
             if path.exists() and not path.is_dir():
                 raise ParameterError(f"store {where}: a file of that name exists; give a folder for "
                                      "the Zarr store")
