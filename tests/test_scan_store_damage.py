@@ -89,6 +89,19 @@ def _set(key, value):
     return change
 
 
+def _edit_fields_record(store, change):
+    meta_path = store / "zarr.json"
+    meta = json.loads(meta_path.read_text())
+    change(meta["attributes"])
+    meta_path.write_text(json.dumps(meta))
+
+
+def _huge_rows(attrs):
+    fields = json.loads(attrs["phaselab_fields"])
+    fields["values"][1] = [10**9]
+    attrs["phaselab_fields"] = json.dumps(fields)
+
+
 DAMAGE = {
     # case: (how, chunks that must be recomputed)
     "two value chunks swapped": (lambda s: _swap(_chunk_file(s, "values", 1), _chunk_file(s, "values", 2)),
@@ -110,6 +123,9 @@ DAMAGE = {
     "the checksums deleted": (lambda s: shutil.rmtree(s / "chunk_sha256"), 8),
     "two checksum chunks swapped": (lambda s: _swap(_chunk_file(s, "chunk_sha256", 1) / "0",
                                                     _chunk_file(s, "chunk_sha256", 6) / "0"), 2),
+    "the record of the fields deleted": (lambda s: _edit_fields_record(s, lambda a: a.pop("phaselab_fields")),
+                                         8),
+    "the record of the fields declares 10**9 values per row": (lambda s: _edit_fields_record(s, _huge_rows), 8),
     "chunk rows edited": (lambda s: _edit_meta(s, "chunk_rows", _set("shape", [3, 2])), 8),
 }
 

@@ -127,21 +127,41 @@ def check_header(path, meta: dict, n: int, ncomp: int) -> dict:
         out["energy_error"] = _per_orbit(path, "energy_error", meta["energy_error"], n, _real, float)
     if "escaped" in meta:
         out["escaped"] = _per_orbit(path, "escaped", meta["escaped"], n,
-                                    lambda v: isinstance(v, bool) or v in (0, 1), bool)
+                                    lambda v: isinstance(v, bool) or v in (0, 1), bool, "true or false",
+                                    (0, 1))
     if "status" in meta:
         out["status"] = _per_orbit(path, "status", meta["status"], n, lambda v: _whole(v) and v in STATUS,
-                                   np.int64, f"a status code ({', '.join(map(str, STATUS))})")
+                                   np.int64, f"a status code ({', '.join(map(str, STATUS))})", STATUS)
     if "seeds" in meta:
-        seeds = meta["seeds"]
-        rows = seeds.tolist() if isinstance(seeds, np.ndarray) else seeds
-        if (not isinstance(rows, list) or len(rows) != n
-                or not all(isinstance(r, list) and len(r) == ncomp and all(map(_real, r)) for r in rows)):
-            raise DataFileError(f"{path}: header value 'seeds' must hold {n} rows of {ncomp} numbers")
-        out["seeds"] = np.asarray(rows, dtype=float).reshape(n, ncomp)
+        out["seeds"] = _seeds(path, meta["seeds"], n, ncomp)
     return out
 
 
-def _per_orbit(path, key, values, n, accept, dtype, what="a number"):
+def _seeds(path, seeds, n: int, ncomp: int) -> np.ndarray:
+    """The seeds as float of shape (n, ncomp): a typed float array (NetCDF) as it is, JSON
+    rows checked entry by entry."""
+    if isinstance(seeds, np.ndarray) and seeds.dtype.kind == "f" and seeds.shape == (n, ncomp):
+        return seeds.astype(float)
+    rows = seeds.tolist() if isinstance(seeds, np.ndarray) else seeds
+    if (not isinstance(rows, list) or len(rows) != n
+            or not all(isinstance(r, list) and len(r) == ncomp and all(map(_real, r)) for r in rows)):
+        raise DataFileError(f"{path}: header value 'seeds' must hold {n} rows of {ncomp} numbers")
+    return np.asarray(rows, dtype=float).reshape(n, ncomp)
+
+
+def _per_orbit(path, key, values, n, accept, dtype, what="a number", allowed=None):
+    """One entry per orbit, each accepted by ``accept`` (JSON values) or, for a typed
+    numeric array (NetCDF), checked at once: any float for a float field, else one of
+    ``allowed``."""
+    if isinstance(values, np.ndarray) and values.shape == (n,) and values.dtype.kind in "biuf":
+        if np.dtype(dtype).kind == "f":
+            return values.astype(dtype)
+        bad = np.flatnonzero(~np.isin(values, list(allowed)))
+        if bad.size:
+            i = int(bad[0])
+            raise DataFileError(f"{path}: header value {key!r}, orbit {i}: {_show(values[i].item())} is not "
+                                f"{what}")
+        return values.astype(dtype)
     items = values.tolist() if isinstance(values, np.ndarray) else values
     if not isinstance(items, list) or len(items) != n:
         raise DataFileError(f"{path}: header value {key!r} must hold one entry per orbit ({n})")

@@ -36,6 +36,7 @@ from __future__ import annotations
 
 import hashlib
 import json
+import math
 import os
 import warnings
 from pathlib import Path
@@ -43,6 +44,7 @@ from pathlib import Path
 import numpy as np
 
 from phaselab.atomic import checked_path
+from phaselab.compute import inputs
 from phaselab.errors import DataFileError, ParameterError
 from phaselab.scan.labels import zarr_module
 
@@ -201,6 +203,11 @@ class ScanStore:
         if any(name in RECORD or dt.kind not in "biuf" or any(x < 0 for x in shape)
                for name, (dt, shape) in schema.items()):
             self.repairs.append("its record of the result fields is damaged")
+            return None
+        size = sum(float(self.n) * math.prod(shape) * dt.itemsize for dt, shape in schema.values())
+        if size > inputs.LIMITS.memory_bytes:  # never read back more than a call may allocate
+            self.repairs.append(f"its record of the result fields declares {size / 2**30:.3g} GiB, "
+                                "more than the memory limit")
             return None
         return schema
 
