@@ -71,6 +71,13 @@ def test_written_files_load_back_exactly(section, csv, nc):
     ("params", '{"wy": "1.7"}', "params.*names to numbers"),
     ("system", "5", "'system' must be text"),
     ("n_orbits", "3.0", "n_orbits.*whole number"),
+    ("plane", '{"kind": "plane", "index": 0, "value": 0.0, "direction": "up"}', "'direction'"),
+    ("plane", '{"kind": "plane", "index": 9, "value": 0.0, "direction": 1}', "index 9"),
+    ("plane", '{"kind": "plane", "index": 0, "value": "0", "direction": 1}', "'value'"),
+    ("plane", '{"kind": "stroboscopic", "period": [1]}', "'period'"),
+    ("plane", '{"kind": "by hand", "note": {"a": 1}}', "'note'"),
+    ("plane", '{"index": 0}', "plane record with a 'kind'"),
+    ("plane", '[1, 2]', "plane record with a 'kind'"),
 ])
 def test_crafted_csv_header_is_refused(csv, key, value, message):
     _edit_header(csv, key, value)

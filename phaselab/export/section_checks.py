@@ -119,9 +119,7 @@ def check_header(path, meta: dict, n: int, ncomp: int) -> dict:
     if params is not None and (not isinstance(params, dict)
                                or not all(_real(v) for v in params.values())):
         raise DataFileError(f"{path}: header value 'params' must map names to numbers")
-    plane = meta.get("plane")
-    if plane is not None and not isinstance(plane, dict):
-        raise DataFileError(f"{path}: header value 'plane' must be a table of the plane's values")
+    _check_plane(path, meta.get("plane"), ncomp)
     out = dict(meta)
     if "energy_error" in meta:
         out["energy_error"] = _per_orbit(path, "energy_error", meta["energy_error"], n, _real, float)
@@ -135,6 +133,35 @@ def check_header(path, meta: dict, n: int, ncomp: int) -> dict:
     if "seeds" in meta:
         out["seeds"] = _seeds(path, meta["seeds"], n, ncomp)
     return out
+
+
+#: the plane records of phaselab's sections: kind -> {key: check}
+PLANE_KEYS = {
+    "plane": {"kind": None, "index": _whole, "name": lambda v: isinstance(v, str), "value": _real,
+              "direction": lambda v: v in (1, -1) and not isinstance(v, bool)},
+    "stroboscopic": {"kind": None, "period": _real},
+    "map": {"kind": None},
+    "trajectory": {"kind": None, "duration": _real},
+}
+
+
+def _check_plane(path, plane, ncomp: int) -> None:
+    """The plane record: one of :data:`PLANE_KEYS` as :mod:`phaselab.compute.section` writes
+    it (see :attr:`~phaselab.compute.results.Section.plane`), an empty one, or a record of
+    another kind (a section made by hand) whose values are text or numbers."""
+    if plane is None or plane == {}:
+        return
+    if not isinstance(plane, dict) or not isinstance(plane.get("kind"), str):
+        raise DataFileError(f"{path}: header value 'plane' must be a plane record with a 'kind', got "
+                            f"{_show(plane)}")
+    keys = PLANE_KEYS.get(plane["kind"])
+    for key, value in plane.items():
+        check = keys.get(key, False) if keys else (lambda v: v is None or isinstance(v, str) or _real(v))
+        if check is False or (check is not None and not check(value)):
+            raise DataFileError(f"{path}: header value 'plane': {key!r} = {_show(value)} is not what "
+                                "phaselab writes")
+    if "index" in plane and keys and not 0 <= plane["index"] < ncomp:
+        raise DataFileError(f"{path}: header value 'plane': index {plane['index']} is not a state column")
 
 
 def _seeds(path, seeds, n: int, ncomp: int) -> np.ndarray:
