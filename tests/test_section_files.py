@@ -5,7 +5,6 @@ writes still load back exactly.
 The refused shapes are what phaselab never writes (see phaselab.export.section_checks): the
 expected values come from the writer itself (each case edits a file the writer made)."""
 
-import json
 import os
 import time
 from pathlib import Path

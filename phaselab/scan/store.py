@@ -39,7 +39,6 @@ import json
 import math
 import os
 import warnings
-from pathlib import Path
 
 import numpy as np
 
