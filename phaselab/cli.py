@@ -10,18 +10,22 @@
 
 ``STUDY`` is a path to a study file (TOML, see ``phaselab/studies/README.md``) or the name
 of a built-in example. Exit status: 0 on success, 2 for a bad study file or bad command
-line (the message goes to stderr, without a traceback), 1 for any other refused input.
+line (the message goes to stderr, without a traceback), 1 for any other refused input,
+141 (quietly) when the reader of the output closed the pipe early (``... | head``).
 """
 
 from __future__ import annotations
 
 import argparse
+import io
+import os
 import sys
 from pathlib import Path
 
 from phaselab.errors import PhaselabError, StudyFileError
 
 OK, FAILED, BAD_INPUT = 0, 1, 2
+CLOSED_PIPE = 141
 
 
 # ----------------------------------------------------------------------------- helpers
@@ -218,7 +222,11 @@ def main(argv=None) -> int:
         parser.print_help(sys.stderr)
         return BAD_INPUT
     try:
-        return COMMANDS[args.command](args)
+        status = COMMANDS[args.command](args)
+        sys.stdout.flush()  # a closed pipe shows here, not in the interpreter's shutdown
+        return status
+    except BrokenPipeError:
+        return _closed_pipe()
     except StudyFileError as exc:
         print(f"phaselab {args.command}: {exc}", file=sys.stderr)
         return BAD_INPUT
@@ -228,6 +236,20 @@ def main(argv=None) -> int:
     except KeyboardInterrupt:
         print("phaselab: interrupted", file=sys.stderr)
         return 130
+
+
+def _closed_pipe() -> int:
+    """The reader of our output went away (``phaselab equations x | head``): stop quietly,
+    as command-line tools do, with the status of a process ended by SIGPIPE (128 + 13).
+    Standard output is pointed at the null device, so that the interpreter's last flush at
+    exit finds nothing to complain about."""
+    try:
+        null = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(null, sys.stdout.fileno())
+        os.close(null)
+    except (OSError, ValueError, AttributeError, io.UnsupportedOperation):
+        pass
+    return CLOSED_PIPE
 
 
 if __name__ == "__main__":  # pragma: no cover

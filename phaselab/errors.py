@@ -18,6 +18,11 @@ The rule
   converge, Newton's method that does not converge, a step found far too large by the
   probe). The inputs were acceptable; the numerics failed on them.
 - :class:`StudyFileError`: anything wrong with a study file, as ``file: key: problem``.
+- :class:`DataFileError`: a data file or store that phaselab reads back (a section's CSV or
+  NetCDF file, a scan's resumable Zarr store) is not what phaselab writes: damaged,
+  truncated, edited, or crafted with types, ranges, units or sizes phaselab never writes.
+  The message names the file and what is wrong with it. A damaged part that phaselab can
+  recompute (a chunk of a scan store) is recomputed with a warning instead.
 
 Failures that concern one orbit of a batch are not raised at all: the orbit is flagged in the
 result's ``status`` (see :mod:`phaselab.engine.status`) and the rest of the batch is returned.
@@ -46,3 +51,7 @@ class IntegrationError(PhaselabError, RuntimeError):
 
 class StudyFileError(PhaselabError, ValueError):
     """A study file is malformed; the message names the file, the key and the problem."""
+
+
+class DataFileError(PhaselabError, ValueError):
+    """A data file or store read back is damaged or is not what phaselab writes."""

@@ -13,13 +13,15 @@ change the code phaselab runs. Nothing in it is trusted blindly:
   for it is discarded;
 - a module that fails to load is generated and compiled anew, once;
 - a folder that cannot be written (read-only, or the path is a file) is replaced by a
-  private temporary folder for this process, with a one-line warning.
+  private temporary folder for this process, with a one-line warning; that folder is
+  removed when the process exits.
 
 Deleting the folder is always safe.
 """
 
 from __future__ import annotations
 
+import atexit
 import hashlib
 import importlib.util
 import os
@@ -75,6 +77,7 @@ def cache_dir() -> Path:
     why = _usable(wanted)
     if why:
         path = Path(tempfile.mkdtemp(prefix="phaselab-cache-"))
+        atexit.register(shutil.rmtree, path, True)  # nothing in it serves another process
         warnings.warn(f"phaselab: the kernel cache {wanted} is not usable ({why}); using the private "
                       f"temporary folder {path} for this process", RuntimeWarning, stacklevel=3)
     else:
@@ -82,6 +85,12 @@ def cache_dir() -> Path:
         _tighten(path)
     _folder[:] = [(wanted, path)]
     return path
+
+
+def is_fallback() -> bool:
+    """True when this process uses a private temporary folder (removed at exit) instead of
+    the configured cache."""
+    return bool(_folder) and _folder[0][0] != _folder[0][1]
 
 
 def _tighten(path: Path) -> None:

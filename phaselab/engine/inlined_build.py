@@ -9,6 +9,14 @@ a short script's successor finds them done. When the child finishes it lists the
 the inlined module. A build that fails leaves the generic loops in use, which are correct,
 only slower for small kernels.
 
+Job files are ``.build-<pid>-<random>.pickle`` in the kernel cache, named by the process
+that holds them: the writer until a build child claims the file by renaming it to its own
+number. A job whose holder was killed (its file left behind) is removed by the next build
+request once its process is gone and it is older than :data:`STALE_SECONDS`. A process
+whose cache is a private temporary folder (see :mod:`phaselab.codegen.cache`) builds
+nothing in the background: that folder is removed at exit, and a build child still
+running would write into it again.
+
 Run as ``python -m phaselab.engine.inlined_build JOB`` by :func:`request_build` only.
 """
 
@@ -18,14 +26,22 @@ import atexit
 import json
 import os
 import pickle
+import re
 import subprocess
 import sys
 import tempfile
 import threading
+import time
 from pathlib import Path
+
+from phaselab.base.atomic import process_gone
 
 BUILD_TIMEOUT = 1800.0
 """Seconds after which a background build is abandoned."""
+STALE_SECONDS = 600.0
+"""A job file left by a killed process is removed once it is this old (and its process gone)."""
+_JOB_NAME = re.compile(r"^\.build-(\d+)-[^/]*\.pickle$")
+_LEFT_BEHIND = re.compile(r"^\.(?:build-(\d+)-[^/]*\.pickle|ready-(\d+)-[^/]*\.tmp)$")
 
 _pending: list = []          # jobs not started yet, in order
 _worker: list = []
@@ -72,16 +88,60 @@ def _run_queue() -> None:
 
 
 def _write_job(job: dict):
-    from phaselab.codegen.cache import cache_dir
+    from phaselab.codegen.cache import cache_dir, is_fallback
 
+    folder = cache_dir()
+    if is_fallback():
+        return None
+    remove_stale_jobs(folder)
     try:
         payload = pickle.dumps({k: job[k] for k in ("system", "files", "name", "entries")})
     except Exception:  # a system that cannot travel: it stays on the generic loops
         return None
-    fd, path = tempfile.mkstemp(dir=cache_dir(), prefix=".build-", suffix=".pickle")
+    fd, path = tempfile.mkstemp(dir=folder, prefix=f".build-{os.getpid()}-", suffix=".pickle")
     with os.fdopen(fd, "wb") as fh:
         fh.write(payload)
     return path
+
+
+def remove_stale_jobs(folder) -> int:
+    """Remove job files (and half-written ``.ready-<pid>-*.tmp`` markers) of killed processes
+    from the cache ``folder`` (see the module docstring); returns how many. Never raises."""
+    removed = 0
+    try:
+        names = os.listdir(folder)
+    except OSError:
+        return 0
+    now = time.time()
+    for name in names:
+        match = _LEFT_BEHIND.match(name)
+        if match is None:
+            continue
+        path = Path(folder) / name
+        pid = int(match.group(1) or match.group(2))
+        try:
+            if now - path.lstat().st_mtime < STALE_SECONDS or not process_gone(pid):
+                continue
+            path.unlink()
+            removed += 1
+        except OSError:
+            continue
+    return removed
+
+
+def _claim(path: str):
+    """Rename the job file ``path`` to this process's number (see the module docstring);
+    None when it is gone."""
+    old = Path(path)
+    match = _JOB_NAME.match(old.name)
+    rest = old.name[len(f".build-{match.group(1)}-"):] if match else old.name
+    new = old.with_name(f".build-{os.getpid()}-{rest}")
+    try:
+        os.replace(old, new)
+        os.utime(new)
+    except OSError:
+        return None
+    return new
 
 
 def _spawn(paths: list, wait: bool) -> None:
@@ -139,7 +199,7 @@ def build(job: dict) -> dict:
         known += [s for s in sigs if s not in known]
     folder = cache_dir()
     target = Path(folder) / f"{job['name']}.ready.json"
-    fd, tmp = tempfile.mkstemp(dir=folder, prefix=".ready-", suffix=".tmp")
+    fd, tmp = tempfile.mkstemp(dir=folder, prefix=f".ready-{os.getpid()}-", suffix=".tmp")
     with os.fdopen(fd, "w") as fh:
         json.dump(marker, fh)
     os.replace(tmp, target)
@@ -156,6 +216,9 @@ def main(argv=None) -> int:
     except (OSError, AttributeError):
         pass
     for path in args:
+        path = _claim(path)
+        if path is None:
+            continue
         try:
             with open(path, "rb") as fh:
                 job = pickle.load(fh)  # written by this package into the private kernel cache

@@ -25,6 +25,7 @@ from phaselab.errors import PhaselabError
 from phaselab.export.data import (load_section, read_section_csv, read_section_netcdf,
                                   write_section_csv, write_section_netcdf)
 from phaselab.export.describe import check_section, section_metadata
+from phaselab.base.atomic import checked_path
 from phaselab.export.figures import ORBIT_COLORS, save_figure, section_figure
 from phaselab.export.interactive import bokeh_figure, save_html
 from phaselab.export.portraits import level_set_figure, save_level_set
@@ -103,6 +104,7 @@ def save(section, path, **kwargs):
         For an unknown suffix, a section without points, options a data file does not
         take, or (for .nc) a missing xarray.
     """
+    path = checked_path(path)
     for cls in type(section).__mro__:
         saver = SAVERS.get(cls.__name__)
         if saver is not None:

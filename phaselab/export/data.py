@@ -34,22 +34,21 @@ from pathlib import Path
 
 import numpy as np
 
+from phaselab.engine import inputs
 from phaselab.engine.status import LEFT_BOX, OK, STATUS
-from phaselab.errors import PhaselabError
 from phaselab.engine.provenance import plain
+from phaselab.errors import DataFileError, ParameterError, PhaselabError
+from phaselab.export import section_checks as checks
 from phaselab.export.describe import check_section, section_metadata
-from phaselab.base.files import atomic_path
+from phaselab.base.atomic import atomic_path, checked_path
 
 FORMAT_LINE = "# phaselab section data"
-#: most numbers (orbits x crossings x components) a section file may declare when loaded;
-#: 50 million float64 values are 400 MB
-MAX_LOAD_VALUES = 50_000_000
-#: largest section CSV file read, in bytes
+#: largest section CSV file read, in bytes (what a file may declare is bounded by the memory
+#: limit of phaselab.set_limits, see :mod:`phaselab.export.section_checks`)
 MAX_CSV_BYTES = 2_000_000_000
 _FIXED_COLUMNS = ("orbit", "crossing", "time")
 # Attributes stored as JSON text in NetCDF (attrs hold only strings and numbers).
 _JSON_ATTRS = ("state", "axes", "params", "plane", "energy")
-_NC_VARIABLES = ("points", "times", "counts", "energy_error", "escaped", "seeds")
 
 
 def _per_orbit(section) -> dict:
@@ -124,6 +123,10 @@ def write_section_csv(section, path):
 def read_section_csv(path):
     """Read a CSV written by :func:`write_section_csv`.
 
+    The file is read line by line: its header first, whose declared sizes are checked
+    (against the memory limit of :func:`phaselab.set_limits`, and against the file's size)
+    before any row is read; then exactly the rows the header declares.
+
     Returns
     -------
     meta : dict
@@ -135,117 +138,144 @@ def read_section_csv(path):
 
     Raises
     ------
-    PhaselabError
+    DataFileError
         If the file is not phaselab section data, a line is malformed (the line is named),
-        the rows are fewer or more than the header declares (a truncated file), or the
-        header declares more than :data:`MAX_LOAD_VALUES` numbers.
+        a header value has a type or range phaselab never writes, the rows are fewer or more
+        than the header declares (a truncated file) or repeat a crossing, or the header
+        declares more than the memory limit allows.
     """
-    path = Path(path)
+    path = checked_path(path)
     try:
         size = path.stat().st_size
+        handle = open(path, "rb")
     except OSError as exc:
-        raise PhaselabError(f"cannot read {path}: {exc.strerror or exc}") from None
+        raise DataFileError(f"cannot read {path}: {exc.strerror or exc}") from None
     if size > MAX_CSV_BYTES:
-        raise PhaselabError(f"{path} is {size} bytes; section CSV files are read up to {MAX_CSV_BYTES} bytes")
-    try:
-        text = path.read_text(encoding="utf-8")
-    except OSError as exc:
-        raise PhaselabError(f"cannot read {path}: {exc.strerror or exc}") from None
-    except UnicodeDecodeError:
-        raise PhaselabError(f"{path} is not a phaselab section CSV (not UTF-8 text)") from None
-    lines = text.splitlines()
-    if not lines or lines[0].strip() != FORMAT_LINE:
-        raise PhaselabError(f"{path} is not a phaselab section CSV (first line should be {FORMAT_LINE!r})")
-    if not text.endswith("\n"):
-        raise PhaselabError(f"{path} is truncated: its last line is incomplete")
-    meta = {}
-    k = 1
-    while k < len(lines) and lines[k].startswith("#"):
-        key, sep, value = lines[k][1:].partition(":")
-        if not sep:
-            raise PhaselabError(f"{path}, line {k + 1}: expected '# key: value', got {lines[k]!r}")
-        try:
-            meta[key.strip()] = json.loads(value)
-        except (json.JSONDecodeError, RecursionError) as exc:
-            why = getattr(exc, "msg", "nested too deeply")
-            raise PhaselabError(f"{path}, line {k + 1}: value of {key.strip()!r} is not valid: {why}") from None
-        k += 1
-    if k >= len(lines):
-        raise PhaselabError(f"{path}: the column header row is missing")
-    header = lines[k].split(",")
-    ncomp = len(header) - len(_FIXED_COLUMNS)
-    if tuple(header[:3]) != _FIXED_COLUMNS or ncomp < 1:
-        raise PhaselabError(f"{path}, line {k + 1}: expected columns orbit,crossing,time,<state...>")
-    n, max_c, counts = _layout(path, meta, ncomp)
-    body = lines[k + 1:]
-    declared = int(counts.sum())
-    if len(body) != declared:
-        raise PhaselabError(f"{path}: the header declares {declared} section points but the file has "
-                            f"{len(body)} rows (a truncated or edited file)")
-    values = np.empty((len(body), len(header)), dtype=float)
-    for r, line in enumerate(body):
-        cells = line.split(",")
-        if len(cells) != len(header):
-            raise PhaselabError(
-                f"{path}, line {k + 2 + r}: {len(cells)} values but {len(header)} columns")
-        try:
-            values[r] = [float(c) for c in cells]
-        except ValueError:
-            raise PhaselabError(f"{path}, line {k + 2 + r}: a value is not a number: {line!r}") from None
+        handle.close()
+        raise DataFileError(f"{path} is {size} bytes; section CSV files are read up to {MAX_CSV_BYTES} bytes")
+    with handle:
+        reader = _Lines(handle, path)
+        if reader.next(len(FORMAT_LINE) + 2).strip() != FORMAT_LINE:
+            raise DataFileError(f"{path} is not a phaselab section CSV (first line should be {FORMAT_LINE!r})")
+        meta, line = _read_header(reader)
+        header = line.split(",")
+        ncomp = len(header) - len(_FIXED_COLUMNS)
+        if tuple(header[:3]) != _FIXED_COLUMNS or ncomp < 1:
+            raise DataFileError(f"{path}, line {reader.number}: expected columns orbit,crossing,time,<state...>")
+        n, max_c, counts = _layout(path, meta, ncomp)
+        declared = int(counts.sum())
+        checks.check_size(path, n, max_c, ncomp, declared)
+        checks.check_csv_bytes(path, size, reader.bytes, declared, len(header))
+        first = reader.number + 1
+        values = _read_rows(reader, declared, len(header))
     orbit, crossing = values[:, 0], values[:, 1]
-    bad = ~((orbit >= 0) & (orbit < n) & (orbit == np.floor(orbit)) & (crossing >= 0)
-            & (crossing == np.floor(crossing)))
-    if not bad.any():
-        bad = crossing >= counts[orbit.astype(np.int64)]
-    if bad.any():
-        r = int(np.argmax(bad))
-        raise PhaselabError(f"{path}, line {k + 2 + r}: orbit {body[r].split(',')[0]}, crossing "
-                            f"{body[r].split(',')[1]} is not one the header declares")
+    checks.check_rows(path, orbit, crossing, counts, max_c, first)
     data = {
         "orbit": orbit.astype(np.int64),
         "crossing": crossing.astype(np.int64),
         "time": values[:, 2].copy(),
         "states": values[:, 3:].copy(),
     }
+    meta = checks.check_header(path, meta, n, ncomp)
     meta["counts"] = counts
-    for key, dtype in (("energy_error", float), ("escaped", bool), ("status", np.int64), ("seeds", float)):
-        if key in meta:
-            try:
-                arr = np.asarray(meta[key], dtype=dtype)
-                meta[key] = arr.reshape(n, ncomp) if key == "seeds" else arr.reshape(n)
-            except (TypeError, ValueError):
-                raise PhaselabError(f"{path}: header value {key!r} does not hold one entry per orbit "
-                                    f"({n})") from None
     return meta, data
 
 
+class _Lines:
+    """Lines of a file opened in binary, each read up to a length, counted and decoded."""
+
+    def __init__(self, handle, path):
+        self.handle = handle
+        self.path = path
+        self.number = 0
+        self.bytes = 0
+
+    def next(self, cap: int) -> str:
+        """The next line without its end (``""`` at the end of the file)."""
+        raw = self.handle.readline(cap + 1)
+        if not raw:
+            return ""
+        self.number += 1
+        self.bytes += len(raw)
+        if len(raw) > cap:
+            raise DataFileError(f"{self.path}, line {self.number}: longer than {cap} bytes, more than "
+                                "phaselab writes there")
+        if not raw.endswith(b"\n"):
+            raise DataFileError(f"{self.path} is truncated: its last line is incomplete")
+        try:
+            return raw.decode("utf-8").rstrip("\r\n")
+        except UnicodeDecodeError:
+            raise DataFileError(f"{self.path} is not a phaselab section CSV (not UTF-8 text)") from None
+
+
+def _read_header(reader: _Lines):
+    """The ``# key: value`` lines and the column header row after them; the header may
+    take at most an eighth of the memory limit."""
+    cap = int(inputs.LIMITS.memory_bytes // 8)
+    meta = {}
+    while True:
+        line = reader.next(max(cap - reader.bytes, 1))
+        if not line.startswith("#"):
+            break
+        key, sep, value = line[1:].partition(":")
+        if not sep:
+            raise DataFileError(f"{reader.path}, line {reader.number}: expected '# key: value', got "
+                                f"{line[:60]!r}")
+        try:
+            meta[key.strip()] = json.loads(value)
+        except (json.JSONDecodeError, RecursionError) as exc:
+            why = getattr(exc, "msg", "nested too deeply")
+            raise DataFileError(f"{reader.path}, line {reader.number}: value of {key.strip()!r} is not "
+                                f"valid: {why}") from None
+    if not line:
+        raise DataFileError(f"{reader.path}: the column header row is missing")
+    return meta, line
+
+
+def _read_rows(reader: _Lines, declared: int, columns: int) -> np.ndarray:
+    """Exactly ``declared`` rows of ``columns`` numbers, then the end of the file."""
+    cap = columns * checks.CSV_CHARS_PER_VALUE + 2
+    values = np.empty((declared, columns), dtype=float)
+    first = reader.number + 1
+    for r in range(declared):
+        line = reader.next(cap)
+        if not line:
+            raise DataFileError(f"{reader.path}: the header declares {declared} section points but the "
+                                f"file has {r} rows (a truncated or edited file)")
+        cells = line.split(",")
+        if len(cells) != columns:
+            raise DataFileError(f"{reader.path}, line {first + r}: {len(cells)} values but {columns} columns")
+        try:
+            values[r] = [float(c) for c in cells]
+        except ValueError:
+            raise DataFileError(f"{reader.path}, line {first + r}: a value is not a number: {line!r}") from None
+    more = 0
+    while reader.next(cap):
+        more += 1
+    if more:
+        raise DataFileError(f"{reader.path}: the header declares {declared} section points but the file has "
+                            f"{declared + more} rows (a truncated or edited file)")
+    return values
+
+
 def _layout(path, meta: dict, ncomp: int):
-    """(n_orbits, max_crossings, counts) from a header, checked to describe arrays of at most
-    :data:`MAX_LOAD_VALUES` numbers and counts within the crossings."""
+    """(n_orbits, max_crossings, counts) from a header, checked to describe arrays within
+    the memory limit and counts within the crossings."""
     for key in ("n_orbits", "max_crossings", "counts", "state", "axes"):
         if key not in meta:
-            raise PhaselabError(f"{path}: the header lacks {key!r}")
+            raise DataFileError(f"{path}: the header lacks {key!r}")
     n, max_c = meta["n_orbits"], meta["max_crossings"]
     for key, value in (("n_orbits", n), ("max_crossings", max_c)):
         if isinstance(value, bool) or not isinstance(value, int) or value < 0:
-            raise PhaselabError(f"{path}: header value {key!r} must be a whole number >= 0, got {value!r}")
-    total = n * max_c * ncomp
-    if total > MAX_LOAD_VALUES:
-        raise PhaselabError(
-            f"{path}: the header declares {n} orbits x {max_c} crossings x {ncomp} components = "
-            f"{total} values; sections are loaded up to {MAX_LOAD_VALUES} values")
-    try:
-        counts = np.asarray(meta["counts"], dtype=np.int64)
-    except (TypeError, ValueError, OverflowError):
-        raise PhaselabError(f"{path}: header value 'counts' must be whole numbers") from None
-    if counts.shape != (n,) or np.any(counts < 0) or np.any(counts > max_c):
-        raise PhaselabError(f"{path}: header value 'counts' must hold {n} numbers between 0 and {max_c}")
+            raise DataFileError(f"{path}: header value {key!r} must be a whole number >= 0, got {value!r}")
+    checks.check_size(path, n, max_c, ncomp)
+    counts = checks.check_counts(path, meta["counts"], n, max_c)
     state, axes = meta["state"], meta["axes"]
     if not isinstance(state, list) or len(state) != ncomp or not all(isinstance(s, str) for s in state):
-        raise PhaselabError(f"{path}: header value 'state' must name the {ncomp} state columns")
+        raise DataFileError(f"{path}: header value 'state' must name the {ncomp} state columns")
     if (not isinstance(axes, list) or len(axes) != 2
             or not all(isinstance(a, int) and not isinstance(a, bool) and 0 <= a < ncomp for a in axes)):
-        raise PhaselabError(f"{path}: header value 'axes' must be two column indices below {ncomp}")
+        raise DataFileError(f"{path}: header value 'axes' must be two column indices below {ncomp}")
     return n, max_c, counts
 
 
@@ -318,6 +348,11 @@ def write_section_netcdf(section, path):
 def read_section_netcdf(path):
     """Read a NetCDF file written by :func:`write_section_netcdf`.
 
+    The file is opened without decoding (no units, calendars or scale factors are applied)
+    and its variables are checked against what phaselab writes (names, dimensions, dtypes,
+    attributes) and their sizes against the memory limit of :func:`phaselab.set_limits`
+    before any array is read.
+
     Returns
     -------
     meta : dict
@@ -325,25 +360,26 @@ def read_section_netcdf(path):
         ``escaped`` and ``seeds`` arrays.
     data : dict of ndarray
         ``points`` (n_orbits, max_crossings, 2n) and ``times`` (n_orbits, max_crossings).
+
+    Raises
+    ------
+    DataFileError
+        For a file that is not such a NetCDF file, or declares more than the limit allows.
     """
     xr = _xarray()
-    path = Path(path)
-    if not path.exists():
-        raise PhaselabError(f"cannot read {path}: no such file")
+    path = checked_path(path)
+    if not path.is_file():
+        raise DataFileError(f"cannot read {path}: no such file")
     try:
-        with xr.open_dataset(path) as lazy:
+        with xr.open_dataset(path, decode_cf=False, cache=False) as lazy:
             if lazy.attrs.get("format") != "phaselab section data":
-                raise PhaselabError(f"{path} is not a phaselab section NetCDF file")
-            missing = [v for v in _NC_VARIABLES if v not in lazy.variables]
-            if missing:
-                raise PhaselabError(f"{path}: variable {missing[0]!r} is missing")
-            total = sum(math.prod(lazy[v].shape) for v in _NC_VARIABLES)
-            if total > MAX_LOAD_VALUES:
-                raise PhaselabError(f"{path}: its arrays hold {total} values; sections are loaded up to "
-                                    f"{MAX_LOAD_VALUES} values")
+                raise DataFileError(f"{path} is not a phaselab section NetCDF file")
+            checks.check_netcdf_layout(path, lazy)
             ds = lazy.load()
-    except (OSError, ValueError, KeyError, RuntimeError) as exc:
-        raise PhaselabError(f"cannot read {path} as NetCDF: {exc}") from None
+    except (OSError, ValueError, KeyError, RuntimeError, TypeError) as exc:
+        if isinstance(exc, DataFileError):
+            raise
+        raise DataFileError(f"cannot read {path} as NetCDF: {exc}") from None
     meta = {}
     for key, value in ds.attrs.items():
         if key == "format":
@@ -351,23 +387,19 @@ def read_section_netcdf(path):
         try:
             meta[key] = json.loads(value) if key in _JSON_ATTRS else plain(value)
         except (TypeError, ValueError, RecursionError):
-            raise PhaselabError(f"{path}: attribute {key!r} is not valid") from None
-    try:
-        if "dt" in meta:
-            meta["dt"] = float(meta["dt"])
-        meta["counts"] = ds["counts"].values.astype(np.int64)
-        meta["energy_error"] = ds["energy_error"].values.astype(float)
-        meta["escaped"] = ds["escaped"].values.astype(bool)
-        if "status" in ds:
-            meta["status"] = ds["status"].values.astype(np.int64)
-        meta["seeds"] = ds["seeds"].values.astype(float)
-        meta["n_orbits"] = int(ds.sizes["orbit"])
-        meta["max_crossings"] = int(ds.sizes["crossing"])
-        data = {"points": ds["points"].values.astype(float), "times": ds["times"].values.astype(float)}
-    except (TypeError, ValueError, KeyError) as exc:
-        raise PhaselabError(f"{path}: not a valid phaselab section NetCDF file ({exc})") from None
-    ncomp = data["points"].shape[-1] if data["points"].ndim == 3 else 0
-    _layout(path, meta, ncomp)
+            raise DataFileError(f"{path}: attribute {key!r} is not valid") from None
+    n, max_c = int(ds.sizes["orbit"]), int(ds.sizes["crossing"])
+    meta["n_orbits"], meta["max_crossings"] = n, max_c
+    meta["counts"] = ds["counts"].values.astype(np.int64)
+    for key in ("energy_error", "escaped", "status", "seeds"):
+        if key in ds:
+            meta[key] = ds[key].values
+    data = {"points": ds["points"].values.astype(float), "times": ds["times"].values.astype(float)}
+    ncomp = data["points"].shape[-1]
+    _, _, counts = _layout(path, meta, ncomp)
+    checks.check_netcdf_values(path, ds, counts)
+    meta = checks.check_header(path, meta, n, ncomp)
+    meta["counts"] = counts
     return meta, data
 
 
@@ -385,15 +417,16 @@ def load_section(path):
     Raises
     ------
     PhaselabError
-        For a file that is not a complete phaselab section file (see the readers), or whose
-        header declares more than :data:`MAX_LOAD_VALUES` numbers: the arrays are checked
-        before they are allocated.
+        (:class:`~phaselab.errors.DataFileError`) For a file that is not a complete phaselab
+        section file (see the readers and :mod:`phaselab.export.section_checks`), or that
+        declares more than the memory limit allows: the sizes are checked before anything
+        of that size is read or allocated.
     """
     import sympy as sp
 
     from phaselab.orbits.section_result import Section
 
-    path = Path(path)
+    path = checked_path(path)
     suffix = path.suffix.lower()
     if suffix == ".csv":
         meta, data = read_section_csv(path)
@@ -407,7 +440,7 @@ def load_section(path):
         meta, data = read_section_netcdf(path)
         points, times = data["points"], data["times"]
     else:
-        raise PhaselabError(f"a section is loaded from .csv or .nc, not {suffix or 'no suffix'!r}")
+        raise ParameterError(f"a section is loaded from .csv or .nc, not {suffix or 'no suffix'!r}")
     names = meta["state"]
     axes = tuple(int(a) for a in meta["axes"])
     symbols = tuple(sp.Symbol(names[a], real=True) for a in axes)
@@ -419,7 +452,7 @@ def load_section(path):
         plane = dict(meta.get("plane") or {})
         params = dict(meta.get("params") or {})
     except (TypeError, ValueError):
-        raise PhaselabError(f"{path}: the header values energy, dt, plane or params are not valid") from None
+        raise DataFileError(f"{path}: the header values energy, dt, plane or params are not valid") from None
     status = meta.get("status")
     if status is None:  # files written before status codes were recorded
         status = np.where(meta.get("escaped", np.zeros(n, bool)), LEFT_BOX, OK)

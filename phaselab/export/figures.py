@@ -14,7 +14,7 @@ import numpy as np
 from phaselab.errors import PhaselabError
 from phaselab.export.describe import (FOOTER_SEPARATOR as _SEP, axis_symbols, check_section,
                                       footer_text, mathtext_label, text_problem)
-from phaselab.base.files import atomic_path
+from phaselab.base.atomic import atomic_path
 
 #: Orbit colours, cycled by orbit index: muted, well separated hues that stay apart on
 #: white paper and in greyscale print (dark and light entries alternate).

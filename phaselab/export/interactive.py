@@ -14,7 +14,7 @@ import numpy as np
 from phaselab.errors import PhaselabError
 from phaselab.export.describe import axis_symbols, check_section, footer_text, plain_label
 from phaselab.export.figures import MISSING_COLOR, ORBIT_COLORS, SCALAR_STOPS
-from phaselab.base.files import atomic_path
+from phaselab.base.atomic import atomic_path
 
 
 def _scalar_palette(n=256):

@@ -14,7 +14,7 @@ import numpy as np
 from phaselab.errors import PhaselabError
 from phaselab.export.describe import mathtext_label
 from phaselab.export.figures import REPORT_RC, FIGURE_SUFFIXES, check_size, check_texts, scalar_colormap
-from phaselab.base.files import atomic_path
+from phaselab.base.atomic import atomic_path
 
 #: Colour of separatrices and of the allowed-region boundary.
 SEPARATRIX_COLOR = "#8e3b2e"

@@ -167,7 +167,7 @@ def _summary(orbit) -> dict:
 
 def _write_atomic(path: Path, write) -> Path:
     """``write(tmp)`` into a temporary file beside ``path``, then rename it into place."""
-    from phaselab.base.files import atomic_path
+    from phaselab.base.atomic import atomic_path
 
     path = Path(path)
     if not path.parent.exists():

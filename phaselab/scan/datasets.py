@@ -23,7 +23,6 @@ import json
 import os
 import platform
 import shutil
-import uuid
 import warnings
 from pathlib import Path
 
@@ -31,6 +30,7 @@ import numpy as np
 
 from phaselab.engine.provenance import (NOTE, expression_text, netcdf_attrs, provenance,  # noqa: F401
                                      state_names, versions, xarray_module)
+from phaselab.base.atomic import atomic_path, checked_path, open_folder, remove_stale, temporary_name, write_error
 from phaselab.errors import ParameterError, PhaselabError
 
 SMALL_BYTES = 64 * 2**20
@@ -120,23 +120,15 @@ def time_unit(system) -> str:
 
 # ----------------------------------------------------------------------------- files
 def atomic_write(path, write) -> Path:
-    """Call ``write(temporary_path)`` for a file beside ``path`` (same suffix, so writers that
-    go by the suffix pick the right format), then rename it to ``path``: a reader never sees
-    a half-written file. The file gets the usual permissions (not a private temporary's)."""
-    path = Path(path)
+    """Call ``write(temporary_path)`` for a file beside ``path``, then rename it to ``path``:
+    a reader never sees a half-written file (the one writer, :func:`phaselab.base.atomic.atomic_path`,
+    which also gives the one message for a folder that cannot be written)."""
+    path = checked_path(path)
     folder = path.parent if str(path.parent) else Path(".")
-    if not folder.is_dir():
+    if not folder.exists():  # a folder that is a file is refused when it is opened
         raise ParameterError(f"cannot save to {path}: folder {folder} does not exist")
-    tmp = folder / f".{path.stem}.{os.getpid()}-{uuid.uuid4().hex[:8]}{path.suffix}"
-    try:
+    with atomic_path(path) as tmp:
         write(str(tmp))
-        os.replace(tmp, path)
-    except BaseException:
-        if tmp.is_dir():
-            shutil.rmtree(tmp, ignore_errors=True)
-        else:
-            tmp.unlink(missing_ok=True)
-        raise
     return path
 
 
@@ -157,16 +149,20 @@ def save_zarr(dataset, path) -> Path:
     folder, then renamed into place (an existing store of that name is replaced only once
     the new one is complete)."""
     zarr_module()
-    path = Path(path)
+    path = checked_path(path)
     folder = path.parent if str(path.parent) else Path(".")
-    if not folder.is_dir():
+    if not folder.exists():  # a folder that is a file is refused when it is opened
         raise ParameterError(f"cannot save to {path}: folder {folder} does not exist")
     if path.exists() and not path.is_dir():
         raise ParameterError(f"cannot save a Zarr store to {path}: a file of that name exists")
-    tag = f"{os.getpid()}-{uuid.uuid4().hex[:8]}"
-    tmp = folder / f".{path.name}.{tag}.partial"
-    old = folder / f".{path.name}.{tag}.old"
+    tmp = folder / temporary_name(path, "partial")
+    old = folder / temporary_name(path, "old")
     try:
+        dfd = open_folder(folder)
+        try:
+            remove_stale(dfd)
+        finally:
+            os.close(dfd)
         with warnings.catch_warnings():
             # consolidated metadata (one file to read on opening) is an extension of the Zarr
             # 3 format that xarray and zarr-python read; zarr says so on every write
@@ -175,10 +171,12 @@ def save_zarr(dataset, path) -> Path:
         if path.exists():
             os.replace(path, old)
         os.replace(tmp, path)
-    except BaseException:
+    except BaseException as exc:
         shutil.rmtree(tmp, ignore_errors=True)
         if old.exists() and not path.exists():
             os.replace(old, path)
+        if isinstance(exc, OSError):
+            raise write_error(path, exc) from None
         raise
     shutil.rmtree(old, ignore_errors=True)
     return path
@@ -188,7 +186,7 @@ def save_dataset(dataset, path) -> Path:
     """Write a Dataset by the suffix of ``path``: ``.nc`` NetCDF, ``.zarr`` Zarr; with no
     suffix, NetCDF up to :data:`SMALL_BYTES` and Zarr above (the suffix is added). Returns
     the path written."""
-    path = Path(path)
+    path = checked_path(path)
     suffix = path.suffix.lower()
     if suffix == "":
         suffix = ".nc" if dataset.nbytes <= SMALL_BYTES else ".zarr"

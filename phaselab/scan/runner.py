@@ -311,20 +311,21 @@ def run_chunks(work: Callable, rows: np.ndarray, valid: np.ndarray, chunk: int, 
     t0 = time.perf_counter()
     n = len(rows)
     st = None
+    parts: dict = {}
     if store is not None:
         from phaselab.scan.store import ScanStore
 
         st = ScanStore.open(store, n, chunk, fingerprint or {})
         chunk = st.chunk
-        done = st.done()
-    else:
-        done = np.zeros(-(-n // chunk), dtype=bool)
-    n_chunks = len(done)
+        parts, damaged = st.verified()  # only chunks that pass their checksums are reused
+        st.warn_damage(damaged)
+    n_chunks = -(-n // chunk)
+    done = np.zeros(n_chunks, dtype=bool)
+    done[list(parts)] = True
     todo = [k for k in range(n_chunks) if not done[k]]
     bounds = [(k * chunk, min(n, (k + 1) * chunk)) for k in range(n_chunks)]
     rows_done = sum(b - a for k, (a, b) in enumerate(bounds) if done[k])
     bar = Progress(n, desc, progress, initial=rows_done, unit=unit)
-    parts: dict = {}
     infos: list = []
 
     def keep(i, result):
@@ -344,11 +345,6 @@ def run_chunks(work: Callable, rows: np.ndarray, valid: np.ndarray, chunk: int, 
     finally:
         bar.close()
     reused = [k for k in range(n_chunks) if done[k]]
-    if reused:
-        stored = st.read()          # one read per field (zarr fetches its chunks concurrently)
-        for k in reused:
-            a, b = bounds[k]
-            parts[k] = {name: values[a:b] for name, values in stored.items()}
     info = infos[0] if infos else (st.info() if st is not None else None)
     fields = _assemble(parts, bounds, n, fill or {})
     run = RunInfo(chunks=n_chunks, computed=len(todo), reused=len(reused), chunk=chunk,

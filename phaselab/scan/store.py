@@ -2,17 +2,28 @@
 
 A scan over ``n`` seeds (or parameter points) runs in chunks of consecutive indices. Given
 ``store=...``, each finished chunk is written to the store (its arrays first, then its
-"done" flag), so a scan that was interrupted (a crash, a killed job, a closed laptop) and
-is started again with the same arguments computes only the chunks not yet done and reads
-the rest back. Each seed's result depends only on its own state and the scan's arguments,
-so the resumed result equals an uninterrupted one exactly.
+checksum, then its "done" flag), so a scan that was interrupted (a crash, a killed job, a
+closed laptop) and is started again with the same arguments computes only the chunks not
+yet done and reads the rest back. Each seed's result depends only on its own state and the
+scan's arguments, so the resumed result equals an uninterrupted one exactly.
 
 Layout of the store (a Zarr group, version 3 format)::
 
-    attrs["phaselab_scan"]   JSON: {"format": 1, "n": ..., "chunk": ..., "fingerprint": {...}}
-    attrs["phaselab_info"]   JSON: what the first finished chunk reported (method, step...)
-    chunk_done               uint8, shape (n_chunks,): 1 once a chunk's arrays are written
-    <field>                  one array per result field, shape (n, ...), chunked like the scan
+    attrs["phaselab_scan"]    JSON: {"format": 2, "n": ..., "chunk": ..., "fingerprint": {...}}
+    attrs["phaselab_fields"]  JSON: {field: [dtype, row shape]} of the result fields
+    attrs["phaselab_info"]    JSON: what the first finished chunk reported (method, step...)
+    chunk_done                uint8, shape (n_chunks,): 1 once a chunk's arrays are written
+    chunk_rows                int64, shape (n_chunks, 2): the rows [start, stop) of each chunk
+    chunk_sha256              uint8, shape (n_chunks, 32): each chunk's checksum
+    <field>                   one array per result field, shape (n, ...), chunked like the scan
+
+A chunk's checksum is the SHA-256 of its coordinates (chunk number, rows, scan size) and of
+every field's name, dtype, shape and bytes over its rows. A chunk is reused only when its
+rows and checksum match what is read back, so two chunks swapped on disk, flipped bytes, a
+deleted or truncated chunk file, or an array whose dtype or shape was changed are found:
+such chunks are recomputed, with a warning naming them, and never mixed into a result.
+Damage to the scan record itself (the scan attributes) refuses the store with a
+:class:`~phaselab.errors.DataFileError`.
 
 The fingerprint names what the scan computes (kind, system, parameters, time, method,
 step, indicator, seed of the deviation vectors, and a hash of the seeds). A store holding a
@@ -25,17 +36,24 @@ from __future__ import annotations
 
 import hashlib
 import json
+import math
 import os
-from pathlib import Path
+import warnings
 
 import numpy as np
 
-from phaselab.errors import ParameterError
+from phaselab.base.atomic import checked_path
+from phaselab.engine import inputs
+from phaselab.errors import DataFileError, ParameterError
 from phaselab.scan.datasets import zarr_module
 
-FORMAT = 1
+FORMAT = 2
 DONE = "chunk_done"
+ROWS = "chunk_rows"
+DIGEST = "chunk_sha256"
+RECORD = (DONE, ROWS, DIGEST)
 SCAN_KEY = "phaselab_scan"
+FIELDS_KEY = "phaselab_fields"
 INFO_KEY = "phaselab_info"
 
 
@@ -49,16 +67,41 @@ def seeds_digest(*arrays) -> str:
     return h.hexdigest()[:24]
 
 
+def chunk_digest(k: int, start: int, stop: int, n: int, fields: dict) -> np.ndarray:
+    """SHA-256 of chunk ``k`` (rows ``[start, stop)`` of ``n``): its coordinates and every
+    field's name, dtype, shape and bytes, fields in name order. uint8 array of shape (32,)."""
+    h = hashlib.sha256()
+    h.update(json.dumps(["phaselab scan chunk", int(k), int(start), int(stop), int(n)]).encode())
+    for name in sorted(fields):
+        a = np.ascontiguousarray(fields[name])
+        h.update(json.dumps([name, a.dtype.str, list(a.shape)]).encode())
+        h.update(a.tobytes())
+    return np.frombuffer(h.digest(), dtype=np.uint8)
+
+
 def _canonical(value):
     """JSON-stable form of a fingerprint (floats by repr, tuples as lists)."""
     return json.loads(json.dumps(value, sort_keys=True, default=str, allow_nan=True))
 
 
+def _whole(value) -> bool:
+    return isinstance(value, int) and not isinstance(value, bool)
+
+
+def _read(arr, a=None, b=None):
+    """``arr[a:b]`` as an ndarray, or None when the stored chunk cannot be read (truncated,
+    garbage)."""
+    try:
+        return np.asarray(arr[:] if a is None else arr[a:b])
+    except Exception:  # zarr and its codecs raise many kinds on damaged chunk files
+        return None
+
+
 class ScanStore:
     """A scan's chunks in a Zarr group (see the module docstring).
 
-    Use :meth:`open`; then :meth:`done` tells which chunks are finished, :meth:`write`
-    records one, :meth:`read` returns the stored fields.
+    Use :meth:`open`; then :meth:`verified` returns the finished chunks that pass their
+    checksums, :meth:`write` records one.
 
     Attributes
     ----------
@@ -73,8 +116,11 @@ class ScanStore:
         self.n = n
         self.chunk = chunk
         self.where = where
-        self._arrays = {name: group[name] for name in group.array_keys()}
-        self._has_info = INFO_KEY in group.attrs.asdict()
+        self.repairs: list[str] = []
+        attrs = group.attrs.asdict()
+        self._has_info = INFO_KEY in attrs
+        self.schema = self._schema(attrs.get(FIELDS_KEY))
+        self._arrays = self._checked_arrays()
 
     @property
     def n_chunks(self) -> int:
@@ -98,12 +144,14 @@ class ScanStore:
         Raises
         ------
         ParameterError
-            The store holds a different scan, or is not a phaselab scan store.
+            The store holds a different scan, or the folder is not a phaselab scan store.
+        DataFileError
+            The store's scan record is damaged, or it was written in another format.
         """
         zarr = zarr_module()
         where = str(target) if isinstance(target, (str, os.PathLike)) else type(target).__name__
         if isinstance(target, (str, os.PathLike)):
-            path = Path(target)
+            path = checked_path(target)
             if path.exists() and not path.is_dir():
                 raise ParameterError(f"store {where}: a file of that name exists; give a folder for "
                                      "the Zarr store")
@@ -114,35 +162,104 @@ class ScanStore:
         fp = _canonical(fingerprint)
         try:
             group = zarr.open_group(store=target, mode="a", zarr_format=3)
+            attrs = group.attrs.asdict()
         except Exception as exc:
-            raise ParameterError(f"store {where}: cannot open it as a Zarr group ({exc})") from None
-        attrs = group.attrs.asdict()
+            raise DataFileError(f"store {where}: cannot open it as a Zarr group ({exc}); give a new "
+                                "folder") from None
         if SCAN_KEY not in attrs:
             if len(list(group.keys())):
                 raise ParameterError(f"store {where}: a Zarr group with other content, not a phaselab "
                                      "scan store; give a new folder")
             chunk = int(chunk)
-            n_chunks = -(-n // chunk)
             group.attrs.update({SCAN_KEY: json.dumps({"format": FORMAT, "n": int(n), "chunk": chunk,
                                                       "fingerprint": fp}, allow_nan=True)})
-            group.create_array(DONE, shape=(max(n_chunks, 1),), chunks=(1,), dtype="uint8", fill_value=0)
             return cls(group, int(n), chunk, where)
-        try:
-            head = json.loads(attrs[SCAN_KEY])
-        except (TypeError, ValueError):
-            raise ParameterError(f"store {where}: its scan record is damaged; give a new folder") from None
-        if head.get("format") != FORMAT:
-            raise ParameterError(f"store {where}: written by another version of the store format "
-                                 f"({head.get('format')}); give a new folder")
-        old = head.get("fingerprint", {})
-        if old != fp or int(head.get("n", -1)) != int(n):
+        head = _head(attrs[SCAN_KEY], where)
+        old = head.get("fingerprint")
+        if old != fp or head["n"] != int(n):
+            old = old if isinstance(old, dict) else {}
             keys = sorted(k for k in set(old) | set(fp) if old.get(k) != fp.get(k))
-            if int(head.get("n", -1)) != int(n):
+            if head["n"] != int(n):
                 keys.append("number of seeds")
             raise ParameterError(f"store {where} holds a different scan (it differs in: "
                                  f"{', '.join(keys)}); use a new store for this one, or the same "
                                  "arguments to resume it")
-        return cls(group, int(n), int(head["chunk"]), where)
+        return cls(group, int(n), head["chunk"], where)
+
+    # ------------------------------------------------------------------ checks on opening
+    def _schema(self, text):
+        """The recorded result fields ``{name: (dtype, row shape)}``, or None (no chunk
+        written yet, or a damaged record: every chunk is then recomputed)."""
+        if text is None:
+            return None
+        try:
+            raw = json.loads(text)
+            schema = {str(name): (np.dtype(d), tuple(int(x) for x in shape))
+                      for name, (d, shape) in raw.items()}
+        except Exception:
+            self.repairs.append("its record of the result fields is damaged")
+            return None
+        if any(name in RECORD or dt.kind not in "biuf" or any(x < 0 for x in shape)
+               for name, (dt, shape) in schema.items()):
+            self.repairs.append("its record of the result fields is damaged")
+            return None
+        size = sum(float(self.n) * math.prod(shape) * dt.itemsize for dt, shape in schema.values())
+        if size > inputs.LIMITS.memory_bytes:  # never read back more than a call may allocate
+            self.repairs.append(f"its record of the result fields declares {size / 2**30:.3g} GiB, "
+                                "more than the memory limit")
+            return None
+        return schema
+
+    def _expected(self) -> dict:
+        """``{array name: (dtype, shape)}`` every array of a sound store has."""
+        m = max(self.n_chunks, 1)
+        out = {DONE: (np.dtype(np.uint8), (m,)), ROWS: (np.dtype(np.int64), (m, 2)),
+               DIGEST: (np.dtype(np.uint8), (m, 32))}
+        for name, (dt, shape) in (self.schema or {}).items():
+            out[name] = (dt, (self.n,) + shape)
+        return out
+
+    def _checked_arrays(self) -> dict:
+        """The store's arrays, each checked against the dtype and shape it must have (before
+        anything is read, so that a changed shape cannot make a read allocate a huge
+        array); a missing or changed one is made anew, empty (every chunk whose data it
+        held then fails its checksum and is recomputed)."""
+        arrays = {}
+        for name, (dt, shape) in self._expected().items():
+            try:
+                arr = self.group[name] if name in self.group else None
+                ok = arr is not None and np.dtype(arr.dtype) == dt and tuple(arr.shape) == shape
+            except Exception:
+                arr, ok = None, False
+            if ok:
+                arrays[name] = arr
+                continue
+            if arr is not None or self.schema is not None:
+                self.repairs.append(f"its array {name!r} is missing or has another dtype or shape")
+            self._drop(name)
+            record = name in RECORD
+            arrays[name] = self.group.create_array(
+                name, shape=shape, chunks=((1,) if record else (self.chunk,)) + shape[1:], dtype=dt,
+                fill_value=np.nan if dt.kind == "f" else 0)
+        return arrays
+
+    def _drop(self, name: str) -> None:
+        """Remove the array ``name`` if there is one (through the store's own deletion when
+        its metadata is too damaged for zarr to open it)."""
+        try:
+            if name in self.group:
+                del self.group[name]
+            return
+        except Exception:
+            pass
+        try:
+            from zarr.core.sync import sync
+
+            prefix = self.group.store_path.path
+            sync(self.group.store.delete_dir(f"{prefix}/{name}" if prefix else name))
+        except Exception as exc:
+            raise DataFileError(f"store {self.where}: its array {name!r} is damaged and cannot be "
+                                f"removed ({exc}); give a new folder") from None
 
     # ------------------------------------------------------------------ chunks
     def bounds(self, k: int) -> tuple[int, int]:
@@ -150,17 +267,76 @@ class ScanStore:
         return k * self.chunk, min(self.n, (k + 1) * self.chunk)
 
     def done(self) -> np.ndarray:
-        """Finished chunks, bool of shape (n_chunks,)."""
-        flags = np.asarray(self._arrays[DONE][:], dtype=bool)
-        return flags[:self.n_chunks]
+        """Chunks marked finished (not yet checked), bool of shape (n_chunks,)."""
+        stored = _read(self._arrays[DONE])
+        if stored is not None:
+            return stored[:self.n_chunks] == 1
+        flags = np.zeros(self.n_chunks, dtype=bool)
+        for k in range(self.n_chunks):  # a damaged flag reads as not done
+            value = _read(self._arrays[DONE], k, k + 1)
+            flags[k] = value is not None and bool(value[0] == 1)
+        return flags
 
     def info(self):
         """What the first finished chunk reported (or None)."""
         text = self.group.attrs.asdict().get(INFO_KEY)
-        return None if text is None else json.loads(text)
+        try:
+            return None if text is None else json.loads(text)
+        except (TypeError, ValueError):
+            return None
+
+    def verified(self) -> tuple[dict, list]:
+        """The finished chunks that pass their checks, and those that do not.
+
+        Returns
+        -------
+        chunks : dict of int to dict of ndarray
+            ``{k: {field: rows of chunk k}}`` for each finished chunk whose stored rows and
+            checksum match its fields as read back.
+        damaged : list of int
+            Chunks marked finished that fail (to be recomputed).
+        """
+        marked = [int(k) for k in np.flatnonzero(self.done())]
+        if not marked:
+            return {}, []
+        names = [name for name in (self.schema or {}) if name in self._arrays]
+        if self.schema is None or len(names) < len(self.schema):
+            return {}, marked
+        rows, digests = _read(self._arrays[ROWS]), _read(self._arrays[DIGEST])
+        whole = {name: _read(self._arrays[name]) for name in names}  # one read per field
+        good, damaged = {}, []
+        for k in marked:
+            a, b = self.bounds(k)
+            fields = {}
+            for name in names:
+                values = whole[name]
+                fields[name] = values[a:b] if values is not None else _read(self._arrays[name], a, b)
+            row = rows[k] if rows is not None else _read(self._arrays[ROWS], k, k + 1)
+            digest = digests[k] if digests is not None else _read(self._arrays[DIGEST], k, k + 1)
+            sound = (row is not None and digest is not None and all(v is not None for v in fields.values())
+                     and np.array_equal(np.ravel(row), [a, b])
+                     and np.array_equal(np.ravel(digest), chunk_digest(k, a, b, self.n, fields)))
+            if sound:
+                good[k] = fields
+            else:
+                damaged.append(k)
+        return good, damaged
+
+    def warn_damage(self, damaged) -> None:
+        """Warn that the store needed repair and which chunks are recomputed."""
+        if not self.repairs and not damaged:
+            return
+        parts = list(dict.fromkeys(self.repairs))
+        if damaged:
+            shown = ", ".join(str(k) for k in damaged[:10]) + (", ..." if len(damaged) > 10 else "")
+            parts.append(f"{len(damaged)} finished chunk(s) fail their checksum or cannot be read "
+                         f"(chunk {shown})")
+        warnings.warn(f"store {self.where} is damaged: {'; '.join(parts)}; chunks that fail their "
+                      "checksum are recomputed, never mixed into the result", stacklevel=3)
 
     def write(self, k: int, fields: dict, info=None) -> None:
-        """Record chunk ``k``: each field's rows, then (after all of them) its done flag.
+        """Record chunk ``k``: each field's rows, then its coordinates and checksum, then
+        (after all of them) its done flag.
 
         Parameters
         ----------
@@ -171,36 +347,61 @@ class ScanStore:
             JSON-able description kept once, from the first chunk that has one.
         """
         start, stop = self.bounds(k)
+        fields = {name: np.asarray(values) for name, values in fields.items()}
         for name, values in fields.items():
-            values = np.asarray(values)
             if values.dtype == object or values.dtype.kind not in "biuf":
                 raise ParameterError(f"store {self.where}: field {name!r} holds {values.dtype} values; "
                                      "a store keeps numbers only")
-            arr = self._arrays.get(name)
-            if arr is None:
-                fill = np.nan if values.dtype.kind == "f" else 0
-                arr = self.group.create_array(name, shape=(self.n,) + values.shape[1:],
-                                              chunks=(self.chunk,) + values.shape[1:], dtype=values.dtype,
-                                              fill_value=fill)
-                self._arrays[name] = arr
-            if tuple(arr.shape[1:]) != values.shape[1:]:
-                raise ParameterError(f"store {self.where}: field {name!r} has rows of shape "
-                                     f"{tuple(arr.shape[1:])} in the store, {values.shape[1:]} now")
-            arr[start:stop] = values
+        schema = {name: (values.dtype, values.shape[1:]) for name, values in fields.items()}
+        if self.schema is None:
+            self._set_schema(schema)
+        elif schema != self.schema:
+            raise DataFileError(f"store {self.where}: it holds result fields {_show(self.schema)}, this "
+                                f"scan gives {_show(schema)} (another version of phaselab?); use a new "
+                                "store")
+        for name, values in fields.items():
+            self._arrays[name][start:stop] = values
         if info is not None and not self._has_info:
             self.group.attrs.update({INFO_KEY: json.dumps(info, allow_nan=True, default=str)})
             self._has_info = True
+        self._arrays[ROWS][k] = [start, stop]
+        self._arrays[DIGEST][k] = chunk_digest(k, start, stop, self.n, fields)
         self._arrays[DONE][k] = 1
 
-    def read(self, names=None) -> dict:
-        """The stored fields as full arrays (rows of unfinished chunks hold fill values)."""
-        names = [k for k in self._arrays if k != DONE] if names is None else names
-        return {name: np.asarray(self._arrays[name][:]) for name in names}
+    def _set_schema(self, schema: dict) -> None:
+        """Record the result fields and make their arrays (replacing any left over)."""
+        for name, (dt, shape) in schema.items():
+            self._drop(name)
+            self._arrays[name] = self.group.create_array(name, shape=(self.n,) + shape,
+                                                         chunks=(self.chunk,) + shape, dtype=dt,
+                                                         fill_value=np.nan if dt.kind == "f" else 0)
+        text = json.dumps({name: [dt.str, list(shape)] for name, (dt, shape) in schema.items()})
+        self.group.attrs.update({FIELDS_KEY: text})
+        self.schema = schema
 
-    def read_chunk(self, k: int) -> dict:
-        """The fields of one finished chunk."""
-        start, stop = self.bounds(k)
-        return {name: np.asarray(arr[start:stop]) for name, arr in self._arrays.items() if name != DONE}
+
+def _show(schema: dict) -> str:
+    return ", ".join(f"{name} {dt.name}{list(shape) if shape else ''}" for name, (dt, shape) in
+                     sorted(schema.items()))
 
 
-__all__ = ["ScanStore", "seeds_digest"]
+def _head(text, where: str) -> dict:
+    """The scan record, checked: a dict with this format, whole ``n >= 0`` and ``chunk >= 1``."""
+    try:
+        head = json.loads(text)
+    except (TypeError, ValueError, RecursionError):
+        head = None
+    if not isinstance(head, dict):
+        raise DataFileError(f"store {where}: its scan record is damaged; give a new folder")
+    if head.get("format") != FORMAT:
+        raise DataFileError(f"store {where}: written in another store format ({head.get('format')!r}, "
+                            f"this version reads {FORMAT}, whose chunks carry checksums); give a new "
+                            "folder")
+    n, chunk = head.get("n"), head.get("chunk")
+    if not (_whole(n) and n >= 0 and _whole(chunk) and chunk >= 1):
+        raise DataFileError(f"store {where}: its scan record is damaged (n = {n!r}, chunk = {chunk!r}); "
+                            "give a new folder")
+    return head
+
+
+__all__ = ["ScanStore", "seeds_digest", "chunk_digest"]

@@ -5,7 +5,7 @@ gives (relative, no ``..``, plain characters, at most 4 folders deep) and that t
 inside the output folder. :func:`open_output_folder` then opens the folder a file goes into
 by walking from the output folder one part at a time through directory handles, never
 following a symbolic link, so a link swapped in after the check cannot redirect the write;
-the file itself is written through that handle (:mod:`phaselab.base.files`).
+the file itself is written through that handle (:mod:`phaselab.base.atomic`).
 """
 
 from __future__ import annotations

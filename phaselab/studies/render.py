@@ -256,7 +256,7 @@ def write_outputs(study: Study, sec, out_dir, orbits=None, manifolds=()) -> list
     Each path is checked to resolve inside ``out_dir``; the file is then written through a
     handle on its folder, opened part by part without following links
     (:func:`~phaselab.studies.paths.open_output_folder`), as a temporary file renamed into
-    place (:func:`~phaselab.base.files.atomic_path`). A link swapped in after the check
+    place (:func:`~phaselab.base.atomic.atomic_path`). A link swapped in after the check
     cannot redirect the write, and an interrupted write leaves the previous file intact.
 
     Returns
@@ -265,7 +265,7 @@ def write_outputs(study: Study, sec, out_dir, orbits=None, manifolds=()) -> list
         The files written (their resolved paths under ``out_dir``).
     """
     from phaselab.export import save
-    from phaselab.base.files import folder_path
+    from phaselab.base.atomic import folder_path
 
     files = []
     f = Fields(study.source)
@@ -349,7 +349,7 @@ class _StructureFigure:
         import matplotlib
 
         from phaselab.export.figures import REPORT_RC
-        from phaselab.base.files import atomic_path
+        from phaselab.base.atomic import atomic_path
 
         with matplotlib.rc_context(REPORT_RC), atomic_path(path) as tmp:
             self.figure.savefig(tmp, format=Path(path).suffix[1:].lower(), dpi=self.dpi, facecolor="white")
