@@ -33,6 +33,8 @@ import warnings
 from pathlib import Path
 from types import ModuleType
 
+from phaselab.base.atomic import atomic_path
+
 _folder: list[Path] = []
 _loaded: dict[str, ModuleType] = {}
 
@@ -130,17 +132,8 @@ def codegen_fingerprint() -> str:
 
 
 def _write_atomic(path: Path, text: str) -> None:
-    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.stem}-", suffix=".tmp")
-    try:
-        with os.fdopen(fd, "w") as fh:
-            fh.write(text)
-        os.replace(tmp, path)
-    except BaseException:
-        try:
-            os.unlink(tmp)
-        except OSError:
-            pass
-        raise
+    with atomic_path(path) as tmp:
+        tmp.write_text(text)
 
 
 def discard_machine_code(folder: Path, name: str) -> None:

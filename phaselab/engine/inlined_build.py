@@ -34,7 +34,7 @@ import threading
 import time
 from pathlib import Path
 
-from phaselab.base.atomic import process_gone
+from phaselab.base.atomic import atomic_path, process_gone
 
 BUILD_TIMEOUT = 1800.0
 """Seconds after which a background build is abandoned."""
@@ -199,10 +199,8 @@ def build(job: dict) -> dict:
         known += [s for s in sigs if s not in known]
     folder = cache_dir()
     target = Path(folder) / f"{job['name']}.ready.json"
-    fd, tmp = tempfile.mkstemp(dir=folder, prefix=f".ready-{os.getpid()}-", suffix=".tmp")
-    with os.fdopen(fd, "w") as fh:
-        json.dump(marker, fh)
-    os.replace(tmp, target)
+    with atomic_path(target) as tmp:
+        tmp.write_text(json.dumps(marker))
     return done
 
 

@@ -13,6 +13,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from phaselab.base.atomic import atomic_path
 from phaselab.widgets import theme
 
 
@@ -124,8 +125,6 @@ def view_figure(snap: Snapshot, size=(7.2, 5.4), dpi=150):
 
 def write_figure(snap: Snapshot, path, dpi=150):
     """Write the picture of ``snap`` to ``path`` (.png, .svg or .pdf), atomically."""
-    import os
-    import tempfile
     from pathlib import Path
 
     import matplotlib
@@ -139,14 +138,6 @@ def write_figure(snap: Snapshot, path, dpi=150):
     if not path.parent.exists():
         raise PhaselabError(f"cannot save to {path}: folder {path.parent} does not exist")
     fig = view_figure(snap, dpi=dpi)
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.stem}.", suffix=path.suffix, dir=path.parent)
-    os.close(fd)
-    try:
-        with matplotlib.rc_context({"svg.fonttype": "none", "pdf.fonttype": 42}):
-            fig.savefig(tmp, format=fmt, dpi=dpi, facecolor="white")
-        os.chmod(tmp, 0o644)
-        os.replace(tmp, path)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
+    with atomic_path(path) as tmp, matplotlib.rc_context({"svg.fonttype": "none", "pdf.fonttype": 42}):
+        fig.savefig(tmp, format=fmt, dpi=dpi, facecolor="white")
     return path
