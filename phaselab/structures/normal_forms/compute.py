@@ -1,0 +1,179 @@
+"""phaselab.normal_form: Birkhoff's or a resonant normal form at an elliptic equilibrium."""
+
+from __future__ import annotations
+
+import numbers
+
+import numpy as np
+import sympy as sp
+
+from phaselab.errors import ModelError, ParameterError
+from phaselab.model.hamiltonian import Hamiltonian
+from phaselab.structures.normal_forms.expansion import check_size, taylor
+from phaselab.structures.normal_forms.lie import ResonanceRule, normalise, transformations
+from phaselab.structures.normal_forms.linear import diagonalise, hessian
+from phaselab.structures.normal_forms.polynomials import split_degrees, substitute_linear
+from phaselab.structures.normal_forms.result import NormalForm
+from phaselab.structures.normal_forms.terms import collect_terms
+
+MAX_ORDER = 16
+"""Highest order accepted (the size budget of :mod:`.expansion` usually binds first)."""
+GRADIENT_TOLERANCE = 1e-8
+"""Largest |grad H| at ``at``, relative to 1 + |Hess H|, for it to count as an equilibrium."""
+ARITHMETICS = ("auto", "exact", "float")
+
+
+def normal_form(system, at, order: int, *, resonances=None, params=None, arithmetic: str = "auto") -> NormalForm:
+    """The normal form of an autonomous Hamiltonian flow near an elliptic equilibrium.
+
+    The equilibrium is moved to the origin, H is expanded to degree ``order``, the
+    quadratic part is brought to ``sum omega_k J_k`` (Williamson's normal form), and the
+    terms of degree 3..order are removed one degree at a time by Lie series generators
+    (the homological equation), except those with ``k . omega = 0`` for ``k`` in the
+    span of ``resonances``. Without resonances this is Birkhoff's normal form (actions
+    only); with them a resonant normal form (actions and the resonant angles).
+
+    Parameters
+    ----------
+    system : Hamiltonian
+        An autonomous Hamiltonian (no explicit time).
+    at : Equilibrium or array_like, shape (2n,)
+        The equilibrium, from :func:`phaselab.equilibria` or as a state ``(q, p)``; exact
+        sympy numbers (``sympy.pi``) are kept exact.
+    order : int
+        Highest degree in the distance from the equilibrium (2..16); degree ``2m`` holds
+        the terms of degree ``m`` in the actions.
+    resonances : sequence of sequences of int, optional
+        Resonance vectors ``k`` (length n, whole numbers) whose terms ``k . phi`` are kept,
+        e.g. ``[(1, -2)]`` when ``omega_1 = 2 omega_2``.
+    params : mapping, optional
+        Parameter values by name (defaults otherwise).
+    arithmetic : {"auto", "exact", "float"}
+        ``"auto"`` computes with rationals when every Taylor coefficient is rational and
+        the frequencies come out rational from an uncoupled quadratic part (parameters are
+        read as the exact decimals they print as), floating point otherwise;
+        ``"exact"`` insists on rationals (ParameterError when the input is not exact).
+
+    Returns
+    -------
+    NormalForm
+
+    Raises
+    ------
+    ParameterError
+        A bad argument, or an order whose polynomials exceed the size budget.
+    ModelError
+        A time-dependent system or a map, a point that is not an equilibrium, an
+        equilibrium that is not elliptic, or a resonance met that was not asked for.
+    """
+    _check_system(system)
+    n = system.dof
+    order = _check_order(order)
+    if arithmetic not in ARITHMETICS:
+        raise ParameterError(f"arithmetic must be one of {', '.join(ARITHMETICS)}, got {arithmetic!r}")
+    rule_vectors = _check_resonances(resonances, n)
+    point = _point(at, 2 * n)
+    check_size(n, order)
+    values = system.param_values(params)
+    want_exact = arithmetic != "float"
+    subs = {s: (sp.Rational(repr(float(v))) if want_exact else sp.Float(float(v), 17))
+            for s, v in zip(system.param_symbols, values)}
+    if not want_exact:
+        point = [sp.Float(float(v), 17) for v in point]
+    coeffs = taylor(system.expr.xreplace(subs), system.state_symbols, point, order)
+    exact = want_exact and all(c.is_Rational for c in coeffs.values())
+    note = "every Taylor coefficient and frequency is rational"
+    if not exact:
+        note = ("asked for floating point" if not want_exact else
+                "the equilibrium or a Taylor coefficient is not an exact rational")
+        coeffs = {k: sp.Float(c, 17) for k, c in coeffs.items()}
+    _check_gradient(coeffs, 2 * n)
+    diag = diagonalise(hessian(coeffs, 2 * n), exact)
+    if exact and not diag.arithmetic.exact:
+        note = "the quadratic part is coupled or its frequencies are irrational"
+    if arithmetic == "exact" and not diag.arithmetic.exact:
+        raise ParameterError(f"exact arithmetic is not possible here: {note}; use arithmetic='auto' or 'float'")
+    ar = diag.arithmetic
+    higher = {k: ar.number(c) for k, c in coeffs.items() if sum(k) >= 3}
+    series = split_degrees(substitute_linear(higher, diag.to_real, ar.zero))
+    series[2] = diag.quadratic()
+    result = normalise(series, diag, order, ResonanceRule(rule_vectors, n))
+    forward, backward = transformations(result.generators, diag, max(order - 1, 1))
+    energy0 = coeffs.get((0,) * (2 * n), sp.Integer(0))
+    return NormalForm(
+        order=order, dof=n, omega=diag.omega_float,
+        omega_exact=tuple(sp.Rational(w.numerator, w.denominator) for w in diag.omega) if ar.exact else None,
+        arithmetic=ar.name, arithmetic_note=note, resonances=tuple(tuple(r) for r in rule_vectors),
+        equilibrium=np.array([float(v) for v in point]), energy0=energy0 if ar.exact else sp.Float(energy0, 15),
+        terms=collect_terms(result.series, diag.scales, ar, n), small_divisors=result.small_divisors,
+        names=tuple(s.name for s in system.state_symbols), system_name=system.name,
+        params=dict(zip([p.name for p in system.parameters], map(float, values))),
+        to_complex=diag.to_complex_array, to_real=diag.to_real_array, scales=diag.scales_float,
+        old_of_new=forward, new_of_old=backward)
+
+
+def _check_system(system) -> None:
+    if not isinstance(system, Hamiltonian):
+        kind = getattr(system, "kind", None)
+        if kind == "map":
+            raise ModelError("normal_form works on Hamiltonian flows; normal forms of maps are not available")
+        raise ParameterError(f"system must be a phaselab Hamiltonian, got {type(system).__name__}")
+    if not system.is_autonomous:
+        raise ModelError("normal_form needs an autonomous Hamiltonian; this one depends on time explicitly")
+
+
+def _check_order(order) -> int:
+    if isinstance(order, bool) or not isinstance(order, numbers.Integral):
+        raise ParameterError(f"order must be a whole number, got {order!r}")
+    if not 2 <= int(order) <= MAX_ORDER:
+        raise ParameterError(f"order must be between 2 and {MAX_ORDER}, got {order}")
+    return int(order)
+
+
+def _check_resonances(resonances, n: int) -> list:
+    if resonances is None:
+        return []
+    try:
+        vectors = [tuple(r) for r in resonances]
+    except TypeError:
+        raise ParameterError("resonances must be a list of integer vectors such as [(1, -2)]") from None
+    for r in vectors:
+        if len(r) != n or not all(isinstance(x, numbers.Integral) and not isinstance(x, bool) for x in r):
+            raise ParameterError(f"each resonance must be {n} whole numbers (one per degree of freedom), got {r!r}")
+        if not any(r):
+            raise ParameterError("a resonance vector must not be all zeros")
+    return [tuple(int(x) for x in r) for r in vectors]
+
+
+def _point(at, m: int) -> list:
+    state = getattr(at, "state", at)
+    stability = getattr(at, "stability", None)
+    if stability is not None and stability != "elliptic":
+        raise ModelError(f"the equilibrium is {stability}, not elliptic; normal_form needs an elliptic one")
+    try:
+        items = list(np.ravel(np.asarray(state, dtype=object)))
+    except Exception:
+        raise ParameterError("at must be an Equilibrium or a state vector") from None
+    if len(items) != m:
+        raise ParameterError(f"at must have {m} components (q then p), got {len(items)}")
+    out = []
+    for v in items:
+        if isinstance(v, sp.Basic):
+            if not (v.is_number and v.is_real and v.is_finite):
+                raise ParameterError(f"at holds {v}, not a finite real number")
+            out.append(v)
+        elif isinstance(v, numbers.Real) and not isinstance(v, bool):
+            if not np.isfinite(float(v)):
+                raise ParameterError("at must be finite")
+            f = float(v)
+            out.append(sp.Integer(int(f)) if f == int(f) and abs(f) < 2 ** 53 else sp.Float(f, 17))
+        else:
+            raise ParameterError(f"at must hold real numbers, got {v!r}")
+    return out
+
+
+def _check_gradient(coeffs: dict, m: int) -> None:
+    grad = [float(abs(coeffs.get(tuple(1 if t == i else 0 for t in range(m)), 0))) for i in range(m)]
+    hess = max([float(abs(c)) for k, c in coeffs.items() if sum(k) == 2] + [0.0])
+    if max(grad) > GRADIENT_TOLERANCE * (1 + hess):
+        raise ModelError(f"the point is not an equilibrium: |grad H| = {max(grad):.3g} there")
