@@ -8,6 +8,7 @@ what the polynomial code needs from either kind (zero, the unit i, conversion, t
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 from fractions import Fraction
 
@@ -15,68 +16,99 @@ import sympy as sp
 
 
 class GaussianRational:
-    """``re + i im`` with rational ``re`` and ``im`` (exact)."""
+    """``(a + i b) / d`` with whole ``a``, ``b`` and ``d > 0`` in lowest terms (exact).
 
-    __slots__ = ("re", "im")
+    Stored as three Python integers (one shared denominator) rather than two Fractions:
+    a product costs four integer products and one gcd.
+    """
+
+    __slots__ = ("a", "b", "d")
 
     def __init__(self, re=0, im=0):
-        self.re = re if isinstance(re, Fraction) else Fraction(re)
-        self.im = im if isinstance(im, Fraction) else Fraction(im)
+        re, im = Fraction(re), Fraction(im)
+        d = re.denominator * im.denominator // math.gcd(re.denominator, im.denominator)
+        self.a = re.numerator * (d // re.denominator)
+        self.b = im.numerator * (d // im.denominator)
+        self.d = d
+
+    @classmethod
+    def _raw(cls, a: int, b: int, d: int) -> "GaussianRational":
+        g = math.gcd(math.gcd(a, b), d)
+        out = object.__new__(cls)
+        if g > 1:
+            a, b, d = a // g, b // g, d // g
+        out.a, out.b, out.d = a, b, d
+        return out
 
     @staticmethod
     def _of(other) -> "GaussianRational":
         if isinstance(other, GaussianRational):
             return other
-        return GaussianRational(Fraction(other), 0)
+        if isinstance(other, int):
+            return GaussianRational._raw(other, 0, 1)
+        f = Fraction(other)
+        return GaussianRational._raw(f.numerator, 0, f.denominator)
+
+    @property
+    def re(self) -> Fraction:
+        return Fraction(self.a, self.d)
+
+    @property
+    def im(self) -> Fraction:
+        return Fraction(self.b, self.d)
 
     def __add__(self, other):
         o = self._of(other)
-        return GaussianRational(self.re + o.re, self.im + o.im)
+        if self.d == o.d:
+            return GaussianRational._raw(self.a + o.a, self.b + o.b, self.d)
+        return GaussianRational._raw(self.a * o.d + o.a * self.d, self.b * o.d + o.b * self.d, self.d * o.d)
 
     __radd__ = __add__
 
     def __sub__(self, other):
-        o = self._of(other)
-        return GaussianRational(self.re - o.re, self.im - o.im)
+        return self + (-self._of(other))
 
     def __rsub__(self, other):
         return self._of(other) - self
 
     def __neg__(self):
-        return GaussianRational(-self.re, -self.im)
+        out = object.__new__(GaussianRational)
+        out.a, out.b, out.d = -self.a, -self.b, self.d
+        return out
 
     def __mul__(self, other):
-        if isinstance(other, GaussianRational):
-            return GaussianRational(self.re * other.re - self.im * other.im,
-                                    self.re * other.im + self.im * other.re)
-        f = Fraction(other)
-        return GaussianRational(self.re * f, self.im * f)
+        o = self._of(other)
+        return GaussianRational._raw(self.a * o.a - self.b * o.b, self.a * o.b + self.b * o.a, self.d * o.d)
 
     __rmul__ = __mul__
 
     def __truediv__(self, other):
         o = self._of(other)
-        den = o.re * o.re + o.im * o.im
-        if den == 0:
+        norm = o.a * o.a + o.b * o.b
+        if norm == 0:
             raise ZeroDivisionError("division of a Gaussian rational by zero")
-        return GaussianRational((self.re * o.re + self.im * o.im) / den,
-                                (self.im * o.re - self.re * o.im) / den)
+        # (a + ib)/d / ((c + ie)/f) = (a + ib)(c - ie) f / (d (c^2 + e^2))
+        a = (self.a * o.a + self.b * o.b) * o.d
+        b = (self.b * o.a - self.a * o.b) * o.d
+        return GaussianRational._raw(a, b, self.d * norm)
 
     def __eq__(self, other):
-        o = self._of(other) if isinstance(other, (int, Fraction, GaussianRational)) else None
-        return o is not None and self.re == o.re and self.im == o.im
+        if not isinstance(other, (int, Fraction, GaussianRational)):
+            return NotImplemented
+        o = self._of(other)
+        return self.a == o.a and self.b == o.b and self.d == o.d
 
     def __hash__(self):
-        return hash((self.re, self.im))
+        return hash((self.a, self.b, self.d))
 
     def __bool__(self):
-        return bool(self.re) or bool(self.im)
+        return bool(self.a) or bool(self.b)
 
     def __complex__(self):
-        return complex(float(self.re), float(self.im))
+        return complex(self.a / self.d, self.b / self.d)
 
     def conjugate(self) -> "GaussianRational":
-        return GaussianRational(self.re, -self.im)
+        return GaussianRational._raw(self.a, -self.b, self.d)
 
     def __repr__(self):
         return f"GaussianRational({self.re}, {self.im})"
