@@ -98,7 +98,9 @@ def normal_form(system, at, order: int, *, resonances=None, params=None, arithme
     series = split_degrees(substitute_linear(higher, diag.to_real, ar.zero))
     series[2] = diag.quadratic()
     result = normalise(series, diag, order, ResonanceRule(rule_vectors, n))
-    forward, backward = transformations(result.generators, diag, max(order - 1, 1))
+    # the change of variables is only ever evaluated in floating point: build it so
+    numeric = [(r, {k: complex(v) for k, v in chi.items()}) for r, chi in result.generators]
+    forward, backward = transformations(numeric, diag.as_float(), max(order - 1, 1))
     energy0 = coeffs.get((0,) * (2 * n), sp.Integer(0))
     return NormalForm(
         order=order, dof=n, omega=diag.omega_float,

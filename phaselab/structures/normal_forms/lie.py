@@ -148,8 +148,9 @@ def transformations(generators: list, diag, top: int) -> tuple[list, list]:
     def identity(j):
         return {1: {tuple(1 if t == j else 0 for t in range(m)): one}}
 
+    n = m // 2
     forward, backward = [], []
-    for j in range(m):
+    for j in range(n):  # the eta components are the conjugates of the xi ones (H is real)
         f = identity(j)
         for r, chi in generators:
             f = lie_exp(f, chi, r, top, factors, recip)
@@ -158,7 +159,14 @@ def transformations(generators: list, diag, top: int) -> tuple[list, list]:
         for r, chi in reversed(generators):
             g = lie_exp(g, {k: -c for k, c in chi.items()}, r, top, factors, recip)
         backward.append(_flatten(g))
+    forward += [_conjugate(f, n) for f in forward]
+    backward += [_conjugate(g, n) for g in backward]
     return forward, backward
+
+
+def _conjugate(poly: dict, n: int) -> dict:
+    """The complex conjugate of a polynomial on real states (``xi`` and ``eta`` swap)."""
+    return {key[n:] + key[:n]: c.conjugate() for key, c in poly.items()}
 
 
 def _flatten(series: dict) -> dict:

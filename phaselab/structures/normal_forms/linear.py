@@ -68,6 +68,12 @@ class Diagonal:
     def to_real_array(self) -> np.ndarray:
         return np.array([[complex(c) for c in row] for row in self.to_real])
 
+    def as_float(self) -> "Diagonal":
+        """The same change of coordinates in floating arithmetic."""
+        return Diagonal(FLOAT, [float(w) for w in self.omega], [float(s) for s in self.scales],
+                        [[complex(c) for c in row] for row in self.to_complex],
+                        [[complex(c) for c in row] for row in self.to_real])
+
     def quadratic(self) -> dict:
         """``H2 = sum omega_k xi_k eta_k / s_k`` as a polynomial in ``u``."""
         n = len(self.omega)

@@ -61,6 +61,7 @@ def bracket(f: dict, g: dict, factors: list) -> dict:
     """
     n = len(factors)
     out: dict = {}
+    scaled: dict = {}  # factors[k] * weight, computed once per pair
     for a, ca in f.items():
         for b, cb in g.items():
             prod = None
@@ -76,7 +77,10 @@ def bracket(f: dict, g: dict, factors: list) -> dict:
                 key[k] -= 1
                 key[n + k] -= 1
                 key = tuple(key)
-                term = prod * (factors[k] * weight)
+                fw = scaled.get((k, weight))
+                if fw is None:
+                    fw = scaled[(k, weight)] = factors[k] * weight
+                term = prod * fw
                 out[key] = out[key] + term if key in out else term
     return prune(out)
 
