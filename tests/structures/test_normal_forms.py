@@ -277,3 +277,44 @@ def test_bad_arguments_and_models(hh):
         nf.frequencies([[0.1, 0.2]])
     with pytest.raises(ParameterError, match=">= 0"):
         nf.frequencies([[-0.1]])
+
+
+# ----------------------------------------------------------------------------- island width
+def detuned_two_to_one():
+    """omega = (1, 21/10) with a quartic twist in mode 1: the 2:1 resonance 2 w1 = w2 is met
+    at J1 ~ 0.17, away from the equilibrium, where the cubic coupling makes an island."""
+    H = ((p1**2 + q1**2) / 2 + (p2**2 + sp.Rational(21, 10)**2 * q2**2) / 2
+         + sp.Rational(1, 200) * q1**2 * q2 + q1**4 / 10)
+    return phaselab.Hamiltonian(H, [q1, q2], [p1, p2], name="detuned two to one")
+
+
+def test_island_width_of_an_isolated_resonance():
+    """The full width of the 2:1 island from the resonant normal form's pendulum model
+    against integrated orbits (phaselab.trajectory) started on the line J = J* + I k through
+    the island centre: an orbit is inside when its resonant angle 2 phi1 - phi2, read from
+    the linear normal-mode angles phi_k = -arg(omega_k q_k + i p_k) alone (no normal-form
+    transformation, common practice for a resonant angle), librates instead of circulating."""
+    from scipy.optimize import brentq
+
+    system = detuned_two_to_one()
+    nf = phaselab.normal_form(system, [0, 0, 0, 0], 6, resonances=[(2, -1)])
+    J2 = 0.1
+    J1 = brentq(lambda j: nf.frequencies([[j, J2]])[0] @ (2, -1), 1e-3, 1.0)
+    island = nf.resonance_width([J1, J2])
+    assert island.resonance == (2, -1) and abs(island.detuning) < 1e-12
+    half = island.width / 2
+    I = np.concatenate([[0.0], half * np.linspace(0.85, 1.15, 7), -half * np.linspace(0.85, 1.15, 7)])
+    J = np.stack([J1 + 2 * I, J2 - I], axis=1)
+    phi = np.zeros_like(J)
+    phi[:, 0] = island.centre_angle / 2
+    tr = phaselab.trajectory(system, nf.from_normal(J, phi), 5000.0, method="yoshida6")
+    z = tr.states[:, ::25]
+    angles = -np.angle(z[..., :2] * nf.omega + 1j * z[..., 2:])
+    psi = np.unwrap(2 * angles[..., 0] - angles[..., 1], axis=1)
+    librates = np.ptp(psi, axis=1) < 2 * np.pi
+    assert librates[0]
+    for side in (I > 0, I < 0):
+        inside = np.abs(I[side & librates]).max() if np.any(side & librates) else 0.0
+        outside = np.abs(I[side & ~librates]).min()
+        assert inside < outside  # one boundary on each side
+        assert 0.85 * half <= inside + 1e-12 and outside <= 1.15 * half + 1e-12

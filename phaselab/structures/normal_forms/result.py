@@ -11,6 +11,7 @@ import sympy as sp
 
 from phaselab.base.files import atomic_path
 from phaselab.errors import ParameterError
+from phaselab.structures.normal_forms.islands import resonance_width
 from phaselab.structures.normal_forms.polynomials import as_arrays, evaluate
 from phaselab.structures.normal_forms.terms import evaluate_terms, term_arrays
 
@@ -187,6 +188,18 @@ class NormalForm:
         w = np.concatenate([amp * np.exp(-1j * phi), amp * np.exp(1j * phi)], axis=1)
         u = np.stack([evaluate(e, c, w) for e, c in self._forward], axis=1)
         return self.equilibrium + (u @ self.to_real.T).real
+
+    def resonance_width(self, J, resonance=None):
+        """The island of an isolated resonance at actions ``J`` (shape (n,)), from the
+        pendulum model of the resonant normal form: full width in the action along the
+        resonance vector and in each ``J_j``, the detuning and the centres' resonant angle.
+        See :mod:`phaselab.structures.normal_forms.islands`.
+
+        Returns
+        -------
+        ResonanceWidth
+        """
+        return resonance_width(self._arrays, self.resonances, J, resonance)
 
     # ----------------------------------------------------------------- reports
     def table(self) -> list[dict]:
