@@ -44,7 +44,7 @@ def row(system, order: int, arithmetic: str) -> str:
     t = time.perf_counter()
     nf = normal_form(system, [0] * (2 * system.dof), order, arithmetic=arithmetic)
     elapsed = time.perf_counter() - t
-    change = sum(len(e) for e, _ in nf._forward) + sum(len(e) for e, _ in nf._backward)  # noqa: SLF001
+    change = nf.transformation_terms
     return (f"  order {order:2d}  {arithmetic:5s}  {elapsed:8.3f} s   {len(nf.terms):4d} terms   "
             f"{change:6d} monomials in the change of variables   smallest divisor "
             f"{min(nf.small_divisors.values()):.3g}"), elapsed

@@ -318,3 +318,54 @@ def test_island_width_of_an_isolated_resonance():
         outside = np.abs(I[side & ~librates]).min()
         assert inside < outside  # one boundary on each side
         assert 0.85 * half <= inside + 1e-12 and outside <= 1.15 * half + 1e-12
+
+
+def test_birkhoff_form_does_not_depend_on_linear_coordinates():
+    """Birkhoff's normal form of non-resonant frequencies is unique (a fact of the trade), so
+    rotating the coordinates (q, p) -> (R q, R p), a symplectic change that couples the
+    quadratic part, must give the same coefficients: the floating route (eigenvectors of
+    J Hess H, numpy) against the exact route on the uncoupled form."""
+    Q1, Q2, P1, P2 = sp.symbols("Q1 Q2 P1 P2", real=True)
+    w2 = sp.Rational(7, 5)
+    H = (P1**2 + P2**2 + Q1**2 + w2**2 * Q2**2) / 2 + Q1**2 * Q2 / 3 + Q2**4 / 5 - Q1 * Q2**3 / 7
+    plain = phaselab.Hamiltonian(H, [Q1, Q2], [P1, P2])
+    c, s = sp.Rational(3, 5), sp.Rational(4, 5)  # a rotation with rational entries
+    turned = H.xreplace({Q1: c * q1 - s * q2, Q2: s * q1 + c * q2, P1: c * p1 - s * p2, P2: s * p1 + c * p2})
+    rotated = phaselab.Hamiltonian(sp.expand(turned), [q1, q2], [p1, p2])
+    exact = phaselab.normal_form(plain, [0, 0, 0, 0], 6)
+    numeric = phaselab.normal_form(rotated, [0, 0, 0, 0], 6)
+    assert exact.arithmetic == "exact" and numeric.arithmetic == "float"
+    assert np.allclose(numeric.omega, [1, 1.4])
+    a = {(t.powers, t.harmonic): float(t.cos_coef) for t in exact.terms}
+    b = {(t.powers, t.harmonic): float(t.cos_coef) for t in numeric.terms}
+    assert a.keys() == b.keys()
+    assert max(abs(a[k] - b[k]) for k in a) < 1e-10
+
+
+def test_negative_energy_mode():
+    """An elliptic equilibrium whose quadratic part is indefinite (H2 = J1 - (3/2) J2) keeps
+    a negative frequency; the exact and floating routes agree (numpy's eigenvectors against
+    the closed form)."""
+    H = (p1**2 + q1**2) / 2 - (p2**2 + sp.Rational(9, 4) * q2**2) / 2 + q1**2 * q2
+    system = phaselab.Hamiltonian(H, [q1, q2], [p1, p2])
+    exact = phaselab.normal_form(system, [0, 0, 0, 0], 4)
+    numeric = phaselab.normal_form(system, [0, 0, 0, 0], 4, arithmetic="float")
+    assert exact.omega_exact == (1, sp.Rational(-3, 2))
+    assert np.allclose(numeric.omega, [1, -1.5])
+    for t, u in zip(exact.terms, numeric.terms):
+        assert t.powers == u.powers and abs(float(t.cos_coef) - float(u.cos_coef)) < 1e-12
+    J = np.array([[1e-3, 2e-3]])
+    phi = np.array([[0.4, -2.0]])
+    back = numeric.to_normal(exact.from_normal(J, phi))
+    assert np.allclose(back[0], J, rtol=1e-3)
+
+
+def test_one_degree_of_freedom_has_no_resonance_and_states_must_be_finite():
+    system = pendulum_unit()
+    with pytest.raises(ParameterError, match="one degree of freedom"):
+        phaselab.normal_form(system, [0, 0], 4, resonances=[(1,)])
+    nf = phaselab.normal_form(system, [0, 0], 4)
+    with pytest.raises(ParameterError, match="finite"):
+        nf.to_normal([[np.nan, 0.0]])
+    with pytest.raises(ModelError, match="no resonance"):
+        nf.resonance_width([0.1])

@@ -135,6 +135,9 @@ def _check_order(order) -> int:
 def _check_resonances(resonances, n: int) -> list:
     if resonances is None:
         return []
+    if n == 1 and len(list(resonances)):
+        raise ParameterError("a system of one degree of freedom has no resonances (k . omega = k omega is "
+                             "never zero); leave resonances out")
     try:
         vectors = [tuple(r) for r in resonances]
     except TypeError:

@@ -21,8 +21,11 @@ import sympy as sp
 from phaselab.errors import ModelError, ParameterError
 from phaselab.model.limits import MAX_TREE_NODES, expanded_terms, tree_size
 
-MAX_TERMS = 5_000
-"""Most monomials a Taylor polynomial (and so each polynomial of the normal form) may have."""
+MAX_TERMS = 3_100
+"""Most monomials a Taylor polynomial (and so each polynomial of the normal form) may have.
+The work of the Lie series grows about as the square of this count: at the cap (2 degrees of
+freedom to order 14, 3 to order 8, 4 to order 6) a normal form takes of the order of half a
+minute in exact arithmetic on one core (benchmarks/normal_form_benchmark.py)."""
 MAX_EXPANDED = 50_000
 """Most terms the expansion of a shifted polynomial H may produce."""
 

@@ -78,6 +78,11 @@ class NormalForm:
         self._forward = [as_arrays(p, m) for p in self.old_of_new]
         self._backward = [as_arrays(p, m) for p in self.new_of_old]
 
+    @property
+    def transformation_terms(self) -> int:
+        """Monomials in the change of variables, both directions, all ``2n`` components."""
+        return int(sum(len(c) for _, c in self._forward) + sum(len(c) for _, c in self._backward))
+
     # ----------------------------------------------------------------- symbolic
     @property
     def actions(self) -> tuple:
@@ -168,6 +173,8 @@ class NormalForm:
         z = np.atleast_2d(z)
         if z.ndim != 2 or z.shape[1] != 2 * self.dof:
             raise ParameterError(f"states must have shape (m, {2 * self.dof}), got {np.shape(states)}")
+        if not np.all(np.isfinite(z)):
+            raise ParameterError("states must be finite")
         u = (z - self.equilibrium) @ self.to_complex.T
         w = np.stack([evaluate(e, c, u) for e, c in self._backward], axis=1)
         n = self.dof
