@@ -135,6 +135,26 @@ def test_henon_heiles_resonant_form_on_the_y_axis_family(hh):
     assert gap[0] < 2e-5 and gap[1] < gap[0] / 2.5
 
 
+def test_henon_heiles_resonant_terms_against_measured_frequencies(hh):
+    """All three degree-4 coefficients of the 1:1 form (a J^2 terms, b J1 J2, c J1 J2
+    cos 2(phi1 - phi2)) tested through periodic orbits whose frequencies they fix:
+    the loop orbit (J1 = J2, phi1 - phi2 = pi/2) and the straight-line orbit along the
+    symmetry line at -30 degrees (phi1 = phi2), against frequencies measured by Laskar's
+    method (phaselab.frequencies) on integrated orbits; the gap must fall like J^2."""
+    nf = phaselab.normal_form(hh, [0, 0, 0, 0], 4, resonances=[(1, -1)])
+    seeds = []
+    for j in (0.004, 0.002):
+        seeds.append(nf.from_normal([[j, j]], [[0.0, -np.pi / 2]])[0])  # the loop orbit
+        r = np.sqrt(4 * j)
+        seeds.append([r * np.cos(-np.pi / 6), r * np.sin(-np.pi / 6), 0.0, 0.0])  # a symmetry line
+    seeds = np.array(seeds)
+    measured = 2 * np.pi * phaselab.frequencies(hh, seeds, t=600.0, n=4096).nu
+    J, phi = nf.to_normal(seeds)
+    gap = np.abs(nf.frequencies(J, phi) - measured).max(axis=1)
+    assert gap[0] < 6e-5 and gap[1] < 1.2e-4
+    assert gap[0] / gap[2] > 2.8 and gap[1] / gap[3] > 2.8  # J halves: about 4
+
+
 def test_henon_heiles_normal_form_reproduces_h_to_its_order(hh):
     """H(z) and the normal form at to_normal(z) agree to O(|z|^5) at order 4 and O(|z|^7) at
     order 6 (the change of variables is canonical; reference: the model's own H)."""
