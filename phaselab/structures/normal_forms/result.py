@@ -94,10 +94,8 @@ class NormalForm:
         """The angle symbols ``phi1..phin``."""
         return tuple(sp.Symbol(f"phi{k + 1}", real=True) for k in range(self.dof))
 
-    @property
-    def hamiltonian(self) -> sp.Expr:
-        """H in the normal coordinates, a sympy expression in :attr:`actions` (and
-        :attr:`angles` for resonant forms), constant ``energy0`` included."""
+    def _term_expressions(self) -> list:
+        """The constant, then each term as a sympy expression, in increasing degree."""
         J, phi = self.actions, self.angles
         out = [self.energy0]
         for t in self.terms:
@@ -105,12 +103,19 @@ class NormalForm:
             arg = sum(k * f for k, f in zip(t.harmonic, phi))
             angle = t.cos_coef if not any(t.harmonic) else t.cos_coef * sp.cos(arg) + t.sin_coef * sp.sin(arg)
             out.append(angle * power)
-        return sp.Add(*out)
+        return out
+
+    @property
+    def hamiltonian(self) -> sp.Expr:
+        """H in the normal coordinates, a sympy expression in :attr:`actions` (and
+        :attr:`angles` for resonant forms), constant ``energy0`` included."""
+        return sp.Add(*self._term_expressions())
 
     def latex(self) -> str:
-        """The normal form as a LaTeX equation ``H = ...`` (terms in increasing degree)."""
-        body = sp.latex(self.hamiltonian, order="rev-lex")
-        return f"H = {body}"
+        """The normal form as a LaTeX equation ``H = ...``, terms in increasing degree."""
+        parts = [sp.latex(e) for e in self._term_expressions() if e != 0]
+        text = " + ".join(parts) if parts else "0"
+        return "H = " + text.replace("+ - ", "- ")
 
     # ----------------------------------------------------------------- numeric
     def _actions(self, J, what="J") -> np.ndarray:

@@ -61,7 +61,7 @@ def collect_terms(series: dict, scales: list, arithmetic, dof: int) -> list[Term
             if cos_coef == 0 and sin_coef == 0:
                 continue
             out.append(Term(powers, k, cos_coef, sin_coef, degree))
-    return out
+    return sorted(out, key=lambda t: (t.degree, tuple(-p for p in t.powers), t.harmonic))
 
 
 def _number(s, arithmetic) -> sp.Expr:
