@@ -198,3 +198,40 @@ def evaluate(exponents: np.ndarray, coefficients: np.ndarray, u: np.ndarray) -> 
     for key, c in zip(exponents, coefficients):
         out += c * np.prod(pw[key, :, cols], axis=0)
     return out
+
+
+def truncate(poly: dict, top: int) -> dict:
+    """The terms of total degree at most ``top``."""
+    return {k: c for k, c in poly.items() if sum(k) <= top}
+
+
+def compose(poly: dict, subs: list, top: int, one) -> dict:
+    """``poly(subs_1, ..., subs_m)`` kept up to total degree ``top``.
+
+    Parameters
+    ----------
+    poly : dict
+        A polynomial in m variables.
+    subs : list of m polynomials
+        What each variable becomes (polynomials in the same number of variables, without
+        constant terms, so that truncation is exact).
+    one : coefficient
+        The unit of the arithmetic.
+    """
+    m = len(subs)
+    zero_key = tuple([0] * len(next(iter(subs[0])))) if subs[0] else tuple([0] * m)
+    powers: dict = {tuple([0] * m): {zero_key: one}}
+
+    def power(key):
+        if key in powers:
+            return powers[key]
+        i = next(t for t, e in enumerate(key) if e)
+        lower = list(key)
+        lower[i] -= 1
+        powers[key] = truncate(multiply(power(tuple(lower)), subs[i]), top)
+        return powers[key]
+
+    out: dict = {}
+    for key in sorted(poly, key=sum):
+        add_into(out, power(key), poly[key])
+    return prune(truncate(out, top))
