@@ -290,8 +290,6 @@ def test_bad_arguments_and_models(hh):
     driven = phaselab.Hamiltonian(p**2 / 2 + q**2 / 2 + q * sp.cos(t), [q], [p], time=t)
     with pytest.raises(ModelError, match="autonomous"):
         phaselab.normal_form(driven, [0, 0], 4)
-    with pytest.raises(ModelError, match="maps"):
-        phaselab.normal_form(phaselab.models.standard_map(), [0, 0], 4)
     nf = phaselab.normal_form(system, [0, 0], 4)
     with pytest.raises(ParameterError, match="last axis"):
         nf.frequencies([[0.1, 0.2]])
@@ -389,3 +387,59 @@ def test_one_degree_of_freedom_has_no_resonance_and_states_must_be_finite():
         nf.to_normal([[np.nan, 0.0]])
     with pytest.raises(ModelError, match="no resonance"):
         nf.resonance_width([0.1])
+
+
+# ----------------------------------------------------------------------------- maps
+def test_map_normal_form_of_a_conjugated_twist_map():
+    """A twist map R: (J, phi) -> (J, phi + theta + a J) (in (q, p): a rotation by
+    alpha = theta + a (q^2 + p^2)/2), conjugated by the shear S: p -> p + c q^2. The rotation
+    angle per iterate as a function of the normal-form action is a conjugacy invariant (a
+    fact of the trade), so Birkhoff's normal form of S^-1 R S must give exactly
+    nu(J) = theta + a J: nu_0 = theta, nu_1 = a and no higher terms (the construction is
+    the reference)."""
+    q_, p_ = sp.symbols("q p", real=True)
+    theta, a, c = sp.Integer(1), sp.Rational(3, 10), sp.Rational(2, 5)
+    p1_ = p_ + c * q_**2
+    alpha = theta + a * (q_**2 + p1_**2) / 2
+    q2 = q_ * sp.cos(alpha) + p1_ * sp.sin(alpha)
+    p2 = -q_ * sp.sin(alpha) + p1_ * sp.cos(alpha)
+    twist = phaselab.AreaPreservingMap([q2, p2 - c * q2**2], [q_], [p_], name="sheared twist")
+    nf = phaselab.normal_form(twist, [0, 0], 7)
+    assert nf.kind == "map" and nf.arithmetic == "float"
+    coeffs = {t.powers[0]: float(t.cos_coef) * int(t.powers[0]) for t in nf.terms}  # nu_(k-1)
+    assert abs(coeffs[1] - 1.0) < 1e-12 and abs(coeffs[2] - 0.3) < 1e-10
+    assert all(abs(v) < 1e-9 for k, v in coeffs.items() if k > 2)
+    assert nf.area_defect < 1e-12
+    J = np.array([[1e-3], [2e-2]])
+    assert np.allclose(nf.frequencies(J)[:, 0], 1 + 0.3 * J[:, 0], atol=1e-10)
+
+
+def test_map_detuning_against_measured_tunes(standard_map):
+    """The standard map at K = 1/2 about its elliptic point (pi, 0): the rotation angle per
+    iterate of the normal form against Laskar's frequency analysis of iterated orbits
+    (phaselab.frequencies); order 6 leaves an O(J^3) gap, falling about 8 times when J halves."""
+    nf = phaselab.normal_form(standard_map, [np.pi, 0.0], 6, params={"K": 0.5})
+    assert abs(nf.omega[0] - np.arccos(1 - 0.25)) < 1e-12  # trace of the linear map: 2 - K
+    seeds = np.array([[np.pi + 0.4, 0.0], [np.pi + 0.4 / 2**0.5, 0.0]])
+    measured = 2 * np.pi * phaselab.frequencies(standard_map, seeds, n=4096, params={"K": 0.5}).nu[:, 0]
+    J, _ = nf.to_normal(seeds)
+    gap = np.abs(nf.frequencies(J)[:, 0] - measured)
+    assert gap[0] < 1e-4 and 5 < gap[0] / gap[1] < 12
+    # the action of an orbit stays put, and the wrapped momentum is read modulo 2 pi
+    z = np.array([np.pi + 0.2, 0.0])
+    orbit = [z]
+    for _ in range(300):
+        orbit.append(standard_map.step(orbit[-1], {"K": 0.5}))
+    Jt, _ = nf.to_normal(np.array(orbit))
+    assert np.ptp(Jt) < 1e-6 * Jt.mean()
+
+
+def test_map_errors(standard_map):
+    with pytest.raises(ModelError, match="not elliptic"):
+        phaselab.normal_form(standard_map, [0.0, 0.0], 4, params={"K": 0.5})
+    with pytest.raises(ModelError, match="not a fixed point"):
+        phaselab.normal_form(standard_map, [1.0, 0.0], 4, params={"K": 0.5})
+    with pytest.raises(ModelError, match="resonant"):  # K = 2: a quarter turn per iterate
+        phaselab.normal_form(standard_map, [np.pi, 0.0], 4, params={"K": 2.0})
+    with pytest.raises(ParameterError, match="resonant normal forms of maps"):
+        phaselab.normal_form(standard_map, [np.pi, 0.0], 4, resonances=[(1,)])

@@ -12,6 +12,7 @@ from phaselab.structures.normal_forms.arguments import check_order, check_point,
 from phaselab.structures.normal_forms.expansion import check_size, taylor
 from phaselab.structures.normal_forms.lie import ResonanceRule, normalise, transformations
 from phaselab.structures.normal_forms.linear import diagonalise, hessian
+from phaselab.structures.normal_forms.maps import map_normal_form
 from phaselab.structures.normal_forms.polynomials import split_degrees, substitute_linear
 from phaselab.structures.normal_forms.result import NormalForm
 from phaselab.structures.normal_forms.terms import collect_terms
@@ -64,6 +65,12 @@ def normal_form(system, at, order: int, *, resonances=None, params=None, arithme
         A time-dependent system or a map, a point that is not an equilibrium, an
         equilibrium that is not elliptic, or a resonance met that was not asked for.
     """
+    if getattr(system, "kind", None) == "map" and not isinstance(system, Hamiltonian):
+        if resonances:
+            raise ParameterError("resonant normal forms of maps are not available; leave resonances out")
+        if arithmetic == "exact":
+            raise ParameterError("maps are normalised in floating point; use arithmetic='auto' or 'float'")
+        return map_normal_form(system, at, order, params=params)
     _check_system(system)
     n = system.dof
     order = check_order(order)
@@ -114,9 +121,6 @@ def normal_form(system, at, order: int, *, resonances=None, params=None, arithme
 
 def _check_system(system) -> None:
     if not isinstance(system, Hamiltonian):
-        kind = getattr(system, "kind", None)
-        if kind == "map":
-            raise ModelError("normal_form works on Hamiltonian flows; normal forms of maps are not available")
         raise ParameterError(f"system must be a phaselab Hamiltonian, got {type(system).__name__}")
     if not system.is_autonomous:
         raise ModelError("normal_form needs an autonomous Hamiltonian; this one depends on time explicitly")

@@ -4,9 +4,11 @@ Two routes, both bounded:
 
 * H polynomial in the state: the shifted H is expanded once, after
   :func:`phaselab.model.limits.expanded_terms` has bounded the number of terms it produces.
-* Otherwise: each Taylor coefficient ``D^a H / a!`` is a derivative built from the previous
-  one (one differentiation per monomial) and evaluated at the equilibrium; the number of
-  monomials and the tree size of each derivative are capped.
+* Otherwise: truncated power-series arithmetic over the expression tree
+  (:mod:`.jets`), whose work is bounded by the number of nodes times one truncated product.
+  A node it does not handle (a function of several arguments) sends the expansion to
+  repeated differentiation: each coefficient ``D^a H / a!`` a derivative built from the
+  previous one, with the tree size of each derivative capped.
 
 Past a cap the expansion is refused with a :class:`~phaselab.errors.ParameterError` naming
 what is too large (the order, or the size of H).
@@ -15,11 +17,13 @@ what is too large (the order, or the size of H).
 from __future__ import annotations
 
 import math
+from fractions import Fraction
 
 import sympy as sp
 
 from phaselab.errors import ModelError, ParameterError
 from phaselab.model.limits import MAX_TREE_NODES, expanded_terms, tree_size
+from phaselab.structures.normal_forms.jets import NotRational, Unsupported, jet_taylor
 
 MAX_TERMS = 3_100
 """Most monomials a Taylor polynomial (and so each polynomial of the normal form) may have.
@@ -64,7 +68,18 @@ def taylor(expr: sp.Expr, state: tuple, at: list, order: int) -> dict:
     """
     if expr.is_polynomial(*state):
         return _polynomial_taylor(expr, state, at, order)
-    return _derivative_taylor(expr, state, at, order)
+    if tree_size(expr, limit=MAX_TREE_NODES) > MAX_TREE_NODES:
+        raise ParameterError(f"the expression has more than {MAX_TREE_NODES} nodes; too large to expand")
+    exact = all(sp.sympify(a).is_Rational for a in at)
+    try:
+        try:
+            jet = jet_taylor(expr, state, at, order, exact)
+        except NotRational:
+            jet = jet_taylor(expr, state, at, order, False)
+    except Unsupported:
+        return _derivative_taylor(expr, state, at, order)
+    return {k: (sp.Rational(v.numerator, v.denominator) if isinstance(v, Fraction) else sp.Float(v, 17))
+            for k, v in jet.items() if sum(k) <= order}
 
 
 def _polynomial_taylor(expr, state, at, order) -> dict:
@@ -79,7 +94,7 @@ def _polynomial_taylor(expr, state, at, order) -> dict:
 
 def _derivative_taylor(expr, state, at, order) -> dict:
     if tree_size(expr, limit=MAX_TREE_NODES) > MAX_TREE_NODES:
-        raise ParameterError(f"the Hamiltonian has more than {MAX_TREE_NODES} nodes; too large to expand")
+        raise ParameterError(f"the expression has more than {MAX_TREE_NODES} nodes; too large to expand")
     point = dict(zip(state, at))
     m = len(state)
     derivatives = {tuple([0] * m): expr}
@@ -89,7 +104,7 @@ def _derivative_taylor(expr, state, at, order) -> dict:
             d = derivatives[key] if degree == 0 else _derive(derivatives, key, state)
             if tree_size(d, limit=MAX_TREE_NODES) > MAX_TREE_NODES:
                 raise ParameterError(
-                    f"the derivative of order {degree} of the Hamiltonian grows past {MAX_TREE_NODES} "
+                    f"the derivative of order {degree} of the expression grows past {MAX_TREE_NODES} "
                     f"nodes; ask for an order below {degree}")
             value = _value(d.xreplace(point), key)
             if value != 0:
@@ -124,6 +139,6 @@ def _value(expr: sp.Expr, key: tuple) -> sp.Expr:
     if not value.is_Number or not value.is_finite:
         value = sp.N(value.as_real_imag()[0], 20) if value.is_number else value
     if not value.is_Number or not value.is_finite:
-        raise ModelError(f"the Hamiltonian's derivative of exponents {key} is not a finite number at the "
+        raise ModelError(f"the derivative of exponents {key} is not a finite number at the "
                          f"equilibrium ({value}); it has no Taylor expansion there")
     return value

@@ -50,6 +50,15 @@ class NormalForm:
         a small value warns of a nearby resonance.
     names : tuple of str
         State variable names.
+    kind : {"flow", "map"}
+        For a map (of the plane) ``omega`` is the rotation angle of the linear map (rad per
+        iterate), :meth:`frequencies` the rotation angle per iterate at action J, and the
+        Hamiltonian ``K(J)`` the one whose time-one map is the normal form (see
+        :mod:`phaselab.structures.normal_forms.maps`); ``area_defect`` is what the
+        computation left of a change of area (zero for an exact area-preserving map).
+    periods : ndarray or None
+        Wrapping period of each state component (NaN where none): states are compared with
+        the fixed point modulo these.
     """
 
     order: int
@@ -71,6 +80,9 @@ class NormalForm:
     scales: np.ndarray
     old_of_new: list = field(default_factory=list)
     new_of_old: list = field(default_factory=list)
+    kind: str = "flow"
+    periods: np.ndarray | None = None
+    area_defect: float = 0.0
 
     def __post_init__(self):
         self._arrays = term_arrays(self.terms, self.dof)
@@ -180,7 +192,12 @@ class NormalForm:
             raise ParameterError(f"states must have shape (m, {2 * self.dof}), got {np.shape(states)}")
         if not np.all(np.isfinite(z)):
             raise ParameterError("states must be finite")
-        u = (z - self.equilibrium) @ self.to_complex.T
+        dz = z - self.equilibrium
+        if self.periods is not None:
+            wrapped = np.isfinite(self.periods)
+            P = self.periods[wrapped]
+            dz[:, wrapped] = (dz[:, wrapped] + P / 2) % P - P / 2
+        u = dz @ self.to_complex.T
         w = np.stack([evaluate(e, c, u) for e, c in self._backward], axis=1)
         n = self.dof
         xi, eta = w[:, :n], w[:, n:]
@@ -229,7 +246,7 @@ class NormalForm:
         """Everything needed to rebuild the Hamiltonian, as plain JSON-ready values."""
         return {"kind": "normal_form", "system": self.system_name, "params": self.params,
                 "state_names": list(self.names), "equilibrium": self.equilibrium.tolist(),
-                "order": self.order, "arithmetic": self.arithmetic, "arithmetic_note": self.arithmetic_note,
+                "kind": self.kind, "order": self.order, "arithmetic": self.arithmetic, "arithmetic_note": self.arithmetic_note,
                 "omega": self.omega.tolist(), "resonances": [list(r) for r in self.resonances],
                 "small_divisors": {str(k): (None if not np.isfinite(v) else v)
                                    for k, v in self.small_divisors.items()},
@@ -252,7 +269,7 @@ class NormalForm:
              "omega": ("mode", self.omega),
              "small_divisor": ("degree", np.array([self.small_divisors[d] for d in degrees]))},
             coords={"mode": np.arange(1, self.dof + 1), "degree": np.array(degrees, dtype=int)},
-            attrs={"kind": "normal_form", "system": self.system_name, "order": self.order,
+            attrs={"kind": "normal_form", "system_kind": self.kind, "system": self.system_name, "order": self.order,
                    "arithmetic": self.arithmetic, "arithmetic_note": self.arithmetic_note,
                    "resonances": json.dumps([list(r) for r in self.resonances]),
                    "equilibrium": json.dumps(self.equilibrium.tolist()), "params": json.dumps(self.params),
@@ -283,5 +300,6 @@ class NormalForm:
     def __repr__(self) -> str:
         kind = "Birkhoff" if not self.resonances else f"resonant {list(self.resonances)}"
         omega = ", ".join(f"{w:.6g}" for w in self.omega)
-        return (f"NormalForm({kind}, order {self.order}, {self.arithmetic} arithmetic, omega = ({omega}), "
+        what = "omega" if self.kind == "flow" else "map, rotation per iterate"
+        return (f"NormalForm({kind}, order {self.order}, {self.arithmetic} arithmetic, {what} = ({omega}), "
                 f"{len(self.terms)} terms)")
