@@ -443,3 +443,20 @@ def test_map_errors(standard_map):
         phaselab.normal_form(standard_map, [np.pi, 0.0], 4, params={"K": 2.0})
     with pytest.raises(ParameterError, match="resonant normal forms of maps"):
         phaselab.normal_form(standard_map, [np.pi, 0.0], 4, resonances=[(1,)])
+
+
+def test_taylor_expansion_by_jets_matches_sympy_derivatives():
+    """The truncated power-series expansion against sympy's own derivatives at the point
+    (reference: sympy.diff), for a tree of functions, quotients and fractional powers."""
+    from phaselab.structures.normal_forms.expansion import taylor
+
+    expr = sp.exp(q) * sp.sin(p + q**2) / (1 + q) + sp.sqrt(2 + p) - sp.cos(q * p) ** 3
+    at = [sp.Integer(0), sp.Rational(1, 2)]
+    got = taylor(expr, (q, p), at, 5)
+    for i in range(6):
+        for j in range(6 - i):
+            want = sp.diff(expr, q, i, p, j).subs({q: at[0], p: at[1]}) / (sp.factorial(i) * sp.factorial(j))
+            assert abs(float(got.get((i, j), 0)) - float(want)) < 1e-12 * (1 + abs(float(want)))
+    exact = taylor(sp.exp(q) * sp.cos(p) / (1 - q), (q, p), [0, 0], 6)
+    assert all(v.is_Rational for v in exact.values())  # rationals stay rationals
+    assert exact[(2, 2)] == sp.Rational(-5, 4)  # e^q/(1-q): 5/2 q^2; cos p: -p^2/2 (by hand)
