@@ -1,4 +1,4 @@
-"""phaselab.normal_form: Birkhoff's or a resonant normal form at an elliptic equilibrium."""
+"""phaselab.normal_form: Birkhoff's or a resonant normal form at an elliptic equilibrium (or a map's fixed point)."""
 
 from __future__ import annotations
 
@@ -34,11 +34,14 @@ def normal_form(system, at, order: int, *, resonances=None, params=None, arithme
 
     Parameters
     ----------
-    system : Hamiltonian
-        An autonomous Hamiltonian (no explicit time).
+    system : Hamiltonian or AreaPreservingMap
+        An autonomous Hamiltonian (no explicit time), or a map of the plane (one degree of
+        freedom; Birkhoff's form only, in floating point, see
+        :mod:`phaselab.structures.normal_forms.maps`: ``frequencies`` is then the rotation
+        angle per iterate).
     at : Equilibrium or array_like, shape (2n,)
-        The equilibrium, from :func:`phaselab.equilibria` or as a state ``(q, p)``; exact
-        sympy numbers (``sympy.pi``) are kept exact.
+        The equilibrium (or fixed point), from :func:`phaselab.equilibria` or as a state
+        ``(q, p)``; exact sympy numbers are kept exact.
     order : int
         Highest degree in the distance from the equilibrium (2..16); degree ``2m`` holds
         the terms of degree ``m`` in the actions.
@@ -121,7 +124,7 @@ def normal_form(system, at, order: int, *, resonances=None, params=None, arithme
 
 def _check_system(system) -> None:
     if not isinstance(system, Hamiltonian):
-        raise ParameterError(f"system must be a phaselab Hamiltonian, got {type(system).__name__}")
+        raise ParameterError(f"system must be a phaselab Hamiltonian or AreaPreservingMap, got {type(system).__name__}")
     if not system.is_autonomous:
         raise ModelError("normal_form needs an autonomous Hamiltonian; this one depends on time explicitly")
 
