@@ -52,6 +52,8 @@ _LAZY = {
     "Manifold": "phaselab.structures.manifolds",
     "torus_breakup": "phaselab.structures.symmetric",
     "TorusBreakup": "phaselab.structures.symmetric",
+    "normal_form": "phaselab.structures.normal_forms",
+    "NormalForm": "phaselab.structures.normal_forms",
     "warm": "phaselab.engine.warm",
     "set_limits": "phaselab.engine.inputs",
 }
