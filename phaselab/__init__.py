@@ -8,7 +8,7 @@ imported on first use, so a script pays only for what it calls.
 __version__ = "0.1.0"
 
 from phaselab.errors import (ExpressionError, IntegrationError, ModelError,  # noqa: E402
-                             ParameterError, PhaselabError, StudyFileError)
+                             ParameterError, PhaselabError, PhaselabWarning, StudyFileError)
 from phaselab.model.hamiltonian import Hamiltonian  # noqa: E402
 
 _LAZY = {
@@ -57,7 +57,7 @@ _LAZY = {
 }
 
 __all__ = ["Hamiltonian", "PhaselabError", "ExpressionError", "ModelError", "ParameterError",
-           "IntegrationError", "StudyFileError", "__version__", *_LAZY]
+           "IntegrationError", "StudyFileError", "PhaselabWarning", "__version__", *_LAZY]
 
 
 def __getattr__(name):

@@ -46,3 +46,8 @@ class IntegrationError(PhaselabError, RuntimeError):
 
 class StudyFileError(PhaselabError, ValueError):
     """A study file is malformed; the message names the file, the key and the problem."""
+
+
+class PhaselabWarning(UserWarning):
+    """A result was computed but may not be what was meant (e.g. a periodic orbit found far
+    from its guess). Filter with ``warnings.simplefilter("error", PhaselabWarning)``."""

@@ -26,7 +26,9 @@ import numpy as np
 
 from phaselab.compute import codes, inputs
 from phaselab.compute.labels import netcdf_attrs, provenance
+from phaselab.compute.periodic_checks import STALL_FACTOR, guess_report, rounding_level, warn_if_far
 from phaselab.compute.returns import OFF_SHELL, ReturnMap, return_map
+from phaselab.compute.symmetries import SectionSymmetry, constrained_steps, phase_conditions, reduced_monodromy
 from phaselab.errors import IntegrationError, ParameterError
 
 STABILITY = ("stable", "unstable", "inverse-unstable", "parabolic")
@@ -41,6 +43,11 @@ REASONS = {
     codes.TIME_LIMIT: "no crossing of the plane came within the time cap",
     OFF_SHELL: "left the energy shell (no real solution of H = E for the solved component)",
     "singular": "singular Jacobian (P - I is not invertible here: a parabolic orbit or a family)",
+    "degenerate": ("P - I is singular at this orbit: it belongs to a continuous family of periodic orbits "
+                   "(a conserved quantity or symmetry beyond the energy that was not recognised, an "
+                   "integrable system, or a parabolic orbit), so Newton's method has no unique answer and a "
+                   "closer guess will not help; remove the symmetry (fix the conserved momentum, use "
+                   "coordinates in which it is a cyclic coordinate's momentum) or choose another section"),
     "budget": "iteration budget used up",
     "line search": "the line search found no decrease (the guess is too far)",
 }
@@ -85,6 +92,19 @@ class PeriodicOrbit:
         max |P(u) - u - shift| at the solution.
     iterations : int
         Newton steps taken.
+    rounding : float
+        The measured rounding noise of the residual where Newton's method stopped short of
+        ``tol`` because the residual could not fall further (the orbit is then converged as far
+        as floating point allows, and ``residual`` is what was reached); NaN when ``tol`` was met.
+    distance_from_guess : float
+        max |z - guess| over the state components, between the first point and the guess as
+        placed on the section (NaN when not from a single guess).
+    period_change : float
+        period - the return time of the guess (NaN when not from a single guess).
+    symmetries : int
+        Continuous symmetries (conserved momenta) of the flow that move this orbit along a
+        family of copies; their 2 trivial multipliers at +1 each are left out of
+        ``multipliers``, ``stability`` and ``residue`` (``monodromy`` is the full matrix).
     system, params, plane, method, dt
         How it was computed.
     """
@@ -109,6 +129,10 @@ class PeriodicOrbit:
     method: str = ""
     dt: float = float("nan")
     settings: dict = field(default_factory=dict)
+    rounding: float = float("nan")
+    distance_from_guess: float = float("nan")
+    period_change: float = float("nan")
+    symmetries: int = 0
 
     def return_map(self, k: int | None = None) -> ReturnMap:
         """The return map this orbit is a fixed point of (or its ``k``-th return map), with
@@ -240,6 +264,8 @@ class _Solve:
     residual: np.ndarray
     iterations: np.ndarray
     images: object         # Images of the N*k points (row-major over orbits, then points)
+    rounding: np.ndarray = None    # (N,) measured rounding noise where the search stalled, else NaN
+    start_time: np.ndarray = None  # (N,) the return time of each start (sum over its legs)
 
 
 def _evaluate(ret1: ReturnMap, U, shifts):
@@ -268,7 +294,7 @@ def _shooting_matrix(img, M, k, d):
     return A
 
 
-def newton(ret1: ReturnMap, U0, shifts, tol: float = 1e-11, maxit: int = 30) -> _Solve:
+def newton(ret1: ReturnMap, U0, shifts, tol: float = 1e-11, maxit: int = 30, symmetry=None) -> _Solve:
     """Damped Newton's method, by multiple shooting, for period-k orbits from many starts.
 
     Each orbit is k points u_0..u_(k-1) joined by one return each: P(u_i) = u_(i+1) + s_i
@@ -285,6 +311,14 @@ def newton(ret1: ReturnMap, U0, shifts, tol: float = 1e-11, maxit: int = 30) -> 
     U0 : ndarray, shape (N, k, d)
     shifts : ndarray, shape (N, k, d)
         What each leg advances (winding of wrapped coordinates, or a given shift).
+    symmetry : SectionSymmetry, optional
+        Continuous symmetries of the flow. With any, every step is the minimum-norm solution
+        orthogonal to the neutral directions at the first point (phase conditions), which
+        picks one orbit of the family (see :mod:`phaselab.compute.symmetries`).
+
+    A search whose line search fails (or whose budget runs out) with a residual within
+    ``STALL_FACTOR`` of its measured rounding noise has converged as far as floating point
+    allows: it ends as converged, with that noise in ``rounding``.
 
     Returns
     -------
@@ -295,6 +329,8 @@ def newton(ret1: ReturnMap, U0, shifts, tol: float = 1e-11, maxit: int = 30) -> 
     reason: list = [None] * n
     iters = np.zeros(n, dtype=np.int64)
     F, images, status, norm = _evaluate(ret1, U, shifts)
+    start_time = images.time.reshape(n, k).sum(axis=1)
+    rounding = np.full(n, np.nan)
     scale = 1.0 + (np.max(np.abs(U.reshape(n, -1)), axis=1) if d else np.zeros(n))
     for i in range(n):
         if status[i] != codes.OK:
@@ -310,17 +346,24 @@ def newton(ret1: ReturnMap, U0, shifts, tol: float = 1e-11, maxit: int = 30) -> 
         idx = np.flatnonzero(active)
         sub_img = _take_images(images, idx, k)
         A = _shooting_matrix(sub_img, len(idx), k, d)
-        with np.errstate(all="ignore"):
-            cond = np.linalg.cond(A)
-        singular = ~np.isfinite(cond) | (cond > 1e14)
+        if symmetry is not None and symmetry.count:
+            step, singular = constrained_steps(A, F[idx].reshape(len(idx), k * d),
+                                               phase_conditions(symmetry, U[idx, 0], k))
+        else:
+            with np.errstate(all="ignore"):
+                cond = np.linalg.cond(A)
+            singular = ~np.isfinite(cond) | (cond > 1e14)
         for i in idx[singular]:
-            reason[i] = "singular"
+            reason[i] = "degenerate" if symmetry is not None and symmetry.count else "singular"
             active[i] = False
         keep = ~singular
         idx = idx[keep]
         if idx.size == 0:
             break
-        step = np.linalg.solve(A[keep], -F[idx].reshape(len(idx), k * d)[..., None])[..., 0]
+        if symmetry is not None and symmetry.count:
+            step = step[keep]
+        else:
+            step = np.linalg.solve(A[keep], -F[idx].reshape(len(idx), k * d)[..., None])[..., 0]
         step = step.reshape(len(idx), k, d)
         lam = np.ones(idx.size)
         accepted = np.zeros(idx.size, dtype=bool)
@@ -344,7 +387,28 @@ def newton(ret1: ReturnMap, U0, shifts, tol: float = 1e-11, maxit: int = 30) -> 
         iters[idx[accepted]] += 1
     for i in np.flatnonzero(active):
         reason[i] = "budget"
-    return _Solve(U=U, reason=reason, residual=norm, iterations=iters, images=images)
+    for i in range(n):
+        if reason[i] in ("line search", "budget") and np.isfinite(norm[i]):
+            rounding[i] = _rounding(ret1, U[i], F[i], _take_images(images, [i], k), shifts[i], scale[i])
+            if norm[i] <= STALL_FACTOR * rounding[i]:
+                reason[i] = "converged"
+            else:
+                rounding[i] = np.nan
+    return _Solve(U=U, reason=reason, residual=norm, iterations=iters, images=images, rounding=rounding,
+                  start_time=start_time)
+
+
+def _rounding(ret1, U, F, img, shifts, scale) -> float:
+    """The rounding noise of the shooting residual at ``U`` (k, d) (see
+    :func:`phaselab.compute.periodic_checks.rounding_level`)."""
+    k, d = U.shape
+    A = _shooting_matrix(img, 1, k, d)[0]
+
+    def evaluate(Ub):
+        Fb, _, st, _ = _evaluate(ret1, Ub, np.broadcast_to(shifts, Ub.shape))
+        return Fb, st == codes.OK
+
+    return rounding_level(evaluate, U, F, A, scale)
 
 
 def _take_images(images, idx, k):
@@ -425,8 +489,9 @@ def _assemble(ret: ReturnMap, u, images, shift, residual, iterations) -> Periodi
     return _orbit(ret, ret.k, points, images.jacobian, float(images.time), shift, residual, iterations)
 
 
-def _assemble_shooting(ret1: ReturnMap, U, images, shifts, residual, iterations) -> PeriodicOrbit:
-    """A PeriodicOrbit from the k points ``U`` (k, d) of a multiple-shooting solution."""
+def _assemble_shooting(ret1: ReturnMap, U, images, shifts, residual, iterations, symmetry=None) -> PeriodicOrbit:
+    """A PeriodicOrbit from the k points ``U`` (k, d) of a multiple-shooting solution; with a
+    ``symmetry`` its stability is that of the reduced monodromy."""
     k = U.shape[0]
     M = np.eye(ret1.dim)
     for i in range(k):
@@ -434,14 +499,20 @@ def _assemble_shooting(ret1: ReturnMap, U, images, shifts, residual, iterations)
     z = ret1.lift(U)[0]
     if ret1.kind == "map":
         z = ret1.wrap(z)
-    return _orbit(ret1, k, z, M, float(np.sum(images.time)), shifts.sum(axis=0), residual, iterations)
+    reduced, count = None, 0
+    if symmetry is not None and symmetry.count:
+        G, C = symmetry.directions(U[:1])[0]
+        reduced = reduced_monodromy(M, G, C)
+        count = len(G) if reduced is not None else 0
+    return _orbit(ret1, k, z, M, float(np.sum(images.time)), shifts.sum(axis=0), residual, iterations,
+                  reduced=reduced, symmetries=count)
 
 
-def _orbit(ret, k, points, M, period, shift, residual, iterations) -> PeriodicOrbit:
+def _orbit(ret, k, points, M, period, shift, residual, iterations, reduced=None, symmetries=0) -> PeriodicOrbit:
     from phaselab.compute.trajectory import trajectory
 
     system = ret.system
-    mult, word, residue, rotation = classify(M)
+    mult, word, residue, rotation = classify(M if reduced is None else reduced)
     orbit = None
     if ret.kind in ("plane", "stroboscopic"):
         with warnings.catch_warnings():
@@ -457,7 +528,7 @@ def _orbit(ret, k, points, M, period, shift, residual, iterations) -> PeriodicOr
         residual=float(residual), iterations=int(iterations), system=system, params=params,
         plane=getattr(ret, "plane", None) if ret.kind == "plane" else ret.kind,
         method="map" if ret.kind == "map" else ret.method.name,
-        dt=float(getattr(ret, "h", float("nan"))), settings=_settings(ret))
+        dt=float(getattr(ret, "h", float("nan"))), settings=_settings(ret), symmetries=int(symmetries))
 
 
 def _settings(ret: ReturnMap) -> dict:
@@ -588,16 +659,24 @@ def periodic_orbit(system, guess, period=1, plane=None, energy=None, params=None
     if status[0] != codes.OK:
         raise IntegrationError(f"no period-{k} orbit found from this guess: following the guess, "
                                f"{_explain(int(status[0]))}")
-    sol = newton(ret1, U0, shifts, tol=tol, maxit=maxit)
+    symmetry = SectionSymmetry(ret1, ret1.lift(U0[0, :1])[0][0]) if ret1.kind == "plane" else None
+    sol = newton(ret1, U0, shifts, tol=tol, maxit=maxit, symmetry=symmetry)
     why = sol.reason[0]
     if why != "converged":
+        advice = "" if why in ("singular", "degenerate") else "; try a closer guess" + (
+            ", another energy" if ret1.kind == "plane" else "") + (" or a smaller dt" if ret1.kind != "map" else "")
         raise IntegrationError(
             f"no period-{k} orbit found from this guess: {_explain(why)} (after "
-            f"{int(sol.iterations[0])} Newton steps, residual {sol.residual[0]:.3g}); try a closer guess"
-            + (", another energy" if ret1.kind == "plane" else "")
-            + (" or a smaller dt" if ret1.kind != "map" else ""))
-    return _assemble_shooting(ret1, sol.U[0], _take_images(sol.images, [0], k), shifts[0], sol.residual[0],
-                              sol.iterations[0])
+            f"{int(sol.iterations[0])} Newton steps, residual {sol.residual[0]:.3g}){advice}")
+    orbit = _assemble_shooting(ret1, sol.U[0], _take_images(sol.images, [0], k), shifts[0], sol.residual[0],
+                               sol.iterations[0], symmetry=symmetry)
+    start = ret1.lift(U0[0, :1])[0][0]
+    orbit.rounding = float(sol.rounding[0])
+    orbit.distance_from_guess, orbit.period_change = guess_report(
+        orbit, ret1.wrap(start) if ret1.kind == "map" else start, float(sol.start_time[0]),
+        wrap=(lambda v: _wrapped_difference(ret1, v, 0.0 * v)) if ret1.kind == "map" else None)
+    warn_if_far(orbit)
+    return orbit
 
 
 @dataclass(repr=False)
@@ -713,7 +792,8 @@ def find_periodic_orbits(system, period, region=None, seeds=None, plane=None, en
         key = _explain(int(st))
         failed[key] = failed.get(key, 0) + 1
     run = np.flatnonzero(status == codes.OK)
-    sol = newton(ret1, U0[run], shifts[run], tol=tol, maxit=maxit) if run.size else None
+    symmetry = SectionSymmetry(ret1, ret1.lift(U0[run[0], :1])[0][0]) if ret1.kind == "plane" and run.size else None
+    sol = newton(ret1, U0[run], shifts[run], tol=tol, maxit=maxit, symmetry=symmetry) if run.size else None
     orbits: list = []
     for j in range(run.size):
         why = sol.reason[j]
@@ -722,7 +802,8 @@ def find_periodic_orbits(system, period, region=None, seeds=None, plane=None, en
             failed[key] = failed.get(key, 0) + 1
             continue
         cand = _assemble_shooting(ret1, sol.U[j], _take_images(sol.images, [j], k), shifts[run[j]],
-                                  sol.residual[j], sol.iterations[j])
+                                  sol.residual[j], sol.iterations[j], symmetry=symmetry)
+        cand.rounding = float(sol.rounding[j])
         if _least_period(ret1, cand, same) < k:
             failed["least period smaller than asked"] = failed.get("least period smaller than asked", 0) + 1
             continue
