@@ -26,9 +26,10 @@ import numpy as np
 
 from phaselab.compute import codes, inputs
 from phaselab.compute.labels import netcdf_attrs, provenance
-from phaselab.compute.periodic_checks import STALL_FACTOR, guess_report, rounding_level, warn_if_far
+from phaselab.compute.periodic_checks import PROBE_BELOW, STALL_FACTOR, guess_report, rounding_level, warn_if_far
 from phaselab.compute.returns import OFF_SHELL, ReturnMap, return_map
-from phaselab.compute.symmetries import SectionSymmetry, constrained_steps, phase_conditions, reduced_monodromy
+from phaselab.compute.symmetries import (NEARLY_SINGULAR, SectionSymmetry, newton_steps, phase_conditions,
+                                        reduced_monodromy)
 from phaselab.errors import IntegrationError, ParameterError
 
 STABILITY = ("stable", "unstable", "inverse-unstable", "parabolic")
@@ -48,6 +49,11 @@ REASONS = {
                    "integrable system, or a parabolic orbit), so Newton's method has no unique answer and a "
                    "closer guess will not help; remove the symmetry (fix the conserved momentum, use "
                    "coordinates in which it is a cyclic coordinate's momentum) or choose another section"),
+    "nearly singular": ("the line search found no decrease where P - I is nearly singular (a multiplier "
+                        "within 1e-4 of +1 besides those of recognised symmetries): the orbit is close to "
+                        "parabolic or to a continuous family of periodic orbits (an integrable or degenerate "
+                        "system), where Newton's method has no well-defined answer; a closer guess will "
+                        "likely not help"),
     "budget": "iteration budget used up",
     "line search": "the line search found no decrease (the guess is too far)",
 }
@@ -316,9 +322,10 @@ def newton(ret1: ReturnMap, U0, shifts, tol: float = 1e-11, maxit: int = 30, sym
         orthogonal to the neutral directions at the first point (phase conditions), which
         picks one orbit of the family (see :mod:`phaselab.compute.symmetries`).
 
-    A search whose line search fails (or whose budget runs out) with a residual within
-    ``STALL_FACTOR`` of its measured rounding noise has converged as far as floating point
-    allows: it ends as converged, with that noise in ``rounding``.
+    Where a full step fails to decrease a residual already below ``PROBE_BELOW`` of the scale
+    (or the budget runs out there), the residual's rounding noise is measured; within
+    ``STALL_FACTOR`` of it the search has converged as far as floating point allows and ends
+    as converged, with that noise in ``rounding`` (:mod:`phaselab.compute.periodic_checks`).
 
     Returns
     -------
@@ -331,6 +338,7 @@ def newton(ret1: ReturnMap, U0, shifts, tol: float = 1e-11, maxit: int = 30, sym
     F, images, status, norm = _evaluate(ret1, U, shifts)
     start_time = images.time.reshape(n, k).sum(axis=1)
     rounding = np.full(n, np.nan)
+    smallest = np.full(n, np.nan)
     scale = 1.0 + (np.max(np.abs(U.reshape(n, -1)), axis=1) if d else np.zeros(n))
     for i in range(n):
         if status[i] != codes.OK:
@@ -346,69 +354,62 @@ def newton(ret1: ReturnMap, U0, shifts, tol: float = 1e-11, maxit: int = 30, sym
         idx = np.flatnonzero(active)
         sub_img = _take_images(images, idx, k)
         A = _shooting_matrix(sub_img, len(idx), k, d)
-        if symmetry is not None and symmetry.count:
-            step, singular = constrained_steps(A, F[idx].reshape(len(idx), k * d),
-                                               phase_conditions(symmetry, U[idx, 0], k))
-        else:
-            with np.errstate(all="ignore"):
-                cond = np.linalg.cond(A)
-            singular = ~np.isfinite(cond) | (cond > 1e14)
+        G = phase_conditions(symmetry, U[idx, 0], k) if symmetry is not None and symmetry.count else None
+        step, singular, smallest[idx] = newton_steps(A, F[idx].reshape(len(idx), k * d), G)
         for i in idx[singular]:
-            reason[i] = "degenerate" if symmetry is not None and symmetry.count else "singular"
+            reason[i] = "singular" if G is None else "degenerate"
             active[i] = False
-        keep = ~singular
-        idx = idx[keep]
+        idx, step = idx[~singular], step[~singular]
         if idx.size == 0:
             break
-        if symmetry is not None and symmetry.count:
-            step = step[keep]
-        else:
-            step = np.linalg.solve(A[keep], -F[idx].reshape(len(idx), k * d)[..., None])[..., 0]
         step = step.reshape(len(idx), k, d)
         lam = np.ones(idx.size)
         accepted = np.zeros(idx.size, dtype=bool)
-        for _ in range(13):
-            todo = np.flatnonzero(~accepted)
+        stalled = np.zeros(idx.size, dtype=bool)
+        for trial in range(13):
+            todo = np.flatnonzero(~accepted & ~stalled)
             trial_U = U[idx[todo]] + lam[todo, None, None] * step[todo]
             Ft, trial_img, st_t, nt = _evaluate(ret1, trial_U, shifts[idx[todo]])
             ok = nt <= (1.0 - 0.25 * lam[todo]) * norm[idx[todo]]
             for j, r in enumerate(todo):
+                i = idx[r]
                 if ok[j]:
                     accepted[r] = True
-                    i = idx[r]
                     U[i], F[i], norm[i] = trial_U[j], Ft[j], nt[j]
                     _put_images(images, i, trial_img, j, k)
+                elif trial == 0 and norm[i] <= PROBE_BELOW * scale[i]:
+                    stalled[r] = _stalled(ret1, U, F, images, shifts, norm, scale, rounding, i)
             lam[~accepted] *= 0.5
-            if accepted.all():
+            if np.all(accepted | stalled):
                 break
         for r in np.flatnonzero(~accepted):
-            reason[idx[r]] = "line search"
+            near = smallest[idx[r]] <= NEARLY_SINGULAR
+            reason[idx[r]] = "converged" if stalled[r] else "nearly singular" if near else "line search"
             active[idx[r]] = False
         iters[idx[accepted]] += 1
     for i in np.flatnonzero(active):
         reason[i] = "budget"
-    for i in range(n):
-        if reason[i] in ("line search", "budget") and np.isfinite(norm[i]):
-            rounding[i] = _rounding(ret1, U[i], F[i], _take_images(images, [i], k), shifts[i], scale[i])
-            if norm[i] <= STALL_FACTOR * rounding[i]:
-                reason[i] = "converged"
-            else:
-                rounding[i] = np.nan
+        if norm[i] <= PROBE_BELOW * scale[i] and _stalled(ret1, U, F, images, shifts, norm, scale, rounding, i):
+            reason[i] = "converged"
     return _Solve(U=U, reason=reason, residual=norm, iterations=iters, images=images, rounding=rounding,
                   start_time=start_time)
 
 
-def _rounding(ret1, U, F, img, shifts, scale) -> float:
-    """The rounding noise of the shooting residual at ``U`` (k, d) (see
-    :func:`phaselab.compute.periodic_checks.rounding_level`)."""
-    k, d = U.shape
-    A = _shooting_matrix(img, 1, k, d)[0]
+def _stalled(ret1, U, F, images, shifts, norm, scale, rounding, i) -> bool:
+    """Whether orbit ``i`` has a residual within ``STALL_FACTOR`` of its rounding noise (see
+    :func:`phaselab.compute.periodic_checks.rounding_level`), which is put in ``rounding[i]``."""
+    k, d = U.shape[1:]
+    A = _shooting_matrix(_take_images(images, [i], k), 1, k, d)[0]
 
     def evaluate(Ub):
-        Fb, _, st, _ = _evaluate(ret1, Ub, np.broadcast_to(shifts, Ub.shape))
+        Fb, _, st, _ = _evaluate(ret1, Ub, np.broadcast_to(shifts[i], Ub.shape))
         return Fb, st == codes.OK
 
-    return rounding_level(evaluate, U, F, A, scale)
+    rounding[i] = rounding_level(evaluate, U[i], F[i], A, scale[i])
+    if norm[i] <= STALL_FACTOR * rounding[i]:
+        return True
+    rounding[i] = np.nan
+    return False
 
 
 def _take_images(images, idx, k):
@@ -663,7 +664,7 @@ def periodic_orbit(system, guess, period=1, plane=None, energy=None, params=None
     sol = newton(ret1, U0, shifts, tol=tol, maxit=maxit, symmetry=symmetry)
     why = sol.reason[0]
     if why != "converged":
-        advice = "" if why in ("singular", "degenerate") else "; try a closer guess" + (
+        advice = "" if why in ("singular", "degenerate", "nearly singular") else "; try a closer guess" + (
             ", another energy" if ret1.kind == "plane" else "") + (" or a smaller dt" if ret1.kind != "map" else "")
         raise IntegrationError(
             f"no period-{k} orbit found from this guess: {_explain(why)} (after "

@@ -18,8 +18,11 @@ from phaselab.errors import PhaselabWarning
 
 PROBES = 4
 """Nearby points at which the residual is re-evaluated to measure its rounding noise."""
-PROBE_SIZE = 1e-9
+PROBE_SIZE = 1e-10
 """Their distance from the point, relative to the scale 1 + max |u| of the orbit."""
+PROBE_BELOW = 1e-6
+"""The noise is measured only where the residual is below this (relative to the scale): a
+residual above it is not rounding for any orbit worth computing."""
 STALL_FACTOR = 10.0
 """A residual within this factor of the measured rounding noise counts as converged."""
 FAR_STATE = 0.2
@@ -31,11 +34,12 @@ FAR_PERIOD = 0.2
 def rounding_level(evaluate, U, F, A, scale) -> float:
     """The rounding noise of the shooting residual at ``U`` (max norm).
 
-    The residual is evaluated at ``PROBES`` points ``U + h`` with ``|h| = PROBE_SIZE * scale``;
-    with the linear change ``A h`` taken off (``A`` is the exact derivative of the computed
-    map), what is left of ``F(U + h) - F(U)`` is rounding (the quadratic term is ~1e-18 of the
-    scale). The largest of those differences is the level below which no residual can be
-    told from zero (a difference estimate of noise, common practice).
+    The residual is evaluated at ``PROBES`` pairs of points ``U +- h`` with
+    ``|h| = PROBE_SIZE * scale``. With the linear change taken off, what is left of the
+    central difference ``(F(U + h) - F(U - h)) / 2 - A h`` is rounding (``A`` is the exact
+    derivative of the computed map; the quadratic term cancels and the cubic one is ~1e-30
+    of the scale). The largest of those is the level below which no residual can be told from
+    zero (a difference estimate of noise, common practice).
 
     Parameters
     ----------
@@ -43,7 +47,7 @@ def rounding_level(evaluate, U, F, A, scale) -> float:
         ``evaluate(U_batch (P, k, d)) -> (F (P, k, d), ok (P,))``.
     U : ndarray, shape (k, d)
     F : ndarray, shape (k, d)
-        The residual at ``U``.
+        The residual at ``U`` (kept for the signature; the central difference does not use it).
     A : ndarray, shape (k d, k d)
         Its Jacobian.
     scale : float
@@ -55,11 +59,11 @@ def rounding_level(evaluate, U, F, A, scale) -> float:
     """
     rng = np.random.default_rng(7)
     H = rng.choice([-1.0, 1.0], size=(PROBES,) + U.shape) * (PROBE_SIZE * scale)
-    Fp, ok = evaluate(U[None] + H)
+    Fp, ok = evaluate(np.concatenate([U[None] + H, U[None] - H]))
     if not np.all(ok):
         return float("inf")
     lin = (H.reshape(PROBES, -1) @ A.T).reshape(H.shape)
-    return float(np.max(np.abs(Fp - F[None] - lin)))
+    return float(np.max(np.abs(0.5 * (Fp[:PROBES] - Fp[PROBES:]) - lin)))
 
 
 def orbit_size(orbit) -> float:

@@ -18,7 +18,7 @@ from a point transformation with an affine generator (translations, rotations, t
 of a cyclic coordinate).
 
 Newton's method then takes minimum-norm least-squares steps orthogonal to the generators
-(phase conditions that pick one member of the family), see :func:`constrained_steps`, and the
+(phase conditions that pick one member of the family), see :func:`newton_steps`, and the
 linear stability is read from the monodromy on the quotient that removes the 2m trivial
 multipliers at +1 (:func:`reduced_monodromy`).
 """
@@ -37,6 +37,9 @@ MAX_DOF = 12
 """Up to this many degrees of freedom the bilinear part q^T B p is searched as well."""
 PARALLEL_TOL = 1e-6
 """A generator whose part across the flow is below this (relative) is the flow itself."""
+NEARLY_SINGULAR = 1e-4
+"""A smallest singular value of P - I (on the complement of the symmetries) below this,
+relative to max(1, the largest), marks an orbit close to parabolic or to a family."""
 SEED = 20170
 """Fixed seed of the sample states, so that a search is repeatable."""
 
@@ -180,8 +183,8 @@ def section_directions(sym: Symmetries, z, dz, field_at_z, plane_index: int, ind
     return G, C
 
 
-def constrained_steps(A, F, G) -> tuple[np.ndarray, np.ndarray]:
-    """Minimum-norm Newton steps of ``A x = -F`` with ``x`` orthogonal to the rows of ``G``.
+def newton_steps(A, F, G=None) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Newton steps ``A x = -F`` for a batch, orthogonal to neutral directions if any.
 
     Parameters
     ----------
@@ -189,19 +192,34 @@ def constrained_steps(A, F, G) -> tuple[np.ndarray, np.ndarray]:
         Jacobians of the shooting equations.
     F : ndarray, shape (N, D)
         Residuals.
-    G : list of ndarray, shape (r_i, D)
-        Neutral directions (phase conditions) per orbit, orthonormal rows.
+    G : list of ndarray, shape (r_i, D), optional
+        Neutral directions (phase conditions) per orbit, orthonormal rows. Without them the
+        step is the ordinary solution of the square system.
 
     Returns
     -------
     steps : ndarray, shape (N, D)
-    degenerate : ndarray of bool, shape (N,)
-        Where ``A`` stays singular on the complement of the neutral directions (a family
-        or a parabolic orbit beyond the symmetries).
+        Minimum-norm least-squares solutions on the complement of the neutral directions.
+    singular : ndarray of bool, shape (N,)
+        Where ``A`` is singular (condition number above 1e14) on that complement: a family or
+        a parabolic orbit beyond the symmetries. Their steps are zero.
+    smallest : ndarray, shape (N,)
+        The smallest singular value of ``A`` on the complement, relative to max(1, largest):
+        how close the orbit is to having a multiplier at +1 besides the symmetries'.
     """
     N, D, _ = A.shape
     steps = np.zeros((N, D))
-    degenerate = np.zeros(N, dtype=bool)
+    smallest = np.full(N, np.nan)
+    if G is None:
+        with np.errstate(all="ignore"):
+            s = np.linalg.svd(A, compute_uv=False)
+            cond = s[:, 0] / s[:, -1]
+        singular = ~np.isfinite(cond) | (cond > 1e14)
+        smallest = s[:, -1] / np.maximum(1.0, s[:, 0])
+        if (~singular).any():
+            steps[~singular] = np.linalg.solve(A[~singular], -F[~singular][..., None])[..., 0]
+        return steps, singular, smallest
+    singular = np.zeros(N, dtype=bool)
     for i in range(N):
         Gi = np.asarray(G[i]).reshape(-1, D)
         if len(Gi):
@@ -213,11 +231,11 @@ def constrained_steps(A, F, G) -> tuple[np.ndarray, np.ndarray]:
         with np.errstate(all="ignore"):
             s = np.linalg.svd(AQ, compute_uv=False)
         if not (np.all(np.isfinite(s)) and s[-1] > 1e-14 * s[0]):
-            degenerate[i] = True
+            singular[i] = True
             continue
-        y = np.linalg.lstsq(AQ, -F[i], rcond=None)[0]
-        steps[i] = Q @ y
-    return steps, degenerate
+        smallest[i] = s[-1] / max(1.0, s[0])
+        steps[i] = Q @ np.linalg.lstsq(AQ, -F[i], rcond=None)[0]
+    return steps, singular, smallest
 
 
 def reduced_monodromy(M, G, C) -> np.ndarray | None:
