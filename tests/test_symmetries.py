@@ -80,7 +80,7 @@ def test_newton_steps_name_a_family_beyond_the_symmetries():
     steps, singular, _ = newton_steps(A, F, [np.zeros((0, 3))])
     assert singular[0]
     steps, singular, smallest = newton_steps(A, F, [np.array([[0.0, 0.0, 1.0]])])
-    assert not singular[0] and smallest[0] == pytest.approx(2.0 / 3.0)
+    assert not singular[0] and smallest[0] == pytest.approx(2.0)
     np.testing.assert_allclose(steps[0], [-0.5, 1.0, 0.0], atol=1e-15)
 
 

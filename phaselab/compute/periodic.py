@@ -103,10 +103,12 @@ class PeriodicOrbit:
         ``tol`` because the residual could not fall further (the orbit is then converged as far
         as floating point allows, and ``residual`` is what was reached); NaN when ``tol`` was met.
     distance_from_guess : float
-        max |z - guess| over the state components, between the first point and the guess as
-        placed on the section (NaN when not from a single guess).
+        max |z - guess| over the state components, between the first point and the guess (or
+        the start of :func:`find_periodic_orbits`) as placed on the section; NaN for orbits not
+        found by :func:`periodic_orbit` or :func:`find_periodic_orbits`. :func:`periodic_orbit`
+        warns (:class:`~phaselab.errors.PhaselabWarning`) when it is large for the orbit's size.
     period_change : float
-        period - the return time of the guess (NaN when not from a single guess).
+        period - the return time of the guess (NaN likewise).
     symmetries : int
         Continuous symmetries (conserved momenta) of the flow that move this orbit along a
         family of copies; their 2 trivial multipliers at +1 each are left out of
@@ -636,9 +638,19 @@ def periodic_orbit(system, guess, period=1, plane=None, energy=None, params=None
     ParameterError, ModelError
         Bad arguments, or a system that cannot do this.
 
+    Warns
+    -----
+    PhaselabWarning
+        The orbit found lies far from the guess for its size, or its period far from the
+        guess's return time (``distance_from_guess``, ``period_change``).
+
     Notes
     -----
-    A period of k returns is solved by multiple shooting: the k points of the orbit are the
+    A flow with conserved momenta (translations, rotations, cyclic coordinates; found from
+    the vector field, :mod:`phaselab.compute.symmetries`) has a family of copies of each
+    periodic orbit: the steps are then taken orthogonal to the family. A residual that
+    cannot reach ``tol`` because of rounding ends the search at the rounding level
+    (``rounding``). A period of k returns is solved by multiple shooting: the k points of the orbit are the
     unknowns, each joined to the next by one return (see :func:`newton`). The monodromy is
     the product of the k one-return Jacobians, exact derivatives from the tangent maps of the
     integrator.
@@ -671,13 +683,18 @@ def periodic_orbit(system, guess, period=1, plane=None, energy=None, params=None
             f"{int(sol.iterations[0])} Newton steps, residual {sol.residual[0]:.3g}){advice}")
     orbit = _assemble_shooting(ret1, sol.U[0], _take_images(sol.images, [0], k), shifts[0], sol.residual[0],
                                sol.iterations[0], symmetry=symmetry)
-    start = ret1.lift(U0[0, :1])[0][0]
-    orbit.rounding = float(sol.rounding[0])
-    orbit.distance_from_guess, orbit.period_change = guess_report(
-        orbit, ret1.wrap(start) if ret1.kind == "map" else start, float(sol.start_time[0]),
-        wrap=(lambda v: _wrapped_difference(ret1, v, 0.0 * v)) if ret1.kind == "map" else None)
+    _report(ret1, orbit, U0[0, 0], sol, 0)
     warn_if_far(orbit)
     return orbit
+
+
+def _report(ret1, orbit, u_start, sol, j) -> None:
+    """Put the rounding level and the distance from the start ``u_start`` (d,) on ``orbit``."""
+    start = ret1.lift(u_start[None, :])[0][0]
+    orbit.rounding = float(sol.rounding[j])
+    orbit.distance_from_guess, orbit.period_change = guess_report(
+        orbit, start, float(sol.start_time[j]),
+        wrap=(lambda v: _wrapped_difference(ret1, v, 0.0 * v)) if ret1.kind == "map" else None)
 
 
 @dataclass(repr=False)
@@ -804,7 +821,7 @@ def find_periodic_orbits(system, period, region=None, seeds=None, plane=None, en
             continue
         cand = _assemble_shooting(ret1, sol.U[j], _take_images(sol.images, [j], k), shifts[run[j]],
                                   sol.residual[j], sol.iterations[j], symmetry=symmetry)
-        cand.rounding = float(sol.rounding[j])
+        _report(ret1, cand, U0[run[j], 0], sol, j)
         if _least_period(ret1, cand, same) < k:
             failed["least period smaller than asked"] = failed.get("least period smaller than asked", 0) + 1
             continue

@@ -38,8 +38,8 @@ MAX_DOF = 12
 PARALLEL_TOL = 1e-6
 """A generator whose part across the flow is below this (relative) is the flow itself."""
 NEARLY_SINGULAR = 1e-4
-"""A smallest singular value of P - I (on the complement of the symmetries) below this,
-relative to max(1, the largest), marks an orbit close to parabolic or to a family."""
+"""A smallest singular value of P - I (on the complement of the symmetries) below this marks
+an orbit close to parabolic or to a family."""
 SEED = 20170
 """Fixed seed of the sample states, so that a search is repeatable."""
 
@@ -204,8 +204,9 @@ def newton_steps(A, F, G=None) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
         Where ``A`` is singular (condition number above 1e14) on that complement: a family or
         a parabolic orbit beyond the symmetries. Their steps are zero.
     smallest : ndarray, shape (N,)
-        The smallest singular value of ``A`` on the complement, relative to max(1, largest):
-        how close the orbit is to having a multiplier at +1 besides the symmetries'.
+        The smallest singular value of ``A`` on the complement: how close the orbit is to
+        having a multiplier at +1 besides the symmetries' (A = M - I for one leg; a strongly
+        unstable orbit has large singular values but its smallest stays near 1).
     """
     N, D, _ = A.shape
     steps = np.zeros((N, D))
@@ -215,7 +216,7 @@ def newton_steps(A, F, G=None) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
             s = np.linalg.svd(A, compute_uv=False)
             cond = s[:, 0] / s[:, -1]
         singular = ~np.isfinite(cond) | (cond > 1e14)
-        smallest = s[:, -1] / np.maximum(1.0, s[:, 0])
+        smallest = s[:, -1]
         if (~singular).any():
             steps[~singular] = np.linalg.solve(A[~singular], -F[~singular][..., None])[..., 0]
         return steps, singular, smallest
@@ -233,7 +234,7 @@ def newton_steps(A, F, G=None) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
         if not (np.all(np.isfinite(s)) and s[-1] > 1e-14 * s[0]):
             singular[i] = True
             continue
-        smallest[i] = s[-1] / max(1.0, s[0])
+        smallest[i] = s[-1]
         steps[i] = Q @ np.linalg.lstsq(AQ, -F[i], rcond=None)[0]
     return steps, singular, smallest
 
