@@ -28,8 +28,8 @@ from phaselab.compute import codes, inputs
 from phaselab.compute.labels import netcdf_attrs, provenance
 from phaselab.compute.periodic_checks import PROBE_BELOW, STALL_FACTOR, guess_report, rounding_level, warn_if_far
 from phaselab.compute.returns import OFF_SHELL, ReturnMap, return_map
-from phaselab.compute.symmetries import (NEARLY_SINGULAR, SectionSymmetry, newton_steps, phase_conditions,
-                                        reduced_monodromy)
+from phaselab.compute.symmetries import (DEGENERATE, NEARLY_DEGENERATE, NEARLY_SINGULAR, SectionSymmetry,
+                                        newton_steps, phase_conditions, reduced_monodromy)
 from phaselab.errors import IntegrationError, ParameterError
 
 STABILITY = ("stable", "unstable", "inverse-unstable", "parabolic")
@@ -43,17 +43,10 @@ REASONS = {
     codes.NOT_CONVERGED: "an implicit step did not converge",
     codes.TIME_LIMIT: "no crossing of the plane came within the time cap",
     OFF_SHELL: "left the energy shell (no real solution of H = E for the solved component)",
-    "singular": "singular Jacobian (P - I is not invertible here: a parabolic orbit or a family)",
-    "degenerate": ("P - I is singular at this orbit: it belongs to a continuous family of periodic orbits "
-                   "(a conserved quantity or symmetry beyond the energy that was not recognised, an "
-                   "integrable system, or a parabolic orbit), so Newton's method has no unique answer and a "
-                   "closer guess will not help; remove the symmetry (fix the conserved momentum, use "
-                   "coordinates in which it is a cyclic coordinate's momentum) or choose another section"),
-    "nearly singular": ("the line search found no decrease where P - I is nearly singular (a multiplier "
-                        "within 1e-4 of +1 besides those of recognised symmetries): the orbit is close to "
-                        "parabolic or to a continuous family of periodic orbits (an integrable or degenerate "
-                        "system), where Newton's method has no well-defined answer; a closer guess will "
-                        "likely not help"),
+    "singular": ("singular Jacobian (P - I is not invertible here: a parabolic orbit or a family of "
+                 "periodic orbits, where a closer guess will not help)"),
+    "degenerate": DEGENERATE,
+    "nearly singular": NEARLY_DEGENERATE,
     "budget": "iteration budget used up",
     "line search": "the line search found no decrease (the guess is too far)",
 }

@@ -43,6 +43,18 @@ an orbit close to parabolic or to a family."""
 SEED = 20170
 """Fixed seed of the sample states, so that a search is repeatable."""
 
+DEGENERATE = (
+    "P - I is singular at this orbit: it belongs to a continuous family of periodic orbits (a "
+    "conserved quantity or symmetry beyond the energy that was not recognised, an integrable system, "
+    "or a parabolic orbit), so Newton's method has no unique answer and a closer guess will not help; "
+    "remove the symmetry (fix the conserved momentum, use coordinates in which it is a cyclic "
+    "coordinate's momentum) or choose another section")
+NEARLY_DEGENERATE = (
+    "the line search found no decrease where P - I is nearly singular (a multiplier within about 1e-4 "
+    "of +1 besides those of recognised symmetries): the orbit is close to parabolic or to a continuous "
+    "family of periodic orbits (an integrable or degenerate system), where Newton's method has no "
+    "well-defined answer; a closer guess will likely not help")
+
 
 @dataclass
 class Symmetries:
