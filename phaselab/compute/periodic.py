@@ -373,7 +373,7 @@ def newton(ret1: ReturnMap, U0, shifts, tol: float = 1e-11, maxit: int = 30, sym
                     U[i], F[i], norm[i] = trial_U[j], Ft[j], nt[j]
                     _put_images(images, i, trial_img, j, k)
                 elif trial == 0 and norm[i] <= PROBE_BELOW * scale[i]:
-                    stalled[r] = _stalled(ret1, U, F, images, shifts, norm, scale, rounding, i)
+                    stalled[r] = _stalled(ret1, U, images, shifts, norm, scale, rounding, i)
             lam[~accepted] *= 0.5
             if np.all(accepted | stalled):
                 break
@@ -384,13 +384,13 @@ def newton(ret1: ReturnMap, U0, shifts, tol: float = 1e-11, maxit: int = 30, sym
         iters[idx[accepted]] += 1
     for i in np.flatnonzero(active):
         reason[i] = "budget"
-        if norm[i] <= PROBE_BELOW * scale[i] and _stalled(ret1, U, F, images, shifts, norm, scale, rounding, i):
+        if norm[i] <= PROBE_BELOW * scale[i] and _stalled(ret1, U, images, shifts, norm, scale, rounding, i):
             reason[i] = "converged"
     return _Solve(U=U, reason=reason, residual=norm, iterations=iters, images=images, rounding=rounding,
                   start_time=start_time)
 
 
-def _stalled(ret1, U, F, images, shifts, norm, scale, rounding, i) -> bool:
+def _stalled(ret1, U, images, shifts, norm, scale, rounding, i) -> bool:
     """Whether orbit ``i`` has a residual within ``STALL_FACTOR`` of its rounding noise (see
     :func:`phaselab.compute.periodic_checks.rounding_level`), which is put in ``rounding[i]``."""
     k, d = U.shape[1:]
@@ -400,7 +400,7 @@ def _stalled(ret1, U, F, images, shifts, norm, scale, rounding, i) -> bool:
         Fb, _, st, _ = _evaluate(ret1, Ub, np.broadcast_to(shifts[i], Ub.shape))
         return Fb, st == codes.OK
 
-    rounding[i] = rounding_level(evaluate, U[i], F[i], A, scale[i])
+    rounding[i] = rounding_level(evaluate, U[i], A, scale[i])
     if norm[i] <= STALL_FACTOR * rounding[i]:
         return True
     rounding[i] = np.nan

@@ -31,7 +31,7 @@ FAR_PERIOD = 0.2
 """... or when its period differs by more than this fraction from the guess's return time."""
 
 
-def rounding_level(evaluate, U, F, A, scale) -> float:
+def rounding_level(evaluate, U, A, scale) -> float:
     """The rounding noise of the shooting residual at ``U`` (max norm).
 
     The residual is evaluated at ``PROBES`` pairs of points ``U +- h`` with
@@ -46,8 +46,6 @@ def rounding_level(evaluate, U, F, A, scale) -> float:
     evaluate : callable
         ``evaluate(U_batch (P, k, d)) -> (F (P, k, d), ok (P,))``.
     U : ndarray, shape (k, d)
-    F : ndarray, shape (k, d)
-        The residual at ``U`` (kept for the signature; the central difference does not use it).
     A : ndarray, shape (k d, k d)
         Its Jacobian.
     scale : float
@@ -115,9 +113,12 @@ def warn_if_far(orbit) -> None:
     far_state = np.isfinite(dist) and dist > FAR_STATE * size
     far_period = np.isfinite(dper) and abs(dper) > FAR_PERIOD * abs(orbit.period)
     if far_state or far_period:
+        parts = []
+        if far_state:
+            parts.append(f"{dist:.3g} away in state (the orbit's size is {size:.3g})")
+        if far_period:
+            parts.append(f"its period {orbit.period:.6g} differs by {dper:+.3g} from the guess's return time")
         warnings.warn(
-            f"the periodic orbit found lies far from the guess: {dist:.3g} away in state (the orbit's "
-            f"size is {size:.3g}) and its period {orbit.period:.6g} differs by {dper:+.3g} from the "
-            "guess's return time; Newton's method may have gone to another orbit. Check it, or start "
-            "closer (e.g. from a nearby member at a smaller energy or parameter step)",
-            PhaselabWarning, stacklevel=3)
+            f"the periodic orbit found lies far from the guess: {' and '.join(parts)}; Newton's method may "
+            "have gone to another orbit. Check it, or start closer (e.g. from a nearby member at a smaller "
+            "energy or parameter step)", PhaselabWarning, stacklevel=3)
