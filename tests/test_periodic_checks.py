@@ -74,3 +74,16 @@ def test_distance_from_the_guess_is_reported_and_a_far_one_warned(henon_heiles):
         again = phaselab.periodic_orbit(henon_heiles, o.points[0], plane={"x": 0.0}, energy=E,
                                         method="yoshida8", dt=0.01)
     assert again.distance_from_guess < 1e-9 and abs(again.period_change) < 1e-9
+
+
+def test_an_orbit_of_a_resonant_drive_is_flagged_far():
+    """q'' + q = e cos t, driven at its own frequency, has no periodic orbit: every solution
+    grows like (e/2) t sin t (resonance; Landau & Lifshitz, Mechanics, sec. 22). The discrete
+    stroboscopic map is slightly off resonance and has a fixed point at a large amplitude,
+    which Newton's method finds from a small guess; the search says it is far away."""
+    driven = phaselab.Hamiltonian("p**2/2 + q**2/2 - e*q*cos(t)", ["q"], ["p"], params={"e": 0.1},
+                                  time="t", period="2*pi", name="resonant drive")
+    with pytest.warns(PhaselabWarning, match="far from the guess"):
+        o = phaselab.periodic_orbit(driven, [0.1, 0.0], dt=0.5)
+    assert o.distance_from_guess == pytest.approx(np.max(np.abs(o.points[0] - [0.1, 0.0])), rel=1e-12)
+    assert o.distance_from_guess > 10 and o.period_change == 0.0
