@@ -18,6 +18,8 @@ The rule
   converge, Newton's method that does not converge, a step found far too large by the
   probe). The inputs were acceptable; the numerics failed on them.
 - :class:`StudyFileError`: anything wrong with a study file, as ``file: key: problem``.
+- :class:`PhaselabWarning` (a warning, not an error): a result was computed but may not be what
+  was meant (a periodic orbit found far from its guess). Filter it like any Python warning.
 
 Failures that concern one orbit of a batch are not raised at all: the orbit is flagged in the
 result's ``status`` (see :mod:`phaselab.compute.codes`) and the rest of the batch is returned.
