@@ -8,7 +8,8 @@ imported on first use, so a script pays only for what it calls.
 __version__ = "0.1.0"
 
 from phaselab.errors import (ExpressionError, IntegrationError, ModelError,  # noqa: E402
-                             ParameterError, PhaselabError, StudyFileError, DataFileError)
+                             ParameterError, PhaselabError, StudyFileError, DataFileError,
+                             PhaselabWarning)
 from phaselab.model.hamiltonian import Hamiltonian  # noqa: E402
 
 _LAZY = {
@@ -59,7 +60,8 @@ _LAZY = {
 }
 
 __all__ = ["Hamiltonian", "PhaselabError", "ExpressionError", "ModelError", "ParameterError",
-           "IntegrationError", "StudyFileError", "DataFileError", "__version__", *_LAZY]
+           "IntegrationError", "StudyFileError", "DataFileError", "PhaselabWarning",
+           "__version__", *_LAZY]
 
 
 def __getattr__(name):

@@ -23,6 +23,8 @@ The rule
   truncated, edited, or crafted with types, ranges, units or sizes phaselab never writes.
   The message names the file and what is wrong with it. A damaged part that phaselab can
   recompute (a chunk of a scan store) is recomputed with a warning instead.
+- :class:`PhaselabWarning` (a warning, not an error): a result was computed but may not be what
+  was meant (a periodic orbit found far from its guess). Filter it like any Python warning.
 
 Failures that concern one orbit of a batch are not raised at all: the orbit is flagged in the
 result's ``status`` (see :mod:`phaselab.engine.status`) and the rest of the batch is returned.
@@ -55,3 +57,8 @@ class StudyFileError(PhaselabError, ValueError):
 
 class DataFileError(PhaselabError, ValueError):
     """A data file or store read back is damaged or is not what phaselab writes."""
+
+
+class PhaselabWarning(UserWarning):
+    """A result was computed but may not be what was meant (e.g. a periodic orbit found far
+    from its guess). Filter with ``warnings.simplefilter("error", PhaselabWarning)``."""

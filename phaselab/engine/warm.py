@@ -10,8 +10,11 @@ from __future__ import annotations
 
 import os
 import time
+import warnings
 
 import numpy as np
+
+from phaselab.errors import PhaselabWarning
 
 
 def _paths():
@@ -70,7 +73,9 @@ def warm(verbose: bool = False) -> dict:
     try:
         for name, run in _paths().items():
             t0 = time.perf_counter()
-            run()
+            with warnings.catch_warnings():      # the answers are not the point here, the compiling is
+                warnings.simplefilter("ignore", PhaselabWarning)
+                run()
             report[name] = time.perf_counter() - t0
             if verbose:
                 print(f"{name:32s} {report[name]:6.1f} s", flush=True)

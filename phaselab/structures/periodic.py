@@ -24,12 +24,14 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from phaselab.engine import status as codes
-
 from phaselab.engine import inputs
+from phaselab.engine import status as codes
 from phaselab.engine.provenance import netcdf_attrs, provenance
 from phaselab.structures.multipliers import multiplier_pairs
+from phaselab.structures.periodic_checks import PROBE_BELOW, STALL_FACTOR, guess_report, rounding_level, warn_if_far
 from phaselab.structures.returns import OFF_SHELL, ReturnMap, return_map
+from phaselab.structures.symmetries import (DEGENERATE, NEARLY_DEGENERATE, NEARLY_SINGULAR, SectionSymmetry,
+                                           newton_steps, phase_conditions, reduced_monodromy)
 from phaselab.errors import IntegrationError, ParameterError
 
 STABILITY = ("stable", "unstable", "inverse-unstable", "parabolic")
@@ -43,7 +45,10 @@ REASONS = {
     codes.NOT_CONVERGED: "an implicit step did not converge",
     codes.TIME_LIMIT: "no crossing of the plane came within the time cap",
     OFF_SHELL: "left the energy shell (no real solution of H = E for the solved component)",
-    "singular": "singular Jacobian (P - I is not invertible here: a parabolic orbit or a family)",
+    "singular": ("singular Jacobian (P - I is not invertible here: a parabolic orbit or a family of "
+                 "periodic orbits, where a closer guess will not help)"),
+    "degenerate": DEGENERATE,
+    "nearly singular": NEARLY_DEGENERATE,
     "budget": "iteration budget used up",
     "line search": "the line search found no decrease (the guess is too far)",
 }
@@ -88,6 +93,21 @@ class PeriodicOrbit:
         max |P(u) - u - shift| at the solution.
     iterations : int
         Newton steps taken.
+    rounding : float
+        The measured rounding noise of the residual where Newton's method stopped short of
+        ``tol`` because the residual could not fall further (the orbit is then converged as far
+        as floating point allows, and ``residual`` is what was reached); NaN when ``tol`` was met.
+    distance_from_guess : float
+        max |z - guess| over the state components, between the first point and the guess (or
+        the start of :func:`find_periodic_orbits`) as placed on the section; NaN for orbits not
+        found by :func:`periodic_orbit` or :func:`find_periodic_orbits`. :func:`periodic_orbit`
+        warns (:class:`~phaselab.errors.PhaselabWarning`) when it is large for the orbit's size.
+    period_change : float
+        period - the return time of the guess (NaN likewise).
+    symmetries : int
+        Continuous symmetries (conserved momenta) of the flow that move this orbit along a
+        family of copies; their 2 trivial multipliers at +1 each are left out of
+        ``multipliers``, ``stability`` and ``residue`` (``monodromy`` is the full matrix).
     system, params, plane, method, dt
         How it was computed.
     stability_indices : ndarray of complex, shape (d/2,)
@@ -116,6 +136,10 @@ class PeriodicOrbit:
     dt: float = float("nan")
     settings: dict = field(default_factory=dict)
     stability_indices: np.ndarray | None = None
+    rounding: float = float("nan")
+    distance_from_guess: float = float("nan")
+    period_change: float = float("nan")
+    symmetries: int = 0
 
     def return_map(self, k: int | None = None) -> ReturnMap:
         """The return map this orbit is a fixed point of (or its ``k``-th return map), with
@@ -247,6 +271,8 @@ class _Solve:
     residual: np.ndarray
     iterations: np.ndarray
     images: object         # ReturnImages of the N*k points (row-major over orbits, then points)
+    rounding: np.ndarray = None    # (N,) measured rounding noise where the search stalled, else NaN
+    start_time: np.ndarray = None  # (N,) the return time of each start (sum over its legs)
 
 
 def _evaluate(ret1: ReturnMap, U, shifts):
@@ -275,7 +301,7 @@ def _shooting_matrix(img, M, k, d):
     return A
 
 
-def newton(ret1: ReturnMap, U0, shifts, tol: float = 1e-11, maxit: int = 30) -> _Solve:
+def newton(ret1: ReturnMap, U0, shifts, tol: float = 1e-11, maxit: int = 30, symmetry=None) -> _Solve:
     """Damped Newton's method, by multiple shooting, for period-k orbits from many starts.
 
     Each orbit is k points u_0..u_(k-1) joined by one return each: P(u_i) = u_(i+1) + s_i
@@ -292,6 +318,15 @@ def newton(ret1: ReturnMap, U0, shifts, tol: float = 1e-11, maxit: int = 30) -> 
     U0 : ndarray, shape (N, k, d)
     shifts : ndarray, shape (N, k, d)
         What each leg advances (winding of wrapped coordinates, or a given shift).
+    symmetry : SectionSymmetry, optional
+        Continuous symmetries of the flow. With any, every step is the minimum-norm solution
+        orthogonal to the neutral directions at the first point (phase conditions), which
+        picks one orbit of the family (see :mod:`phaselab.structures.symmetries`).
+
+    Where a full step fails to decrease a residual already below ``PROBE_BELOW`` of the scale
+    (or the budget runs out there), the residual's rounding noise is measured; within
+    ``STALL_FACTOR`` of it the search has converged as far as floating point allows and ends
+    as converged, with that noise in ``rounding`` (:mod:`phaselab.structures.periodic_checks`).
 
     Returns
     -------
@@ -302,6 +337,9 @@ def newton(ret1: ReturnMap, U0, shifts, tol: float = 1e-11, maxit: int = 30) -> 
     reason: list = [None] * n
     iters = np.zeros(n, dtype=np.int64)
     F, images, status, norm = _evaluate(ret1, U, shifts)
+    start_time = images.time.reshape(n, k).sum(axis=1)
+    rounding = np.full(n, np.nan)
+    smallest = np.full(n, np.nan)
     scale = 1.0 + (np.max(np.abs(U.reshape(n, -1)), axis=1) if d else np.zeros(n))
     for i in range(n):
         if status[i] != codes.OK:
@@ -317,41 +355,62 @@ def newton(ret1: ReturnMap, U0, shifts, tol: float = 1e-11, maxit: int = 30) -> 
         idx = np.flatnonzero(active)
         sub_img = _take_images(images, idx, k)
         A = _shooting_matrix(sub_img, len(idx), k, d)
-        with np.errstate(all="ignore"):
-            cond = np.linalg.cond(A)
-        singular = ~np.isfinite(cond) | (cond > 1e14)
+        G = phase_conditions(symmetry, U[idx, 0], k) if symmetry is not None and symmetry.count else None
+        step, singular, smallest[idx] = newton_steps(A, F[idx].reshape(len(idx), k * d), G)
         for i in idx[singular]:
-            reason[i] = "singular"
+            reason[i] = "singular" if G is None else "degenerate"
             active[i] = False
-        keep = ~singular
-        idx = idx[keep]
+        idx, step = idx[~singular], step[~singular]
         if idx.size == 0:
             break
-        step = np.linalg.solve(A[keep], -F[idx].reshape(len(idx), k * d)[..., None])[..., 0]
         step = step.reshape(len(idx), k, d)
         lam = np.ones(idx.size)
         accepted = np.zeros(idx.size, dtype=bool)
-        for _ in range(13):
-            todo = np.flatnonzero(~accepted)
+        stalled = np.zeros(idx.size, dtype=bool)
+        for trial in range(13):
+            todo = np.flatnonzero(~accepted & ~stalled)
             trial_U = U[idx[todo]] + lam[todo, None, None] * step[todo]
             Ft, trial_img, st_t, nt = _evaluate(ret1, trial_U, shifts[idx[todo]])
             ok = nt <= (1.0 - 0.25 * lam[todo]) * norm[idx[todo]]
             for j, r in enumerate(todo):
+                i = idx[r]
                 if ok[j]:
                     accepted[r] = True
-                    i = idx[r]
                     U[i], F[i], norm[i] = trial_U[j], Ft[j], nt[j]
                     _put_images(images, i, trial_img, j, k)
+                elif trial == 0 and norm[i] <= PROBE_BELOW * scale[i]:
+                    stalled[r] = _stalled(ret1, U, images, shifts, norm, scale, rounding, i)
             lam[~accepted] *= 0.5
-            if accepted.all():
+            if np.all(accepted | stalled):
                 break
         for r in np.flatnonzero(~accepted):
-            reason[idx[r]] = "line search"
+            near = smallest[idx[r]] <= NEARLY_SINGULAR
+            reason[idx[r]] = "converged" if stalled[r] else "nearly singular" if near else "line search"
             active[idx[r]] = False
         iters[idx[accepted]] += 1
     for i in np.flatnonzero(active):
         reason[i] = "budget"
-    return _Solve(U=U, reason=reason, residual=norm, iterations=iters, images=images)
+        if norm[i] <= PROBE_BELOW * scale[i] and _stalled(ret1, U, images, shifts, norm, scale, rounding, i):
+            reason[i] = "converged"
+    return _Solve(U=U, reason=reason, residual=norm, iterations=iters, images=images, rounding=rounding,
+                  start_time=start_time)
+
+
+def _stalled(ret1, U, images, shifts, norm, scale, rounding, i) -> bool:
+    """Whether orbit ``i`` has a residual within ``STALL_FACTOR`` of its rounding noise (see
+    :func:`phaselab.structures.periodic_checks.rounding_level`), which is put in ``rounding[i]``."""
+    k, d = U.shape[1:]
+    A = _shooting_matrix(_take_images(images, [i], k), 1, k, d)[0]
+
+    def evaluate(Ub):
+        Fb, _, st, _ = _evaluate(ret1, Ub, np.broadcast_to(shifts[i], Ub.shape))
+        return Fb, st == codes.OK
+
+    rounding[i] = rounding_level(evaluate, U[i], A, scale[i])
+    if norm[i] <= STALL_FACTOR * rounding[i]:
+        return True
+    rounding[i] = np.nan
+    return False
 
 
 def _take_images(images, idx, k):
@@ -432,8 +491,9 @@ def _assemble(ret: ReturnMap, u, images, shift, residual, iterations) -> Periodi
     return _orbit(ret, ret.k, points, images.jacobian, float(images.time), shift, residual, iterations)
 
 
-def _assemble_shooting(ret1: ReturnMap, U, images, shifts, residual, iterations) -> PeriodicOrbit:
-    """A PeriodicOrbit from the k points ``U`` (k, d) of a multiple-shooting solution."""
+def _assemble_shooting(ret1: ReturnMap, U, images, shifts, residual, iterations, symmetry=None) -> PeriodicOrbit:
+    """A PeriodicOrbit from the k points ``U`` (k, d) of a multiple-shooting solution; with a
+    ``symmetry`` its stability is that of the reduced monodromy."""
     k = U.shape[0]
     M = np.eye(ret1.dim)
     for i in range(k):
@@ -441,14 +501,20 @@ def _assemble_shooting(ret1: ReturnMap, U, images, shifts, residual, iterations)
     z = ret1.lift(U)[0]
     if ret1.kind == "map":
         z = ret1.wrap(z)
-    return _orbit(ret1, k, z, M, float(np.sum(images.time)), shifts.sum(axis=0), residual, iterations)
+    reduced, count = None, 0
+    if symmetry is not None and symmetry.count:
+        G, C = symmetry.directions(U[:1])[0]
+        reduced = reduced_monodromy(M, G, C)
+        count = len(G) if reduced is not None else 0
+    return _orbit(ret1, k, z, M, float(np.sum(images.time)), shifts.sum(axis=0), residual, iterations,
+                  reduced=reduced, symmetries=count)
 
 
-def _orbit(ret, k, points, M, period, shift, residual, iterations) -> PeriodicOrbit:
+def _orbit(ret, k, points, M, period, shift, residual, iterations, reduced=None, symmetries=0) -> PeriodicOrbit:
     from phaselab.orbits.trajectory import trajectory
 
     system = ret.system
-    mult, word, residue, rotation = classify(M)
+    mult, word, residue, rotation = classify(M if reduced is None else reduced)
     orbit = None
     if ret.kind in ("plane", "stroboscopic"):
         with warnings.catch_warnings():
@@ -465,7 +531,8 @@ def _orbit(ret, k, points, M, period, shift, residual, iterations) -> PeriodicOr
         plane=getattr(ret, "plane", None) if ret.kind == "plane" else ret.kind,
         method="map" if ret.kind == "map" else ret.method.name,
         dt=float(getattr(ret, "h", float("nan"))), settings=_settings(ret),
-        stability_indices=multiplier_pairs(M).indices)
+        stability_indices=multiplier_pairs(M if reduced is None else reduced).indices,
+        symmetries=int(symmetries))
 
 
 def _settings(ret: ReturnMap) -> dict:
@@ -572,9 +639,19 @@ def periodic_orbit(system, guess, period=1, plane=None, energy=None, params=None
     ParameterError, ModelError
         Bad arguments, or a system that cannot do this.
 
+    Warns
+    -----
+    PhaselabWarning
+        The orbit found lies far from the guess for its size, or its period far from the
+        guess's return time (``distance_from_guess``, ``period_change``).
+
     Notes
     -----
-    A period of k returns is solved by multiple shooting: the k points of the orbit are the
+    A flow with conserved momenta (translations, rotations, cyclic coordinates; found from
+    the vector field, :mod:`phaselab.structures.symmetries`) has a family of copies of each
+    periodic orbit: the steps are then taken orthogonal to the family. A residual that
+    cannot reach ``tol`` because of rounding ends the search at the rounding level
+    (``rounding``). A period of k returns is solved by multiple shooting: the k points of the orbit are the
     unknowns, each joined to the next by one return (see :func:`newton`). The monodromy is
     the product of the k one-return Jacobians, exact derivatives from the tangent maps of the
     integrator.
@@ -596,16 +673,29 @@ def periodic_orbit(system, guess, period=1, plane=None, energy=None, params=None
     if status[0] != codes.OK:
         raise IntegrationError(f"no period-{k} orbit found from this guess: following the guess, "
                                f"{_explain(int(status[0]))}")
-    sol = newton(ret1, U0, shifts, tol=tol, maxit=maxit)
+    symmetry = SectionSymmetry(ret1, ret1.lift(U0[0, :1])[0][0]) if ret1.kind == "plane" else None
+    sol = newton(ret1, U0, shifts, tol=tol, maxit=maxit, symmetry=symmetry)
     why = sol.reason[0]
     if why != "converged":
+        advice = "" if why in ("singular", "degenerate", "nearly singular") else "; try a closer guess" + (
+            ", another energy" if ret1.kind == "plane" else "") + (" or a smaller dt" if ret1.kind != "map" else "")
         raise IntegrationError(
             f"no period-{k} orbit found from this guess: {_explain(why)} (after "
-            f"{int(sol.iterations[0])} Newton steps, residual {sol.residual[0]:.3g}); try a closer guess"
-            + (", another energy" if ret1.kind == "plane" else "")
-            + (" or a smaller dt" if ret1.kind != "map" else ""))
-    return _assemble_shooting(ret1, sol.U[0], _take_images(sol.images, [0], k), shifts[0], sol.residual[0],
-                              sol.iterations[0])
+            f"{int(sol.iterations[0])} Newton steps, residual {sol.residual[0]:.3g}){advice}")
+    orbit = _assemble_shooting(ret1, sol.U[0], _take_images(sol.images, [0], k), shifts[0], sol.residual[0],
+                               sol.iterations[0], symmetry=symmetry)
+    _report(ret1, orbit, U0[0, 0], sol, 0)
+    warn_if_far(orbit)
+    return orbit
+
+
+def _report(ret1, orbit, u_start, sol, j) -> None:
+    """Put the rounding level and the distance from the start ``u_start`` (d,) on ``orbit``."""
+    start = ret1.lift(u_start[None, :])[0][0]
+    orbit.rounding = float(sol.rounding[j])
+    orbit.distance_from_guess, orbit.period_change = guess_report(
+        orbit, start, float(sol.start_time[j]),
+        wrap=(lambda v: _wrapped_difference(ret1, v, 0.0 * v)) if ret1.kind == "map" else None)
 
 
 @dataclass(repr=False)
@@ -721,7 +811,8 @@ def find_periodic_orbits(system, period, region=None, seeds=None, plane=None, en
         key = _explain(int(st))
         failed[key] = failed.get(key, 0) + 1
     run = np.flatnonzero(status == codes.OK)
-    sol = newton(ret1, U0[run], shifts[run], tol=tol, maxit=maxit) if run.size else None
+    symmetry = SectionSymmetry(ret1, ret1.lift(U0[run[0], :1])[0][0]) if ret1.kind == "plane" and run.size else None
+    sol = newton(ret1, U0[run], shifts[run], tol=tol, maxit=maxit, symmetry=symmetry) if run.size else None
     orbits: list = []
     for j in range(run.size):
         why = sol.reason[j]
@@ -730,7 +821,8 @@ def find_periodic_orbits(system, period, region=None, seeds=None, plane=None, en
             failed[key] = failed.get(key, 0) + 1
             continue
         cand = _assemble_shooting(ret1, sol.U[j], _take_images(sol.images, [j], k), shifts[run[j]],
-                                  sol.residual[j], sol.iterations[j])
+                                  sol.residual[j], sol.iterations[j], symmetry=symmetry)
+        _report(ret1, cand, U0[run[j], 0], sol, j)
         if _least_period(ret1, cand, same) < k:
             failed["least period smaller than asked"] = failed.get("least period smaller than asked", 0) + 1
             continue

@@ -9,7 +9,7 @@ from pathlib import Path
 import numpy as np
 import sympy as sp
 
-from phaselab.base.files import atomic_path
+from phaselab.base.atomic import atomic_path
 from phaselab.errors import ParameterError
 from phaselab.structures.normal_forms.islands import resonance_width
 from phaselab.structures.normal_forms.polynomials import as_arrays, evaluate
@@ -244,7 +244,7 @@ class NormalForm:
 
     def summary(self) -> dict:
         """Everything needed to rebuild the Hamiltonian, as plain JSON-ready values."""
-        return {"kind": "normal_form", "system": self.system_name, "params": self.params,
+        return {"result": "normal_form", "system": self.system_name, "params": self.params,
                 "state_names": list(self.names), "equilibrium": self.equilibrium.tolist(),
                 "kind": self.kind, "order": self.order, "arithmetic": self.arithmetic, "arithmetic_note": self.arithmetic_note,
                 "omega": self.omega.tolist(), "resonances": [list(r) for r in self.resonances],
