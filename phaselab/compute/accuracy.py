@@ -162,8 +162,8 @@ def step_for_accuracy(p: Pilot, accuracy: float) -> tuple[float, float]:
     for _ in range(MAX_ROUNDS):
         e = timing_error(p, h)
         if not np.isfinite(e):
-            raise IntegrationError(f"the accuracy cannot be measured at dt = {h:.3g}: no pilot orbit ran "
-                                   "to the end (they leave the region or go non-finite); give dt instead")
+            raise IntegrationError(f"the accuracy cannot be measured at dt = {h:.3g}: no pilot orbit "
+                                   "gives an error (they stop early, or sit at an equilibrium); give dt instead")
         if e <= accuracy and (best is None or h > best[0]):
             best = (h, e)
         if last is not None and h < last[0] and e > 0.5 * last[1] and e > accuracy:
