@@ -94,3 +94,19 @@ def test_aliased_record_warns_and_the_advised_n_resolves_it():
         fine = phaselab.frequencies(H, [1.0, 0.0], t=255.0, n=256)
     assert good.nu[0, 0] == pytest.approx(f0, rel=1e-6)
     assert fine.nu[0, 0] == pytest.approx(f0, rel=1e-6)
+
+
+def test_rotating_angle_sampled_too_sparsely_warns(pendulum13):
+    """A pendulum rotating over the top from (0, 10) turns about 10 / (2 pi) = 1.6 times per
+    unit time (dq/dt = p, between sqrt(100 - 4 w0^2) = 9.66 at the top and 10 at the bottom,
+    by energy conservation of H = p^2/2 - w0^2 cos q; derived here): sampled every 0.5 with q
+    declared an angle its line folds into |nu| < 1 and a warning says so; sampled every 0.1
+    no warning comes, and the rate lies between those bounds over 2 pi."""
+    seed = [0.0, 10.0]
+    with pytest.warns(RuntimeWarning, match="aliased"):
+        phaselab.frequencies(pendulum13, seed, t=0.5 * 511, n=512, angles={"q": 2 * np.pi})
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        fine = phaselab.frequencies(pendulum13, seed, t=0.1 * 511, n=512, angles={"q": 2 * np.pi})
+    p_min = np.sqrt(100.0 - 4 * W0**2)      # p at q = pi from H(0, 10) = H(pi, p)
+    assert p_min / (2 * np.pi) < fine.nu[0, 0] < 10.0 / (2 * np.pi)

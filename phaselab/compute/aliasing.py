@@ -10,9 +10,10 @@ natural system with one degree of freedom, ``q'' = -V'(q)``, the velocity solves
 two per period) are at least ``pi / sqrt(max V'')`` apart and the orbit's frequency is at
 most ``sqrt(max V'') / (2 pi)``; ``sqrt(V'')`` is the imaginary part of the eigenvalues of
 the Jacobian of the vector field. With more degrees of freedom the same bound is a
-guide, not a theorem. A driven flow also carries its driving frequency. The check takes
-the largest imaginary part of the Jacobian's eigenvalues over (a subsample of) each
-record, and the drive, and warns where that reaches past the fold range.
+guide, not a theorem. A driven flow also carries its driving frequency, and a coordinate
+read as an angle (which may rotate rather than librate) turns ``|dq/dt| / period`` times per
+unit time at most. The check takes the largest of these over (a subsample of) each record
+and warns where it reaches past the fold range.
 """
 
 from __future__ import annotations
@@ -32,8 +33,9 @@ MARGIN = 1.25
 """Headroom of the advised ``n`` or ``t`` over the bound."""
 
 
-def frequency_bound(system, states, step, params) -> np.ndarray:
-    """The largest linear frequency along each record, in cycles per unit time.
+def frequency_bound(system, states, step, params, angles=None) -> np.ndarray:
+    """The largest linear frequency (or rate of turning of an angle) along each record, in
+    cycles per unit time.
 
     Parameters
     ----------
@@ -44,11 +46,14 @@ def frequency_bound(system, states, step, params) -> np.ndarray:
         Time between samples.
     params : mapping
         Parameter values by name.
+    angles : mapping of int to float, optional
+        Period of each coordinate (by index) read as an angle.
 
     Returns
     -------
     ndarray, shape (n_orbits,)
-        ``max |Im lambda| / (2 pi)`` over the samples looked at (NaN where none is finite).
+        ``max |Im lambda| / (2 pi)`` and ``max |dq_i/dt| / period_i`` over the samples looked
+        at (NaN where none is finite).
     """
     k, n, m = states.shape
     if k == 0:
@@ -72,15 +77,19 @@ def frequency_bound(system, states, step, params) -> np.ndarray:
         ok = np.all(np.isfinite(jac), axis=(1, 2))
         vals = np.full(len(jac), np.nan)
         if ok.any():
-            vals[ok] = np.abs(np.linalg.eigvals(jac[ok]).imag).max(axis=1)
+            vals[ok] = np.abs(np.linalg.eigvals(jac[ok]).imag).max(axis=1) / (2.0 * np.pi)
+        if angles:
+            speed = cs.evaluate("vector_field", Z[good], prm)
+            for i, period in angles.items():    # coordinates keep their places in extended space
+                vals = np.fmax(vals, np.abs(speed[:, int(i)]) / float(period))
         lam[good] = vals
     lam = lam.reshape(k, len(idx))
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", RuntimeWarning)
-        return np.nanmax(lam, axis=1) / (2.0 * np.pi)
+        return np.nanmax(lam, axis=1)
 
 
-def warn_if_aliased(system, states, rows, step, t, n, params, fold, drive=None) -> np.ndarray:
+def warn_if_aliased(system, states, rows, step, t, n, params, fold, drive=None, angles=None) -> np.ndarray:
     """Warn when the leading line of a record sampled in time may be folded (aliased).
 
     Parameters
@@ -100,6 +109,8 @@ def warn_if_aliased(system, states, rows, step, t, n, params, fold, drive=None) 
     fold : {"signed", "positive"}
     drive : float, optional
         Driving frequency (cycles per unit time) of a driven flow.
+    angles : mapping of int to float, optional
+        Coordinates read as angles, with their periods.
 
     Returns
     -------
@@ -107,7 +118,7 @@ def warn_if_aliased(system, states, rows, step, t, n, params, fold, drive=None) 
         Which records may be aliased. A ``RuntimeWarning`` names them and says which ``n``
         (or ``t``) samples them finely enough.
     """
-    bound = frequency_bound(system, states, step, params)
+    bound = frequency_bound(system, states, step, params, angles)
     if drive is not None and np.isfinite(drive):
         bound = np.fmax(bound, abs(drive))
     reach = 0.5 / step if fold == "signed" else 1.0 / step
@@ -119,7 +130,8 @@ def warn_if_aliased(system, states, rows, step, t, n, params, fold, drive=None) 
         t_need = (n - 1) * half / (MARGIN * f)
         shown = np.asarray(rows)[suspect]
         listed = ", ".join(map(str, shown[:10])) + (" ..." if shown.size > 10 else "")
-        source = "the largest linear frequency along the orbit" + (", or the drive" if drive else "")
+        source = ("the largest linear frequency along the orbit" + (", the turning of an angle" if angles else "")
+                  + (", the drive" if drive else ""))
         warnings.warn(
             f"the leading line of orbit(s) {listed} may be aliased: the motion holds frequencies up to "
             f"about {f:.4g} cycles per unit time ({source}), but samples {step:.4g} apart fold every "

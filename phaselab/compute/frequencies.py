@@ -644,7 +644,7 @@ def frequencies(system, seeds, t=None, n=None, params=None, dt=None, method="aut
         l_nu[ok], l_amp[ok], l_ph[ok] = out.lines.nu, out.lines.amplitude, out.lines.phase
         status[ok[out.still]] = STILL
         if how == "time":
-            warn_if_aliased(system, S.states[ok], ok, S.step, t, n, pdict, fold, S.drive)
+            warn_if_aliased(system, S.states[ok], ok, S.step, t, n, pdict, fold, S.drive, ang)
     unit = "cycles per " + S.unit
     base = 1.0 if how != "time" else S.drive
     return Frequencies(nu=nu, lines=SpectralLines(l_nu, l_amp, l_ph), diffusion=diff, status=status,
