@@ -110,3 +110,19 @@ def test_rotating_angle_sampled_too_sparsely_warns(pendulum13):
         fine = phaselab.frequencies(pendulum13, seed, t=0.1 * 511, n=512, angles={"q": 2 * np.pi})
     p_min = np.sqrt(100.0 - 4 * W0**2)      # p at q = pi from H(0, 10) = H(pi, p)
     assert p_min / (2 * np.pi) < fine.nu[0, 0] < 10.0 / (2 * np.pi)
+
+
+@pytest.mark.parametrize("m", [2, 4, 6])
+def test_largest_imaginary_part_matches_numpy(m):
+    """The closed forms for the eigenvalues of 2x2 and 4x4 Hamiltonian matrices (Omega S, S
+    symmetric) against numpy.linalg.eigvals (reference library)."""
+    from phaselab.compute.aliasing import largest_imaginary_part
+
+    n = m // 2
+    rng = np.random.default_rng(m)
+    S = rng.normal(size=(500, m, m))
+    S = S + S.transpose(0, 2, 1)
+    omega = np.block([[np.zeros((n, n)), np.eye(n)], [-np.eye(n), np.zeros((n, n))]])
+    J = omega @ S
+    ref = np.abs(np.linalg.eigvals(J).imag).max(axis=1)
+    np.testing.assert_allclose(largest_imaginary_part(J), ref, rtol=1e-9, atol=1e-9)

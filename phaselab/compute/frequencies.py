@@ -788,7 +788,6 @@ def _metadata(res) -> dict:
         method=res.method, dt=float(res.dt), sample_step=float(res.sample_step),
         n_samples=int(res.n_samples), window=-1 if res.window is None else int(res.window),
         base_frequency=float("nan") if res.base_frequency is None else float(res.base_frequency),
-        error_estimate=float(res.error_estimate),
         diffusion_definition="log10 of the Euclidean norm of nu(second half) - nu(first half)",
         status_codes={str(k): v for k, v in STATUS_TEXT.items()})
 
@@ -815,6 +814,7 @@ def _to_xarray(res):
     if res.lines is not None:
         coords["line"] = np.arange(res.lines.nu.shape[-1])
     ds = xr.Dataset(data_vars=data, coords=coords, attrs=labels.netcdf_attrs(meta))
+    ds.attrs["error_estimate"] = float(res.error_estimate)   # relative timing error of the step
     ds["nu"].attrs.update(units=res.unit, description=f"{res.kind} of each degree of freedom")
     ds["diffusion"].attrs.update(units=f"log10({res.unit})")
     ds["valid"].attrs["description"] = "1 where the orbit was analysed in full"
