@@ -22,9 +22,10 @@ import numpy as np
 
 from numba import njit, prange
 
+from phaselab.engine import accuracy as step_accuracy
 from phaselab.engine import status as codes
-
 from phaselab.engine import inputs
+from phaselab.frequency.aliasing import warn_if_aliased
 from phaselab.frequency.spectral import (MAX_WINDOW_ORDER, SpectralLines, Workspace, chunk_rows,
                                        leading_lines)
 from phaselab.frequency.spectral import window as hann_window
@@ -97,6 +98,10 @@ class Frequencies:
     plane : dict or None
         The section's plane, as in :class:`phaselab.orbits.section_result.Section`.
     system : object
+    error_estimate : float (property)
+        Relative timing error of the integration step (the relative error it gives periods
+        and frequencies; step doubling, :mod:`phaselab.engine.accuracy`). Measured by the call
+        when ``accuracy=`` chose the step, else when first read. NaN for maps and dop853.
     """
 
     nu: np.ndarray
@@ -117,6 +122,13 @@ class Frequencies:
     window: int | None = None
     plane: dict | None = None
     system: object = None
+    measured_error: float | None = field(default=None, repr=False)
+
+    @property
+    def error_estimate(self) -> float:
+        if self.measured_error is None:
+            self.measured_error = step_accuracy.result_estimate(self)
+        return self.measured_error
 
     @property
     def n_orbits(self) -> int:
@@ -236,13 +248,24 @@ class _Samples:
     plane: dict | None
     fixed_dof: int | None
     drive: float | None         # driving frequency in the sample unit (time sampling, driven)
+    error: float | None = None  # relative timing error of the step, when accuracy chose it
 
 
-def _acquire(system, Z0, how, n, t, params, dt, method, plane, direction, box, t_max):
+def _acquire(system, Z0, how, n, t, params, dt, method, plane, direction, box, t_max, accuracy=None):
     """The samples of every orbit, from the public trajectory / section API (flows) or the
-    compiled map iteration (maps). The one place where orbits are produced."""
+    compiled map iteration (maps). The one place where orbits are produced. ``accuracy``
+    chooses the step (:mod:`phaselab.engine.accuracy`) and is measured at the step used."""
     if how == "map":
+        if accuracy is not None:
+            raise ParameterError("accuracy chooses an integration step; a map is iterated exactly")
         return _map_samples(system, Z0, n, params, box)
+    accuracy = step_accuracy.check_accuracy(accuracy, dt, method)
+    if accuracy is not None:
+        span = step_accuracy.record_span(system, how, t, n, params, t_max)
+        dt, _ = step_accuracy.choose_step(system, Z0, span, accuracy, params, method)
+        S = _acquire(system, Z0, how, n, t, params, dt, method, plane, direction, box, t_max)
+        S.error = step_accuracy.estimate(system, Z0, span, S.dt, params, S.method)
+        return S
     if how == "time":
         from phaselab.orbits.trajectory import trajectory
 
@@ -498,7 +521,7 @@ def _fold(nu, fold):
 # ----------------------------------------------------------------------------- frequencies
 def frequencies(system, seeds, t=None, n=None, params=None, dt=None, method="auto", plane=None,
                 direction=+1, lines=1, window=1, angles=None, diffusion=True, fold="signed",
-                box=None, t_max=None) -> Frequencies:
+                box=None, t_max=None, accuracy=None) -> Frequencies:
     """Fundamental frequencies of every orbit by Laskar's frequency analysis.
 
     Each orbit is sampled at equal intervals; each degree of freedom ``(q_i, p_i)`` becomes
@@ -568,6 +591,11 @@ def frequencies(system, seeds, t=None, n=None, params=None, dt=None, method="aut
         Escape region, as in :func:`phaselab.section`.
     t_max : float, optional
         Time cap of a section (see :func:`phaselab.section`).
+    accuracy : float, optional
+        Flows, instead of ``dt``: the relative error of the frequencies asked of the
+        integration (a relative timing error in (0, 1), as in :func:`phaselab.trajectory`);
+        the step is chosen by step doubling over short pilot runs and the error reached is
+        ``.error_estimate``. The spectral analysis adds its own error (see ``n``).
 
     Returns
     -------
@@ -597,7 +625,7 @@ def frequencies(system, seeds, t=None, n=None, params=None, dt=None, method="aut
     if fold not in ("signed", "positive"):
         raise ParameterError(f"fold must be 'signed' or 'positive', got {fold!r}")
     ang = _angles(system, angles)
-    S = _acquire(system, Z0, how, n, t, pdict, dt, method, plane, direction, box, t_max)
+    S = _acquire(system, Z0, how, n, t, pdict, dt, method, plane, direction, box, t_max, accuracy)
 
     dof = system.dof
     cols = [i for i in range(dof) if i != S.fixed_dof]
@@ -616,12 +644,14 @@ def frequencies(system, seeds, t=None, n=None, params=None, dt=None, method="aut
         nu[ok], diff[ok] = out.nu, out.diffusion
         l_nu[ok], l_amp[ok], l_ph[ok] = out.lines.nu, out.lines.amplitude, out.lines.phase
         status[ok[out.still]] = STILL
+        if how == "time":
+            warn_if_aliased(system, S.states[ok], ok, S.step, t, n, pdict, fold, S.drive, ang)
     unit = "cycles per " + S.unit
     base = 1.0 if how != "time" else S.drive
     return Frequencies(nu=nu, lines=SpectralLines(l_nu, l_amp, l_ph), diffusion=diff, status=status,
                        names=names, unit=unit, kind="frequency", sampling=how, base_frequency=base,
                        seeds=Z0, params=pdict, method=S.method, dt=S.dt, sample_step=S.step,
-                       n_samples=n, window=int(window), plane=S.plane, system=system)
+                       n_samples=n, window=int(window), plane=S.plane, system=system, measured_error=S.error)
 
 
 def _common(system, seeds, plane, t, n, params, direction):
@@ -653,7 +683,7 @@ def birkhoff_weights(m: int) -> np.ndarray:
 
 def rotation_number(system, seeds, n=None, angle=None, params=None, t=None, dt=None,
                     method="auto", plane=None, direction=+1, centre=None, box=None,
-                    t_max=None) -> Frequencies:
+                    t_max=None, accuracy=None) -> Frequencies:
     """Rotation numbers from the advance of a lifted angle, by weighted Birkhoff averaging.
 
     ``rho = sum_k w_k (theta_{k+1} - theta_k) / (2 pi)`` with the weights of
@@ -675,7 +705,7 @@ def rotation_number(system, seeds, n=None, angle=None, params=None, t=None, dt=N
         ``atan2(-(p - p_c), q - q_c)`` about ``centre``, clockwise positive like the tunes of
         :func:`frequencies`; its per-sample advance must stay below half a turn. Default:
         the coordinate of a one-degree-of-freedom system.
-    params, dt, method, box, t_max : optional
+    params, dt, method, box, t_max, accuracy : optional
         As in :func:`frequencies`.
     t : float, optional
         Record length for a flow sampled in time.
@@ -718,7 +748,7 @@ def rotation_number(system, seeds, n=None, angle=None, params=None, t=None, dt=N
             raise ParameterError("centre is used only with a pair angle=(q, p)")
         iq, ip = inputs.state_index(system, angle, "angle"), None
         label = system.state_symbols[iq].name
-    S = _acquire(system, Z0, how, n, t, pdict, dt, method, plane, direction, box, t_max)
+    S = _acquire(system, Z0, how, n, t, pdict, dt, method, plane, direction, box, t_max, accuracy)
     if S.fixed_dof is not None and (iq % dof == S.fixed_dof):
         raise ParameterError(f"the angle {label!r} is fixed by the plane {plane}; choose another")
     N = len(Z0)
@@ -747,7 +777,7 @@ def rotation_number(system, seeds, n=None, angle=None, params=None, t=None, dt=N
     return Frequencies(nu=rho, lines=None, diffusion=diff, status=S.status.copy(), names=(label,),
                        unit=unit, kind="rotation", sampling=how, base_frequency=base, seeds=Z0,
                        params=pdict, method=S.method, dt=S.dt, sample_step=S.step, n_samples=n,
-                       window=None, plane=S.plane, system=system)
+                       window=None, plane=S.plane, system=system, measured_error=S.error)
 
 
 # ----------------------------------------------------------------------------- provenance
@@ -785,6 +815,7 @@ def _to_xarray(res):
     if res.lines is not None:
         coords["line"] = np.arange(res.lines.nu.shape[-1])
     ds = xr.Dataset(data_vars=data, coords=coords, attrs=labels.netcdf_attrs(meta))
+    ds.attrs["error_estimate"] = float(res.error_estimate)   # relative timing error of the step
     ds["nu"].attrs.update(units=res.unit, description=f"{res.kind} of each degree of freedom")
     ds["diffusion"].attrs.update(units=f"log10({res.unit})")
     ds["valid"].attrs["description"] = "1 where the orbit was analysed in full"

@@ -47,7 +47,11 @@ class Manifold:
         +1 or -1: which half of the branch (along or against the eigenvector).
     branches : list of ndarray, shape (n_points, 2n)
         Polylines of full states, one per orbit point (a period-k orbit has k), split where
-        a wrapped coordinate jumps across its interval.
+        a wrapped coordinate jumps across its interval. A map's wrapped components are
+        wrapped by its modulus; for a flow, a coordinate in which the orbit winds (its
+        ``shift``) is wrapped modulo that advance, into the interval that starts at the orbit
+        point and extends the way the branch leaves it (so a separatrix lobe from an X-point
+        to its next copy is one piece).
     lifted : list of ndarray, shape (n_points, d)
         The same curves in reduced coordinates, unwrapped (what was grown).
     eigenvalue : float
@@ -197,7 +201,8 @@ def manifold(orbit, branch="unstable", side=+1, length=10.0, max_segment=None, m
                              f"{codes.STATUS.get(int(img.status[0]), 'off the energy shell')}")
         lam, v = _eigen(img.jacobian[0], branch)
         lam_used = lam
-        step = _lifted_map(ret, u_star, img.u[0], inverse=branch == "stable")
+        turns = ret.winding(img.u[0] - u_star, _orbit_shift(orbit, ret.dim, 2 if square else 1))
+        step = _lifted_map(ret, turns, inverse=branch == "stable")
         curve, note = _grow(step, u_star, side * v / np.linalg.norm(v), abs(lam), s0, length, max_segment,
                             min_segment, max_angle, max_points)
         curves.append(curve)
@@ -207,7 +212,10 @@ def manifold(orbit, branch="unstable", side=+1, length=10.0, max_segment=None, m
     for curve in curves:
         z, _, valid = ret.lift(curve)
         z = z[valid]
-        branches += _split_wrapped(ret, z)
+        if ret.kind == "map":
+            branches += _split_wrapped(ret, z)
+        else:
+            branches += _split_wound(ret, z, curve[valid], _orbit_shift(orbit, ret.dim, 1))
     lengths = [float(np.sum(np.linalg.norm(np.diff(c, axis=0), axis=1))) for c in curves]
     return Manifold(orbit=orbit, branch=branch, side=side, branches=branches, lifted=curves,
                     eigenvalue=float(lam_used), length=float(min(lengths)) if lengths else 0.0,
@@ -215,13 +223,19 @@ def manifold(orbit, branch="unstable", side=+1, length=10.0, max_segment=None, m
                     coordinates=ret.names)
 
 
-def _lifted_map(ret, u_star, image, inverse):
+def _orbit_shift(orbit, d, times):
+    """The orbit's advance per ``times`` of its periods in the ``d`` reduced coordinates, or
+    None where the orbit records none."""
+    shift = getattr(orbit, "shift", None)
+    if shift is None or np.shape(shift) != (d,):
+        return None
+    return times * np.asarray(shift, dtype=float)
+
+
+def _lifted_map(ret, shift, inverse):
     """The return map (or its inverse) on batches of coordinates, with the orbit's winding
-    taken out so that ``u_star`` is a fixed point of it: ``step(u) -> (images, status)``."""
-    shift = np.zeros(ret.dim)
-    if ret.kind == "map":
-        wraps = ret.period > 0
-        shift[wraps] = np.round((image - u_star)[wraps] / ret.period[wraps]) * ret.period[wraps]
+    ``shift`` (shape (d,), :meth:`ReturnMap.winding`) taken out so that the orbit point is
+    a fixed point of it: ``step(u) -> (images, status)``."""
 
     def step(u):
         img, status = ret.images(u, inverse=inverse)
@@ -345,5 +359,28 @@ def _split_wrapped(ret, z):
     for j, p in enumerate(ret.period):
         if p > 0:
             jumps |= np.abs(np.diff(w[:, j])) > 0.5 * p
+    cuts = np.flatnonzero(jumps) + 1
+    return [piece for piece in np.split(w, cuts) if len(piece) > 1]
+
+
+def _split_wound(ret, z, u, shift):
+    """Wrap and split a flow's polyline of states ``z`` (N, m), grown as ``u`` (N, d) from the
+    orbit point ``u[0]``: each reduced coordinate in which the orbit winds by ``shift`` is
+    brought into the interval of that length that starts at ``u[0]`` and extends the way the
+    curve first leaves it; the curve is cut where it crosses an end of that interval."""
+    if shift is None or not np.any(shift != 0) or len(z) < 2:
+        return [z]
+    w = np.array(z, dtype=float, copy=True)
+    jumps = np.zeros(len(w) - 1, dtype=bool)
+    for c in np.flatnonzero(shift != 0):
+        p, start = abs(float(shift[c])), float(u[0, c])
+        moved = u[:, c] - start
+        first = moved[np.flatnonzero(np.abs(moved) > 1e-12 * p)[:1]]
+        j = ret.index[c]
+        if first.size and first[0] < 0:
+            w[:, j] = start - np.mod(start - w[:, j], p)    # the interval (start - p, start]
+        else:
+            w[:, j] = start + np.mod(w[:, j] - start, p)    # the interval [start, start + p)
+        jumps |= np.abs(np.diff(w[:, j])) > 0.5 * p
     cuts = np.flatnonzero(jumps) + 1
     return [piece for piece in np.split(w, cuts) if len(piece) > 1]

@@ -118,6 +118,33 @@ class ReturnMap:
     def apply(self, u) -> ReturnImages:
         raise NotImplementedError
 
+    def winding(self, advance, shift=None) -> np.ndarray:
+        """The part of an orbit point's advance per application that is whole turns, shape (d,).
+
+        Parameters
+        ----------
+        advance : ndarray, shape (d,)
+            image - start of an orbit point (unwrapped coordinates).
+        shift : ndarray, shape (d,), optional
+            The orbit's own winding per application (``PeriodicOrbit.shift``), where known.
+
+        Returns
+        -------
+        ndarray, shape (d,)
+            For a map, the advance of each wrapped component rounded to whole periods of its
+            modulus. A flow declares no angles, so its winding is the orbit's ``shift`` (the
+            advance it was found with, e.g. ``{"theta": 2*pi}``), zero where none is known.
+            Subtracting it makes the orbit point a fixed point of the lifted map.
+        """
+        out = np.zeros(self.dim)
+        if self.kind == "map":
+            wraps = self.period > 0
+            adv = np.asarray(advance, dtype=float)
+            out[wraps] = np.round(adv[wraps] / self.period[wraps]) * self.period[wraps]
+        elif shift is not None and np.shape(shift) == (self.dim,):
+            out[:] = np.where(np.isfinite(shift), shift, 0.0)
+        return out
+
     def images(self, u, inverse: bool = False) -> tuple[np.ndarray, np.ndarray]:
         """The map (or its inverse) on a batch of coordinates without derivatives:
         ``(images (N, d), status (N,))``, NaN where the status is not ``OK``."""
