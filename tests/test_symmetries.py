@@ -7,7 +7,7 @@ import sympy as sp
 from scipy.integrate import solve_ivp
 
 import phaselab
-from phaselab.structures.symmetries import newton_steps, point_symmetries
+from phaselab.structures.periodic.symmetries import newton_steps, point_symmetries
 from phaselab.errors import IntegrationError
 
 

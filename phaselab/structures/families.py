@@ -42,7 +42,8 @@ from phaselab.engine import status as codes
 from phaselab.engine import inputs
 
 from phaselab.structures import multipliers
-from phaselab.structures.periodic import PeriodicOrbit, _assemble, _image, classify
+from phaselab.structures.periodic.assembly import assemble, image_of
+from phaselab.structures.periodic.result import PeriodicOrbit, classify
 from phaselab.errors import ModelError, ParameterError
 
 FD_STEP = 1e-6
@@ -120,7 +121,7 @@ class Family:
         ret, u, lam, shift = self._members[i]
         _set(ret, self.parameter, lam)
         img = ret.apply(u[None, :])
-        return _assemble(ret, u, _image(img, 0), shift, 0.0, 0)
+        return assemble(ret, u, image_of(img, 0), shift, 0.0, 0)
 
     def to_xarray(self):
         """The family as a labelled ``xarray.Dataset`` along dimension ``member``."""
