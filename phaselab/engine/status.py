@@ -21,6 +21,12 @@ TIME_LIMIT = 4
 ENERGY_DRIFT = 5
 STEP_TOO_LARGE = 6
 NO_CROSSING = 7
+STILL = 10
+"""Frequency analysis: a degree of freedom does not move (its frequency is NaN)."""
+OFF_SHELL = 100
+"""Return maps: coordinates with no state on the energy shell (no real solution of H = E)."""
+NOT_RUN = -1
+"""Scans: a seed that was not run (an invalid grid point, e.g. outside the energy shell)."""
 
 STATUS = {
     OK: "ok",
@@ -31,6 +37,9 @@ STATUS = {
     ENERGY_DRIFT: "relative energy error above the limit",
     STEP_TOO_LARGE: "step too large for this orbit (energy error in the first steps)",
     NO_CROSSING: "never crossed the plane",
+    STILL: "a degree of freedom does not move (its frequency is NaN)",
+    OFF_SHELL: "left the energy shell (no real solution of H = E for the solved component)",
+    NOT_RUN: "not run (invalid seed)",
 }
 """The word for every status code."""
 

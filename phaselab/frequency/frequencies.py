@@ -14,39 +14,28 @@ responsible engineers.
 
 from __future__ import annotations
 
-import math
-from collections.abc import Mapping
 from dataclasses import dataclass, field
 
 import numpy as np
 
-from numba import njit, prange
-
 from phaselab.engine import accuracy as step_accuracy
-from phaselab.engine import status as codes
 from phaselab.engine import inputs
-from phaselab.frequency.aliasing import warn_if_aliased
-from phaselab.frequency.spectral import (MAX_WINDOW_ORDER, SpectralLines, Workspace, chunk_rows,
-                                       leading_lines)
-from phaselab.frequency.spectral import window as hann_window
+from phaselab.engine import status as codes
 from phaselab.errors import ParameterError
+from phaselab.frequency.aliasing import warn_if_aliased
+from phaselab.frequency.sampling import (DEFAULT_SAMPLES, MIN_SAMPLES, angle_periods, check_seeds, integration_step,
+                                         parameter_values, sample_orbits, sampling_plan)
+from phaselab.frequency.signals import DIFFUSION_FLOOR, analyse_samples
+from phaselab.frequency.spectral import MAX_WINDOW_ORDER, SpectralLines
 
 __all__ = ["frequencies", "rotation_number", "Frequencies", "STATUS_TEXT", "DEFAULT_SAMPLES",
            "integration_step", "analyse_samples", "birkhoff_weights"]
 
 OK, NOT_FINITE, TIME_LIMIT = codes.OK, codes.NOT_FINITE, codes.TIME_LIMIT
-STILL = 10
-"""Status of an orbit with a degree of freedom that does not move (its frequency is NaN)."""
-STATUS_TEXT = {**codes.STATUS, STILL: "a degree of freedom does not move (its frequency is NaN)"}
-"""Why an orbit has no (or only a partial) result: the codes of :mod:`phaselab.engine.status`
-and ``STILL``."""
+STILL = codes.STILL
+STATUS_TEXT = codes.STATUS
+"""Why an orbit has no (or only a partial) result: the status table of :mod:`phaselab.engine.status`."""
 
-DEFAULT_SAMPLES = 2048
-"""Samples per orbit when ``n`` is not given."""
-MIN_SAMPLES = 32
-"""Fewest samples accepted (each half of the orbit must still hold a few periods)."""
-DIFFUSION_FLOOR = 1e-30
-"""Frequency changes below this are reported as ``log10(DIFFUSION_FLOOR) = -30``."""
 
 
 # ----------------------------------------------------------------------------- result
@@ -167,357 +156,6 @@ class Frequencies:
                 f"{self.unit}, {self.n_samples} samples, valid={int(self.valid.sum())})")
 
 
-# ----------------------------------------------------------------------------- argument checks
-def _check_states(system, seeds):
-    """Seeds as a (n_orbits, 2n) float array (:func:`phaselab.engine.inputs.states`); a
-    ShellSeeds must be valid everywhere. Non-finite rows are kept: the loops flag them."""
-    from phaselab.orbits.seeds import ShellSeeds
-
-    names = [s.name for s in system.state_symbols]
-    if isinstance(seeds, ShellSeeds):
-        if not np.all(seeds.valid):
-            bad = np.flatnonzero(~np.asarray(seeds.valid)).tolist()
-            raise ParameterError(f"seeds {bad[:10]} have no state on the shell; pass "
-                                 "seeds.valid_states()")
-        seeds = seeds.states
-    return inputs.states(seeds, len(names), names)
-
-
-def _sampling(system, plane, t, n):
-    """Which sampling a call asks for, with its count of samples."""
-    is_map = getattr(system, "kind", "flow") == "map"
-    if is_map:
-        if plane is not None:
-            raise ParameterError("plane is not used for a map (its iterates are the samples); "
-                                 "leave it out")
-        if t is not None:
-            raise ParameterError("a map is sampled per iterate: give the number of iterates n, "
-                                 "not t")
-        return "map"
-    if plane is None:
-        if t is None:
-            raise ParameterError("t (the length of the record, model time) is needed to sample a "
-                                 "flow in time; or give plane={...} or 'stroboscopic' for a section")
-        return "time"
-    if t is not None:
-        raise ParameterError("t is the length of a record sampled in time; a section is sampled "
-                             "per crossing (give n, and t_max to cap the time)")
-    if isinstance(plane, str):
-        if plane != "stroboscopic":
-            raise ParameterError(f"plane must be a mapping such as {{'x': 0.0}} or "
-                                 f"'stroboscopic', got {plane!r}")
-        return "stroboscopic"
-    if isinstance(plane, Mapping):
-        return "plane"
-    raise ParameterError(f"plane must be a mapping such as {{'x': 0.0}} or 'stroboscopic', "
-                         f"got {plane!r}")
-
-
-def _angles(system, angles):
-    """{coordinate index: period} of the coordinates read as angles."""
-    out = {}
-    if angles is None:
-        if getattr(system, "kind", "flow") == "map":
-            from phaselab.orbits.section import map_wrapping
-
-            period, _ = map_wrapping(system)
-            out = {i: float(period[i]) for i in range(system.dof) if period[i] > 0}
-        return out
-    if not isinstance(angles, Mapping):
-        raise ParameterError(f"angles must map coordinate names to their periods, e.g. "
-                             f"{{'theta': 2*pi}}, got {angles!r}")
-    for name, period in angles.items():
-        i = inputs.state_index(system, name, "angle in angles")
-        if i >= system.dof:
-            raise ParameterError(f"angles: {name!r} is a momentum; name coordinates")
-        out[i] = inputs.positive_number(period, f"the period of angle {name!r}")
-    return out
-
-
-# ----------------------------------------------------------------------------- samples
-@dataclass
-class _Samples:
-    states: np.ndarray          # (n_orbits, n_samples, 2n), lifted (no wrapping)
-    increments: np.ndarray | None  # (n_orbits, n_samples - 1, 2n) one-step lifted advances (maps)
-    complete: np.ndarray        # (n_orbits,) bool: all samples present
-    status: np.ndarray          # (n_orbits,) int
-    step: float                 # model time between samples (1 per iterate/crossing/period)
-    unit: str                   # "unit time", "iterate", "crossing", "driving period"
-    method: str
-    dt: float
-    plane: dict | None
-    fixed_dof: int | None
-    drive: float | None         # driving frequency in the sample unit (time sampling, driven)
-    error: float | None = None  # relative timing error of the step, when accuracy chose it
-
-
-def _acquire(system, Z0, how, n, t, params, dt, method, plane, direction, box, t_max, accuracy=None):
-    """The samples of every orbit, from the public trajectory / section API (flows) or the
-    compiled map iteration (maps). The one place where orbits are produced. ``accuracy``
-    chooses the step (:mod:`phaselab.engine.accuracy`) and is measured at the step used."""
-    if how == "map":
-        if accuracy is not None:
-            raise ParameterError("accuracy chooses an integration step; a map is iterated exactly")
-        return _map_samples(system, Z0, n, params, box)
-    accuracy = step_accuracy.check_accuracy(accuracy, dt, method)
-    if accuracy is not None:
-        span = step_accuracy.record_span(system, how, t, n, params, t_max)
-        dt, _ = step_accuracy.choose_step(system, Z0, span, accuracy, params, method)
-        S = _acquire(system, Z0, how, n, t, params, dt, method, plane, direction, box, t_max)
-        S.error = step_accuracy.estimate(system, Z0, span, S.dt, params, S.method)
-        return S
-    if how == "time":
-        from phaselab.orbits.trajectory import trajectory
-
-        span = inputs.positive_number(t, "t")
-        times = np.linspace(0.0, span, n)
-        spacing = times[1] - times[0]
-        h = inputs.step(dt)
-        if h is not None:
-            dt = spacing / max(1, math.ceil(spacing / h - 1e-9))
-        tr = trajectory(system, Z0, times, dt=dt, method=method, params=params, box=box)
-        status = tr.status
-        complete = np.all(np.isfinite(tr.states), axis=(1, 2)) & (status == OK)
-        drive = None
-        if getattr(system, "period", None) is not None:
-            drive = 1.0 / system.driving_period(params)
-        return _Samples(tr.states, None, complete, np.asarray(status, dtype=np.int64), float(spacing),
-                        "unit time", tr.method, float(tr.dt), None, None, drive)
-    from phaselab.orbits.section import section
-
-    strobe = how == "stroboscopic"
-    sec = section(system, Z0, plane=plane, direction=direction,
-                  crossings=n - 1 if strobe else n, params=params, dt=dt, method=method,
-                  t_max=t_max, box=box)
-    pts = sec.points
-    if strobe:   # the seed is the sample at t = 0 of the stroboscopic clock
-        pts = np.concatenate([Z0[:, None, :], pts], axis=1)
-    status = np.asarray(sec.status, dtype=np.int64)
-    complete = np.all(np.isfinite(pts), axis=(1, 2))
-    status = np.where(complete, OK, np.where(status == OK, TIME_LIMIT, status))
-    fixed = None if strobe else int(sec.plane["index"]) % system.dof
-    return _Samples(pts, None, complete, status, 1.0, "driving period" if strobe else "crossing",
-                    sec.method, float(sec.dt), dict(sec.plane), fixed, None)
-
-
-def _map_samples(system, Z0, n, params, box):
-    """Iterates z_0 .. z_{n-1} of a map with wrapped components lifted.
-
-    The map is iterated with its wrapped coordinates wrapped, so the states stay small and
-    accurate; one unwrapped step from every sample then gives the exact lifted advance of
-    each wrapped coordinate, and the lift is the wrapped value plus the right multiple of
-    the period.
-    """
-    from phaselab.engine.compiled import loops
-    from phaselab.orbits.section import map_wrapping
-
-    prm = system.param_values(params)
-    period, low = map_wrapping(system)
-    N, m = Z0.shape
-    # Momenta are never wrapped: the lift of a twist map lives on the cylinder (q an angle,
-    # p a real number). Wrapping p as well (the standard map's torus) would add a whole turn
-    # to q's lift each time p wraps.
-    period[system.dof:] = 0.0
-    lo, hi = inputs.box(system, box)
-    inputs.check_budget(N, 2 * n, 2 * N * n * m, "frequencies")
-    cs = loops(system, "sections")
-    pts = np.full((N, n - 1, m), np.nan)
-    counts = np.zeros(N, dtype=np.int64)
-    status = np.zeros(N, dtype=np.int64)
-    cs.section_map_orbits(Z0, prm, n - 1, period, low, lo, hi, pts, counts, status)
-    wrapped = np.concatenate([Z0[:, None, :], pts], axis=1)
-    complete = counts == n - 1
-    wrap = period > 0
-    if not wrap.any():
-        return _Samples(wrapped, None, complete, status, 1.0, "iterate", "map", float("nan"), None,
-                        None, None)
-    src = np.ascontiguousarray(wrapped[:, :-1].reshape(-1, m))
-    one = np.full((len(src), 1, m), np.nan)
-    c1 = np.zeros(len(src), dtype=np.int64)
-    s1 = np.zeros(len(src), dtype=np.int64)
-    free = np.full(m, np.inf)
-    cs.section_map_orbits(src, prm, 1, np.zeros(m), np.zeros(m), -free, free, one, c1, s1)
-    inc = one[:, 0, :].reshape(N, n - 1, m) - wrapped[:, :-1]
-    states = wrapped.copy()
-    with np.errstate(invalid="ignore"):
-        guess = Z0[:, None, wrap] + np.cumsum(inc[..., wrap], axis=1)
-        turns = np.round((guess - wrapped[:, 1:, wrap]) / period[wrap])
-        states[:, 1:, wrap] = wrapped[:, 1:, wrap] + turns * period[wrap]
-    return _Samples(states, inc, complete, status, 1.0, "iterate", "map", float("nan"), None,
-                    None, None)
-
-
-def integration_step(system, seeds, t=None, n=None, params=None, method="auto", plane=None):
-    """The integration step a flow's :func:`frequencies` call chooses when ``dt`` is not given
-    (:func:`phaselab.engine.integrators.default_step` over all the seeds). Scans call it
-    once and pass the result to every batch, so results do not depend on batching.
-
-    Returns
-    -------
-    float or None
-        None for maps and adaptive methods.
-    """
-    from phaselab.engine.compiled import loops
-    from phaselab.engine.integrators import ADAPTIVE, default_step
-
-    if getattr(system, "kind", "flow") == "map" or (isinstance(method, str) and method.lower() in ADAPTIVE):
-        return None
-    Z0 = _check_states(system, seeds)
-    pdict = _params(system, params)
-    prm = system.param_values(params)
-    how = _sampling(system, plane, t, n)
-    timed = not system.is_autonomous
-    if timed and how == "plane":
-        return None          # frequencies() explains why a driven flow has no plane section
-    work = system.extended() if timed else system
-    meth = inputs.method(work, method)
-    period = system.driving_period(pdict) if timed and system.period is not None else None
-    if work is not system:
-        with np.errstate(all="ignore"):
-            e0 = np.atleast_1d(system.energy(Z0, params=pdict, t=0.0))
-        n_ = system.dof
-        Z0 = np.concatenate([Z0[:, :n_], np.zeros((len(Z0), 1)), Z0[:, n_:], -e0[:, None]], axis=1)
-    cs = loops(work, "sections") if how != "time" else loops(work)
-    span = inputs.positive_number(t, "t") if how == "time" else np.inf
-    if how == "stroboscopic" and period is not None:
-        span = period * (n or DEFAULT_SAMPLES)
-    h = default_step(cs, meth, Z0, prm, span, period)
-    return float(h) if np.isfinite(h) and h > 0 else None
-
-
-def _params(system, params):
-    values = system.param_values(params)
-    return dict(zip((p.name for p in system.parameters), values.tolist()))
-
-
-# ----------------------------------------------------------------------------- signals
-@njit(cache=True, nogil=True, parallel=True)
-def _signals(states, columns, periods, w, out, still):
-    """Complex signals of the degrees of freedom ``columns`` of every orbit.
-
-    ``out[c * n_orbits + o]`` is the signal of column ``c`` of orbit ``o``:
-    ``z = (q - <q>) - i (p - <p>) / s`` with ``s = rms(p - <p>) / rms(q - <q>)``, means and
-    rms weighted by ``w`` (the Hann window, summing to 1), so they do not depend on where
-    the record ends within a period. A harmonic orbit becomes ``A e^{+i w t}`` (positive
-    frequency for the usual clockwise motion in the (q, p) plane) with its conjugate line
-    removed, an anharmonic orbit close to it. An angle (``periods[c] > 0``) whose lifted
-    value covers a full period (the orbit winds) gives ``exp(2 pi i q / period)``.
-    ``still[o]`` is set when a degree of freedom of orbit ``o`` does not move.
-    """
-    n_orb, n, width = states.shape
-    dof = width // 2
-    k = columns.shape[0]
-    for o in prange(n_orb):
-        for c in range(k):
-            iq = columns[c]
-            ip = dof + iq
-            mq = 0.0
-            mp = 0.0
-            qmin = states[o, 0, iq]
-            qmax = qmin
-            pmin = states[o, 0, ip]
-            pmax = pmin
-            for j in range(n):
-                q = states[o, j, iq]
-                p = states[o, j, ip]
-                mq += w[j] * q
-                mp += w[j] * p
-                qmin = min(qmin, q)
-                qmax = max(qmax, q)
-                pmin = min(pmin, p)
-                pmax = max(pmax, p)
-            row = c * n_orb + o
-            period = periods[c]
-            if period > 0.0 and qmax - qmin >= period:
-                f = 2.0 * math.pi / period
-                for j in range(n):
-                    a = f * states[o, j, iq]
-                    out[row, j] = complex(math.cos(a), math.sin(a))
-                continue
-            if qmax == qmin and pmax == pmin:
-                still[o] = True
-            vq = 0.0
-            vp = 0.0
-            for j in range(n):
-                dq = states[o, j, iq] - mq
-                dp = states[o, j, ip] - mp
-                vq += w[j] * dq * dq
-                vp += w[j] * dp * dp
-            scale = math.sqrt(vp / vq) if vq > 0.0 and vp > 0.0 else 1.0
-            inv = 1.0 / scale
-            for j in range(n):
-                out[row, j] = complex(states[o, j, iq] - mq, -(states[o, j, ip] - mp) * inv)
-
-
-@dataclass
-class SampleAnalysis:
-    """What :func:`analyse_samples` finds: ``nu`` (n_orbits, k), ``lines`` (SpectralLines of
-    shape (n_orbits, k, n_lines)), ``diffusion`` (n_orbits,), ``still`` (n_orbits,) bool."""
-
-    nu: np.ndarray
-    lines: SpectralLines
-    diffusion: np.ndarray
-    still: np.ndarray
-
-
-def analyse_samples(states, columns, step=1.0, angles=None, lines=1, window=1, diffusion=True,
-                    fold="signed") -> SampleAnalysis:
-    """Laskar's frequency analysis of orbits already sampled (the analysis half of
-    :func:`frequencies`, which see for the signals, units and options).
-
-    Parameters
-    ----------
-    states : ndarray, shape (n_orbits, n_samples, 2n)
-        Equally spaced, lifted (unwrapped), finite samples.
-    columns : sequence of int
-        The degrees of freedom to analyse.
-    step : float
-        Time between samples; frequencies are returned in cycles per that unit.
-    angles : mapping of int to float, optional
-        Period of each coordinate (by index) read as an angle.
-    """
-    states = np.asarray(states, dtype=float)
-    n_orb, n, width = states.shape
-    angles = angles or {}
-    cols = np.asarray(list(columns), dtype=np.int64)
-    k = len(cols)
-    periods = np.array([float(angles.get(int(i), 0.0)) for i in cols])
-    w = hann_window(n, 1)
-    w = w / w.sum()
-    h = n // 2
-    ws = Workspace()
-    l_nu = np.full((n_orb, k, lines), np.nan)
-    l_amp = np.full_like(l_nu, np.nan)
-    l_ph = np.full_like(l_nu, np.nan)
-    diff = np.full(n_orb, np.nan)
-    still = np.zeros(n_orb, dtype=bool)
-    per = max(1, chunk_rows(n) // k)          # orbits per chunk
-    for a in range(0, n_orb, per):
-        b = min(n_orb, a + per)
-        m = b - a
-        X = ws.get("orbit signals", k * m, n)
-        _signals(np.ascontiguousarray(states[a:b]), cols, periods, w, X, still[a:b])
-        found = leading_lines(X, lines=lines, window_order=window, workspace=ws)
-        shape = (k, m, lines)
-        l_nu[a:b] = np.moveaxis(_fold(found.nu.reshape(shape), fold) / step, 0, 1)
-        l_amp[a:b] = np.moveaxis(found.amplitude.reshape(shape), 0, 1)
-        l_ph[a:b] = np.moveaxis(found.phase.reshape(shape), 0, 1)
-        if diffusion:
-            first = leading_lines(X[:, :h], 1, window, amplitudes=False, workspace=ws).nu[:, 0]
-            second = leading_lines(X[:, h:2 * h], 1, window, amplitudes=False, workspace=ws).nu[:, 0]
-            change = ((second - first + 0.5) % 1.0 - 0.5).reshape(k, m) / step
-            with np.errstate(invalid="ignore"):
-                norm = np.sqrt(np.sum(change ** 2, axis=0))
-                diff[a:b] = np.log10(np.maximum(norm, DIFFUSION_FLOOR))
-    return SampleAnalysis(l_nu[:, :, 0].copy(), SpectralLines(l_nu, l_amp, l_ph), diff, still)
-
-
-def _fold(nu, fold):
-    if fold == "signed":
-        return (nu + 0.5) % 1.0 - 0.5
-    return nu % 1.0
-
-
 # ----------------------------------------------------------------------------- frequencies
 def frequencies(system, seeds, t=None, n=None, params=None, dt=None, method="auto", plane=None,
                 direction=+1, lines=1, window=1, angles=None, diffusion=True, fold="signed",
@@ -624,8 +262,8 @@ def frequencies(system, seeds, t=None, n=None, params=None, dt=None, method="aut
     window = inputs.count(window, "window", 0, MAX_WINDOW_ORDER)
     if fold not in ("signed", "positive"):
         raise ParameterError(f"fold must be 'signed' or 'positive', got {fold!r}")
-    ang = _angles(system, angles)
-    S = _acquire(system, Z0, how, n, t, pdict, dt, method, plane, direction, box, t_max, accuracy)
+    ang = angle_periods(system, angles)
+    S = sample_orbits(system, Z0, how, n, t, pdict, dt, method, plane, direction, box, t_max, accuracy)
 
     dof = system.dof
     cols = [i for i in range(dof) if i != S.fixed_dof]
@@ -658,11 +296,11 @@ def _common(system, seeds, plane, t, n, params, direction):
     if not hasattr(system, "state_symbols") or not hasattr(system, "param_values"):
         raise ParameterError(f"system must be a Hamiltonian or an AreaPreservingMap, got "
                              f"{type(system).__name__}")
-    Z0 = _check_states(system, seeds)
+    Z0 = check_seeds(system, seeds)
     n = DEFAULT_SAMPLES if n is None else inputs.count(n, "n", MIN_SAMPLES)
     inputs.direction(direction)
-    how = _sampling(system, plane, t, n)
-    pdict = _params(system, params)
+    how = sampling_plan(system, plane, t, n)
+    pdict = parameter_values(system, params)
     return Z0, how, n, pdict
 
 
@@ -748,7 +386,7 @@ def rotation_number(system, seeds, n=None, angle=None, params=None, t=None, dt=N
             raise ParameterError("centre is used only with a pair angle=(q, p)")
         iq, ip = inputs.state_index(system, angle, "angle"), None
         label = system.state_symbols[iq].name
-    S = _acquire(system, Z0, how, n, t, pdict, dt, method, plane, direction, box, t_max, accuracy)
+    S = sample_orbits(system, Z0, how, n, t, pdict, dt, method, plane, direction, box, t_max, accuracy)
     if S.fixed_dof is not None and (iq % dof == S.fixed_dof):
         raise ParameterError(f"the angle {label!r} is fixed by the plane {plane}; choose another")
     N = len(Z0)

@@ -21,16 +21,16 @@ from __future__ import annotations
 
 import json
 import os
-import platform
 import shutil
 import warnings
 from pathlib import Path
 
 import numpy as np
 
+from phaselab.base.atomic import atomic_path, checked_path, open_folder, remove_stale, temporary_name, write_error
+from phaselab.engine import status as codes
 from phaselab.engine.provenance import (NOTE, expression_text, netcdf_attrs, provenance,  # noqa: F401
                                      state_names, versions, xarray_module)
-from phaselab.base.atomic import atomic_path, checked_path, open_folder, remove_stale, temporary_name, write_error
 from phaselab.errors import ParameterError, PhaselabError
 
 SMALL_BYTES = 64 * 2**20
@@ -221,14 +221,11 @@ __all__ = ["SMALL_BYTES", "NOTE", "NOT_RUN", "status_codes", "xarray_module", "z
 
 
 # ----------------------------------------------------------------------------- status
-NOT_RUN = -1
-"""Status of a seed a scan did not run (an invalid grid point, e.g. outside the energy shell)."""
+NOT_RUN = codes.NOT_RUN
 
 
 def status_codes(table: dict | None = None) -> dict:
     """Status code -> word for a result's attributes: ``table`` (default the compiled loops'
     codes) and :data:`NOT_RUN`."""
-    from phaselab.engine import status as codes
-
     table = codes.STATUS if table is None else table
-    return {str(NOT_RUN): "not run (invalid seed)", **{str(k): v for k, v in table.items()}}
+    return {str(NOT_RUN): codes.STATUS[NOT_RUN], **{str(k): v for k, v in table.items()}}

@@ -18,6 +18,7 @@ from functools import partial
 import numpy as np
 
 from phaselab.engine import inputs
+from phaselab.engine import status as codes
 from phaselab.frequency.frequencies import STATUS_TEXT, frequencies, integration_step, rotation_number
 from phaselab.errors import ParameterError
 from phaselab.scan import datasets as labels
@@ -73,7 +74,7 @@ class FrequencyMap:
     @property
     def valid(self) -> np.ndarray:
         """Seeds analysed in full with finite frequencies, shape (n_seeds,)."""
-        return (self.status == 0) & np.all(np.isfinite(self.nu), axis=1)
+        return (self.status == codes.OK) & np.all(np.isfinite(self.nu), axis=1)
 
     def image(self, what="diffusion", column=0) -> np.ndarray:
         """A picture of shape (ny, nx) over the grid: ``"diffusion"`` or ``"nu"`` (the

@@ -28,10 +28,9 @@ from phaselab.engine import status as codes
 from phaselab.engine import inputs
 from phaselab.engine.compiled import loops
 from phaselab.engine.integrators import default_step
+from phaselab.engine.status import OFF_SHELL
 from phaselab.errors import ModelError, ParameterError
 
-OFF_SHELL = 100
-"""Reason code (beside the status codes) of coordinates with no state on the energy shell."""
 
 
 @dataclass
