@@ -15,13 +15,12 @@ from functools import partial
 
 import numpy as np
 
-from phaselab.engine import status as codes
-
 from phaselab.engine import inputs
+from phaselab.engine import status as codes
 from phaselab.errors import ParameterError
 from phaselab.scan import datasets as labels
 from phaselab.scan.grids import StateGrid, scan_rows
-from phaselab.scan.runner import RunInfo, chunk_size, interleave, numba_threads, run_chunks
+from phaselab.scan.runner import RunInfo, chunk_size, run_chunks, run_valid_rows
 from phaselab.scan.store import seeds_digest
 
 INDICATORS = ("lyapunov", "megno", "fli", "sali")
@@ -119,26 +118,21 @@ class ChaosMap:
 
 
 def _chunk(states, valid, threads, system, t, indicator, params, seed, options):
-    """One chunk: the indicator of every valid row (interleaved over the threads)."""
+    """One chunk: the indicator of every valid row (the scaffolding in
+    :func:`phaselab.scan.runner.run_valid_rows`)."""
     from phaselab.orbits.chaos import chaos_indicators
 
-    n = len(states)
-    values = np.full(n, np.nan)
-    status = np.full(n, labels.NOT_RUN, dtype=np.int32)
-    t_end = np.full(n, np.nan)
-    idx = np.flatnonzero(valid)
-    info = None
-    if idx.size:
-        order = idx[interleave(idx.size, threads)]
-        with numba_threads(threads):
-            res = chaos_indicators(system, states[order], t, params=params, seed=seed,
-                                   vectors=2 if indicator == "sali" else 1, history=False, **options)
-        values[order] = getattr(res, indicator)
-        status[order] = res.status
-        t_end[order] = res.t_end
-        values[codes.stopped(status)] = np.nan
+    def compute(z):
+        res = chaos_indicators(system, z, t, params=params, seed=seed,
+                               vectors=2 if indicator == "sali" else 1, history=False, **options)
+        values = np.array(getattr(res, indicator), dtype=float)
+        values[codes.stopped(res.status)] = np.nan
         info = {"method": res.method, "dt": float(res.dt), "params": res.params}
-    return {"values": values, "status": status, "t_end": t_end}, info
+        return {"values": values, "status": res.status, "t_end": res.t_end}, info
+
+    return run_valid_rows(states, valid, threads, {"values": ((), np.nan, float),
+                                                   "status": ((), labels.NOT_RUN, np.int32),
+                                                   "t_end": ((), np.nan, float)}, compute)
 
 
 def chaos_map(system, seeds, t, indicator: str = "megno", params=None, dt=None, method="auto",

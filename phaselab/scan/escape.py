@@ -25,13 +25,12 @@ from functools import partial
 
 import numpy as np
 
-from phaselab.engine import status as codes
-
 from phaselab.engine import inputs
+from phaselab.engine import status as codes
 from phaselab.errors import ParameterError
 from phaselab.scan import datasets as labels
 from phaselab.scan.grids import StateGrid, scan_rows
-from phaselab.scan.runner import RunInfo, chunk_size, interleave, numba_threads, run_chunks
+from phaselab.scan.runner import RunInfo, chunk_size, interleave, numba_threads, run_chunks, run_valid_rows
 from phaselab.scan.store import seeds_digest
 
 MAP_SEGMENT_VALUES = 4_000_000
@@ -222,22 +221,17 @@ class EscapeMap:
 def _flow_chunk(states, valid, threads, system, t, dt, method, params, box):
     from phaselab.orbits.trajectory import trajectory
 
-    n = len(states)
-    survival = np.full(n, np.nan)
-    status = np.full(n, labels.NOT_RUN, dtype=np.int32)
-    idx = np.flatnonzero(valid)
-    info = None
-    if idx.size:
-        order = idx[interleave(idx.size, threads)]
-        with numba_threads(threads), warnings.catch_warnings():
+    def compute(z):
+        with warnings.catch_warnings():
             warnings.simplefilter("ignore", RuntimeWarning)   # summed up once by escape_map
-            tr = trajectory(system, states[order], t, dt=dt, method=method, params=params, box=box,
+            tr = trajectory(system, z, t, dt=dt, method=method, params=params, box=box,
                             save_every=2**40, check_step=False)
-        status[order] = tr.status
-        stopped = codes.stopped(tr.status)
-        survival[order] = np.where(stopped, tr.escape_time, t)
+        survival = np.where(codes.stopped(tr.status), tr.escape_time, t)
         info = {"method": tr.method, "dt": float(tr.dt), "params": tr.params}
-    return {"survival": survival, "status": status}, info
+        return {"survival": survival, "status": tr.status}, info
+
+    return run_valid_rows(states, valid, threads, {"survival": ((), np.nan, float),
+                                                   "status": ((), labels.NOT_RUN, np.int32)}, compute)
 
 
 def _map_chunk(states, valid, threads, system, n_iter, params, box):

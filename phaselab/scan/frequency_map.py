@@ -23,7 +23,7 @@ from phaselab.frequency.frequencies import STATUS_TEXT, frequencies, integration
 from phaselab.errors import ParameterError
 from phaselab.scan import datasets as labels
 from phaselab.scan.grids import StateGrid, scan_rows
-from phaselab.scan.runner import RunInfo, chunk_size, interleave, numba_threads, run_chunks
+from phaselab.scan.runner import RunInfo, chunk_size, run_chunks, run_valid_rows
 from phaselab.scan.store import seeds_digest
 
 __all__ = ["FrequencyMap", "frequency_map"]
@@ -128,28 +128,23 @@ class FrequencyMap:
 
 
 def _chunk(states, valid, threads, system, angle, options, k):
-    """One chunk: the frequencies of every valid row (interleaved over the threads)."""
-    n = len(states)
-    nu = np.full((n, k), np.nan)
-    diff = np.full(n, np.nan)
-    status = np.full(n, NOT_RUN, dtype=np.int32)
-    idx = np.flatnonzero(valid)
-    if not idx.size:
-        return {"nu": nu, "diffusion": diff, "status": status}, None
-    order = idx[interleave(idx.size, threads)]
-    with numba_threads(threads):
+    """One chunk: the frequencies of every valid row (the scaffolding in
+    :func:`phaselab.scan.runner.run_valid_rows`)."""
+
+    def compute(z):
         if angle is not None:
-            res = rotation_number(system, states[order], angle=angle, **options)
+            res = rotation_number(system, z, angle=angle, **options)
         else:
-            res = frequencies(system, states[order], **options)
-    if res.nu.shape[1] != k:
-        raise RuntimeError(f"frequency_map expected {k} frequencies per seed, got {res.nu.shape[1]}")
-    nu[order] = res.nu
-    diff[order] = res.diffusion
-    status[order] = res.status
-    info = {"names": list(res.names), "unit": res.unit, "kind": res.kind, "sampling": res.sampling,
-            "base_frequency": res.base_frequency, "meta": res.metadata()}
-    return {"nu": nu, "diffusion": diff, "status": status}, info
+            res = frequencies(system, z, **options)
+        if res.nu.shape[1] != k:
+            raise RuntimeError(f"frequency_map expected {k} frequencies per seed, got {res.nu.shape[1]}")
+        info = {"names": list(res.names), "unit": res.unit, "kind": res.kind, "sampling": res.sampling,
+                "base_frequency": res.base_frequency, "meta": res.metadata()}
+        return {"nu": res.nu, "diffusion": res.diffusion, "status": res.status}, info
+
+    return run_valid_rows(states, valid, threads, {"nu": ((k,), np.nan, float),
+                                                   "diffusion": ((), np.nan, float),
+                                                   "status": ((), NOT_RUN, np.int32)}, compute)
 
 
 def _columns(system, angle, plane) -> int:

@@ -77,6 +77,44 @@ def interleave(n: int, parts: int) -> np.ndarray:
     return np.concatenate([np.arange(k, n, parts) for k in range(parts)])
 
 
+def run_valid_rows(states, valid, threads, fields: dict, compute: Callable):
+    """The scaffolding every chunk function shares: fill the result fields of a chunk, run
+    ``compute`` once on the valid rows (interleaved over the threads, see the module
+    docstring) and scatter its values back.
+
+    Parameters
+    ----------
+    states : ndarray, shape (n, 2d)
+        The chunk's rows.
+    valid : ndarray of bool, shape (n,)
+        Rows to run; the others keep their fill values.
+    threads : int
+        Threads of the compiled call.
+    fields : dict
+        ``name -> (trailing shape, fill value, dtype)`` of each result field, e.g.
+        ``{"values": ((), np.nan, float), "status": ((), NOT_RUN, np.int32)}``.
+    compute : callable
+        ``compute(states_of_valid_rows) -> (values, info)``, ``values`` a dict of arrays over
+        those rows (in the order given), ``info`` what the chunk reports (or None).
+
+    Returns
+    -------
+    (dict of ndarray, info)
+        The fields over all ``n`` rows, and ``compute``'s info (None when no row was valid).
+    """
+    n = len(states)
+    out = {name: np.full((n, *tail), fill, dtype=dtype) for name, (tail, fill, dtype) in fields.items()}
+    idx = np.flatnonzero(valid)
+    if not idx.size:
+        return out, None
+    order = idx[interleave(idx.size, threads)]
+    with numba_threads(threads):
+        values, info = compute(states[order])
+    for name, value in values.items():
+        out[name][order] = value
+    return out, info
+
+
 def chunk_size(n: int, batch_size=None, client=None) -> int:
     """Rows per chunk: ``batch_size`` when given, else the rule of the module docstring."""
     if batch_size is not None:
