@@ -7,7 +7,7 @@
 3. slider move with 30 orbits on the plot: energy slider set, until every orbit's points
    are replaced. Target < 1 s.
 
-The browser adds its own part (websocket, drawing): tests/test_browser.py measures the
+The browser adds its own part (websocket, drawing): tests/widgets/test_browser.py measures the
 whole path in JupyterLab and writes test-artifacts/browser-timings.txt.
 
 Printed side by side with the bare compute call each path wraps (phaselab.section on the

@@ -67,7 +67,7 @@ def triple_jump(weights: np.ndarray, order: int) -> np.ndarray:
 
 # Yoshida 1990 (Phys. Lett. A 150, 262), table 1: sixth order "solution A" (7 leapfrogs) and
 # eighth order "solution D" (15 leapfrogs); values recalled from memory, verified by the
-# observed-order tests in tests/test_integrators.py.
+# observed-order tests in tests/engine/test_integrators.py.
 _Y6 = np.array([0.784513610477560, 0.235573213359357, -1.17767998417887])
 _Y8 = np.array([0.914844246229740, 0.253693336566229, -1.44485223686048, -0.158240635368243,
                 1.93813913762276, -1.96061023297549, 0.102799849391985])

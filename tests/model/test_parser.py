@@ -267,6 +267,6 @@ def test_large_float_literal_stays_a_float():
                                   "x*log(-1)"])
 def test_complex_constant_parts_are_refused(text):
     # acos(2) = i*acosh(2) and (-7)**-35.5 = 7**-35.5 * exp(-35.5 i pi) are not real
-    # (mpmath, reference library); found by the fuzz in tests/test_fuzz_expressions.py
+    # (mpmath, reference library); found by the fuzz in tests/model/test_fuzz_expressions.py
     assert not mpmath.isinf(mpmath.acos(2).imag) and mpmath.acos(2).imag != 0
     assert "complex" in refused(text, symbols=SYMS)

@@ -17,7 +17,7 @@ from phaselab.scan import chaos_map, state_grid
 
 zarr = pytest.importorskip("zarr")
 
-ROOT = Path(__file__).resolve().parents[1]
+ROOT = Path(__file__).resolve().parents[2]
 
 SCRIPT = """
 import sys

@@ -33,7 +33,7 @@ import pytest
 pytestmark = [pytest.mark.browser, pytest.mark.slow]
 
 CHROMIUM = "/usr/bin/chromium"
-ROOT = Path(__file__).resolve().parent.parent
+ROOT = Path(__file__).resolve().parents[2]
 DEMO = ROOT / "gallery" / "explorer_demo.ipynb"
 ARTIFACTS = ROOT / "test-artifacts"
 CHROMIUM_ARGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",

@@ -27,7 +27,7 @@ from phaselab.scan import chaos_map, state_grid
 
 from test_export import molecule_section
 
-ROOT = Path(__file__).resolve().parents[1]
+ROOT = Path(__file__).resolve().parents[2]
 ENV = dict(os.environ, PYTHONPATH=str(ROOT) + os.pathsep + os.environ.get("PYTHONPATH", ""))
 
 
