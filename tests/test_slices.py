@@ -143,3 +143,25 @@ def test_figures_and_data_files(oscillators, tmp_path):
     assert sorted(p.name for p in tmp_path.iterdir()) == ["grid.svg", "proj.pdf", "slice.nc", "slice.png"]
     with pytest.raises(ParameterError, match="cannot save"):
         sl.save(tmp_path / "slice.txt")
+
+
+def test_slices_of_a_four_dimensional_map():
+    """The iterates of a 4-D map are 4-D section points: every component is a section
+    coordinate. Two uncoupled rotations (q_i, p_i) -> rotation by 2 pi nu_i, composed from
+    linear elements, keep each q_i^2 + p_i^2 (common practice: rotations preserve radius),
+    so a slab in p2 shows circles of radius r1 in (q1, p1)."""
+    nu1, nu2 = 0.1234, 0.3071
+    c1, s1, c2, s2 = np.cos(2 * np.pi * nu1), np.sin(2 * np.pi * nu1), np.cos(2 * np.pi * nu2), np.sin(2 * np.pi * nu2)
+    R = [[c1, 0, s1, 0], [0, c2, 0, s2], [-s1, 0, c1, 0], [0, -s2, 0, c2]]
+    m = phaselab.compose_map([phaselab.LinearElement(R)], ["q1", "q2"], ["p1", "p2"], name="two rotations")
+    seeds = np.array([[0.5, 0.2, 0.0, 0.1], [0.2, 0.6, 0.1, 0.0]])
+    sec = phaselab.section(m, seeds, crossings=400)
+    assert section_coordinates(sec) == ("q1", "q2", "p1", "p2")
+    sl = phaselab.section_slice(sec, "p2", 0.0, 0.02)
+    flat = sec.points.reshape(-1, 4)
+    mask = np.abs(flat[:, 3]) < 0.02
+    np.testing.assert_array_equal(sl.points, flat[mask][:, :3])
+    r1 = np.hypot(seeds[:, 0], seeds[:, 2])
+    np.testing.assert_allclose(np.hypot(sl.column("q1"), sl.column("p1")), r1[sl.orbit], rtol=1e-12)
+    empty = phaselab.section_slice(sec, "p2", 5.0, 0.01)
+    assert empty.n_points == 0 and empty.plot() is not None
