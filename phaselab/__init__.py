@@ -14,6 +14,11 @@ from phaselab.model.hamiltonian import Hamiltonian  # noqa: E402
 
 _LAZY = {
     "AreaPreservingMap": "phaselab.model.maps",
+    "SymplecticMap": "phaselab.model.maps",
+    "compose_map": "phaselab.model.elements",
+    "Drift": "phaselab.model.elements",
+    "ThinKick": "phaselab.model.elements",
+    "LinearElement": "phaselab.model.elements",
     "models": "phaselab.model.catalogue",
     "trajectory": "phaselab.orbits.trajectory",
     "Trajectory": "phaselab.orbits.trajectory",
@@ -21,6 +26,10 @@ _LAZY = {
     "ShellSeeds": "phaselab.orbits.seeds",
     "section": "phaselab.orbits.section",
     "Section": "phaselab.orbits.section",
+    "section_projection": "phaselab.orbits.slices",
+    "section_slice": "phaselab.orbits.slices",
+    "projection_grid": "phaselab.orbits.slices",
+    "SectionSlice": "phaselab.orbits.slices",
     "level_set": "phaselab.structures.levels",
     "LevelSet": "phaselab.structures.levels",
     "equilibria": "phaselab.structures.equilibria",

@@ -29,6 +29,7 @@ from phaselab.base.atomic import checked_path
 from phaselab.export.figures import ORBIT_COLORS, save_figure, section_figure
 from phaselab.export.interactive import bokeh_figure, save_html
 from phaselab.export.portraits import level_set_figure, save_level_set
+from phaselab.export.slice_figures import save_slice
 
 _WRITERS = {
     ".svg": save_figure,
@@ -75,6 +76,7 @@ SAVERS = {
     "PeriodicOrbits": _save_structure,
     "Manifold": _save_structure,
     "Family": _save_structure,
+    "SectionSlice": save_slice,
 }
 """How each result type is saved, by class name (the one table ``save`` dispatches on)."""
 

@@ -1,4 +1,4 @@
-"""Area-preserving maps given by symbolic update rules.
+"""Symplectic maps given by symbolic update rules.
 
 A map sends a state ``z = (q1..qn, p1..pn)`` to a new state ``z'``. Its rules can be given
 in two ways:
@@ -15,10 +15,18 @@ in two ways:
   A target may be assigned more than once (kick-drift-kick compositions); a component
   never assigned keeps its value.
 
-Either way :attr:`AreaPreservingMap.update` holds ``2n`` expressions in the old variables,
+Either way :attr:`SymplecticMap.update` holds ``2n`` expressions in the old variables,
 in state order, obtained by substitution. On construction the Jacobian determinant of the
 map is checked to be 1 (symbolically when sympy can show it, else numerically at random
-sample points); a map that is not area-preserving is refused.
+sample points); a map that is not area-preserving is refused. A map of ``2n >= 4``
+dimensions must moreover be symplectic, ``M^T J M = J`` for its Jacobian ``M`` at sample
+points (:mod:`phaselab.model.symplectic`): one that only preserves volume is refused. For
+one degree of freedom the two checks are the same.
+
+``SymplecticMap`` names what is checked; ``AreaPreservingMap``, its earlier name, stays as an
+alias of the same class (public surface, kept for existing code and study files).
+Maps built from named elements (drifts, thin kicks, linear matrices) are in
+:mod:`phaselab.model.elements`.
 """
 
 from __future__ import annotations
@@ -35,6 +43,7 @@ from phaselab.model.system import PhaseSpaceSystem
 from phaselab.model.limits import EXPAND_MAX_TERMS, MAX_TREE_NODES, expanded_terms, plain_det, tree_size
 from phaselab.model.params import Parameter, finite_number, make_parameters
 from phaselab.model.parser import parse_expression, size_problem
+from phaselab.model.symplectic import check_symplectic, symplectic_form
 from phaselab.model.zero import value_at, zero_check
 
 #: number of random points used when the determinant cannot be simplified to 1
@@ -52,8 +61,10 @@ MAX_COMPONENTS = 24
 MAX_JACOBIAN_NODES = 200_000
 
 
-class AreaPreservingMap(PhaseSpaceSystem):
-    """An area-preserving (unit Jacobian determinant) map of phase space.
+class SymplecticMap(PhaseSpaceSystem):
+    """A symplectic map of phase space (area-preserving for one degree of freedom).
+
+    ``AreaPreservingMap`` is the same class under its earlier name.
 
     Parameters
     ----------
@@ -93,12 +104,18 @@ class AreaPreservingMap(PhaseSpaceSystem):
         more than :data:`SYMBOLIC_DET_MAX_COMPONENTS` components, checked numerically).
     area_check : str
         ``"symbolic"`` or ``"numeric"``: how det = 1 was established.
+    symplectic_defect : float
+        For ``2n >= 4``: the worst relative ``max|M^T J M - J|`` over the sample points
+        (:func:`phaselab.model.symplectic.check_symplectic`); 0.0 for one degree of
+        freedom, where det = 1 is the whole condition.
 
     Raises
     ------
     ModelError
         For rules that do not match the state, unknown symbols, a map whose Jacobian
-        determinant is not 1 (the message shows the determinant found), more than
+        determinant is not 1 (the message shows the determinant found), a map of 2n >= 4
+        dimensions that is not symplectic (the message says when it only preserves
+        volume, with the point and the defect), more than
         :data:`MAX_COMPONENTS` state components, or sequential rules that compose into an
         expression beyond :data:`phaselab.model.limits.MAX_TREE_NODES` nodes.
     """
@@ -124,6 +141,8 @@ class AreaPreservingMap(PhaseSpaceSystem):
         self._known.update({p.name: p.symbol for p in self.parameters})
         self.update: list[sp.Expr] = self._rules(update)
         self.modulus, self.modulus_low = self._modulus(modulus)
+        self._check_jacobian_size()
+        self.symplectic_defect = self._check_symplectic()
         self.determinant, self.area_check = self._check_area()
         self.reversor = None if reversor is None else self._check_reversor(reversor)
 
@@ -270,19 +289,35 @@ class AreaPreservingMap(PhaseSpaceSystem):
         """The symbolic Jacobian d z' / d z, shape (2n, 2n)."""
         return sp.Matrix([[sp.diff(e, x) for x in self.state_symbols] for e in self.update])
 
-    def _check_area(self):
+    def _check_jacobian_size(self) -> None:
         size = 0
         for entry in self.jacobian_matrix:
             size += tree_size(entry, limit=MAX_JACOBIAN_NODES)
             if size > MAX_JACOBIAN_NODES:
                 raise ModelError(f"the Jacobian of map {self.name!r} has more than {MAX_JACOBIAN_NODES} "
                                  "nodes; the map is too large to check and compile")
+
+    def _check_symplectic(self) -> float:
+        """``M^T J M = J`` at sample points for 2n >= 4 (refused otherwise); 0.0 for 2n = 2."""
+        if len(self.state_symbols) < 4:
+            return 0.0
+        rng = np.random.default_rng(20261205)
+        args = list(self.state_symbols) + list(self.param_symbols)
+        return check_symplectic(self.jacobian_matrix, args, self._sample_states(rng, 4 * N_SAMPLES),
+                                self._sample_params(rng, 4 * N_SAMPLES), self.name)
+
+    def _check_area(self):
+        """det = 1, symbolically when cheap, else at sample points. For 2n >= 4 the symplectic
+        check has already passed, which implies det = 1: the numerical fallback is skipped."""
+        implied = len(self.state_symbols) >= 4
         if len(self.state_symbols) > SYMBOLIC_DET_MAX_COMPONENTS:
-            self._numeric_det_check(None)
+            if not implied:
+                self._numeric_det_check(None)
             return None, "numeric"
         det = plain_det(self.jacobian_matrix)
         if tree_size(det, limit=MAX_TREE_NODES) > MAX_TREE_NODES:
-            self._numeric_det_check(None)
+            if not implied:
+                self._numeric_det_check(None)
             return None, "numeric"
         residual = det - 1
         if (expanded_terms(residual) <= EXPAND_MAX_TERMS
@@ -295,7 +330,8 @@ class AreaPreservingMap(PhaseSpaceSystem):
                     f"map {self.name!r} is not area-preserving: its Jacobian determinant is "
                     f"{residual + 1}, not 1")
             det = residual + 1
-        self._numeric_det_check(det)
+        if not implied:
+            self._numeric_det_check(det)
         return det, "numeric"
 
     def _sample_states(self, rng, count: int) -> np.ndarray:
@@ -375,11 +411,7 @@ class AreaPreservingMap(PhaseSpaceSystem):
         the same as det J = 1). Each entry of the difference is tested with bounded work
         (:func:`phaselab.model.zero.zero_check`): a nonzero value at a sample point settles
         "not symplectic"."""
-        n = self.dof
-        omega = sp.zeros(2 * n, 2 * n)
-        for i in range(n):
-            omega[i, n + i] = 1
-            omega[n + i, i] = -1
+        omega = sp.Matrix(symplectic_form(self.dof).astype(int))
         J = self.jacobian_matrix
         diff = J.T * omega * J - omega
         return all(d == 0 or zero_check(d).zero for d in diff)
@@ -443,11 +475,15 @@ class AreaPreservingMap(PhaseSpaceSystem):
     def __repr__(self) -> str:
         rules = "; ".join(f"{s}' = {e}" for s, e in zip(self.state_symbols, self.update))
         params = ", ".join(f"{k}={v:g}" for k, v in self.params.items())
-        return f"AreaPreservingMap({self.name!r}: {rules}" + (f"; {params}" if params else "") + ")"
+        return f"SymplecticMap({self.name!r}: {rules}" + (f"; {params}" if params else "") + ")"
 
     def _repr_latex_(self) -> str:
         rows = r" \\ ".join(f"{sp.latex(s)}' &= {sp.latex(e)}" for s, e in zip(self.state_symbols, self.update))
         return rf"$\begin{{aligned}} {rows} \end{{aligned}}$"
+
+
+AreaPreservingMap = SymplecticMap
+"""The earlier name of :class:`SymplecticMap` (the same class), kept on the public surface."""
 
 
 def _short(expr) -> str:
