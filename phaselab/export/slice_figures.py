@@ -17,7 +17,7 @@ from pathlib import Path
 
 import numpy as np
 
-from phaselab.base.files import atomic_path
+from phaselab.base.atomic import atomic_path
 from phaselab.engine.provenance import MODEL_NOTE
 from phaselab.errors import ParameterError
 from phaselab.export.figures import (FIGURE_SUFFIXES, ORBIT_COLORS, REPORT_RC, check_size, check_texts,
