@@ -27,12 +27,12 @@ validated tools and the responsible engineers.
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass, field
 
 import numpy as np
 
 from phaselab.errors import ParameterError
+from phaselab.engine import inputs
 from phaselab.engine.provenance import netcdf_attrs, provenance, xarray_module
 
 __all__ = ["SectionSlice", "section_coordinates", "section_projection", "section_slice",
@@ -289,8 +289,8 @@ def section_slice(section, name, center, half_width, axes=None) -> SectionSlice:
     """
     _check_four(section, "slice")
     (k,) = _indices(section, [name], "slab coordinate")
-    center = _finite(center, "center")
-    half_width = _finite(half_width, "half_width")
+    center = inputs.number(center, "center")
+    half_width = inputs.number(half_width, "half_width")
     if not half_width > 0:
         raise ParameterError(f"half_width must be positive, got {half_width}")
     if axes is None:
@@ -328,12 +328,3 @@ def projection_grid(section, coordinates=None) -> SectionSlice:
     states, orbit, crossing = _flat(section)
     return _result(section, "grid", states, orbit, crossing, idx, coords)
 
-
-def _finite(value, what: str) -> float:
-    try:
-        out = float(value)
-    except (TypeError, ValueError):
-        raise ParameterError(f"{what} must be a number, got {value!r}") from None
-    if not math.isfinite(out):
-        raise ParameterError(f"{what} must be finite, got {value!r}")
-    return out
