@@ -204,13 +204,9 @@ def _sampling(system, plane, t, n):
 def _angles(system, angles):
     """{coordinate index: period} of the coordinates read as angles."""
     out = {}
-    if angles is None:
-        if getattr(system, "kind", "flow") == "map":
-            from phaselab.orbits.section import map_wrapping
-
-            period, _ = map_wrapping(system)
-            out = {i: float(period[i]) for i in range(system.dof) if period[i] > 0}
-        return out
+    if angles is None:   # the model's own angles (a map's modulus, a flow's angles=)
+        period, _ = system.angle_wrapping()
+        return {i: float(period[i]) for i in range(system.dof) if period[i] > 0}
     if not isinstance(angles, Mapping):
         raise ParameterError(f"angles must map coordinate names to their periods, e.g. "
                              f"{{'theta': 2*pi}}, got {angles!r}")
@@ -265,7 +261,7 @@ def _acquire(system, Z0, how, n, t, params, dt, method, plane, direction, box, t
     strobe = how == "stroboscopic"
     sec = section(system, Z0, plane=plane, direction=direction,
                   crossings=n - 1 if strobe else n, params=params, dt=dt, method=method,
-                  t_max=t_max, box=box)
+                  t_max=t_max, box=box, lifted=True)
     pts = sec.points
     if strobe:   # the seed is the sample at t = 0 of the stroboscopic clock
         pts = np.concatenate([Z0[:, None, :], pts], axis=1)
@@ -513,8 +509,8 @@ def frequencies(system, seeds, t=None, n=None, params=None, dt=None, method="aut
     of the spreads makes the signal nearly circular: the conjugate line ``-nu`` (equal in
     size to the fundamental for the raw ``q`` alone) shrinks to the size of the
     anharmonicity, so it leaks far less into the fundamental; no frequency depends on the
-    scale. A coordinate declared an angle (``angles``; by default the wrapped coordinates of
-    a map) whose lifted value covers a whole period (the orbit winds) gives
+    scale. A coordinate declared an angle (``angles``; by default the model's angles,
+    ``system.angles``) whose lifted value covers a whole period (the orbit winds) gives
     ``exp(2 pi i q / period)`` instead, whose frequency is the mean advance of the angle.
 
     The fundamental frequency of a degree of freedom is the largest line of its signal
@@ -556,7 +552,8 @@ def frequencies(system, seeds, t=None, n=None, params=None, dt=None, method="aut
         accurate for long clean records.
     angles : mapping, optional
         ``{coordinate name: period}`` of coordinates to read as angles (see above). Default:
-        the wrapped coordinates of a map, none for a flow.
+        the model's angles (``system.angles``: a map's wrapped coordinates, a flow's declared
+        angles).
     diffusion : bool
         Also analyse the two halves of each orbit and report the change of the frequencies
         (``.diffusion``); costs about as much again.
