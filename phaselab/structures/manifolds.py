@@ -219,7 +219,7 @@ def _lifted_map(ret, u_star, image, inverse):
     """The return map (or its inverse) on batches of coordinates, with the orbit's winding
     taken out so that ``u_star`` is a fixed point of it: ``step(u) -> (images, status)``."""
     shift = np.zeros(ret.dim)
-    if ret.kind == "map":
+    if np.any(ret.period > 0):     # a map's modulus or a flow's angles
         wraps = ret.period > 0
         shift[wraps] = np.round((image - u_star)[wraps] / ret.period[wraps]) * ret.period[wraps]
 
@@ -338,12 +338,12 @@ def _midpoints(pre, idx):
 
 def _split_wrapped(ret, z):
     """Split a polyline of states where a wrapped coordinate jumps (after wrapping)."""
-    if ret.kind != "map" or not np.any(ret.period > 0):
+    if not np.any(ret.period > 0):
         return [z]
     w = ret.wrap(z)
     jumps = np.zeros(len(w) - 1, dtype=bool)
     for j, p in enumerate(ret.period):
         if p > 0:
-            jumps |= np.abs(np.diff(w[:, j])) > 0.5 * p
+            jumps |= np.abs(np.diff(w[:, ret.index[j]])) > 0.5 * p
     cuts = np.flatnonzero(jumps) + 1
     return [piece for piece in np.split(w, cuts) if len(piece) > 1]

@@ -416,8 +416,8 @@ def _legs(ret1: ReturnMap, u0, k: int, shift):
     shifts = np.zeros((n, k, d))
     if shift is not None:
         shifts[:, -1] = _given_shift(ret1, shift)
-    elif ret1.kind == "map" and np.any(ret1.period > 0):
-        # the legs follow the unwrapped iterates, so only the last one winds
+    elif np.any(ret1.period > 0):
+        # the legs follow the unwrapped iterates (lifted angles of a flow), so only the last one winds
         wraps = ret1.period > 0
         adv = np.where(np.isfinite(last), last - U[:, 0], 0.0)
         shifts[:, -1, wraps] = np.round(adv[:, wraps] / ret1.period[wraps]) * ret1.period[wraps]
@@ -438,9 +438,7 @@ def _assemble_shooting(ret1: ReturnMap, U, images, shifts, residual, iterations)
     M = np.eye(ret1.dim)
     for i in range(k):
         M = images.jacobian[i] @ M
-    z = ret1.lift(U)[0]
-    if ret1.kind == "map":
-        z = ret1.wrap(z)
+    z = ret1.wrap(ret1.lift(U)[0])
     return _orbit(ret1, k, z, M, float(np.sum(images.time)), shifts.sum(axis=0), residual, iterations)
 
 
@@ -501,8 +499,7 @@ def _orbit_points(ret: ReturnMap, z0) -> np.ndarray:
                 sec = section(system, z0, ret.plane, direction=ret.direction, crossings=k - 1,
                               params=ret.params, dt=ret.h, method=ret.method.name, t_max=ret.t_max)
                 pts = np.vstack([z0, sec.points[0]])
-    if ret.kind == "map":
-        pts = ret.wrap(pts)
+    pts = ret.wrap(pts)      # the model's angles (a map's modulus, a flow's angles)
     return np.ascontiguousarray(pts)
 
 
@@ -778,11 +775,10 @@ def _least_period(ret, orbit, same):
 
 def _wrapped_difference(ret, a, b):
     diff = np.asarray(a, float) - np.asarray(b, float)
-    if ret.kind == "map":
-        per = np.zeros(len(diff))
-        per[ret.index] = ret.period
-        w = per > 0
-        diff[w] = (diff[w] + 0.5 * per[w]) % per[w] - 0.5 * per[w]
+    per = np.zeros(len(diff))
+    per[ret.index] = ret.period
+    w = per > 0
+    diff[w] = (diff[w] + 0.5 * per[w]) % per[w] - 0.5 * per[w]
     return diff
 
 

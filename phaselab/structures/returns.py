@@ -80,7 +80,10 @@ class ReturnMap:
     prm : ndarray
         Parameter values.
     period : ndarray, shape (d,)
-        The modulus of each coordinate (0 where it does not wrap).
+        The period of each coordinate that is an angle of the model (``system.angles``: a
+        map's modulus, a flow's declared angles), 0 where it does not wrap.
+    low : ndarray, shape (d,)
+        The low end of each angle's interval.
     """
 
     kind = ""
@@ -90,7 +93,8 @@ class ReturnMap:
         self.k = int(k)
         self.prm = prm
         self.box_lo, self.box_hi = box_lo, box_hi
-        self.period = np.zeros(len(self.index))
+        period, low = system.angle_wrapping()      # the model's angles (a map's modulus)
+        self.period, self.low = period[self.index], low[self.index]
 
     @property
     def dim(self) -> int:
@@ -117,6 +121,10 @@ class ReturnMap:
 
     def apply(self, u) -> ReturnImages:
         raise NotImplementedError
+
+    def wrap(self, states) -> np.ndarray:
+        """Full states (..., m) with the model's angles brought into their intervals."""
+        return self.system.wrap_angles(states)
 
     def images(self, u, inverse: bool = False) -> tuple[np.ndarray, np.ndarray]:
         """The map (or its inverse) on a batch of coordinates without derivatives:
