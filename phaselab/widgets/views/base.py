@@ -133,10 +133,12 @@ class BaseView:
         return ""
 
     def label(self, k) -> str:
-        """The plain label of state component ``k`` (as the HTML export writes it)."""
-        from phaselab.export.describe import plain_label
+        """The plain label of state component ``k`` with its unit (as the HTML export writes it)."""
+        from phaselab.export.describe import plain_label, unit_of
+        from phaselab.model.units import with_unit
 
-        return plain_label(self.system.state_symbols[k])
+        sym = self.system.state_symbols[k]
+        return with_unit(plain_label(sym), unit_of(self.system, sym))
 
     @property
     def axis_labels(self):
