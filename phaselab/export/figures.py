@@ -13,7 +13,7 @@ import numpy as np
 
 from phaselab.errors import PhaselabError
 from phaselab.export.describe import (FOOTER_SEPARATOR as _SEP, angle_limits, axis_label, axis_symbols,
-                                      check_section, footer_text, mathtext_label, text_problem)
+                                      check_section, footer_text, text_problem)
 from phaselab.base.files import atomic_path
 
 #: Orbit colours, cycled by orbit index: muted, well separated hues that stay apart on
