@@ -252,3 +252,16 @@ def test_the_explorers_window_spans_the_angles_period(driven):
     assert fitted[0] == pytest.approx((-math.pi, math.pi))
     h = pl.Hamiltonian("p**2/2 - cos(q)", ["q"], ["p"], angles={"q": (0, 4 * sp.pi)})
     assert PortraitView(h).ranges[0] == pytest.approx((0.0, 4 * math.pi))
+
+
+def test_a_family_figure_labels_its_parameter_with_its_unit():
+    d = pl.Hamiltonian("p**2/2 - g*cos(q) + eps*cos(t)*sin(q)", ["q"], ["p"],
+                       params={"g": 9.81, "eps": 0.05}, time="t", period=2 * sp.pi,
+                       units={"g": "m/s^2", "t": "s"}, angles=["q"])
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", RuntimeWarning)
+        orbit = pl.periodic_orbit(d, [0.0, 0.0], period=1)
+        fam = pl.continue_family(orbit, "g", (9.81, 9.0), steps=4)
+    assert fam.plot().axes[0].get_xlabel() == "g [m s^-2]"
+    q = fam.states[:, 0]
+    assert len(q) >= 2 and np.all((q >= -math.pi) & (q < math.pi))
