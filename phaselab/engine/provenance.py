@@ -94,7 +94,9 @@ def provenance(system=None, params=None, **fields) -> dict:
     -------
     dict
         ``system`` (name), ``system_kind`` ("flow" or "map"), ``expression``, ``state``,
-        ``params``, the given fields, ``note``, and the versions of :func:`versions`.
+        ``params``, the model's ``angles`` (name -> [low, high]) and ``units`` (name -> unit)
+        where it declares any (:func:`model_labels`), the given fields, ``note``, and the
+        versions of :func:`versions`.
     """
     used = {}
     if system is not None:
@@ -112,10 +114,24 @@ def provenance(system=None, params=None, **fields) -> dict:
         "state": state_names(system),
         "params": used,
     }
+    meta.update(model_labels(system))
     meta.update(fields)
     meta["note"] = NOTE
     meta.update(versions())
     return meta
+
+
+def model_labels(system) -> dict:
+    """``{"angles": {name: [low, high]}, "units": {name: unit}}`` of a system, each key only
+    where the model declares something (so files of systems without them are unchanged)."""
+    out = {}
+    intervals = getattr(system, "angle_intervals", None) or {}
+    if intervals:
+        out["angles"] = {str(k): [float(a), float(b)] for k, (a, b) in intervals.items()}
+    units = getattr(system, "units", None) or {}
+    if units:
+        out["units"] = {str(k): str(v) for k, v in units.items()}
+    return out
 
 
 def netcdf_attrs(meta: dict) -> dict:

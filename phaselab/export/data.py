@@ -39,7 +39,7 @@ from phaselab.engine.status import LEFT_BOX, OK, STATUS
 from phaselab.engine.provenance import plain
 from phaselab.errors import DataFileError, ParameterError, PhaselabError
 from phaselab.export import section_checks as checks
-from phaselab.export.describe import check_section, section_metadata
+from phaselab.export.describe import check_section, label_units, section_metadata
 from phaselab.base.atomic import atomic_path, checked_path
 
 FORMAT_LINE = "# phaselab section data"
@@ -48,7 +48,8 @@ FORMAT_LINE = "# phaselab section data"
 MAX_CSV_BYTES = 2_000_000_000
 _FIXED_COLUMNS = ("orbit", "crossing", "time")
 # Attributes stored as JSON text in NetCDF (attrs hold only strings and numbers).
-_JSON_ATTRS = ("state", "axes", "params", "plane", "energy")
+_JSON_ATTRS = ("state", "axes", "params", "plane", "energy", "angles", "units")
+_NC_VARIABLES = ("points", "times", "counts", "energy_error", "escaped", "seeds")
 
 
 def _per_orbit(section) -> dict:
@@ -333,6 +334,7 @@ def write_section_netcdf(section, path):
         attrs=attrs,
     )
     ds["points"].attrs["description"] = "full states at the crossings; NaN past an orbit's last crossing"
+    label_units(ds, meta)
     ds["escaped"].attrs["description"] = "1 where the orbit left the box or went non-finite"
     ds["status"].attrs["description"] = "why each orbit stopped: " + "; ".join(
         f"{k} {v}" for k, v in STATUS.items())

@@ -10,7 +10,8 @@ import math
 
 import numpy as np
 
-from phaselab.engine.provenance import expression_text, plain  # noqa: F401  (expression_text re-exported)
+from phaselab.engine.provenance import expression_text, model_labels, plain  # noqa: F401  (expression_text re-exported)
+from phaselab.model.units import with_unit
 
 from phaselab.errors import PhaselabError
 
@@ -124,6 +125,49 @@ def mathtext_label(symbol) -> str:
     return label
 
 
+def unit_of(system, symbol) -> str | None:
+    """The unit the model declares for a state component, the time or a parameter (None)."""
+    units = getattr(system, "units", None) or {}
+    return units.get(getattr(symbol, "name", str(symbol)))
+
+
+def axis_label(system, symbol) -> str:
+    """A figure's axis label: the typeset symbol with its unit, ``"$x$ [m]"``."""
+    return with_unit(mathtext_label(symbol), unit_of(system, symbol))
+
+
+def angle_limits(system, symbol):
+    """The interval ``(low, high)`` of a component that is one of the model's angles, else None."""
+    intervals = getattr(system, "angle_intervals", None) or {}
+    return intervals.get(getattr(symbol, "name", str(symbol)))
+
+
+def time_name(system) -> str:
+    """The name the model's units use for the time (``"t"`` unless the model names it)."""
+    time = getattr(system, "time", None)
+    return getattr(time, "name", None) or "t"
+
+
+def label_units(ds, meta: dict) -> None:
+    """CF ``units`` attributes on a section dataset's variables, from ``meta["units"]``:
+    ``times`` gets the time's unit, ``points`` and ``seeds`` the common unit of their
+    components when they share one, else ``component_units`` (one entry per component,
+    ``""`` where none is declared)."""
+    units = meta.get("units") or {}
+    if not units:
+        return
+    named = set(meta.get("state", [])) | set(meta.get("params", {}))
+    time = next((u for k, u in units.items() if k not in named), None)   # the one other name
+    if time:
+        ds["times"].attrs["units"] = time
+    per = [units.get(name, "") for name in meta.get("state", [])]
+    for var in ("points", "seeds"):
+        if per and all(u == per[0] and u for u in per):
+            ds[var].attrs["units"] = per[0]
+        elif any(per):
+            ds[var].attrs["component_units"] = ", ".join(u or "-" for u in per)
+
+
 #: deepest nesting of braces accepted in mathtext (titles and notes of figures)
 MAX_BRACE_DEPTH = 10
 
@@ -214,6 +258,7 @@ def section_metadata(section) -> dict:
         "method": str(getattr(section, "method", "") or ""),
         "dt": float(getattr(section, "dt", math.nan)),
         "phaselab_version": __version__,
+        **model_labels(system),
     }
 
 

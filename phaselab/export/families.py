@@ -15,6 +15,8 @@ import numpy as np
 from phaselab.errors import PhaselabError
 from phaselab.engine.provenance import MODEL_NOTE
 from phaselab.export.marks import MARKERS
+from phaselab.export.describe import unit_of
+from phaselab.model.units import with_unit
 
 
 def family_figure(family, y=None, size=(6.0, 4.2), dpi=150, title=None, note=MODEL_NOTE):
@@ -51,7 +53,7 @@ def family_figure(family, y=None, size=(6.0, 4.2), dpi=150, title=None, note=MOD
             ax.axvline(b["parameter"], color="#444444", linewidth=0.6, linestyle=":", zorder=1)
             ax.annotate(b["kind"].split(" (")[0], (b["parameter"], 1.0), xycoords=("data", "axes fraction"),
                         rotation=90, fontsize=6.5, color="#444444", ha="right", va="top")
-        ax.set_xlabel(family.parameter, fontsize=10)
+        ax.set_xlabel(with_unit(family.parameter, unit_of(family.system, family.parameter)), fontsize=10)
         ax.set_ylabel({"residue": "residue R = (2 - tr M)/4", "period": "period",
                        "index": "stability index b = lambda + 1/lambda"}[y], fontsize=10)
         for spine in ("top", "right"):

@@ -12,8 +12,8 @@ from pathlib import Path
 import numpy as np
 
 from phaselab.errors import PhaselabError
-from phaselab.export.describe import (FOOTER_SEPARATOR as _SEP, axis_symbols, check_section,
-                                      footer_text, mathtext_label, text_problem)
+from phaselab.export.describe import (FOOTER_SEPARATOR as _SEP, angle_limits, axis_label, axis_symbols,
+                                      check_section, footer_text, text_problem)
 from phaselab.base.atomic import atomic_path
 
 #: Orbit colours, cycled by orbit index: muted, well separated hues that stay apart on
@@ -220,14 +220,17 @@ def section_figure(section, size=(6.0, 4.5), dpi=150, point_size=1.6, color=None
             ax.plot(cx, cy, color="#26313b", linewidth=0.9, alpha=0.85, zorder=3)
 
         hsym, vsym = axis_symbols(section)
-        ax.set_xlabel(mathtext_label(hsym), fontsize=11, labelpad=3)
-        ax.set_ylabel(mathtext_label(vsym), fontsize=11, labelpad=4)
+        system = getattr(section, "system", None)
+        ax.set_xlabel(axis_label(system, hsym), fontsize=11, labelpad=3)
+        ax.set_ylabel(axis_label(system, vsym), fontsize=11, labelpad=4)
         ax.tick_params(labelsize=8, color="#444444", labelcolor="#333333")
         for spine in ("top", "right"):
             ax.spines[spine].set_visible(False)
         for spine in ("left", "bottom"):
             ax.spines[spine].set_color("#444444")
         ax.margins(0.03)
+        xlim = xlim if xlim is not None else angle_limits(system, hsym)   # an angle spans its interval
+        ylim = ylim if ylim is not None else angle_limits(system, vsym)
         if xlim is not None:
             ax.set_xlim(*xlim)
         if ylim is not None:

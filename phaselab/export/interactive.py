@@ -12,7 +12,8 @@ from pathlib import Path
 import numpy as np
 
 from phaselab.errors import PhaselabError
-from phaselab.export.describe import axis_symbols, check_section, footer_text, plain_label
+from phaselab.export.describe import axis_symbols, check_section, footer_text, plain_label, unit_of
+from phaselab.model.units import with_unit
 from phaselab.export.figures import MISSING_COLOR, ORBIT_COLORS, SCALAR_STOPS
 from phaselab.base.atomic import atomic_path
 
@@ -68,7 +69,8 @@ def bokeh_figure(section, width=640, height=480, point_size=3.0, color=None, col
     keep = np.isfinite(pts[..., i]) & np.isfinite(pts[..., j])
     crossing = np.broadcast_to(np.arange(pts.shape[1])[None, :], keep.shape)[keep]
     hsym, vsym = axis_symbols(section)
-    xlabel, ylabel = plain_label(hsym), plain_label(vsym)
+    system = getattr(section, "system", None)
+    xlabel, ylabel = (with_unit(plain_label(s), unit_of(system, s)) for s in (hsym, vsym))
     if webgl is None:
         webgl = x.size > 20_000
 

@@ -77,7 +77,7 @@ def structure_figure(items, section=None, axes=None, size=(6.0, 4.5), dpi=150, t
     """
     import matplotlib
 
-    from phaselab.export.describe import mathtext_label
+    from phaselab.export.describe import angle_limits, axis_label
     from phaselab.export.figures import REPORT_RC, check_size, section_figure
 
     items = list(items)
@@ -111,8 +111,10 @@ def structure_figure(items, section=None, axes=None, size=(6.0, 4.5), dpi=150, t
             ax = fig.add_axes((0.72 / width, bottom / height, (width - 0.94) / width,
                                (height - bottom - top) / height))
             syms = system.state_symbols
-            ax.set_xlabel(mathtext_label(syms[i]), fontsize=11, labelpad=3)
-            ax.set_ylabel(mathtext_label(syms[j]), fontsize=11, labelpad=4)
+            ax.set_xlabel(axis_label(system, syms[i]), fontsize=11, labelpad=3)
+            ax.set_ylabel(axis_label(system, syms[j]), fontsize=11, labelpad=4)
+            xlim = xlim if xlim is not None else angle_limits(system, syms[i])   # an angle spans its interval
+            ylim = ylim if ylim is not None else angle_limits(system, syms[j])
             for spine in ("top", "right"):
                 ax.spines[spine].set_visible(False)
             if title:

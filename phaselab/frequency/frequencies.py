@@ -174,8 +174,8 @@ def frequencies(system, seeds, t=None, n=None, params=None, dt=None, method="aut
     of the spreads makes the signal nearly circular: the conjugate line ``-nu`` (equal in
     size to the fundamental for the raw ``q`` alone) shrinks to the size of the
     anharmonicity, so it leaks far less into the fundamental; no frequency depends on the
-    scale. A coordinate declared an angle (``angles``; by default the wrapped coordinates of
-    a map) whose lifted value covers a whole period (the orbit winds) gives
+    scale. A coordinate declared an angle (``angles``; by default the model's angles,
+    ``system.angles``) whose lifted value covers a whole period (the orbit winds) gives
     ``exp(2 pi i q / period)`` instead, whose frequency is the mean advance of the angle.
 
     The fundamental frequency of a degree of freedom is the largest line of its signal
@@ -217,7 +217,8 @@ def frequencies(system, seeds, t=None, n=None, params=None, dt=None, method="aut
         accurate for long clean records.
     angles : mapping, optional
         ``{coordinate name: period}`` of coordinates to read as angles (see above). Default:
-        the wrapped coordinates of a map, none for a flow.
+        the model's angles (``system.angles``: a map's wrapped coordinates, a flow's declared
+        angles).
     diffusion : bool
         Also analyse the two halves of each orbit and report the change of the frequencies
         (``.diffusion``); costs about as much again.

@@ -71,13 +71,9 @@ def sampling_plan(system, plane, t, n):
 def angle_periods(system, angles):
     """{coordinate index: period} of the coordinates read as angles."""
     out = {}
-    if angles is None:
-        if getattr(system, "kind", "flow") == "map":
-            from phaselab.orbits.section import map_wrapping
-
-            period, _ = map_wrapping(system)
-            out = {i: float(period[i]) for i in range(system.dof) if period[i] > 0}
-        return out
+    if angles is None:   # the model's own angles (a map's modulus, a flow's angles=)
+        period, _ = system.angle_wrapping()
+        return {i: float(period[i]) for i in range(system.dof) if period[i] > 0}
     if not isinstance(angles, Mapping):
         raise ParameterError(f"angles must map coordinate names to their periods, e.g. "
                              f"{{'theta': 2*pi}}, got {angles!r}")
@@ -143,7 +139,7 @@ def sample_orbits(system, Z0, how, n, t, params, dt, method, plane, direction, b
     strobe = how == "stroboscopic"
     sec = section(system, Z0, plane=plane, direction=direction,
                   crossings=n - 1 if strobe else n, params=params, dt=dt, method=method,
-                  t_max=t_max, box=box)
+                  t_max=t_max, box=box, lifted=True)
     pts = sec.points
     if strobe:   # the seed is the sample at t = 0 of the stroboscopic clock
         pts = np.concatenate([Z0[:, None, :], pts], axis=1)

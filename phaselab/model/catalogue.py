@@ -30,7 +30,8 @@ def pendulum() -> Hamiltonian:
     """The plane pendulum, H = p^2 / (2 m l^2) - m g l cos(q).
 
     State ``(q, p)``: ``q`` the angle from the downward vertical (rad), ``p`` the angular
-    momentum (kg m^2 / s). Parameters ``m`` (kg), ``l`` (m), ``g`` (m/s^2).
+    momentum (kg m^2 / s). Parameters ``m`` (kg), ``l`` (m), ``g`` (m/s^2). ``q`` is declared
+    an angle of period 2 pi, and these units are declared with the model.
 
     Source: L. D. Landau and E. M. Lifshitz, *Mechanics*, 3rd ed. (Pergamon, 1976),
     §5 and §11 (the simple pendulum and its period at finite amplitude).
@@ -38,7 +39,9 @@ def pendulum() -> Hamiltonian:
     q, p, m, l, g = _real("q p m l g")
     H = p**2 / (2 * m * l**2) - m * g * l * sp.cos(q)
     return Hamiltonian(H, [q], [p], params={m: (1.0, (0.1, 10.0)), l: (1.0, (0.1, 10.0)),
-                                            g: (9.81, (0.1, 30.0))}, name="pendulum")
+                                            g: (9.81, (0.1, 30.0))}, name="pendulum",
+                       angles={q: 2 * sp.pi},
+                       units={q: "rad", p: "kg m^2/s", m: "kg", l: "m", g: "m/s^2", "t": "s"})
 
 
 def henon_heiles() -> Hamiltonian:
@@ -81,7 +84,8 @@ def double_pendulum() -> Hamiltonian:
 
     with ``w_i`` the angular velocities and the angles measured from the downward vertical.
     State ``(theta1, theta2, p_theta1, p_theta2)``. Parameters ``m1, m2`` (kg),
-    ``l1, l2`` (m), ``g`` (m/s^2). The Lagrangian is kept as ``.lagrangian``.
+    ``l1, l2`` (m), ``g`` (m/s^2), declared with the model; both angles have period 2 pi.
+    The Lagrangian is kept as ``.lagrangian``.
 
     Source: L. D. Landau and E. M. Lifshitz, *Mechanics*, 3rd ed. (Pergamon, 1976),
     §5, problem 1 (the coplanar double pendulum).
@@ -92,7 +96,10 @@ def double_pendulum() -> Hamiltonian:
          + (m1 + m2) * g * l1 * sp.cos(t1) + m2 * g * l2 * sp.cos(t2))
     params = {m1: (1.0, (0.1, 10.0)), m2: (1.0, (0.1, 10.0)), l1: (1.0, (0.1, 5.0)),
               l2: (1.0, (0.1, 5.0)), g: (9.81, (0.1, 30.0))}
-    return Hamiltonian.from_lagrangian(L, [t1, t2], [w1, w2], params=params, name="double_pendulum")
+    units = {t1: "rad", t2: "rad", "p_theta1": "kg m^2/s", "p_theta2": "kg m^2/s", m1: "kg", m2: "kg",
+             l1: "m", l2: "m", g: "m/s^2", "t": "s"}
+    return Hamiltonian.from_lagrangian(L, [t1, t2], [w1, w2], params=params, name="double_pendulum",
+                                       angles={t1: 2 * sp.pi, t2: 2 * sp.pi}, units=units)
 
 
 def restricted_three_body() -> Hamiltonian:
@@ -202,7 +209,8 @@ def driven_pendulum() -> Hamiltonian:
     frequency, ``eps`` the driving strength (pivot amplitude times Omega^2 over the length)
     and ``Omega`` the driving frequency. H depends on time with period 2 pi / Omega (the
     system's ``period``), so stroboscopic sections sample it once per period; compiled
-    kernels use ``.extended()``.
+    kernels use ``.extended()``. ``q`` is declared an angle of period 2 pi (the model is
+    dimensionless: no units are declared).
 
     Source: L. D. Landau and E. M. Lifshitz, *Mechanics*, 3rd ed. (Pergamon, 1976), §30
     (a pendulum with a vibrating point of support); parametric resonance in §27.
@@ -211,7 +219,7 @@ def driven_pendulum() -> Hamiltonian:
     H = p**2 / 2 - (w0**2 + eps * sp.cos(W * t)) * sp.cos(q)
     return Hamiltonian(H, [q], [p], params={w0: (1.0, (0.1, 3.0)), eps: (0.5, (0.0, 5.0)),
                                             W: (2.0, (0.1, 10.0))},
-                       time=t, period=2 * sp.pi / W, name="driven_pendulum")
+                       time=t, period=2 * sp.pi / W, name="driven_pendulum", angles={q: 2 * sp.pi})
 
 
 def standard_map() -> AreaPreservingMap:

@@ -8,6 +8,7 @@ import numpy as np
 import sympy as sp
 
 from phaselab.errors import ModelError
+from phaselab.model.angles import declared_angles
 from phaselab.model.params import Parameter, make_parameters
 from phaselab.model.parser import parse_expression
 from phaselab.model.system import PhaseSpaceSystem, as_symbols
@@ -33,6 +34,14 @@ class Hamiltonian(PhaseSpaceSystem):
         by stroboscopic sections.
     name : str, optional
         A label for plots and files.
+    angles : mapping or sequence of str, optional
+        Coordinates that are angles: ``{"theta": 2*pi}`` (a period: wrapped into
+        ``[-period/2, period/2)`` where shown or saved), ``{"theta": (0, 2*pi)}`` (an
+        interval), or a list of names (period 2 pi each). See :mod:`phaselab.model.angles`.
+    units : mapping of str to str, optional
+        Unit strings of coordinates, momenta, the time (``"t"`` unless ``time`` names it) and
+        parameters, ``{"x": "m", "px": "kg m/s", "t": "s"}``; checked by
+        :func:`phaselab.model.units.parse_unit` and carried into axis labels and files.
 
     Notes
     -----
@@ -41,7 +50,8 @@ class Hamiltonian(PhaseSpaceSystem):
 
     kind = "flow"
 
-    def __init__(self, expr, coords, momenta, params=None, time=None, period=None, name=None):
+    def __init__(self, expr, coords, momenta, params=None, time=None, period=None, name=None,
+                 angles=None, units=None):
         self._set_state(coords, momenta, "a Hamiltonian")
         self.time = as_symbols(time, "time")[0] if time is not None else None
         names = [s.name for s in self.coords + self.momenta] + ([self.time.name] if self.time else [])
@@ -60,6 +70,13 @@ class Hamiltonian(PhaseSpaceSystem):
             if self.time is None:
                 raise ModelError("a driving period was given but the Hamiltonian has no time symbol")
         self.name = name or "H"
+        self._declare(angles, units)
+
+    def _declare(self, angles, units) -> None:
+        """Set the angles and units declared with the model (checked)."""
+        self.angle_intervals = declared_angles(angles, [s.name for s in self.state_symbols],
+                                               [s.name for s in self.coords])
+        self._set_units(units, self.time.name if self.time is not None else None)
 
     # ----------------------------------------------------------------- construction helpers
     def _to_expr(self, expr, known: dict, what: str) -> sp.Expr:
@@ -79,7 +96,7 @@ class Hamiltonian(PhaseSpaceSystem):
 
     @classmethod
     def from_lagrangian(cls, L, coords, velocities, params=None, time=None, period=None, name=None,
-                        momenta=None) -> "Hamiltonian":
+                        momenta=None, angles=None, units=None) -> "Hamiltonian":
         """Build H from a Lagrangian by the Legendre transform.
 
         Parameters
@@ -90,6 +107,8 @@ class Hamiltonian(PhaseSpaceSystem):
             The generalized coordinates and the symbols standing for their time derivatives.
         momenta : sequence of str or sympy.Symbol, optional
             Names for the conjugate momenta; default ``p_<coord>``.
+        angles, units : optional
+            As for :class:`Hamiltonian` (units of the momenta under their names).
 
         Raises
         ------
@@ -99,8 +118,10 @@ class Hamiltonian(PhaseSpaceSystem):
         """
         from phaselab.model.lagrangian import legendre_transform
 
-        return legendre_transform(cls, L, coords, velocities, params=params, time=time,
-                                  period=period, name=name, momenta=momenta)
+        ham = legendre_transform(cls, L, coords, velocities, params=params, time=time,
+                                 period=period, name=name, momenta=momenta)
+        ham._declare(angles, units)
+        return ham
 
     # ----------------------------------------------------------------- structure
     @property
@@ -202,6 +223,8 @@ class Hamiltonian(PhaseSpaceSystem):
         ext = Hamiltonian(self.expr + p_tau, self.coords + (tau,), self.momenta + (p_tau,),
                           params=self.parameters, name=f"{self.name} (extended)")
         ext.period = self.period
+        ext.angle_intervals = dict(self.angle_intervals)   # tau and p_tau are not angles
+        ext.units = dict(self.units)
         ext.time_coordinate = self.dof  # index of tau among the coordinates
         ext.original = self
         return ext

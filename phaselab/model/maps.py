@@ -39,6 +39,7 @@ import numpy as np
 import sympy as sp
 
 from phaselab.errors import ModelError
+from phaselab.model.angles import declared_angles
 from phaselab.model.system import PhaseSpaceSystem
 from phaselab.model.limits import EXPAND_MAX_TERMS, MAX_TREE_NODES, expanded_terms, plain_det, tree_size
 from phaselab.model.params import Parameter, finite_number, make_parameters
@@ -84,6 +85,12 @@ class SymplecticMap(PhaseSpaceSystem):
         ``[2*pi, None]`` or ``[(-pi, pi), 2*pi]``. Numbers may be strings such as ``"2*pi"``.
     name : str, optional
         A label for plots and files.
+    angles : mapping or sequence of str, optional
+        The same wrapping in the form flows declare it (:class:`~phaselab.Hamiltonian`):
+        ``{"q": 2*pi}`` wraps ``q`` into ``[-pi, pi)``, ``{"q": (0, 2*pi)}`` into ``[0, 2 pi)``;
+        not together with ``modulus``. Either fills :attr:`angle_intervals` / ``angles``.
+    units : mapping of str to str, optional
+        Unit strings of components and parameters (the time is the iterate count, ``"t"``).
     reversor : sequence, optional
         An involution R of phase space that reverses the map, R M R = M^-1, given like
         ``update`` (2n expressions, or (target, expression) pairs). Its fixed sets are the
@@ -126,7 +133,8 @@ class SymplecticMap(PhaseSpaceSystem):
     period = None
     is_autonomous = True
 
-    def __init__(self, update, coords, momenta, params=None, modulus=None, name=None, reversor=None):
+    def __init__(self, update, coords, momenta, params=None, modulus=None, name=None, reversor=None,
+                 angles=None, units=None):
         self._set_state(coords, momenta, "a map")
         if len(self.state_symbols) > MAX_COMPONENTS:
             raise ModelError(f"a map has at most {MAX_COMPONENTS} state components; this one has "
@@ -140,7 +148,10 @@ class SymplecticMap(PhaseSpaceSystem):
         self._known = {s.name: s for s in self.state_symbols}
         self._known.update({p.name: p.symbol for p in self.parameters})
         self.update: list[sp.Expr] = self._rules(update)
-        self.modulus, self.modulus_low = self._modulus(modulus)
+        self.modulus, self.modulus_low = self._modulus(self._modulus_of(modulus, angles))
+        self.angle_intervals = {s.name: (low, low + period) for s, period, low in
+                                zip(self.state_symbols, self.modulus, self.modulus_low) if period is not None}
+        self._set_units(units, None)
         self._check_jacobian_size()
         self.symplectic_defect = self._check_symplectic()
         self.determinant, self.area_check = self._check_area()
@@ -213,6 +224,16 @@ class SymplecticMap(PhaseSpaceSystem):
         if isinstance(value, str):
             value = parse_expression(value, symbols={}, allowed=set())
         return finite_number(value, what, ModelError)
+
+    def _modulus_of(self, modulus, angles):
+        """``angles=`` (the flows' form, any state component of a map) as a modulus list."""
+        if angles is None:
+            return modulus
+        if modulus is not None:
+            raise ModelError("give either modulus= or angles= (they are the same wrapping), not both")
+        names = [s.name for s in self.state_symbols]
+        given = declared_angles(angles, names, names)
+        return [given.get(n) for n in names]
 
     def _modulus(self, modulus):
         n = len(self.state_symbols)

@@ -1,4 +1,5 @@
-"""What every system shares: coordinates, momenta, parameters, state order, pickling."""
+"""What every system shares: coordinates, momenta, parameters, state order, angles, units,
+pickling."""
 
 from __future__ import annotations
 
@@ -6,7 +7,9 @@ import numpy as np
 import sympy as sp
 
 from phaselab.errors import ModelError
+from phaselab.model import angles as angle_rules
 from phaselab.model.params import Parameter, resolve_values
+from phaselab.model.units import declared_units
 
 
 def as_symbols(items, what: str) -> tuple[sp.Symbol, ...]:
@@ -30,11 +33,23 @@ class PhaseSpaceSystem:
 
     Subclasses set ``coords``, ``momenta`` (tuples of sympy symbols, state order) and
     ``parameters`` (tuple of :class:`Parameter`).
+
+    Attributes
+    ----------
+    angle_intervals : dict of str to (float, float)
+        Each state component that is an angle, with the interval ``[low, high)`` it is
+        wrapped into where a point is shown or saved (:mod:`phaselab.model.angles`). A
+        map's ``modulus`` fills it; a flow declares it with ``angles=``.
+    units : dict of str to str
+        Canonical unit strings of the coordinates, momenta, time and parameters that were
+        given one (:mod:`phaselab.model.units`); the rest have none.
     """
 
     coords: tuple
     momenta: tuple
     parameters: tuple[Parameter, ...]
+    angle_intervals: dict = {}
+    units: dict = {}
 
     def _set_state(self, coords, momenta, what: str) -> None:
         """Set ``coords`` and ``momenta`` (state order), one momentum per coordinate."""
@@ -73,6 +88,42 @@ class PhaseSpaceSystem:
         numpy.ndarray, shape (n_params,)
         """
         return resolve_values(self.parameters, params)
+
+    # ------------------------------------------------------------------ angles and units
+    @property
+    def angles(self) -> dict[str, float]:
+        """The period of each angle (state component on a circle), by name; ``{}`` for none."""
+        return {name: high - low for name, (low, high) in self.angle_intervals.items()}
+
+    def angle_wrapping(self) -> tuple[np.ndarray, np.ndarray]:
+        """Per-component ``(period, low)`` arrays, shape ``(2n,)``; period 0 where a component
+        is not an angle."""
+        return angle_rules.wrapping_arrays(self.angle_intervals, [s.name for s in self.state_symbols])
+
+    def wrap_angles(self, states) -> np.ndarray:
+        """States with every angle wrapped into its interval.
+
+        Parameters
+        ----------
+        states : array_like, shape (..., 2n)
+
+        Returns
+        -------
+        numpy.ndarray, same shape (a copy)
+        """
+        period, low = self.angle_wrapping()
+        return angle_rules.wrap(states, period, low)
+
+    def unit(self, name: str) -> str | None:
+        """The unit of a coordinate, momentum, the time or a parameter, or None."""
+        return self.units.get(getattr(name, "name", name))
+
+    def _set_units(self, units, time_name: str | None) -> None:
+        """Check ``units=`` against the model's names (the time is ``t`` unless named)."""
+        allowed = {s.name: "state" for s in self.state_symbols}
+        allowed[time_name or "t"] = "time"
+        allowed.update({p.name: "parameter" for p in self.parameters})
+        self.units = declared_units(units, allowed)
 
     def __getstate__(self):
         """The instance dict without cached lambdified functions, which cannot be pickled;

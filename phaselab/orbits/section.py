@@ -40,7 +40,7 @@ DEFAULT_STEPS_PER_CROSSING = 5000
 
 def section(system, seeds, plane=None, direction=+1, crossings=300, params=None, dt=None,
             method="auto", t_max=None, energy=None, axes=None, box=None,
-            energy_limit=codes.ENERGY_LIMIT) -> Section:
+            energy_limit=codes.ENERGY_LIMIT, *, lifted=False) -> Section:
     """A surface of section of an ensemble of orbits.
 
     Parameters
@@ -82,11 +82,17 @@ def section(system, seeds, plane=None, direction=+1, crossings=300, params=None,
     energy_limit : float
         An orbit whose worst relative energy error exceeds this gets status
         ``ENERGY_DRIFT`` (its points are kept): the step was too large for it.
+    lifted : bool, keyword-only
+        For a flow, keep its angles (``system.angles``) lifted, as integrated, instead of
+        wrapped into their intervals (frequency analysis needs the lift). Maps are wrapped
+        by their iteration either way.
 
     Returns
     -------
     Section
-        Points are full states (of the original system for stroboscopic sections).
+        Points are full states (of the original system for stroboscopic sections); a flow's
+        angles wrapped into their intervals ``[low, high)`` (:mod:`phaselab.model.angles`)
+        unless ``lifted``.
 
     Raises
     ------
@@ -115,6 +121,8 @@ def section(system, seeds, plane=None, direction=+1, crossings=300, params=None,
         raise ParameterError(f"plane must be a mapping such as {{'x': 0.0}} or 'stroboscopic', got {plane!r}")
     drift = (out.status == OK) & (out.energy_error > energy_limit)
     out.status[drift] = codes.ENERGY_DRIFT
+    if not lifted and getattr(system, "kind", "flow") != "map" and getattr(system, "angle_intervals", None):
+        out.points = system.wrap_angles(out.points)
     _warn_stopped(out, energy_limit)
     return out
 

@@ -21,6 +21,7 @@ from phaselab.engine.status import NOT_CONVERGED, OK, STEP_TOO_LARGE
 from phaselab.engine.compiled import loops
 from phaselab.engine.integrators import choose_method, default_step
 from phaselab.errors import IntegrationError, ModelError, ParameterError
+from phaselab.model.angles import break_jumps
 
 __all__ = ["trajectory", "Trajectory", "STEP_CHECK_STEPS", "STEP_CHECK_LIMIT"]
 
@@ -105,6 +106,30 @@ class Trajectory(codes.StatusReport):
         return self.states.shape[0]
 
 
+
+    def wrapped_path(self, orbit: int = 0, every: int = 1) -> tuple[np.ndarray, np.ndarray]:
+        """One orbit ready to draw: the model's angles wrapped into their intervals, with a
+        NaN row wherever an angle jumps across its interval. ``states`` stays lifted.
+
+        Parameters
+        ----------
+        orbit : int
+        every : int
+            Keep every ``every``-th sample.
+
+        Returns
+        -------
+        t : ndarray, shape (n_shown,)
+        states : ndarray, shape (n_shown, 2n)
+        """
+        z = self.states[orbit, ::every]
+        t = self.t[::every]
+        wrapping = getattr(self.system, "angle_wrapping", None)
+        if wrapping is None:
+            return t.copy(), z.copy()
+        period, low = wrapping()
+        both = break_jumps(np.column_stack([t, z]), np.r_[0.0, period], np.r_[0.0, low])
+        return both[:, 0], both[:, 1:]
 
     def take(self, orbits) -> "Trajectory":
         """The trajectory of the selected orbits (index, indices or boolean mask), copied."""

@@ -110,6 +110,10 @@ def seed_dataset(grid, seeds, variables: dict, meta: dict, state=None, extra_coo
     if grid is not None:
         ds[where[1]].attrs["description"] = f"grid values of the state component {grid.axis_names[0]}"
         ds[where[0]].attrs["description"] = f"grid values of the state component {grid.axis_names[1]}"
+        units = meta.get("units") or {}
+        for dim, name in ((where[1], grid.axis_names[0]), (where[0], grid.axis_names[1])):
+            if units.get(str(name)):
+                ds[dim].attrs["units"] = units[str(name)]    # CF: the model's unit of the component
     return ds
 
 

@@ -402,6 +402,8 @@ def _member(ret, name, u, lam, img):
 def _family(orbit, ret, name, shift, members, note, resonances=0) -> Family:
     values = np.array([m[1] for m in members])
     states = np.array([m[3] for m in members])
+    if len(states):
+        states = ret.wrap(states)      # the model's angles into their intervals, as orbit points are
     period = np.array([float(m[2].time[0]) for m in members])
     mons = [m[2].jacobian[0] for m in members]
     info = [classify(M) for M in mons]

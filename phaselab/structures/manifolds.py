@@ -352,13 +352,13 @@ def _midpoints(pre, idx):
 
 def _split_wrapped(ret, z):
     """Split a polyline of states where a wrapped coordinate jumps (after wrapping)."""
-    if ret.kind != "map" or not np.any(ret.period > 0):
+    if not np.any(ret.period > 0):
         return [z]
     w = ret.wrap(z)
     jumps = np.zeros(len(w) - 1, dtype=bool)
     for j, p in enumerate(ret.period):
         if p > 0:
-            jumps |= np.abs(np.diff(w[:, j])) > 0.5 * p
+            jumps |= np.abs(np.diff(w[:, ret.index[j]])) > 0.5 * p
     cuts = np.flatnonzero(jumps) + 1
     return [piece for piece in np.split(w, cuts) if len(piece) > 1]
 

@@ -79,7 +79,10 @@ class ReturnMap:
     prm : ndarray
         Parameter values.
     period : ndarray, shape (d,)
-        The modulus of each coordinate (0 where it does not wrap).
+        The period of each coordinate that is an angle of the model (``system.angles``: a
+        map's modulus, a flow's declared angles), 0 where it does not wrap.
+    low : ndarray, shape (d,)
+        The low end of each angle's interval.
     """
 
     kind = ""
@@ -89,7 +92,8 @@ class ReturnMap:
         self.k = int(k)
         self.prm = prm
         self.box_lo, self.box_hi = box_lo, box_hi
-        self.period = np.zeros(len(self.index))
+        period, low = system.angle_wrapping()      # the model's angles (a map's modulus)
+        self.period, self.low = period[self.index], low[self.index]
 
     @property
     def dim(self) -> int:
@@ -130,19 +134,24 @@ class ReturnMap:
         Returns
         -------
         ndarray, shape (d,)
-            For a map, the advance of each wrapped component rounded to whole periods of its
-            modulus. A flow declares no angles, so its winding is the orbit's ``shift`` (the
-            advance it was found with, e.g. ``{"theta": 2*pi}``), zero where none is known.
-            Subtracting it makes the orbit point a fixed point of the lifted map.
+            The advance of each angle of the model (a map's modulus, a flow's declared angles)
+            rounded to whole periods; in the other components the orbit's ``shift`` (the
+            advance it was found with, e.g. ``{"theta": 2*pi}`` for a flow that declares no
+            angles), zero where none is known. Subtracting it makes the orbit point a fixed
+            point of the lifted map.
         """
         out = np.zeros(self.dim)
-        if self.kind == "map":
-            wraps = self.period > 0
-            adv = np.asarray(advance, dtype=float)
-            out[wraps] = np.round(adv[wraps] / self.period[wraps]) * self.period[wraps]
-        elif shift is not None and np.shape(shift) == (self.dim,):
-            out[:] = np.where(np.isfinite(shift), shift, 0.0)
+        wraps = self.period > 0
+        adv = np.asarray(advance, dtype=float)
+        out[wraps] = np.round(adv[wraps] / self.period[wraps]) * self.period[wraps]
+        if shift is not None and np.shape(shift) == (self.dim,):
+            given = ~wraps & np.isfinite(shift)
+            out[given] = np.asarray(shift, dtype=float)[given]
         return out
+
+    def wrap(self, states) -> np.ndarray:
+        """Full states (..., m) with the model's angles brought into their intervals."""
+        return self.system.wrap_angles(states)
 
     def images(self, u, inverse: bool = False) -> tuple[np.ndarray, np.ndarray]:
         """The map (or its inverse) on a batch of coordinates without derivatives:

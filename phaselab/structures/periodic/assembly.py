@@ -56,8 +56,8 @@ def shooting_legs(ret1: ReturnMap, u0, k: int, shift):
     shifts = np.zeros((n, k, d))
     if shift is not None:
         shifts[:, -1] = given_shift(ret1, shift)
-    elif ret1.kind == "map" and np.any(ret1.period > 0):
-        # the legs follow the unwrapped iterates, so only the last one winds
+    elif np.any(ret1.period > 0):
+        # the legs follow the unwrapped iterates (lifted angles of a flow), so only the last one winds
         wraps = ret1.period > 0
         adv = np.where(np.isfinite(last), last - U[:, 0], 0.0)
         shifts[:, -1, wraps] = np.round(adv[:, wraps] / ret1.period[wraps]) * ret1.period[wraps]
@@ -79,9 +79,7 @@ def assemble_shooting(ret1: ReturnMap, U, images, shifts, residual, iterations, 
     M = np.eye(ret1.dim)
     for i in range(k):
         M = images.jacobian[i] @ M
-    z = ret1.lift(U)[0]
-    if ret1.kind == "map":
-        z = ret1.wrap(z)
+    z = ret1.wrap(ret1.lift(U)[0])
     reduced, count = None, 0
     if symmetry is not None and symmetry.count:
         G, C = symmetry.directions(U[:1])[0]
@@ -149,8 +147,7 @@ def orbit_points(ret: ReturnMap, z0) -> np.ndarray:
                 sec = section(system, z0, ret.plane, direction=ret.direction, crossings=k - 1,
                               params=ret.params, dt=ret.h, method=ret.method.name, t_max=ret.t_max)
                 pts = np.vstack([z0, sec.points[0]])
-    if ret.kind == "map":
-        pts = ret.wrap(pts)
+    pts = ret.wrap(pts)      # the model's angles (a map's modulus, a flow's angles)
     return np.ascontiguousarray(pts)
 
 
@@ -162,9 +159,8 @@ def image_of(images, i):
 
 def wrapped_difference(ret, a, b):
     diff = np.asarray(a, float) - np.asarray(b, float)
-    if ret.kind == "map":
-        per = np.zeros(len(diff))
-        per[ret.index] = ret.period
-        w = per > 0
-        diff[w] = (diff[w] + 0.5 * per[w]) % per[w] - 0.5 * per[w]
+    per = np.zeros(len(diff))
+    per[ret.index] = ret.period
+    w = per > 0
+    diff[w] = (diff[w] + 0.5 * per[w]) % per[w] - 0.5 * per[w]
     return diff

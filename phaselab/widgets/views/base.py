@@ -101,6 +101,13 @@ class BaseView:
             raise ParameterError(f"ranges must be ((xlow, xhigh), (ylow, yhigh)) or a dict by name, got {ranges!r}") from None
         return (_finite_pair(a, f"range of {self.axis_names[0]}"), _finite_pair(b, f"range of {self.axis_names[1]}"))
 
+    def _angle_window(self, ranges):
+        """``ranges`` with each shown angle of the model spanning its interval
+        (``system.angle_intervals``), the convention sections and figures use."""
+        intervals = getattr(self.system, "angle_intervals", None) or {}
+        return tuple(tuple(float(v) for v in intervals[name]) if name in intervals else rng
+                     for name, rng in zip(self.axis_names, ranges))
+
     def _full_states(self, points):
         pts = np.atleast_2d(np.asarray(points, dtype=float))
         if pts.shape[1] != 2:
@@ -126,10 +133,12 @@ class BaseView:
         return ""
 
     def label(self, k) -> str:
-        """The plain label of state component ``k`` (as the HTML export writes it)."""
-        from phaselab.export.describe import plain_label
+        """The plain label of state component ``k`` with its unit (as the HTML export writes it)."""
+        from phaselab.export.describe import plain_label, unit_of
+        from phaselab.model.units import with_unit
 
-        return plain_label(self.system.state_symbols[k])
+        sym = self.system.state_symbols[k]
+        return with_unit(plain_label(sym), unit_of(self.system, sym))
 
     @property
     def axis_labels(self):
@@ -147,8 +156,8 @@ class BaseView:
     def panel_curves(self, tr, params):
         """The two panels' (x, y) curves from a trajectory of the selected orbit."""
         step = max(1, len(tr.t) // TRACE_SAMPLES)
-        st = tr.states[0, ::step]
         t = np.asarray(tr.t[::step], float)
+        tw, st = tr.wrapped_path(0, step)          # angles wrapped, broken where they jump
         n = len(self.names) // 2
-        first = (st[:, 0], st[:, 1]) if n >= 2 else (t, st[:, 0])
+        first = (st[:, 0], st[:, 1]) if n >= 2 else (tw, st[:, 0])
         return first, (t, np.asarray(tr.energy_error[0, ::step], float))

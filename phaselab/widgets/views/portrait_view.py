@@ -21,7 +21,7 @@ class PortraitView(BaseView):
     def __init__(self, system, crossings=300, ranges=None, duration=None, method="auto", dt=None):
         super().__init__(system, crossings, ranges, method, dt)
         self._set_axes(0, 1)
-        self.ranges = self._ranges_from(ranges, ((-math.pi, math.pi), (-3.0, 3.0)))
+        self.ranges = self._ranges_from(ranges, self._angle_window(((-math.pi, math.pi), (-3.0, 3.0))))
         self.duration = 20.0 if duration is None else float(duration)
         if not (math.isfinite(self.duration) and self.duration > 0):
             raise ParameterError(f"duration must be a positive time, got {duration!r}")
@@ -72,7 +72,7 @@ class PortraitView(BaseView):
             warnings.simplefilter("ignore", RuntimeWarning)
             tr = trajectory(self.system, states, np.linspace(0.0, self.duration, crossings or self.crossings),
                             method=self.method, params=params)
-        pts = tr.states
+        pts = self.system.wrap_angles(tr.states)    # shown points: angles in their intervals
         counts = np.isfinite(pts[..., 0]).sum(axis=1)
         times = np.broadcast_to(tr.t, pts.shape[:2]).copy()
         times[~np.isfinite(pts[..., 0])] = np.nan

@@ -119,7 +119,7 @@ class SectionView(BaseView):
             if h >= 4.0 and k >= 3:
                 chosen = box
                 break
-        self.ranges = chosen
+        self.ranges = chosen = self._angle_window(chosen)
         return chosen
 
     def frame(self, energy, params) -> Frame:

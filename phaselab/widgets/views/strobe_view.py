@@ -25,7 +25,7 @@ class StrobeView(BaseView):
             raise ModelError("the explorer shows stroboscopic sections of one degree of freedom; "
                              f"this driven system has {system.dof}")
         self._set_axes(0, 1)
-        self.ranges = self._ranges_from(ranges, ((-math.pi, math.pi), (-3.0, 3.0)))
+        self.ranges = self._ranges_from(ranges, self._angle_window(((-math.pi, math.pi), (-3.0, 3.0))))
 
     def describe(self) -> str:
         return "stroboscopic section: the state once per driving period"
@@ -48,7 +48,8 @@ class StrobeView(BaseView):
         p = pts[bounded].reshape(-1, 2)
         lo, hi = p.min(axis=0), p.max(axis=0)
         pad = 0.08 * (hi - lo) + 1e-6
-        self.ranges = ((float(lo[0] - pad[0]), float(hi[0] + pad[0])), (float(lo[1] - pad[1]), float(hi[1] + pad[1])))
+        self.ranges = self._angle_window(((float(lo[0] - pad[0]), float(hi[0] + pad[0])),
+                                          (float(lo[1] - pad[1]), float(hi[1] + pad[1]))))
         return self.ranges
 
     def panels(self):
@@ -60,7 +61,8 @@ class StrobeView(BaseView):
         st = tr.states[0, ::step]
         t = np.asarray(tr.t[::step], float)
         h = np.asarray(self.system.energy(st, params, t=t), float)
-        return (st[:, 0], st[:, 1]), (t, h)
+        _, shown = tr.wrapped_path(0, step)        # angles wrapped, broken where they jump
+        return (shown[:, 0], shown[:, 1]), (t, h)
 
     def compute(self, states, energy, params, crossings=None):
         from phaselab.orbits.section import section
