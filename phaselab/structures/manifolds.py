@@ -212,9 +212,9 @@ def manifold(orbit, branch="unstable", side=+1, length=10.0, max_segment=None, m
     for curve in curves:
         z, _, valid = ret.lift(curve)
         z = z[valid]
-        if ret.kind == "map":
+        if np.any(ret.period > 0):      # the model's angles: a map's modulus, a flow's angles=
             branches += _split_wrapped(ret, z)
-        else:
+        else:                           # a flow wound by its orbit's shift in an undeclared angle
             branches += _split_wound(ret, z, curve[valid], _orbit_shift(orbit, ret.dim, 1))
     lengths = [float(np.sum(np.linalg.norm(np.diff(c, axis=0), axis=1))) for c in curves]
     return Manifold(orbit=orbit, branch=branch, side=side, branches=branches, lifted=curves,
