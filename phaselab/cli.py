@@ -5,8 +5,9 @@
     phaselab demo [--out DIR]              render the built-in two-mode molecule study
     phaselab render STUDY [--out DIR]      compute a study file's section and write its files
     phaselab check STUDY                   read and check a study file, compute nothing
-    phaselab equations STUDY|MODEL         print the equations of motion
+    phaselab equations STUDY|MODEL [--latex]  print the equations of motion (as LaTeX with --latex)
     phaselab examples                      list the built-in studies and catalogue models
+    phaselab keys                          print the reference of study-file tables and keys
 
 ``STUDY`` is a path to a study file (TOML, see ``phaselab/studies/README.md``) or the name
 of a built-in example. Exit status: 0 on success, 2 for a bad study file or bad command
@@ -38,8 +39,11 @@ def _study_path(text: str) -> Path:
         return path
     if text in example_names():
         return example_path(text)
+    from phaselab.model.catalogue import MODELS
+
     raise StudyFileError(f"{text}: no such study file, and no built-in example of that name "
-                         f"(examples: {', '.join(example_names())})")
+                         f"(examples: {', '.join(example_names())}; catalogue models, for "
+                         f"phaselab equations: {', '.join(MODELS)})")
 
 
 def _read(text: str):
@@ -123,6 +127,8 @@ def cmd_equations(args) -> int:
         system = MODELS[target]()
     else:
         system = _read(target).system
+    if args.latex:
+        return _print_latex(system)
     uni = _unicode_ok(sys.stdout)
     print(f"{system.name}")
     params = ", ".join(f"{k} = {v:g}" for k, v in system.params.items())
@@ -143,6 +149,21 @@ def cmd_equations(args) -> int:
     return OK
 
 
+def _print_latex(system) -> int:
+    """The system's defining equations as LaTeX lines (sympy's printer), one per line, for a
+    report: H and Hamilton's equations, or a map's update rules."""
+    import sympy as sp
+
+    if getattr(system, "kind", "flow") == "map":
+        for sym, expr in zip(system.state_symbols, system.update):
+            print(f"{sp.latex(sp.Symbol(sym.name))}' = {sp.latex(expr)}")
+        return OK
+    print(f"H = {sp.latex(system.expr)}")
+    for eq in system.equations():
+        print(sp.latex(eq))
+    return OK
+
+
 def cmd_examples(args) -> int:
     from phaselab.model.catalogue import MODELS
     from phaselab.studies import example_names, example_path, read_study
@@ -154,6 +175,14 @@ def cmd_examples(args) -> int:
         print(f"  {'':14s} {example_path(name)}")
     print("catalogue models (phaselab equations NAME; system.model in a study file):")
     print("  " + ", ".join(MODELS))
+    return OK
+
+
+def cmd_keys(args) -> int:
+    """Print the study-file reference installed with the package."""
+    from importlib import resources
+
+    print(resources.files("phaselab.studies").joinpath("README.md").read_text(encoding="utf-8"))
     return OK
 
 
@@ -194,8 +223,10 @@ def build_parser() -> argparse.ArgumentParser:
 
     p = sub.add_parser("equations", help="print the equations of motion of a study's system or a model")
     p.add_argument("study", metavar="STUDY|MODEL", help="a study file, an example name or a catalogue model")
+    p.add_argument("--latex", action="store_true", help="print LaTeX (one equation per line) for a report")
 
     sub.add_parser("examples", help="list the built-in studies and catalogue models")
+    sub.add_parser("keys", help="print the reference of study-file tables and keys")
     sub.add_parser("warm", help="compile the loops every system shares, once per machine (for images and "
                                 "shared installs)")
     return parser
@@ -207,6 +238,7 @@ COMMANDS = {
     "check": cmd_check,
     "equations": cmd_equations,
     "examples": cmd_examples,
+    "keys": cmd_keys,
     "warm": cmd_warm,
 }
 

@@ -302,3 +302,28 @@ def test_read_only_output_folder_is_a_clear_error(tmp_path, capsys):
         out.chmod(0o700)
     err = capsys.readouterr().err
     assert "ro.toml: output.figure" in err and "Permission denied" in err
+
+
+def test_equations_as_latex_match_sympy(capsys):
+    # reference: sympy's own LaTeX printer of the pendulum's H and of dp/dt = -dH/dq
+    assert main(["equations", "pendulum", "--latex"]) == 0
+    out = capsys.readouterr().out.splitlines()
+    H = phaselab.models.pendulum()
+    assert out[0] == f"H = {sp.latex(H.expr)}"
+    assert sp.latex(H.equations()[1]) in out
+
+
+def test_an_unknown_name_lists_examples_and_catalogue_models(capsys):
+    assert main(["equations", "nosuch"]) == 2
+    err = capsys.readouterr().err
+    assert "molecule" in err and "henon_heiles" in err and "standard_map" in err
+
+
+def test_the_study_key_reference_is_installed_and_printed(capsys):
+    from importlib import resources
+
+    assert main(["keys"]) == 0
+    out = capsys.readouterr().out
+    assert "[system]" in out and "hamiltonian" in out
+    assert resources.files("phaselab.studies").joinpath("README.md").is_file()
+    assert "studies/README.md" in (Path(__file__).resolve().parents[1] / "pyproject.toml").read_text()
