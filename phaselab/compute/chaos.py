@@ -185,6 +185,7 @@ def chaos_indicators(system, states, t, params=None, dt=None, method="auto", vec
         Bad arguments (non-positive or non-numeric ``t`` or ``dt``, bad states, a method
         that is not symplectic, a request over the limits).
     """
+    inputs.system(system), inputs.flag(history, "history")
     vectors = 2 if vectors is None else inputs.count(vectors, "vectors", 1, 2)
     seed = inputs.count(seed, "seed", minimum=0)
     tol, maxit = inputs.implicit_solver(tol, maxit)

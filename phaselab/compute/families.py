@@ -237,8 +237,10 @@ def continue_family(orbit: PeriodicOrbit, parameter, span, steps=200, ds=None, d
     -------
     Family
     """
-    if not isinstance(orbit, PeriodicOrbit):
-        raise ParameterError("continue_family needs a PeriodicOrbit (from phaselab.periodic_orbit)")
+    inputs.instance(orbit, PeriodicOrbit, "orbit", "a PeriodicOrbit (from phaselab.periodic_orbit)")
+    inputs.word(parameter, "parameter")
+    lo, hi = inputs.pair(span, "span")
+    tol, maxit = inputs.positive_number(tol, "tol"), inputs.count(maxit, "maxit", minimum=1, maximum=1000)
     system = orbit.system
     if parameter == "energy":
         if not isinstance(orbit.plane, dict):
@@ -246,11 +248,8 @@ def continue_family(orbit: PeriodicOrbit, parameter, span, steps=200, ds=None, d
     elif parameter not in [p.name for p in system.parameters]:
         raise ParameterError(f"unknown parameter {parameter!r}; the model has: "
                              + ", ".join(["energy"] + [p.name for p in system.parameters]))
-    try:
-        lo, hi = (inputs.number(v, "span") for v in span)
-    except TypeError:
-        raise ParameterError(f"span must be (start, end), got {span!r}") from None
     steps = inputs.count(steps, "steps", minimum=1, maximum=100_000)
+    inputs.check_budget(2 * steps, float(orbit.crossings) * (maxit + 1), 0, "continue_family")
     ret = orbit.return_map()
     lam0 = _get(ret, parameter)
     if not min(lo, hi) <= lam0 <= max(lo, hi):

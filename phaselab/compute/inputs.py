@@ -19,6 +19,7 @@ import numpy as np
 
 from phaselab.compute import codes
 from phaselab.errors import ParameterError
+from phaselab.model.system import PhaseSpaceSystem
 
 
 # ----------------------------------------------------------------------------- limits
@@ -102,6 +103,10 @@ def _amount(x: float) -> str:
 
 
 # ----------------------------------------------------------------------------- numbers
+MAX_COUNT = 2**53
+"""No count may exceed this (an int64 loop counter and a float both hold it exactly)."""
+
+
 def number(value, what: str) -> float:
     """A finite real number (int, float or numpy scalar; not bool, complex or str)."""
     if isinstance(value, (bool, np.bool_)) or not isinstance(value, numbers.Real):
@@ -136,6 +141,9 @@ def count(value, what: str, minimum: int = 1, maximum: int | None = None) -> int
         raise ParameterError(f"{what} must be an integer, got {_show(value)}")
     if k < minimum:
         raise ParameterError(f"{what} must be at least {minimum}, got {k}")
+    if maximum is None and k > MAX_COUNT:
+        raise ParameterError(f"{what} = {k:.3g} is larger than any count phaselab can hold (2**53, far "
+                             "above what the limits of phaselab.set_limits let one call do)")
     if maximum is not None and k > maximum:
         raise ParameterError(f"{what} must be at most {maximum}, got {k}")
     return k
@@ -341,6 +349,151 @@ def flow(system, what: str):
         raise ParameterError(f"{what} needs a Hamiltonian flow, got {got}")
 
 
+# ----------------------------------------------------------------------------- sizes of work
+def shooting_budget(system, plane, n_starts: int, period: int, maxit: int, what: str) -> None:
+    """Refuse a multiple-shooting search whose Newton matrices or work exceed :data:`LIMITS`.
+
+    Each start holds a dense ``(period * dim)^2`` Jacobian (counted twice, for the copy the
+    solver makes). The work counted against ``orbit_steps`` is, per start, one return per
+    point and Newton step plus the dense factorisation, ``(period * dim)^3`` operations per
+    Newton step taken as ``1/100`` of an integrator step each (a step of a small system costs
+    about a hundred operations). Returns of a flow are capped separately (``t_max``).
+
+    Parameters
+    ----------
+    system : Hamiltonian or AreaPreservingMap
+    plane : mapping or None
+        The section plane of a flow (two components fewer per point).
+    n_starts, period, maxit : int
+        Starting points, returns per period, most Newton steps.
+    what : str
+        The call, for the message.
+    """
+    dim = len(system.state_symbols) - 2 * (plane is not None and system.kind == "flow")
+    unknowns = float(period) * float(dim)
+    check_budget(n_starts, (maxit + 1) * (float(period) + unknowns ** 3 / 100.0),
+                 2.0 * n_starts * unknowns * unknowns, what)
+
+
+def curve_budget(length: float, max_segment: float, scale: float, max_points: int, n_curves: int,
+                 what: str) -> None:
+    """Refuse a grown curve that cannot be resolved or whose points exceed :data:`LIMITS`.
+
+    A segment longer than the size of the section (``scale``) resolves nothing, so the
+    curve could not follow its folds and its length would be meaningless; each point costs
+    one return and two values, at most ``max_points`` per curve.
+    """
+    if max_segment > scale:
+        raise ParameterError(
+            f"{what}: segments up to {max_segment:.3g} (max_segment; default length / 2000) are longer "
+            f"than the section's size {scale:.3g}, so the curve would not be resolved; ask for a "
+            f"length up to {2000 * scale:.3g} or give max_segment <= {scale:.3g}")
+    check_budget(n_curves, max_points, 2.0 * n_curves * max_points, what)
+
+
+def scan_budget(n_orbits: int, t: float, dt, is_map: bool, what: str) -> None:
+    """Refuse a scan whose steps summed over all its seeds exceed :data:`LIMITS` (each chunk
+    is checked again when it runs; this check sees the whole scan before the first chunk).
+
+    Parameters
+    ----------
+    n_orbits : int
+        Seeds that will run.
+    t : float
+        Time of a flow, or iterates of a map.
+    dt : float or None
+        Step of a flow; ``None`` when it is chosen later (then each chunk is checked).
+    """
+    if is_map:
+        check_budget(n_orbits, t, 0, what)
+    elif dt is not None:
+        check_budget(n_orbits, abs(t) / dt, 0, what)
+
+
+def grid_axis(name: str, spec, n_default, what: str = "range") -> np.ndarray:
+    """One axis of a grid, ``(low, high)`` or ``(low, high, n)``: n points from low to high.
+
+    The count is checked before anything is allocated (at most 100000 points per axis; the
+    grid as a whole is checked by :func:`grid_budget`).
+    """
+    if isinstance(spec, (str, bytes)) or not isinstance(spec, (tuple, list, np.ndarray)) \
+            or len(spec) not in (2, 3):
+        raise ParameterError(f"{what} of {name!r} must be (low, high) or (low, high, n), got {_show(spec)}")
+    lo = number(spec[0], f"low end of the {what} of {name!r}")
+    hi = number(spec[1], f"high end of the {what} of {name!r}")
+    if not lo < hi:
+        raise ParameterError(f"{what} of {name!r} must have low < high, got ({lo:g}, {hi:g})")
+    n = count(spec[2] if len(spec) == 3 else n_default, f"points of the {what} of {name!r}",
+              minimum=1, maximum=100_000)
+    return np.linspace(lo, hi, n)
+
+
+def grid_budget(n_points: float, width: int, what: str) -> None:
+    """Refuse a grid whose states (``n_points x width`` float64) exceed :data:`LIMITS`."""
+    check_budget(1, 0, float(n_points) * width, what)
+
+
+# ----------------------------------------------------------------------------- objects and words
+def system(value, what: str = "system", kind: str | None = None):
+    """A phaselab system (:class:`~phaselab.Hamiltonian` or :class:`~phaselab.AreaPreservingMap`);
+    ``kind`` ``"flow"`` or ``"map"`` asks for one of them."""
+    if not isinstance(value, PhaseSpaceSystem):
+        raise ParameterError(f"{what} must be a phaselab.Hamiltonian or phaselab.AreaPreservingMap, "
+                             f"got {_kind(value)}")
+    if kind is not None and getattr(value, "kind", None) != kind:
+        want = "an area-preserving map" if kind == "map" else "a Hamiltonian flow"
+        raise ParameterError(f"{what} must be {want}, got {_kind(value)}")
+    return value
+
+
+def instance(value, cls, what: str, made_by: str):
+    """``value`` if it is a ``cls`` (``made_by`` says where one comes from), else a ParameterError."""
+    if not isinstance(value, cls):
+        raise ParameterError(f"{what} must be {made_by}, got {_kind(value)}")
+    return value
+
+
+def flag(value, what: str) -> bool:
+    """True or False (a bool or numpy bool; not a number or text)."""
+    if not isinstance(value, (bool, np.bool_)):
+        raise ParameterError(f"{what} must be True or False, got {_show(value)}")
+    return bool(value)
+
+
+def word(value, what: str, choices=None) -> str:
+    """A name given as text, one of ``choices`` when given."""
+    if not isinstance(value, str):
+        raise ParameterError(f"{what} must be a name given as text, got {_show(value)}")
+    if choices is not None and value not in choices:
+        raise ParameterError(f"{what} must be one of {', '.join(map(repr, choices))}, got {value!r}")
+    return value
+
+
+def mapping(value, what: str, optional: bool = True) -> dict | None:
+    """A mapping (``None`` when optional): returned as a dict."""
+    if value is None and optional:
+        return None
+    if not isinstance(value, Mapping):
+        raise ParameterError(f"{what} must be a mapping name -> value, got {_show(value)}")
+    return dict(value)
+
+
+def pair(value, what: str) -> tuple[float, float]:
+    """Two finite numbers ``(a, b)`` with a != b (a span or bracket, either order)."""
+    if isinstance(value, (str, bytes, Mapping)) or not hasattr(value, "__len__") or len(value) != 2:
+        raise ParameterError(f"{what} must be two numbers (start, end), got {_show(value)}")
+    a, b = number(value[0], what), number(value[1], what)
+    if a == b:
+        raise ParameterError(f"{what} must have two different ends, got ({a:g}, {b:g})")
+    return a, b
+
+
+def _kind(value) -> str:
+    return f"{type(value).__name__} {_show(value)}" if not isinstance(value, PhaseSpaceSystem) \
+        else f"{type(value).__name__} ({getattr(value, 'kind', '?')})"
+
+
 __all__ = ["LIMITS", "Limits", "set_limits", "check_budget", "number", "positive_number", "count",
            "step", "direction", "tolerance", "iterations", "states", "state_index", "box", "method",
-           "symplectic", "implicit_solver", "flow"]
+           "symplectic", "implicit_solver", "flow", "shooting_budget", "curve_budget", "scan_budget", "grid_axis", "grid_budget", "system",
+           "instance", "flag", "word", "mapping", "pair"]

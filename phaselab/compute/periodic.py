@@ -571,10 +571,13 @@ def periodic_orbit(system, guess, period=1, plane=None, energy=None, params=None
     the product of the k one-return Jacobians, exact derivatives from the tangent maps of the
     integrator.
     """
+    inputs.system(system)
     tol = inputs.positive_number(tol, "tol")
     maxit = inputs.count(maxit, "maxit", minimum=1, maximum=1000)
     k = inputs.count(period, "period")
+    inputs.direction(direction), inputs.flag(symmetric, "symmetric")
     names = [s.name for s in system.state_symbols]
+    inputs.shooting_budget(system, plane, 1, k, maxit, "periodic_orbit")
     g = inputs.states(guess, len(names), names, "guess")
     if len(g) != 1:
         raise ParameterError("guess must be one state; use find_periodic_orbits for many")
@@ -694,14 +697,18 @@ def find_periodic_orbits(system, period, region=None, seeds=None, plane=None, en
     -------
     PeriodicOrbits
     """
+    inputs.system(system)
     names = [s.name for s in system.state_symbols]
     k = inputs.count(period, "period")
+    tol, same = inputs.positive_number(tol, "tol"), inputs.positive_number(same, "same")
+    maxit = inputs.count(maxit, "maxit", minimum=1, maximum=1000)
     if (region is None) == (seeds is None):
         raise ParameterError("give either region={name: (low, high), ...} or seeds=...")
     if seeds is None:
         starts = _grid(system, region, inputs.count(resolution, "resolution", 1, 1000), plane)
     else:
         starts = inputs.states(seeds, len(names), names, "seeds")
+    inputs.shooting_budget(system, plane, len(starts), k, maxit, "find_periodic_orbits")
     starts = starts[np.all(np.isfinite(starts), axis=1)]
     if not len(starts):
         raise ParameterError("no finite starting points")
@@ -737,6 +744,7 @@ def _grid(system, region, resolution, plane):
     if not isinstance(region, dict) or not region:
         raise ParameterError("region must map coordinate names to (low, high), e.g. {'y': (-0.5, 0.5)}")
     names = [s.name for s in system.state_symbols]
+    inputs.grid_budget(float(resolution) ** len(region), len(names), "find_periodic_orbits")
     axes = []
     for key, rng in region.items():
         j = inputs.state_index(system, key, "region coordinate")

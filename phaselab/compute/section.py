@@ -96,6 +96,7 @@ def section(system, seeds, plane=None, direction=+1, crossings=300, params=None,
         A plane given for a driven system (or none for an autonomous one), a non-periodic
         driven system, a splitting method for a non-separable H.
     """
+    inputs.system(system)
     direction = inputs.direction(direction)
     crossings = inputs.count(crossings, "crossings")
     energy_limit = inputs.positive_number(energy_limit, "energy_limit")
@@ -152,7 +153,7 @@ def _axes(system, axes, default):
     if axes is None:
         i, j = default
     else:
-        if isinstance(axes, str) or len(axes) != 2:
+        if isinstance(axes, str) or not isinstance(axes, (tuple, list)) or len(axes) != 2:
             raise ParameterError(f"axes must be two state names such as ('y', 'py'), got {axes!r}")
         i, j = (inputs.state_index(system, a, "axis") for a in axes)
     syms = system.state_symbols

@@ -13,6 +13,8 @@ import time
 
 import numpy as np
 
+from phaselab.compute import inputs
+
 
 def _paths():
     import phaselab
@@ -64,6 +66,7 @@ def warm(verbose: bool = False) -> dict:
     dict of str to float
         Seconds spent per path (compiling on the first run, loading afterwards).
     """
+    inputs.flag(verbose, "verbose")
     before = os.environ.get("PHASELAB_LOOPS")
     os.environ["PHASELAB_LOOPS"] = "generic"
     report = {}

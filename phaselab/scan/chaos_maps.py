@@ -195,6 +195,7 @@ def chaos_map(system, seeds, t, indicator: str = "megno", params=None, dt=None, 
         inputs.step(dt)
     inputs.box(system, box)
     inputs.implicit_solver(tol, maxit)
+    inputs.scan_budget(int(valid.sum()), t, inputs.step(dt), is_map, "chaos_map")
     options = dict(dt=dt, method=method, box=box, tol=tol, maxit=maxit) if not is_map else dict(box=box)
     fingerprint = {"scan": "chaos_map", "system": system.key, "params": used.tolist(), "t": t,
                    "indicator": indicator, "seed": seed, "options": options,

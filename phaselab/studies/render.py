@@ -21,6 +21,7 @@ from phaselab.errors import PhaselabError, StudyFileError
 from phaselab.studies.fields import Fields
 from phaselab.studies.paths import confined_path, open_output_folder
 from phaselab.studies.spec import Study
+from phaselab.studies.trial import guarded
 
 #: batches per render, for progress reporting (each batch keeps at least MIN_BATCH orbits so
 #: both cores stay busy)
@@ -167,7 +168,7 @@ def compute_section(study: Study, progress=None):
     from phaselab.compute.section import section
     from phaselab.compute.seeds import ShellSeeds
 
-    seeds = seed_states(study)
+    seeds = guarded(Fields(study.source), f"system.{study.system_form}", lambda: seed_states(study))
     energy = None
     left_out = []
     if isinstance(seeds, ShellSeeds):
@@ -195,7 +196,7 @@ def compute_section(study: Study, progress=None):
                 raise
             except PhaselabError as exc:
                 raise StudyFileError(f"{study.source}: section: {exc}") from None
-            except (ArithmeticError, RecursionError, NotImplementedError) as exc:
+            except (ArithmeticError, RecursionError, NotImplementedError, TypeError, ValueError) as exc:
                 # the system's numbers are bounded when it is read; this is a last line so a
                 # study file never ends in a traceback
                 raise StudyFileError(f"{study.source}: section: cannot compute ({type(exc).__name__}: "
@@ -207,7 +208,25 @@ def compute_section(study: Study, progress=None):
             messages.append(text)
         if progress is not None:
             progress(batch.shape[0])
-    return join_sections(parts), left_out, messages
+    sec = join_sections(parts)
+    _require_points(study, sec)
+    return sec, left_out, messages
+
+
+def _require_points(study: Study, sec) -> None:
+    """Refuse a section without a single point, naming the key that caused it."""
+    from phaselab.compute import codes
+
+    if int(np.sum(sec.counts)) > 0:
+        return
+    status = np.asarray(sec.status)
+    words = sorted({codes.STATUS.get(int(s), str(int(s))) for s in status})
+    if study.section.box is not None and np.all(status == codes.LEFT_BOX):
+        raise StudyFileError(f"{study.source}: section.box: every orbit left the box |component| <= "
+                             f"{study.section.box:g} before its first crossing; give a larger box")
+    key = "section.dt" if study.section.dt is not None and np.all(status == codes.NO_CROSSING) else "section"
+    raise StudyFileError(f"{study.source}: {key}: no orbit gave a single section point (the orbits "
+                         f"{', '.join(words)}); check the plane, the energy and the step")
 
 
 def compute_structure(study: Study, sec):
@@ -238,7 +257,7 @@ def compute_structure(study: Study, sec):
         raise
     except PhaselabError as exc:
         raise StudyFileError(f"{study.source}: structure: {exc}") from None
-    except (ArithmeticError, RecursionError, NotImplementedError) as exc:
+    except (ArithmeticError, RecursionError, NotImplementedError, TypeError, ValueError) as exc:
         raise StudyFileError(f"{study.source}: structure: cannot compute ({type(exc).__name__}: {exc})") from None
     return found, branches
 
