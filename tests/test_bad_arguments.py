@@ -56,6 +56,14 @@ def _table():
     """Rows of (name, function, args, kwargs, argument, bad value)."""
     seeds_h2 = [[0.0, 0.1, 0.3, 0.0]]
     rows = {
+        "Hamiltonian": _case(phaselab.Hamiltonian, ("p**2/2 + a*q**2", ["q"], ["p"]), {"params": {"a": 1.0}},
+                             {"expr": [None, ["p"], object(), b"p**2", "p**2 +", "__import__('os')"],
+                              "coords": [None, 3, ["1x"], ["q", "q"], [None]], "momenta": [None, 3, ["p", "r"]],
+                              "params": PARAMS[:2] + [{"a": "x"}, {"a": NAN}, {"a": INF}, {"a": None}],
+                              "time": [3, "q"]}),
+        "AreaPreservingMap": _case(phaselab.AreaPreservingMap, (["q + p", "p + sin(q)"], ["q"], ["p"]), {},
+                                   {"update": [None, 3, ["q + p"], [["q", "q + p", "x"]], [3, 4], ["q", "p*2"]],
+                                    "coords": [None, 3], "modulus": ["x", [1, 2, 3], -1.0, NAN, {"q": "a"}]}),
         "trajectory": _case(phaselab.trajectory, (H1, [[0.1, 0.0]], 1.0), {"dt": 0.1},
                             {"system": NOT_SYSTEMS, "state0": STATES1, "t": REQUIRED + [1e300],
                              "dt": POSITIVE + [1e-300], "method": METHODS, "params": PARAMS,

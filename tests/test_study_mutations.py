@@ -3,8 +3,8 @@
 
 The shipped study files are mutated one way at a time (a parameter renamed after a function,
 numbers that sympy keeps exact inside functions, a box that holds no seed, a structure search
-beyond the limits, a shell no seed reaches, a step far too small, ...). Each mutant goes
-through ``check`` (:func:`phaselab.studies.parse_study`); the accepted ones are rendered into
+beyond the limits, a shell no seed reaches, steps far too small or too large, ...). Each mutant
+goes through ``check`` (:func:`phaselab.studies.parse_study`); the accepted ones are rendered into
 a temporary folder. Only a :class:`StudyFileError` whose message starts with the file name
 and a key is allowed; any other exception fails the test. The studies are first shrunk (a
 few seeds, 20 crossings) so each render takes about a second.
@@ -74,7 +74,8 @@ def _mutants():
         if "energy = " in base:
             cases["energy-below-all"] = re.sub(r"(?m)^energy = .*$", "energy = -50.0", base)
         if "dt = " in base:
-            cases["dt-tiny"] = re.sub(r"(?m)^dt = .*$", "dt = 1e-7", base)
+            cases["dt-below-floor"] = re.sub(r"(?m)^dt = .*$", "dt = 1e-9", base)
+            cases["dt-huge"] = re.sub(r"(?m)^dt = .*$", "dt = 1e6", base)
         for case, text in cases.items():
             out.append(pytest.param(name, text, id=f"{name}-{case}"))
     return out

@@ -70,7 +70,8 @@ def set_limits(memory_bytes: float | None = None, orbit_steps: float | None = No
     return before
 
 
-def check_budget(n_orbits: int, steps_per_orbit: float, output_values: float, what: str) -> None:
+def check_budget(n_orbits: int, steps_per_orbit: float, output_values: float, what: str,
+                 advice: str | None = None) -> None:
     """Refuse a request over :data:`LIMITS` before any memory is allocated or work begun.
 
     Parameters
@@ -82,20 +83,22 @@ def check_budget(n_orbits: int, steps_per_orbit: float, output_values: float, wh
         Number of float64 values the outputs will hold.
     what : str
         The call, for the message (``"section"``).
+    advice : str, optional
+        What to ask for instead (default: shorter time, larger step, fewer orbits or samples).
     """
     steps = float(n_orbits) * float(steps_per_orbit)
     if not math.isfinite(steps) or steps > LIMITS.orbit_steps:
         raise ParameterError(
             f"{what} would take {_amount(steps)} integrator steps ({n_orbits} orbits x "
             f"{_amount(steps_per_orbit)} steps), more than the limit of {LIMITS.orbit_steps:.3g}; "
-            "ask for less (shorter time, larger step, fewer orbits) or raise the limit with "
+            f"{advice or 'ask for less (shorter time, larger step, fewer orbits)'} or raise the limit with "
             "phaselab.set_limits(orbit_steps=...)")
     size = 8.0 * float(output_values)
     if not math.isfinite(size) or size > LIMITS.memory_bytes:
         raise ParameterError(
             f"{what} would need {size / 2**30:.3g} GiB for its results, more than the limit of "
-            f"{LIMITS.memory_bytes / 2**30:.3g} GiB; ask for fewer samples or orbits or raise the "
-            "limit with phaselab.set_limits(memory_bytes=...)")
+            f"{LIMITS.memory_bytes / 2**30:.3g} GiB; {advice or 'ask for fewer samples or orbits'} or raise "
+            "the limit with phaselab.set_limits(memory_bytes=...)")
 
 
 def _amount(x: float) -> str:
@@ -372,7 +375,8 @@ def shooting_budget(system, plane, n_starts: int, period: int, maxit: int, what:
     dim = len(system.state_symbols) - 2 * (plane is not None and system.kind == "flow")
     unknowns = float(period) * float(dim)
     check_budget(n_starts, (maxit + 1) * (float(period) + unknowns ** 3 / 100.0),
-                 2.0 * n_starts * unknowns * unknowns, what)
+                 2.0 * n_starts * unknowns * unknowns, what,
+                 "ask for a shorter period, fewer starts or fewer Newton steps (maxit)")
 
 
 def curve_budget(length: float, max_segment: float, scale: float, max_points: int, n_curves: int,
@@ -388,7 +392,8 @@ def curve_budget(length: float, max_segment: float, scale: float, max_points: in
             f"{what}: segments up to {max_segment:.3g} (max_segment; default length / 2000) are longer "
             f"than the section's size {scale:.3g}, so the curve would not be resolved; ask for a "
             f"length up to {2000 * scale:.3g} or give max_segment <= {scale:.3g}")
-    check_budget(n_curves, max_points, 2.0 * n_curves * max_points, what)
+    check_budget(n_curves, max_points, 2.0 * n_curves * max_points, what,
+                 "ask for fewer points (max_points)")
 
 
 def scan_budget(n_orbits: int, t: float, dt, is_map: bool, what: str) -> None:
@@ -430,7 +435,7 @@ def grid_axis(name: str, spec, n_default, what: str = "range") -> np.ndarray:
 
 def grid_budget(n_points: float, width: int, what: str) -> None:
     """Refuse a grid whose states (``n_points x width`` float64) exceed :data:`LIMITS`."""
-    check_budget(1, 0, float(n_points) * width, what)
+    check_budget(1, 0, float(n_points) * width, what, "ask for fewer grid points")
 
 
 # ----------------------------------------------------------------------------- objects and words

@@ -28,7 +28,7 @@ import numpy as np
 
 from phaselab.compute import codes, inputs
 from phaselab.compute.periodic import PeriodicOrbit
-from phaselab.errors import ModelError, ParameterError
+from phaselab.errors import ModelError
 
 BRANCHES = ("unstable", "stable")
 

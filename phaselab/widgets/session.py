@@ -37,7 +37,7 @@ from pathlib import Path
 import numpy as np
 
 from phaselab.errors import ParameterError
-from phaselab.widgets.session_file import FILE_FORMAT, FILE_VERSION, read_session  # noqa: F401
+from phaselab.widgets.session_file import FILE_FORMAT, FILE_VERSION, read_session
 
 
 @dataclass
@@ -324,3 +324,7 @@ def write_session(path, data: dict) -> Path:
         Path(tmp).unlink(missing_ok=True)
         raise
     return path
+
+
+__all__ = ["OrbitRecord", "Change", "Session", "write_session", "read_session", "FILE_FORMAT",
+           "FILE_VERSION"]
