@@ -224,8 +224,9 @@ def _require_points(study: Study, sec) -> None:
     if study.section.box is not None and np.all(status == codes.LEFT_BOX):
         raise StudyFileError(f"{study.source}: section.box: every orbit left the box |component| <= "
                              f"{study.section.box:g} before its first crossing; give a larger box")
-    key = "section.dt" if study.section.dt is not None and np.all(status == codes.NO_CROSSING) else "section"
-    raise StudyFileError(f"{study.source}: {key}: no orbit gave a single section point (the orbits "
+    step_trouble = np.isin(status, (codes.NO_CROSSING, codes.NOT_FINITE, codes.STEP_TOO_LARGE))
+    key = "section.dt" if study.section.dt is not None and np.all(step_trouble) else "section"
+    raise StudyFileError(f"{study.source}: {key}: no orbit gave a single section point (status: "
                          f"{', '.join(words)}); check the plane, the energy and the step")
 
 
