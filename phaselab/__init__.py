@@ -65,7 +65,7 @@ _LAZY = {
     "normal_form": "phaselab.structures.normal_forms",
     "NormalForm": "phaselab.structures.normal_forms",
     "warm": "phaselab.engine.warm",
-    "set_limits": "phaselab.engine.inputs",
+    "set_limits": "phaselab.engine.limits",
 }
 
 __all__ = ["Hamiltonian", "PhaselabError", "ExpressionError", "ModelError", "ParameterError",

@@ -29,7 +29,7 @@ import numpy as np
 
 from phaselab.engine import status as codes
 
-from phaselab.engine import inputs
+from phaselab.engine import inputs, limits
 from phaselab.engine.compiled import loops
 from phaselab.engine.integrators import STEPS_PER_PERIOD, linear_time_scale
 from phaselab.errors import IntegrationError, ParameterError
@@ -114,7 +114,7 @@ def timing_error(p: Pilot, h: float) -> float:
         return float("nan")
     t_pilot = min(p.span, max(PILOT_SCALES * p.scale, 8 * h))
     steps = max(1, int(round(t_pilot / h)))
-    inputs.check_budget(len(p.seeds), 3 * steps, 0, "the step-doubling estimate")
+    limits.check_budget(len(p.seeds), 3 * steps, 0, "the step-doubling estimate")
     coarse = _final_states(p, h, steps)
     fine = _final_states(p, h / 2, 2 * steps)
     order = p.method.order

@@ -4,104 +4,27 @@ error per mistake.
 Every function here returns the checked value in the form the compiled loops take (C-ordered
 float64 arrays, Python ints and floats) or raises :class:`~phaselab.errors.ParameterError`
 naming the argument, what was expected and what was given. Requests whose cost can be
-known up front (memory of the output, number of integrator steps) are checked against
-:data:`LIMITS`, which :func:`set_limits` raises for a session.
+known up front are checked against the limits of :mod:`phaselab.engine.limits`.
 """
 
 from __future__ import annotations
 
 import math
 import numbers
-from dataclasses import dataclass, replace
 from typing import Mapping
 
 import numpy as np
 
 from phaselab.engine import status as codes
 from phaselab.errors import ParameterError
-
-
-# ----------------------------------------------------------------------------- limits
-@dataclass(frozen=True)
-class Limits:
-    """Bounds on what one call may ask for.
-
-    Attributes
-    ----------
-    memory_bytes : float
-        Largest output (saved states, section points, records) one call may allocate.
-    orbit_steps : float
-        Largest number of integrator steps (or map iterates) summed over the orbits of one
-        call: at ~10^8 steps per second and core, 10^11 is about ten minutes on a laptop.
-    """
-
-    memory_bytes: float = 2 * 2**30
-    orbit_steps: float = 1e11
-
-
-LIMITS = Limits()
-"""The limits in force (see :func:`set_limits`)."""
-
-
-def set_limits(memory_bytes: float | None = None, orbit_steps: float | None = None) -> Limits:
-    """Raise (or lower) the limits on one call's memory and work for this session.
-
-    Parameters
-    ----------
-    memory_bytes : float, optional
-        Largest output one call may allocate, in bytes (default 2 GiB).
-    orbit_steps : float, optional
-        Largest number of integrator steps or map iterates, summed over orbits (default 1e11).
-
-    Returns
-    -------
-    Limits
-        The limits that were in force before, so a caller can restore them.
-    """
-    global LIMITS
-    before = LIMITS
-    changes = {}
-    if memory_bytes is not None:
-        changes["memory_bytes"] = positive_number(memory_bytes, "memory_bytes")
-    if orbit_steps is not None:
-        changes["orbit_steps"] = positive_number(orbit_steps, "orbit_steps")
-    LIMITS = replace(LIMITS, **changes)
-    return before
-
-
-def check_budget(n_orbits: int, steps_per_orbit: float, output_values: float, what: str) -> None:
-    """Refuse a request over :data:`LIMITS` before any memory is allocated or work begun.
-
-    Parameters
-    ----------
-    n_orbits : int
-    steps_per_orbit : float
-        Integrator steps or iterates per orbit (may be huge or infinite: it is checked first).
-    output_values : float
-        Number of float64 values the outputs will hold.
-    what : str
-        The call, for the message (``"section"``).
-    """
-    steps = float(n_orbits) * float(steps_per_orbit)
-    if not math.isfinite(steps) or steps > LIMITS.orbit_steps:
-        raise ParameterError(
-            f"{what} would take {_amount(steps)} integrator steps ({n_orbits} orbits x "
-            f"{_amount(steps_per_orbit)} steps), more than the limit of {LIMITS.orbit_steps:.3g}; "
-            "ask for less (shorter time, larger step, fewer orbits) or raise the limit with "
-            "phaselab.set_limits(orbit_steps=...)")
-    size = 8.0 * float(output_values)
-    if not math.isfinite(size) or size > LIMITS.memory_bytes:
-        raise ParameterError(
-            f"{what} would need {size / 2**30:.3g} GiB for its results, more than the limit of "
-            f"{LIMITS.memory_bytes / 2**30:.3g} GiB; ask for fewer samples or orbits or raise the "
-            "limit with phaselab.set_limits(memory_bytes=...)")
-
-
-def _amount(x: float) -> str:
-    return "infinitely many" if not math.isfinite(x) else f"{x:.3g}"
+from phaselab.model.system import PhaseSpaceSystem
 
 
 # ----------------------------------------------------------------------------- numbers
+MAX_COUNT = 2**53
+"""No count may exceed this (an int64 loop counter and a float both hold it exactly)."""
+
+
 def number(value, what: str) -> float:
     """A finite real number (int, float or numpy scalar; not bool, complex or str)."""
     if isinstance(value, (bool, np.bool_)) or not isinstance(value, numbers.Real):
@@ -136,6 +59,9 @@ def count(value, what: str, minimum: int = 1, maximum: int | None = None) -> int
         raise ParameterError(f"{what} must be an integer, got {_show(value)}")
     if k < minimum:
         raise ParameterError(f"{what} must be at least {minimum}, got {k}")
+    if maximum is None and k > MAX_COUNT:
+        raise ParameterError(f"{what} = {k:.3g} is larger than any count phaselab can hold (2**53, far "
+                             "above what the limits of phaselab.set_limits let one call do)")
     if maximum is not None and k > maximum:
         raise ParameterError(f"{what} must be at most {maximum}, got {k}")
     return k
@@ -144,7 +70,7 @@ def count(value, what: str, minimum: int = 1, maximum: int | None = None) -> int
 def step(dt, what: str = "dt") -> float | None:
     """A step: ``None`` (the call chooses one) or a positive finite number above 1e-300.
 
-    How many steps a span takes is checked later, against :data:`LIMITS`."""
+    How many steps a span takes is checked later, against :data:`phaselab.engine.limits.LIMITS`."""
     if dt is None:
         return None
     h = positive_number(dt, what)
@@ -341,6 +267,85 @@ def flow(system, what: str):
         raise ParameterError(f"{what} needs a Hamiltonian flow, got {got}")
 
 
-__all__ = ["LIMITS", "Limits", "set_limits", "check_budget", "number", "positive_number", "count",
-           "step", "direction", "tolerance", "iterations", "states", "state_index", "box", "method",
-           "symplectic", "implicit_solver", "flow"]
+# ----------------------------------------------------------------------------- grids
+def grid_axis(name: str, spec, n_default, what: str = "range") -> np.ndarray:
+    """One axis of a grid, ``(low, high)`` or ``(low, high, n)``: n points from low to high.
+
+    The count is checked before anything is allocated (at most 100000 points per axis; the
+    grid as a whole is checked by :func:`grid_budget`).
+    """
+    if isinstance(spec, (str, bytes)) or not isinstance(spec, (tuple, list, np.ndarray)) \
+            or len(spec) not in (2, 3):
+        raise ParameterError(f"{what} of {name!r} must be (low, high) or (low, high, n), got {_show(spec)}")
+    lo = number(spec[0], f"low end of the {what} of {name!r}")
+    hi = number(spec[1], f"high end of the {what} of {name!r}")
+    if not lo < hi:
+        raise ParameterError(f"{what} of {name!r} must have low < high, got ({lo:g}, {hi:g})")
+    n = count(spec[2] if len(spec) == 3 else n_default, f"points of the {what} of {name!r}",
+              minimum=1, maximum=100_000)
+    return np.linspace(lo, hi, n)
+
+
+# ----------------------------------------------------------------------------- objects and words
+def system(value, what: str = "system", kind: str | None = None):
+    """A phaselab system (:class:`~phaselab.Hamiltonian` or :class:`~phaselab.AreaPreservingMap`);
+    ``kind`` ``"flow"`` or ``"map"`` asks for one of them."""
+    if not isinstance(value, PhaseSpaceSystem):
+        raise ParameterError(f"{what} must be a phaselab.Hamiltonian or phaselab.AreaPreservingMap, "
+                             f"got {_kind(value)}")
+    if kind is not None and getattr(value, "kind", None) != kind:
+        want = "an area-preserving map" if kind == "map" else "a Hamiltonian flow"
+        raise ParameterError(f"{what} must be {want}, got {_kind(value)}")
+    return value
+
+
+def instance(value, cls, what: str, made_by: str):
+    """``value`` if it is a ``cls`` (``made_by`` says where one comes from), else a ParameterError."""
+    if not isinstance(value, cls):
+        raise ParameterError(f"{what} must be {made_by}, got {_kind(value)}")
+    return value
+
+
+def flag(value, what: str) -> bool:
+    """True or False (a bool or numpy bool; not a number or text)."""
+    if not isinstance(value, (bool, np.bool_)):
+        raise ParameterError(f"{what} must be True or False, got {_show(value)}")
+    return bool(value)
+
+
+def word(value, what: str, choices=None) -> str:
+    """A name given as text, one of ``choices`` when given."""
+    if not isinstance(value, str):
+        raise ParameterError(f"{what} must be a name given as text, got {_show(value)}")
+    if choices is not None and value not in choices:
+        raise ParameterError(f"{what} must be one of {', '.join(map(repr, choices))}, got {value!r}")
+    return value
+
+
+def mapping(value, what: str, optional: bool = True) -> dict | None:
+    """A mapping (``None`` when optional): returned as a dict."""
+    if value is None and optional:
+        return None
+    if not isinstance(value, Mapping):
+        raise ParameterError(f"{what} must be a mapping name -> value, got {_show(value)}")
+    return dict(value)
+
+
+def pair(value, what: str) -> tuple[float, float]:
+    """Two finite numbers ``(a, b)`` with a != b (a span or bracket, either order)."""
+    if isinstance(value, (str, bytes, Mapping)) or not hasattr(value, "__len__") or len(value) != 2:
+        raise ParameterError(f"{what} must be two numbers (start, end), got {_show(value)}")
+    a, b = number(value[0], what), number(value[1], what)
+    if a == b:
+        raise ParameterError(f"{what} must have two different ends, got ({a:g}, {b:g})")
+    return a, b
+
+
+def _kind(value) -> str:
+    return f"{type(value).__name__} {_show(value)}" if not isinstance(value, PhaseSpaceSystem) \
+        else f"{type(value).__name__} ({getattr(value, 'kind', '?')})"
+
+
+__all__ = ["number", "positive_number", "count", "step", "direction", "tolerance", "iterations",
+           "states", "state_index", "box", "method", "symplectic", "implicit_solver", "flow", "grid_axis",
+           "system", "instance", "flag", "word", "mapping", "pair"]

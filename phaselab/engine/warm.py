@@ -15,6 +15,7 @@ import warnings
 import numpy as np
 
 from phaselab.errors import PhaselabWarning
+from phaselab.engine import inputs
 
 
 def _paths():
@@ -67,6 +68,7 @@ def warm(verbose: bool = False) -> dict:
     dict of str to float
         Seconds spent per path (compiling on the first run, loading afterwards).
     """
+    inputs.flag(verbose, "verbose")
     before = os.environ.get("PHASELAB_LOOPS")
     os.environ["PHASELAB_LOOPS"] = "generic"
     report = {}

@@ -34,7 +34,7 @@ from pathlib import Path
 
 import numpy as np
 
-from phaselab.engine import inputs
+from phaselab.engine import limits
 from phaselab.engine.status import LEFT_BOX, OK, STATUS
 from phaselab.engine.provenance import plain
 from phaselab.errors import DataFileError, ParameterError, PhaselabError
@@ -212,7 +212,7 @@ class _Lines:
 def _read_header(reader: _Lines):
     """The ``# key: value`` lines and the column header row after them; the header may
     take at most an eighth of the memory limit."""
-    cap = int(inputs.LIMITS.memory_bytes // 8)
+    cap = int(limits.LIMITS.memory_bytes // 8)
     meta = {}
     while True:
         line = reader.next(max(cap - reader.bytes, 1))

@@ -20,7 +20,7 @@ import math
 
 import numpy as np
 
-from phaselab.engine import inputs
+from phaselab.engine import limits
 from phaselab.engine.status import STATUS
 from phaselab.errors import DataFileError
 
@@ -72,7 +72,7 @@ def check_size(path, n: int, max_c: int, ncomp: int, rows: int = 0) -> None:
         Naming the declared sizes, the memory they need and how to raise the limit.
     """
     need = load_bytes(n, max_c, ncomp, rows)
-    limit = inputs.LIMITS.memory_bytes
+    limit = limits.LIMITS.memory_bytes
     if not math.isfinite(need) or need > limit:
         total = n * max_c * ncomp
         raise DataFileError(

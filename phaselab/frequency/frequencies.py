@@ -19,7 +19,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from phaselab.engine import accuracy as step_accuracy
-from phaselab.engine import inputs
+from phaselab.engine import inputs, limits
 from phaselab.engine import status as codes
 from phaselab.errors import ParameterError
 from phaselab.frequency.aliasing import warn_if_aliased
@@ -259,7 +259,8 @@ def frequencies(system, seeds, t=None, n=None, params=None, dt=None, method="aut
     use :func:`rotation_number`.
     """
     Z0, how, n, pdict = _common(system, seeds, plane, t, n, params, direction)
-    lines = inputs.count(lines, "lines")
+    limits.check_budget(len(Z0), n, 4.0 * len(Z0) * n * Z0.shape[1], "frequencies")
+    lines = inputs.count(lines, "lines", maximum=max(1, n // 2))
     window = inputs.count(window, "window", 0, MAX_WINDOW_ORDER)
     if fold not in ("signed", "positive"):
         raise ParameterError(f"fold must be 'signed' or 'positive', got {fold!r}")
@@ -365,6 +366,7 @@ def rotation_number(system, seeds, n=None, angle=None, params=None, t=None, dt=N
             and getattr(system, "period", None) is not None):
         plane = "stroboscopic"
     Z0, how, n, pdict = _common(system, seeds, plane, t, n, params, direction)
+    limits.check_budget(len(Z0), n, 4.0 * len(Z0) * n * Z0.shape[1], "rotation_number")
     dof = system.dof
     if angle is None:
         if dof != 1:

@@ -12,7 +12,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from phaselab.engine import accuracy as step_accuracy
-from phaselab.engine import inputs
+from phaselab.engine import inputs, limits
 from phaselab.engine.status import OK, TIME_LIMIT
 from phaselab.errors import ParameterError
 
@@ -170,7 +170,7 @@ def map_samples(system, Z0, n, params, box):
     # to q's lift each time p wraps.
     period[system.dof:] = 0.0
     lo, hi = inputs.box(system, box)
-    inputs.check_budget(N, 2 * n, 2 * N * n * m, "frequencies")
+    limits.check_budget(N, 2 * n, 2 * N * n * m, "frequencies")
     cs = loops(system, "sections")
     pts = np.full((N, n - 1, m), np.nan)
     counts = np.zeros(N, dtype=np.int64)

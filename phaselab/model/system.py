@@ -16,6 +16,8 @@ def as_symbols(items, what: str) -> tuple[sp.Symbol, ...]:
     """Turn names or symbols into a tuple of sympy symbols (strings become real symbols)."""
     if isinstance(items, (str, sp.Symbol)):
         items = [items]
+    if not isinstance(items, (list, tuple)):
+        raise ModelError(f"{what} must be a name, a sympy symbol or a list of them, got {items!r:.60}")
     out = []
     for item in items:
         if isinstance(item, sp.Symbol):

@@ -24,7 +24,7 @@ import numpy as np
 
 from phaselab.engine import status as codes
 
-from phaselab.engine import inputs
+from phaselab.engine import inputs, limits
 from phaselab.engine.compiled import loops
 from phaselab.errors import ParameterError
 
@@ -187,6 +187,7 @@ def chaos_indicators(system, states, t, params=None, dt=None, method="auto", vec
         Bad arguments (non-positive or non-numeric ``t`` or ``dt``, bad states, a method
         that is not symplectic, a request over the limits).
     """
+    inputs.system(system), inputs.flag(history, "history")
     vectors = 2 if vectors is None else inputs.count(vectors, "vectors", 1, 2)
     seed = inputs.count(seed, "seed", minimum=0)
     tol, maxit = inputs.implicit_solver(tol, maxit)
@@ -214,10 +215,10 @@ def chaos_indicators(system, states, t, params=None, dt=None, method="auto", vec
     dt = inputs.step(dt)
     if dt is None:
         dt = 0.005 if m.order <= 2 else 0.01
-    inputs.check_budget(len(z), t / dt, 0, "chaos_indicators")
+    limits.check_budget(len(z), t / dt, 0, "chaos_indicators")
     n_steps = max(int(round(t / dt)), 1)
     every, n_rec = _records(n_steps, record_every, history)
-    inputs.check_budget(len(z), n_steps, len(z) * (n_rec * 4 + 4), "chaos_indicators")
+    limits.check_budget(len(z), n_steps, len(z) * (n_rec * 4 + 4), "chaos_indicators")
     width = 2 * flow.dof
     active = np.ones(width, dtype=bool)
     if flow is not system:
@@ -269,7 +270,7 @@ def _map_indicators(system, states, n_iter, values, used, record_every, history,
     width = len(system.state_symbols)
     z = inputs.states(states, width, [s.name for s in system.state_symbols], "states")
     every, n_rec = _records(n_iter, record_every, history)
-    inputs.check_budget(len(z), n_iter, len(z) * (n_rec * 4 + 4), "chaos_indicators")
+    limits.check_budget(len(z), n_iter, len(z) * (n_rec * 4 + 4), "chaos_indicators")
     active = np.ones(width, dtype=bool)
     W0 = (deviation_vectors(z, seed, vectors, active) if deviations is None
           else _given_deviations(deviations, len(z), width, vectors, active))

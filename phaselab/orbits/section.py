@@ -24,7 +24,7 @@ import numpy as np
 
 from phaselab.engine import status as codes
 
-from phaselab.engine import inputs
+from phaselab.engine import inputs, limits
 from phaselab.engine.status import NO_CROSSING, NOT_CONVERGED, OK, TIME_LIMIT
 from phaselab.engine.compiled import loops
 from phaselab.engine.integrators import default_step
@@ -99,11 +99,12 @@ def section(system, seeds, plane=None, direction=+1, crossings=300, params=None,
     ParameterError
         Bad arguments: unknown plane or axis names, ``direction`` not +-1, ``crossings`` < 1,
         bad ``dt``, ``t_max`` or ``box``, an unknown or adaptive method, a request over
-        :data:`phaselab.engine.inputs.LIMITS`.
+        :data:`phaselab.engine.limits.LIMITS`.
     ModelError
         A plane given for a driven system (or none for an autonomous one), a non-periodic
         driven system, a splitting method for a non-separable H.
     """
+    inputs.system(system)
     direction = inputs.direction(direction)
     crossings = inputs.count(crossings, "crossings")
     energy_limit = inputs.positive_number(energy_limit, "energy_limit")
@@ -162,7 +163,7 @@ def _axes(system, axes, default):
     if axes is None:
         i, j = default
     else:
-        if isinstance(axes, str) or len(axes) != 2:
+        if isinstance(axes, str) or not isinstance(axes, (tuple, list)) or len(axes) != 2:
             raise ParameterError(f"axes must be two state names such as ('y', 'py'), got {axes!r}")
         i, j = (inputs.state_index(system, a, "axis") for a in axes)
     syms = system.state_symbols
@@ -228,7 +229,7 @@ def _plane_section(system, Z0, plane, direction, crossings, prm, pdict, dt, meth
     h = _step(cs, meth, dt, Z0, prm, span)
     t_cap = _t_max(t_max, crossings, h)
     n, n_state = Z0.shape
-    inputs.check_budget(n, t_cap / h, n * crossings * (n_state + 1), "section")
+    limits.check_budget(n, t_cap / h, n * crossings * (n_state + 1), "section")
     max_steps = int(math.ceil(t_cap / h - 1e-9))
     pts = np.full((n, crossings, n_state), np.nan)
     tms = np.full((n, crossings), np.nan)
@@ -279,7 +280,7 @@ def _strobe_section(system, Z0, crossings, prm, pdict, dt, method, t_max, axes, 
         if n_periods < 1:
             raise ParameterError(f"t_max={t_max} is shorter than one driving period T = {T:g}")
     N = Z0.shape[0]
-    inputs.check_budget(N, float(steps) * n_periods, N * n_periods * (2 * n + 2) * 2, "section")
+    limits.check_budget(N, float(steps) * n_periods, N * n_periods * (2 * n + 2) * 2, "section")
     ext_pts = np.full((N, n_periods, 2 * n + 2), np.nan)
     counts = np.zeros(N, dtype=np.int64)
     err = np.zeros(N)
@@ -346,7 +347,7 @@ def _map_section(system, Z0, crossings, prm, pdict, energy, axes, box):
     nd = n_state // 2
     ax, syms = _axes(system, axes, (0, nd) if n_state >= 2 else (0, 0))
     N = Z0.shape[0]
-    inputs.check_budget(N, crossings, N * crossings * n_state, "section")
+    limits.check_budget(N, crossings, N * crossings * n_state, "section")
     cs = loops(system, "sections")
     pts = np.full((N, crossings, n_state), np.nan)
     counts = np.zeros(N, dtype=np.int64)

@@ -17,7 +17,7 @@ from typing import Mapping
 import numpy as np
 import sympy as sp
 
-from phaselab.model.params import finite_number
+from phaselab.engine import inputs
 from phaselab.engine.inputs import state_index
 from phaselab.errors import ModelError, ParameterError
 
@@ -80,7 +80,7 @@ class ShellSeeds:
 
 
 def _as_float(value, what: str) -> float:
-    return finite_number(value, what)
+    return inputs.number(value, what)
 
 
 @lru_cache(maxsize=64)
@@ -115,6 +115,17 @@ def _closed_form(system, solve_index: int):
     return fn
 
 
+def _real_array(value, what: str) -> np.ndarray:
+    """``value`` as a float array, or a ParameterError naming ``what``."""
+    try:
+        arr = np.asarray(value) if not isinstance(value, str) else np.asarray([value])
+    except ValueError:   # ragged nested sequences
+        arr = np.asarray([None])
+    if arr.dtype.kind not in "iuf":
+        raise ParameterError(f"{what} must be real numbers, got {value!r:.60}")
+    return arr.astype(float)
+
+
 def _broadcast_points(system, points, free: list[str]) -> np.ndarray:
     """The free components as an array (n_points, len(free))."""
     k = len(free)
@@ -127,11 +138,15 @@ def _broadcast_points(system, points, free: list[str]) -> np.ndarray:
                 "points must give exactly the free components " + ", ".join(free)
                 + (f"; unknown or fixed: {', '.join(map(str, unknown))}" if unknown else "")
                 + (f"; missing: {', '.join(missing)}" if missing else ""))
-        values = {getattr(n, "name", n): np.asarray(v, dtype=float) for n, v in points.items()}
-        cols = np.broadcast_arrays(*[np.atleast_1d(values[n]).ravel() for n in free]) if k else []
+        values = {getattr(n, "name", n): _real_array(v, f"points of {getattr(n, 'name', n)!r}")
+                  for n, v in points.items()}
+        try:
+            cols = np.broadcast_arrays(*[np.atleast_1d(values[n]).ravel() for n in free]) if k else []
+        except ValueError:
+            raise ParameterError("the points of " + ", ".join(free) + " must have equal lengths") from None
         arr = np.stack(cols, axis=1) if k else np.zeros((1, 0))
     else:
-        arr = np.asarray(points, dtype=float)
+        arr = _real_array(points, "points")
         if k == 0:
             arr = arr.reshape(-1, 0) if arr.size == 0 else arr.reshape(len(arr), 0)
         elif arr.ndim == 1 and k == 1:
@@ -180,12 +195,13 @@ def shell_seeds(system, energy, plane, solve_for, points, params=None, sign=+1) 
     checked to be real; otherwise each point is solved by a bracketed root search
     (``scipy.optimize.brentq``) on the side of the minimum of H given by ``sign``.
     """
+    inputs.system(system)
     if getattr(system, "kind", "flow") != "flow":
         raise ModelError("shell_seeds needs a Hamiltonian flow; a map has no energy shell")
     if not system.is_autonomous:
         raise ModelError("H depends on time explicitly, so it has no energy shell; seed the "
                          "stroboscopic section with plain states instead")
-    if sign not in (1, -1):
+    if isinstance(sign, (bool, np.bool_)) or sign not in (1, -1):
         raise ParameterError(f"sign must be +1 or -1, got {sign!r}")
     E = _as_float(energy, "energy")
     if not isinstance(plane, Mapping):

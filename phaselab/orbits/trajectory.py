@@ -16,7 +16,7 @@ import numpy as np
 
 from phaselab.engine import accuracy as step_accuracy
 from phaselab.engine import status as codes
-from phaselab.engine import inputs
+from phaselab.engine import inputs, limits
 from phaselab.engine.status import NOT_CONVERGED, OK, STEP_TOO_LARGE
 from phaselab.engine.compiled import loops
 from phaselab.engine.integrators import choose_method, default_step
@@ -263,7 +263,7 @@ def trajectory(system, state0, t, dt=None, method="auto", params=None, box=None,
     ParameterError
         A bad argument: ``state0`` of the wrong shape or not real numbers, bad ``t``,
         ``dt``, ``save_every``, ``box``, ``method``, an unknown parameter, a request over
-        :data:`phaselab.engine.inputs.LIMITS`, a map instead of a flow.
+        :data:`phaselab.engine.limits.LIMITS`, a map instead of a flow.
     ModelError
         A splitting method for a Hamiltonian that is not separable.
     IntegrationError
@@ -326,7 +326,7 @@ def trajectory(system, state0, t, dt=None, method="auto", params=None, box=None,
         ref = meth if not adaptive else choose_method(work)
         dt = default_step(cs, ref, Zw, prm, abs(span), period)
     if not (abs(span) / dt < 1e15):
-        inputs.check_budget(len(Zw), abs(span) / dt, 0, "trajectory")
+        limits.check_budget(len(Zw), abs(span) / dt, 0, "trajectory")
     if out_times is not None:
         if save_every is not None:
             raise ParameterError("save_every cannot be combined with an array of output times t; "
@@ -343,7 +343,7 @@ def trajectory(system, state0, t, dt=None, method="auto", params=None, box=None,
         dt = spacing / per
         save_every = per
         n_steps = per * (len(out_times) - 1)
-        inputs.check_budget(len(Zw), n_steps, len(Zw) * len(out_times) * (Zw.shape[1] + 1), "trajectory")
+        limits.check_budget(len(Zw), n_steps, len(Zw) * len(out_times) * (Zw.shape[1] + 1), "trajectory")
         times = out_times.copy()
     else:
         n_steps = max(1, math.ceil(abs(span) / dt - 1e-9))
@@ -353,7 +353,7 @@ def trajectory(system, state0, t, dt=None, method="auto", params=None, box=None,
         else:
             save_every = inputs.count(save_every, "save_every")
         n_saves = n_steps // save_every + 2
-        inputs.check_budget(len(Zw), n_steps, len(Zw) * n_saves * (Zw.shape[1] + 1), "trajectory")
+        limits.check_budget(len(Zw), n_steps, len(Zw) * n_saves * (Zw.shape[1] + 1), "trajectory")
         steps = np.arange(0, n_steps + 1, save_every)
         if steps[-1] != n_steps:
             steps = np.append(steps, n_steps)

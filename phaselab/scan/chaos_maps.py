@@ -15,7 +15,7 @@ from functools import partial
 
 import numpy as np
 
-from phaselab.engine import inputs
+from phaselab.engine import inputs, limits
 from phaselab.engine import status as codes
 from phaselab.errors import ParameterError
 from phaselab.scan import datasets as labels
@@ -191,6 +191,7 @@ def chaos_map(system, seeds, t, indicator: str = "megno", params=None, dt=None, 
         inputs.step(dt)
     inputs.box(system, box)
     inputs.implicit_solver(tol, maxit)
+    limits.scan_budget(int(valid.sum()), t, inputs.step(dt), is_map, "chaos_map")
     options = dict(dt=dt, method=method, box=box, tol=tol, maxit=maxit) if not is_map else dict(box=box)
     fingerprint = {"scan": "chaos_map", "system": system.key, "params": used.tolist(), "t": t,
                    "indicator": indicator, "seed": seed, "options": options,

@@ -25,7 +25,7 @@ from functools import partial
 
 import numpy as np
 
-from phaselab.engine import inputs
+from phaselab.engine import inputs, limits
 from phaselab.engine import status as codes
 from phaselab.errors import ParameterError
 from phaselab.scan import datasets as labels
@@ -314,6 +314,8 @@ def escape_map(system, seeds, t, box, params=None, dt=None, method="auto", batch
     if box is None:
         raise ParameterError("an escape map needs the region: box=R or box={name: (low, high)}")
     states, valid, grid = scan_rows(system, seeds)
+    if batch_size is not None:
+        inputs.count(batch_size, "batch_size")
     inputs.box(system, box)
     used = system.param_values(params)
     is_map = getattr(system, "kind", "flow") == "map"
@@ -332,6 +334,7 @@ def escape_map(system, seeds, t, box, params=None, dt=None, method="auto", batch
             dt = integration_step(system, states[valid], t=t, params=params, method=method)
         options = {"dt": dt, "method": method}
         work = partial(_flow_chunk, system=system, t=t, dt=dt, method=method, params=params, box=box)
+    limits.scan_budget(int(valid.sum()), t, None if is_map else dt, is_map, "escape_map")
     fingerprint = {"scan": "escape_map", "system": system.key, "params": used.tolist(), "t": t,
                    "box": box, "options": options, "seeds": seeds_digest(states, valid)}
     out = run_chunks(work, states, valid, chunk_size(len(states), batch_size, client), client=client,

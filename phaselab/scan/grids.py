@@ -11,7 +11,8 @@ from typing import Mapping
 
 import numpy as np
 
-from phaselab.errors import ModelError, ParameterError
+from phaselab.engine import inputs, limits
+from phaselab.errors import ParameterError
 
 MAX_GRID_POINTS = 4_000_000
 
@@ -48,38 +49,20 @@ class StateGrid:
         return (len(self.y), len(self.x))
 
 
-def _index(system, name: str) -> int:
-    names = [s.name for s in system.state_symbols]
-    if name not in names:
-        raise ModelError(f"unknown state component {name!r}; the state is ({', '.join(names)})")
-    return names.index(name)
-
-
-def _axis(name, spec, n_default):
-    try:
-        if len(spec) == 2:
-            lo, hi = spec
-            n = n_default
-        else:
-            lo, hi, n = spec
-    except TypeError:
-        raise ModelError(f"range of {name!r} must be (low, high) or (low, high, n), got {spec!r}") from None
-    lo, hi, n = float(lo), float(hi), int(n)
-    if not (np.isfinite(lo) and np.isfinite(hi) and lo < hi):
-        raise ModelError(f"range of {name!r} must be finite with low < high, got ({lo}, {hi})")
-    if n < 1:
-        raise ModelError(f"range of {name!r} needs at least one point, got {n}")
-    return np.linspace(lo, hi, n)
+def _index(system, name) -> int:
+    return inputs.state_index(system, name, "state component")
 
 
 def _two_ranges(ranges, resolution):
     if not isinstance(ranges, Mapping) or len(ranges) != 2:
-        raise ModelError("ranges must name exactly two state components, e.g. {'y': (-0.5, 0.5), 'py': (-0.5, 0.5)}")
+        raise ParameterError("ranges must name exactly two state components, e.g. "
+                             "{'y': (-0.5, 0.5), 'py': (-0.5, 0.5)}")
     (xn, xs), (yn, ys) = ranges.items()
-    x = _axis(xn, xs, resolution)
-    y = _axis(yn, ys, resolution)
+    x = inputs.grid_axis(xn, xs, resolution)
+    y = inputs.grid_axis(yn, ys, resolution)
     if len(x) * len(y) > MAX_GRID_POINTS:
-        raise ModelError(f"a grid of {len(x)} x {len(y)} points is larger than the limit of {MAX_GRID_POINTS}")
+        raise ParameterError(f"a grid of {len(x)} x {len(y)} points is larger than the limit of "
+                             f"{MAX_GRID_POINTS} points; ask for fewer points per axis")
     return xn, x, yn, y
 
 
@@ -96,12 +79,14 @@ def state_grid(system, ranges, resolution: int = 100, fixed=None) -> StateGrid:
     fixed : mapping of str to float, optional
         Values of the other components (default 0).
     """
+    inputs.system(system)
     xn, x, yn, y = _two_ranges(ranges, resolution)
     ix, iy = _index(system, xn), _index(system, yn)
     width = len(system.state_symbols)
+    limits.grid_budget(len(x) * len(y), width, "state_grid")
     base = np.zeros(width)
-    for name, value in (fixed or {}).items():
-        base[_index(system, name)] = float(value)
+    for name, value in (inputs.mapping(fixed, "fixed") or {}).items():
+        base[_index(system, name)] = inputs.number(value, f"fixed value of {name!r}")
     X, Y = np.meshgrid(x, y)
     states = np.tile(base, (X.size, 1))
     states[:, ix] = X.ravel()
@@ -118,7 +103,9 @@ def shell_grid(system, energy, plane, solve_for, ranges, resolution: int = 100, 
     """
     from phaselab.orbits.seeds import shell_seeds
 
+    inputs.system(system)
     xn, x, yn, y = _two_ranges(ranges, resolution)
+    limits.grid_budget(len(x) * len(y), len(system.state_symbols), "shell_grid")
     X, Y = np.meshgrid(x, y)
     seeds = shell_seeds(system, energy, plane, solve_for, {xn: X.ravel(), yn: Y.ravel()},
                         params=params, sign=sign)
@@ -149,6 +136,7 @@ def scan_rows(system, seeds) -> tuple[np.ndarray, np.ndarray, StateGrid | None]:
     """
     from phaselab.engine import inputs
 
+    inputs.system(system)
     grid = seeds if isinstance(seeds, StateGrid) else None
     names = [s.name for s in system.state_symbols]
     given = grid.states if grid is not None else seeds

@@ -43,7 +43,7 @@ import warnings
 import numpy as np
 
 from phaselab.base.atomic import checked_path
-from phaselab.engine import inputs
+from phaselab.engine import limits
 from phaselab.errors import DataFileError, ParameterError
 from phaselab.scan.datasets import zarr_module
 
@@ -204,7 +204,7 @@ class ScanStore:
             self.repairs.append("its record of the result fields is damaged")
             return None
         size = sum(float(self.n) * math.prod(shape) * dt.itemsize for dt, shape in schema.values())
-        if size > inputs.LIMITS.memory_bytes:  # never read back more than a call may allocate
+        if size > limits.LIMITS.memory_bytes:  # never read back more than a call may allocate
             self.repairs.append(f"its record of the result fields declares {size / 2**30:.3g} GiB, "
                                 "more than the memory limit")
             return None

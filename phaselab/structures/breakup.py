@@ -11,7 +11,7 @@ from fractions import Fraction
 
 import numpy as np
 
-from phaselab.engine import inputs
+from phaselab.engine import inputs, limits
 from phaselab.errors import IntegrationError, ModelError, ParameterError
 from phaselab.structures.periodic.symmetric import symmetric_orbit
 
@@ -169,15 +169,18 @@ def torus_breakup(system, rotation_number, parameter, bracket, params=None, *, m
     -------
     TorusBreakup
     """
+    inputs.system(system, kind="map")
+    inputs.number(rotation_number, "rotation_number"), inputs.word(parameter, "parameter")
+    threshold, tol, xtol = (inputs.positive_number(v, w) for v, w in
+                            ((threshold, "threshold"), (tol, "tol"), (xtol, "xtol")))
+    max_period, steps = inputs.count(max_period, "max_period"), inputs.count(steps, "steps", minimum=2)
+    limits.check_budget(2 * steps, 61.0 * 2 * max_period, 0, "torus_breakup")
     if getattr(system, "reversor", None) is None:
         raise ModelError("torus_breakup needs a reversible map (AreaPreservingMap(..., reversor=...))")
     names = [s.name for s in system.state_symbols]
     if parameter not in system.params:
         raise ParameterError(f"unknown parameter {parameter!r}; this map has: {', '.join(system.params)}")
-    try:
-        lo, hi = (inputs.number(v, "bracket") for v in bracket)
-    except TypeError:
-        raise ParameterError(f"bracket must be (low, high), got {bracket!r}") from None
+    lo, hi = inputs.pair(bracket, "bracket")
     if not lo < hi:
         raise ParameterError(f"bracket needs low < high, got ({lo}, {hi})")
     if angle is None:
@@ -189,12 +192,12 @@ def torus_breakup(system, rotation_number, parameter, bracket, params=None, *, m
         a = inputs.state_index(system, angle, "angle")
     n = system.dof
     b = (a + n) % (2 * n)
-    fracs = [f for f in convergents(rotation_number, inputs.count(max_period, "max_period"))
+    fracs = [f for f in convergents(rotation_number, max_period)
              if f.denominator >= 2]
     if not fracs:
         raise ParameterError(f"no convergent of {rotation_number} has a period up to {max_period}")
-    base = dict(system.params, **(params or {}))
-    values = np.linspace(lo, hi, inputs.count(steps, "steps", minimum=2))
+    base = dict(system.params, **(inputs.mapping(params, "params") or {}))
+    values = np.linspace(lo, hi, steps)
     residues = np.full((len(fracs), len(values), 2), np.nan)
     critical = np.full(len(fracs), np.nan)
     for c, frac in enumerate(fracs):

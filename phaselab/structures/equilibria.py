@@ -62,6 +62,7 @@ import sympy as sp
 from scipy import optimize
 
 from phaselab.codegen import compile_kernel
+from phaselab.engine import inputs
 from phaselab.structures.stability import (STABILITIES, ZERO_EIGENVALUE, ZERO_REAL, classify_flow,  # noqa: F401
                                         classify_map)
 from phaselab.errors import ModelError, ParameterError
@@ -177,8 +178,9 @@ def equilibria(system, params=None, bounds=None, starts: int = 200, seed: int = 
         For unknown names or empty/non-finite intervals in ``bounds``, unknown parameters,
         or a non-positive ``starts``.
     """
-    if isinstance(starts, bool) or not isinstance(starts, (int, np.integer)) or starts < 0:
-        raise ParameterError(f"starts must be a non-negative integer, got {starts!r}")
+    inputs.system(system)
+    starts = inputs.count(starts, "starts", minimum=0, maximum=100_000)
+    seed = inputs.count(seed, "seed", minimum=0)
     if getattr(system, "kind", "flow") == "map":
         return _map_fixed_points(system, params, bounds, int(starts), seed)
     if not system.is_autonomous:

@@ -39,7 +39,7 @@ import numpy as np
 
 from phaselab.engine import status as codes
 
-from phaselab.engine import inputs
+from phaselab.engine import inputs, limits
 
 from phaselab.structures import multipliers
 from phaselab.structures.periodic.assembly import assemble, image_of
@@ -271,8 +271,10 @@ def continue_family(orbit: PeriodicOrbit, parameter, span, steps=200, ds=None, d
     -------
     Family
     """
-    if not isinstance(orbit, PeriodicOrbit):
-        raise ParameterError("continue_family needs a PeriodicOrbit (from phaselab.periodic_orbit)")
+    inputs.instance(orbit, PeriodicOrbit, "orbit", "a PeriodicOrbit (from phaselab.periodic_orbit)")
+    inputs.word(parameter, "parameter")
+    lo, hi = inputs.pair(span, "span")
+    tol, maxit = inputs.positive_number(tol, "tol"), inputs.count(maxit, "maxit", minimum=1, maximum=1000)
     system = orbit.system
     if parameter == "energy":
         if not isinstance(orbit.plane, dict):
@@ -280,12 +282,9 @@ def continue_family(orbit: PeriodicOrbit, parameter, span, steps=200, ds=None, d
     elif parameter not in [p.name for p in system.parameters]:
         raise ParameterError(f"unknown parameter {parameter!r}; the model has: "
                              + ", ".join(["energy"] + [p.name for p in system.parameters]))
-    try:
-        lo, hi = (inputs.number(v, "span") for v in span)
-    except TypeError:
-        raise ParameterError(f"span must be (start, end), got {span!r}") from None
     steps = inputs.count(steps, "steps", minimum=1, maximum=100_000)
     resonances = 0 if resonances is None else inputs.count(resonances, "resonances", minimum=3, maximum=64)
+    limits.check_budget(2 * steps, float(orbit.crossings) * (maxit + 1), 0, "continue_family")
     ret = orbit.return_map()
     lam0 = _get(ret, parameter)
     if not min(lo, hi) <= lam0 <= max(lo, hi):

@@ -34,6 +34,7 @@ from typing import Mapping
 import numpy as np
 import sympy as sp
 
+from phaselab.engine import inputs
 from phaselab.model.params import finite_number
 from phaselab.errors import ModelError, ParameterError
 
@@ -211,6 +212,7 @@ def level_set(system, ranges, levels, params=None, resolution=400, plane=None,
     """
     from phaselab.structures.equilibria import check_bounds
 
+    inputs.system(system), inputs.flag(separatrices, "separatrices")
     if getattr(system, "kind", "flow") != "flow":
         raise ModelError(f"system {getattr(system, 'name', '')!r} is a map: it has no Hamiltonian to draw "
                          "level sets of")

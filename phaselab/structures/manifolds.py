@@ -26,10 +26,10 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from phaselab.engine import inputs, limits
 from phaselab.engine import status as codes
-
-from phaselab.engine import inputs
-from phaselab.errors import ModelError, ParameterError
+from phaselab.errors import ModelError
+from phaselab.structures.periodic.result import PeriodicOrbit
 
 BRANCHES = ("unstable", "stable")
 
@@ -169,8 +169,8 @@ def manifold(orbit, branch="unstable", side=+1, length=10.0, max_segment=None, m
     -------
     Manifold
     """
-    if branch not in BRANCHES:
-        raise ParameterError(f"branch must be 'unstable' or 'stable', got {branch!r}")
+    inputs.instance(orbit, PeriodicOrbit, "orbit", "a PeriodicOrbit (from phaselab.periodic_orbit)")
+    inputs.word(branch, "branch", BRANCHES)
     side = inputs.direction(side)
     length = inputs.positive_number(length, "length")
     max_segment = length / 2000.0 if max_segment is None else inputs.positive_number(max_segment, "max_segment")
@@ -178,6 +178,8 @@ def manifold(orbit, branch="unstable", side=+1, length=10.0, max_segment=None, m
                                                                                           "min_segment")
     max_angle = inputs.positive_number(max_angle, "max_angle")
     max_points = inputs.count(max_points, "max_points", minimum=10)
+    limits.curve_budget(length, max_segment, 1.0 + float(np.max(np.abs(orbit.points))), max_points,
+                        len(orbit.points) if point is None else 1, "manifold")
     if orbit.stability not in ("unstable", "inverse-unstable"):
         raise ModelError(f"the orbit is {orbit.stability}: only unstable orbits have stable and unstable "
                          "manifolds")

@@ -25,7 +25,7 @@ import numpy as np
 
 from phaselab.engine import status as codes
 
-from phaselab.engine import inputs
+from phaselab.engine import inputs, limits
 from phaselab.engine.compiled import loops
 from phaselab.engine.integrators import default_step
 from phaselab.engine.status import OFF_SHELL
@@ -370,7 +370,7 @@ class PlaneReturn(ReturnMap):
             raise ParameterError("no time scale to choose a step from; give dt=...")
         self.h = float(h)
         t_cap = self.t_max if self.t_max is not None else self.k * 5000 * self.h
-        inputs.check_budget(1, t_cap / self.h, 0, "periodic_orbit")
+        limits.check_budget(1, t_cap / self.h, 0, "periodic_orbit")
         self.max_steps = int(np.ceil(t_cap / self.h))
 
     def lift(self, u):

@@ -25,6 +25,7 @@ from phaselab.studies.spec import (DATA_SUFFIXES, FIGURE_SUFFIXES, MAX_CROSSINGS
                                    MAX_OUTPUTS, MAX_PIXELS, MAX_POINTS, OutputSpec, SectionSpec,
                                    SeedSpec, Study)
 from phaselab.studies.tables import read_output, read_seeds, read_section, read_structure, read_system
+from phaselab.studies.trial import try_study
 
 if sys.version_info >= (3, 11):
     import tomllib
@@ -118,5 +119,7 @@ def _build(f: Fields, data: dict) -> Study:
     folder, outputs = read_output(f, data)
     if structure is None and any(spec.kind == "orbits" for spec in outputs):
         raise f.error("output.orbits", "writes the periodic orbits of a [structure] table, and the file has none")
-    return Study(f.source, title, about, note, system, form, params, section, seeds, folder, outputs,
-                 structure)
+    study = Study(f.source, title, about, note, system, form, params, section, seeds, folder, outputs,
+                  structure)
+    try_study(study)   # what render would fail on, found now
+    return study

@@ -21,6 +21,8 @@ from phaselab.errors import PhaselabError, StudyFileError
 from phaselab.studies.fields import Fields
 from phaselab.studies.paths import confined_path, open_output_folder
 from phaselab.studies.spec import Study
+from phaselab.studies.seeding import seed_states
+from phaselab.studies.trial import guarded
 
 #: batches per render, for progress reporting (each batch keeps at least MIN_BATCH orbits so
 #: both cores stay busy)
@@ -104,34 +106,6 @@ def plane_of(study: Study):
     return None
 
 
-def seed_states(study: Study):
-    """The initial states of the study, as :func:`phaselab.section` takes them.
-
-    Returns
-    -------
-    seeds : ShellSeeds or ndarray, shape (n_orbits, 2n)
-        A :class:`~phaselab.orbits.seeds.ShellSeeds` when the study solves a momentum from
-        the energy, else full states.
-    """
-    spec, seeds = study.section, study.seeds
-    system = study.system
-    names = [s.name for s in system.state_symbols]
-    columns = {name: seeds.values[:, i] for i, name in enumerate(seeds.columns)}
-    if seeds.solve_for is not None:
-        from phaselab.orbits.seeds import shell_seeds
-
-        return shell_seeds(system, spec.energy, {spec.coordinate: spec.value}, seeds.solve_for,
-                           columns, params=study.params, sign=spec.direction)
-    states = np.empty((seeds.count, len(names)))
-    for j, name in enumerate(names):
-        if name in columns:
-            states[:, j] = columns[name]
-        elif name == spec.coordinate:
-            states[:, j] = spec.value
-        else:  # pragma: no cover - the reader refuses seeds that leave a component out
-            raise StudyFileError(f"{study.source}: seeds: no value for {name}")
-    return states
-
 
 def section_options(study: Study) -> dict:
     """Keyword arguments of :func:`phaselab.section` (besides system and seeds)."""
@@ -167,7 +141,7 @@ def compute_section(study: Study, progress=None):
     from phaselab.orbits.section import section
     from phaselab.orbits.seeds import ShellSeeds
 
-    seeds = seed_states(study)
+    seeds = guarded(Fields(study.source), f"system.{study.system_form}", lambda: seed_states(study))
     energy = None
     left_out = []
     if isinstance(seeds, ShellSeeds):
@@ -195,7 +169,7 @@ def compute_section(study: Study, progress=None):
                 raise
             except PhaselabError as exc:
                 raise StudyFileError(f"{study.source}: section: {exc}") from None
-            except (ArithmeticError, RecursionError, NotImplementedError) as exc:
+            except (ArithmeticError, RecursionError, NotImplementedError, TypeError, ValueError) as exc:
                 # the system's numbers are bounded when it is read; this is a last line so a
                 # study file never ends in a traceback
                 raise StudyFileError(f"{study.source}: section: cannot compute ({type(exc).__name__}: "
@@ -207,7 +181,26 @@ def compute_section(study: Study, progress=None):
             messages.append(text)
         if progress is not None:
             progress(batch.shape[0])
-    return join_sections(parts), left_out, messages
+    sec = join_sections(parts)
+    _require_points(study, sec)
+    return sec, left_out, messages
+
+
+def _require_points(study: Study, sec) -> None:
+    """Refuse a section without a single point, naming the key that caused it."""
+    from phaselab.engine import status as codes
+
+    if int(np.sum(sec.counts)) > 0:
+        return
+    status = np.asarray(sec.status)
+    words = sorted({codes.STATUS.get(int(s), str(int(s))) for s in status})
+    if study.section.box is not None and np.all(status == codes.LEFT_BOX):
+        raise StudyFileError(f"{study.source}: section.box: every orbit left the box |component| <= "
+                             f"{study.section.box:g} before its first crossing; give a larger box")
+    step_trouble = np.isin(status, (codes.NO_CROSSING, codes.NOT_FINITE, codes.STEP_TOO_LARGE))
+    key = "section.dt" if study.section.dt is not None and np.all(step_trouble) else "section"
+    raise StudyFileError(f"{study.source}: {key}: no orbit gave a single section point (status: "
+                         f"{', '.join(words)}); check the plane, the energy and the step")
 
 
 def compute_structure(study: Study, sec):
@@ -238,7 +231,7 @@ def compute_structure(study: Study, sec):
         raise
     except PhaselabError as exc:
         raise StudyFileError(f"{study.source}: structure: {exc}") from None
-    except (ArithmeticError, RecursionError, NotImplementedError) as exc:
+    except (ArithmeticError, RecursionError, NotImplementedError, TypeError, ValueError) as exc:
         raise StudyFileError(f"{study.source}: structure: cannot compute ({type(exc).__name__}: {exc})") from None
     return found, branches
 

@@ -20,6 +20,9 @@ own (see :data:`FILE_FORMAT`), so a notebook can re-create the same picture:
 ``seed`` is the clicked point in the shown pair of axes; the rest of the state follows
 from the energy (sections) or is zero-free (maps, portraits, driven systems: the seed is
 the state). ``selected`` is an orbit's place in ``orbits`` counted from 1, or null.
+
+Reading a file (bounded, every value checked before the explorer changes anything) is in
+:mod:`phaselab.widgets.session_file`.
 """
 
 from __future__ import annotations
@@ -34,9 +37,7 @@ from pathlib import Path
 import numpy as np
 
 from phaselab.errors import ParameterError
-
-FILE_FORMAT = "phaselab-explorer-session"
-FILE_VERSION = 1
+from phaselab.widgets.session_file import FILE_FORMAT, FILE_VERSION, read_session
 
 
 @dataclass
@@ -325,54 +326,5 @@ def write_session(path, data: dict) -> Path:
     return path
 
 
-def read_session(path) -> dict:
-    """Read and check a session file; errors name the file and the key."""
-    path = Path(path)
-    try:
-        data = json.loads(path.read_text(encoding="utf-8"))
-    except FileNotFoundError:
-        raise ParameterError(f"{path}: no such session file") from None
-    except (OSError, ValueError) as exc:
-        raise ParameterError(f"{path}: not a readable JSON file ({exc})") from None
-
-    def bad(key, problem):
-        return ParameterError(f"{path}: {key}: {problem}")
-
-    if not isinstance(data, dict) or data.get("format") != FILE_FORMAT:
-        raise bad("format", f"this is not a {FILE_FORMAT} file")
-    if data.get("version") != FILE_VERSION:
-        raise bad("version", f"version {data.get('version')!r} is not supported (expected {FILE_VERSION})")
-    if data.get("energy") is not None:
-        try:
-            data["energy"] = _finite(data["energy"], "energy")
-        except ParameterError as exc:
-            raise bad("energy", str(exc)) from None
-    params = data.get("params") or {}
-    if not isinstance(params, dict):
-        raise bad("params", "must be a mapping of names to numbers")
-    try:
-        data["params"] = {str(k): _finite(v, k) for k, v in params.items()}
-    except ParameterError as exc:
-        raise bad("params", str(exc)) from None
-    orbits = data.get("orbits") or []
-    if not isinstance(orbits, list):
-        raise bad("orbits", "must be a list")
-    clean = []
-    for k, o in enumerate(orbits):
-        try:
-            x, y = (_finite(v, "seed") for v in o["seed"])
-            n = int(o.get("crossings", 300))
-        except (KeyError, TypeError, ValueError, ParameterError):
-            raise bad(f"orbits[{k}]", "needs a seed [x, y] of two finite numbers and an integer crossings") from None
-        if not 1 <= n <= 100_000:
-            raise bad(f"orbits[{k}].crossings", f"must lie in 1..100000, got {n}")
-        clean.append({"seed": (x, y), "crossings": n})
-    data["orbits"] = clean
-    if not isinstance(data.get("view") or {}, dict):
-        raise bad("view", "must be a mapping")
-    if not isinstance(data.get("color") or {}, dict):
-        raise bad("color", "must be a mapping")
-    sel = data.get("selected")
-    if sel is not None and not (isinstance(sel, int) and 1 <= sel <= len(clean)):
-        raise bad("selected", f"must be null or an orbit number 1..{len(clean)}")
-    return data
+__all__ = ["OrbitRecord", "Change", "Session", "write_session", "read_session", "FILE_FORMAT",
+           "FILE_VERSION"]

@@ -291,9 +291,9 @@ def test_run_batches_keeps_the_order():
 def test_bad_input(kicked_rotor, oscillator):
     with pytest.raises(ParameterError, match="unknown indicator"):
         chaos_map(kicked_rotor, [[0.1, 0.2]], 10, indicator="colour")
-    with pytest.raises(ModelError, match="unknown state component"):
+    with pytest.raises(ParameterError, match="unknown state component"):
         state_grid(kicked_rotor, {"x": (0, 1), "p": (0, 1)})
-    with pytest.raises(ModelError, match="low < high"):
+    with pytest.raises(ParameterError, match="low < high"):
         state_grid(kicked_rotor, {"q": (1, 0), "p": (0, 1)})
     with pytest.raises(ParameterError, match="unknown parameters"):
         chaos_map(kicked_rotor, [[0.1, 0.2]], 10, params={"kick": 1.0})

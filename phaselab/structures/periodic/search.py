@@ -7,7 +7,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from phaselab.engine import inputs
+from phaselab.engine import inputs, limits
 from phaselab.engine import status as codes
 from phaselab.errors import ParameterError
 from phaselab.structures.periodic.assembly import assemble_shooting, shooting_legs, wrapped_difference
@@ -111,14 +111,18 @@ def find_periodic_orbits(system, period, region=None, seeds=None, plane=None, en
     -------
     PeriodicOrbits
     """
+    inputs.system(system)
     names = [s.name for s in system.state_symbols]
     k = inputs.count(period, "period")
+    tol, same = inputs.positive_number(tol, "tol"), inputs.positive_number(same, "same")
+    maxit = inputs.count(maxit, "maxit", minimum=1, maximum=1000)
     if (region is None) == (seeds is None):
         raise ParameterError("give either region={name: (low, high), ...} or seeds=...")
     if seeds is None:
         starts = _grid(system, region, inputs.count(resolution, "resolution", 1, 1000), plane)
     else:
         starts = inputs.states(seeds, len(names), names, "seeds")
+    limits.shooting_budget(system, plane, len(starts), k, maxit, "find_periodic_orbits")
     starts = starts[np.all(np.isfinite(starts), axis=1)]
     if not len(starts):
         raise ParameterError("no finite starting points")
@@ -156,6 +160,7 @@ def _grid(system, region, resolution, plane):
     if not isinstance(region, dict) or not region:
         raise ParameterError("region must map coordinate names to (low, high), e.g. {'y': (-0.5, 0.5)}")
     names = [s.name for s in system.state_symbols]
+    limits.grid_budget(float(resolution) ** len(region), len(names), "find_periodic_orbits")
     axes = []
     for key, rng in region.items():
         j = inputs.state_index(system, key, "region coordinate")

@@ -11,7 +11,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from phaselab.engine import inputs
+from phaselab.engine import inputs, limits
 from phaselab.engine import status as codes
 from phaselab.errors import IntegrationError, ParameterError
 from phaselab.structures.periodic.assembly import assemble_shooting, shooting_legs, wrapped_difference
@@ -274,10 +274,13 @@ def periodic_orbit(system, guess, period=1, plane=None, energy=None, params=None
     the product of the k one-return Jacobians, exact derivatives from the tangent maps of the
     integrator.
     """
+    inputs.system(system)
     tol = inputs.positive_number(tol, "tol")
     maxit = inputs.count(maxit, "maxit", minimum=1, maximum=1000)
     k = inputs.count(period, "period")
+    inputs.direction(direction), inputs.flag(symmetric, "symmetric")
     names = [s.name for s in system.state_symbols]
+    limits.shooting_budget(system, plane, 1, k, maxit, "periodic_orbit")
     g = inputs.states(guess, len(names), names, "guess")
     if len(g) != 1:
         raise ParameterError("guess must be one state; use find_periodic_orbits for many")

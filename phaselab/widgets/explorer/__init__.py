@@ -36,6 +36,7 @@ from pathlib import Path
 
 import ipywidgets as W
 
+from phaselab.engine import inputs
 from phaselab.errors import ParameterError
 from phaselab.model.params import finite_number
 from phaselab.widgets import messages, scales, theme
@@ -280,5 +281,6 @@ def explore(system, energy=None, plane=None, solve_for=None, crossings=300, para
         ``set_view``, ``set_equal_aspect``, ``find_periodic_orbit``, ``export``,
         ``save_session``, ``load_session``, ``wait``.
     """
+    inputs.system(system), inputs.count(crossings, "crossings", maximum=100_000)
     return Explorer(system, energy=energy, plane=plane, solve_for=solve_for, crossings=crossings,
                     params=params, **options)

@@ -58,19 +58,16 @@ class SessionFiles:
                                                          self._color_dict()))
 
     def load_session(self, path):
-        """Restore a session file: energy, parameters, view, colouring and orbits."""
+        """Restore a session file: energy, parameters, view, colouring and orbits.
+
+        The whole file is read and checked, and the view and colour scale it asks for are
+        built, before the explorer changes anything: a file that cannot be restored leaves
+        the explorer as it was."""
         data = read_session(path)
-        v = data.get("view") or {}
-        if data.get("kind") != self.view.kind:
-            raise ParameterError(f"{path}: kind: the file holds a {data.get('kind')} view, this explorer shows "
-                                 f"a {self.view.kind}")
-        unknown = [k for k in data["params"] if k not in self.session.params]
-        if unknown:
-            raise ParameterError(f"{path}: params: {', '.join(unknown)} not parameters of this system")
-        if self.view.kind == "section" and (v.get("plane") or v.get("solve_for") or v.get("direction")):
-            plane = {str(k): float(x) for k, x in (v.get("plane") or self.view.plane).items()}
-            view = make_view(self.system, plane=plane, solve_for=v.get("solve_for") or self.view.solve_for,
-                             sign=int(v.get("direction") or self.view.sign), **self._view_options)
+        view = self._session_view(path, data)
+        color = self._session_color(path, data)
+        v = data["view"]
+        if view is not self.view:
             self.view = view
             self.figures.set_axis_labels(view.axis_labels)
             self.controls.set_title(self.name, view.describe())
@@ -81,29 +78,67 @@ class SessionFiles:
         if data.get("energy") is not None and self.view.uses_energy:
             self.session.energy = data["energy"]
         self._sync_sliders()
-        col = data.get("color") or {}
-        by = col.get("by")
-        if by in scales.DEFAULT_SCALES:
-            self.color_by = by
-            self.scale = scales.scale_for(by).with_limits(col.get("low"), col.get("anchor"), col.get("high"))
-        elif by is None:
-            self.color_by, self.scale = None, None
+        if color is not None:
+            self.color_by, self.scale = color
         self.figures.color_by_value(self.scale)
         self._show_scale()
-        rng = v.get("ranges")
+        rng = v["ranges"]
         if not rng or not self.jobs.background:
             self.view.fit_ranges(self.session.energy, self.session.params)
         self._fitted = self.view.ranges
-        self._equal = bool(v.get("equal_aspect", False))
-        self.figures.set_ranges(tuple(tuple(map(float, r)) for r in rng) if rng else self._fitted)
+        self._equal = v["equal_aspect"]
+        self.figures.set_ranges(tuple(tuple(r) for r in rng) if rng else self._fitted)
         self._draw_all()
         self._recompute_all(frame=True, keep_ranges=True)
+        self._restore_orbits(path, data["orbits"])
+
+    def _session_view(self, path, data):
+        """The view a checked session file asks for (the current one when it names none)."""
+        if data["kind"] != self.view.kind:
+            raise ParameterError(f"{path}: kind: the file holds a {data['kind']} view, this explorer shows "
+                                 f"a {self.view.kind}")
+        unknown = [k for k in data["params"] if k not in self.session.params]
+        if unknown:
+            raise ParameterError(f"{path}: params: {', '.join(unknown)} not parameters of this system")
+        v = data["view"]
+        if self.view.kind != "section" or not (v["plane"] or v["solve_for"] or v["direction"]):
+            return self.view
+        try:
+            return make_view(self.system, plane=v["plane"] or dict(self.view.plane),
+                             solve_for=v["solve_for"] or self.view.solve_for,
+                             sign=v["direction"] or self.view.sign, **self._view_options)
+        except PhaselabError as exc:
+            raise ParameterError(f"{path}: view: {exc}") from None
+
+    def _session_color(self, path, data):
+        """``(color_by, scale)`` from a checked session file; None keeps the current colouring
+        (a colouring the explorer cannot restore, such as a custom function)."""
+        col = data["color"]
+        by = col["by"]
+        if by is None:
+            return None, None
+        if by not in scales.DEFAULT_SCALES:
+            return None
+        try:
+            return by, scales.scale_for(by).with_limits(col["low"], col["anchor"], col["high"])
+        except ParameterError as exc:
+            raise ParameterError(f"{path}: color: {exc}") from None
+
+    def _restore_orbits(self, path, orbits):
+        """Start the orbits of a session file and say how many were restored."""
         by_crossings = {}
-        for o in data["orbits"]:
+        for o in orbits:
             by_crossings.setdefault(o["crossings"], []).append(o["seed"])
-        for c, seeds in by_crossings.items():
-            self.add_seeds(seeds, crossings=c)
-        self._say(f"Restored {len(data['orbits'])} orbits from {path}.")
+        restored = sum(len(self.add_seeds(seeds, crossings=c)) for c, seeds in by_crossings.items())
+        n = len(orbits)
+        if not n:
+            self._say(f"Restored the settings from {path}; the file holds no orbits.")
+        elif self.jobs.background:
+            self._say(f"Restoring {n} orbits from {path} ...")
+        elif restored == n:
+            self._say(f"Restored {n} orbits from {path}.")
+        else:
+            self._say(f"Restored {restored} of {n} orbits from {path}. {self._message}", refused=True)
 
     def _export_clicked(self):
         if self.section() is None:
