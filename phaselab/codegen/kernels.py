@@ -161,7 +161,7 @@ def _unpack(printed: Printed, n_state: int, n_param: int, indent: str) -> list[s
 def kernel_source(code: KernelCode) -> str:
     """The module text of the C-callable ``kernel`` (see the module docstring)."""
     lines = [KERNEL_HEADER.format(key=code.key), "",
-             "@cfunc(SIGNATURE, cache=True)", "def kernel(which, z, prm, out):"]
+             "@cfunc(SIGNATURE, cache=True, error_model=\"numpy\")", "def kernel(which, z, prm, out):"]
     for name in code.names:
         printed, length = code.parts[name]
         lines.append(f"    if which == {KERNELS[name]}:")

@@ -13,6 +13,7 @@ from typing import Sequence
 
 import sympy as sp
 from sympy.printing.codeprinter import PrintMethodNotImplementedError
+from sympy.printing.precedence import PRECEDENCE
 from sympy.printing.pycode import PythonCodePrinter
 
 from phaselab.errors import ModelError
@@ -44,6 +45,13 @@ class KernelPrinter(PythonCodePrinter):
 
     def _print_NumberSymbol(self, expr):
         return repr(float(expr))
+
+    def _print_Pow(self, expr, rational=False):
+        # numba raises ZeroDivisionError for 0.0 ** -n whatever the error model; 1.0 / x**n is
+        # the same arithmetic (numba computes x**-n as 1.0 / x**n), divided as IEEE does
+        if expr.exp.is_Integer and expr.exp < -1:
+            return f"(1.0/{self.parenthesize(sp.Pow(expr.base, -expr.exp), PRECEDENCE['Pow'])})"
+        return super()._print_Pow(expr, rational=rational)
 
     def _print_sign(self, expr):
         a = self._print(expr.args[0])
