@@ -151,13 +151,6 @@ def _check_nodes(expr: sp.Expr, where: str) -> None:
             "supported functions: " + ", ".join(f.__name__ for f in SUPPORTED_FUNCTIONS))
 
 
-def rename_map(state: Sequence[sp.Symbol], params: Sequence[sp.Symbol]) -> dict:
-    """Map the system's symbols onto safe identifiers."""
-    mapping = {s: sp.Symbol(f"s{i}", real=True) for i, s in enumerate(state)}
-    mapping.update({s: sp.Symbol(f"k{j}", real=True) for j, s in enumerate(params)})
-    return mapping
-
-
 def unpack_lines(n_state: int, n_params: int, used: set[str], indent: str = "    ") -> list[str]:
     """Lines reading state and parameter entries into local names (only those used)."""
     lines = [f"{indent}s{i} = z[{i}]" for i in range(n_state) if f"s{i}" in used]
