@@ -17,7 +17,7 @@ from sympy.printing.precedence import PRECEDENCE
 from sympy.printing.pycode import PythonCodePrinter
 
 from phaselab.errors import ModelError
-from phaselab.model.limits import has_huge_number_power
+from phaselab.model.limits import CSE_BASIC_MAX_NODES, has_huge_number_power, tree_size
 
 
 class KernelPrinter(PythonCodePrinter):
@@ -202,8 +202,9 @@ def print_expressions(exprs: Sequence[sp.Expr], skip_zero: bool = False, what: s
     for i, e in pairs:
         check_supported(e, f"{what} (entry {i})", display)
     # cse's "basic" preprocessing pulls numbers out of powers exactly: a power such as
-    # 7**(10**15 - x) would be computed to 10**15 digits, so such sets are taken as they are
-    plain = any(has_huge_number_power(e) for _, e in pairs)
+    # 7**(10**15 - x) would be computed to 10**15 digits, so such sets are taken as they are;
+    # its cost also grows faster than the size of the set, so large sets are taken as they are
+    plain = any(has_huge_number_power(e) for _, e in pairs) or _group_size(pairs) > CSE_BASIC_MAX_NODES
     replacements, reduced = sp.cse([e for _, e in pairs], symbols=sp.numbered_symbols("c"),
                                    optimizations=None if plain else "basic")
     printer = KernelPrinter()
@@ -216,6 +217,16 @@ def print_expressions(exprs: Sequence[sp.Expr], skip_zero: bool = False, what: s
         used |= {s.name for s in e.free_symbols}
         values.append((i, _checked(printer, e)))
     return Printed(temps, values, used)
+
+
+def _group_size(pairs) -> int:
+    """Nodes of a group of expressions counted as a tree (capped past the limit)."""
+    total = 0
+    for _, e in pairs:
+        total += tree_size(e, limit=CSE_BASIC_MAX_NODES)
+        if total > CSE_BASIC_MAX_NODES:
+            break
+    return total
 
 
 def _checked(printer: KernelPrinter, expr: sp.Expr) -> str:
