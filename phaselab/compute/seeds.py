@@ -111,7 +111,7 @@ def _closed_form(system, solve_index: int):
         roots = [(-b + disc) / (2 * a), (-b - disc) / (2 * a)]
     others = [s for i, s in enumerate(system.state_symbols) if i != solve_index]
     args = others + [E] + list(system.param_symbols)
-    fn = numeric_function(args, list(roots), others, system.param_symbols)
+    fn = numeric_function(args, list(roots))
     return fn
 
 

@@ -231,7 +231,7 @@ class Hamiltonian(PhaseSpaceSystem):
         args = list(self.state_symbols) + list(self.param_symbols)
         if self.time is not None:
             args.append(self.time)
-        return numeric_function(args, self.expr, self.state_symbols, self.param_symbols)
+        return numeric_function(args, self.expr)
 
     def energy(self, states, params=None, t=0.0) -> np.ndarray:
         """H evaluated on a batch of states.

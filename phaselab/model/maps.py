@@ -235,7 +235,7 @@ class AreaPreservingMap(PhaseSpaceSystem):
         (equivalent to R M R = M^-1 for an involution), both up to the modulus."""
         exprs = self._rules(rules)
         args = list(self.state_symbols) + list(self.param_symbols)
-        r_fn = numeric_function(args, exprs, self.state_symbols, self.param_symbols)
+        r_fn = numeric_function(args, exprs)
         rng = np.random.default_rng(20241202)
         z = self._sample_states(rng, N_SAMPLES)
         k = self._sample_params(rng, N_SAMPLES)
@@ -340,7 +340,7 @@ class AreaPreservingMap(PhaseSpaceSystem):
                 # cancellation in 30-digit arithmetic leaves at most ~1e-28 of the terms
                 return 1.0 if abs(value) <= 1e-20 * scale else complex(value) + 1.0
         else:
-            jac = numeric_function(args, self.jacobian_matrix, self.state_symbols, self.param_symbols)
+            jac = numeric_function(args, self.jacobian_matrix)
 
             def fn(*values):
                 return np.linalg.det(np.asarray(jac(*values), dtype=float))
@@ -391,7 +391,7 @@ class AreaPreservingMap(PhaseSpaceSystem):
     @cached_property
     def _step_fn(self):
         args = list(self.state_symbols) + list(self.param_symbols)
-        return numeric_function(args, self.update, self.state_symbols, self.param_symbols)
+        return numeric_function(args, self.update)
 
     def wrap(self, states) -> np.ndarray:
         """Wrap the components that have a modulus into their intervals.
