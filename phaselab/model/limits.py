@@ -60,10 +60,11 @@ def tree_size(expr: sp.Basic, limit: int | None = None) -> int:
 #: the nesting (measured on 2 cores, 2026-12-05: exp(x*exp(y*...)) 8 deep, work 140, takes
 #: 2 s of CPU for the separability check and the printed kernels; 11 deep, work 385, 5.3 s)
 MAX_NESTING_WORK = 150
-#: most nodes (counted as a tree) of all second derivatives of a system together, past
-#: which printing and compiling its kernels is refused (the largest catalogue system, a
-#: 64-particle chain, has 19,000)
-MAX_DERIVATIVE_NODES = 200_000
+#: most nodes (counted as a tree) of all first or all second derivatives of a system, past
+#: which printing and compiling its kernels is refused: a 64-particle chain from the catalogue
+#: has 19,000; a product of twelve sums raised to sums, 112,000, took 2.7 s of CPU for sympy
+#: and 4.8 s for numba (measured 2026-12-05)
+MAX_DERIVATIVE_NODES = 100_000
 #: most nodes (counted as a tree) of a group of kernel expressions for which common
 #: subexpressions are searched after sympy's "basic" rewriting (factor_terms), whose cost grows
 #: faster than the size: 0.35 s for the Jacobian of a 64-particle chain (2,800 nodes), 2.8 s
