@@ -34,7 +34,9 @@ import numpy as np
 import sympy as sp
 
 from phaselab.codegen.cache import codegen_fingerprint, load_module, source_hash
-from phaselab.codegen.printer import Printed, check_supported, print_expressions, rename_map
+from phaselab.codegen.printer import Printed, check_supported, print_expressions
+from phaselab.model.limits import derivative_problem
+from phaselab.model.numeric import rename_map
 from phaselab.errors import ModelError
 
 KERNELS = {"hamiltonian": 0, "grad_q": 1, "grad_p": 2, "vector_field": 3, "jacobian": 4,
@@ -92,6 +94,13 @@ def _derivatives(exprs, variables) -> list:
     return out
 
 
+def _check_size(exprs, what: str) -> None:
+    """Refuse derivatives too large to print and compile (measured before the next step)."""
+    problem = derivative_problem(exprs, what)
+    if problem:
+        raise ModelError(problem + "; write the system with fewer nested functions or shorter terms")
+
+
 def _check_symbols(expr, ren: dict, where: str) -> None:
     stray = sorted(str(x) for x in expr.free_symbols if x not in ren)
     if stray:
@@ -130,8 +139,10 @@ def kernel_code(system) -> KernelCode:
         n = m // 2
         dHdq = _derivatives([H], s[:n])
         dHdp = _derivatives([H], s[n:])
+        _check_size(dHdq + dHdp, "first derivatives of the Hamiltonian")
         field = dHdp + [-d for d in dHdq]
         jac = _derivatives(field, s)
+        _check_size(jac, "second derivatives of the Hamiltonian")
         # d2H/dp_i dp_j = d(qdot_i)/dp_j and d2H/dq_i dq_j = -d(pdot_i)/dq_j: entries of jac
         hess_pp = [jac[i * m + n + j] for i in range(n) for j in range(n)]
         hess_qq = [-jac[(n + i) * m + j] for i in range(n) for j in range(n)]
@@ -143,7 +154,10 @@ def kernel_code(system) -> KernelCode:
             check_supported(e, f"update of {state[i]}")
             _check_symbols(e, ren, f"update of {state[i]}")
         update = [e.xreplace(ren) for e in system.update]
-        exprs = {"map_step": (update, m), "map_jacobian": (_derivatives(update, s), m * m)}
+        _check_size(update, "update rules of the map")
+        jacobian = _derivatives(update, s)
+        _check_size(jacobian, "Jacobian entries of the map")
+        exprs = {"map_step": (update, m), "map_jacobian": (jacobian, m * m)}
     parts = {}
     for name, (group, length) in exprs.items():
         parts[name] = (print_expressions(group, skip_zero=length > 0, what=name.replace("_", " "),
@@ -161,7 +175,7 @@ def _unpack(printed: Printed, n_state: int, n_param: int, indent: str) -> list[s
 def kernel_source(code: KernelCode) -> str:
     """The module text of the C-callable ``kernel`` (see the module docstring)."""
     lines = [KERNEL_HEADER.format(key=code.key), "",
-             "@cfunc(SIGNATURE, cache=True)", "def kernel(which, z, prm, out):"]
+             "@cfunc(SIGNATURE, cache=True, error_model=\"numpy\")", "def kernel(which, z, prm, out):"]
     for name in code.names:
         printed, length = code.parts[name]
         lines.append(f"    if which == {KERNELS[name]}:")

@@ -13,10 +13,11 @@ from typing import Sequence
 
 import sympy as sp
 from sympy.printing.codeprinter import PrintMethodNotImplementedError
+from sympy.printing.precedence import PRECEDENCE
 from sympy.printing.pycode import PythonCodePrinter
 
 from phaselab.errors import ModelError
-from phaselab.model.limits import has_huge_number_power
+from phaselab.model.limits import CSE_BASIC_MAX_NODES, has_huge_number_power, tree_size
 
 
 class KernelPrinter(PythonCodePrinter):
@@ -44,6 +45,13 @@ class KernelPrinter(PythonCodePrinter):
 
     def _print_NumberSymbol(self, expr):
         return repr(float(expr))
+
+    def _print_Pow(self, expr, rational=False):
+        # numba raises ZeroDivisionError for 0.0 ** -n whatever the error model; 1.0 / x**n is
+        # the same arithmetic (numba computes x**-n as 1.0 / x**n), divided as IEEE does
+        if expr.exp.is_Integer and expr.exp < -1:
+            return f"(1.0/{self.parenthesize(sp.Pow(expr.base, -expr.exp), PRECEDENCE['Pow'])})"
+        return super()._print_Pow(expr, rational=rational)
 
     def _print_sign(self, expr):
         a = self._print(expr.args[0])
@@ -143,13 +151,6 @@ def _check_nodes(expr: sp.Expr, where: str) -> None:
             "supported functions: " + ", ".join(f.__name__ for f in SUPPORTED_FUNCTIONS))
 
 
-def rename_map(state: Sequence[sp.Symbol], params: Sequence[sp.Symbol]) -> dict:
-    """Map the system's symbols onto safe identifiers."""
-    mapping = {s: sp.Symbol(f"s{i}", real=True) for i, s in enumerate(state)}
-    mapping.update({s: sp.Symbol(f"k{j}", real=True) for j, s in enumerate(params)})
-    return mapping
-
-
 def unpack_lines(n_state: int, n_params: int, used: set[str], indent: str = "    ") -> list[str]:
     """Lines reading state and parameter entries into local names (only those used)."""
     lines = [f"{indent}s{i} = z[{i}]" for i in range(n_state) if f"s{i}" in used]
@@ -201,8 +202,9 @@ def print_expressions(exprs: Sequence[sp.Expr], skip_zero: bool = False, what: s
     for i, e in pairs:
         check_supported(e, f"{what} (entry {i})", display)
     # cse's "basic" preprocessing pulls numbers out of powers exactly: a power such as
-    # 7**(10**15 - x) would be computed to 10**15 digits, so such sets are taken as they are
-    plain = any(has_huge_number_power(e) for _, e in pairs)
+    # 7**(10**15 - x) would be computed to 10**15 digits, so such sets are taken as they are;
+    # its cost also grows faster than the size of the set, so large sets are taken as they are
+    plain = any(has_huge_number_power(e) for _, e in pairs) or _group_size(pairs) > CSE_BASIC_MAX_NODES
     replacements, reduced = sp.cse([e for _, e in pairs], symbols=sp.numbered_symbols("c"),
                                    optimizations=None if plain else "basic")
     printer = KernelPrinter()
@@ -215,6 +217,16 @@ def print_expressions(exprs: Sequence[sp.Expr], skip_zero: bool = False, what: s
         used |= {s.name for s in e.free_symbols}
         values.append((i, _checked(printer, e)))
     return Printed(temps, values, used)
+
+
+def _group_size(pairs) -> int:
+    """Nodes of a group of expressions counted as a tree (capped past the limit)."""
+    total = 0
+    for _, e in pairs:
+        total += tree_size(e, limit=CSE_BASIC_MAX_NODES)
+        if total > CSE_BASIC_MAX_NODES:
+            break
+    return total
 
 
 def _checked(printer: KernelPrinter, expr: sp.Expr) -> str:

@@ -58,7 +58,15 @@ MODULE_NAMES = frozenset({"np", "math", "njit", "prange", *codes.LOOP_CONSTANTS,
 HEADER = '''"""Loops assembled by phaselab.engine.compiled ({what}). Do not edit."""
 import math
 import numpy as np
-from numba import njit, prange
+import numba
+from numba import prange
+
+
+def njit(*args, **options):
+    """numba's njit with IEEE division (error_model "numpy"): x / 0 gives inf or nan
+    instead of raising, and the loops stop an orbit whose values are not finite."""
+    return numba.njit(*args, error_model="numpy", **options)
+
 
 {constants}
 '''
@@ -324,7 +332,7 @@ def generic_module_name(files) -> str:
 
 
 def inlined_module_name(key: str, files) -> str:
-    texts = [f.text for f in files]
+    texts = [HEADER, *(f.text for f in files)]
     return f"inlined_{key[:16]}_{_set_name(files)}_{source_hash(key, *texts, _fingerprint())}"
 
 

@@ -21,6 +21,7 @@ TIME_LIMIT = 4
 ENERGY_DRIFT = 5
 STEP_TOO_LARGE = 6
 NO_CROSSING = 7
+SINGULAR = 8
 STILL = 10
 """Frequency analysis: a degree of freedom does not move (its frequency is NaN)."""
 OFF_SHELL = 100
@@ -37,13 +38,14 @@ STATUS = {
     ENERGY_DRIFT: "relative energy error above the limit",
     STEP_TOO_LARGE: "step too large for this orbit (energy error in the first steps)",
     NO_CROSSING: "never crossed the plane",
+    SINGULAR: "reached a singularity (the Hamiltonian, the map or a derivative is not finite there)",
     STILL: "a degree of freedom does not move (its frequency is NaN)",
     OFF_SHELL: "left the energy shell (no real solution of H = E for the solved component)",
     NOT_RUN: "not run (invalid seed)",
 }
 """The word for every status code."""
 
-STOPPED = (LEFT_BOX, NOT_FINITE, NOT_CONVERGED, STEP_TOO_LARGE)
+STOPPED = (LEFT_BOX, NOT_FINITE, NOT_CONVERGED, STEP_TOO_LARGE, SINGULAR)
 """Codes of orbits cut short (their later samples are NaN): they count as ``escaped``."""
 
 # ------------------------------------------------------------------------ stepper kinds
@@ -78,7 +80,7 @@ above it keeps its numbers but gets ``ENERGY_DRIFT`` instead of ``OK``."""
 
 LOOP_CONSTANTS = {
     "OK": OK, "LEFT_BOX": LEFT_BOX, "NOT_FINITE": NOT_FINITE, "NOT_CONVERGED": NOT_CONVERGED,
-    "TIME_LIMIT": TIME_LIMIT, "NO_CROSSING": NO_CROSSING,
+    "TIME_LIMIT": TIME_LIMIT, "NO_CROSSING": NO_CROSSING, "SINGULAR": SINGULAR,
     "COMPOSITION": COMPOSITION, "GAUSS": GAUSS, "RK4": RK4,
     "SECTION_REFINE_TOL": SECTION_REFINE_TOL, "SECTION_REFINE_MAX": SECTION_REFINE_MAX,
     "SECTION_CHECK_EVERY": SECTION_CHECK_EVERY, "SECTION_LANES": SECTION_LANES,

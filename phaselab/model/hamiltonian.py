@@ -9,6 +9,8 @@ import sympy as sp
 
 from phaselab.errors import ModelError
 from phaselab.model.angles import declared_angles
+from phaselab.model.limits import work_problem
+from phaselab.model.numeric import numeric_function
 from phaselab.model.params import Parameter, make_parameters
 from phaselab.model.parser import parse_expression
 from phaselab.model.system import PhaseSpaceSystem, as_symbols
@@ -64,6 +66,9 @@ class Hamiltonian(PhaseSpaceSystem):
             known[self.time.name] = self.time
         known.update({p.name: p.symbol for p in self.parameters})
         self.expr = self._to_expr(expr, known, "Hamiltonian")
+        problem = work_problem(self.expr)
+        if problem:
+            raise ModelError(f"the Hamiltonian is too large to differentiate and compile: it has {problem}")
         self.period = None
         if period is not None:
             self.period = self._to_expr(period, {p.name: p.symbol for p in self.parameters}, "period")
@@ -249,8 +254,7 @@ class Hamiltonian(PhaseSpaceSystem):
         args = list(self.state_symbols) + list(self.param_symbols)
         if self.time is not None:
             args.append(self.time)
-        # lambdify prints sympy's own expression tree (never user text) into numpy code
-        return sp.lambdify(args, self.expr, modules="numpy")
+        return numeric_function(args, self.expr)
 
     def energy(self, states, params=None, t=0.0) -> np.ndarray:
         """H evaluated on a batch of states.

@@ -55,6 +55,103 @@ def tree_size(expr: sp.Basic, limit: int | None = None) -> int:
     return int(min(sizes[expr], cap))
 
 
+#: most weighted nesting (:func:`nesting_work`) of functions and symbolic powers a model may
+#: have: sympy's differentiation and common-subexpression search cost grows with the cube of
+#: the nesting (measured on 2 cores, 2026-12-05: exp(x*exp(y*...)) 8 deep, work 140, takes
+#: 2 s of CPU for the separability check and the printed kernels; 11 deep, work 385, 5.3 s)
+MAX_NESTING_WORK = 150
+#: most nodes (counted as a tree) of all first or all second derivatives of a system, past
+#: which printing and compiling its kernels is refused: a 64-particle chain from the catalogue
+#: has 19,000; a product of twelve sums raised to sums, 112,000, took 2.7 s of CPU for sympy
+#: and 4.8 s for numba (measured 2026-12-05)
+MAX_DERIVATIVE_NODES = 100_000
+#: most nodes (counted as a tree) of a group of kernel expressions for which common
+#: subexpressions are searched after sympy's "basic" rewriting (factor_terms), whose cost grows
+#: faster than the size: 0.35 s for the Jacobian of a 64-particle chain (2,800 nodes), 2.8 s
+#: for products of six powers of sums raised to sums (51,000 nodes; measured 2026-12-05).
+#: Larger groups are searched as they are (linear in their distinct parts).
+CSE_BASIC_MAX_NODES = 10_000
+
+
+def nesting_work(expr: sp.Basic, limit: int = MAX_NESTING_WORK) -> tuple[int, int]:
+    """How deeply ``expr`` nests functions and symbolic powers, and the work that costs.
+
+    A node's level is the most functions met on a path from it down to a leaf: a function
+    call adds 1, a power with a non-numeric exponent adds 2 (it is ``exp(e*log(b))``), other
+    nodes add nothing. The work is the sum, over the function and power nodes of the tree
+    (a shared part counted each time it is used), of ``(level - 1)**2``: nothing for
+    functions of plain arguments however many, and growing with the cube of the depth for a
+    tower such as ``exp(x*exp(y*exp(...)))``, as sympy's work on it does.
+
+    Parameters
+    ----------
+    expr : sympy.Basic
+    limit : int
+        Stop counting once the work exceeds ``limit`` (the work is then ``limit + 1``).
+
+    Returns
+    -------
+    (work, depth) : (int, int)
+        The capped work and the deepest level.
+    """
+    cap = limit + 1
+    level: dict = {}
+    work: dict = {}
+    stack = [(expr, False)]
+    while stack:
+        node, ready = stack.pop()
+        if node in level:
+            continue
+        if not node.args:
+            level[node], work[node] = 0, 0
+            continue
+        if not ready:
+            stack.append((node, True))
+            stack.extend((a, False) for a in node.args if a not in level)
+            continue
+        step = _nesting_step(node)
+        level[node] = step + max(level[a] for a in node.args)
+        own = (level[node] - 1) ** 2 if step else 0
+        work[node] = min(cap, own + sum(work[a] for a in node.args))
+    return int(work[expr]), int(level[expr])
+
+
+def _nesting_step(node: sp.Basic) -> int:
+    """Levels a node adds: 1 for a function call, 2 for a power with a non-numeric exponent."""
+    if isinstance(node, sp.Function):
+        return 1
+    if node.is_Pow and not node.exp.is_number:
+        return 2
+    return 0
+
+
+def work_problem(expr: sp.Basic) -> str | None:
+    """Why differentiating and compiling ``expr`` would take too long, in words, or None.
+
+    Measured before any symbolic work: the size as a tree (:data:`MAX_TREE_NODES`) and the
+    nesting of functions and symbolic powers (:data:`MAX_NESTING_WORK`).
+    """
+    if tree_size(expr, limit=MAX_TREE_NODES) > MAX_TREE_NODES:
+        return f"more than {MAX_TREE_NODES} nodes (counted as a tree, shared parts each time they are used)"
+    work, depth = nesting_work(expr)
+    if work > MAX_NESTING_WORK:
+        return (f"functions and symbolic powers nested {depth} levels deep (nesting work above "
+                f"{MAX_NESTING_WORK}; a function counts 1 level, a power with a symbolic exponent 2): "
+                "its derivatives would take minutes to form")
+    return None
+
+
+def derivative_problem(exprs, what: str) -> str | None:
+    """Why the derivatives ``exprs`` are too large to print and compile, or None."""
+    total = 0
+    for e in exprs:
+        total += tree_size(e, limit=MAX_DERIVATIVE_NODES - total)
+        if total > MAX_DERIVATIVE_NODES:
+            return (f"the {what} hold more than {MAX_DERIVATIVE_NODES} nodes (counted as a tree): "
+                    "too large to compile")
+    return None
+
+
 def expanded_terms(expr: sp.Basic, limit: int = EXPAND_MAX_TERMS) -> int:
     """An upper estimate of the number of terms of ``sympy.expand(expr)``, capped at
     ``limit + 1``; cheap (no expansion is done).

@@ -41,7 +41,9 @@ import sympy as sp
 from phaselab.errors import ModelError
 from phaselab.model.angles import declared_angles
 from phaselab.model.system import PhaseSpaceSystem
-from phaselab.model.limits import EXPAND_MAX_TERMS, MAX_TREE_NODES, expanded_terms, plain_det, tree_size
+from phaselab.model.numeric import numeric_function
+from phaselab.model.limits import (EXPAND_MAX_TERMS, MAX_TREE_NODES, expanded_terms, plain_det, tree_size,
+                                   work_problem)
 from phaselab.model.params import Parameter, finite_number, make_parameters
 from phaselab.model.parser import parse_expression, size_problem
 from phaselab.model.symplectic import check_symplectic, symplectic_form
@@ -170,6 +172,9 @@ class SymplecticMap(PhaseSpaceSystem):
         if unknown:
             raise ModelError(f"unknown symbols in {what}: {', '.join(unknown)}; declare them as "
                              "coordinates, momenta or parameters")
+        problem = work_problem(expr)
+        if problem:
+            raise ModelError(f"{what} is too large to differentiate and compile: it has {problem}")
         return expr
 
     def _target(self, target) -> sp.Symbol:
@@ -214,7 +219,7 @@ class SymplecticMap(PhaseSpaceSystem):
                 f"the update rules of map {self.name!r} compose into an expression for "
                 f"{target.name} of more than {MAX_TREE_NODES} nodes; write the map with fewer "
                 "nested substitutions")
-        problem = size_problem(expr)
+        problem = size_problem(expr) or work_problem(expr)
         if problem:
             raise ModelError(f"the update rules of map {self.name!r} compose into an expression for "
                              f"{target.name} that holds {problem}")
@@ -270,8 +275,7 @@ class SymplecticMap(PhaseSpaceSystem):
         (equivalent to R M R = M^-1 for an involution), both up to the modulus."""
         exprs = self._rules(rules)
         args = list(self.state_symbols) + list(self.param_symbols)
-        # lambdify prints sympy's own expression trees (never user text) into numpy code
-        r_fn = sp.lambdify(args, exprs, modules="numpy")
+        r_fn = numeric_function(args, exprs)
         rng = np.random.default_rng(20241202)
         z = self._sample_states(rng, N_SAMPLES)
         k = self._sample_params(rng, N_SAMPLES)
@@ -393,8 +397,7 @@ class SymplecticMap(PhaseSpaceSystem):
                 # cancellation in 30-digit arithmetic leaves at most ~1e-28 of the terms
                 return 1.0 if abs(value) <= 1e-20 * scale else complex(value) + 1.0
         else:
-            # lambdify prints sympy's own expression tree (never user text) into numpy code
-            jac = sp.lambdify(args, self.jacobian_matrix, modules="numpy")
+            jac = numeric_function(args, self.jacobian_matrix)
 
             def fn(*values):
                 return np.linalg.det(np.asarray(jac(*values), dtype=float))
@@ -441,8 +444,7 @@ class SymplecticMap(PhaseSpaceSystem):
     @cached_property
     def _step_fn(self):
         args = list(self.state_symbols) + list(self.param_symbols)
-        # lambdify prints sympy's own expression tree (never user text) into numpy code
-        return sp.lambdify(args, self.update, modules="numpy")
+        return numeric_function(args, self.update)
 
     def wrap(self, states) -> np.ndarray:
         """Wrap the components that have a modulus into their intervals.

@@ -415,6 +415,9 @@ def parse_expression(text: str, symbols: dict[str, sp.Symbol] | None = None,
                              for b, e in (a.args for a in expr.atoms(sp.Pow))):
         raise ExpressionError(f"expression {_clip(src)} is complex-valued (it contains sqrt of a negative "
                               "number or similar); phaselab works with real expressions")
+    if any(b.is_zero and not e.is_number for b, e in (a.args for a in expr.atoms(sp.Pow))):
+        raise ExpressionError(f"expression {_clip(src)} raises 0 to a symbolic power (0 or infinite "
+                              "by the sign of the exponent, with no derivative); write 0 or the case meant")
     if unknown:
         raise ExpressionError(
             "unknown symbols: " + ", ".join(sorted(set(unknown)))

@@ -19,6 +19,7 @@ import sympy as sp
 
 from phaselab.engine import inputs
 from phaselab.engine.inputs import state_index
+from phaselab.model.numeric import numeric_function
 from phaselab.errors import ModelError, ParameterError
 
 
@@ -110,8 +111,7 @@ def _closed_form(system, solve_index: int):
         roots = [(-b + disc) / (2 * a), (-b - disc) / (2 * a)]
     others = [s for i, s in enumerate(system.state_symbols) if i != solve_index]
     args = others + [E] + list(system.param_symbols)
-    # lambdify prints sympy's own root expressions (never user text) into numpy code
-    fn = sp.lambdify(args, list(roots), modules="numpy")
+    fn = numeric_function(args, list(roots))
     return fn
 
 

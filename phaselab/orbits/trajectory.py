@@ -48,7 +48,8 @@ class Trajectory(codes.StatusReport):
     status : ndarray of int, shape (n_orbits,)
         Why each orbit stopped (:mod:`phaselab.engine.status`; words in ``status_text``):
         ``OK`` ran to the end, ``ENERGY_DRIFT`` ran to the end with an energy error above
-        the limit, ``LEFT_BOX``, ``NOT_FINITE``, ``NOT_CONVERGED``, ``STEP_TOO_LARGE``.
+        the limit, ``LEFT_BOX``, ``NOT_FINITE``, ``NOT_CONVERGED``, ``STEP_TOO_LARGE``,
+        ``SINGULAR`` (H or its derivatives not finite: a collision, a negative power at 0).
     escape_time : ndarray, shape (n_orbits,)
         Time at which a stopped orbit stopped (NaN where it did not).
     method : str

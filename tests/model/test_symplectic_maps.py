@@ -85,15 +85,17 @@ def test_two_dimensional_maps_unchanged():
 
 
 def test_composed_four_dimensional_rules_are_checked_with_bounded_work():
-    """Five rounds of a gradient kick p += grad(-cos(q1 + q2)) and a drift q1 += p1^2,
+    """Four rounds of a gradient kick p += grad(-cos(q1 + q2)) and a drift q1 += p1^2,
     q2 += p2 (each the time-one flow of a Hamiltonian, so symplectic: common practice)
     compose into large rules; the check stays within 4 s of CPU in a child process with
     hard limits. A kick that is no gradient (p1 += q2 sin q1, p2 += q1 sin q2:
-    d(q2 sin q1)/dq2 = sin q1 != sin q2 = d(q1 sin q2)/dq1) is refused."""
+    d(q2 sin q1)/dq2 = sin q1 != sin q2 = d(q1 sin q2)/dq1) is refused. Ten rounds nest too
+    deep to differentiate in bounded time and are refused at once, saying so."""
     from bounded import run_bounded
 
-    good = [["p1", "p1 + sin(q1 + q2)"], ["p2", "p2 + sin(q1 + q2)"], ["q1", "q1 + p1*p1"], ["q2", "q2 + p2"]] * 5
-    bad = [["p1", "p1 + q2*sin(q1)"], ["p2", "p2 + q1*sin(q2)"], ["q1", "q1 + p1"], ["q2", "q2 + p2"]] * 5
+    good = [["p1", "p1 + sin(q1 + q2)"], ["p2", "p2 + sin(q1 + q2)"], ["q1", "q1 + p1*p1"], ["q2", "q2 + p2"]] * 4
+    deep = good * 3
+    bad = [["p1", "p1 + q2*sin(q1)"], ["p2", "p2 + q1*sin(q2)"], ["q1", "q1 + p1"], ["q2", "q2 + p2"]] * 4
     out = run_bounded(f"""
         from phaselab import SymplecticMap
         bounded(lambda: SymplecticMap({good!r}, ["q1", "q2"], ["p1", "p2"]).symplectic_defect < 1e-12)
@@ -105,3 +107,9 @@ def test_composed_four_dimensional_rules_are_checked_with_bounded_work():
         bounded(lambda: SymplecticMap({bad!r}, ["q1", "q2"], ["p1", "p2"]))
     """)
     assert out.finished and out.error == "ModelError" and "preserves volume" in out.message, out
+    out = run_bounded(f"""
+        from phaselab import SymplecticMap
+        bounded(lambda: SymplecticMap({deep!r}, ["q1", "q2"], ["p1", "p2"]))
+    """)
+    assert out.finished and out.error == "ModelError" and "minutes" in out.message, out
+    assert out.cpu < 4.0, out

@@ -1,8 +1,8 @@
 """Return maps with their exact derivatives, for Newton's method on periodic orbits.
 
 Loop text (see ``steppers.py`` for what the assembled module provides); ``advance_tangent``,
-``make_work`` and ``check_state`` come from ``steppers.py``. Names defined here start with
-``periodic_``.
+``make_work``, ``check_state`` and ``check_values`` come from ``steppers.py``. Names
+defined here start with ``periodic_``.
 
 Every entry point takes a batch of states and returns, per state, the image under the
 return map (the k-th crossing of a plane, k periods of a drive, k iterates of a map) and
@@ -146,6 +146,8 @@ def periodic_plane_return(kern, Z0, prm, h, max_steps, k, value, direction, n_cr
                                                   PERIODIC_REFINE_SUBSTEPS, out_state[o], out_jac[o])
                     out_time[o] = t
                     st = check_state(out_state[o], box_lo, box_hi)
+                    if st == OK:
+                        st = check_values(out_jac[o])
                     break
         status[o] = st
 
@@ -171,6 +173,8 @@ def periodic_strobe_return(kern, X0, prm, h, n_steps, kind, weights, A, b, tol, 
                     st = check_state(z, box_lo, box_hi)
                 if st != OK:
                     break
+        if st == OK:
+            st = check_values(W)
         if st == OK:
             for r in range(m):
                 out_state[o, r] = z[r]
@@ -209,6 +213,8 @@ def periodic_map_return(kern, Z0, prm, n_iter, box_lo, box_hi, out_state, out_ja
                 st = check_state(z, box_lo, box_hi)
                 if st != OK:
                     break
+        if st == OK:
+            st = check_values(W)
         if st == OK:
             for r in range(m):
                 out_state[o, r] = z[r]
@@ -251,6 +257,9 @@ def periodic_map_inverse(kern, Y, prm, tol, maxit, out_state, status):
                 st = OK
                 break
             map_jacobian(kern, x, prm, jac)
+            if check_values(jac) != OK:  # np.linalg.solve would raise
+                st = SINGULAR
+                break
             dx = np.linalg.solve(jac, fx)
             for r in range(m):
                 x[r] -= dx[r]

@@ -127,13 +127,15 @@ def section_composition_coefficients(weights, h):
 def section_fill_lane(kern, l, nxt, last, Z0, Z, lane_orbit, lane_step, lane_e0, lane_g, prm, k, value,
                       direction, box_lo, box_hi, counts, energy_error, status, stop_time):
     """Load the next startable orbit (index ``nxt`` .. ``last - 1``) into lane ``l``; seeds
-    that are non-finite or outside the box are flagged and skipped. Returns the new ``nxt``;
-    ``lane_orbit[l]`` is -1 when no orbit was left."""
+    that are non-finite, outside the box or where H is not finite are flagged and skipped.
+    Returns the new ``nxt``; ``lane_orbit[l]`` is -1 when no orbit was left."""
     lane_orbit[l] = -1
     while nxt < last:
         o = nxt
         nxt += 1
         st = check_state(Z0[o], box_lo, box_hi)
+        if st == OK:
+            st = check_value(hamiltonian(kern, Z0[o], prm))
         counts[o] = 0
         stop_time[o] = 0.0
         if st != OK:
@@ -241,6 +243,9 @@ def section_plane_group(kern, Z0, first, last, prm, h, max_steps, k, value, dire
                     tc, st = section_refine(kern, ZP[l], (stp - 1) * h, k, value, prm, zc, rw)
                 else:
                     tc, st = section_refine(kern, Z[l], stp * h, k, value, prm, zc, rw)
+                hc = hamiltonian(kern, zc, prm)
+                if st == OK:
+                    st = check_value(hc)
                 if st != OK:
                     done = True
                 else:
@@ -248,7 +253,7 @@ def section_plane_group(kern, Z0, first, last, prm, h, max_steps, k, value, dire
                     for j in range(m):
                         out_points[o, cnt, j] = zc[j]
                     out_times[o, cnt] = tc
-                    e = abs(hamiltonian(kern, zc, prm) - lane_e0[l]) / max(abs(lane_e0[l]), 1.0)
+                    e = abs(hc - lane_e0[l]) / max(abs(lane_e0[l]), 1.0)
                     if e > energy_error[o]:
                         energy_error[o] = e
                     counts[o] = cnt + 1
@@ -300,19 +305,22 @@ def section_strobe_orbits(kern, Z0, prm, h, steps_per_period, n_periods, kind, w
     """Sample every orbit of an extended (autonomous) system once per period.
 
     ``h * steps_per_period`` is the period; sample ``i`` is the state after ``(i + 1)``
-    periods. The energy error is that of the extended Hamiltonian K (conserved exactly).
+    periods. The energy error is that of the extended Hamiltonian K (conserved exactly); an
+    orbit where K is not finite stops with ``SINGULAR``.
     """
     n_orb = Z0.shape[0]
     m = Z0.shape[1]
     for o in prange(n_orb):
         work = make_work(max(b.shape[0], 1), m)
         z = Z0[o].copy()
+        k0 = hamiltonian(kern, z, prm)
         st = check_state(z, box_lo, box_hi)
+        if st == OK:
+            st = check_value(k0)
         if st != OK:
             status[o] = st
             energy_error[o] = np.nan
             continue
-        k0 = hamiltonian(kern, z, prm)
         escale = max(abs(k0), 1.0)
         worst = 0.0
         c = 0
@@ -325,9 +333,13 @@ def section_strobe_orbits(kern, Z0, prm, h, steps_per_period, n_periods, kind, w
                     break
             if st != OK:
                 break
+            kz = hamiltonian(kern, z, prm)
+            st = check_value(kz)
+            if st != OK:
+                break
             for j in range(m):
                 out_points[o, i, j] = z[j]
-            e = abs(hamiltonian(kern, z, prm) - k0) / escale
+            e = abs(kz - k0) / escale
             if e > worst:
                 worst = e
             c += 1

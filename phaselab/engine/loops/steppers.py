@@ -57,6 +57,8 @@ def gauss_step(kern, z, h, prm, A, b, tol, maxit, K, Kn, zs):
     m = nstate(z)
     s = b.shape[0]
     vector_field(kern, z, prm, K[0])
+    if check_values(K[0]) != OK:  # a singularity of the field at the state itself
+        return SINGULAR
     for i in range(1, s):
         for j in range(m):
             K[i, j] = K[0, j]
@@ -166,6 +168,25 @@ def advance(kern, z, h, prm, kind, weights, A, b, tol, maxit, work):
 
 
 @njit(cache=True, nogil=True)
+def check_value(v):
+    """``OK`` for a finite number, else ``SINGULAR`` (a kernel value at a singularity:
+    kernels divide as IEEE arithmetic does, so x / 0 gives inf or nan)."""
+    if v == v and v != np.inf and v != -np.inf:
+        return OK
+    return SINGULAR
+
+
+@njit(cache=True, nogil=True)
+def check_values(a):
+    """:func:`check_value` for every entry of the 1-D or 2-D array ``a``."""
+    flat = a.ravel()
+    for j in range(flat.shape[0]):
+        if check_value(flat[j]) != OK:
+            return SINGULAR
+    return OK
+
+
+@njit(cache=True, nogil=True)
 def check_state(z, box_lo, box_hi):
     """``OK``, ``NOT_FINITE`` or ``LEFT_BOX`` for the state ``z``."""
     for j in range(z.shape[0]):
@@ -188,7 +209,8 @@ def run_orbits(kern, Z0, prm, h, n_steps, save_every, kind, weights, A, b, tol, 
     ``n_steps`` is not a multiple of ``save_every`` and the arrays have room for one more
     sample (``n_saves = n_steps // save_every + 2``), the final state is saved there too. An
     orbit that leaves the box, goes non-finite or fails an implicit solve is stopped:
-    ``status[o]`` gets the code and ``stop_step[o]`` the step number at which it happened.
+    ``status[o]`` gets the code and ``stop_step[o]`` the step number at which it happened;
+    an orbit whose energy is not finite (a singularity of H) gets ``SINGULAR``.
     """
     n_orb = Z0.shape[0]
     m = Z0.shape[1]
@@ -203,6 +225,10 @@ def run_orbits(kern, Z0, prm, h, n_steps, save_every, kind, weights, A, b, tol, 
         for j in range(m):
             out_states[o, 0, j] = z[j]
         out_energy[o, 0] = hamiltonian(kern, z, prm)
+        if check_value(out_energy[o, 0]) != OK:
+            status[o] = SINGULAR
+            stop_step[o] = 0
+            continue
         k = 0
         for step in range(1, n_steps + 1):
             st = advance(kern, z, h, prm, kind, weights, A, b, tol, maxit, work)
@@ -217,6 +243,10 @@ def run_orbits(kern, Z0, prm, h, n_steps, save_every, kind, weights, A, b, tol, 
                 for j in range(m):
                     out_states[o, k, j] = z[j]
                 out_energy[o, k] = hamiltonian(kern, z, prm)
+                if check_value(out_energy[o, k]) != OK:
+                    status[o] = SINGULAR
+                    stop_step[o] = step
+                    break
 
 
 @njit(cache=True, nogil=True)
@@ -315,6 +345,7 @@ def gauss_tangent(kern, z_old, V, h, prm, A, b, K):
 
     The stages Z_i = z + h sum_l A_il f(Z_l) differentiate to the linear system
     (I - h A (x) J(Z)) W = 1 (x) V, solved directly; then V <- V + h sum_i b_i J(Z_i) W_i.
+    Returns ``SINGULAR`` (``V`` unchanged) when a stage Jacobian is not finite.
     """
     m = nstate(z_old)
     s = b.shape[0]
@@ -328,6 +359,8 @@ def gauss_tangent(kern, z_old, V, h, prm, A, b, K):
                 acc += A[i, l] * K[l, j]
             zs[j] = z_old[j] + h * acc
         jacobian(kern, zs, prm, Js[i])
+        if check_values(Js[i]) != OK:
+            return SINGULAR
     S = s * m
     M = np.zeros((S, S))
     R = np.empty((S, k))
@@ -351,6 +384,7 @@ def gauss_tangent(kern, z_old, V, h, prm, A, b, K):
                     inner += Js[i, r, c] * W[i * m + c, col]
                 acc += b[i] * inner
             V[r, col] += h * acc
+    return OK
 
 
 @njit(cache=True, nogil=True)
@@ -404,7 +438,7 @@ def advance_tangent(kern, z, V, h, prm, kind, weights, A, b, tol, maxit, work, j
         z_old = z.copy()
         st = advance(kern, z, h, prm, kind, weights, A, b, tol, maxit, work)
         if st == OK:
-            gauss_tangent(kern, z_old, V, h, prm, A, b, work[:b.shape[0]])
+            st = gauss_tangent(kern, z_old, V, h, prm, A, b, work[:b.shape[0]])
         return st
     return rk4_tangent_step(kern, z, V, h, prm)
 

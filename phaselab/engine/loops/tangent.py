@@ -30,10 +30,21 @@ def tangent_normalise(W):
 
 
 @njit(cache=True, nogil=True)
+def tangent_usable(g):
+    """Whether a deviation vector of length ``g`` can be renormalised (positive and finite;
+    a singular Jacobian along the orbit makes it zero, inf or nan)."""
+    return g > 0.0 and g < np.inf
+
+
+@njit(cache=True, nogil=True)
 def tangent_update(W, t, h, acc):
     """Renormalise the deviation vectors after a step ending at time ``t`` and update the
-    running indicators in ``acc`` = [log_sum, fli, y_int, y_mean, sali]."""
+    running indicators in ``acc`` = [log_sum, fli, y_int, y_mean, sali]. Returns ``OK``, or
+    ``SINGULAR`` (nothing changed) when a deviation vector is zero or not finite."""
     g = tangent_norm(W, 0)
+    g2 = tangent_norm(W, 1) if W.shape[1] > 1 else 1.0
+    if not (tangent_usable(g) and tangent_usable(g2)):
+        return SINGULAR
     growth = math.log(g)
     acc[0] += growth
     if acc[0] > acc[1]:
@@ -45,13 +56,13 @@ def tangent_update(W, t, h, acc):
     for j in range(W.shape[0]):
         W[j, 0] /= g
     if W.shape[1] > 1:
-        tangent_second(W, acc)
+        tangent_second(W, g2, acc)
+    return OK
 
 
 @njit(cache=True, nogil=True)
-def tangent_second(W, acc):
-    """Renormalise the second deviation vector and put SALI into ``acc[4]``."""
-    g2 = tangent_norm(W, 1)
+def tangent_second(W, g2, acc):
+    """Renormalise the second deviation vector (of length ``g2``) and put SALI into ``acc[4]``."""
     for j in range(W.shape[0]):
         W[j, 1] /= g2
     plus = 0.0
@@ -104,11 +115,12 @@ def tangent_flow_indicators(kern, Z0, W0, prm, h, n_steps, record_every, kind, w
             st = advance_tangent(kern, z, W, h, prm, kind, weights, A, b, tol, maxit, work, jac)
             if st == OK:
                 st = check_state(z, box_lo, box_hi)
+            if st == OK:
+                st = tangent_update(W, step * h, h, acc)
             if st != OK:
                 status[o] = st
                 stop_step[o] = step
                 break
-            tangent_update(W, step * h, h, acc)
             done = step
             if record_every > 0 and step % record_every == 0 and rec < history.shape[1]:
                 tangent_store(o, step * h, acc, history[:, rec])
@@ -204,16 +216,19 @@ def tangent_composition_indicators(kern, Z0, W0, prm, h, n_steps, record_every, 
                         for b in range(n):
                             t += hq[a, b] * W[b, col]
                         W[n + a, col] -= d * t
-            st = check_state(z, box_lo, box_hi)
-            if st != OK:
-                status[o] = st
-                stop_step[o] = step
-                break
             # tangent_update, with the running sums in local variables
             g = 0.0
             for j in range(2 * n):
                 g += W[j, 0] * W[j, 0]
             g = math.sqrt(g)
+            g2 = tangent_norm(W, 1) if k > 1 else 1.0
+            st = check_state(z, box_lo, box_hi)
+            if st == OK and not (tangent_usable(g) and tangent_usable(g2)):
+                st = SINGULAR
+            if st != OK:
+                status[o] = st
+                stop_step[o] = step
+                break
             growth = math.log(g)
             log_sum += growth
             if log_sum > fli:
@@ -224,7 +239,7 @@ def tangent_composition_indicators(kern, Z0, W0, prm, h, n_steps, record_every, 
             for j in range(2 * n):
                 W[j, 0] /= g
             if k > 1:
-                tangent_second(W, acc)
+                tangent_second(W, g2, acc)
             done = step
             if record_every > 0 and step % record_every == 0 and rec < history.shape[1]:
                 acc[0], acc[1], acc[2], acc[3] = log_sum, fli, y_int, y_mean
@@ -277,11 +292,12 @@ def tangent_map_indicators(kern, Z0, W0, prm, n_iter, record_every, modulus, low
                 for col in range(k):
                     W[j, col] = Wn[j, col]
             st = check_state(z, box_lo, box_hi)
+            if st == OK:
+                st = tangent_update(W, float(it), 1.0, acc)
             if st != OK:
                 status[o] = st
                 stop_step[o] = it
                 break
-            tangent_update(W, float(it), 1.0, acc)
             done = it
             if record_every > 0 and it % record_every == 0 and rec < history.shape[1]:
                 tangent_store(o, float(it), acc, history[:, rec])

@@ -38,6 +38,7 @@ REASONS = {
     "converged": "converged",
     codes.LEFT_BOX: "an orbit left the box",
     codes.NOT_FINITE: "an orbit became non-finite",
+    codes.SINGULAR: "an orbit reached a singularity of the system",
     codes.NOT_CONVERGED: "an implicit step did not converge",
     codes.TIME_LIMIT: "no crossing of the plane came within the time cap",
     OFF_SHELL: "left the energy shell (no real solution of H = E for the solved component)",
