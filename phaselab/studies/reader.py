@@ -24,7 +24,8 @@ from phaselab.studies.paths import check_relative, confined_path
 from phaselab.studies.spec import (DATA_SUFFIXES, FIGURE_SUFFIXES, MAX_CROSSINGS, MAX_ORBITS,
                                    MAX_OUTPUTS, MAX_PIXELS, MAX_POINTS, OutputSpec, SectionSpec,
                                    SeedSpec, Study)
-from phaselab.studies.tables import read_output, read_seeds, read_section, read_structure, read_system
+from phaselab.studies.system_table import read_system
+from phaselab.studies.tables import read_output, read_seeds, read_section, read_structure
 from phaselab.studies.trial import try_study
 
 if sys.version_info >= (3, 11):
