@@ -91,7 +91,7 @@ class Figures:
         from bokeh import events
         from bokeh.layouts import column, row
         from bokeh.models import (BasicTickFormatter, BoxZoomTool, ColorBar, ColumnDataSource, CustomJS,
-                                  HoverTool, LinearColorMapper, PanTool, PointDrawTool, ResetTool,
+                                  HoverTool, Label, LinearColorMapper, PanTool, PointDrawTool, ResetTool,
                                   WheelZoomTool)
         from bokeh.plotting import figure
 
@@ -132,16 +132,17 @@ class Figures:
         main.multi_line("xs", "ys", source=self.unstable, line_color=BRANCH_STYLE["unstable"][0], line_width=1.1)
         main.multi_line("xs", "ys", source=self.stable, line_color=BRANCH_STYLE["stable"][0], line_width=1.1,
                         line_dash="dashed")
-        self.periodic = ColumnDataSource(dict(x=[], y=[], marker=[], color=[], what=[]), name="phaselab-periodic")
-        po_r = main.scatter("x", "y", source=self.periodic, marker="marker", size=12, fill_color="color",
-                            line_color="color", line_width=2.2, fill_alpha=0.85)
-        self.markers = MARKERS
         self.seeds = ColumnDataSource(dict(x=[], y=[], color=[], orbit=[]), name="phaselab-seeds")
         main.scatter("x", "y", source=self.seeds, size=8, marker="circle", fill_color="#ffffff",
                      line_color="color", line_width=2.0)
         self.latest = ColumnDataSource(dict(x=[], y=[]), name="phaselab-latest")
         latest = main.scatter("x", "y", source=self.latest, size=15, marker="circle", fill_color=None,
                               line_color=theme.INK, line_width=1.8)
+        # periodic orbits above the seed rings: a mark is never hidden under a ring
+        self.periodic = ColumnDataSource(dict(x=[], y=[], marker=[], color=[], what=[]), name="phaselab-periodic")
+        po_r = main.scatter("x", "y", source=self.periodic, marker="marker", size=12, fill_color="color",
+                            line_color="color", line_width=2.2, fill_alpha=0.85)
+        self.markers = MARKERS
         # the drag position, sent to the kernel while the pointer moves (the draw tool itself
         # reports only when the button is released)
         self.probe = ColumnDataSource(dict(x=[], y=[]), name="phaselab-probe")
@@ -206,10 +207,14 @@ class Figures:
         bar.grid.visible = False
         bar.background_fill_color = None
         bar.border_fill_color = None
-        self.color_bar = ColorBar(color_mapper=self.scalar_mapper, title="", width=12, title_text_font_size="11px",
-                                  major_label_text_font_size="10px", title_text_font_style="normal",
-                                  background_fill_alpha=0.0, location=(0, 0), padding=4)
+        self.color_bar = ColorBar(color_mapper=self.scalar_mapper, title="", width=12,
+                                  major_label_text_font_size="10px", background_fill_alpha=0.0,
+                                  location=(0, 0), padding=4)
         bar.add_layout(self.color_bar, "left")
+        # the title runs along the bar (it may be long: unit, sign, band)
+        self.bar_title = Label(x=4, y=30, x_units="screen", y_units="screen", angle=np.pi / 2, text="",
+                               text_font_size="10.5px", text_color=theme.INK, name="phaselab-colorbar-title")
+        bar.add_layout(self.bar_title)
         bar.visible = False
         self.bar = bar
 
@@ -260,7 +265,7 @@ class Figures:
         else:
             self.scalar_mapper.palette = scale.palette()
             self.scalar_mapper.low, self.scalar_mapper.high = scale.low, scale.high
-            self.color_bar.title = scale.label
+            self.bar_title.text = scale.title
             spec = {"field": "value", "transform": self.scalar_mapper}
             self.bar.visible = True
             self.color_bar_title.data = dict(t=[scale.label.split(" (")[0]])

@@ -43,7 +43,7 @@ def view_figure(snap: Snapshot, size=(7.2, 5.4), dpi=150):
     from matplotlib.figure import Figure
 
     from phaselab.export.figures import REPORT_RC
-    from phaselab.export.structures import BRANCH_STYLE, MARKERS
+    from phaselab.export.marks import BRANCH_STYLE, KEY_WORDS, MARKERS
 
     width, height = size
     with matplotlib.rc_context(REPORT_RC):
@@ -80,14 +80,21 @@ def view_figure(snap: Snapshot, size=(7.2, 5.4), dpi=150):
             colour, style = BRANCH_STYLE.get(branch, ("#333333", "-"))
             for c in lines:
                 ax.plot(c[:, 0], c[:, 1], color=colour, linestyle=style, linewidth=0.9, zorder=3)
-        for x, y, stability in snap.periodic:
-            marker, colour = MARKERS.get(stability, ("D", "#333333"))
-            ax.scatter([x], [y], marker=marker, s=60, c=colour, edgecolors="white", linewidths=0.6, zorder=4)
         if snap.stops:
             s = np.array(snap.stops)
             ax.scatter(s[:, 0], s[:, 1], marker="x", s=40, c=theme.REFUSED, linewidths=1.6, zorder=4)
         for x, y, colour in snap.seeds:
             ax.scatter([x], [y], s=36, facecolors="white", edgecolors=colour, linewidths=1.6, zorder=5)
+        keyed = set()
+        for x, y, stability in snap.periodic:  # above the seed rings
+            marker, colour = MARKERS.get(stability, ("D", "#333333"))
+            label = KEY_WORDS.get(stability, stability) if stability not in keyed else None
+            keyed.add(stability)
+            ax.scatter([x], [y], marker=marker, s=60, c=colour, edgecolors="white", linewidths=0.6, zorder=6,
+                       label=label)
+        if keyed:
+            ax.legend(loc="upper right", fontsize=7.5, frameon=True, framealpha=0.85, handletextpad=0.3,
+                      borderaxespad=0.3)
         ax.set_xlim(x0, x1)
         ax.set_ylim(y0, y1)
         if snap.equal_aspect:
@@ -104,7 +111,7 @@ def view_figure(snap: Snapshot, size=(7.2, 5.4), dpi=150):
             cax = fig.add_axes(((width - right + 0.25) / width, bottom / height, 0.14 / width,
                                 (height - bottom - top) / height))
             bar = fig.colorbar(mappable, cax=cax)
-            bar.set_label(snap.scale.label, fontsize=8.5)
+            bar.set_label(snap.scale.title, fontsize=8.5)
             bar.ax.tick_params(labelsize=7.5)
             if snap.scale.anchor is not None:
                 bar.ax.axhline(snap.scale.anchor, color="black", linewidth=0.8)

@@ -112,10 +112,6 @@ class Explorer(OrbitCommands, ViewCommands, Wiring, Scheduling, Drawing, Session
             raise ParameterError(f"export_formats must be some of {', '.join(EXPORT_FORMATS)}; got {export_formats!r}")
         self._check_color_by(color_by)
         self.color_by = color_by
-        self.scale = scales.scale_for(color_by, color_label) if color_by is not None else None
-        if scale is not None and self.scale is not None:
-            self.scale = self.scale.with_limits(*scale)
-        self._scale_fixed = scale is not None or (isinstance(color_by, str) and color_by in scales.DEFAULT_SCALES)
         self._color_label = color_label
         self.jobs = JobRunner(background)
         self.idle_jobs = JobRunner(background)
@@ -125,6 +121,8 @@ class Explorer(OrbitCommands, ViewCommands, Wiring, Scheduling, Drawing, Session
         self._message, self._refused = "", False
         self._busy: dict[str, str] = {}
         self._compiling: list[str] = []
+        self._compile_started: dict[str, float] = {}
+        self._compile_note = ("", 0.0)  # the end of the last compilation shown, and when
         self._pending = 0
         self._serial = 0
         self._frame = None
@@ -136,6 +134,11 @@ class Explorer(OrbitCommands, ViewCommands, Wiring, Scheduling, Drawing, Session
         self._uid = secrets.token_hex(6)
         self.name = title or getattr(system, "name", "system")
 
+        self.scale = self._make_scale(color_by, color_label)
+        if scale is not None and self.scale is not None:
+            self.scale = self.scale.with_limits(*scale)
+        self._scale_fixed = scale is not None or (isinstance(color_by, str) and color_by in scales.DEFAULT_SCALES
+                                                  and color_by not in scales.FITTED)
         self.view.fit_ranges(energy, p0)
         self._fitted = self.view.ranges
         self.picture = StaticPicture(self._uid)

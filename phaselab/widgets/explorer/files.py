@@ -85,7 +85,8 @@ class SessionFiles:
         by = col.get("by")
         if by in scales.DEFAULT_SCALES:
             self.color_by = by
-            self.scale = scales.scale_for(by).with_limits(col.get("low"), col.get("anchor"), col.get("high"))
+            self.scale = self._make_scale(by).with_limits(col.get("low"), col.get("anchor"), col.get("high"))
+            self._scale_fixed = True  # the scale as it was saved
         elif by is None:
             self.color_by, self.scale = None, None
         self.figures.color_by_value(self.scale)

@@ -13,7 +13,9 @@ from phaselab.widgets.messages import number
 from phaselab.widgets.worker import Outcome
 
 #: Seconds of quiet after which the saved-notebook picture is redrawn.
-PICTURE_DELAY = 6.0
+PICTURE_DELAY = 2.5
+#: Seconds for which the end of a compilation stays in the status line.
+COMPILE_NOTE_SECONDS = 10.0
 #: Seconds of quiet after which the companion panels follow the selected orbit.
 TRACE_DELAY = 0.3
 
@@ -195,10 +197,20 @@ class Scheduling:
         self._submit("warm-up", "", compute, lambda out: None)
 
     def _schedule_picture(self):
-        """Redraw the picture kept for a notebook opened without a kernel (after a quiet spell)."""
+        """Redraw the picture kept for a notebook opened without a kernel once changes pause
+        for :data:`PICTURE_DELAY` seconds. Called after every change the page is sent (one
+        patch), every zoom or pan, and every display; a burst of changes draws once, from the
+        state at its end."""
         if self.picture.handle is None or not self.jobs.background:
             return
+        # the snapshot is taken on the widgets' thread when the quiet spell is over
+        self.idle_jobs.submit("picture", lambda: None, lambda out: self._draw_picture(), delay=PICTURE_DELAY)
+
+    def _draw_picture(self):
+        if self.picture.handle is None:
+            return
         snap = self.snapshot()
+        state = self._picture_state(snap)
         caption = f"{self.name}: picture of the explorer's last state (run the notebook for the live explorer)"
 
         def compute():
@@ -206,9 +218,17 @@ class Scheduling:
 
         def deliver(out: Outcome):
             if out.error is None:
-                self.picture.update(out.value, caption)
+                self.picture.update(out.value, caption, state)
 
-        self.idle_jobs.submit("picture", compute, deliver, delay=PICTURE_DELAY)
+        self.idle_jobs.submit("picture-draw", compute, deliver)
+
+    def _picture_state(self, snap):
+        """What the picture shows, in numbers a reader (or a test) can compare with the page:
+        the window, the orbits and marks shown, and what the colours mean."""
+        return {"ranges": [float(f"{v:.6g}") for r in snap.ranges for v in r], "orbits": len(snap.orbits),
+                "marks": len(snap.periodic),
+                "colour": "own" if self.color_by is None else (self.color_by if isinstance(self.color_by, str)
+                                                                else "custom")}
 
     def _store_part(self, rec, part):
         """Copy a computed orbit part (points, colour value, frequencies, note) into its record."""
@@ -242,10 +262,16 @@ class Scheduling:
         return lines
 
     def _show_status(self):
-        self.controls.say(self._message, self._refused, self._busy_lines())
+        text = self._message
+        note = self._compile_note[0]
+        if note:
+            text = f"{text} ({note})" if text else note[:1].upper() + note[1:] + "."
+        self.controls.say(text, self._refused, self._busy_lines())
 
     def _say(self, text, refused=False):
         self._message, self._refused = text, refused
+        if self._compile_note[0] and time.monotonic() - self._compile_note[1] > COMPILE_NOTE_SECONDS:
+            self._compile_note = ("", 0.0)
         self._show_status()
 
     def _report(self, out: Outcome, what="orbit"):
