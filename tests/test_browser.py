@@ -140,8 +140,7 @@ JS_HELPERS = """() => {
   window.__pl.summary = () => ({
     boundary: window.__pl.len('phaselab-boundary', 'xs'),
     shading: (() => { const s = window.__pl.src('phaselab-forbidden');
-                      return s ? Array.from(s.data.image[0].flat ? s.data.image[0].flat() : s.data.image[0])
-                                   .reduce((a, b) => a + (b > 0 ? 1 : 0), 0) : -1; })(),
+                      return s && s.data.xs.length ? s.data.xs[0].length : -1; })(),
     seeds: window.__pl.len('phaselab-seeds', 'x'),
     ring: window.__pl.len('phaselab-latest', 'x'),
     points: window.__pl.len('phaselab-points', 'x') + window.__pl.len('phaselab-newest', 'x'),
@@ -411,9 +410,9 @@ def test_explorer_in_jupyterlab(lab):
             page2.reload()
             page2.wait_for_selector(".phaselab-explorer", timeout=120_000)
             page2.evaluate(JS_HELPERS)
-            page2.wait_for_function("() => { if (!window.Bokeh) return false; const s = window.__pl.summary();"
-                                    " return s.boundary > 0 && s.seeds === 3 && s.ring === 1 && s.points >= 900; }",
-                                    timeout=60_000)
+            page2.wait_for_function("(n) => { if (!window.Bokeh) return false; const s = window.__pl.summary();"
+                                    " return s.boundary > 0 && s.seeds === n && s.ring === 1 && s.points >= 300 * n; }",
+                                    arg=live["orbits"], timeout=60_000)
             report.append(f"after reload with the kernel running: {page2.evaluate('() => window.__pl.summary()')}")
             page2.locator(".phaselab-explorer").first.screenshot(path=str(ARTIFACTS / "explorer-after-reload.png"))
 

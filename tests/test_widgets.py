@@ -641,6 +641,51 @@ def test_saved_picture_follows_every_change(hh):
     assert "data-state=" in text and "&quot;colour&quot;: &quot;own&quot;" in text
 
 
+def test_forbidden_shade_ends_on_the_boundary():
+    # our own isotropic oscillator: on x = 0 with px solved, the allowed region is the disk
+    # y^2 + py^2 <= 2E (H = (px^2 + py^2 + x^2 + y^2)/2), so the shade is the window minus
+    # a disk of radius sqrt(2E) (area of a circle, exact)
+    osc = phaselab.Hamiltonian("(px**2 + py**2 + x**2 + y**2)/2", ["x", "y"], ["px", "py"], name="oscillator")
+    E = 0.18
+    ex = phaselab.explore(osc, energy=E, plane=PLANE, ranges=((-1.0, 1.0), (-1.0, 1.0)), background=False)
+    polys = ex._frame.shade
+    assert len(polys) == 1 and len(polys[0]) == 2  # the window with one hole
+
+    def area(ring):
+        return 0.5 * float(np.sum(ring[:-1, 0] * ring[1:, 1] - ring[1:, 0] * ring[:-1, 1]))
+
+    covered = sum(area(r) for r in polys[0])
+    gx, gy = ex._frame.grid_x, ex._frame.grid_y
+    window = (gx[-1] - gx[0]) * (gy[-1] - gy[0])
+    assert covered == pytest.approx(window - np.pi * 2 * E, rel=2e-4)
+    hole = polys[0][1]
+    assert np.abs(np.hypot(hole[:, 0], hole[:, 1]) - np.sqrt(2 * E)).max() < 1e-4
+    # the page gets the same polygons, the static picture too
+    src = ex.figures.forbidden.data
+    assert len(src["xs"][0]) == 1 and len(src["xs"][0][0]) == 2
+    assert ex.snapshot().forbidden is polys
+    # menus write names as the axes do
+    assert ex.figures.main.yaxis.axis_label == "p_y"
+    assert [k for k, _ in ex.controls.plane.options] == ["x =", "y =", "p_x =", "p_y ="]
+    assert "p_x from H = E" in ex.view.describe()
+
+
+def test_a_click_shows_a_placeholder_at_once(hh):
+    ex = phaselab.explore(hh, energy=E0, crossings=50)
+    try:
+        ex.add_seed(0.1, 0.05)
+        # before any result: a placeholder where the click was, and the status says what runs
+        assert list(ex.figures.pending.data["x"]) == [0.1] and list(ex.figures.pending.data["y"]) == [0.05]
+        assert any("computing the orbit from (0.1, 0.05)" in b for b in ex.busy)
+        assert ex.wait(120)
+        assert list(ex.figures.pending.data["x"]) == [] and len(ex.orbits) == 1
+    finally:
+        ex.close()
+    m = phaselab.models.standard_map()
+    em = phaselab.explore(m, background=False)
+    assert em._stem.value == "standard_map-iterates"
+
+
 def test_compile_events_show_in_the_status(hh):
     from phaselab.codegen import progress
 

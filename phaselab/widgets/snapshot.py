@@ -15,6 +15,7 @@ import numpy as np
 
 from phaselab.base.atomic import atomic_path
 from phaselab.widgets import theme
+from phaselab.widgets.shading import polygon_path
 
 
 @dataclass
@@ -25,7 +26,7 @@ class Snapshot:
     ranges: tuple
     lines: list = field(default_factory=list)
     accents: list = field(default_factory=list)
-    forbidden: tuple | None = None          # (grid_x, grid_y, mask)
+    forbidden: list | None = None           # polygons, each [outer ring, holes...] of (m, 2)
     orbits: list = field(default_factory=list)   # (points (m, 2), colour, value)
     seeds: list = field(default_factory=list)    # (x, y, colour)
     stops: list = field(default_factory=list)    # (x, y)
@@ -39,7 +40,7 @@ class Snapshot:
 def view_figure(snap: Snapshot, size=(7.2, 5.4), dpi=150):
     """A matplotlib Figure of ``snap`` (not registered with pyplot)."""
     import matplotlib
-    from matplotlib.colors import LinearSegmentedColormap, ListedColormap
+    from matplotlib.colors import LinearSegmentedColormap
     from matplotlib.figure import Figure
 
     from phaselab.export.figures import REPORT_RC
@@ -54,11 +55,11 @@ def view_figure(snap: Snapshot, size=(7.2, 5.4), dpi=150):
                            (height - bottom - top) / height))
         ax.set_facecolor(theme.GROUND)
         (x0, x1), (y0, y1) = snap.ranges
-        if snap.forbidden is not None:
-            gx, gy, mask = snap.forbidden
-            ax.imshow(np.where(mask, 1.0, np.nan), origin="lower", extent=(gx[0], gx[-1], gy[0], gy[-1]),
-                      cmap=ListedColormap([theme.FORBIDDEN]), vmin=0, vmax=1, interpolation="nearest",
-                      aspect="auto", zorder=0)
+        path = polygon_path(snap.forbidden) if snap.forbidden else None
+        if path is not None:
+            from matplotlib.patches import PathPatch
+
+            ax.add_patch(PathPatch(path, facecolor=theme.FORBIDDEN, edgecolor="none", zorder=0))
         for c in snap.lines:
             ax.plot(c[:, 0], c[:, 1], color=theme.MUTED, linewidth=0.6, alpha=0.55, zorder=1)
         for c in snap.accents:

@@ -53,6 +53,8 @@ from phaselab.widgets.worker import JobRunner, current_loop
 __all__ = ["explore", "Explorer", "OrbitRecord", "load_bokehjs"]
 
 CHAOS_INDICATORS = scales.CHAOS_INDICATORS
+#: The second half of the default export name, per kind of view (the first is the system's name).
+STEM_WORDS = {"section": "section", "map": "iterates", "portrait": "portrait", "strobe": "stroboscopic"}
 #: How the status line writes a number (importable from here as before the split).
 number = messages.number
 
@@ -124,6 +126,9 @@ class Explorer(OrbitCommands, ViewCommands, Wiring, Scheduling, Drawing, Session
         self._compile_started: dict[str, float] = {}
         self._compile_note = ("", 0.0)  # the end of the last compilation shown, and when
         self._pending = 0
+        self._waiting: dict = {}  # request serial -> points (n, 2) whose orbits are on the way
+        self._busy_since: dict[str, float] = {}
+        self._ticking = False
         self._serial = 0
         self._frame = None
         self._last_tap = None
@@ -155,7 +160,7 @@ class Explorer(OrbitCommands, ViewCommands, Wiring, Scheduling, Drawing, Session
         self.bokeh.refresh(send=True)
 
         self._add_sliders(system, energy, energy_range, p0)
-        c.stem.value = f"{safe_stem(self.name)}-{self.view.kind}"
+        c.stem.value = f"{safe_stem(self.name)}-{STEM_WORDS.get(self.view.kind, self.view.kind)}"
         self._wire_controls(color_by, color_label)
 
         has_plane = self.view.kind == "section" and system.dof == 2

@@ -88,6 +88,11 @@ class Drawing:
         branches = [b for f in self.structures for b, lines in f.manifolds if lines] if manifolds else []
         self.controls.key.value = key_html(key_entries([f.orbit.stability for f in self.structures], branches))
 
+    def _show_waiting(self):
+        """Placeholders at the points whose orbits are on the way."""
+        pts = [p for batch in self._waiting.values() for p in batch]
+        self.figures.show_pending(pts if pts else [])
+
     def _show_count(self):
         """The orbit and point count under the plot."""
         shown = self.session.shown()

@@ -38,8 +38,12 @@ class OrbitCommands:
         view, energy, params, color = self.view, self.session.energy, self.params, self._color_spec()
         setting = self._setting_key()
         self._serial += 1
+        serial = self._serial
         self._pending += n
-        self._show_count()
+        self._waiting[serial] = pts
+        with self._held():
+            self._show_waiting()
+            self._show_count()
         t_asked = time.perf_counter()
         accepted = []
 
@@ -48,6 +52,8 @@ class OrbitCommands:
 
         def deliver(out: Outcome):
             self._pending -= n
+            self._waiting.pop(serial, None)
+            self._show_waiting()
             if out.error is not None:
                 self._report(out)
                 self._show_count()
@@ -95,7 +101,9 @@ class OrbitCommands:
                 self._update_trace()
                 self._schedule_picture()
 
-        self._submit(f"seeds-{self._serial}", f"computing {n} orbit{'s' if n != 1 else ''}", compute, deliver)
+        what = (f"computing the orbit from ({self._axis_number(pts[0, 0], 0)}, {self._axis_number(pts[0, 1], 1)})"
+                if n == 1 else f"computing {n} orbits")
+        self._submit(f"seeds-{serial}", what, compute, deliver)
         return accepted
 
     def move_seed(self, x, y):

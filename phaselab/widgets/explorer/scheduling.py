@@ -29,10 +29,13 @@ class Scheduling:
         changes of ``deliver`` reach the page as one message."""
         if busy:
             self._busy[key] = busy
+            self._busy_since.setdefault(key, time.monotonic())
             self._show_status()
+            self._tick()
 
         def held(out):
             self._busy.pop(key, None)
+            self._busy_since.pop(key, None)
             if out.error is not None:
                 self.last_error = out
             with self._held():
@@ -142,7 +145,7 @@ class Scheduling:
         rec = self.session.current
         f = self.figures
         if rec is None or rec.state is None:
-            f.panel1_source.data, f.panel2_source.data = dict(x=[], y=[]), dict(x=[], y=[])
+            f.show_panels(([], []), ([], []))
             return
         view, state, params = self.view, rec.state.copy(), self.params
         until = np.nan
@@ -164,8 +167,7 @@ class Scheduling:
                 return
             tr = out.value
             (x1, y1), (x2, y2) = tr.panel1, tr.panel2
-            f.panel1_source.data = dict(x=np.asarray(x1, float), y=np.asarray(y1, float))
-            f.panel2_source.data = dict(x=np.asarray(x2, float), y=np.asarray(y2, float))
+            f.show_panels((x1, y1), (x2, y2))
             f.panel1_line.glyph.line_color = now.color
             f.panel2_line.glyph.line_color = now.color
             now.nu = tr.nu or now.nu
@@ -255,11 +257,36 @@ class Scheduling:
         return (self.session.energy, tuple(sorted(self.session.params.items())))
 
     def _busy_lines(self):
+        """What is running, each with how long it has run (once that is a second or more)."""
+        now = time.monotonic()
+
+        def since(t0):
+            return f" ({now - t0:.0f} s)" if t0 is not None and now - t0 >= 1.0 else ""
+
         lines = []
         if self._compiling:
-            lines.append("compiling kernels for this system (first time only)")
-        lines += [t for t in self._busy.values() if t]
+            first = min((self._compile_started.get(w, now) for w in self._compiling), default=now)
+            lines.append("compiling kernels for this system (first time only)" + since(first))
+        lines += [t + since(self._busy_since.get(k)) for k, t in self._busy.items() if t]
         return lines
+
+    def _tick(self):
+        """Refresh the status line once a second while something runs (needs the kernel's
+        event loop; scripts see the status when they ask for it)."""
+        loop = self._loop
+        if self._ticking or loop is None or loop.is_closed() or not loop.is_running():
+            return
+        if not (self._busy or self._compiling):
+            return
+        self._ticking = True
+
+        def again():
+            self._ticking = False
+            if self._busy or self._compiling:
+                self._show_status()
+                self._tick()
+
+        loop.call_later(1.0, again)
 
     def _show_status(self):
         text = self._message

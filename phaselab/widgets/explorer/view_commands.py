@@ -149,9 +149,7 @@ class ViewCommands:
 
         shown = self.session.shown()
         frame = self._frame
-        forbidden = None
-        if frame is not None and frame.forbidden is not None:
-            forbidden = (frame.grid_x, frame.grid_y, frame.forbidden)
+        forbidden = frame.shade if frame is not None else None
         ring = self._ring_colors(shown)
         manifolds = {}
         for f in self.structures:

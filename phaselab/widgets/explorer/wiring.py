@@ -194,7 +194,10 @@ class Wiring:
             if event == "start":
                 self._compiling.append(what)
                 self._compile_started.setdefault(what, now)
-            elif what in self._compiling:
+                self._show_status()
+                self._tick()
+                return
+            if what in self._compiling:
                 self._compiling.remove(what)
                 started = self._compile_started.pop(what, None)
                 if started is not None and now - started >= 1.0:  # the end of a wait that was shown
@@ -232,14 +235,15 @@ class Wiring:
                 return
             names = self.view.names
             comp = next(iter(self.view.plane))
-            c.plane.options = [(f"{n} =", n) for n in names]
+            label = self.view.label_of  # menus write names as the axes do
+            c.plane.options = [(f"{label(n)} =", n) for n in names]
             c.plane.value = comp
             c.plane_value.value = float(self.view.plane[comp])
             rest = [n for n in names if n != comp]
             pairs = []
             for k in range(3):
                 pair = tuple(n for j, n in enumerate(rest) if j != k)
-                pairs.append((f"{pair[0]}, {pair[1]} ({rest[k]} solved)", pair))
+                pairs.append((f"{label(pair[0])}, {label(pair[1])} ({label(rest[k])} solved)", pair))
             c.axes.options = pairs
             c.axes.value = tuple(n for n in rest if n != self.view.solve_for)
             c.direction.value = self.view.sign
