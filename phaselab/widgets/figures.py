@@ -217,7 +217,7 @@ class Figures:
         bar.add_layout(self.color_bar, "left")
         # the title runs along the bar (it may be long: unit, sign, band)
         # (to the right of the bar and its numbers, reading upwards from the bar's foot)
-        self.bar_title = Label(x=78, y=34, x_units="screen", y_units="screen", angle=np.pi / 2, text="",
+        self.bar_title = Label(x=64, y=34, x_units="screen", y_units="screen", angle=np.pi / 2, text="",
                                text_font_size="10.5px", text_color=theme.INK, text_baseline="bottom",
                                name="phaselab-colorbar-title")
         bar.add_layout(self.bar_title)

@@ -273,7 +273,8 @@ def explore(system, energy=None, plane=None, solve_for=None, crossings=300, para
         Laskar's frequency analysis; a function of a one-orbit Section returning a number;
         or the name of a per-orbit field such as ``"energy_error"``), ``color_label`` and
         ``scale`` ((low, anchor, high) of the colour scale; indicators have fixed defaults,
-        MEGNO split at 2); ``background`` (False to compute in the calling thread);
+        MEGNO split at 2 by a band whose width follows from ``crossings``; frequencies and
+        custom values span the values found until a scale is given); ``background`` (False to compute in the calling thread);
         ``export_dir`` and ``export_formats`` (what Export writes, default PNG and CSV;
         any of .png .svg .pdf .csv .nc .html); ``duration`` (time traced per orbit of a
         phase portrait); ``method``, ``dt``; ``title``; ``session`` (a session JSON file

@@ -89,9 +89,20 @@ class Drawing:
         self.controls.key.value = key_html(key_entries([f.orbit.stability for f in self.structures], branches))
 
     def _show_waiting(self):
-        """Placeholders at the points whose orbits are on the way."""
-        pts = [p for batch in self._waiting.values() for p in batch]
-        self.figures.show_pending(pts if pts else [])
+        """Placeholders at the points whose orbits are on the way (sent only when they change)."""
+        pts = [(float(x), float(y)) for batch in self._waiting.values() for x, y in batch]
+        shown = list(zip(self.figures.pending.data["x"], self.figures.pending.data["y"]))
+        if pts != shown:
+            with self._held():
+                self.figures.show_pending(pts)
+
+    def _soon(self, delay, fn):
+        """Call ``fn()`` after ``delay`` seconds on the kernel's event loop; at once without one."""
+        loop = self._loop
+        if loop is not None and not loop.is_closed() and loop.is_running():
+            loop.call_later(delay, fn)
+        else:
+            fn()
 
     def _show_count(self):
         """The orbit and point count under the plot."""

@@ -12,6 +12,11 @@ from phaselab.widgets import computations, messages
 from phaselab.widgets.worker import Outcome
 
 
+#: Seconds after a click at which a placeholder marks the point if its orbit is not shown yet
+#: (a warm click is answered sooner and draws once).
+PLACEHOLDER_DELAY = 0.15
+
+
 class OrbitCommands:
     """The commands that add, move, remove, select and recompute orbits, change the energy or
     the parameters, and search periodic orbits (mixed into :class:`Explorer`)."""
@@ -41,9 +46,8 @@ class OrbitCommands:
         serial = self._serial
         self._pending += n
         self._waiting[serial] = pts
-        with self._held():
-            self._show_waiting()
-            self._show_count()
+        self._show_count()
+        self._soon(PLACEHOLDER_DELAY, self._show_waiting)
         t_asked = time.perf_counter()
         accepted = []
 
