@@ -573,9 +573,13 @@ def test_periodic_marks_apart_from_orbits_with_a_key(hh):
 
     # mark and manifold colours are far from every orbit colour and from each other (a
     # distance of 70 in 0-255 RGB units: a threshold of our own choosing)
+    from phaselab.widgets import scales
+
     used = [c for _, c in MARKERS.values()] + [c for c, _ in BRANCH_STYLE.values()]
+    # apart from the orbits' own colours and from the MEGNO scale's colours
+    shown = list(ORBIT_COLORS) + scales.megno_scale(300).palette(32)
     for c in used:
-        assert min(np.linalg.norm(rgb(c) - rgb(o)) for o in ORBIT_COLORS) > 70, c
+        assert min(np.linalg.norm(rgb(c) - rgb(o)) for o in shown) > 70, c
     for i, a in enumerate(used):
         for b in used[i + 1:]:
             assert np.linalg.norm(rgb(a) - rgb(b)) > 70, (a, b)

@@ -7,14 +7,14 @@ never reads as a mark.
 """
 
 MARKERS = {
-    "stable": ("o", "#111111"),
+    "stable": ("o", "#000000"),
     "unstable": ("X", "#e0144c"),
     "inverse-unstable": ("^", "#c71fd1"),
-    "parabolic": ("s", "#7d7d00"),
+    "parabolic": ("s", "#0099ff"),
 }
 """Marker shape and colour per stability."""
 
-BRANCH_STYLE = {"unstable": ("#f05a00", "-"), "stable": ("#2c2cc9", "--")}
+BRANCH_STYLE = {"unstable": ("#00a000", "-"), "stable": ("#2c2cc9", "--")}
 """Colour and line style of manifold branches."""
 
 KEY_WORDS = {

@@ -44,7 +44,7 @@ def view_figure(snap: Snapshot, size=(7.2, 5.4), dpi=150):
     from matplotlib.figure import Figure
 
     from phaselab.export.figures import REPORT_RC
-    from phaselab.export.marks import BRANCH_STYLE, KEY_WORDS, MARKERS
+    from phaselab.export.marks import BRANCH_STYLE, BRANCH_WORDS, KEY_WORDS, MARKERS
 
     width, height = size
     with matplotlib.rc_context(REPORT_RC):
@@ -77,23 +77,25 @@ def view_figure(snap: Snapshot, size=(7.2, 5.4), dpi=150):
                 art = ax.scatter(pts[:, 0], pts[:, 1], s=2.2, c=np.full(len(pts), value), cmap=cmap,
                                  vmin=snap.scale.low, vmax=snap.scale.high, linewidths=0, zorder=2,
                                  plotnonfinite=True)
+        branches, keyed = set(), set()
         for branch, lines in snap.manifolds.items():
             colour, style = BRANCH_STYLE.get(branch, ("#333333", "-"))
             for c in lines:
-                ax.plot(c[:, 0], c[:, 1], color=colour, linestyle=style, linewidth=0.9, zorder=3)
+                label = BRANCH_WORDS.get(branch, branch) if branch not in branches else None
+                branches.add(branch)
+                ax.plot(c[:, 0], c[:, 1], color=colour, linestyle=style, linewidth=0.9, zorder=3, label=label)
         if snap.stops:
             s = np.array(snap.stops)
             ax.scatter(s[:, 0], s[:, 1], marker="x", s=40, c=theme.REFUSED, linewidths=1.6, zorder=4)
         for x, y, colour in snap.seeds:
             ax.scatter([x], [y], s=36, facecolors="white", edgecolors=colour, linewidths=1.6, zorder=5)
-        keyed = set()
         for x, y, stability in snap.periodic:  # above the seed rings
             marker, colour = MARKERS.get(stability, ("D", "#333333"))
             label = KEY_WORDS.get(stability, stability) if stability not in keyed else None
             keyed.add(stability)
             ax.scatter([x], [y], marker=marker, s=60, c=colour, edgecolors="white", linewidths=0.6, zorder=6,
                        label=label)
-        if keyed:
+        if keyed or branches:
             ax.legend(loc="upper right", fontsize=7.5, frameon=True, framealpha=0.85, handletextpad=0.3,
                       borderaxespad=0.3)
         ax.set_xlim(x0, x1)
