@@ -39,6 +39,8 @@ class _ConsoleFilter(logging.Filter):
     def filter(self, record) -> bool:
         if os.environ.get("PHASELAB_QUIET", "") not in ("", "0"):
             return False
+        if logging.getLogger().handlers:
+            return False  # the application configured logging: it prints what it wants
         with _lock:
             return not _listeners
 

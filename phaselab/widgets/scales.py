@@ -57,6 +57,8 @@ class Scale:
     band : float
         Half-width of the band around ``anchor`` drawn in :data:`BAND` (values within it
         count as at the anchor); 0 for a plain split.
+    span : str
+        The integration time the band was set for, in words (e.g. "300 crossings").
     """
 
     low: float
@@ -65,6 +67,7 @@ class Scale:
     label: str
     log: bool = False
     band: float = 0.0
+    span: str = ""
 
     def with_limits(self, low=None, anchor=None, high=None) -> "Scale":
         """The same scale with new ends or anchor (checked: low < anchor < high)."""
@@ -82,7 +85,8 @@ class Scale:
         """The colour bar title: the label and, with a band, where the band lies."""
         if self.anchor is None or not self.band > 0:
             return self.label
-        return f"{self.label}; band {self.anchor - self.band:.3g} to {self.anchor + self.band:.3g}: torus"
+        lo, hi = self.anchor - self.band, self.anchor + self.band
+        return f"{self.label}; torus band {lo:.3g} to {hi:.3g}" + (f" for {self.span}" if self.span else "")
 
     def shown(self, value: float) -> float:
         """The number placed on the scale for an indicator value (log10 for SALI)."""
@@ -164,10 +168,11 @@ def megno_band(crossings) -> float:
     return float(min(1.0, max(0.01, 2.0 * SETTLE * math.log(n / SETTLE) / n)))
 
 
-def megno_scale(crossings, label=None) -> Scale:
-    """The MEGNO scale with its band for ``crossings`` crossings (see :func:`megno_band`)."""
+def megno_scale(crossings, label=None, noun="crossings") -> Scale:
+    """The MEGNO scale with its band for ``crossings`` crossings (see :func:`megno_band`);
+    ``noun`` names what is counted (crossings, iterates, periods, samples)."""
     s = DEFAULT_SCALES["megno"]
-    return replace(s, band=megno_band(crossings), label=label or s.label)
+    return replace(s, band=megno_band(crossings), label=label or s.label, span=f"{int(crossings)} {noun}")
 
 
 #: The unit of a frequency per kind of view (what one sample of the orbit is).

@@ -175,7 +175,7 @@ class ViewCommands:
         if color_by is None:
             return None
         if color_by == "megno":
-            return scales.megno_scale(self.crossings, label)
+            return scales.megno_scale(self.crossings, label, self.view.noun)
         scale = scales.scale_for(color_by, label)
         if color_by == "frequency" and not label:
             unit = scales.FREQUENCY_UNITS.get(self.view.kind, "cycles per sample")
