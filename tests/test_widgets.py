@@ -697,6 +697,13 @@ def test_a_click_shows_a_placeholder_at_once(hh):
     m = phaselab.models.standard_map()
     em = phaselab.explore(m, background=False)
     assert em._stem.value == "standard_map-iterates"
+    # a periodic search: its mark replaces the placeholder; the key names what the mark means
+    # (the fixed point (pi, 0) of the standard map is a centre for 0 < K < 4, Chirikov 1979)
+    em.find_periodic_orbit(3.1, 0.1, period=1)
+    assert list(em.figures.pending.data["x"]) == [] and len(em.structures) == 1
+    assert em.structures[0].orbit.stability == "stable" and "centre (stable)" in em.controls.key.value
+    # its residue is K/4 (Greene 1979, J. Math. Phys. 20, 1183)
+    assert em.structures[0].orbit.residue == pytest.approx(em.params["K"] / 4, rel=1e-8)
 
 
 def test_compile_events_show_in_the_status(hh):

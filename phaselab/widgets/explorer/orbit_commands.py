@@ -227,10 +227,19 @@ class OrbitCommands:
         view, energy, params = self.view, self.session.energy, self.params
         manifolds = bool(self.controls.manifolds.value)
 
+        # a newer search replaces one that has not started: only the newest keeps its mark
+        for old in [w for w in self._waiting if isinstance(w, tuple) and w[0] == "periodic"]:
+            del self._waiting[old]
+        key = ("periodic", self._next_serial())
+        self._waiting[key] = np.array([[float(x), float(y)]])
+        self._soon(PLACEHOLDER_DELAY, self._show_waiting)
+
         def compute():
             return computations.periodic(view, (x, y), k, energy, params, manifolds=manifolds)
 
         def deliver(out: Outcome):
+            self._waiting.pop(key, None)
+            self._show_waiting()
             if view is not self.view:
                 return
             if out.error is not None:
@@ -244,7 +253,8 @@ class OrbitCommands:
             self._say(messages.periodic(found, view.kind, view.ranges))
             self._schedule_picture()
 
-        self._submit("periodic", f"searching a period-{k} orbit", compute, deliver)
+        self._submit("periodic", f"searching a period-{k} orbit near ({self._axis_number(x, 0)}, "
+                     f"{self._axis_number(y, 1)})", compute, deliver)
 
     def clear_structures(self):
         self.structures = []
