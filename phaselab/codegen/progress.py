@@ -1,15 +1,22 @@
 """Saying that compilation is under way.
 
-Compiling is the one wait a new system cannot avoid, so it is announced: the console gets a
-line on standard error when a compilation takes longer than :data:`ANNOUNCE_AFTER` seconds
-(and one when it ends), and listeners (the notebook explorer registers one) are told when
-any compilation starts and ends, whatever its length. ``PHASELAB_QUIET=1`` silences the
-console lines.
+Compiling is the one wait a new system cannot avoid, so it is announced through
+:mod:`logging` (logger ``phaselab.compile``, level INFO): a record when a compilation takes
+longer than :data:`ANNOUNCE_AFTER` seconds and always one when it ends. Listeners (the
+notebook explorer registers one) are told when any compilation starts and ends, whatever
+its length, and show it in their status line.
+
+Where no listener is registered (a script, a console), the records are written to standard
+error by one handler of this module; while a listener is registered that handler stays
+silent, so a notebook shows compile news in the explorer's status line and never as stray
+error output under it. An application that configures logging itself gets every record
+through the usual propagation. ``PHASELAB_QUIET=1`` silences the console handler.
 """
 
 from __future__ import annotations
 
 import contextlib
+import logging
 import os
 import sys
 import threading
@@ -21,6 +28,40 @@ ANNOUNCE_AFTER = 1.0
 _listeners: list = []
 _lock = threading.Lock()
 _active: list[str] = []
+
+log = logging.getLogger("phaselab.compile")
+"""The logger of compile news."""
+
+
+class _ConsoleFilter(logging.Filter):
+    """Passes records only where nobody shows them otherwise (no listener) and not quiet."""
+
+    def filter(self, record) -> bool:
+        if os.environ.get("PHASELAB_QUIET", "") not in ("", "0"):
+            return False
+        if logging.getLogger().handlers:
+            return False  # the application configured logging: it prints what it wants
+        with _lock:
+            return not _listeners
+
+
+class _StderrHandler(logging.StreamHandler):
+    """Writes to the standard error of the moment (a test or a notebook may swap it)."""
+
+    @property
+    def stream(self):
+        return sys.stderr
+
+    @stream.setter
+    def stream(self, value):
+        pass
+
+
+console_handler = _StderrHandler()
+console_handler.setFormatter(logging.Formatter("phaselab: %(message)s"))
+console_handler.addFilter(_ConsoleFilter())
+log.addHandler(console_handler)
+log.setLevel(logging.INFO)
 
 
 def add_listener(callback) -> None:
@@ -52,9 +93,7 @@ def _notify(event: str, what: str) -> None:
 
 
 def _say(text: str) -> None:
-    if os.environ.get("PHASELAB_QUIET", "") not in ("", "0"):
-        return
-    print(f"phaselab: {text}", file=sys.stderr, flush=True)
+    log.info(text)
 
 
 @contextlib.contextmanager
@@ -64,11 +103,15 @@ def compiling(what: str):
         _active.append(what)
     _notify("start", what)
     t0 = time.perf_counter()
-    announced = threading.Event()
+    state = {"done": False, "announced": False}
+    guard = threading.Lock()
 
     def announce():
-        announced.set()
-        _say(f"compiling {what} (first time only) ...")
+        with guard:  # never a start line after the end line
+            if state["done"]:
+                return
+            state["announced"] = True
+            _say(f"compiling {what} (first time only) ...")
 
     timer = threading.Timer(ANNOUNCE_AFTER, announce)
     timer.daemon = True
@@ -77,9 +120,15 @@ def compiling(what: str):
         yield
     finally:
         timer.cancel()
+        with guard:
+            state["done"] = True
+            announced = state["announced"]
         with _lock:
             if what in _active:
                 _active.remove(what)
-        if announced.is_set():
-            _say(f"compiled {what} in {time.perf_counter() - t0:.1f} s")
+        seconds = time.perf_counter() - t0
+        if announced:  # an announced compilation always gets its end
+            _say(f"compiled {what} in {seconds:.1f} s")
+        else:
+            log.debug("compiled %s in %.1f s", what, seconds)
         _notify("end", what)

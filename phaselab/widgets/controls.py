@@ -116,10 +116,12 @@ class Controls:
         # colour
         self.color = W.Dropdown(options=[("own colours", "")], value="", description="colour",
                                 style={"description_width": "46px"}, layout=W.Layout(width="200px"))
-        ft = W.Layout(width="92px")
-        self.low = W.FloatText(description="low", style={"description_width": "28px"}, layout=ft)
-        self.anchor = W.FloatText(description="split", style={"description_width": "30px"}, layout=ft)
-        self.high = W.FloatText(description="high", style={"description_width": "30px"}, layout=ft)
+        # one layout each: hiding the split box must not hide the ends
+        self.low = W.FloatText(description="low", style={"description_width": "28px"}, layout=W.Layout(width="92px"))
+        self.anchor = W.FloatText(description="split", style={"description_width": "30px"},
+                                  layout=W.Layout(width="92px"))
+        self.high = W.FloatText(description="high", style={"description_width": "30px"},
+                                layout=W.Layout(width="92px"))
         self.scale_box = W.HBox([self.low, self.anchor, self.high])
         # structures
         self.click = W.Dropdown(options=[("starts an orbit", "orbit"), ("finds a periodic orbit", "periodic")],
@@ -131,6 +133,7 @@ class Controls:
                                     layout=W.Layout(width="210px"))
         self.clear_structures = W.Button(description="Remove marks", tooltip="Remove periodic orbits and manifolds",
                                          layout=bl)
+        self.key = W.HTML("")  # what the periodic-orbit marks and manifold lines mean
         # files
         self.stem = W.Text(value="section", placeholder="file name", layout=W.Layout(width="200px"))
         self.export = W.Button(description="Export", tooltip="Save the view as shown (figure) and the data", layout=bl)
@@ -172,6 +175,7 @@ class Controls:
         if has_structures:
             rows.append(line([_label("structures"), self.click, self.period, self.manifolds,
                                 self.clear_structures]))
+            rows.append(line([_label(""), self.key]))
         rows.append(line([_label("files"), self.stem, self.export, self.session_path, self.save, self.load]))
         rows.append(self.status)
         return rows

@@ -18,6 +18,7 @@ from __future__ import annotations
 import numpy as np
 
 from phaselab.widgets import theme
+from phaselab.widgets.shading import polygon_columns
 
 #: matplotlib marker codes of phaselab.export.structures.MARKERS -> bokeh marker names
 BOKEH_MARKERS = {"o": "circle", "X": "x", "^": "triangle", "s": "square", "D": "diamond"}
@@ -91,7 +92,7 @@ class Figures:
         from bokeh import events
         from bokeh.layouts import column, row
         from bokeh.models import (BasicTickFormatter, BoxZoomTool, ColorBar, ColumnDataSource, CustomJS,
-                                  HoverTool, LinearColorMapper, PanTool, PointDrawTool, ResetTool,
+                                  HoverTool, Label, LinearColorMapper, PanTool, PointDrawTool, ResetTool,
                                   WheelZoomTool)
         from bokeh.plotting import figure
 
@@ -99,11 +100,10 @@ class Figures:
         main = figure(frame_width=FRAME_W, frame_height=FRAME_H, x_range=(x0, x1), y_range=(y0, y1),
                       tools=[], output_backend="canvas", name="phaselab-main", min_border_right=12)
         _style(main, *labels)
-        self.forbidden = ColumnDataSource(dict(image=[np.zeros((2, 2), np.float32)], x=[x0], y=[y0],
-                                               dw=[x1 - x0], dh=[y1 - y0]), name="phaselab-forbidden")
-        shade = LinearColorMapper(palette=["rgba(0,0,0,0)", theme.FORBIDDEN], low=0.0, high=1.0)
-        main.image(image="image", x="x", y="y", dw="dw", dh="dh", source=self.forbidden,
-                   color_mapper=shade, level="underlay")
+        # the forbidden region: filled polygons ending exactly on the boundary curve
+        self.forbidden = ColumnDataSource(dict(xs=[], ys=[]), name="phaselab-forbidden")
+        main.multi_polygons("xs", "ys", source=self.forbidden, fill_color=theme.FORBIDDEN, line_color=None,
+                            level="underlay")
         self.lines = ColumnDataSource(dict(xs=[], ys=[]), name="phaselab-lines")
         main.multi_line("xs", "ys", source=self.lines, line_color=theme.MUTED, line_width=0.8, line_alpha=0.55)
         self.accents = ColumnDataSource(dict(xs=[], ys=[]), name="phaselab-boundary")
@@ -132,16 +132,21 @@ class Figures:
         main.multi_line("xs", "ys", source=self.unstable, line_color=BRANCH_STYLE["unstable"][0], line_width=1.1)
         main.multi_line("xs", "ys", source=self.stable, line_color=BRANCH_STYLE["stable"][0], line_width=1.1,
                         line_dash="dashed")
-        self.periodic = ColumnDataSource(dict(x=[], y=[], marker=[], color=[], what=[]), name="phaselab-periodic")
-        po_r = main.scatter("x", "y", source=self.periodic, marker="marker", size=12, fill_color="color",
-                            line_color="color", line_width=2.2, fill_alpha=0.85)
-        self.markers = MARKERS
         self.seeds = ColumnDataSource(dict(x=[], y=[], color=[], orbit=[]), name="phaselab-seeds")
         main.scatter("x", "y", source=self.seeds, size=8, marker="circle", fill_color="#ffffff",
                      line_color="color", line_width=2.0)
         self.latest = ColumnDataSource(dict(x=[], y=[]), name="phaselab-latest")
         latest = main.scatter("x", "y", source=self.latest, size=15, marker="circle", fill_color=None,
                               line_color=theme.INK, line_width=1.8)
+        # where a click asked for an orbit that is still being computed (drawn at once)
+        self.pending = ColumnDataSource(dict(x=[], y=[]), name="phaselab-pending")
+        main.scatter("x", "y", source=self.pending, size=13, marker="circle_dot", fill_color=None,
+                     line_color=theme.MUTED, line_width=1.6, line_dash="dotted")
+        # periodic orbits above the seed rings: a mark is never hidden under a ring
+        self.periodic = ColumnDataSource(dict(x=[], y=[], marker=[], color=[], what=[]), name="phaselab-periodic")
+        po_r = main.scatter("x", "y", source=self.periodic, marker="marker", size=12, fill_color="color",
+                            line_color="color", line_width=2.2, fill_alpha=0.85)
+        self.markers = MARKERS
         # the drag position, sent to the kernel while the pointer moves (the draw tool itself
         # reports only when the button is released)
         self.probe = ColumnDataSource(dict(x=[], y=[]), name="phaselab-probe")
@@ -200,27 +205,37 @@ class Figures:
             doc.__phaselab_ready = true;
             ready.data = {n: [Date.now()]};""")
 
-        bar = figure(width=96, height=FRAME_H + 60, toolbar_location=None, tools=[], min_border=0,
+        bar = figure(width=110, height=FRAME_H + 60, toolbar_location=None, tools=[], min_border=0,
                      outline_line_color=None, name="phaselab-colorbar", x_range=(0, 1), y_range=(0, 1))
         bar.axis.visible = False
         bar.grid.visible = False
         bar.background_fill_color = None
         bar.border_fill_color = None
-        self.color_bar = ColorBar(color_mapper=self.scalar_mapper, title="", width=12, title_text_font_size="11px",
-                                  major_label_text_font_size="10px", title_text_font_style="normal",
-                                  background_fill_alpha=0.0, location=(0, 0), padding=4)
+        self.color_bar = ColorBar(color_mapper=self.scalar_mapper, title="", width=12,
+                                  major_label_text_font_size="10px", background_fill_alpha=0.0,
+                                  location=(0, 0), padding=4)
         bar.add_layout(self.color_bar, "left")
+        # the title runs along the bar (it may be long: unit, sign, band)
+        # (to the right of the bar and its numbers, reading upwards from the bar's foot)
+        self.bar_title = Label(x=64, y=34, x_units="screen", y_units="screen", angle=np.pi / 2, text="",
+                               text_font_size="10.5px", text_color=theme.INK, text_baseline="bottom",
+                               name="phaselab-colorbar-title")
+        bar.add_layout(self.bar_title)
         bar.visible = False
         self.bar = bar
 
         pw = 300
         (t1, x1l, y1l), (t2, x2l, y2l) = panels
-        p1 = figure(width=pw, height=250, tools="pan,wheel_zoom,reset", title=t1, name="phaselab-panel1")
+        # fixed ranges set with the data: a range computed from an empty source would leave the
+        # page without a starting window (a console warning on every redraw)
+        p1 = figure(width=pw, height=250, tools="pan,wheel_zoom,reset", title=t1, name="phaselab-panel1",
+                    x_range=(0.0, 1.0), y_range=(0.0, 1.0))
         _style(p1, x1l, y1l)
         self.panel1_source = ColumnDataSource(dict(x=[], y=[]), name="phaselab-panel1-data")
         self.panel1_line = p1.line("x", "y", source=self.panel1_source, line_width=1.0,
                                    line_color=theme.ORBIT_COLORS[0], line_alpha=0.85)
-        p2 = figure(width=pw, height=216, tools="pan,wheel_zoom,reset", title=t2, name="phaselab-panel2")
+        p2 = figure(width=pw, height=216, tools="pan,wheel_zoom,reset", title=t2, name="phaselab-panel2",
+                    x_range=(0.0, 1.0), y_range=(0.0, 1.0))
         _style(p2, x2l, y2l)
         p2.yaxis.formatter = BasicTickFormatter(use_scientific=True, precision=1, power_limit_low=-2)
         self.panel2_source = ColumnDataSource(dict(x=[], y=[]), name="phaselab-panel2-data")
@@ -235,12 +250,22 @@ class Figures:
     def set_frame(self, frame):
         self.lines.data = dict(xs=[c[:, 0] for c in frame.lines], ys=[c[:, 1] for c in frame.lines])
         self.accents.data = dict(xs=[c[:, 0] for c in frame.accents], ys=[c[:, 1] for c in frame.accents])
-        if frame.forbidden is not None:
-            gx, gy = frame.grid_x, frame.grid_y
-            # the light shading is drawn from every other grid point (a quarter of the bytes
-            # to send and draw); the boundary curve keeps the full grid
-            image = frame.forbidden[::2, ::2].astype(np.float32)
-            self.forbidden.data = dict(image=[image], x=[gx[0]], y=[gy[0]], dw=[gx[-1] - gx[0]], dh=[gy[-1] - gy[0]])
+        self.forbidden.data = polygon_columns(frame.shade) if frame.shade else dict(xs=[], ys=[])
+
+    def show_panels(self, curve1, curve2):
+        """The companion panels' curves, ``(x, y)`` each, with windows fitted to them (5 %
+        margins); empty curves leave the windows where they are."""
+        for fig, src, (x, y) in ((self.panel1, self.panel1_source, curve1), (self.panel2, self.panel2_source, curve2)):
+            x, y = np.asarray(x, float), np.asarray(y, float)
+            src.data = dict(x=x, y=y)
+            for rng, v in ((fig.x_range, x), (fig.y_range, y)):
+                v = v[np.isfinite(v)]
+                if not v.size:
+                    continue
+                lo, hi = float(v.min()), float(v.max())
+                pad = 0.05 * (hi - lo) if hi > lo else max(0.05 * abs(lo), 1e-12)
+                rng.start, rng.end = lo - pad, hi + pad
+                rng.reset_start, rng.reset_end = lo - pad, hi + pad
 
     def set_axis_labels(self, labels):
         self.main.xaxis.axis_label, self.main.yaxis.axis_label = labels
@@ -260,7 +285,7 @@ class Figures:
         else:
             self.scalar_mapper.palette = scale.palette()
             self.scalar_mapper.low, self.scalar_mapper.high = scale.low, scale.high
-            self.color_bar.title = scale.label
+            self.bar_title.text = scale.title
             spec = {"field": "value", "transform": self.scalar_mapper}
             self.bar.visible = True
             self.color_bar_title.data = dict(t=[scale.label.split(" (")[0]])
@@ -297,6 +322,11 @@ class Figures:
                 self.latest.data = dict(x=[newest.seed[0]], y=[newest.seed[1]])
         else:
             self.latest.data = dict(x=[], y=[])
+
+    def show_pending(self, points):
+        """Placeholders where orbits were asked for and are still on the way, ``points`` (n, 2)."""
+        pts = np.asarray(points, float).reshape(-1, 2)
+        self.pending.data = dict(x=pts[:, 0].tolist(), y=pts[:, 1].tolist())
 
     def show_selected(self, rec):
         if rec is None or rec.state is None:

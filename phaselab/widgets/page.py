@@ -124,16 +124,19 @@ class StaticPicture:
         self.cls = f"pl-still-{uid}"
         self.handle = None
         self.png = b""
+        self.state: dict = {}
 
     @property
     def hide_rule(self) -> str:
         return _HIDE_RULE.format(cls=self.cls)
 
-    def _html(self, caption):
+    def _html(self, caption, state=None):
+        data = html.escape(json.dumps(state or {}), quote=True)
         if not self.png:
-            return f"<div class='{self.cls}'></div>"
-        data = base64.b64encode(self.png).decode("ascii")
-        return (f"<div class='{self.cls}'><img alt='explorer picture' src='data:image/png;base64,{data}'/>"
+            return f"<div class='{self.cls}' data-state='{data}'></div>"
+        png = base64.b64encode(self.png).decode("ascii")
+        return (f"<div class='{self.cls}' data-state='{data}'><img alt='explorer picture' "
+                f"src='data:image/png;base64,{png}'/>"
                 f"<div style='font-size:11px;color:#7b7f86'>{html.escape(caption)}</div></div>")
 
     def show(self, caption=""):
@@ -141,9 +144,12 @@ class StaticPicture:
 
         self.handle = display(HTML(self._html(caption)), display_id=True)
 
-    def update(self, png: bytes, caption=""):
+    def update(self, png: bytes, caption="", state=None):
+        """Replace the picture; ``state`` (a dict of numbers and words) is written beside it as
+        ``data-state`` so what it shows can be compared with the live page."""
         self.png = png
+        self.state = dict(state or {})
         if self.handle is not None:
             from IPython.display import HTML
 
-            self.handle.update(HTML(self._html(caption)))
+            self.handle.update(HTML(self._html(caption, state)))

@@ -15,6 +15,7 @@ import numpy as np
 
 from phaselab.base.atomic import atomic_path
 from phaselab.widgets import theme
+from phaselab.widgets.shading import polygon_path
 
 
 @dataclass
@@ -25,7 +26,7 @@ class Snapshot:
     ranges: tuple
     lines: list = field(default_factory=list)
     accents: list = field(default_factory=list)
-    forbidden: tuple | None = None          # (grid_x, grid_y, mask)
+    forbidden: list | None = None           # polygons, each [outer ring, holes...] of (m, 2)
     orbits: list = field(default_factory=list)   # (points (m, 2), colour, value)
     seeds: list = field(default_factory=list)    # (x, y, colour)
     stops: list = field(default_factory=list)    # (x, y)
@@ -39,11 +40,11 @@ class Snapshot:
 def view_figure(snap: Snapshot, size=(7.2, 5.4), dpi=150):
     """A matplotlib Figure of ``snap`` (not registered with pyplot)."""
     import matplotlib
-    from matplotlib.colors import LinearSegmentedColormap, ListedColormap
+    from matplotlib.colors import LinearSegmentedColormap
     from matplotlib.figure import Figure
 
     from phaselab.export.figures import REPORT_RC
-    from phaselab.export.structures import BRANCH_STYLE, MARKERS
+    from phaselab.export.marks import BRANCH_STYLE, BRANCH_WORDS, KEY_WORDS, MARKERS
 
     width, height = size
     with matplotlib.rc_context(REPORT_RC):
@@ -54,11 +55,11 @@ def view_figure(snap: Snapshot, size=(7.2, 5.4), dpi=150):
                            (height - bottom - top) / height))
         ax.set_facecolor(theme.GROUND)
         (x0, x1), (y0, y1) = snap.ranges
-        if snap.forbidden is not None:
-            gx, gy, mask = snap.forbidden
-            ax.imshow(np.where(mask, 1.0, np.nan), origin="lower", extent=(gx[0], gx[-1], gy[0], gy[-1]),
-                      cmap=ListedColormap([theme.FORBIDDEN]), vmin=0, vmax=1, interpolation="nearest",
-                      aspect="auto", zorder=0)
+        path = polygon_path(snap.forbidden) if snap.forbidden else None
+        if path is not None:
+            from matplotlib.patches import PathPatch
+
+            ax.add_patch(PathPatch(path, facecolor=theme.FORBIDDEN, edgecolor="none", zorder=0))
         for c in snap.lines:
             ax.plot(c[:, 0], c[:, 1], color=theme.MUTED, linewidth=0.6, alpha=0.55, zorder=1)
         for c in snap.accents:
@@ -76,18 +77,27 @@ def view_figure(snap: Snapshot, size=(7.2, 5.4), dpi=150):
                 art = ax.scatter(pts[:, 0], pts[:, 1], s=2.2, c=np.full(len(pts), value), cmap=cmap,
                                  vmin=snap.scale.low, vmax=snap.scale.high, linewidths=0, zorder=2,
                                  plotnonfinite=True)
+        branches, keyed = set(), set()
         for branch, lines in snap.manifolds.items():
             colour, style = BRANCH_STYLE.get(branch, ("#333333", "-"))
             for c in lines:
-                ax.plot(c[:, 0], c[:, 1], color=colour, linestyle=style, linewidth=0.9, zorder=3)
-        for x, y, stability in snap.periodic:
-            marker, colour = MARKERS.get(stability, ("D", "#333333"))
-            ax.scatter([x], [y], marker=marker, s=60, c=colour, edgecolors="white", linewidths=0.6, zorder=4)
+                label = BRANCH_WORDS.get(branch, branch) if branch not in branches else None
+                branches.add(branch)
+                ax.plot(c[:, 0], c[:, 1], color=colour, linestyle=style, linewidth=0.9, zorder=3, label=label)
         if snap.stops:
             s = np.array(snap.stops)
             ax.scatter(s[:, 0], s[:, 1], marker="x", s=40, c=theme.REFUSED, linewidths=1.6, zorder=4)
         for x, y, colour in snap.seeds:
             ax.scatter([x], [y], s=36, facecolors="white", edgecolors=colour, linewidths=1.6, zorder=5)
+        for x, y, stability in snap.periodic:  # above the seed rings
+            marker, colour = MARKERS.get(stability, ("D", "#333333"))
+            label = KEY_WORDS.get(stability, stability) if stability not in keyed else None
+            keyed.add(stability)
+            ax.scatter([x], [y], marker=marker, s=60, c=colour, edgecolors="white", linewidths=0.6, zorder=6,
+                       label=label)
+        if keyed or branches:
+            ax.legend(loc="upper right", fontsize=7.5, frameon=True, framealpha=0.85, handletextpad=0.3,
+                      borderaxespad=0.3)
         ax.set_xlim(x0, x1)
         ax.set_ylim(y0, y1)
         if snap.equal_aspect:
@@ -104,7 +114,7 @@ def view_figure(snap: Snapshot, size=(7.2, 5.4), dpi=150):
             cax = fig.add_axes(((width - right + 0.25) / width, bottom / height, 0.14 / width,
                                 (height - bottom - top) / height))
             bar = fig.colorbar(mappable, cax=cax)
-            bar.set_label(snap.scale.label, fontsize=8.5)
+            bar.set_label(snap.scale.title, fontsize=8.5)
             bar.ax.tick_params(labelsize=7.5)
             if snap.scale.anchor is not None:
                 bar.ax.axhline(snap.scale.anchor, color="black", linewidth=0.8)

@@ -10,7 +10,10 @@ documents) and screenshots in test-artifacts/:
 * 30 energy-slider steps leave the page responsive (longest browser task recorded);
 * Export after zooming writes the zoomed window;
 * a second tab running the notebook, and a reload of the saved notebook, show the complete
-  explorer; without a kernel the saved notebook shows a picture of the last state.
+  explorer; after colouring by MEGNO, going back to own colours, a zoom and one more orbit,
+  the saved notebook opened without a kernel shows a picture of that last state (the
+  window, the number of orbits and the colouring written beside the picture are compared
+  with the live page's).
 
 Skips when /usr/bin/chromium is absent. Numbers are written to test-artifacts/browser-timings.txt.
 """
@@ -137,8 +140,7 @@ JS_HELPERS = """() => {
   window.__pl.summary = () => ({
     boundary: window.__pl.len('phaselab-boundary', 'xs'),
     shading: (() => { const s = window.__pl.src('phaselab-forbidden');
-                      return s ? Array.from(s.data.image[0].flat ? s.data.image[0].flat() : s.data.image[0])
-                                   .reduce((a, b) => a + (b > 0 ? 1 : 0), 0) : -1; })(),
+                      return s && s.data.xs.length ? s.data.xs[0].length : -1; })(),
     seeds: window.__pl.len('phaselab-seeds', 'x'),
     ring: window.__pl.len('phaselab-latest', 'x'),
     points: window.__pl.len('phaselab-points', 'x') + window.__pl.len('phaselab-newest', 'x'),
@@ -184,6 +186,36 @@ def _kernel_text(page):
 
 def _status(page):
     return page.locator(".phaselab-explorer .pl-status").first.inner_text()
+
+
+def _colour_zoom_orbit(page, report):
+    """Colour by MEGNO, wait, back to own colours, zoom, one more orbit, wait: the state
+    (window, orbits, colouring) the saved picture must show."""
+    colour = page.locator(".phaselab-explorer select").filter(has_text="MEGNO").first
+    colour.select_option(label="MEGNO")
+    page.wait_for_function("() => /Recomputed/.test(document.querySelector('.phaselab-explorer .pl-status')"
+                           ".innerText)", timeout=120_000)
+    page.wait_for_timeout(4000)  # long enough for a picture of the MEGNO colours to be drawn
+    page.locator(".phaselab-explorer").first.screenshot(path=str(ARTIFACTS / "explorer-megno.png"))
+    colour.select_option(label="own colours")
+    cx, cy = page.evaluate("() => { const v = window.__pl.view(); const r = v.canvas_view.el.getBoundingClientRect();"
+                           " return [r.left + v.frame.bbox.hcenter, r.top + v.frame.bbox.vcenter]; }")
+    page.mouse.move(cx, cy)
+    for _ in range(2):
+        page.mouse.wheel(0, -240)
+        page.wait_for_timeout(150)
+    page.wait_for_timeout(600)
+    n0 = page.evaluate("() => window.__pl.len('phaselab-seeds', 'x')")
+    page.mouse.click(cx + 7, cy + 5)
+    page.wait_for_function(f"() => window.__pl.len('phaselab-seeds', 'x') > {n0}", timeout=60_000)
+    page.wait_for_timeout(7000)  # the picture is drawn after a quiet spell of 2.5 s
+    page.locator(".phaselab-explorer").first.screenshot(path=str(ARTIFACTS / "explorer-before-save.png"))
+    ranges = page.evaluate("() => { const v = window.__pl.view().model;"
+                           " return [v.x_range.start, v.x_range.end, v.y_range.start, v.y_range.end]; }")
+    live = {"ranges": ranges, "orbits": page.evaluate("() => window.__pl.len('phaselab-seeds', 'x')"),
+            "colour": "own"}
+    report.append(f"MEGNO, then own colours, a zoom and one more orbit: live page {live}")
+    return live
 
 
 def test_explorer_in_jupyterlab(lab):
@@ -371,15 +403,16 @@ def test_explorer_in_jupyterlab(lab):
                           f"finished: {summary2}")
             assert not [c for c in console2 if "Failed to create view" in c], console2
             page2.locator(".phaselab-explorer").first.screenshot(path=str(ARTIFACTS / "explorer-second-tab.png"))
-            page2.wait_for_timeout(9000)  # the saved-notebook picture is drawn after a quiet spell
+            live = _colour_zoom_orbit(page2, report)
+            page.close()  # the first tab holds an older copy of the notebook: it must not save over it
             page2.evaluate("() => window.jupyterapp.commands.execute('docmanager:save')")
             page2.wait_for_timeout(1500)
             page2.reload()
             page2.wait_for_selector(".phaselab-explorer", timeout=120_000)
             page2.evaluate(JS_HELPERS)
-            page2.wait_for_function("() => { if (!window.Bokeh) return false; const s = window.__pl.summary();"
-                                    " return s.boundary > 0 && s.seeds === 3 && s.ring === 1 && s.points >= 900; }",
-                                    timeout=60_000)
+            page2.wait_for_function("(n) => { if (!window.Bokeh) return false; const s = window.__pl.summary();"
+                                    " return s.boundary > 0 && s.seeds === n && s.ring === 1 && s.points >= 300 * n; }",
+                                    arg=live["orbits"], timeout=60_000)
             report.append(f"after reload with the kernel running: {page2.evaluate('() => window.__pl.summary()')}")
             page2.locator(".phaselab-explorer").first.screenshot(path=str(ARTIFACTS / "explorer-after-reload.png"))
 
@@ -388,12 +421,19 @@ def test_explorer_in_jupyterlab(lab):
             for k in json.loads(urllib.request.urlopen(req, timeout=10).read()):
                 urllib.request.urlopen(urllib.request.Request(
                     f"{lab['url']}/api/kernels/{k['id']}?token={lab['token']}", method="DELETE"), timeout=20)
-            page.close()
             page2.reload()
             page2.wait_for_selector("img[alt='explorer picture']", state="visible", timeout=60_000)
             page2.wait_for_timeout(500)
             page2.locator("img[alt='explorer picture']").first.screenshot(path=str(ARTIFACTS / "saved-without-kernel.png"))
-            report.append("saved notebook without kernel: picture of the last state shown")
+            # the picture in the saved file shows what the live page showed when it was saved
+            saved = json.loads(page2.evaluate("() => document.querySelector(\"img[alt='explorer picture']\")"
+                                              ".parentElement.getAttribute('data-state')"))
+            report.append(f"saved notebook without kernel: picture state {saved}; live page before saving {live}")
+            assert saved["colour"] == live["colour"] and saved["orbits"] == live["orbits"], (saved, live)
+            np.testing.assert_allclose(saved["ranges"], live["ranges"], rtol=1e-5, atol=1e-9)
+            errors = [c for c in console + console2 if c.startswith(("error", "pageerror"))]
+            report.append(f"browser console: {len(errors)} errors, "
+                          f"{sum('could not set initial ranges' in c for c in console + console2)} range warnings")
         finally:
             (ARTIFACTS / "browser-console.txt").write_text("\n".join(console))
             (ARTIFACTS / "browser-timings.txt").write_text("\n".join(report) + "\n")

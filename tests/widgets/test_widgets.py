@@ -299,15 +299,17 @@ def test_colour_by_chaos_indicator(hh):
         assert v == pytest.approx(float(ref.megno[0]), rel=1e-12)
     assert abs(vals[0] - 2.0) < 0.5
     assert vals[1] > 5.0
-    # the scale is fixed and split at MEGNO 2, not stretched to this run's values: the
-    # quasi-periodic orbit's ring is on the cool side, the chaotic one's on the warm side
+    # the scale is fixed and split at MEGNO 2 (with a band for 200 crossings), not stretched
+    # to this run's values: the quasi-periodic orbit's ring is not on the warm side, the
+    # chaotic one's is
     from phaselab.widgets import scales
 
     m = ex.figures.scalar_mapper
     assert (m.low, m.high) == (0.0, 8.0)
     rings = ex.figures.seeds.data["color"]
-    cool, warm = scales.Scale(0, 8, 2, "").palette()[:64], scales.Scale(0, 8, 2, "").palette()[64:]
-    assert (rings[0] in cool) == (vals[0] < 2.0) and rings[1] in warm
+    pal = ex.scale.palette()
+    k1 = int(round(256 * (2.0 + ex.scale.band) / 8.0))
+    assert rings[0] in pal[:k1] and rings[1] in pal[k1:]
     ex.set_scale(low=0.0, anchor=3.0, high=10.0)
     assert (m.low, m.high) == (0.0, 10.0) and len(m.palette) == 256
     assert np.isfinite(np.asarray(ex.figures.all_points()["value"])).all()
@@ -491,6 +493,217 @@ def test_first_display_holds_everything_and_busy_status(hh):
         assert not ex.bokeh.stale and state["render_bundle"].count('"phaselab-newest"') == 1
     finally:
         ex.close()
+
+
+def test_megno_band_follows_the_integration_time(hh):
+    from phaselab.widgets import scales
+
+    # the band half-width 2 tau ln(N / tau) / N with tau = 4 crossings: from the time
+    # average of MEGNO for a deviation growing like a + b t (derived here from the definition
+    # in Cincotta & Simo 2000, A&AS 147, 205); it narrows as the orbits get longer
+    assert scales.megno_band(300) == pytest.approx(8.0 * np.log(75.0) / 300.0, rel=1e-12)
+    widths = [scales.megno_band(n) for n in (100, 300, 1000, 3000)]
+    assert all(a > b for a, b in zip(widths, widths[1:]))
+    ex = phaselab.explore(hh, energy=E0, crossings=300, background=False, color_by="megno")
+    s = ex.scale
+    assert s.anchor == 2.0 and s.band == pytest.approx(scales.megno_band(300))
+    assert "torus band 1.88 to 2.12 for 300 crossings" in s.title and ex.figures.bar_title.text == s.title
+    # the issue's regular orbit (MEGNO 2.094 after 300 crossings) is drawn in the torus
+    # colour, a clearly chaotic value on the warm side, a value below the band on the cool side
+    band, warm, cool = s.colors([2.094, 3.0, 1.0])
+    k0, k1 = (int(round(256 * v / 8.0)) for v in (2.0 - s.band, 2.0 + s.band))
+    pal = s.palette()
+    assert band == scales.BAND and set(pal[k0:k1]) == {scales.BAND}
+    assert warm in pal[k1:] and cool in pal[:k0] and scales.BAND not in pal[:k0] + pal[k1:]
+    # every colour of the scale shows on the plot's ground (common practice: a contrast
+    # ratio of at least 3:1 for graphics, WCAG 2.1 section 1.4.11)
+    from phaselab.widgets import theme
+
+    assert min(_contrast(c, theme.GROUND) for c in s.palette()) >= 3.0
+
+
+def _luminance(hex_colour):
+    # relative luminance of an sRGB colour (WCAG 2.1 definition)
+    rgb = np.array([int(hex_colour[k:k + 2], 16) for k in (1, 3, 5)]) / 255.0
+    lin = np.where(rgb <= 0.04045, rgb / 12.92, ((rgb + 0.055) / 1.055) ** 2.4)
+    return float(lin @ [0.2126, 0.7152, 0.0722])
+
+
+def _contrast(a, b):
+    la, lb = sorted((_luminance(a), _luminance(b)), reverse=True)
+    return (la + 0.05) / (lb + 0.05)
+
+
+def test_frequency_colours_span_the_values_with_unit_and_sign(hh):
+    ex = phaselab.explore(hh, energy=E0, crossings=128, background=False, color_by="frequency")
+    ex.add_seeds([(0.0, 0.0), (-0.15, 0.1), (0.2, -0.1), (0.3, 0.0)])
+    vals = np.array([o.scalar for o in ex.orbits])
+    # the values are those of a direct phaselab.frequencies call on the same seeds
+    ref = phaselab.frequencies(hh, np.array([o.section.seeds[0] for o in ex.orbits]), n=128, plane=PLANE)
+    np.testing.assert_allclose(vals, ref.nu[:, 0], atol=1e-9)
+    s = ex.scale
+    assert s.low < vals.min() and vals.max() < s.high  # nothing clipped to an end colour
+    rings = ex.figures.seeds.data["color"]
+    assert len(set(rings)) == len(set(np.round(vals, 6)))
+    assert "cycles per crossing" in s.title and "clockwise" in s.title
+    assert (ex.figures.scalar_mapper.low, ex.figures.scalar_mapper.high) == (s.low, s.high)
+    # low and high boxes stay visible on a scale without a split; the split box is hidden
+    c = ex.controls
+    assert c.scale_box.layout.display == "" and c.low.layout.display != "none"
+    assert c.high.layout.display != "none" and c.anchor.layout.display == "none"
+    assert c.low.value == pytest.approx(s.low) and c.high.value == pytest.approx(s.high)
+    # a scale the user sets stays where it was put
+    ex.set_scale(low=-0.5, high=0.5)
+    ex.add_seed(0.1, 0.0)
+    assert (ex.scale.low, ex.scale.high) == (-0.5, 0.5)
+    ex.set_color("megno")
+    assert c.anchor.layout.display != "none" and c.low.layout.display != "none"
+    # the menu writes the methods' names as the literature does
+    words = dict((v, k) for k, v in c.color.options)
+    assert words["megno"] == "MEGNO" and words["fli"] == "FLI" and words["sali"] == "SALI"
+
+
+def test_periodic_marks_apart_from_orbits_with_a_key(hh):
+    from phaselab.export.figures import ORBIT_COLORS
+    from phaselab.export.marks import BRANCH_STYLE, MARKERS
+    from phaselab.widgets.marks_key import key_entries, key_html
+
+    def rgb(c):
+        return np.array([int(c[k:k + 2], 16) for k in (1, 3, 5)], float)
+
+    # mark and manifold colours are far from every orbit colour and from each other (a
+    # distance of 70 in 0-255 RGB units: a threshold of our own choosing)
+    from phaselab.widgets import scales
+
+    used = [c for _, c in MARKERS.values()] + [c for c, _ in BRANCH_STYLE.values()]
+    # apart from the orbits' own colours and from the MEGNO scale's colours
+    shown = list(ORBIT_COLORS) + scales.megno_scale(300).palette(32)
+    for c in used:
+        assert min(np.linalg.norm(rgb(c) - rgb(o)) for o in shown) > 70, c
+    for i, a in enumerate(used):
+        for b in used[i + 1:]:
+            assert np.linalg.norm(rgb(a) - rgb(b)) > 70, (a, b)
+    ex = phaselab.explore(hh, energy=E0, background=False)
+    names = [r.data_source.name for r in ex.figures.main.renderers]
+    assert names.index("phaselab-periodic") > names.index("phaselab-seeds")
+    assert names.index("phaselab-periodic") > names.index("phaselab-latest")
+    entries = key_entries(["unstable", "stable", "stable"], ["unstable"])
+    assert [w for _, _, w in entries] == ["centre (stable)", "saddle (unstable)", "unstable manifold"]
+    assert "saddle (unstable)" in key_html(entries) and key_html([]) == ""
+
+
+def test_compile_news_goes_through_logging(hh, capsys, caplog, monkeypatch):
+    import logging
+    import time
+
+    from phaselab.codegen import progress
+
+    # a script without an explorer (a fresh process, logging not configured): the console
+    # hears the start and always the end
+    code = ("import time; from phaselab.codegen import progress; progress.ANNOUNCE_AFTER = 0.01\n"
+            "with progress.compiling('a test loop'):\n    time.sleep(0.3)\n")
+    env = {k: v for k, v in __import__("os").environ.items() if k != "PHASELAB_QUIET"}
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=120, env=env)
+    assert out.returncode == 0, out.stderr
+    lines = out.stderr.strip().splitlines()
+    assert lines[0] == "phaselab: compiling a test loop (first time only) ..." and len(lines) == 2
+    assert lines[1].startswith("phaselab: compiled a test loop in ")
+    # the same with an explorer in the process: not a line on standard error (a notebook
+    # would show it as error output under the explorer)
+    code2 = ("import phaselab\nex = phaselab.explore(phaselab.models.henon_heiles(), energy=0.125, "
+             "background=False)\n" + code)
+    out = subprocess.run([sys.executable, "-c", code2], capture_output=True, text=True, timeout=300, env=env)
+    assert out.returncode == 0 and "phaselab:" not in out.stderr, out.stderr
+    # with an explorer: the records are logged, nothing reaches standard error, and the
+    # status line shows the end
+    monkeypatch.setattr(progress, "ANNOUNCE_AFTER", 0.01)
+    monkeypatch.delenv("PHASELAB_QUIET", raising=False)
+    ex = phaselab.explore(hh, energy=E0, background=False)
+    with caplog.at_level(logging.INFO, logger="phaselab.compile"):
+        with progress.compiling("another test loop"):
+            time.sleep(1.1)
+        ex.jobs.flush()
+    assert capsys.readouterr().err == ""
+    words = [r.getMessage() for r in caplog.records]
+    assert any(w.startswith("compiling another test loop") for w in words)
+    assert any(w.startswith("compiled another test loop in") for w in words)
+    assert "compiled another test loop in" in ex.controls.status.value
+    ex.close()
+
+
+def test_saved_picture_follows_every_change(hh):
+    from phaselab.widgets.page import StaticPicture
+
+    ex = phaselab.explore(hh, energy=E0, background=False)
+    calls = []
+    ex._schedule_picture = lambda: calls.append(1)
+    ex.add_seed(0.1, 0.0)
+    n = len(calls)
+    assert n >= 1
+    ex.set_color("megno")
+    ex.set_color(None)  # back to own colours: no recomputation, still a new picture
+    assert len(calls) > n + 1
+    n = len(calls)
+    ex.figures.main.x_range.start = -0.2  # a zoom from the page
+    assert len(calls) > n
+    state = ex._picture_state(ex.snapshot())
+    assert state["colour"] == "own" and state["orbits"] == 1 and state["ranges"][0] == -0.2
+    pic = StaticPicture("t")
+    pic.png = b"png"
+    text = pic._html("caption", state)
+    assert "data-state=" in text and "&quot;colour&quot;: &quot;own&quot;" in text
+
+
+def test_forbidden_shade_ends_on_the_boundary():
+    # our own isotropic oscillator: on x = 0 with px solved, the allowed region is the disk
+    # y^2 + py^2 <= 2E (H = (px^2 + py^2 + x^2 + y^2)/2), so the shade is the window minus
+    # a disk of radius sqrt(2E) (area of a circle, exact)
+    osc = phaselab.Hamiltonian("(px**2 + py**2 + x**2 + y**2)/2", ["x", "y"], ["px", "py"], name="oscillator")
+    E = 0.18
+    ex = phaselab.explore(osc, energy=E, plane=PLANE, ranges=((-1.0, 1.0), (-1.0, 1.0)), background=False)
+    polys = ex._frame.shade
+    assert len(polys) == 1 and len(polys[0]) == 2  # the window with one hole
+
+    def area(ring):
+        return 0.5 * float(np.sum(ring[:-1, 0] * ring[1:, 1] - ring[1:, 0] * ring[:-1, 1]))
+
+    covered = sum(area(r) for r in polys[0])
+    gx, gy = ex._frame.grid_x, ex._frame.grid_y
+    window = (gx[-1] - gx[0]) * (gy[-1] - gy[0])
+    assert covered == pytest.approx(window - np.pi * 2 * E, rel=2e-4)
+    hole = polys[0][1]
+    assert np.abs(np.hypot(hole[:, 0], hole[:, 1]) - np.sqrt(2 * E)).max() < 1e-4
+    # the page gets the same polygons, the static picture too
+    src = ex.figures.forbidden.data
+    assert len(src["xs"][0]) == 1 and len(src["xs"][0][0]) == 2
+    assert ex.snapshot().forbidden is polys
+    # menus write names as the axes do
+    assert ex.figures.main.yaxis.axis_label == "p_y"
+    assert [k for k, _ in ex.controls.plane.options] == ["x =", "y =", "p_x =", "p_y ="]
+    assert "p_x from H = E" in ex.view.describe()
+
+
+def test_a_click_shows_a_placeholder_at_once(hh):
+    ex = phaselab.explore(hh, energy=E0, crossings=50)
+    try:
+        ex.add_seed(0.1, 0.05)
+        # before any result: a placeholder where the click was, and the status says what runs
+        assert list(ex.figures.pending.data["x"]) == [0.1] and list(ex.figures.pending.data["y"]) == [0.05]
+        assert any("computing the orbit from (0.1, 0.05)" in b for b in ex.busy)
+        assert ex.wait(120)
+        assert list(ex.figures.pending.data["x"]) == [] and len(ex.orbits) == 1
+    finally:
+        ex.close()
+    m = phaselab.models.standard_map()
+    em = phaselab.explore(m, background=False)
+    assert em._stem.value == "standard_map-iterates"
+    # a periodic search: its mark replaces the placeholder; the key names what the mark means
+    # (the fixed point (pi, 0) of the standard map is a centre for 0 < K < 4, Chirikov 1979)
+    em.find_periodic_orbit(3.1, 0.1, period=1)
+    assert list(em.figures.pending.data["x"]) == [] and len(em.structures) == 1
+    assert em.structures[0].orbit.stability == "stable" and "centre (stable)" in em.controls.key.value
+    # its residue is K/4 (Greene 1979, J. Math. Phys. 20, 1183)
+    assert em.structures[0].orbit.residue == pytest.approx(em.params["K"] / 4, rel=1e-8)
 
 
 def test_compile_events_show_in_the_status(hh):

@@ -36,6 +36,7 @@ from pathlib import Path
 
 import ipywidgets as W
 
+from phaselab.codegen import progress
 from phaselab.engine import inputs
 from phaselab.errors import ParameterError
 from phaselab.model.params import finite_number
@@ -54,6 +55,8 @@ from phaselab.widgets.worker import JobRunner, current_loop
 __all__ = ["explore", "Explorer", "OrbitRecord", "load_bokehjs"]
 
 CHAOS_INDICATORS = scales.CHAOS_INDICATORS
+#: The second half of the default export name, per kind of view (the first is the system's name).
+STEM_WORDS = {"section": "section", "map": "iterates", "portrait": "portrait", "strobe": "stroboscopic"}
 #: How the status line writes a number (importable from here as before the split).
 number = messages.number
 
@@ -64,6 +67,10 @@ def load_bokehjs(force=True):
 
     load()
 
+
+
+def _building(event, what):
+    """The compile listener while an explorer is built: it only keeps the console quiet."""
 
 class Explorer(OrbitCommands, ViewCommands, Wiring, Scheduling, Drawing, SessionFiles, W.VBox):
     """The interactive explorer (see :func:`explore` for the parameters).
@@ -91,6 +98,19 @@ class Explorer(OrbitCommands, ViewCommands, Wiring, Scheduling, Drawing, Session
         from phaselab.widgets.figures import Figures
         from phaselab.widgets.page import LiveBokehModel, StaticPicture
 
+        # compile news while the explorer is being built stays off the console (a notebook
+        # would show it as error output); the status line takes over once it exists
+        progress.add_listener(_building)
+        try:
+            self._build(system, energy, plane, solve_for, crossings, params, ranges, sign, energy_range,
+                        color_by, color_label, background, export_dir, export_formats, duration, method,
+                        dt, title, scale, session, Figures, LiveBokehModel, StaticPicture)
+        finally:
+            progress.remove_listener(_building)
+
+    def _build(self, system, energy, plane, solve_for, crossings, params, ranges, sign, energy_range,
+               color_by, color_label, background, export_dir, export_formats, duration, method, dt,
+               title, scale, session, Figures, LiveBokehModel, StaticPicture):
         self.system = system
         self._view_options = dict(crossings=crossings, ranges=ranges, duration=duration, method=method, dt=dt)
         self.view = make_view(system, plane=plane, solve_for=solve_for, sign=sign, **self._view_options)
@@ -113,10 +133,6 @@ class Explorer(OrbitCommands, ViewCommands, Wiring, Scheduling, Drawing, Session
             raise ParameterError(f"export_formats must be some of {', '.join(EXPORT_FORMATS)}; got {export_formats!r}")
         self._check_color_by(color_by)
         self.color_by = color_by
-        self.scale = scales.scale_for(color_by, color_label) if color_by is not None else None
-        if scale is not None and self.scale is not None:
-            self.scale = self.scale.with_limits(*scale)
-        self._scale_fixed = scale is not None or (isinstance(color_by, str) and color_by in scales.DEFAULT_SCALES)
         self._color_label = color_label
         self.jobs = JobRunner(background)
         self.idle_jobs = JobRunner(background)
@@ -126,7 +142,12 @@ class Explorer(OrbitCommands, ViewCommands, Wiring, Scheduling, Drawing, Session
         self._message, self._refused = "", False
         self._busy: dict[str, str] = {}
         self._compiling: list[str] = []
+        self._compile_started: dict[str, float] = {}
+        self._compile_note = ("", 0.0)  # the end of the last compilation shown, and when
         self._pending = 0
+        self._waiting: dict = {}  # request serial -> points (n, 2) whose orbits are on the way
+        self._busy_since: dict[str, float] = {}
+        self._ticking = False
         self._serial = 0
         self._frame = None
         self._last_tap = None
@@ -137,6 +158,11 @@ class Explorer(OrbitCommands, ViewCommands, Wiring, Scheduling, Drawing, Session
         self._uid = secrets.token_hex(6)
         self.name = title or getattr(system, "name", "system")
 
+        self.scale = self._make_scale(color_by, color_label)
+        if scale is not None and self.scale is not None:
+            self.scale = self.scale.with_limits(*scale)
+        self._scale_fixed = scale is not None or (isinstance(color_by, str) and color_by in scales.DEFAULT_SCALES
+                                                  and color_by not in scales.FITTED)
         self.view.fit_ranges(energy, p0)
         self._fitted = self.view.ranges
         self.picture = StaticPicture(self._uid)
@@ -153,7 +179,7 @@ class Explorer(OrbitCommands, ViewCommands, Wiring, Scheduling, Drawing, Session
         self.bokeh.refresh(send=True)
 
         self._add_sliders(system, energy, energy_range, p0)
-        c.stem.value = f"{safe_stem(self.name)}-{self.view.kind}"
+        c.stem.value = f"{safe_stem(self.name)}-{STEM_WORDS.get(self.view.kind, self.view.kind)}"
         self._wire_controls(color_by, color_label)
 
         has_plane = self.view.kind == "section" and system.dof == 2
@@ -167,8 +193,6 @@ class Explorer(OrbitCommands, ViewCommands, Wiring, Scheduling, Drawing, Session
             self.figures.color_by_value(self.scale)
         self._say("Click the plot to start an orbit; drag the ringed seed to move it.")
         self._draw_all()
-        from phaselab.codegen import progress
-
         self._progress = progress
         progress.add_listener(self._on_compile_event)
         for what in progress.active():
@@ -266,7 +290,8 @@ def explore(system, energy=None, plane=None, solve_for=None, crossings=300, para
         Laskar's frequency analysis; a function of a one-orbit Section returning a number;
         or the name of a per-orbit field such as ``"energy_error"``), ``color_label`` and
         ``scale`` ((low, anchor, high) of the colour scale; indicators have fixed defaults,
-        MEGNO split at 2); ``background`` (False to compute in the calling thread);
+        MEGNO split at 2 by a band whose width follows from ``crossings``; frequencies and
+        custom values span the values found until a scale is given); ``background`` (False to compute in the calling thread);
         ``export_dir`` and ``export_formats`` (what Export writes, default PNG and CSV;
         any of .png .svg .pdf .csv .nc .html); ``duration`` (time traced per orbit of a
         phase portrait); ``method``, ``dt``; ``title``; ``session`` (a session JSON file

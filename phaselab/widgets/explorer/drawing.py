@@ -3,6 +3,8 @@ orbits and manifolds, the orbit count, all sent to the page as one patch per upd
 
 from __future__ import annotations
 
+from phaselab.widgets.marks_key import key_entries, key_html
+
 
 class Drawing:
     """Drawing the session into the figures, inside one held patch (mixed into
@@ -38,6 +40,7 @@ class Drawing:
                     yield
             finally:
                 self._hold_depth = 0
+            self._schedule_picture()  # the picture kept in the notebook follows every change
         return hold()
 
     def _ring_colors(self, shown):
@@ -47,6 +50,7 @@ class Drawing:
 
     def _draw_all(self):
         with self._held():
+            self._fit_scale()
             self.figures.show_orbits(self.session.orbits)
             self._draw_seeds()
             self._draw_selected()
@@ -55,6 +59,7 @@ class Drawing:
 
     def _draw_added(self, previous, records):
         with self._held():
+            self._fit_scale()
             self.figures.show_added(previous, records)
             self._draw_seeds()
             self._draw_selected()
@@ -62,6 +67,7 @@ class Drawing:
 
     def _draw_newest(self):
         with self._held():
+            self._fit_scale()
             self.figures.show_orbits(self.session.orbits[-1:], newest_only=True)
             self._draw_seeds(keep_latest=True)
             self._draw_selected()
@@ -76,8 +82,27 @@ class Drawing:
         self.figures.show_selected(rec)
 
     def _draw_structures(self):
+        manifolds = bool(self.controls.manifolds.value)
         with self._held():
-            self.figures.show_structures(self.structures, bool(self.controls.manifolds.value))
+            self.figures.show_structures(self.structures, manifolds)
+        branches = [b for f in self.structures for b, lines in f.manifolds if lines] if manifolds else []
+        self.controls.key.value = key_html(key_entries([f.orbit.stability for f in self.structures], branches))
+
+    def _show_waiting(self):
+        """Placeholders at the points whose orbits are on the way (sent only when they change)."""
+        pts = [(float(x), float(y)) for batch in self._waiting.values() for x, y in batch]
+        shown = list(zip(self.figures.pending.data["x"], self.figures.pending.data["y"]))
+        if pts != shown:
+            with self._held():
+                self.figures.show_pending(pts)
+
+    def _soon(self, delay, fn):
+        """Call ``fn()`` after ``delay`` seconds on the kernel's event loop; at once without one."""
+        loop = self._loop
+        if loop is not None and not loop.is_closed() and loop.is_running():
+            loop.call_later(delay, fn)
+        else:
+            fn()
 
     def _show_count(self):
         """The orbit and point count under the plot."""

@@ -80,6 +80,7 @@ class SessionFiles:
         self._sync_sliders()
         if color is not None:
             self.color_by, self.scale = color
+            self._scale_fixed = self.scale is not None  # the scale as it was saved
         self.figures.color_by_value(self.scale)
         self._show_scale()
         rng = v["ranges"]
@@ -120,7 +121,7 @@ class SessionFiles:
         if by not in scales.DEFAULT_SCALES:
             return None
         try:
-            return by, scales.scale_for(by).with_limits(col["low"], col["anchor"], col["high"])
+            return by, self._make_scale(by).with_limits(col["low"], col["anchor"], col["high"])
         except ParameterError as exc:
             raise ParameterError(f"{path}: color: {exc}") from None
 

@@ -12,6 +12,11 @@ from phaselab.widgets import computations, messages
 from phaselab.widgets.worker import Outcome
 
 
+#: Seconds after a click at which a placeholder marks the point if its orbit is not shown yet
+#: (a warm click is answered sooner and draws once).
+PLACEHOLDER_DELAY = 0.15
+
+
 class OrbitCommands:
     """The commands that add, move, remove, select and recompute orbits, change the energy or
     the parameters, and search periodic orbits (mixed into :class:`Explorer`)."""
@@ -38,8 +43,11 @@ class OrbitCommands:
         view, energy, params, color = self.view, self.session.energy, self.params, self._color_spec()
         setting = self._setting_key()
         self._serial += 1
+        serial = self._serial
         self._pending += n
+        self._waiting[serial] = pts
         self._show_count()
+        self._soon(PLACEHOLDER_DELAY, self._show_waiting)
         t_asked = time.perf_counter()
         accepted = []
 
@@ -48,6 +56,8 @@ class OrbitCommands:
 
         def deliver(out: Outcome):
             self._pending -= n
+            self._waiting.pop(serial, None)
+            self._show_waiting()
             if out.error is not None:
                 self._report(out)
                 self._show_count()
@@ -95,7 +105,9 @@ class OrbitCommands:
                 self._update_trace()
                 self._schedule_picture()
 
-        self._submit(f"seeds-{self._serial}", f"computing {n} orbit{'s' if n != 1 else ''}", compute, deliver)
+        what = (f"computing the orbit from ({self._axis_number(pts[0, 0], 0)}, {self._axis_number(pts[0, 1], 1)})"
+                if n == 1 else f"computing {n} orbits")
+        self._submit(f"seeds-{serial}", what, compute, deliver)
         return accepted
 
     def move_seed(self, x, y):
@@ -215,10 +227,19 @@ class OrbitCommands:
         view, energy, params = self.view, self.session.energy, self.params
         manifolds = bool(self.controls.manifolds.value)
 
+        # a newer search replaces one that has not started: only the newest keeps its mark
+        for old in [w for w in self._waiting if isinstance(w, tuple) and w[0] == "periodic"]:
+            del self._waiting[old]
+        key = ("periodic", self._next_serial())
+        self._waiting[key] = np.array([[float(x), float(y)]])
+        self._soon(PLACEHOLDER_DELAY, self._show_waiting)
+
         def compute():
             return computations.periodic(view, (x, y), k, energy, params, manifolds=manifolds)
 
         def deliver(out: Outcome):
+            self._waiting.pop(key, None)
+            self._show_waiting()
             if view is not self.view:
                 return
             if out.error is not None:
@@ -232,7 +253,8 @@ class OrbitCommands:
             self._say(messages.periodic(found, view.kind, view.ranges))
             self._schedule_picture()
 
-        self._submit("periodic", f"searching a period-{k} orbit", compute, deliver)
+        self._submit("periodic", f"searching a period-{k} orbit near ({self._axis_number(x, 0)}, "
+                     f"{self._axis_number(y, 1)})", compute, deliver)
 
     def clear_structures(self):
         self.structures = []

@@ -13,7 +13,9 @@ from phaselab.widgets.messages import number
 from phaselab.widgets.worker import Outcome
 
 #: Seconds of quiet after which the saved-notebook picture is redrawn.
-PICTURE_DELAY = 6.0
+PICTURE_DELAY = 2.5
+#: Seconds for which the end of a compilation stays in the status line.
+COMPILE_NOTE_SECONDS = 10.0
 #: Seconds of quiet after which the companion panels follow the selected orbit.
 TRACE_DELAY = 0.3
 
@@ -27,10 +29,13 @@ class Scheduling:
         changes of ``deliver`` reach the page as one message."""
         if busy:
             self._busy[key] = busy
+            self._busy_since.setdefault(key, time.monotonic())
             self._show_status()
+            self._tick()
 
         def held(out):
             self._busy.pop(key, None)
+            self._busy_since.pop(key, None)
             if out.error is not None:
                 self.last_error = out
             with self._held():
@@ -140,7 +145,7 @@ class Scheduling:
         rec = self.session.current
         f = self.figures
         if rec is None or rec.state is None:
-            f.panel1_source.data, f.panel2_source.data = dict(x=[], y=[]), dict(x=[], y=[])
+            f.show_panels(([], []), ([], []))
             return
         view, state, params = self.view, rec.state.copy(), self.params
         until = np.nan
@@ -162,8 +167,7 @@ class Scheduling:
                 return
             tr = out.value
             (x1, y1), (x2, y2) = tr.panel1, tr.panel2
-            f.panel1_source.data = dict(x=np.asarray(x1, float), y=np.asarray(y1, float))
-            f.panel2_source.data = dict(x=np.asarray(x2, float), y=np.asarray(y2, float))
+            f.show_panels((x1, y1), (x2, y2))
             f.panel1_line.glyph.line_color = now.color
             f.panel2_line.glyph.line_color = now.color
             now.nu = tr.nu or now.nu
@@ -195,10 +199,20 @@ class Scheduling:
         self._submit("warm-up", "", compute, lambda out: None)
 
     def _schedule_picture(self):
-        """Redraw the picture kept for a notebook opened without a kernel (after a quiet spell)."""
+        """Redraw the picture kept for a notebook opened without a kernel once changes pause
+        for :data:`PICTURE_DELAY` seconds. Called after every change the page is sent (one
+        patch), every zoom or pan, and every display; a burst of changes draws once, from the
+        state at its end."""
         if self.picture.handle is None or not self.jobs.background:
             return
+        # the snapshot is taken on the widgets' thread when the quiet spell is over
+        self.idle_jobs.submit("picture", lambda: None, lambda out: self._draw_picture(), delay=PICTURE_DELAY)
+
+    def _draw_picture(self):
+        if self.picture.handle is None:
+            return
         snap = self.snapshot()
+        state = self._picture_state(snap)
         caption = f"{self.name}: picture of the explorer's last state (run the notebook for the live explorer)"
 
         def compute():
@@ -206,9 +220,17 @@ class Scheduling:
 
         def deliver(out: Outcome):
             if out.error is None:
-                self.picture.update(out.value, caption)
+                self.picture.update(out.value, caption, state)
 
-        self.idle_jobs.submit("picture", compute, deliver, delay=PICTURE_DELAY)
+        self.idle_jobs.submit("picture-draw", compute, deliver)
+
+    def _picture_state(self, snap):
+        """What the picture shows, in numbers a reader (or a test) can compare with the page:
+        the window, the orbits and marks shown, and what the colours mean."""
+        return {"ranges": [float(f"{v:.6g}") for r in snap.ranges for v in r], "orbits": len(snap.orbits),
+                "marks": len(snap.periodic),
+                "colour": "own" if self.color_by is None else (self.color_by if isinstance(self.color_by, str)
+                                                                else "custom")}
 
     def _store_part(self, rec, part):
         """Copy a computed orbit part (points, colour value, frequencies, note) into its record."""
@@ -235,17 +257,48 @@ class Scheduling:
         return (self.session.energy, tuple(sorted(self.session.params.items())))
 
     def _busy_lines(self):
+        """What is running, each with how long it has run (once that is a second or more)."""
+        now = time.monotonic()
+
+        def since(t0):
+            return f" ({now - t0:.0f} s)" if t0 is not None and now - t0 >= 1.0 else ""
+
         lines = []
         if self._compiling:
-            lines.append("compiling kernels for this system (first time only)")
-        lines += [t for t in self._busy.values() if t]
+            first = min((self._compile_started.get(w, now) for w in self._compiling), default=now)
+            lines.append("compiling kernels for this system (first time only)" + since(first))
+        lines += [t + since(self._busy_since.get(k)) for k, t in self._busy.items() if t]
         return lines
 
+    def _tick(self):
+        """Refresh the status line once a second while something runs (needs the kernel's
+        event loop; scripts see the status when they ask for it)."""
+        loop = self._loop
+        if self._ticking or loop is None or loop.is_closed() or not loop.is_running():
+            return
+        if not (self._busy or self._compiling):
+            return
+        self._ticking = True
+
+        def again():
+            self._ticking = False
+            if self._busy or self._compiling:
+                self._show_status()
+                self._tick()
+
+        loop.call_later(1.0, again)
+
     def _show_status(self):
-        self.controls.say(self._message, self._refused, self._busy_lines())
+        text = self._message
+        note = self._compile_note[0]
+        if note:
+            text = f"{text} ({note})" if text else note[:1].upper() + note[1:] + "."
+        self.controls.say(text, self._refused, self._busy_lines())
 
     def _say(self, text, refused=False):
         self._message, self._refused = text, refused
+        if self._compile_note[0] and time.monotonic() - self._compile_note[1] > COMPILE_NOTE_SECONDS:
+            self._compile_note = ("", 0.0)
         self._show_status()
 
     def _report(self, out: Outcome, what="orbit"):

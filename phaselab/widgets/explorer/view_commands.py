@@ -3,6 +3,8 @@ plane, aspect, and the shown orbits as a Section or a Snapshot."""
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 import numpy as np
 
 from phaselab.errors import ParameterError, PhaselabError
@@ -20,8 +22,9 @@ class ViewCommands:
         their own colours) on a fixed scale; the values are computed in the worker."""
         self._check_color_by(color_by)
         self.color_by = color_by
-        self.scale = scales.scale_for(color_by) if color_by is not None else None
-        self._scale_fixed = isinstance(color_by, str) and color_by in scales.DEFAULT_SCALES
+        self.scale = self._make_scale(color_by)
+        self._scale_fixed = isinstance(color_by, str) and color_by in scales.DEFAULT_SCALES \
+            and color_by not in scales.FITTED
         if self.scale is not None and any(v is not None for v in (low, anchor, high)):
             self.scale = self.scale.with_limits(low, anchor, high)
             self._scale_fixed = True
@@ -146,9 +149,7 @@ class ViewCommands:
 
         shown = self.session.shown()
         frame = self._frame
-        forbidden = None
-        if frame is not None and frame.forbidden is not None:
-            forbidden = (frame.grid_x, frame.grid_y, frame.forbidden)
+        forbidden = frame.shade if frame is not None else None
         ring = self._ring_colors(shown)
         manifolds = {}
         for f in self.structures:
@@ -167,6 +168,31 @@ class ViewCommands:
             manifolds=manifolds, scale=self.scale,
             footer=f"{len(shown)} orbits. Model results: confirm with validated tools before they inform a design.",
             equal_aspect=getattr(self, "_equal", False))
+
+    def _make_scale(self, color_by, label=None):
+        """The starting scale for ``color_by`` in this view: MEGNO with its band for the
+        explorer's crossings, frequencies with their unit and sign in the title."""
+        if color_by is None:
+            return None
+        if color_by == "megno":
+            return scales.megno_scale(self.crossings, label, self.view.noun)
+        scale = scales.scale_for(color_by, label)
+        if color_by == "frequency" and not label:
+            unit = scales.FREQUENCY_UNITS.get(self.view.kind, "cycles per sample")
+            n = len(self.view.names) // 2
+            scale = replace(scale, label=scales.frequency_label(self.view.label(0), self.view.label(n), unit))
+        return scale
+
+    def _fit_scale(self):
+        """Stretch a scale that follows the data (frequencies, custom values) over the values
+        of the shown orbits, unless the user has set its ends."""
+        if self.scale is None or self._scale_fixed:
+            return
+        fitted = scales.fit_to_values(self.scale, [o.scalar for o in self.session.shown()])
+        if fitted != self.scale:
+            self.scale = fitted
+            self.figures.color_by_value(fitted)
+            self._show_scale()
 
     def _color_spec(self):
         return self.color_by

@@ -7,7 +7,7 @@ import time
 
 from phaselab.errors import ParameterError
 from phaselab.model.params import finite_number
-from phaselab.widgets import computations
+from phaselab.widgets import computations, scales
 from phaselab.widgets.controls import slider_range
 from phaselab.widgets.worker import Outcome
 
@@ -27,6 +27,10 @@ class Wiring:
         self.figures.main.on_event(DoubleTap, self._on_double_tap)
         self.figures.probe.on_change("data", self._on_drag)
         self.figures.latest.on_change("data", self._on_drag)
+        # a zoom or a pan changes what the picture kept in the notebook must show
+        for rng in (self.figures.main.x_range, self.figures.main.y_range):
+            for end in ("start", "end"):
+                rng.on_change(end, lambda attr, old, new: self._schedule_picture())
 
     def _add_sliders(self, system, energy, energy_range, p0):
         """The energy slider (when the view has an energy) and one slider per parameter."""
@@ -61,8 +65,7 @@ class Wiring:
         c.plane_value.observe(self._on_plane_control, "value")
         c.axes.observe(self._on_plane_control, "value")
         c.direction.observe(self._on_plane_control, "value")
-        options = [("own colours", "")] + [(n, n) for n in ("megno", "lyapunov", "fli", "sali", "frequency",
-                                                            "diffusion")]
+        options = [("own colours", "")] + [(scales.MENU_WORDS[n], n) for n in scales.MENU_WORDS]
         if color_by is not None and not (isinstance(color_by, str) and color_by in dict(options).values()):
             options.append((color_label or (color_by if isinstance(color_by, str) else "custom value"), "custom"))
         c.color.options = options
@@ -185,11 +188,20 @@ class Wiring:
 
     def _on_compile_event(self, event, what):
         # called from any thread: hand it to the widgets' thread
+        now = time.monotonic()
+
         def apply():
             if event == "start":
                 self._compiling.append(what)
-            elif what in self._compiling:
+                self._compile_started.setdefault(what, now)
+                self._show_status()
+                self._tick()
+                return
+            if what in self._compiling:
                 self._compiling.remove(what)
+                started = self._compile_started.pop(what, None)
+                if started is not None and now - started >= 1.0:  # the end of a wait that was shown
+                    self._compile_note = (f"compiled {what} in {now - started:.1f} s (first time only)", now)
             self._show_status()
 
         self.jobs.call_soon(apply, self._loop)
@@ -223,14 +235,15 @@ class Wiring:
                 return
             names = self.view.names
             comp = next(iter(self.view.plane))
-            c.plane.options = [(f"{n} =", n) for n in names]
+            label = self.view.label_of  # menus write names as the axes do
+            c.plane.options = [(f"{label(n)} =", n) for n in names]
             c.plane.value = comp
             c.plane_value.value = float(self.view.plane[comp])
             rest = [n for n in names if n != comp]
             pairs = []
             for k in range(3):
                 pair = tuple(n for j, n in enumerate(rest) if j != k)
-                pairs.append((f"{pair[0]}, {pair[1]} ({rest[k]} solved)", pair))
+                pairs.append((f"{label(pair[0])}, {label(pair[1])} ({label(rest[k])} solved)", pair))
             c.axes.options = pairs
             c.axes.value = tuple(n for n in rest if n != self.view.solve_for)
             c.direction.value = self.view.sign

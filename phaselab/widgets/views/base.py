@@ -30,6 +30,9 @@ class Frame:
     forbidden : ndarray of bool, shape (ny, nx), or None
         Grid points outside the allowed region (for a light fill), on ``grid_x, grid_y``.
     grid_x, grid_y : ndarray
+    shade : list or None
+        The forbidden region as filled polygons ending exactly on the boundary curve (see
+        :func:`phaselab.widgets.shading.forbidden_polygons`).
     empty : bool
         No point of the shown window is allowed at this energy.
     """
@@ -39,6 +42,7 @@ class Frame:
     forbidden: np.ndarray | None = None
     grid_x: np.ndarray | None = None
     grid_y: np.ndarray | None = None
+    shade: list | None = None
     empty: bool = False
 
 
@@ -139,6 +143,10 @@ class BaseView:
 
         sym = self.system.state_symbols[k]
         return with_unit(plain_label(sym), unit_of(self.system, sym))
+
+    def label_of(self, name) -> str:
+        """The label of the state component called ``name`` (as axes and readouts write it)."""
+        return self.label(self.names.index(name))
 
     @property
     def axis_labels(self):

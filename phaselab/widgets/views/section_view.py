@@ -9,6 +9,7 @@ import numpy as np
 
 from phaselab.errors import ModelError, ParameterError, PhaselabError
 from phaselab.widgets.views.base import GRID, BaseView, Frame, Seeding
+from phaselab.widgets.shading import forbidden_polygons
 
 
 class SectionView(BaseView):
@@ -68,9 +69,10 @@ class SectionView(BaseView):
         self.ranges = None  # set by fit_ranges()
 
     def describe(self) -> str:
-        fixed = ", ".join(f"{k} = {v:g}" for k, v in self.plane.items())
+        fixed = ", ".join(f"{self.label_of(k)} = {v:g}" for k, v in self.plane.items())
         way = "increasing" if self.sign > 0 else "decreasing"
-        return f"section {fixed}, {self.solve_for} from H = E, crossings with {way} {next(iter(self.plane))}"
+        return (f"section {fixed}, {self.label_of(self.solve_for)} from H = E, crossings with {way} "
+                f"{self.label_of(next(iter(self.plane)))}")
 
     # ---------------------------------------------------------------- window and boundary
     def _level_set(self, params, ranges):
@@ -126,7 +128,7 @@ class SectionView(BaseView):
         ls = self._level_set(params, self.ranges)
         allowed = ls.allowed(energy)
         return Frame(lines=[], accents=ls.contour(energy), forbidden=~allowed, grid_x=ls.x, grid_y=ls.y,
-                     empty=not allowed.any())
+                     shade=forbidden_polygons(ls.x, ls.y, ls.values, energy), empty=not allowed.any())
 
     # ---------------------------------------------------------------- orbits
     def seeds(self, points, energy, params) -> Seeding:
