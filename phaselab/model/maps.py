@@ -46,8 +46,8 @@ from phaselab.model.limits import (EXPAND_MAX_TERMS, MAX_TREE_NODES, expanded_te
                                    work_problem)
 from phaselab.model.params import Parameter, finite_number, make_parameters
 from phaselab.model.parser import parse_expression, size_problem
-from phaselab.model.symplectic import check_symplectic, symplectic_form
-from phaselab.model.zero import value_at, zero_check
+from phaselab.model.symplectic import check_determinant, check_symplectic, symplectic_form
+from phaselab.model.zero import zero_check
 
 #: number of random points used when the determinant cannot be simplified to 1
 N_SAMPLES = 20
@@ -379,54 +379,13 @@ class SymplecticMap(PhaseSpaceSystem):
         return out
 
     def _numeric_det_check(self, det: sp.Expr | None) -> None:
-        """Check det = 1 at sample states and parameters.
-
-        With the determinant expression ``det``, each sample is evaluated with mpmath at 30
-        digits (:func:`phaselab.model.zero.value_at`), so the cancellation between large
-        products of a composed map cannot pass for a failure; with ``None``, the Jacobian
-        matrix is evaluated in double precision and its determinant taken with numpy."""
-        args = list(self.state_symbols) + list(self.param_symbols)
-        if det is not None:
-            residual = det - 1
-            shown = _short(det)
-
-            def fn(*values):
-                value, scale = value_at(residual, dict(zip(args, map(float, values))))
-                if value is None:
-                    raise ValueError("undefined")
-                # cancellation in 30-digit arithmetic leaves at most ~1e-28 of the terms
-                return 1.0 if abs(value) <= 1e-20 * scale else complex(value) + 1.0
-        else:
-            jac = numeric_function(args, self.jacobian_matrix)
-
-            def fn(*values):
-                return np.linalg.det(np.asarray(jac(*values), dtype=float))
-
-            shown = f"(a {len(self.state_symbols)} x {len(self.state_symbols)} Jacobian)"
+        """Check det = 1 at sample states and parameters (:func:`phaselab.model.symplectic.check_determinant`)."""
         rng = np.random.default_rng(20240607)
-        z = self._sample_states(rng, 4 * N_SAMPLES)
-        k = self._sample_params(rng, 4 * N_SAMPLES)
-        good = 0
-        with np.errstate(all="ignore"):
-            for zi, ki in zip(z, k):
-                try:
-                    value = complex(fn(*zi, *ki))
-                except (ZeroDivisionError, ValueError, OverflowError, TypeError, np.linalg.LinAlgError):
-                    continue
-                if not (np.isfinite(value.real) and np.isfinite(value.imag)):
-                    continue
-                if abs(value - 1.0) > DET_TOL * max(1.0, abs(value)):
-                    point = ", ".join(f"{s.name}={v:.4g}" for s, v in zip(args, list(zi) + list(ki)))
-                    raise ModelError(
-                        f"map {self.name!r} is not area-preserving: its Jacobian determinant is "
-                        f"{shown}, which is {value.real:.6g} at {point}")
-                good += 1
-                if good >= N_SAMPLES:
-                    return
-        if good == 0:
-            raise ModelError(
-                f"cannot check that map {self.name!r} is area-preserving: its Jacobian determinant "
-                f"{shown} is undefined at every sample point")
+        n = len(self.state_symbols)
+        shown = _short(det) if det is not None else f"(a {n} x {n} Jacobian)"
+        check_determinant(self.name, self.jacobian_matrix, det, list(self.state_symbols) + list(self.param_symbols),
+                          self._sample_states(rng, 4 * N_SAMPLES), self._sample_params(rng, 4 * N_SAMPLES),
+                          shown, N_SAMPLES, DET_TOL)
 
     # ----------------------------------------------------------------- structure
     @cached_property

@@ -18,6 +18,8 @@ import numpy as np
 import sympy as sp
 
 from phaselab.errors import ModelError
+from phaselab.model.numeric import numeric_function
+from phaselab.model.zero import value_at
 
 #: a sample fails when max |M^T J M - J| exceeds this times 2n max(1, max|M|^2) (the
 #: rounding of the 2n products summed in each entry, with room to spare)
@@ -102,3 +104,57 @@ def _refusal(name, M, defect, args, values) -> str:
         why = f"it does not even preserve volume (Jacobian determinant {det:.6g} there)"
     return (f"map {name!r} is not symplectic: M^T J M differs from J by {defect:.3g} (relative) at "
             f"{point}; {why}")
+
+
+def check_determinant(name: str, jacobian, det, args, states, params, shown: str, n_samples: int,
+                      tol: float) -> None:
+    """Check det = 1 at sample states and parameters.
+
+    With the determinant expression ``det``, each sample is evaluated with mpmath at 30
+    digits (:func:`phaselab.model.zero.value_at`), so the cancellation between large
+    products of a composed map cannot pass for a failure; with ``None``, the Jacobian
+    matrix is evaluated in double precision and its determinant taken with numpy. ``shown`` is
+    how the determinant is named in a refusal; ``n_samples`` good samples settle it, each
+    within ``tol`` of 1 (relative).
+
+    Raises
+    ------
+    ModelError
+        At the first sample where the determinant is not 1, or when it is undefined at every
+        sample."""
+    if det is not None:
+        residual = det - 1
+
+        def fn(*values):
+            value, scale = value_at(residual, dict(zip(args, map(float, values))))
+            if value is None:
+                raise ValueError("undefined")
+            # cancellation in 30-digit arithmetic leaves at most ~1e-28 of the terms
+            return 1.0 if abs(value) <= 1e-20 * scale else complex(value) + 1.0
+    else:
+        jac = numeric_function(args, jacobian)
+
+        def fn(*values):
+            return np.linalg.det(np.asarray(jac(*values), dtype=float))
+
+    good = 0
+    with np.errstate(all="ignore"):
+        for zi, ki in zip(states, params):
+            try:
+                value = complex(fn(*zi, *ki))
+            except (ZeroDivisionError, ValueError, OverflowError, TypeError, np.linalg.LinAlgError):
+                continue
+            if not (np.isfinite(value.real) and np.isfinite(value.imag)):
+                continue
+            if abs(value - 1.0) > tol * max(1.0, abs(value)):
+                point = ", ".join(f"{s.name}={v:.4g}" for s, v in zip(args, list(zi) + list(ki)))
+                raise ModelError(
+                    f"map {name!r} is not area-preserving: its Jacobian determinant is "
+                    f"{shown}, which is {value.real:.6g} at {point}")
+            good += 1
+            if good >= n_samples:
+                return
+    if good == 0:
+        raise ModelError(
+            f"cannot check that map {name!r} is area-preserving: its Jacobian determinant "
+            f"{shown} is undefined at every sample point")
