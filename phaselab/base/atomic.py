@@ -88,28 +88,37 @@ def process_gone(pid: int) -> bool:
     return False
 
 
-def remove_stale(dfd: int) -> int:
-    """Remove the temporaries of killed writers in the open folder ``dfd``: names of the
-    pattern of :func:`temporary_name` whose process is gone and that are older than
-    :data:`STALE_SECONDS`. Returns how many were removed; never raises."""
+def remove_stale(folder, pattern=_TEMPORARY, max_age: float = STALE_SECONDS) -> int:
+    """Remove the files a killed process left in ``folder``: names matching ``pattern`` (by
+    default that of :func:`temporary_name`; its first group that matched is the owner's
+    process number) whose process is gone and that are older than ``max_age`` seconds.
+
+    ``folder`` is an open folder handle (see :func:`open_folder`) or a path. Returns how many
+    were removed; never raises."""
     removed = 0
     try:
-        names = os.listdir(dfd)
+        names = os.listdir(folder)
     except OSError:
         return 0
+    by_handle = isinstance(folder, int)
     now = time.time()
     for name in names:
-        match = _TEMPORARY.match(name)
-        if match is None or int(match.group(1)) == os.getpid():
+        match = pattern.match(name)
+        if match is None:
             continue
+        pid = int(next(g for g in match.groups() if g is not None))
+        if pid == os.getpid():
+            continue
+        where = dict(dir_fd=folder) if by_handle else {}
+        target = name if by_handle else os.path.join(folder, name)
         try:
-            info = os.stat(name, dir_fd=dfd, follow_symlinks=False)
-            if now - info.st_mtime < STALE_SECONDS or not process_gone(int(match.group(1))):
+            info = os.stat(target, follow_symlinks=False, **where)
+            if now - info.st_mtime < max_age or not process_gone(pid):
                 continue
             if stat.S_ISDIR(info.st_mode):
-                shutil.rmtree(name, dir_fd=dfd)
+                shutil.rmtree(target, **where)
             else:
-                os.unlink(name, dir_fd=dfd)
+                os.unlink(target, **where)
             removed += 1
         except OSError:
             continue

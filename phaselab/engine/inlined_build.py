@@ -31,10 +31,9 @@ import subprocess
 import sys
 import tempfile
 import threading
-import time
 from pathlib import Path
 
-from phaselab.base.atomic import atomic_path, process_gone
+from phaselab.base.atomic import atomic_path, remove_stale
 
 BUILD_TIMEOUT = 1800.0
 """Seconds after which a background build is abandoned."""
@@ -107,26 +106,7 @@ def _write_job(job: dict):
 def remove_stale_jobs(folder) -> int:
     """Remove job files (and half-written ``.ready-<pid>-*.tmp`` markers) of killed processes
     from the cache ``folder`` (see the module docstring); returns how many. Never raises."""
-    removed = 0
-    try:
-        names = os.listdir(folder)
-    except OSError:
-        return 0
-    now = time.time()
-    for name in names:
-        match = _LEFT_BEHIND.match(name)
-        if match is None:
-            continue
-        path = Path(folder) / name
-        pid = int(match.group(1) or match.group(2))
-        try:
-            if now - path.lstat().st_mtime < STALE_SECONDS or not process_gone(pid):
-                continue
-            path.unlink()
-            removed += 1
-        except OSError:
-            continue
-    return removed
+    return remove_stale(folder, _LEFT_BEHIND, STALE_SECONDS)
 
 
 def _claim(path: str):
