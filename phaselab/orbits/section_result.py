@@ -13,6 +13,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from phaselab.engine import accuracy as step_accuracy
 from phaselab.engine import status as codes
 from phaselab.errors import ParameterError
 
@@ -196,6 +197,24 @@ class Section(codes.StatusReport):
         from phaselab.export import save
 
         return save(self, path, **kwargs)
+
+    @property
+    def error_estimate(self) -> float:
+        """The relative timing error of the integration step over the longest orbit (step
+        doubling, :func:`phaselab.engine.accuracy.estimate`): on a torus, the relative error of
+        its frequencies. NaN for maps, dop853 or a section without its system. Measured on
+        first use (a short pilot run) and kept."""
+        cached = self.__dict__.get("_error_estimate")
+        if cached is None:
+            times = np.asarray(self.times, dtype=float)
+            span = float(np.nanmax(np.abs(times))) if times.size and np.isfinite(times).any() else float("nan")
+            if (self.system is None or getattr(self.system, "kind", "flow") == "map"
+                    or not np.isfinite(self.dt) or not np.isfinite(span) or span <= 0):
+                cached = float("nan")
+            else:
+                cached = step_accuracy.estimate(self.system, self.seeds, span, self.dt, self.params, self.method)
+            self.__dict__["_error_estimate"] = cached
+        return cached
 
     def describe_plane(self) -> str:
         """The plane in words: ``"x = 0 (increasing)"``, ``"stroboscopic, period 6.283"``,

@@ -23,6 +23,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from phaselab.engine import accuracy as step_accuracy
 from phaselab.engine import status as codes
 from phaselab.engine.provenance import netcdf_attrs, provenance
 from phaselab.errors import ParameterError
@@ -173,6 +174,23 @@ class PeriodicOrbit:
         from phaselab.export import save
 
         return save(self, path, **kwargs)
+
+    @property
+    def error_estimate(self) -> float:
+        """The relative timing error of the integration step over one period (step doubling,
+        :func:`phaselab.engine.accuracy.estimate`): the relative error of the period it implies.
+        NaN for maps. Measured on first use (a short pilot run) and kept; ``residual`` is the
+        separate closure error of Newton's method."""
+        cached = self.__dict__.get("_error_estimate")
+        if cached is None:
+            if (self.system is None or self.method in ("", "map") or not np.isfinite(self.dt)
+                    or not np.isfinite(self.period) or self.period <= 0):
+                cached = float("nan")
+            else:
+                cached = step_accuracy.estimate(self.system, np.asarray(self.points)[:1], float(self.period),
+                                                self.dt, self.params, self.method)
+            self.__dict__["_error_estimate"] = cached
+        return cached
 
     def __repr__(self) -> str:
         res = "" if self.residue is None else f", residue {self.residue:.6g}"
