@@ -9,6 +9,7 @@ seed, energy and parameters.
 from __future__ import annotations
 
 import subprocess
+import time
 import sys
 
 import numpy as np
@@ -498,8 +499,18 @@ def test_compile_events_show_in_the_status(hh):
 
     ex = phaselab.explore(hh, energy=E0, background=False)
     with progress.compiling("kernels of this system (test)"):
-        assert "compiling kernels for this system (first time only)" in ex.controls.status.value
-    assert "compiling" not in ex.controls.status.value
+        # nothing compiled yet: loading from the cache, not "first time only"
+        assert "loading kernels of this system (test) from the cache" in ex.controls.status.value
+        import numba
+
+        numba.njit(lambda x: x + 1)(1)  # a real compilation inside the block
+        for _ in range(50):   # the watcher thread's news reaches the widgets' thread at a flush
+            ex.jobs.flush()
+            if "compiling kernels of this system (test)" in ex.controls.status.value:
+                break
+            time.sleep(0.1)
+        assert "compiling kernels of this system (test)" in ex.controls.status.value
+    assert "compiling" not in ex.controls.status.value and "loading" not in ex.controls.status.value
     ex.close()
     with progress.compiling("after close"):
         pass  # a closed explorer no longer listens

@@ -236,8 +236,7 @@ class Scheduling:
 
     def _busy_lines(self):
         lines = []
-        if self._compiling:
-            lines.append("compiling kernels for this system (first time only)")
+        lines += [self._progress.describe(what) for what in dict.fromkeys(self._compiling)]
         lines += [t for t in self._busy.values() if t]
         return lines
 

@@ -188,7 +188,7 @@ class Wiring:
         def apply():
             if event == "start":
                 self._compiling.append(what)
-            elif what in self._compiling:
+            elif event == "end" and what in self._compiling:
                 self._compiling.remove(what)
             self._show_status()
 
