@@ -1,6 +1,12 @@
 """Time to the first answer: a new system from ``import phaselab`` in a fresh process.
 
 Run:  python benchmarks/startup.py [--repeat N] [--skip-machine-cold]
+      python benchmarks/startup.py --cold     (only the empty-cache figures, one run)
+
+``--cold`` prints, for a new 2-dof polynomial system in a fresh process with an empty kernel
+cache, the first section, chaos indicators, trajectory, periodic orbit on a plane and
+frequencies (each with its share of compiling), then ``phaselab warm``'s seconds per path in
+another fresh process with another empty cache.
 
 For each system (Henon-Heiles from the catalogue, a new string Hamiltonian that no cache
 has seen, the FPUT chain with n = 10) a fresh Python process imports phaselab and times its
@@ -88,7 +94,11 @@ def timed(name, fn):
 timed("section", lambda: phaselab.section(H, seeds, plane, crossings=300))
 timed("chaos indicators", lambda: phaselab.chaos_indicators(H, seeds.valid_states(), 200.0))
 timed("trajectory", lambda: phaselab.trajectory(H, seeds.valid_states(), 100.0))
-if which != "fput":
+if "--cold" in sys.argv:
+    z0 = seeds.valid_states()[0]
+    timed("periodic orbit (plane)", lambda: phaselab.periodic_orbit(H, z0, plane=plane, energy=E))
+    timed("frequencies", lambda: phaselab.frequencies(H, seeds.valid_states()[:4], t=102.4, n=1024))
+if which != "fput" and "--cold" not in sys.argv:
     ex = phaselab.explore(H, energy=E, plane=plane, solve_for=solve, crossings=300)
     def click():
         ex.add_seed(0.05, 0.01)
@@ -103,8 +113,11 @@ BASE_CHILD = "import time; t = time.perf_counter(); import numpy, sympy; print(t
 CALLS = ("section", "chaos indicators", "trajectory", "explorer first click")
 
 
-def child(env, which, tag):
-    res = subprocess.run([sys.executable, "-c", CHILD, which, tag], env=env, capture_output=True,
+COLD_CALLS = ("section", "chaos indicators", "trajectory", "periodic orbit (plane)", "frequencies")
+
+
+def child(env, which, tag, *extra):
+    res = subprocess.run([sys.executable, "-c", CHILD, which, tag, *extra], env=env, capture_output=True,
                          text=True, timeout=3600)
     if res.returncode != 0:
         raise RuntimeError(res.stderr[-3000:])
@@ -125,12 +138,39 @@ def median(rows, key):
     return statistics.median(values) if values else float("nan")
 
 
+def cold(base):
+    """The empty-cache figures: five first calls of a new system, then ``phaselab warm``."""
+    print(f"{os.cpu_count()} cores; load average {os.getloadavg()[0]:.2f}")
+    empty = tempfile.mkdtemp(prefix="phaselab-empty-")
+    tag = "1." + uuid.uuid4().hex[:6].translate(str.maketrans("abcdef", "123456"))
+    t0 = time.perf_counter()
+    out = child(dict(base, PHASELAB_CACHE_DIR=empty, PHASELAB_LOOPS="generic"), "string", tag, "--cold")
+    print(f"empty cache, fresh process, new system (import {out['import']:.2f} s, "
+          f"process {time.perf_counter() - t0:.1f} s):")
+    for c in COLD_CALLS:
+        print(f"  {c:28s} {out[c]:7.2f} s  ({out[c + ' compiling']:6.2f} s compiling)")
+    shutil.rmtree(empty, ignore_errors=True)
+    empty = tempfile.mkdtemp(prefix="phaselab-empty-")
+    t0 = time.perf_counter()
+    res = subprocess.run([sys.executable, "-m", "phaselab.cli", "warm"], env=dict(base, PHASELAB_CACHE_DIR=empty),
+                         capture_output=True, text=True, timeout=3600)
+    print(f"phaselab warm, empty cache: {time.perf_counter() - t0:.1f} s of wall time")
+    print(res.stdout.rstrip())
+    if res.returncode != 0:
+        print(res.stderr[-3000:])
+    shutil.rmtree(empty, ignore_errors=True)
+
+
 def main():
     ap = argparse.ArgumentParser(description=__doc__.split("\n")[0])
     ap.add_argument("--repeat", type=int, default=3)
     ap.add_argument("--skip-machine-cold", action="store_true")
+    ap.add_argument("--cold", action="store_true", help="only the empty-cache figures, one run")
     args = ap.parse_args()
     base = dict(os.environ, PHASELAB_QUIET="1")
+    if args.cold:
+        cold(base)
+        return
     shared = tempfile.mkdtemp(prefix="phaselab-startup-")
     print(f"cache folder: {shared}; {os.cpu_count()} cores; load average {os.getloadavg()[0]:.2f}")
 

@@ -1,7 +1,7 @@
 """phaselab: explore the phase space of Hamiltonian systems.
 
-``Hamiltonian`` and the error classes are imported with the package; everything else
-(``AreaPreservingMap``, ``models``, the numerics, export and the notebook widgets) is
+The error classes are imported with the package; everything else (``Hamiltonian``,
+``AreaPreservingMap``, ``models``, the numerics, export and the notebook widgets) is
 imported on first use, so a script pays only for what it calls.
 """
 
@@ -10,9 +10,9 @@ __version__ = "0.1.0"
 from phaselab.errors import (ExpressionError, IntegrationError, ModelError,  # noqa: E402
                              ParameterError, PhaselabError, StudyFileError, DataFileError,
                              PhaselabWarning)
-from phaselab.model.hamiltonian import Hamiltonian  # noqa: E402
 
 _LAZY = {
+    "Hamiltonian": "phaselab.model.hamiltonian",
     "AreaPreservingMap": "phaselab.model.maps",
     "SymplecticMap": "phaselab.model.maps",
     "compose_map": "phaselab.model.elements",

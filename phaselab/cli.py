@@ -191,7 +191,8 @@ def cmd_warm(args) -> int:
     from phaselab.codegen.cache import cache_dir
     from phaselab.engine.warm import warm
 
-    print(f"compiling phaselab's loops into {cache_dir()} (once per machine; a few minutes the first time)")
+    print(f"preparing phaselab's shared loops in {cache_dir()}: compiled once per machine (a few "
+          "minutes on two cores), loaded from there afterwards")
     report = warm(verbose=True)
     print(f"done: {len(report)} paths in {sum(report.values()):.1f} s")
     return OK

@@ -114,3 +114,11 @@ def test_postbuild_installs_the_project_from_the_repository_root():
     assert 'cd "$(dirname "$0")/.."' in text
     assert re.search(r"pip install .*-e \.\s*$", text, re.M), "postBuild must pip-install the project"
 
+
+
+def test_post_build_warms_every_shared_loop():
+    """A hosted session starts with the shared loops compiled: postBuild runs ``phaselab
+    warm`` after installing the project."""
+    lines = [ln.strip() for ln in (BINDER / "postBuild").read_text().splitlines()]
+    install = next(i for i, ln in enumerate(lines) if "pip install" in ln)
+    assert "phaselab warm" in lines[install + 1:]

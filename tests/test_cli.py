@@ -327,3 +327,13 @@ def test_the_study_key_reference_is_installed_and_printed(capsys):
     assert "[system]" in out and "hamiltonian" in out
     assert resources.files("phaselab.studies").joinpath("README.md").is_file()
     assert "studies/README.md" in (Path(__file__).resolve().parents[1] / "pyproject.toml").read_text()
+
+
+def test_help_imports_neither_sympy_nor_numba():
+    """``phaselab --help`` answers without the numerical stack (Python's own import log, -X
+    importtime, names every module a process imports)."""
+    res = subprocess.run([sys.executable, "-X", "importtime", "-m", "phaselab.cli", "--help"],
+                         capture_output=True, text=True, timeout=120)
+    assert res.returncode == 0 and "warm" in res.stdout
+    imported = {line.rsplit("|", 1)[-1].strip() for line in res.stderr.splitlines() if "|" in line}
+    assert not {"sympy", "numba", "numpy"} & imported

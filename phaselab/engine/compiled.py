@@ -1,19 +1,8 @@
-"""The compiled loops: reading the loop files, assembling them into modules, calling them.
+"""The compiled loops, called: :func:`loops` (system, loop files) -> :class:`LoopSet`.
 
-The loops (steppers, section crossings, tangent dynamics, ...) live as text in
-``engine/loops/*.py``. Each file starts with two declarations::
-
-    REQUIRES = ("steppers",)          # loop files whose functions this one calls
-    PROVIDES = ("section_plane_orbits", ...)   # entry points called from Python
-
-and may use, besides its own and its required files' functions, only the names that every
-assembled module defines (:data:`MODULE_NAMES`): ``np``, ``math``, ``njit``, ``prange``, the
-constants of :mod:`phaselab.engine.status`, and the kernel access functions
-``hamiltonian(kern, z, prm)``, ``grad_q(kern, z, prm, out)``, ``grad_p``, ``vector_field``,
-``jacobian``, ``hess_pp``, ``hess_qq``, ``map_step``, ``map_jacobian`` and ``nstate(z)``. A test checks every file's
-free names against this contract.
-
-The same text is assembled into two kinds of module:
+The loop files and the text of the modules assembled from them are
+:mod:`phaselab.engine.loop_source`; this module chooses which form runs a call and compiles
+it. The same text is assembled into two kinds of module:
 
 generic
     One per set of loop files, the same for every system: ``kern`` is a function pointer
@@ -32,315 +21,20 @@ modules), ``inlined`` (build them in this process before the first call, for ben
 
 from __future__ import annotations
 
-import ast
-import json
 import os
-from dataclasses import dataclass
-from functools import lru_cache
-from pathlib import Path
 
 import numpy as np
 
+from phaselab.base.locks import file_lock
 from phaselab.codegen import KERNELS, compile_kernel
-from phaselab.codegen.cache import cache_dir, codegen_fingerprint, load_module, reload_module, source_hash
-from phaselab.codegen.kernels import ensure_code, kernel_functions_source
+from phaselab.codegen.cache import cache_dir, load_module, reload_module
+from phaselab.codegen.kernels import ensure_code
 from phaselab.codegen.progress import compiling
-from phaselab.engine import status as codes
+from phaselab.engine.inlined_build import ready_signatures, request_build
+from phaselab.engine.loop_source import (LOOPS_DIR, MODULE_NAMES, LoopFile, closure,  # noqa: F401 (re-exported)
+                                         generic_module, generic_module_name, generic_source,
+                                         inlined_module_name, inlined_source, loop_file)
 from phaselab.errors import ParameterError
-
-LOOPS_DIR = Path(__file__).parent / "loops"
-
-ACCESS_NAMES = ("hamiltonian", "grad_q", "grad_p", "vector_field", "jacobian", "hess_pp", "hess_qq",
-                "map_step", "map_jacobian", "nstate")
-MODULE_NAMES = frozenset({"np", "math", "njit", "prange", *codes.LOOP_CONSTANTS, *ACCESS_NAMES})
-"""Names every assembled loop module defines for the loop files."""
-
-HEADER = '''"""Loops assembled by phaselab.engine.compiled ({what}). Do not edit."""
-import math
-import numpy as np
-import numba
-from numba import prange
-
-
-def njit(*args, **options):
-    """numba's njit with IEEE division (error_model "numpy"): x / 0 gives inf or nan
-    instead of raising, and the loops stop an orbit whose values are not finite."""
-    return numba.njit(*args, error_model="numpy", **options)
-
-
-{constants}
-'''
-
-GENERIC_ACCESS = '''
-@njit(cache=True, nogil=True)
-def nstate(z):
-    return z.shape[0]
-
-
-@njit(cache=True, nogil=True)
-def hamiltonian(kern, z, prm):
-    return kern({hamiltonian}, z.ctypes, prm.ctypes, z.ctypes)
-
-
-@njit(cache=True, nogil=True)
-def grad_q(kern, z, prm, out):
-    kern({grad_q}, z.ctypes, prm.ctypes, out.ctypes)
-
-
-@njit(cache=True, nogil=True)
-def grad_p(kern, z, prm, out):
-    kern({grad_p}, z.ctypes, prm.ctypes, out.ctypes)
-
-
-@njit(cache=True, nogil=True)
-def vector_field(kern, z, prm, out):
-    kern({vector_field}, z.ctypes, prm.ctypes, out.ctypes)
-
-
-@njit(cache=True, nogil=True)
-def jacobian(kern, z, prm, out):
-    kern({jacobian}, z.ctypes, prm.ctypes, out.ctypes)
-
-
-@njit(cache=True, nogil=True)
-def hess_pp(kern, z, prm, out):
-    kern({hess_pp}, z.ctypes, prm.ctypes, out.ctypes)
-
-
-@njit(cache=True, nogil=True)
-def hess_qq(kern, z, prm, out):
-    kern({hess_qq}, z.ctypes, prm.ctypes, out.ctypes)
-
-
-@njit(cache=True, nogil=True)
-def map_step(kern, z, prm, out):
-    kern({map_step}, z.ctypes, prm.ctypes, out.ctypes)
-
-
-@njit(cache=True, nogil=True)
-def map_jacobian(kern, z, prm, out):
-    kern({map_jacobian}, z.ctypes, prm.ctypes, out.ctypes)
-'''
-
-INLINED_FLOW_ACCESS = '''
-@njit(cache=True, nogil=True)
-def nstate(z):
-    return NSTATE
-
-
-@njit(cache=True, nogil=True)
-def hamiltonian(kern, z, prm):
-    return k_hamiltonian(z, prm)
-
-
-@njit(cache=True, nogil=True)
-def grad_q(kern, z, prm, out):
-    k_grad_q(z, prm, out)
-
-
-@njit(cache=True, nogil=True)
-def grad_p(kern, z, prm, out):
-    k_grad_p(z, prm, out)
-
-
-@njit(cache=True, nogil=True)
-def vector_field(kern, z, prm, out):
-    k_vector_field(z, prm, out)
-
-
-@njit(cache=True, nogil=True)
-def jacobian(kern, z, prm, out):
-    k_jacobian(z, prm, out)
-
-
-@njit(cache=True, nogil=True)
-def hess_pp(kern, z, prm, out):
-    k_hess_pp(z, prm, out)
-
-
-@njit(cache=True, nogil=True)
-def hess_qq(kern, z, prm, out):
-    k_hess_qq(z, prm, out)
-
-
-@njit(cache=True, nogil=True)
-def map_step(kern, z, prm, out):
-    pass
-
-
-@njit(cache=True, nogil=True)
-def map_jacobian(kern, z, prm, out):
-    pass
-'''
-
-INLINED_MAP_ACCESS = '''
-@njit(cache=True, nogil=True)
-def nstate(z):
-    return NSTATE
-
-
-@njit(cache=True, nogil=True)
-def hamiltonian(kern, z, prm):
-    return 0.0
-
-
-@njit(cache=True, nogil=True)
-def grad_q(kern, z, prm, out):
-    pass
-
-
-@njit(cache=True, nogil=True)
-def grad_p(kern, z, prm, out):
-    pass
-
-
-@njit(cache=True, nogil=True)
-def vector_field(kern, z, prm, out):
-    pass
-
-
-@njit(cache=True, nogil=True)
-def jacobian(kern, z, prm, out):
-    pass
-
-
-@njit(cache=True, nogil=True)
-def hess_pp(kern, z, prm, out):
-    pass
-
-
-@njit(cache=True, nogil=True)
-def hess_qq(kern, z, prm, out):
-    pass
-
-
-@njit(cache=True, nogil=True)
-def map_step(kern, z, prm, out):
-    k_map_step(z, prm, out)
-
-
-@njit(cache=True, nogil=True)
-def map_jacobian(kern, z, prm, out):
-    k_map_jacobian(z, prm, out)
-'''
-
-
-# ----------------------------------------------------------------------------- loop files
-@dataclass(frozen=True)
-class LoopFile:
-    """One loop file and its declarations.
-
-    Attributes
-    ----------
-    name : str
-        The file stem (``"sections"``).
-    text : str
-        The loop text without its declarations.
-    requires : tuple of str
-        Loop files whose functions it calls.
-    provides : tuple of str
-        Entry points called from Python.
-    defines : tuple of str
-        Every top-level function it defines.
-    """
-
-    name: str
-    text: str
-    requires: tuple
-    provides: tuple
-    defines: tuple
-
-
-@lru_cache(maxsize=None)
-def loop_file(name: str) -> LoopFile:
-    """Read and check the declarations of ``engine/loops/<name>.py``."""
-    path = LOOPS_DIR / f"{name}.py"
-    if not path.is_file():
-        raise ParameterError(f"no loop file named {name!r} in {LOOPS_DIR}")
-    text = path.read_text()
-    tree = ast.parse(text)
-    declared, drop = {}, []
-    for node in tree.body:
-        if isinstance(node, ast.Assign) and len(node.targets) == 1 \
-                and isinstance(node.targets[0], ast.Name) and node.targets[0].id in ("REQUIRES", "PROVIDES"):
-            declared[node.targets[0].id] = tuple(ast.literal_eval(node.value))
-            drop.append((node.lineno, node.end_lineno))
-    if set(declared) != {"REQUIRES", "PROVIDES"}:
-        raise RuntimeError(f"loop file {path} must declare REQUIRES and PROVIDES")
-    lines = text.split("\n")
-    for first, last in sorted(drop, reverse=True):
-        del lines[first - 1:last]
-    defines = tuple(n.name for n in tree.body if isinstance(n, ast.FunctionDef))
-    missing = set(declared["PROVIDES"]) - set(defines)
-    if missing:
-        raise RuntimeError(f"loop file {path} declares entry points it does not define: {sorted(missing)}")
-    return LoopFile(name, "\n".join(lines), declared["REQUIRES"], declared["PROVIDES"], defines)
-
-
-def closure(names) -> tuple[LoopFile, ...]:
-    """The named loop files and everything they require, each once, required files first."""
-    order: list[LoopFile] = []
-
-    def visit(name, trail):
-        if name in trail:
-            raise RuntimeError(f"loop files require each other in a cycle: {' -> '.join(trail + (name,))}")
-        if any(f.name == name for f in order):
-            return
-        lf = loop_file(name)
-        for dep in lf.requires:
-            visit(dep, trail + (name,))
-        order.append(lf)
-
-    for name in sorted(set(names)):
-        visit(name, ())
-    return tuple(order)
-
-
-def _constants(extra: dict | None = None) -> str:
-    items = dict(codes.LOOP_CONSTANTS)
-    items.update(extra or {})
-    return "\n".join(f"{k} = {v!r}" for k, v in items.items())
-
-
-def generic_source(files: tuple[LoopFile, ...]) -> str:
-    """The text of the generic module of a set of loop files."""
-    header = HEADER.format(what="generic: kernels called through a function pointer",
-                           constants=_constants())
-    access = GENERIC_ACCESS.format(**KERNELS)
-    return "\n".join([header, access, *(f.text for f in files)]) + "\n"
-
-
-def inlined_source(code, files: tuple[LoopFile, ...]) -> str:
-    """The text of a system's inlined module: its kernels, then the loops."""
-    header = HEADER.format(what=f"inlined kernels of system key {code.key}",
-                           constants=_constants({"NSTATE": code.n_state}))
-    access = INLINED_FLOW_ACCESS if code.kind == "flow" else INLINED_MAP_ACCESS
-    return "\n".join([header, kernel_functions_source(code), access, *(f.text for f in files)]) + "\n"
-
-
-@lru_cache(maxsize=None)
-def _fingerprint() -> str:
-    return codegen_fingerprint()
-
-
-def _set_name(files) -> str:
-    return "-".join(f.name for f in files)
-
-
-def generic_module_name(files) -> str:
-    return f"loops_{_set_name(files)}_{source_hash(generic_source(files), _fingerprint())}"
-
-
-def inlined_module_name(key: str, files) -> str:
-    texts = [HEADER, *(f.text for f in files)]
-    return f"inlined_{key[:16]}_{_set_name(files)}_{source_hash(key, *texts, _fingerprint())}"
-
-
-def generic_module(files):
-    """The imported generic module of a set of loop files."""
-    name = generic_module_name(files)
-    return load_module(name, lambda: generic_source(files))
-
 
 # ----------------------------------------------------------------------------- loop form chosen
 LOOP_FORM_CHOICES = ("auto", "generic", "inlined")
@@ -353,32 +47,6 @@ def loop_form_choice() -> str:
     if value not in LOOP_FORM_CHOICES:
         raise ParameterError(f"PHASELAB_LOOPS must be one of {', '.join(LOOP_FORM_CHOICES)}, got {value!r}")
     return value
-
-
-def _ready_path(name: str) -> Path:
-    return cache_dir() / f"{name}.ready.json"
-
-
-_ready_seen: dict = {}
-
-
-def ready_signatures(name: str) -> dict:
-    """Entry point -> list of signature texts compiled for the inlined module ``name`` (read
-    from the marker file the background build writes; re-read only when it changes)."""
-    path = _ready_path(name)
-    try:
-        stamp = path.stat().st_mtime_ns
-    except OSError:
-        return {}
-    seen = _ready_seen.get(name)
-    if seen is not None and seen[0] == stamp:
-        return seen[1]
-    try:
-        data = json.loads(path.read_text())
-    except (OSError, ValueError):
-        data = {}
-    _ready_seen[name] = (stamp, data)
-    return data
 
 
 _signatures: dict = {}
@@ -489,8 +157,6 @@ class LoopSet:
             inlined = sig in ready_signatures(self._inlined_name).get(entry, ())
             if not inlined and (entry, sig) not in self._requested:
                 self._requested.add((entry, sig))
-                from phaselab.engine.inlined_build import request_build
-
                 request_build(self.system, tuple(f.name for f in self.files), self._inlined_name, entry,
                               _signature((0, *args)))
         full = (0, *args) if inlined else (self.kernel.kernel, *args)
@@ -520,7 +186,7 @@ class LoopSet:
             return disp
         what = f"the loop {entry} " + ("for this system" if form == "inlined" else "that all systems share")
         try:
-            with compiling(what):
+            with file_lock(self._lock_path(form, entry)), compiling(what):
                 disp.compile(sig)
         except Exception:
             if form == "generic":
@@ -530,10 +196,16 @@ class LoopSet:
             else:
                 self._inlined = reload_module(self._inlined_name, self._make_inlined_source)
                 disp = getattr(self._inlined, entry)
-            with compiling(what):
+            with file_lock(self._lock_path(form, entry)), compiling(what):
                 disp.compile(sig)
         self._checked.add(mark)
         return disp
+
+    def _lock_path(self, form, entry):
+        """The lock file that lets one process per machine compile ``entry`` of a module
+        while the others wait and then load its machine code (see phaselab.base.locks)."""
+        module = self._inlined_name if form == "inlined" else generic_module_name(self.files)
+        return cache_dir() / f".lock-{module}-{entry}"
 
     def evaluate(self, name: str, Z, prm) -> np.ndarray:
         """Evaluate the kernel ``name`` at every row of ``Z`` (shape ``(n_points, 2n)``).

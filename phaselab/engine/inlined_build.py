@@ -34,6 +34,9 @@ import threading
 from pathlib import Path
 
 from phaselab.base.atomic import atomic_path, remove_stale
+from phaselab.codegen.cache import cache_dir, is_fallback, load_module
+from phaselab.codegen.kernels import compile_kernel, ensure_code
+from phaselab.engine.loop_source import closure, inlined_source
 
 BUILD_TIMEOUT = 1800.0
 """Seconds after which a background build is abandoned."""
@@ -46,6 +49,28 @@ _pending: list = []          # jobs not started yet, in order
 _worker: list = []
 _lock = threading.Lock()
 _exit_hook: list = []
+
+
+_ready_seen: dict = {}
+
+
+def ready_signatures(name: str) -> dict:
+    """Entry point -> list of signature texts compiled for the inlined module ``name`` (read
+    from the marker file the background build writes; re-read only when it changes)."""
+    path = cache_dir() / f"{name}.ready.json"
+    try:
+        stamp = path.stat().st_mtime_ns
+    except OSError:
+        return {}
+    seen = _ready_seen.get(name)
+    if seen is not None and seen[0] == stamp:
+        return seen[1]
+    try:
+        data = json.loads(path.read_text())
+    except (OSError, ValueError):
+        data = {}
+    _ready_seen[name] = (stamp, data)
+    return data
 
 
 def request_build(system, files: tuple, name: str, entry: str, signature: tuple) -> None:
@@ -87,7 +112,6 @@ def _run_queue() -> None:
 
 
 def _write_job(job: dict):
-    from phaselab.codegen.cache import cache_dir, is_fallback
 
     folder = cache_dir()
     if is_fallback():
@@ -125,7 +149,6 @@ def _claim(path: str):
 
 
 def _spawn(paths: list, wait: bool) -> None:
-    from phaselab.codegen.cache import cache_dir
 
     env = dict(os.environ, PHASELAB_CACHE_DIR=str(cache_dir()), PHASELAB_LOOPS="generic",
                PHASELAB_QUIET="1")
@@ -160,10 +183,6 @@ def build(job: dict) -> dict:
         Entry point -> list of compiled signature texts, also merged into the module's
         ``.ready.json`` marker.
     """
-    from phaselab.codegen.cache import cache_dir, load_module
-    from phaselab.codegen.kernels import compile_kernel, ensure_code
-    from phaselab.engine.compiled import closure, inlined_source, ready_signatures
-
     system = job["system"]
     files = closure(job["files"])
     kernel = compile_kernel(system)

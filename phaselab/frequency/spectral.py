@@ -33,19 +33,25 @@ Accuracy: for a quasi-periodic signal the error of a frequency falls like ``T^-(
 ``T^-2`` without a window, ``T^-4`` with the Hann window ``p = 1`` (Laskar 1993). An
 isolated line is found to rounding error for any ``p``, since the window is symmetric.
 
-The hot loops are numba functions in :mod:`phaselab.frequency.spectral_loops`, parallel over
-signals.
+The hot loops are numba functions written in :mod:`phaselab.frequency.spectral_loops`,
+parallel over signals. That file is read as text and loaded as a generated module of the
+kernel cache (:func:`phaselab.codegen.cache.load_module`, with the kernels' integrity rules),
+so its machine code is kept under ``PHASELAB_CACHE_DIR`` like every other compiled loop, not
+in the package's folder (which a read-only install cannot write); its first compilation in a
+process is announced.
 """
 
 from __future__ import annotations
 
 from dataclasses import dataclass
+from pathlib import Path
 
 import numpy as np
 
+from phaselab.base.locks import file_lock
+from phaselab.codegen.cache import cache_dir, codegen_fingerprint, load_module, source_hash
+from phaselab.codegen.progress import compiling
 from phaselab.errors import ParameterError
-from phaselab.frequency.spectral_loops import (apply_window, energies, peak_bins, project_all,
-                                              refine_all, remove_mean, window)
 
 __all__ = ["SpectralLines", "Workspace", "leading_lines", "window", "chunk_rows", "MAX_WINDOW_ORDER"]
 
@@ -80,6 +86,35 @@ class SpectralLines:
         return SpectralLines(self.nu[index], self.amplitude[index], self.phase[index])
 
 
+# ----------------------------------------------------------------------------- compiled routines
+ROUTINES_FILE = Path(__file__).with_name("spectral_loops.py")
+"""The text of the compiled routines (read, never imported)."""
+
+_routines_module: list = []
+
+
+def routines_module_name() -> str:
+    """The cache name of the routines' module (changes with their text and the toolchain)."""
+    return f"spectral_{source_hash(ROUTINES_FILE.read_text(), codegen_fingerprint())}"
+
+
+def routines():
+    """The module of compiled spectral routines, loaded from the kernel cache (written there
+    first from :data:`ROUTINES_FILE`). Its functions compile on their first call, their
+    machine code kept beside the module in the cache."""
+    if not _routines_module:
+        _routines_module.append(load_module(routines_module_name(), ROUTINES_FILE.read_text))
+    return _routines_module[0]
+
+
+def window(n, order):
+    """The Hann-type window of order ``order`` on ``n`` samples (see ``spectral_loops.window``)."""
+    return routines().window(n, order)
+
+
+_announced: list = []
+
+
 # ----------------------------------------------------------------------------- driver
 def _threads() -> int:
     import numba
@@ -94,11 +129,11 @@ def _coarse(residual, w, active, buffer, windowed=False):
     from scipy import fft as sfft
 
     if not windowed:
-        apply_window(residual, w, buffer)
+        routines().apply_window(residual, w, buffer)
     spec = sfft.fft(buffer, axis=1, overwrite_x=True, workers=_threads())
     centre = np.empty(len(residual))
     start = np.empty(len(residual))
-    peak_bins(spec, active, centre, start)
+    routines().peak_bins(spec, active, centre, start)
     return centre, start
 
 
@@ -186,38 +221,45 @@ def leading_lines(signals, lines: int = 1, window_order: int = 1,
         if xc.dtype != np.complex128 or not xc.flags.c_contiguous:
             xc = ws.get("signal", b - a, n)
             xc[...] = x[a:b]
-        _chunk(xc, ws.get("residual", b - a, n), ws.get("buffer", b - a, n), lines, p,
-               amplitudes, nu[a:b], amp[a:b], phase[a:b])
+        if _announced:
+            _chunk(xc, ws.get("residual", b - a, n), ws.get("buffer", b - a, n), lines, p,
+                   amplitudes, nu[a:b], amp[a:b], phase[a:b])
+            continue
+        lock = cache_dir() / f".lock-{routines_module_name()}"
+        with file_lock(lock), compiling("the frequency-analysis routines that all systems share"):
+            _chunk(xc, ws.get("residual", b - a, n), ws.get("buffer", b - a, n), lines, p,
+                   amplitudes, nu[a:b], amp[a:b], phase[a:b])
+        _announced.append(True)
     return SpectralLines(nu, amp, phase)
 
 
 def _chunk(x, residual, buffer, lines, p, amplitudes, nu, amp, phase):
     n_sig, n = x.shape
-    w = window(n, p)
+    w = routines().window(n, p)
     omegas = np.zeros((n_sig, lines + 1))      # column 0: the zero-frequency line
     coef = np.zeros((n_sig, lines + 1), dtype=np.complex128)
     active = np.ones(n_sig, dtype=bool)
     total = np.empty(n_sig)
     left = np.empty(n_sig)
-    remove_mean(x, w, residual, buffer, coef, total, left)
+    routines().remove_mean(x, w, residual, buffer, coef, total, left)
     half_width = (0.75 if p == 0 else 1.0) * 2.0 * np.pi / n
     found = np.zeros(n_sig, dtype=np.int64)
     for j in range(1, lines + 1):
         if j > 1:
-            energies(residual, w, left)
+            routines().energies(residual, w, left)
         active &= left > _SILENT * total
         if not active.any():
             break
         centre, start = _coarse(residual, w, active, buffer, windowed=j == 1)
         peak = np.empty(n_sig)
-        refine_all(residual, w, start, centre, half_width, active, peak)
+        routines().refine_all(residual, w, start, centre, half_width, active, peak)
         omegas[:, j] = np.where(active, peak, np.nan)
         was = active.copy()
         last = j == lines
         if last and not amplitudes:
             found[active] = j
             break
-        project_all(x, w, omegas, j + 1, active, residual, coef, not last)
+        routines().project_all(x, w, omegas, j + 1, active, residual, coef, not last)
         found[was & active] = j
     m = np.arange(1, lines + 1)
     ok = m[None, :] <= found[:, None]

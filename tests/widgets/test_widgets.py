@@ -9,6 +9,7 @@ seed, energy and parameters.
 from __future__ import annotations
 
 import subprocess
+import time
 import sys
 
 import numpy as np
@@ -600,13 +601,13 @@ def test_compile_news_goes_through_logging(hh, capsys, caplog, monkeypatch):
 
     # a script without an explorer (a fresh process, logging not configured): the console
     # hears the start and always the end
-    code = ("import time; from phaselab.codegen import progress; progress.ANNOUNCE_AFTER = 0.01\n"
-            "with progress.compiling('a test loop'):\n    time.sleep(0.3)\n")
+    code = ("import time, numba; from phaselab.codegen import progress; progress.ANNOUNCE_AFTER = 0.01\n"
+            "with progress.compiling('a test loop'):\n    numba.njit(lambda x: 2 * x)(3)\n    time.sleep(0.6)\n")
     env = {k: v for k, v in __import__("os").environ.items() if k != "PHASELAB_QUIET"}
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=120, env=env)
     assert out.returncode == 0, out.stderr
     lines = out.stderr.strip().splitlines()
-    assert lines[0] == "phaselab: compiling a test loop (first time only) ..." and len(lines) == 2
+    assert lines[0] == "phaselab: compiling a test loop (first time only: kept in the cache) ..." and len(lines) == 2
     assert lines[1].startswith("phaselab: compiled a test loop in ")
     # the same with an explorer in the process: not a line on standard error (a notebook
     # would show it as error output under the explorer)
@@ -621,6 +622,9 @@ def test_compile_news_goes_through_logging(hh, capsys, caplog, monkeypatch):
     ex = phaselab.explore(hh, energy=E0, background=False)
     with caplog.at_level(logging.INFO, logger="phaselab.compile"):
         with progress.compiling("another test loop"):
+            import numba
+
+            numba.njit(lambda x: x + 1)(3)   # a real compilation (a lambda is never cached)
             time.sleep(1.1)
         ex.jobs.flush()
     assert capsys.readouterr().err == ""
@@ -711,8 +715,18 @@ def test_compile_events_show_in_the_status(hh):
 
     ex = phaselab.explore(hh, energy=E0, background=False)
     with progress.compiling("kernels of this system (test)"):
-        assert "compiling kernels for this system (first time only)" in ex.controls.status.value
-    assert "compiling" not in ex.controls.status.value
+        # nothing compiled yet: loading from the cache, not "first time only"
+        assert "loading kernels of this system (test) from the cache" in ex.controls.status.value
+        import numba
+
+        numba.njit(lambda x: x + 1)(1)  # a real compilation inside the block
+        for _ in range(50):   # the watcher thread's news reaches the widgets' thread at a flush
+            ex.jobs.flush()
+            if "compiling kernels of this system (test)" in ex.controls.status.value:
+                break
+            time.sleep(0.1)
+        assert "compiling kernels of this system (test)" in ex.controls.status.value
+    assert "compiling" not in ex.controls.status.value and "loading" not in ex.controls.status.value
     ex.close()
     with progress.compiling("after close"):
         pass  # a closed explorer no longer listens

@@ -143,6 +143,7 @@ class Explorer(OrbitCommands, ViewCommands, Wiring, Scheduling, Drawing, Session
         self._busy: dict[str, str] = {}
         self._compiling: list[str] = []
         self._compile_started: dict[str, float] = {}
+        self._compile_real: set[str] = set()   # what numba is really compiling (not loading)
         self._compile_note = ("", 0.0)  # the end of the last compilation shown, and when
         self._pending = 0
         self._waiting: dict = {}  # request serial -> points (n, 2) whose orbits are on the way

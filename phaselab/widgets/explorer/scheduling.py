@@ -266,7 +266,7 @@ class Scheduling:
         lines = []
         if self._compiling:
             first = min((self._compile_started.get(w, now) for w in self._compiling), default=now)
-            lines.append("compiling kernels for this system (first time only)" + since(first))
+            lines += [self._progress.describe(what) + since(first) for what in dict.fromkeys(self._compiling)]
         lines += [t + since(self._busy_since.get(k)) for k, t in self._busy.items() if t]
         return lines
 

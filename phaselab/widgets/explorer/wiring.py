@@ -187,8 +187,11 @@ class Wiring:
         self.set_view(plane={comp: float(c.plane_value.value)}, solve_for=rest[0], sign=int(c.direction.value))
 
     def _on_compile_event(self, event, what):
-        # called from any thread: hand it to the widgets' thread
+        # called from any thread: hand it to the widgets' thread (what numba really compiles is
+        # noted at once, so that the end, which may be applied first, names it right)
         now = time.monotonic()
+        if event == "compiling":
+            self._compile_real.add(what)
 
         def apply():
             if event == "start":
@@ -197,11 +200,16 @@ class Wiring:
                 self._show_status()
                 self._tick()
                 return
+            if event == "compiling":          # numba is really compiling it, not loading it
+                self._show_status()
+                return
             if what in self._compiling:
                 self._compiling.remove(what)
                 started = self._compile_started.pop(what, None)
+                verb = "compiled" if what in self._compile_real else "loaded"
+                self._compile_real.discard(what)
                 if started is not None and now - started >= 1.0:  # the end of a wait that was shown
-                    self._compile_note = (f"compiled {what} in {now - started:.1f} s (first time only)", now)
+                    self._compile_note = (f"{verb} {what} in {now - started:.1f} s", now)
             self._show_status()
 
         self.jobs.call_soon(apply, self._loop)

@@ -1,0 +1,217 @@
+"""The text of the compiled loops: reading the loop files and assembling them into modules.
+
+The loops (steppers, section crossings, tangent dynamics, ...) live as text in
+``engine/loops/*.py``. Each file starts with two declarations::
+
+    REQUIRES = ("steppers",)          # loop files whose functions this one calls
+    PROVIDES = ("section_plane_orbits", ...)   # entry points called from Python
+
+and may use, besides its own and its required files' functions, only the names that every
+assembled module defines (:data:`MODULE_NAMES`): ``np``, ``math``, ``njit``, ``prange``, the
+constants of :mod:`phaselab.engine.status`, and the kernel access functions
+``hamiltonian(kern, z, prm)``, ``grad_q(kern, z, prm, out)``, ``grad_p``, ``vector_field``,
+``jacobian``, ``hess_pp``, ``hess_qq``, ``map_step``, ``map_jacobian`` and ``nstate(z)``. A test
+checks every file's free names against this contract.
+
+The same text is assembled into two kinds of module (see :mod:`phaselab.engine.compiled` for
+when each runs): the *generic* module of a set of loop files calls ``kern`` through a function
+pointer; a system's *inlined* module holds the system's kernel functions and calls them
+directly. The two differ only in the kernel access functions, written from one table
+(:data:`ACCESS`).
+"""
+
+from __future__ import annotations
+
+import ast
+from dataclasses import dataclass
+from functools import lru_cache
+from pathlib import Path
+
+from phaselab.codegen import KERNELS
+from phaselab.codegen.cache import codegen_fingerprint, load_module, source_hash
+from phaselab.codegen.kernels import kernel_functions_source
+from phaselab.engine import status as codes
+from phaselab.errors import ParameterError
+
+LOOPS_DIR = Path(__file__).parent / "loops"
+
+ACCESS_NAMES = ("hamiltonian", "grad_q", "grad_p", "vector_field", "jacobian", "hess_pp", "hess_qq",
+                "map_step", "map_jacobian", "nstate")
+MODULE_NAMES = frozenset({"np", "math", "njit", "prange", *codes.LOOP_CONSTANTS, *ACCESS_NAMES})
+"""Names every assembled loop module defines for the loop files."""
+
+HEADER = '''"""Loops assembled by phaselab.engine.compiled ({what}). Do not edit."""
+import math
+import numpy as np
+import numba
+from numba import prange
+
+
+def njit(*args, **options):
+    """numba's njit with IEEE division (error_model "numpy"): x / 0 gives inf or nan
+    instead of raising, and the loops stop an orbit whose values are not finite."""
+    return numba.njit(*args, error_model="numpy", **options)
+
+
+{constants}
+'''
+
+_KERNEL_CALL = "kern({number}, z.ctypes, prm.ctypes, out.ctypes)"
+_INLINED_CALL = "k_{name}(z, prm, out)"
+
+ACCESS = (
+    # name, arguments, body in the generic module, in a flow's inlined module, in a map's
+    ("nstate", "z", "return z.shape[0]", "return NSTATE", "return NSTATE"),
+    ("hamiltonian", "kern, z, prm", "return kern({number}, z.ctypes, prm.ctypes, z.ctypes)",
+     "return k_hamiltonian(z, prm)", "return 0.0"),
+    ("grad_q", "kern, z, prm, out", _KERNEL_CALL, _INLINED_CALL, "pass"),
+    ("grad_p", "kern, z, prm, out", _KERNEL_CALL, _INLINED_CALL, "pass"),
+    ("vector_field", "kern, z, prm, out", _KERNEL_CALL, _INLINED_CALL, "pass"),
+    ("jacobian", "kern, z, prm, out", _KERNEL_CALL, _INLINED_CALL, "pass"),
+    ("hess_pp", "kern, z, prm, out", _KERNEL_CALL, _INLINED_CALL, "pass"),
+    ("hess_qq", "kern, z, prm, out", _KERNEL_CALL, _INLINED_CALL, "pass"),
+    ("map_step", "kern, z, prm, out", _KERNEL_CALL, "pass", _INLINED_CALL),
+    ("map_jacobian", "kern, z, prm, out", _KERNEL_CALL, "pass", _INLINED_CALL),
+)
+"""The kernel access functions of the assembled modules, one row each: the name, the
+arguments, and the one line of the body, per form (``{number}`` is the kernel's number in
+:data:`phaselab.codegen.KERNELS`, ``{name}`` the function's name)."""
+
+ACCESS_FORMS = ("generic", "flow", "map")
+
+_ACCESS_FUNCTION = '''
+@njit(cache=True, nogil=True)
+def {name}({arguments}):
+    {body}
+'''
+
+
+def access_source(form: str) -> str:
+    """The kernel access functions of one form: ``"generic"`` (through the function pointer
+    ``kern``), ``"flow"`` or ``"map"`` (a system's inlined module; the functions its kind
+    lacks do nothing)."""
+    column = ACCESS_FORMS.index(form)
+    functions = []
+    for name, arguments, *bodies in ACCESS:
+        body = bodies[column].format(name=name, number=KERNELS.get(name))
+        functions.append(_ACCESS_FUNCTION.format(name=name, arguments=arguments, body=body))
+    return "\n".join(functions)
+
+
+# ----------------------------------------------------------------------------- loop files
+@dataclass(frozen=True)
+class LoopFile:
+    """One loop file and its declarations.
+
+    Attributes
+    ----------
+    name : str
+        The file stem (``"sections"``).
+    text : str
+        The loop text without its declarations.
+    requires : tuple of str
+        Loop files whose functions it calls.
+    provides : tuple of str
+        Entry points called from Python.
+    defines : tuple of str
+        Every top-level function it defines.
+    """
+
+    name: str
+    text: str
+    requires: tuple
+    provides: tuple
+    defines: tuple
+
+
+@lru_cache(maxsize=None)
+def loop_file(name: str) -> LoopFile:
+    """Read and check the declarations of ``engine/loops/<name>.py``."""
+    path = LOOPS_DIR / f"{name}.py"
+    if not path.is_file():
+        raise ParameterError(f"no loop file named {name!r} in {LOOPS_DIR}")
+    text = path.read_text()
+    tree = ast.parse(text)
+    declared, drop = {}, []
+    for node in tree.body:
+        if isinstance(node, ast.Assign) and len(node.targets) == 1 \
+                and isinstance(node.targets[0], ast.Name) and node.targets[0].id in ("REQUIRES", "PROVIDES"):
+            declared[node.targets[0].id] = tuple(ast.literal_eval(node.value))
+            drop.append((node.lineno, node.end_lineno))
+    if set(declared) != {"REQUIRES", "PROVIDES"}:
+        raise RuntimeError(f"loop file {path} must declare REQUIRES and PROVIDES")
+    lines = text.split("\n")
+    for first, last in sorted(drop, reverse=True):
+        del lines[first - 1:last]
+    defines = tuple(n.name for n in tree.body if isinstance(n, ast.FunctionDef))
+    missing = set(declared["PROVIDES"]) - set(defines)
+    if missing:
+        raise RuntimeError(f"loop file {path} declares entry points it does not define: {sorted(missing)}")
+    return LoopFile(name, "\n".join(lines), declared["REQUIRES"], declared["PROVIDES"], defines)
+
+
+def closure(names) -> tuple[LoopFile, ...]:
+    """The named loop files and everything they require, each once, required files first."""
+    order: list[LoopFile] = []
+
+    def visit(name, trail):
+        if name in trail:
+            raise RuntimeError(f"loop files require each other in a cycle: {' -> '.join(trail + (name,))}")
+        if any(f.name == name for f in order):
+            return
+        lf = loop_file(name)
+        for dep in lf.requires:
+            visit(dep, trail + (name,))
+        order.append(lf)
+
+    for name in sorted(set(names)):
+        visit(name, ())
+    return tuple(order)
+
+
+# ----------------------------------------------------------------------------- module text
+def _constants(extra: dict | None = None) -> str:
+    items = dict(codes.LOOP_CONSTANTS)
+    items.update(extra or {})
+    return "\n".join(f"{k} = {v!r}" for k, v in items.items())
+
+
+def generic_source(files: tuple[LoopFile, ...]) -> str:
+    """The text of the generic module of a set of loop files."""
+    header = HEADER.format(what="generic: kernels called through a function pointer",
+                           constants=_constants())
+    return "\n".join([header, access_source("generic"), *(f.text for f in files)]) + "\n"
+
+
+def inlined_source(code, files: tuple[LoopFile, ...]) -> str:
+    """The text of a system's inlined module: its kernels, then the loops."""
+    header = HEADER.format(what=f"inlined kernels of system key {code.key}",
+                           constants=_constants({"NSTATE": code.n_state}))
+    access = access_source("flow" if code.kind == "flow" else "map")
+    return "\n".join([header, kernel_functions_source(code), access, *(f.text for f in files)]) + "\n"
+
+
+@lru_cache(maxsize=None)
+def _fingerprint() -> str:
+    return codegen_fingerprint()
+
+
+def _set_name(files) -> str:
+    return "-".join(f.name for f in files)
+
+
+def generic_module_name(files) -> str:
+    """The cache name of the generic module of ``files`` (changes with its text)."""
+    return f"loops_{_set_name(files)}_{source_hash(generic_source(files), _fingerprint())}"
+
+
+def inlined_module_name(key: str, files) -> str:
+    """The cache name of the inlined module of the system ``key`` and ``files``."""
+    texts = [HEADER, *(f.text for f in files)]
+    return f"inlined_{key[:16]}_{_set_name(files)}_{source_hash(key, *texts, _fingerprint())}"
+
+
+def generic_module(files):
+    """The imported generic module of a set of loop files."""
+    name = generic_module_name(files)
+    return load_module(name, lambda: generic_source(files))
