@@ -147,9 +147,9 @@ class Frequencies:
         ``.svg``, ``.pdf``, ``.png``: the frequency map (nu_1 against nu_2) when there are two
         or more columns, else the profile along the seeds (see
         :mod:`phaselab.export.frequency_figures`). Written atomically."""
-        from phaselab.export.frequency_figures import save_result
+        from phaselab.export import save
 
-        return save_result(self, path, **kwargs)
+        return save(self, path, **kwargs)
 
     def __repr__(self) -> str:
         return (f"Frequencies({self.n_orbits} orbits, {self.kind} of {', '.join(self.names)} in "

@@ -76,6 +76,27 @@ class ChaosIndicators(codes.StatusReport):
 
 
 
+    def to_xarray(self):
+        """An ``xarray.Dataset`` with CF attributes: the indicators, ``t_end``, ``status`` and
+        ``seeds`` over ``orbit`` (running values over ``record`` when kept)."""
+        from phaselab.orbits.labelled import chaos_dataset
+
+        return chaos_dataset(self)
+
+    def plot(self, **kwargs):
+        """A matplotlib figure of one indicator (``indicator="megno"``), see
+        :func:`phaselab.export.result_figures.chaos_figure`."""
+        from phaselab.export.result_figures import chaos_figure
+
+        return chaos_figure(self, **kwargs)
+
+    def save(self, path, **kwargs):
+        """Write to ``path`` in the format of its suffix (.nc, .zarr, .svg, .pdf, .png); see :data:`phaselab.export.SAVERS`.
+        Written atomically; returns the path."""
+        from phaselab.export import save
+
+        return save(self, path, **kwargs)
+
     def __repr__(self) -> str:
         span = float(np.nanmax(self.t_end)) if np.isfinite(self.t_end).any() else 0.0
         return (f"ChaosIndicators({len(self.lyapunov)} orbits to t={span:g}, method={self.method!r}, "

@@ -63,6 +63,25 @@ class ShellSeeds:
     system: object = None
     params: dict = field(default_factory=dict)
 
+    def to_xarray(self):
+        """An ``xarray.Dataset`` with CF attributes: ``states``, ``valid``, ``reason``."""
+        from phaselab.orbits.labelled import shell_seeds_dataset
+
+        return shell_seeds_dataset(self)
+
+    def plot(self, **kwargs):
+        """A matplotlib figure of the valid seeds in their two free components."""
+        from phaselab.export.result_figures import shell_seeds_figure
+
+        return shell_seeds_figure(self, **kwargs)
+
+    def save(self, path, **kwargs):
+        """Write to ``path`` in the format of its suffix (.nc, .zarr, .svg, .pdf, .png); see :data:`phaselab.export.SAVERS`.
+        Written atomically; returns the path."""
+        from phaselab.export import save
+
+        return save(self, path, **kwargs)
+
     @property
     def n_points(self) -> int:
         return self.states.shape[0]

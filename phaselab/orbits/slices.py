@@ -140,9 +140,9 @@ class SectionSlice:
     def save(self, path, **kwargs):
         """Write ``.nc`` data (with provenance) or a figure (``.svg``, ``.pdf``, ``.png``),
         atomically."""
-        from phaselab.export.slice_figures import save_slice
+        from phaselab.export import save
 
-        return save_slice(self, path, **kwargs)
+        return save(self, path, **kwargs)
 
     def __repr__(self) -> str:
         what = {"projection": f"projection on {', '.join(self.axes)}"

@@ -132,6 +132,27 @@ class Trajectory(codes.StatusReport):
         both = break_jumps(np.column_stack([t, z]), np.r_[0.0, period], np.r_[0.0, low])
         return both[:, 0], both[:, 1:]
 
+    def to_xarray(self):
+        """An ``xarray.Dataset`` with CF attributes: ``states`` over (``orbit``, ``time``,
+        ``state``), ``energy_error``, ``status``, ``escape_time``; provenance in ``attrs``."""
+        from phaselab.orbits.labelled import trajectory_dataset
+
+        return trajectory_dataset(self)
+
+    def plot(self, **kwargs):
+        """A matplotlib figure of the orbits in a plane of the state (default q1 against p1;
+        see :func:`phaselab.export.result_figures.trajectory_figure`)."""
+        from phaselab.export.result_figures import trajectory_figure
+
+        return trajectory_figure(self, **kwargs)
+
+    def save(self, path, **kwargs):
+        """Write to ``path`` in the format of its suffix (.nc, .zarr, .svg, .pdf, .png); see :data:`phaselab.export.SAVERS`.
+        Written atomically; returns the path."""
+        from phaselab.export import save
+
+        return save(self, path, **kwargs)
+
     def take(self, orbits) -> "Trajectory":
         """The trajectory of the selected orbits (index, indices or boolean mask), copied."""
         try:

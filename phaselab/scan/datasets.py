@@ -31,6 +31,7 @@ from phaselab.base.atomic import atomic_path, checked_path, open_folder, remove_
 from phaselab.engine import status as codes
 from phaselab.engine.provenance import (NOTE, expression_text, netcdf_attrs, provenance,  # noqa: F401
                                      state_names, versions, xarray_module)
+from phaselab.engine.provenance import cf_dataset
 from phaselab.errors import ParameterError, PhaselabError
 
 SMALL_BYTES = 64 * 2**20
@@ -114,7 +115,9 @@ def seed_dataset(grid, seeds, variables: dict, meta: dict, state=None, extra_coo
         for dim, name in ((where[1], grid.axis_names[0]), (where[0], grid.axis_names[1])):
             if units.get(str(name)):
                 ds[dim].attrs["units"] = units[str(name)]    # CF: the model's unit of the component
-    return ds
+        ds[where[1]].attrs["axis"] = "X"
+        ds[where[0]].attrs["axis"] = "Y"
+    return cf_dataset(ds)
 
 
 def time_unit(system) -> str:
@@ -138,6 +141,8 @@ def atomic_write(path, write) -> Path:
 
 def save_netcdf(dataset, path) -> Path:
     """Write an xarray Dataset to NetCDF atomically."""
+    dataset = cf_dataset(dataset)
+
     def write(tmp):
         try:
             dataset.to_netcdf(tmp)
@@ -153,6 +158,7 @@ def save_zarr(dataset, path) -> Path:
     folder, then renamed into place (an existing store of that name is replaced only once
     the new one is complete)."""
     zarr_module()
+    dataset = cf_dataset(dataset)
     path = checked_path(path)
     folder = path.parent if str(path.parent) else Path(".")
     if not folder.exists():  # a folder that is a file is refused when it is opened

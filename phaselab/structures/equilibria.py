@@ -122,6 +122,26 @@ class Equilibrium:
     free: tuple = field(default_factory=tuple)
     directions: np.ndarray = field(default_factory=lambda: np.zeros((0, 0)))
 
+    def to_xarray(self):
+        """An ``xarray.Dataset`` with CF attributes: the state and the eigenvalues."""
+        from phaselab.structures.labelled import equilibrium_dataset
+
+        return equilibrium_dataset(self)
+
+    def plot(self, **kwargs):
+        """A matplotlib figure of the eigenvalues in the complex plane (the unit circle drawn
+        for a map's fixed point, the imaginary axis for a flow's equilibrium)."""
+        from phaselab.export.result_figures import equilibrium_figure
+
+        return equilibrium_figure(self, flow=bool(np.isfinite(self.energy)), **kwargs)
+
+    def save(self, path, **kwargs):
+        """Write to ``path`` in the format of its suffix (.nc, .zarr, .svg, .pdf, .png); see :data:`phaselab.export.SAVERS`.
+        Written atomically; returns the path."""
+        from phaselab.export import save
+
+        return save(self, path, **kwargs)
+
     def __repr__(self) -> str:
         names = self.names or tuple(f"z{i}" for i in range(len(self.state)))
         where = ", ".join(f"{n}={_num(v)}" for n, v in zip(names, self.state))
