@@ -41,14 +41,10 @@ def _orbit(q=3.1, K=0.5):
     return phaselab.periodic_orbit(ROTOR, [q, 0.0], params={"K": K})
 
 
-def _oscillators():
-    return phaselab.compose_map([phaselab.LinearElement(np.eye(4))], ["q1", "q2"], ["p1", "p2"],
-                                name="identity")
-
-
 def _slice():
-    c, s = np.cos(0.7), np.sin(0.7)
-    rot = [[c, 0, s, 0], [0, c, 0, s], [-s, 0, c, 0], [0, -s, 0, c]]
+    c1, s1 = np.cos(2 * np.pi * 0.1234), np.sin(2 * np.pi * 0.1234)
+    c2, s2 = np.cos(2 * np.pi * 0.3071), np.sin(2 * np.pi * 0.3071)
+    rot = [[c1, 0, s1, 0], [0, c2, 0, s2], [-s1, 0, c1, 0], [0, -s2, 0, c2]]
     m = phaselab.compose_map([phaselab.LinearElement(rot)], ["q1", "q2"], ["p1", "p2"], name="rotations")
     sec = phaselab.section(m, np.array([[0.5, 0.2, 0.0, 0.1], [0.2, 0.6, 0.1, 0.0]]), crossings=40)
     return phaselab.section_slice(sec, "q2", 0.1, 0.3)

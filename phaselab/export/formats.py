@@ -15,8 +15,6 @@ from __future__ import annotations
 
 from pathlib import Path
 
-import matplotlib
-
 from phaselab.base.atomic import atomic_path, checked_path
 from phaselab.engine.provenance import cf_dataset
 from phaselab.errors import ParameterError
@@ -35,6 +33,8 @@ def write_data(result, path, **kwargs) -> Path:
 
 def write_figure(result, path, **kwargs) -> Path:
     """``result.plot(**kwargs)`` written atomically in the format of the suffix."""
+    import matplotlib
+
     path = Path(path)
     fig = result.plot(**kwargs)
     if not path.parent.exists():

@@ -142,6 +142,14 @@ class Frequencies:
         :attr:`names`), ``state`` and ``line``; provenance in ``attrs``."""
         return _to_xarray(self)
 
+    def plot(self, **kwargs):
+        """A matplotlib figure: the diffusion map over a grid, the frequency map for two or
+        more frequencies, else the profile along the seeds (see
+        :mod:`phaselab.export.frequency_figures`)."""
+        from phaselab.export.frequency_figures import result_figure
+
+        return result_figure(self, **kwargs)
+
     def save(self, path, **kwargs):
         """Write to ``path``: ``.nc`` (NetCDF through :meth:`to_xarray`), or a figure as
         ``.svg``, ``.pdf``, ``.png``: the frequency map (nu_1 against nu_2) when there are two

@@ -164,6 +164,32 @@ class Trajectory(codes.StatusReport):
                           escape_time=self.escape_time[idx].copy(), method=self.method, dt=self.dt,
                           system=self.system, params=dict(self.params))
 
+    @classmethod
+    def concat(cls, parts) -> "Trajectory":
+        """One trajectory holding every orbit of ``parts``, in order. The parts must share the
+        sample times, the state size, the method and the step.
+
+        Raises
+        ------
+        ParameterError
+            No parts, or parts that do not fit together.
+        """
+        parts = [p for p in parts if p is not None]
+        if not parts:
+            raise ParameterError("Trajectory.concat needs at least one trajectory")
+        first = parts[0]
+        for p in parts[1:]:
+            if not np.array_equal(p.t, first.t) or p.states.shape[2:] != first.states.shape[2:]:
+                raise ParameterError("Trajectory.concat needs trajectories sampled at the same times "
+                                     "with the same state size")
+            if p.method != first.method or not np.array_equal(p.dt, first.dt, equal_nan=True):
+                raise ParameterError("Trajectory.concat needs trajectories of one method and step")
+        return Trajectory(t=first.t.copy(), states=np.concatenate([p.states for p in parts]),
+                          energy_error=np.concatenate([p.energy_error for p in parts]),
+                          status=np.concatenate([p.status for p in parts]),
+                          escape_time=np.concatenate([p.escape_time for p in parts]),
+                          method=first.method, dt=first.dt, system=first.system, params=dict(first.params))
+
     def __repr__(self) -> str:
         worst = np.nanmax(np.abs(self.energy_error)) if np.isfinite(self.energy_error).any() else 0.0
         return (f"Trajectory({self.n_orbits} orbits x {len(self.t)} samples, method={self.method!r}, "

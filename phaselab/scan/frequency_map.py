@@ -107,6 +107,14 @@ class FrequencyMap:
         return labels.seed_dataset(self.grid, self.seeds, variables, self.meta,
                                    extra_coords={"dof": np.array(self.names, dtype=object)})
 
+    def plot(self, **kwargs):
+        """A matplotlib figure: the diffusion map over a grid, the frequency map for two or
+        more frequencies, else the profile along the seeds (see
+        :mod:`phaselab.export.frequency_figures`)."""
+        from phaselab.export.frequency_figures import result_figure
+
+        return result_figure(self, **kwargs)
+
     def save(self, path, **kwargs):
         """Write to ``path``: ``.nc`` or ``.zarr`` (NetCDF or Zarr of :meth:`to_xarray`; no
         suffix: by size), or ``.svg``, ``.pdf``, ``.png``: the diffusion map over the grid
