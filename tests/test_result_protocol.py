@@ -188,3 +188,21 @@ def test_cf_readers_find_the_axes_and_the_units(tmp_path):
         assert ds.cf.axes["T"] == ["time"]
         assert ds.cf["T"].attrs["units"] == "s"
         assert ds.attrs["Conventions"] == "CF-1.10" and "phaselab" in ds.attrs["source"]
+
+
+def test_scan_store_opens_with_xarray_resumes_aloud_and_is_never_overwritten(tmp_path, capsys):
+    """A scan's resume store is a Zarr group xarray.open_zarr reads (dimension names on every
+    array); a resumed scan says how many chunks were done; save() refuses the store's name."""
+    grid = _grid()
+    store = tmp_path / "megno.zarr"
+    first = phaselab.chaos_map(ROTOR, grid, 20, params=PARAMS, progress=False, store=store, batch_size=2)
+    assert "resuming" not in capsys.readouterr().err
+    again = phaselab.chaos_map(ROTOR, grid, 20, params=PARAMS, progress=False, store=store, batch_size=2)
+    assert "resuming: 3 of 3 chunks done" in capsys.readouterr().err
+    np.testing.assert_array_equal(again.values, first.values)
+    ds = xr.open_zarr(store)
+    assert ds.attrs["Conventions"] == "CF-1.10"
+    np.testing.assert_array_equal(ds["values"].values, first.values)
+    with pytest.raises(phaselab.ParameterError, match="resume store of a scan.*megno.zarr"):
+        again.save(store)
+    xr.open_zarr(store)        # still the store

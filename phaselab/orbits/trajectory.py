@@ -133,22 +133,19 @@ class Trajectory(codes.StatusReport):
         return both[:, 0], both[:, 1:]
 
     def to_xarray(self):
-        """An ``xarray.Dataset`` with CF attributes: ``states`` over (``orbit``, ``time``,
-        ``state``), ``energy_error``, ``status``, ``escape_time``; provenance in ``attrs``."""
+        """An ``xarray.Dataset`` (CF attributes): ``states`` over (orbit, time, state), ..."""
         from phaselab.orbits.labelled import trajectory_dataset
 
         return trajectory_dataset(self)
 
     def plot(self, **kwargs):
-        """A matplotlib figure of the orbits in a plane of the state (default q1 against p1;
-        see :func:`phaselab.export.result_figures.trajectory_figure`)."""
+        """A matplotlib figure of the orbits (:func:`phaselab.export.result_figures.trajectory_figure`)."""
         from phaselab.export.result_figures import trajectory_figure
 
         return trajectory_figure(self, **kwargs)
 
     def save(self, path, **kwargs):
-        """Write to ``path`` in the format of its suffix (.nc, .zarr, .svg, .pdf, .png); see :data:`phaselab.export.SAVERS`.
-        Written atomically; returns the path."""
+        """Write .nc, .zarr, .svg, .pdf or .png (:data:`phaselab.export.SAVERS`); returns the path."""
         from phaselab.export import save
 
         return save(self, path, **kwargs)
@@ -166,29 +163,20 @@ class Trajectory(codes.StatusReport):
 
     @classmethod
     def concat(cls, parts) -> "Trajectory":
-        """One trajectory holding every orbit of ``parts``, in order. The parts must share the
-        sample times, the state size, the method and the step.
-
-        Raises
-        ------
-        ParameterError
-            No parts, or parts that do not fit together.
-        """
+        """One trajectory of every orbit of ``parts`` (same times, state size, method and step)."""
         parts = [p for p in parts if p is not None]
         if not parts:
             raise ParameterError("Trajectory.concat needs at least one trajectory")
         first = parts[0]
         for p in parts[1:]:
-            if not np.array_equal(p.t, first.t) or p.states.shape[2:] != first.states.shape[2:]:
-                raise ParameterError("Trajectory.concat needs trajectories sampled at the same times "
-                                     "with the same state size")
-            if p.method != first.method or not np.array_equal(p.dt, first.dt, equal_nan=True):
-                raise ParameterError("Trajectory.concat needs trajectories of one method and step")
-        return Trajectory(t=first.t.copy(), states=np.concatenate([p.states for p in parts]),
-                          energy_error=np.concatenate([p.energy_error for p in parts]),
-                          status=np.concatenate([p.status for p in parts]),
-                          escape_time=np.concatenate([p.escape_time for p in parts]),
-                          method=first.method, dt=first.dt, system=first.system, params=dict(first.params))
+            if (not np.array_equal(p.t, first.t) or p.states.shape[2:] != first.states.shape[2:]
+                    or p.method != first.method or not np.array_equal(p.dt, first.dt, equal_nan=True)):
+                raise ParameterError("Trajectory.concat needs trajectories of one method and step, "
+                                     "sampled at the same times, with the same state size")
+        joined = {k: np.concatenate([getattr(p, k) for p in parts])
+                  for k in ("states", "energy_error", "status", "escape_time")}
+        return Trajectory(t=first.t.copy(), **joined, method=first.method, dt=first.dt,
+                          system=first.system, params=dict(first.params))
 
     def __repr__(self) -> str:
         worst = np.nanmax(np.abs(self.energy_error)) if np.isfinite(self.energy_error).any() else 0.0

@@ -34,6 +34,9 @@ from phaselab.engine.provenance import (NOTE, expression_text, netcdf_attrs, pro
 from phaselab.engine.provenance import cf_dataset
 from phaselab.errors import ParameterError, PhaselabError
 
+SCAN_STORE_KEY = "phaselab_scan"
+"""The group attribute that marks a scan's resume store (:mod:`phaselab.scan.store`)."""
+
 SMALL_BYTES = 64 * 2**20
 """Results up to this size are saved as NetCDF when the path has no suffix, larger ones as Zarr."""
 
@@ -165,6 +168,10 @@ def save_zarr(dataset, path) -> Path:
         raise ParameterError(f"cannot save to {path}: folder {folder} does not exist")
     if path.exists() and not path.is_dir():
         raise ParameterError(f"cannot save a Zarr store to {path}: a file of that name exists")
+    if is_scan_store(path):
+        raise ParameterError(f"cannot save to {path}: it is the resume store of a scan (store={path.name!r}), "
+                             "which saving would replace; save to another name, or delete the store "
+                             "first if the scan will not be resumed")
     tmp = folder / temporary_name(path, "partial")
     old = folder / temporary_name(path, "old")
     try:
@@ -190,6 +197,17 @@ def save_zarr(dataset, path) -> Path:
         raise
     shutil.rmtree(old, ignore_errors=True)
     return path
+
+
+def is_scan_store(path) -> bool:
+    """Whether the folder ``path`` is a scan's resume store (its Zarr group metadata carries
+    :data:`SCAN_STORE_KEY`)."""
+    meta = Path(path) / "zarr.json"
+    try:
+        attrs = json.loads(meta.read_text(encoding="utf-8")).get("attributes") or {}
+    except (OSError, ValueError, AttributeError):
+        return False
+    return isinstance(attrs, dict) and SCAN_STORE_KEY in attrs
 
 
 def save_dataset(dataset, path) -> Path:
