@@ -108,7 +108,6 @@ def test_every_public_result_class_is_walked():
 def test_to_xarray_is_a_cf_dataset(name):
     ds = built(name).to_xarray()
     assert isinstance(ds, xr.Dataset)
-    ds = phaselab.engine.provenance.cf_dataset(ds) if "Conventions" not in ds.attrs else ds
     assert ds.attrs["Conventions"] == "CF-1.10"
     for key in ("title", "history", "source"):
         assert ds.attrs[key], key

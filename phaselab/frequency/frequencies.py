@@ -27,6 +27,7 @@ from phaselab.frequency.sampling import (DEFAULT_SAMPLES, MIN_SAMPLES, angle_per
                                          parameter_values, sample_orbits, sampling_plan)
 from phaselab.frequency.signals import DIFFUSION_FLOOR, analyse_samples
 from phaselab.frequency.spectral import MAX_WINDOW_ORDER, SpectralLines
+from phaselab.engine.provenance import cf_dataset
 
 __all__ = ["frequencies", "rotation_number", "Frequencies", "STATUS_TEXT", "DEFAULT_SAMPLES",
            "integration_step", "analyse_samples", "birkhoff_weights"]
@@ -140,7 +141,7 @@ class Frequencies:
     def to_xarray(self):
         """The result as an ``xarray.Dataset``: dims ``orbit``, ``dof`` (labelled by
         :attr:`names`), ``state`` and ``line``; provenance in ``attrs``."""
-        return _to_xarray(self)
+        return cf_dataset(_to_xarray(self))
 
     def plot(self, **kwargs):
         """A matplotlib figure: the diffusion map over a grid, the frequency map for two or

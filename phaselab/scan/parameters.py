@@ -15,6 +15,7 @@ from phaselab.errors import ParameterError
 from phaselab.scan import datasets as labels
 from phaselab.scan.runner import RunInfo, chunk_size, numba_threads, run_chunks
 from phaselab.scan.store import seeds_digest
+from phaselab.engine.provenance import cf_dataset
 
 
 @dataclass
@@ -81,7 +82,7 @@ class ParameterScan:
             values = self.array()
             extra = tuple(f"result_{k}" for k in range(values.ndim - len(dims)))
             data["result"] = (dims + extra, values)
-        return xr.Dataset(data_vars=data, coords=coords, attrs=labels.netcdf_attrs(self.meta))
+        return cf_dataset(xr.Dataset(data_vars=data, coords=coords, attrs=labels.netcdf_attrs(self.meta)))
 
     def plot(self, **kwargs):
         """A matplotlib figure: a curve over one parameter, a picture over two."""

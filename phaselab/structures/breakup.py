@@ -87,8 +87,7 @@ class TorusBreakup:
         return breakup_figure(self, **kwargs)
 
     def save(self, path, **kwargs):
-        """Write to ``path`` in the format of its suffix (.nc, .zarr, .svg, .pdf, .png); see :data:`phaselab.export.SAVERS`.
-        Written atomically; returns the path."""
+        """Write .nc, .zarr, .svg, .pdf or .png (:data:`phaselab.export.SAVERS`); returns the path."""
         from phaselab.export import save
 
         return save(self, path, **kwargs)

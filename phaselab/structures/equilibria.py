@@ -129,15 +129,13 @@ class Equilibrium:
         return equilibrium_dataset(self)
 
     def plot(self, **kwargs):
-        """A matplotlib figure of the eigenvalues in the complex plane (the unit circle drawn
-        for a map's fixed point, the imaginary axis for a flow's equilibrium)."""
+        """A matplotlib figure of the eigenvalues (with the unit circle of a map, the imaginary axis of a flow)."""
         from phaselab.export.result_figures import equilibrium_figure
 
         return equilibrium_figure(self, flow=bool(np.isfinite(self.energy)), **kwargs)
 
     def save(self, path, **kwargs):
-        """Write to ``path`` in the format of its suffix (.nc, .zarr, .svg, .pdf, .png); see :data:`phaselab.export.SAVERS`.
-        Written atomically; returns the path."""
+        """Write .nc, .zarr, .svg, .pdf or .png (:data:`phaselab.export.SAVERS`); returns the path."""
         from phaselab.export import save
 
         return save(self, path, **kwargs)

@@ -261,7 +261,7 @@ class NormalForm:
 
         rows = self.table()
         degrees = sorted(self.small_divisors)
-        return xr.Dataset(
+        return cf_dataset(xr.Dataset(
             {"powers": (("term", "mode"), np.array([[float(sp.Rational(p)) for p in r["powers"]] for r in rows])),
              "harmonic": (("term", "mode"), np.array([r["harmonic"] for r in rows], dtype=int)),
              "cos": ("term", np.array([r["cos_value"] for r in rows])),
@@ -275,7 +275,7 @@ class NormalForm:
                    "resonances": json.dumps([list(r) for r in self.resonances]),
                    "equilibrium": json.dumps(self.equilibrium.tolist()), "params": json.dumps(self.params),
                    "state_names": json.dumps(list(self.names)), "hamiltonian": str(self.hamiltonian),
-                   "model_note": "model results: confirm with validated tools"})
+                   "model_note": "model results: confirm with validated tools"}))
 
     def save(self, path, **kwargs) -> Path:
         """Write the normal form: ``.json`` (summary), ``.nc`` (:meth:`to_xarray`), ``.tex``
