@@ -187,6 +187,11 @@ def test_cf_readers_find_the_axes_and_the_units(tmp_path):
         assert ds.cf.axes["T"] == ["time"]
         assert ds.cf["T"].attrs["units"] == "s"
         assert ds.attrs["Conventions"] == "CF-1.10" and "phaselab" in ds.attrs["source"]
+    square = phaselab.state_grid(flow, {"x": (-1.0, 1.0, 2), "p": (-1.0, 1.0, 2)})
+    path = phaselab.escape_map(flow, square, 1.0, 5.0, dt=0.1, progress=False).save(tmp_path / "escape.nc")
+    with xr.open_dataset(path) as ds:      # the model's time unit replaces "model time units"
+        assert ds["survival_time"].attrs["units"] == "s"
+        assert ds.cf["X"].attrs["units"] == "m" and ds.cf["Y"].attrs["units"] == "kg m s^-1"
 
 
 def test_scan_store_opens_with_xarray_resumes_aloud_and_is_never_overwritten(tmp_path, capsys):

@@ -215,12 +215,31 @@ def cf_dataset(ds, title: str | None = None):
                            + (f", system {system}" if system else "")
                            + (f": {expression}" if expression else ""))
     out.attrs = attrs
+    time_unit = model_time_unit(attrs)
     for name in list(out.variables):
         var_attrs = dict(out[name].attrs)
         var_attrs.setdefault("long_name", str(var_attrs.get("description") or name))
         unit = var_attrs.get("units")
+        if unit == "model time units" and time_unit:
+            var_attrs["units"] = unit = time_unit      # the model declares its time's unit
         if isinstance(unit, str) and any(w in unit for w in PHASELAB_UNIT_WORDS):
             del var_attrs["units"]
             var_attrs.setdefault("comment", f"in {unit}")
         out[name].attrs = var_attrs
     return out
+
+
+def model_time_unit(attrs: dict) -> str | None:
+    """The unit the model declares for its time, read from a result's attributes (``units``
+    minus the state components and the parameters, written by :func:`provenance`), or None."""
+    def read(key, empty):
+        value = attrs.get(key, empty)
+        try:
+            return json.loads(value) if isinstance(value, str) else (value or empty)
+        except ValueError:
+            return empty
+    units, state, params = read("units", {}), read("state", []), read("params", {})
+    if not isinstance(units, dict):
+        return None
+    named = set(state if isinstance(state, list) else []) | set(params if isinstance(params, dict) else [])
+    return next((str(u) for k, u in units.items() if k not in named), None)

@@ -13,7 +13,8 @@ from __future__ import annotations
 import numpy as np
 
 from phaselab.engine import status as codes
-from phaselab.engine.provenance import cf_dataset, netcdf_attrs, provenance, state_names, xarray_module
+from phaselab.engine.provenance import (cf_dataset, model_time_unit, netcdf_attrs, provenance, state_names,
+                                        xarray_module)
 
 
 def _status_words() -> str:
@@ -25,7 +26,7 @@ def _state(system, width):
 
 
 def _time_units(system) -> dict:
-    unit = (getattr(system, "units", None) or {}).get("t")
+    unit = model_time_unit(provenance(system)) if system is not None else None
     return {"units": unit} if unit else {}
 
 
