@@ -81,7 +81,7 @@ BUILDERS = {
 ORBITS = {"Trajectory", "Section", "ChaosIndicators", "Frequencies"}
 """Results that hold orbits, each with its status."""
 
-BATCHES = {"Trajectory", "Section"}
+BATCHES = {"Trajectory", "Section", "ChaosIndicators"}
 """Results that are batches of orbits (select with take, join with concat)."""
 
 _BUILT = {}
@@ -164,7 +164,7 @@ def test_take_and_concat_give_the_same_orbits(name):
     first, rest = result.take([0]), result.take(list(range(1, len(result.status))))
     joined = type(result).concat([first, rest])
     np.testing.assert_array_equal(joined.status, result.status)
-    data = "states" if name == "Trajectory" else "points"
+    data = {"Trajectory": "states", "Section": "points", "ChaosIndicators": "megno"}[name]
     np.testing.assert_array_equal(getattr(joined, data), getattr(result, data))
 
 
@@ -210,3 +210,17 @@ def test_scan_store_opens_with_xarray_resumes_aloud_and_is_never_overwritten(tmp
     with pytest.raises(phaselab.ParameterError, match="resume store of a scan.*megno.zarr"):
         again.save(store)
     xr.open_zarr(store)        # still the store
+
+
+def test_take_and_concat_keep_running_values_and_refuse_parts_that_do_not_fit():
+    ci = phaselab.chaos_indicators(ROTOR, STATES, 40, params=PARAMS, history=True, record_every=10)
+    back = type(ci).concat([ci.take([2]), ci.take([0, 1])])
+    np.testing.assert_array_equal(back.history["megno"], ci.history["megno"][[2, 0, 1]])
+    np.testing.assert_array_equal(back.seeds, ci.seeds[[2, 0, 1]])
+    other = phaselab.chaos_indicators(ROTOR, STATES, 40, params=PARAMS, history=True, record_every=20)
+    with pytest.raises(phaselab.ParameterError, match="record times"):
+        type(ci).concat([ci, other])
+    tr = built("Trajectory")
+    longer = phaselab.trajectory(_pendulum(), [[0.5, 0.0]], 3.0, dt=0.05)
+    with pytest.raises(phaselab.ParameterError, match="same times"):
+        type(tr).concat([tr, longer])
