@@ -165,3 +165,81 @@ def plain(value, nan_as_none: bool = False):
     if nan_as_none and isinstance(value, float) and not np.isfinite(value):
         return None
     return value
+
+
+# ----------------------------------------------------------------------------- CF conventions
+CF_CONVENTIONS = "CF-1.10"
+"""The version of the CF conventions every NetCDF and Zarr file follows."""
+
+PHASELAB_UNIT_WORDS = ("model time", "iterate", "log10", "per ")
+"""Words of phaselab's own unit wording that a CF reader cannot parse (such a wording is kept
+in the variable's ``comment`` instead of its ``units``)."""
+
+
+def cf_dataset(ds, title: str | None = None):
+    """A shallow copy of ``ds`` carrying the CF attributes (the one place they are written).
+
+    Global: ``Conventions`` (:data:`CF_CONVENTIONS`), ``title``, ``history`` (UTC date and the
+    phaselab version, added once: a dataset that has it keeps its date), ``source`` (phaselab and the system).
+    Per variable and coordinate: ``long_name`` (from its ``description``, else its name) and
+    ``units`` only where a unit is known (phaselab's own wording such as "model time units"
+    moves to ``comment``). Provenance already in ``ds.attrs`` is kept.
+
+    Parameters
+    ----------
+    ds : xarray.Dataset
+    title : str, optional
+        Default: the system's name and the kind of result.
+
+    Returns
+    -------
+    xarray.Dataset
+    """
+    import datetime
+
+    import phaselab
+
+    out = ds.copy()
+    attrs = dict(out.attrs)
+    system = str(attrs.get("system") or "")
+    attrs["Conventions"] = CF_CONVENTIONS
+    if title or not attrs.get("title"):
+        attrs["title"] = title or (f"phaselab result for {system}" if system else "phaselab result")
+    stamp = datetime.datetime.now(datetime.timezone.utc).strftime("%Y-%m-%dT%H:%M:%SZ")
+    line = f"{stamp} written by phaselab {phaselab.__version__}"
+    earlier = str(attrs.get("history") or "")
+    attrs["history"] = earlier if "phaselab" in earlier else (f"{earlier}\n{line}" if earlier else line)
+    if not attrs.get("source"):
+        expression = str(attrs.get("expression") or "")
+        attrs["source"] = (f"phaselab {phaselab.__version__}"
+                           + (f", system {system}" if system else "")
+                           + (f": {expression}" if expression else ""))
+    out.attrs = attrs
+    time_unit = model_time_unit(attrs)
+    for name in list(out.variables):
+        var_attrs = dict(out[name].attrs)
+        var_attrs.setdefault("long_name", str(var_attrs.get("description") or name))
+        unit = var_attrs.get("units")
+        if unit == "model time units" and time_unit:
+            var_attrs["units"] = unit = time_unit      # the model declares its time's unit
+        if isinstance(unit, str) and any(w in unit for w in PHASELAB_UNIT_WORDS):
+            del var_attrs["units"]
+            var_attrs.setdefault("comment", f"in {unit}")
+        out[name].attrs = var_attrs
+    return out
+
+
+def model_time_unit(attrs: dict) -> str | None:
+    """The unit the model declares for its time, read from a result's attributes (``units``
+    minus the state components and the parameters, written by :func:`provenance`), or None."""
+    def read(key, empty):
+        value = attrs.get(key, empty)
+        try:
+            return json.loads(value) if isinstance(value, str) else (value or empty)
+        except ValueError:
+            return empty
+    units, state, params = read("units", {}), read("state", []), read("params", {})
+    if not isinstance(units, dict):
+        return None
+    named = set(state if isinstance(state, list) else []) | set(params if isinstance(params, dict) else [])
+    return next((str(u) for k, u in units.items() if k not in named), None)

@@ -27,9 +27,9 @@ from phaselab.export.data import (load_section, read_section_csv, read_section_n
 from phaselab.export.describe import check_section, section_metadata
 from phaselab.base.atomic import checked_path
 from phaselab.export.figures import ORBIT_COLORS, save_figure, section_figure
+from phaselab.export.formats import FORMATS, save_result
 from phaselab.export.interactive import bokeh_figure, save_html
 from phaselab.export.portraits import level_set_figure, save_level_set
-from phaselab.export.slice_figures import save_slice
 
 _WRITERS = {
     ".svg": save_figure,
@@ -63,22 +63,9 @@ def _save_section(section, path, **kwargs):
     return writer(section, path, **kwargs)
 
 
-def _save_structure(obj, path, **kwargs):
-    from phaselab.export.structures import save_structure
-
-    return save_structure(obj, path, **kwargs)
-
-
-SAVERS = {
-    "Section": _save_section,
-    "LevelSet": save_level_set,
-    "PeriodicOrbit": _save_structure,
-    "PeriodicOrbits": _save_structure,
-    "Manifold": _save_structure,
-    "Family": _save_structure,
-    "SectionSlice": save_slice,
-}
-"""How each result type is saved, by class name (the one table ``save`` dispatches on)."""
+SAVERS = FORMATS
+"""The one table ``save`` dispatches on: result type name -> {suffix: writer}
+(:data:`phaselab.export.formats.FORMATS`)."""
 
 
 def save(section, path, **kwargs):
@@ -86,14 +73,15 @@ def save(section, path, **kwargs):
 
     Parameters
     ----------
-    section : Section, LevelSet, PeriodicOrbit, PeriodicOrbits, Manifold or Family
-        The result (:data:`SAVERS` lists the types and their writers).
+    section : any phaselab result
+        The result (:data:`SAVERS` lists the types, their suffixes and their writers).
     path : str or pathlib.Path
-        For a section .svg, .pdf, .png, .csv, .nc or .html; for a level set a figure; for
-        orbits, manifolds and families .json, .nc or a figure.
+        For a section .svg, .pdf, .png, .csv, .nc, .zarr or .html; for orbits, manifolds
+        and families .json, .nc or a figure; for scans .nc, .zarr (no suffix: by size) or
+        a figure of the picture; see :data:`SAVERS`.
     **kwargs
-        Options of the writer: figure options (size, dpi, point_size, color, title,
-        overlays, footer, ...) for images and HTML; none for data files.
+        Options of the writer: figure options (size, dpi, title, ...) for images and HTML;
+        none for data files.
 
     Returns
     -------
@@ -102,16 +90,13 @@ def save(section, path, **kwargs):
 
     Raises
     ------
-    PhaselabError
-        For an unknown suffix, a section without points, options a data file does not
-        take, or (for .nc) a missing xarray.
+    ParameterError
+        For a suffix the type cannot be saved as (the message names those it can), a section
+        without points, options a data file does not take.
     """
     path = checked_path(path)
-    for cls in type(section).__mro__:
-        saver = SAVERS.get(cls.__name__)
-        if saver is not None:
-            return saver(section, path, **kwargs)
+    if any(cls.__name__ in FORMATS for cls in type(section).__mro__):
+        return save_result(section, path, **kwargs)
     if hasattr(section, "points") and hasattr(section, "axes"):  # a section-like record
         return _save_section(section, path, **kwargs)
-    raise PhaselabError(f"phaselab cannot save a {type(section).__name__}; it saves "
-                        + ", ".join(SAVERS))
+    return save_result(section, path, **kwargs)

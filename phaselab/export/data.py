@@ -41,6 +41,7 @@ from phaselab.errors import DataFileError, ParameterError, PhaselabError
 from phaselab.export import section_checks as checks
 from phaselab.export.describe import check_section, label_units, section_metadata
 from phaselab.base.atomic import atomic_path, checked_path
+from phaselab.engine.provenance import cf_dataset
 
 FORMAT_LINE = "# phaselab section data"
 #: largest section CSV file read, in bytes (what a file may declare is bounded by the memory
@@ -338,6 +339,7 @@ def write_section_netcdf(section, path):
     ds["escaped"].attrs["description"] = "1 where the orbit left the box or went non-finite"
     ds["status"].attrs["description"] = "why each orbit stopped: " + "; ".join(
         f"{k} {v}" for k, v in STATUS.items())
+    ds = cf_dataset(ds, title=f"Surface of section of {meta.get('system') or 'a model'}")
     with atomic_path(path) as tmp:
         try:
             ds.to_netcdf(tmp)

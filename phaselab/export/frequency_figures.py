@@ -478,10 +478,14 @@ def save_result(result, path, **kwargs) -> Path:
     if suffix not in FIGURE_SUFFIXES:
         raise ParameterError(f"cannot save as {suffix or 'a file without suffix'!r}; use .nc, .svg, "
                             ".pdf or .png")
+    return save_figure(result_figure(result, **kwargs), path)
+
+
+def result_figure(result, **kwargs):
+    """The figure of a Frequencies or FrequencyMap: a diffusion map for a grid, a frequency
+    map for two or more frequencies, else a profile."""
     if getattr(result, "grid", None) is not None:
-        fig = diffusion_map_figure(result, **kwargs)
-    elif np.asarray(result.nu).shape[1] >= 2:
-        fig = frequency_map_figure(result, **kwargs)
-    else:
-        fig = frequency_profile_figure(result, **kwargs)
-    return save_figure(fig, path)
+        return diffusion_map_figure(result, **kwargs)
+    if np.asarray(result.nu).shape[1] >= 2:
+        return frequency_map_figure(result, **kwargs)
+    return frequency_profile_figure(result, **kwargs)

@@ -41,9 +41,9 @@ NC_SCHEMA = {
 }
 #: variables a file may lack (written by versions before status codes were recorded)
 NC_OPTIONAL = {"status"}
-#: variable attributes phaselab writes (anything else, such as units, calendar,
-#: scale_factor or add_offset, would change what the numbers mean)
-NC_VARIABLE_ATTRS = {"_FillValue", "description"}
+#: variable attributes phaselab writes: the fill value and the CF labels (anything else, such
+#: as calendar, scale_factor or add_offset, would change what the numbers mean)
+NC_VARIABLE_ATTRS = {"_FillValue", "description", "long_name", "units", "component_units", "comment"}
 #: header values that are text, when present
 TEXT_KEYS = ("system", "kind", "expression", "method", "phaselab_version")
 
@@ -260,6 +260,8 @@ def check_netcdf_layout(path, lazy) -> None:
             raise DataFileError(f"{path}: variable {name!r} is {var.dtype} over {tuple(var.dims)}; "
                                 f"phaselab writes {dtype} over {dims}")
         unknown = sorted(set(var.attrs) - NC_VARIABLE_ATTRS)
+        if " since " in str(var.attrs.get("units", "")):   # a time reference (CF 4.4): not a model unit
+            unknown = ["units"]
         if unknown:
             raise DataFileError(f"{path}: variable {name!r} carries the attribute {unknown[0]!r}, which "
                                 "phaselab never writes (it would change what the numbers mean)")

@@ -19,6 +19,7 @@ import numpy as np
 
 from phaselab.base.atomic import atomic_path
 from phaselab.engine.provenance import MODEL_NOTE
+from phaselab.engine.provenance import cf_dataset
 from phaselab.errors import ParameterError
 from phaselab.export.figures import (FIGURE_SUFFIXES, ORBIT_COLORS, REPORT_RC, check_size, check_texts,
                                      scalar_colormap)
@@ -154,7 +155,7 @@ def save_slice(result, path, **kwargs) -> Path:
     if suffix == ".nc":
         if kwargs:
             raise ParameterError(f".nc data files take no options, got {', '.join(sorted(kwargs))}")
-        ds = result.to_xarray()
+        ds = cf_dataset(result.to_xarray())
         with atomic_path(path) as tmp:
             ds.to_netcdf(tmp)
         return path

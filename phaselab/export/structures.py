@@ -18,6 +18,7 @@ import numpy as np
 from phaselab.engine.provenance import MODEL_NOTE, provenance
 from phaselab.errors import PhaselabError
 from phaselab.export.marks import BRANCH_STYLE, MARKERS
+from phaselab.engine.provenance import cf_dataset
 
 
 
@@ -206,7 +207,7 @@ def save_structure(obj, path, **kwargs) -> Path:
         text = json.dumps(data, indent=1, allow_nan=True)
         return _write_atomic(path, lambda tmp: Path(tmp).write_text(text + "\n", encoding="utf-8"))
     if suffix == ".nc":
-        ds = obj.to_xarray()
+        ds = cf_dataset(obj.to_xarray())
         return _write_atomic(path, lambda tmp: ds.to_netcdf(tmp))
     raise PhaselabError(f"cannot save a {_kind(obj)} as {suffix or 'a file without suffix'!r}; use .json, "
                         ".nc, .svg, .pdf or .png")

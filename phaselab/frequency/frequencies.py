@@ -27,6 +27,7 @@ from phaselab.frequency.sampling import (DEFAULT_SAMPLES, MIN_SAMPLES, angle_per
                                          parameter_values, sample_orbits, sampling_plan)
 from phaselab.frequency.signals import DIFFUSION_FLOOR, analyse_samples
 from phaselab.frequency.spectral import MAX_WINDOW_ORDER, SpectralLines
+from phaselab.engine.provenance import cf_dataset
 
 __all__ = ["frequencies", "rotation_number", "Frequencies", "STATUS_TEXT", "DEFAULT_SAMPLES",
            "integration_step", "analyse_samples", "birkhoff_weights"]
@@ -140,16 +141,24 @@ class Frequencies:
     def to_xarray(self):
         """The result as an ``xarray.Dataset``: dims ``orbit``, ``dof`` (labelled by
         :attr:`names`), ``state`` and ``line``; provenance in ``attrs``."""
-        return _to_xarray(self)
+        return cf_dataset(_to_xarray(self))
+
+    def plot(self, **kwargs):
+        """A matplotlib figure: the diffusion map over a grid, the frequency map for two or
+        more frequencies, else the profile along the seeds (see
+        :mod:`phaselab.export.frequency_figures`)."""
+        from phaselab.export.frequency_figures import result_figure
+
+        return result_figure(self, **kwargs)
 
     def save(self, path, **kwargs):
         """Write to ``path``: ``.nc`` (NetCDF through :meth:`to_xarray`), or a figure as
         ``.svg``, ``.pdf``, ``.png``: the frequency map (nu_1 against nu_2) when there are two
         or more columns, else the profile along the seeds (see
         :mod:`phaselab.export.frequency_figures`). Written atomically."""
-        from phaselab.export.frequency_figures import save_result
+        from phaselab.export import save
 
-        return save_result(self, path, **kwargs)
+        return save(self, path, **kwargs)
 
     def __repr__(self) -> str:
         return (f"Frequencies({self.n_orbits} orbits, {self.kind} of {', '.join(self.names)} in "

@@ -76,6 +76,54 @@ class ChaosIndicators(codes.StatusReport):
 
 
 
+    def take(self, orbits) -> "ChaosIndicators":
+        """The indicators of the selected orbits (index, indices or boolean mask), copied."""
+        try:
+            idx = np.atleast_1d(np.arange(len(self.status))[orbits])
+        except (IndexError, TypeError, ValueError):
+            raise ParameterError(f"cannot select orbits {orbits!r} of {len(self.status)}") from None
+        return self.concat([self], idx)
+
+    @classmethod
+    def concat(cls, parts, idx=None) -> "ChaosIndicators":
+        """One result of every orbit of ``parts``, in order (rows ``idx`` of the joined result
+        when given). The parts must share the record times, the method and the step."""
+        parts = [p for p in parts if p is not None]
+        if not parts:
+            raise ParameterError("ChaosIndicators.concat needs at least one result")
+        first = parts[0]
+        for p in parts[1:]:
+            if (not np.array_equal(p.t, first.t) or p.method != first.method
+                    or sorted(p.history) != sorted(first.history)
+                    or not np.array_equal(p.dt, first.dt, equal_nan=True)):
+                raise ParameterError("ChaosIndicators.concat needs results of one method, step and record times")
+        idx = slice(None) if idx is None else idx
+        join = {k: np.concatenate([getattr(p, k) for p in parts])[idx].copy()
+                for k in ("lyapunov", "megno", "fli", "sali", "t_end", "status", "seeds")}
+        history = {k: np.concatenate([p.history[k] for p in parts])[idx].copy() for k in first.history}
+        return cls(**join, t=first.t.copy(), history=history, method=first.method, dt=first.dt,
+                   params=dict(first.params))
+
+    def to_xarray(self):
+        """An ``xarray.Dataset`` with CF attributes: the indicators, ``t_end``, ``status`` and
+        ``seeds`` over ``orbit`` (running values over ``record`` when kept)."""
+        from phaselab.orbits.labelled import chaos_dataset
+
+        return chaos_dataset(self)
+
+    def plot(self, **kwargs):
+        """A matplotlib figure of one indicator (``indicator="megno"``), see
+        :func:`phaselab.export.result_figures.chaos_figure`."""
+        from phaselab.export.result_figures import chaos_figure
+
+        return chaos_figure(self, **kwargs)
+
+    def save(self, path, **kwargs):
+        """Write .nc, .zarr, .svg, .pdf or .png (:data:`phaselab.export.SAVERS`); returns the path."""
+        from phaselab.export import save
+
+        return save(self, path, **kwargs)
+
     def __repr__(self) -> str:
         span = float(np.nanmax(self.t_end)) if np.isfinite(self.t_end).any() else 0.0
         return (f"ChaosIndicators({len(self.lyapunov)} orbits to t={span:g}, method={self.method!r}, "

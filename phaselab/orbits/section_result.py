@@ -182,10 +182,24 @@ class Section(codes.StatusReport):
 
     # ------------------------------------------------------------------ output
     def plot(self, **kwargs):
+        """A static matplotlib figure of the section for reports (see
+        :func:`phaselab.export.section_figure`); :meth:`bokeh` gives the live view."""
+        from phaselab.export.figures import section_figure
+
+        return section_figure(self, **kwargs)
+
+    def bokeh(self, **kwargs):
         """An interactive bokeh figure of the section (see :func:`phaselab.export.bokeh_figure`)."""
         from phaselab.export.interactive import bokeh_figure
 
         return bokeh_figure(self, **kwargs)
+
+    def to_xarray(self):
+        """An ``xarray.Dataset`` with CF attributes: ``points`` over (``orbit``, ``crossing``,
+        ``state``), ``times``, ``counts``, ``energy_error``, ``status``, ``seeds``."""
+        from phaselab.orbits.labelled import section_dataset
+
+        return section_dataset(self)
 
     def save(self, path, **kwargs):
         """Write the section to ``path``; the format follows the suffix.

@@ -63,6 +63,24 @@ class ShellSeeds:
     system: object = None
     params: dict = field(default_factory=dict)
 
+    def to_xarray(self):
+        """An ``xarray.Dataset`` with CF attributes: ``states``, ``valid``, ``reason``."""
+        from phaselab.orbits.labelled import shell_seeds_dataset
+
+        return shell_seeds_dataset(self)
+
+    def plot(self, **kwargs):
+        """A matplotlib figure of the valid seeds in their two free components."""
+        from phaselab.export.result_figures import shell_seeds_figure
+
+        return shell_seeds_figure(self, **kwargs)
+
+    def save(self, path, **kwargs):
+        """Write .nc, .zarr, .svg, .pdf or .png (:data:`phaselab.export.SAVERS`); returns the path."""
+        from phaselab.export import save
+
+        return save(self, path, **kwargs)
+
     @property
     def n_points(self) -> int:
         return self.states.shape[0]

@@ -34,6 +34,7 @@ import numpy as np
 from phaselab.errors import ParameterError
 from phaselab.engine import inputs
 from phaselab.engine.provenance import netcdf_attrs, provenance, xarray_module
+from phaselab.engine.provenance import cf_dataset
 
 __all__ = ["SectionSlice", "section_coordinates", "section_projection", "section_slice",
            "projection_grid"]
@@ -127,7 +128,7 @@ class SectionSlice:
         data["crossing"] = (("point",), self.crossing)
         if self.color:
             data["color_value"] = (("point",), self.color_values)
-        return xr.Dataset(data, attrs=netcdf_attrs(self.metadata()))
+        return cf_dataset(xr.Dataset(data, attrs=netcdf_attrs(self.metadata())))
 
     def plot(self, **kwargs):
         """A static figure (matplotlib): a scatter for a projection or slice (3-D axes for
@@ -140,9 +141,9 @@ class SectionSlice:
     def save(self, path, **kwargs):
         """Write ``.nc`` data (with provenance) or a figure (``.svg``, ``.pdf``, ``.png``),
         atomically."""
-        from phaselab.export.slice_figures import save_slice
+        from phaselab.export import save
 
-        return save_slice(self, path, **kwargs)
+        return save(self, path, **kwargs)
 
     def __repr__(self) -> str:
         what = {"projection": f"projection on {', '.join(self.axes)}"

@@ -132,6 +132,24 @@ class Trajectory(codes.StatusReport):
         both = break_jumps(np.column_stack([t, z]), np.r_[0.0, period], np.r_[0.0, low])
         return both[:, 0], both[:, 1:]
 
+    def to_xarray(self):
+        """An ``xarray.Dataset`` (CF attributes): ``states`` over (orbit, time, state), ..."""
+        from phaselab.orbits.labelled import trajectory_dataset
+
+        return trajectory_dataset(self)
+
+    def plot(self, **kwargs):
+        """A matplotlib figure of the orbits (:func:`phaselab.export.result_figures.trajectory_figure`)."""
+        from phaselab.export.result_figures import trajectory_figure
+
+        return trajectory_figure(self, **kwargs)
+
+    def save(self, path, **kwargs):
+        """Write .nc, .zarr, .svg, .pdf or .png (:data:`phaselab.export.SAVERS`); returns the path."""
+        from phaselab.export import save
+
+        return save(self, path, **kwargs)
+
     def take(self, orbits) -> "Trajectory":
         """The trajectory of the selected orbits (index, indices or boolean mask), copied."""
         try:
@@ -142,6 +160,23 @@ class Trajectory(codes.StatusReport):
                           energy_error=self.energy_error[idx].copy(), status=self.status[idx].copy(),
                           escape_time=self.escape_time[idx].copy(), method=self.method, dt=self.dt,
                           system=self.system, params=dict(self.params))
+
+    @classmethod
+    def concat(cls, parts) -> "Trajectory":
+        """One trajectory of every orbit of ``parts`` (same times, state size, method and step)."""
+        parts = [p for p in parts if p is not None]
+        if not parts:
+            raise ParameterError("Trajectory.concat needs at least one trajectory")
+        first = parts[0]
+        for p in parts[1:]:
+            if (not np.array_equal(p.t, first.t) or p.states.shape[2:] != first.states.shape[2:]
+                    or p.method != first.method or not np.array_equal(p.dt, first.dt, equal_nan=True)):
+                raise ParameterError("Trajectory.concat needs trajectories of one method and step, "
+                                     "sampled at the same times, with the same state size")
+        joined = {k: np.concatenate([getattr(p, k) for p in parts])
+                  for k in ("states", "energy_error", "status", "escape_time")}
+        return Trajectory(t=first.t.copy(), **joined, method=first.method, dt=first.dt,
+                          system=first.system, params=dict(first.params))
 
     def __repr__(self) -> str:
         worst = np.nanmax(np.abs(self.energy_error)) if np.isfinite(self.energy_error).any() else 0.0

@@ -31,7 +31,11 @@ from phaselab.base.atomic import atomic_path, checked_path, open_folder, remove_
 from phaselab.engine import status as codes
 from phaselab.engine.provenance import (NOTE, expression_text, netcdf_attrs, provenance,  # noqa: F401
                                      state_names, versions, xarray_module)
+from phaselab.engine.provenance import cf_dataset
 from phaselab.errors import ParameterError, PhaselabError
+
+SCAN_STORE_KEY = "phaselab_scan"
+"""The group attribute that marks a scan's resume store (:mod:`phaselab.scan.store`)."""
 
 SMALL_BYTES = 64 * 2**20
 """Results up to this size are saved as NetCDF when the path has no suffix, larger ones as Zarr."""
@@ -114,7 +118,9 @@ def seed_dataset(grid, seeds, variables: dict, meta: dict, state=None, extra_coo
         for dim, name in ((where[1], grid.axis_names[0]), (where[0], grid.axis_names[1])):
             if units.get(str(name)):
                 ds[dim].attrs["units"] = units[str(name)]    # CF: the model's unit of the component
-    return ds
+        ds[where[1]].attrs["axis"] = "X"
+        ds[where[0]].attrs["axis"] = "Y"
+    return cf_dataset(ds)
 
 
 def time_unit(system) -> str:
@@ -138,6 +144,8 @@ def atomic_write(path, write) -> Path:
 
 def save_netcdf(dataset, path) -> Path:
     """Write an xarray Dataset to NetCDF atomically."""
+    dataset = cf_dataset(dataset)
+
     def write(tmp):
         try:
             dataset.to_netcdf(tmp)
@@ -153,12 +161,17 @@ def save_zarr(dataset, path) -> Path:
     folder, then renamed into place (an existing store of that name is replaced only once
     the new one is complete)."""
     zarr_module()
+    dataset = cf_dataset(dataset)
     path = checked_path(path)
     folder = path.parent if str(path.parent) else Path(".")
     if not folder.exists():  # a folder that is a file is refused when it is opened
         raise ParameterError(f"cannot save to {path}: folder {folder} does not exist")
     if path.exists() and not path.is_dir():
         raise ParameterError(f"cannot save a Zarr store to {path}: a file of that name exists")
+    if is_scan_store(path):
+        raise ParameterError(f"cannot save to {path}: it is the resume store of a scan (store={path.name!r}), "
+                             "which saving would replace; save to another name, or delete the store "
+                             "first if the scan will not be resumed")
     tmp = folder / temporary_name(path, "partial")
     old = folder / temporary_name(path, "old")
     try:
@@ -184,6 +197,17 @@ def save_zarr(dataset, path) -> Path:
         raise
     shutil.rmtree(old, ignore_errors=True)
     return path
+
+
+def is_scan_store(path) -> bool:
+    """Whether the folder ``path`` is a scan's resume store (its Zarr group metadata carries
+    :data:`SCAN_STORE_KEY`)."""
+    meta = Path(path) / "zarr.json"
+    try:
+        attrs = json.loads(meta.read_text(encoding="utf-8")).get("attributes") or {}
+    except (OSError, ValueError, AttributeError):
+        return False
+    return isinstance(attrs, dict) and SCAN_STORE_KEY in attrs
 
 
 def save_dataset(dataset, path) -> Path:

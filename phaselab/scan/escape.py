@@ -206,10 +206,20 @@ class EscapeMap:
         }
         return labels.seed_dataset(self.grid, self.seeds, variables, self.meta)
 
-    def save(self, path):
+    def plot(self, **kwargs):
+        """A matplotlib figure of the values over the grid with a colour bar (per seed
+        without a grid); see :func:`phaselab.export.result_figures.picture_figure`."""
+        from phaselab.export.result_figures import picture_figure
+
+        values = self.survival
+        return picture_figure(values, self.grid, "survival time", **kwargs)
+
+    def save(self, path, **kwargs):
         """Write :meth:`to_xarray` to ``path`` (``.nc``, ``.zarr``, or no suffix: by size),
-        atomically; returns the path."""
-        return labels.save_dataset(self.to_xarray(), path)
+        or the picture of :meth:`plot` (``.svg``, ``.pdf``, ``.png``), atomically; returns the path."""
+        from phaselab.export import save
+
+        return save(self, path, **kwargs)
 
     def __repr__(self) -> str:
         where = f"grid {self.grid.shape}" if self.grid is not None else f"{len(self.survival)} seeds"

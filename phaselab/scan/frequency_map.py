@@ -107,19 +107,21 @@ class FrequencyMap:
         return labels.seed_dataset(self.grid, self.seeds, variables, self.meta,
                                    extra_coords={"dof": np.array(self.names, dtype=object)})
 
+    def plot(self, **kwargs):
+        """A matplotlib figure: the diffusion map over a grid, the frequency map for two or
+        more frequencies, else the profile along the seeds (see
+        :mod:`phaselab.export.frequency_figures`)."""
+        from phaselab.export.frequency_figures import result_figure
+
+        return result_figure(self, **kwargs)
+
     def save(self, path, **kwargs):
         """Write to ``path``: ``.nc`` or ``.zarr`` (NetCDF or Zarr of :meth:`to_xarray`; no
         suffix: by size), or ``.svg``, ``.pdf``, ``.png``: the diffusion map over the grid
         (for seeds without a grid, the frequency map). Written atomically."""
-        from pathlib import Path
+        from phaselab.export import save
 
-        if Path(path).suffix.lower() in ("", ".nc", ".zarr"):
-            if kwargs:
-                raise ParameterError(f"data files take no options, got {', '.join(sorted(kwargs))}")
-            return labels.save_dataset(self.to_xarray(), path)
-        from phaselab.export.frequency_figures import save_result
-
-        return save_result(self, path, **kwargs)
+        return save(self, path, **kwargs)
 
     def __repr__(self) -> str:
         where = f"grid {self.grid.shape}" if self.grid is not None else f"{len(self.seeds)} seeds"

@@ -15,6 +15,7 @@ from phaselab.errors import ParameterError
 from phaselab.scan import datasets as labels
 from phaselab.scan.runner import RunInfo, chunk_size, numba_threads, run_chunks
 from phaselab.scan.store import seeds_digest
+from phaselab.engine.provenance import cf_dataset
 
 
 @dataclass
@@ -81,12 +82,20 @@ class ParameterScan:
             values = self.array()
             extra = tuple(f"result_{k}" for k in range(values.ndim - len(dims)))
             data["result"] = (dims + extra, values)
-        return xr.Dataset(data_vars=data, coords=coords, attrs=labels.netcdf_attrs(self.meta))
+        return cf_dataset(xr.Dataset(data_vars=data, coords=coords, attrs=labels.netcdf_attrs(self.meta)))
 
-    def save(self, path):
+    def plot(self, **kwargs):
+        """A matplotlib figure: a curve over one parameter, a picture over two."""
+        from phaselab.export.result_figures import parameter_scan_figure
+
+        return parameter_scan_figure(self, **kwargs)
+
+    def save(self, path, **kwargs):
         """Write :meth:`to_xarray` to ``path`` (``.nc``, ``.zarr``, or no suffix: by size),
-        atomically; returns the path."""
-        return labels.save_dataset(self.to_xarray(), path)
+        or the figure of :meth:`plot`, atomically; returns the path."""
+        from phaselab.export import save
+
+        return save(self, path, **kwargs)
 
     def __repr__(self) -> str:
         grid = " x ".join(f"{n}[{len(a)}]" for n, a in zip(self.names, self.axes))

@@ -26,6 +26,7 @@ from __future__ import annotations
 
 import contextlib
 import math
+import sys
 import time
 from dataclasses import dataclass
 from typing import Callable, Sequence
@@ -363,6 +364,9 @@ def run_chunks(work: Callable, rows: np.ndarray, valid: np.ndarray, chunk: int, 
     todo = [k for k in range(n_chunks) if not done[k]]
     bounds = [(k * chunk, min(n, (k + 1) * chunk)) for k in range(n_chunks)]
     rows_done = sum(b - a for k, (a, b) in enumerate(bounds) if done[k])
+    if st is not None and parts:
+        print(f"phaselab: resuming: {len(parts)} of {n_chunks} chunks done (store {st.where})",
+              file=sys.stderr, flush=True)
     bar = Progress(n, desc, progress, initial=rows_done, unit=unit)
     infos: list = []
 

@@ -45,14 +45,15 @@ import numpy as np
 from phaselab.base.atomic import checked_path
 from phaselab.engine import limits
 from phaselab.errors import DataFileError, ParameterError
-from phaselab.scan.datasets import zarr_module
+from phaselab.engine.provenance import cf_dataset, xarray_module
+from phaselab.scan.datasets import SCAN_STORE_KEY, zarr_module
 
 FORMAT = 2
 DONE = "chunk_done"
 ROWS = "chunk_rows"
 DIGEST = "chunk_sha256"
 RECORD = (DONE, ROWS, DIGEST)
-SCAN_KEY = "phaselab_scan"
+SCAN_KEY = SCAN_STORE_KEY
 FIELDS_KEY = "phaselab_fields"
 INFO_KEY = "phaselab_info"
 
@@ -95,6 +96,20 @@ def _read(arr, a=None, b=None):
         return np.asarray(arr[:] if a is None else arr[a:b])
     except Exception:  # zarr and its codecs raise many kinds on damaged chunk files
         return None
+
+
+LONG_NAMES = {DONE: "1 where the chunk is finished", ROWS: "first and end row of each chunk",
+              DIGEST: "SHA-256 digest of each finished chunk's rows"}
+"""CF ``long_name`` of the record arrays."""
+
+
+def dimension_names(name: str, ndim: int) -> tuple:
+    """Names of an array's dimensions (Zarr 3 ``dimension_names``, which xarray.open_zarr
+    reads): ``chunk`` and ``chunk_rows_bound``/``sha256_byte`` for the record arrays, ``seed``
+    and ``<name>_<k>`` for a result field."""
+    if name in RECORD:
+        return ("chunk", {ROWS: "row_bound", DIGEST: "sha256_byte"}.get(name, "chunk_extra"))[:ndim]
+    return ("seed",) + tuple(f"{name}_{k}" for k in range(1, ndim))
 
 
 class ScanStore:
@@ -173,6 +188,8 @@ class ScanStore:
             chunk = int(chunk)
             group.attrs.update({SCAN_KEY: json.dumps({"format": FORMAT, "n": int(n), "chunk": chunk,
                                                       "fingerprint": fp}, allow_nan=True)})
+            group.attrs.update(cf_dataset(xarray_module().Dataset(), title="phaselab scan store "
+                                          "(resumable chunks; the result is saved with save())").attrs)
             return cls(group, int(n), chunk, where)
         head = _head(attrs[SCAN_KEY], where)
         old = head.get("fingerprint")
@@ -240,7 +257,8 @@ class ScanStore:
             record = name in RECORD
             arrays[name] = self.group.create_array(
                 name, shape=shape, chunks=((1,) if record else (self.chunk,)) + shape[1:], dtype=dt,
-                fill_value=np.nan if dt.kind == "f" else 0)
+                fill_value=np.nan if dt.kind == "f" else 0, dimension_names=dimension_names(name, len(shape)),
+                attributes={"long_name": LONG_NAMES.get(name, f"scan result {name} of each seed")})
         return arrays
 
     def _drop(self, name: str) -> None:
@@ -374,7 +392,9 @@ class ScanStore:
             self._drop(name)
             self._arrays[name] = self.group.create_array(name, shape=(self.n,) + shape,
                                                          chunks=(self.chunk,) + shape, dtype=dt,
-                                                         fill_value=np.nan if dt.kind == "f" else 0)
+                                                         fill_value=np.nan if dt.kind == "f" else 0,
+                                                         dimension_names=dimension_names(name, 1 + len(shape)),
+                                                         attributes={"long_name": f"scan result {name} of each seed"})
         text = json.dumps({name: [dt.str, list(shape)] for name, (dt, shape) in schema.items()})
         self.group.attrs.update({FIELDS_KEY: text})
         self.schema = schema

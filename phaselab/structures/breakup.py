@@ -74,6 +74,24 @@ class TorusBreakup:
     threshold: float
     params: dict = field(default_factory=dict)
 
+    def to_xarray(self):
+        """An ``xarray.Dataset`` with CF attributes: residues and critical values."""
+        from phaselab.structures.labelled import breakup_dataset
+
+        return breakup_dataset(self)
+
+    def plot(self, **kwargs):
+        """A matplotlib figure of |residue| against the parameter for each convergent."""
+        from phaselab.export.result_figures import breakup_figure
+
+        return breakup_figure(self, **kwargs)
+
+    def save(self, path, **kwargs):
+        """Write .nc, .zarr, .svg, .pdf or .png (:data:`phaselab.export.SAVERS`); returns the path."""
+        from phaselab.export import save
+
+        return save(self, path, **kwargs)
+
     def table(self) -> str:
         lines = [f"{'m/Q':>10s} {'critical ' + self.parameter:>18s}"]
         for c, k in zip(self.convergents, self.critical):

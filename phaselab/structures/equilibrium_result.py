@@ -52,6 +52,24 @@ class Equilibrium:
     free: tuple = field(default_factory=tuple)
     directions: np.ndarray = field(default_factory=lambda: np.zeros((0, 0)))
 
+    def to_xarray(self):
+        """An ``xarray.Dataset`` with CF attributes: the state and the eigenvalues."""
+        from phaselab.structures.labelled import equilibrium_dataset
+
+        return equilibrium_dataset(self)
+
+    def plot(self, **kwargs):
+        """A matplotlib figure of the eigenvalues (with the unit circle of a map, the imaginary axis of a flow)."""
+        from phaselab.export.result_figures import equilibrium_figure
+
+        return equilibrium_figure(self, flow=bool(np.isfinite(self.energy)), **kwargs)
+
+    def save(self, path, **kwargs):
+        """Write .nc, .zarr, .svg, .pdf or .png (:data:`phaselab.export.SAVERS`); returns the path."""
+        from phaselab.export import save
+
+        return save(self, path, **kwargs)
+
     def __repr__(self) -> str:
         names = self.names or tuple(f"z{i}" for i in range(len(self.state)))
         where = ", ".join(f"{n}={_num(v)}" for n, v in zip(names, self.state))

@@ -45,6 +45,7 @@ from phaselab.structures import multipliers
 from phaselab.structures.periodic.assembly import assemble, image_of
 from phaselab.structures.periodic.result import PeriodicOrbit, classify
 from phaselab.errors import ModelError, ParameterError
+from phaselab.engine.provenance import cf_dataset
 
 FD_STEP = 1e-6
 """Relative step of the central difference in a model parameter."""
@@ -147,7 +148,7 @@ class Family:
             attrs=netcdf_attrs(provenance(self.system, self.params, parameter=self.parameter,
                                           bifurcations=self.bifurcations, complete=self.complete,
                                           stopped=self.note)))
-        return ds
+        return cf_dataset(ds)
 
     def plot(self, y=None, **kwargs):
         """A stability diagram: the parameter against the residue (``y="residue"``, the

@@ -121,11 +121,25 @@ class LevelSet:
 
     def save(self, path, **kwargs):
         """Write a static figure (.svg, .pdf or .png) of the level curves, separatrices and,
-        for a single level, the shaded forbidden region; see
-        :func:`phaselab.export.level_set_figure`. Returns the path written."""
-        from phaselab.export.portraits import save_level_set
+        for a single level, the shaded forbidden region (see
+        :func:`phaselab.export.level_set_figure`), or the grid as .nc or .zarr.
+        Returns the path written."""
+        from phaselab.export import save
 
-        return save_level_set(self, path, **kwargs)
+        return save(self, path, **kwargs)
+
+    def to_xarray(self):
+        """An ``xarray.Dataset`` with CF attributes: ``values`` over the two shown variables
+        and the ``levels``."""
+        from phaselab.structures.labelled import level_set_dataset
+
+        return level_set_dataset(self)
+
+    def plot(self, **kwargs):
+        """A matplotlib figure of the level curves (see :func:`phaselab.export.level_set_figure`)."""
+        from phaselab.export.portraits import level_set_figure
+
+        return level_set_figure(self, **kwargs)
 
     def __repr__(self) -> str:
         n_pieces = sum(len(ls) for ls in self.lines)

@@ -30,6 +30,7 @@ from phaselab.engine import inputs, limits
 from phaselab.engine import status as codes
 from phaselab.errors import ModelError
 from phaselab.structures.periodic.result import PeriodicOrbit
+from phaselab.engine.provenance import cf_dataset
 
 BRANCHES = ("unstable", "stable")
 
@@ -91,11 +92,11 @@ class Manifold:
         arr = np.full((len(self.branches), size, len(names)), np.nan)
         for c, b in enumerate(self.branches):
             arr[c, :len(b)] = b
-        return xr.Dataset({"points": (("curve", "point", "component"), arr)},
+        return cf_dataset(xr.Dataset({"points": (("curve", "point", "component"), arr)},
                           coords={"component": names},
                           attrs={"branch": self.branch, "side": self.side, "eigenvalue": self.eigenvalue,
                                  "max_segment": self.max_segment, "complete": int(self.complete),
-                                 "note": self.note, "model_note": "model results: confirm with validated tools"})
+                                 "note": self.note, "model_note": "model results: confirm with validated tools"}))
 
     def plot(self, section=None, **kwargs):
         """A static figure of the branch with its orbit, over a section if one is given."""

@@ -274,7 +274,7 @@ def test_html_is_standalone(tmp_path, rotor):
 def test_bokeh_figure_hover_shows_orbit(rotor):
     from bokeh.models import HoverTool
 
-    fig = rotor.plot(title="rotor")
+    fig = rotor.bokeh(title="rotor")
     hover = [t for t in fig.tools if isinstance(t, HoverTool)]
     assert hover and ("orbit", "@orbit") in hover[0].tooltips
     source = fig.renderers[0].data_source
@@ -372,7 +372,7 @@ def test_level_set_figures_phase_portrait_and_allowed_region(tmp_path):
     from PIL import Image
 
     assert Image.open(png).size == (400, 300)
-    with pytest.raises(phaselab.PhaselabError, match="svg, .pdf or .png"):
+    with pytest.raises(phaselab.PhaselabError, match=r"\.svg, \.pdf, \.png"):
         zv.save(tmp_path / "allowed.csv")
 
 

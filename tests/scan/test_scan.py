@@ -84,7 +84,8 @@ def test_chaos_map_is_labelled(tmp_path, hh, monkeypatch):
     assert list(ds["state"].values) == ["x", "y", "px", "py"]
     np.testing.assert_array_equal(ds["valid"].values.ravel() == 1, grid.valid)
     np.testing.assert_array_equal(ds["status"].values.ravel()[~grid.valid], -1)
-    assert ds["t_end"].attrs["units"] == "model time units"
+    # CF 1.10 section 3.1: units must be UDUNITS-readable; phaselab's wording moves to comment
+    assert "units" not in ds["t_end"].attrs and ds["t_end"].attrs["comment"] == "in model time units"
     a = ds.attrs
     assert a["expression"] == str(hh.expr) and a["energy"] == 0.125 and a["method"] == "yoshida4"
     assert a["dt"] == 0.01 and a["t"] == 4.0 and a["indicator"] == "megno"
@@ -105,7 +106,7 @@ def test_chaos_map_is_labelled(tmp_path, hh, monkeypatch):
     assert sorted(os.listdir(tmp_path)) == ["large.zarr", "megno.nc", "megno.zarr", "small.nc"]
     cmap.save(tmp_path / "megno.zarr")                        # replacing a store leaves nothing behind
     assert sorted(os.listdir(tmp_path)) == ["large.zarr", "megno.nc", "megno.zarr", "small.nc"]
-    with pytest.raises(ParameterError, match=r"\.nc \(NetCDF\), \.zarr"):
+    with pytest.raises(ParameterError, match=r"use \.nc, \.zarr, \.svg, \.pdf, \.png"):
         cmap.save(tmp_path / "megno.csv")
 
 
@@ -234,7 +235,7 @@ def test_escape_map_is_labelled(oscillator):
     grid = state_grid(oscillator, {"q": (-1.5, 1.5, 4), "p": (-1.0, 1.0, 3)})
     em = escape_map(oscillator, grid, 5.0, box=1.0, dt=0.05)
     ds = em.to_xarray()
-    assert ds["survival_time"].dims == ("p", "q") and ds["survival_time"].attrs["units"] == "model time units"
+    assert ds["survival_time"].dims == ("p", "q") and ds["survival_time"].attrs["comment"] == "in model time units"
     assert ds.attrs["region"] == 1.0 and ds.attrs["t"] == 5.0 and ds.attrs["dt"] == 0.05
     np.testing.assert_array_equal(ds["survived"].values.ravel(), em.survived)
 

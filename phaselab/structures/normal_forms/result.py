@@ -14,6 +14,7 @@ from phaselab.errors import ParameterError
 from phaselab.structures.normal_forms.islands import resonance_width
 from phaselab.structures.normal_forms.polynomials import as_arrays, evaluate
 from phaselab.structures.normal_forms.terms import evaluate_terms, term_arrays
+from phaselab.engine.provenance import cf_dataset
 
 
 @dataclass(repr=False, eq=False)
@@ -260,7 +261,7 @@ class NormalForm:
 
         rows = self.table()
         degrees = sorted(self.small_divisors)
-        return xr.Dataset(
+        return cf_dataset(xr.Dataset(
             {"powers": (("term", "mode"), np.array([[float(sp.Rational(p)) for p in r["powers"]] for r in rows])),
              "harmonic": (("term", "mode"), np.array([r["harmonic"] for r in rows], dtype=int)),
              "cos": ("term", np.array([r["cos_value"] for r in rows])),
@@ -274,11 +275,25 @@ class NormalForm:
                    "resonances": json.dumps([list(r) for r in self.resonances]),
                    "equilibrium": json.dumps(self.equilibrium.tolist()), "params": json.dumps(self.params),
                    "state_names": json.dumps(list(self.names)), "hamiltonian": str(self.hamiltonian),
-                   "model_note": "model results: confirm with validated tools"})
+                   "model_note": "model results: confirm with validated tools"}))
 
-    def save(self, path) -> Path:
-        """Write the normal form: ``.json`` (summary), ``.nc`` (:meth:`to_xarray`) or ``.tex``
-        (:meth:`latex`), atomically (a temporary file renamed into place)."""
+    def save(self, path, **kwargs) -> Path:
+        """Write the normal form: ``.json`` (summary), ``.nc`` (:meth:`to_xarray`), ``.tex``
+        (:meth:`latex`) or the figure of :meth:`plot`, atomically (a temporary file renamed
+        into place); the suffixes come from :data:`phaselab.export.SAVERS`."""
+        from phaselab.export import save
+
+        return save(self, path, **kwargs)
+
+    def plot(self, **kwargs):
+        """A matplotlib figure of the detuning, dH/dJ against the action (see
+        :func:`phaselab.export.result_figures.normal_form_figure`)."""
+        from phaselab.export.result_figures import normal_form_figure
+
+        return normal_form_figure(self, **kwargs)
+
+    def write_file(self, path) -> Path:
+        """The writer of :meth:`save` for ``.json``, ``.nc`` and ``.tex``."""
         path = Path(path)
         suffix = path.suffix.lower()
         if suffix == ".json":
@@ -286,7 +301,7 @@ class NormalForm:
         elif suffix == ".tex":
             text = "\\begin{equation}\n" + self.latex() + "\n\\end{equation}\n"
         elif suffix == ".nc":
-            ds = self.to_xarray()
+            ds = cf_dataset(self.to_xarray())
             with atomic_path(path) as tmp:
                 ds.to_netcdf(tmp)
             return path

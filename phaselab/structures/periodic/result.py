@@ -29,6 +29,7 @@ from phaselab.engine.provenance import netcdf_attrs, provenance
 from phaselab.errors import ParameterError
 from phaselab.structures.periodic.symmetries import DEGENERATE, NEARLY_DEGENERATE
 from phaselab.structures.returns import OFF_SHELL, ReturnMap, return_map
+from phaselab.engine.provenance import cf_dataset
 
 
 STABILITY = ("stable", "unstable", "inverse-unstable", "parabolic")
@@ -160,7 +161,7 @@ class PeriodicOrbit:
 
     def to_xarray(self):
         """The orbit as a labelled ``xarray.Dataset`` (points, monodromy, multipliers)."""
-        return orbits_dataset([self])
+        return cf_dataset(orbits_dataset([self]))
 
     def plot(self, **kwargs):
         """A static figure of the orbit's points (see :func:`phaselab.export.save`)."""

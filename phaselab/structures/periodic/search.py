@@ -15,6 +15,7 @@ from phaselab.structures.periodic.result import STABILITY, orbits_dataset
 from phaselab.structures.periodic.shooting import explain, newton, report_guess, take_images
 from phaselab.structures.periodic.symmetries import SectionSymmetry
 from phaselab.structures.returns import return_map
+from phaselab.engine.provenance import cf_dataset
 
 
 @dataclass(repr=False)
@@ -63,7 +64,7 @@ class PeriodicOrbits:
 
     def to_xarray(self):
         """Every orbit in one ``xarray.Dataset`` (dimension ``orbit``)."""
-        return orbits_dataset(self.orbits)
+        return cf_dataset(orbits_dataset(self.orbits))
 
     def save(self, path, **kwargs):
         """Write every orbit (``.nc``, ``.json`` or a figure)."""
