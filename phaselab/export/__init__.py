@@ -21,7 +21,7 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from phaselab.errors import PhaselabError
+from phaselab.errors import ParameterError
 from phaselab.export.data import (load_section, read_section_csv, read_section_netcdf,
                                   write_section_csv, write_section_netcdf)
 from phaselab.export.describe import check_section, section_metadata
@@ -51,15 +51,15 @@ def _save_section(section, path, **kwargs):
     writer = _WRITERS.get(suffix)
     if writer is None:
         known = ", ".join(_WRITERS)
-        raise PhaselabError(
+        raise ParameterError(
             f"cannot save a section as {suffix or 'a file without suffix'!r} ({path.name}); "
             f"use one of {known}")
     check_section(section)
     if suffix in (".csv", ".nc") and kwargs:
-        raise PhaselabError(
+        raise ParameterError(
             f"{suffix} data files take no options, got {', '.join(sorted(kwargs))}")
     if not path.parent.exists():
-        raise PhaselabError(f"cannot save to {path}: folder {path.parent} does not exist")
+        raise ParameterError(f"cannot save to {path}: folder {path.parent} does not exist")
     return writer(section, path, **kwargs)
 
 
@@ -102,9 +102,9 @@ def save(section, path, **kwargs):
 
     Raises
     ------
-    PhaselabError
+    ParameterError
         For an unknown suffix, a section without points, options a data file does not
-        take, or (for .nc) a missing xarray.
+        take. :class:`~phaselab.errors.MissingExtraError` (for .nc) for a missing xarray.
     """
     path = checked_path(path)
     for cls in type(section).__mro__:
@@ -113,5 +113,5 @@ def save(section, path, **kwargs):
             return saver(section, path, **kwargs)
     if hasattr(section, "points") and hasattr(section, "axes"):  # a section-like record
         return _save_section(section, path, **kwargs)
-    raise PhaselabError(f"phaselab cannot save a {type(section).__name__}; it saves "
-                        + ", ".join(SAVERS))
+    raise ParameterError(f"phaselab cannot save a {type(section).__name__}; it saves "
+                         + ", ".join(SAVERS))

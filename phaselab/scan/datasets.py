@@ -31,7 +31,7 @@ from phaselab.base.atomic import atomic_path, checked_path, open_folder, remove_
 from phaselab.engine import status as codes
 from phaselab.engine.provenance import (NOTE, expression_text, netcdf_attrs, provenance,  # noqa: F401
                                      state_names, versions, xarray_module)
-from phaselab.errors import ParameterError, PhaselabError
+from phaselab.errors import MissingExtraError, ParameterError
 
 SMALL_BYTES = 64 * 2**20
 """Results up to this size are saved as NetCDF when the path has no suffix, larger ones as Zarr."""
@@ -44,7 +44,7 @@ def zarr_module():
     try:
         import zarr
     except ImportError:
-        raise PhaselabError("Zarr stores need zarr; install it with pip install 'phaselab[scale]'") from None
+        raise MissingExtraError("Zarr stores need zarr; install it with pip install 'phaselab[scale]'") from None
     return zarr
 
 
@@ -142,8 +142,8 @@ def save_netcdf(dataset, path) -> Path:
         try:
             dataset.to_netcdf(tmp)
         except ValueError as exc:
-            raise PhaselabError(f"cannot write NetCDF ({exc}); install netCDF4 with "
-                                "pip install 'phaselab[lab]'") from None
+            raise MissingExtraError(f"cannot write NetCDF ({exc}); install netCDF4 with "
+                                    "pip install 'phaselab[lab]'") from None
 
     return atomic_write(path, write)
 
