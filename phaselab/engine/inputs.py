@@ -262,8 +262,9 @@ def implicit_solver(tol, maxit) -> tuple[float, int]:
 
 def flow(system, what: str):
     """Refuse anything but a Hamiltonian flow."""
-    if getattr(system, "kind", None) != "flow" or not hasattr(system, "expr"):
-        got = "an area-preserving map" if getattr(system, "kind", None) == "map" else type(system).__name__
+    is_system = isinstance(system, PhaseSpaceSystem)
+    if not is_system or system.kind != "flow" or not hasattr(system, "expr"):
+        got = "an area-preserving map" if is_system and system.kind == "map" else type(system).__name__
         raise ParameterError(f"{what} needs a Hamiltonian flow, got {got}")
 
 
@@ -293,7 +294,7 @@ def system(value, what: str = "system", kind: str | None = None):
     if not isinstance(value, PhaseSpaceSystem):
         raise ParameterError(f"{what} must be a phaselab.Hamiltonian or phaselab.AreaPreservingMap, "
                              f"got {_kind(value)}")
-    if kind is not None and getattr(value, "kind", None) != kind:
+    if kind is not None and value.kind != kind:
         want = "an area-preserving map" if kind == "map" else "a Hamiltonian flow"
         raise ParameterError(f"{what} must be {want}, got {_kind(value)}")
     return value
@@ -343,7 +344,7 @@ def pair(value, what: str) -> tuple[float, float]:
 
 def _kind(value) -> str:
     return f"{type(value).__name__} {_show(value)}" if not isinstance(value, PhaseSpaceSystem) \
-        else f"{type(value).__name__} ({getattr(value, 'kind', '?')})"
+        else f"{type(value).__name__} ({value.kind})"
 
 
 __all__ = ["number", "positive_number", "count", "step", "direction", "tolerance", "iterations",

@@ -109,7 +109,7 @@ def provenance(system=None, params=None, **fields) -> dict:
         used = {str(k): v for k, v in (params or {}).items()}
     meta = {
         "system": str(getattr(system, "name", "") or "") if system is not None else "",
-        "system_kind": str(getattr(system, "kind", "") or "") if system is not None else "",
+        "system_kind": system.kind if system is not None else "",
         "expression": expression_text(system),
         "state": state_names(system),
         "params": used,

@@ -40,7 +40,7 @@ def check_seeds(system, seeds):
 
 def sampling_plan(system, plane, t, n):
     """Which sampling a call asks for, with its count of samples."""
-    is_map = getattr(system, "kind", "flow") == "map"
+    is_map = system.kind == "map"
     if is_map:
         if plane is not None:
             raise ParameterError("plane is not used for a map (its iterates are the samples); "
@@ -211,7 +211,7 @@ def integration_step(system, seeds, t=None, n=None, params=None, method="auto", 
     from phaselab.engine.compiled import loops
     from phaselab.engine.integrators import ADAPTIVE, default_step
 
-    if getattr(system, "kind", "flow") == "map" or (isinstance(method, str) and method.lower() in ADAPTIVE):
+    if system.kind == "map" or (isinstance(method, str) and method.lower() in ADAPTIVE):
         return None
     Z0 = check_seeds(system, seeds)
     pdict = parameter_values(system, params)

@@ -111,7 +111,7 @@ def section(system, seeds, plane=None, direction=+1, crossings=300, params=None,
     Z0, energy = _seed_array(system, seeds, energy)
     prm = system.param_values(params)
     pdict = dict(zip((p.name for p in system.parameters), prm.tolist()))
-    if getattr(system, "kind", "flow") == "map":
+    if system.kind == "map":
         out = _map_section(system, Z0, crossings, prm, pdict, energy, axes, box)
     elif plane is None or (isinstance(plane, str) and plane == "stroboscopic"):
         out = _strobe_section(system, Z0, crossings, prm, pdict, dt, method, t_max, axes, box)
@@ -122,7 +122,7 @@ def section(system, seeds, plane=None, direction=+1, crossings=300, params=None,
         raise ParameterError(f"plane must be a mapping such as {{'x': 0.0}} or 'stroboscopic', got {plane!r}")
     drift = (out.status == OK) & (out.energy_error > energy_limit)
     out.status[drift] = codes.ENERGY_DRIFT
-    if not lifted and getattr(system, "kind", "flow") != "map" and getattr(system, "angle_intervals", None):
+    if not lifted and system.kind != "map" and getattr(system, "angle_intervals", None):
         out.points = system.wrap_angles(out.points)
     _warn_stopped(out, energy_limit)
     return out

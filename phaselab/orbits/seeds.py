@@ -196,7 +196,7 @@ def shell_seeds(system, energy, plane, solve_for, points, params=None, sign=+1) 
     (``scipy.optimize.brentq``) on the side of the minimum of H given by ``sign``.
     """
     inputs.system(system)
-    if getattr(system, "kind", "flow") != "flow":
+    if system.kind != "flow":
         raise ModelError("shell_seeds needs a Hamiltonian flow; a map has no energy shell")
     if not system.is_autonomous:
         raise ModelError("H depends on time explicitly, so it has no energy shell; seed the "

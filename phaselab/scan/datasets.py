@@ -119,7 +119,7 @@ def seed_dataset(grid, seeds, variables: dict, meta: dict, state=None, extra_coo
 
 def time_unit(system) -> str:
     """``"iterates"`` for a map, ``"model time units"`` for a flow."""
-    return "iterates" if getattr(system, "kind", "flow") == "map" else "model time units"
+    return "iterates" if system.kind == "map" else "model time units"
 
 
 # ----------------------------------------------------------------------------- files

@@ -199,10 +199,10 @@ def frequency_map(system, seeds, t=None, n=None, params=None, dt=None, method="a
                    box=box, t_max=t_max)
     if angle is None:
         options.update(window=window, angles=angles, fold=fold, lines=1)
-    elif getattr(system, "kind", "flow") == "flow" and plane is None and t is None \
+    elif system.kind == "flow" and plane is None and t is None \
             and getattr(system, "period", None) is not None:
         options["plane"] = "stroboscopic"
-    if dt is None and getattr(system, "kind", "flow") == "flow":
+    if dt is None and system.kind == "flow":
         options["dt"] = integration_step(system, states[todo], t=t, n=n, params=params,
                                          method=method, plane=options["plane"])
     k = _columns(system, angle, options["plane"])

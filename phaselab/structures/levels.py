@@ -213,7 +213,7 @@ def level_set(system, ranges, levels, params=None, resolution=400, plane=None,
     from phaselab.structures.equilibria import check_bounds
 
     inputs.system(system), inputs.flag(separatrices, "separatrices")
-    if getattr(system, "kind", "flow") != "flow":
+    if system.kind != "flow":
         raise ModelError(f"system {getattr(system, 'name', '')!r} is a map: it has no Hamiltonian to draw "
                          "level sets of")
     if not system.is_autonomous:

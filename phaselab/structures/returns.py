@@ -484,7 +484,7 @@ def return_map(system, k, plane=None, energy=None, guess=None, direction=1, solv
     prm = system.param_values(params)
     k = inputs.count(k, "period")
     lo, hi = inputs.box(system, box)
-    kind = getattr(system, "kind", "flow")
+    kind = system.kind
     if kind == "map":
         return MapReturn(system, k, prm, lo, hi)
     if not system.is_autonomous:
