@@ -153,7 +153,7 @@ def _columns(system, angle, plane) -> int:
     if angle is not None:
         return 1
     dof = len(system.state_symbols) // 2
-    return dof - 1 if isinstance(plane, dict) or (plane is not None and not isinstance(plane, str)) else dof
+    return dof - 1 if system.kind == "flow" and inputs.plane(system, plane).kind == "fixed" else dof
 
 
 def frequency_map(system, seeds, t=None, n=None, params=None, dt=None, method="auto", plane=None,

@@ -336,12 +336,8 @@ class PlaneReturn(ReturnMap):
 
     def __init__(self, system, k, prm, box_lo, box_hi, plane, energy, direction, solve_for, dt,
                  method, t_max):
-        if not isinstance(plane, dict) or len(plane) != 1:
-            raise ParameterError(f"plane must fix exactly one state component, e.g. {{'x': 0.0}}, got {plane!r}")
-        (name, value), = plane.items()
         n = system.dof
-        self.plane_index = inputs.state_index(system, name, "plane component")
-        self.value = inputs.number(value, f"plane value of {name!r}")
+        self.plane_index, self.value = inputs.plane(system, plane).single()
         partner = (self.plane_index + n) % (2 * n)
         self.solve_index = partner if solve_for is None else inputs.state_index(system, solve_for, "solve_for")
         if self.solve_index == self.plane_index:
@@ -487,20 +483,21 @@ def return_map(system, k, plane=None, energy=None, guess=None, direction=1, solv
     kind = system.kind
     if kind == "map":
         return MapReturn(system, k, prm, lo, hi)
+    where = inputs.plane(system, plane)
     if not system.is_autonomous:
-        if plane not in (None, "stroboscopic"):
+        if where.kind == "fixed":
             raise ModelError("a time-dependent Hamiltonian is sectioned stroboscopically: leave plane out")
         ret = StrobeReturn(system, k, prm, lo, hi, inputs.step(dt), method)
         if guess is not None:
             ret.set_step(np.atleast_2d(guess))
         return ret
-    if plane is None or isinstance(plane, str):
+    if where.kind != "fixed":
         raise ParameterError("an autonomous flow needs a section plane, e.g. plane={'x': 0.0}")
     if energy is None:
         if guess is None:
             raise ParameterError("give energy=... (or a guess to take it from)")
         energy = float(np.atleast_1d(system.energy(np.atleast_2d(guess)[:1], params=params))[0])
-    ret = PlaneReturn(system, k, prm, lo, hi, dict(plane), energy, direction, solve_for, inputs.step(dt),
+    ret = PlaneReturn(system, k, prm, lo, hi, where, energy, direction, solve_for, inputs.step(dt),
                       method, None if t_max is None else inputs.positive_number(t_max, "t_max"))
     if guess is not None:
         ret.set_step(np.atleast_2d(guess))
