@@ -8,7 +8,7 @@ imported on first use, so a script pays only for what it calls.
 __version__ = "0.1.0"
 
 from phaselab.errors import (ExpressionError, IntegrationError, ModelError,  # noqa: E402
-                             ParameterError, PhaselabError, StudyFileError, DataFileError,
+                             MissingExtraError, ParameterError, PhaselabError, StudyFileError, DataFileError,
                              PhaselabWarning)
 
 _LAZY = {
@@ -69,7 +69,7 @@ _LAZY = {
 }
 
 __all__ = ["Hamiltonian", "PhaselabError", "ExpressionError", "ModelError", "ParameterError",
-           "IntegrationError", "StudyFileError", "DataFileError", "PhaselabWarning",
+           "IntegrationError", "StudyFileError", "DataFileError", "MissingExtraError", "PhaselabWarning",
            "__version__", *_LAZY]
 
 
@@ -81,7 +81,7 @@ def __getattr__(name):
             module = importlib.import_module(_LAZY[name])
         except ModuleNotFoundError as exc:
             if _LAZY[name].startswith("phaselab.widgets"):
-                raise PhaselabError(
+                raise MissingExtraError(
                     f"phaselab.{name} needs the notebook extras ({exc.name} is missing); "
                     "install them with pip install 'phaselab[lab]'") from None
             raise

@@ -135,7 +135,7 @@ def cmd_equations(args) -> int:
     if params:
         print(f"parameters: {params}")
     print()
-    if getattr(system, "kind", "flow") == "map":
+    if system.kind == "map":
         print("update (new values in terms of the old):")
         for sym, expr in zip(system.state_symbols, system.update):
             print(sp.pretty(sp.Eq(sp.Symbol(sym.name + "'"), expr, evaluate=False), use_unicode=uni))
@@ -154,7 +154,7 @@ def _print_latex(system) -> int:
     report: H and Hamilton's equations, or a map's update rules."""
     import sympy as sp
 
-    if getattr(system, "kind", "flow") == "map":
+    if system.kind == "map":
         for sym, expr in zip(system.state_symbols, system.update):
             print(f"{sp.latex(sp.Symbol(sym.name))}' = {sp.latex(expr)}")
         return OK

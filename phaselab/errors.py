@@ -23,8 +23,14 @@ The rule
   truncated, edited, or crafted with types, ranges, units or sizes phaselab never writes.
   The message names the file and what is wrong with it. A damaged part that phaselab can
   recompute (a chunk of a scan store) is recomputed with a warning instead.
+- :class:`MissingExtraError`: an optional dependency is not installed (xarray, netCDF4, zarr,
+  the notebook packages); the message names the pip extra that brings it. It is also an
+  :class:`ImportError`.
 - :class:`PhaselabWarning` (a warning, not an error): a result was computed but may not be what
   was meant (a periodic orbit found far from its guess). Filter it like any Python warning.
+
+Never raise the bare :class:`PhaselabError`: ``tests/test_errors.py`` reads every module and
+fails on it.
 
 Failures that concern one orbit of a batch are not raised at all: the orbit is flagged in the
 result's ``status`` (see :mod:`phaselab.engine.status`) and the rest of the batch is returned.
@@ -57,6 +63,10 @@ class StudyFileError(PhaselabError, ValueError):
 
 class DataFileError(PhaselabError, ValueError):
     """A data file or store read back is damaged or is not what phaselab writes."""
+
+
+class MissingExtraError(PhaselabError, ImportError):
+    """An optional dependency is missing; the message names the extra to install."""
 
 
 class PhaselabWarning(UserWarning):

@@ -122,7 +122,7 @@ def kernel_code(system) -> KernelCode:
         A time-dependent flow, a function or number that cannot be compiled, or stray symbols.
     """
     t0 = time.perf_counter()
-    kind = getattr(system, "kind", "flow")
+    kind = system.kind
     state = system.state_symbols
     params = system.param_symbols
     ren = rename_map(state, params)
@@ -319,7 +319,7 @@ def compile_kernel(system) -> CompiledKernel:
     if key in _compiled:
         return _compiled[key]
     t0 = time.perf_counter()
-    kind = getattr(system, "kind", "flow")
+    kind = system.kind
     holder: list[KernelCode] = []
 
     def make_source():

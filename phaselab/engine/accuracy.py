@@ -235,7 +235,7 @@ def record_span(system, how, t, n, params, t_max) -> float:
 def result_estimate(res) -> float:
     """The relative timing error of the step of a frequency result (``Frequencies``), NaN for
     maps, dop853 and results without their system."""
-    if res.system is None or getattr(res.system, "kind", "flow") == "map" or not np.isfinite(res.dt):
+    if res.system is None or res.system.kind == "map" or not np.isfinite(res.dt):
         return float("nan")
     span = res.sample_step * (res.n_samples - 1) if res.sampling == "time" else np.inf
     return estimate(res.system, res.seeds, span, res.dt, res.params, res.method)

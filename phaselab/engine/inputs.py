@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import math
 import numbers
+from dataclasses import dataclass
 from typing import Mapping
 
 import numpy as np
@@ -153,6 +154,86 @@ def state_index(system, name, what: str = "name") -> int:
     return names.index(key)
 
 
+# ----------------------------------------------------------------------------- section plane
+@dataclass(frozen=True)
+class Plane:
+    """A ``plane=`` argument as :func:`plane` parsed it.
+
+    Attributes
+    ----------
+    kind : {"none", "stroboscopic", "fixed"}
+        No plane given, the stroboscopic section of a driven flow, or fixed state components.
+    indices : tuple of int
+        State indices of the fixed components, in the order given (empty unless ``"fixed"``).
+    values : tuple of float
+        Their values (in each component's units).
+    names : tuple of str
+        Their names.
+    """
+
+    kind: str
+    indices: tuple = ()
+    values: tuple = ()
+    names: tuple = ()
+
+    def as_dict(self) -> dict:
+        """The fixed components as ``{name: value}`` (empty unless ``"fixed"``)."""
+        return dict(zip(self.names, self.values))
+
+    def single(self, what: str = "plane") -> tuple[int, float]:
+        """``(index, value)`` of a plane that fixes exactly one state component."""
+        if self.kind != "fixed" or len(self.indices) != 1:
+            raise ParameterError(f"{what} must fix exactly one state component, e.g. {{'x': 0.0}}, "
+                                 f"got {self.as_dict() if self.kind == 'fixed' else self.kind!r}")
+        return self.indices[0], self.values[0]
+
+
+def plane(system, value, what: str = "plane", stroboscopic: bool = True) -> Plane:
+    """The ``plane=`` argument of every function that takes one, parsed in this one place.
+
+    Accepted forms: ``None`` (no plane: what it means is the caller's, e.g. a stroboscopic
+    section of a driven flow, a record sampled in time, nothing fixed); the text
+    ``"stroboscopic"`` (unless ``stroboscopic`` is False); a mapping of state components
+    (name as text or sympy symbol) to finite real numbers, ``{"x": 0.0}``; a :class:`Plane`
+    (returned as it is). How many components a caller needs is its own check
+    (:meth:`Plane.single` for a section plane).
+    """
+    if isinstance(value, Plane):
+        return value
+    if value is None:
+        return Plane("none")
+    shape = ("a mapping such as {'x': 0.0} or 'stroboscopic'" if stroboscopic
+             else "a mapping of state names to values such as {'x': 0.0}")
+    if isinstance(value, str) and stroboscopic and value == "stroboscopic":
+        return Plane("stroboscopic")
+    if not isinstance(value, Mapping):
+        raise ParameterError(f"{what} must be {shape}, got {_show(value)}")
+    names = [s.name for s in system.state_symbols]
+    indices, values = [], []
+    for key, v in value.items():
+        i = state_index(system, key, f"{what} component")
+        if i in indices:
+            raise ParameterError(f"{what} fixes {names[i]!r} twice")
+        indices.append(i)
+        values.append(_plane_value(v, f"{what} value of {names[i]!r}"))
+    return Plane("fixed", tuple(indices), tuple(values), tuple(names[i] for i in indices))
+
+
+def _plane_value(value, what: str) -> float:
+    """A finite real number: a Python, numpy or sympy number, or a 0-d array (not text, a
+    bool or a complex number)."""
+    if isinstance(value, (str, bytes, bool, np.bool_)) or np.ndim(value) != 0 or (
+            isinstance(value, numbers.Complex) and not isinstance(value, numbers.Real)):
+        raise ParameterError(f"{what} must be a real number, got {_show(value)}")
+    try:
+        v = float(value)
+    except (OverflowError, TypeError, ValueError):
+        raise ParameterError(f"{what} must be a real number, got {_show(value)}") from None
+    if not math.isfinite(v):
+        raise ParameterError(f"{what} must be finite, got {v}")
+    return v
+
+
 # ----------------------------------------------------------------------------- box
 def box(system, value, positions=None) -> tuple[np.ndarray, np.ndarray]:
     """Escape region as ``(low, high)`` arrays over the state the loops integrate.
@@ -262,8 +343,9 @@ def implicit_solver(tol, maxit) -> tuple[float, int]:
 
 def flow(system, what: str):
     """Refuse anything but a Hamiltonian flow."""
-    if getattr(system, "kind", None) != "flow" or not hasattr(system, "expr"):
-        got = "an area-preserving map" if getattr(system, "kind", None) == "map" else type(system).__name__
+    is_system = isinstance(system, PhaseSpaceSystem)
+    if not is_system or system.kind != "flow" or not hasattr(system, "expr"):
+        got = "an area-preserving map" if is_system and system.kind == "map" else type(system).__name__
         raise ParameterError(f"{what} needs a Hamiltonian flow, got {got}")
 
 
@@ -293,7 +375,7 @@ def system(value, what: str = "system", kind: str | None = None):
     if not isinstance(value, PhaseSpaceSystem):
         raise ParameterError(f"{what} must be a phaselab.Hamiltonian or phaselab.AreaPreservingMap, "
                              f"got {_kind(value)}")
-    if kind is not None and getattr(value, "kind", None) != kind:
+    if kind is not None and value.kind != kind:
         want = "an area-preserving map" if kind == "map" else "a Hamiltonian flow"
         raise ParameterError(f"{what} must be {want}, got {_kind(value)}")
     return value
@@ -343,9 +425,10 @@ def pair(value, what: str) -> tuple[float, float]:
 
 def _kind(value) -> str:
     return f"{type(value).__name__} {_show(value)}" if not isinstance(value, PhaseSpaceSystem) \
-        else f"{type(value).__name__} ({getattr(value, 'kind', '?')})"
+        else f"{type(value).__name__} ({value.kind})"
 
 
 __all__ = ["number", "positive_number", "count", "step", "direction", "tolerance", "iterations",
-           "states", "state_index", "box", "method", "symplectic", "implicit_solver", "flow", "grid_axis",
+           "states", "state_index", "Plane", "plane", "box", "method", "symplectic", "implicit_solver",
+           "flow", "grid_axis",
            "system", "instance", "flag", "word", "mapping", "pair"]

@@ -13,7 +13,7 @@ import platform
 
 import numpy as np
 
-from phaselab.errors import PhaselabError
+from phaselab.errors import MissingExtraError
 
 NOTE = ("model results; confirm with validated tools and the responsible engineers before they "
         "inform a design decision")
@@ -32,8 +32,8 @@ def xarray_module():
     try:
         import xarray
     except ImportError:
-        raise PhaselabError("labelled results need xarray; install it with "
-                            "pip install 'phaselab[lab]'") from None
+        raise MissingExtraError("labelled results need xarray; install it with "
+                                "pip install 'phaselab[lab]'") from None
     return xarray
 
 
@@ -109,7 +109,7 @@ def provenance(system=None, params=None, **fields) -> dict:
         used = {str(k): v for k, v in (params or {}).items()}
     meta = {
         "system": str(getattr(system, "name", "") or "") if system is not None else "",
-        "system_kind": str(getattr(system, "kind", "") or "") if system is not None else "",
+        "system_kind": system.kind if system is not None else "",
         "expression": expression_text(system),
         "state": state_names(system),
         "params": used,

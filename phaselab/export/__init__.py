@@ -21,7 +21,7 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from phaselab.errors import PhaselabError
+from phaselab.errors import ParameterError
 from phaselab.export.data import (load_section, read_section_csv, read_section_netcdf,
                                   write_section_csv, write_section_netcdf)
 from phaselab.export.describe import check_section, section_metadata
@@ -51,15 +51,15 @@ def _save_section(section, path, **kwargs):
     writer = _WRITERS.get(suffix)
     if writer is None:
         known = ", ".join(_WRITERS)
-        raise PhaselabError(
+        raise ParameterError(
             f"cannot save a section as {suffix or 'a file without suffix'!r} ({path.name}); "
             f"use one of {known}")
     check_section(section)
     if suffix in (".csv", ".nc") and kwargs:
-        raise PhaselabError(
+        raise ParameterError(
             f"{suffix} data files take no options, got {', '.join(sorted(kwargs))}")
     if not path.parent.exists():
-        raise PhaselabError(f"cannot save to {path}: folder {path.parent} does not exist")
+        raise ParameterError(f"cannot save to {path}: folder {path.parent} does not exist")
     return writer(section, path, **kwargs)
 
 
@@ -93,6 +93,7 @@ def save(section, path, **kwargs):
     ParameterError
         For a suffix the type cannot be saved as (the message names those it can), a section
         without points, options a data file does not take.
+        :class:`~phaselab.errors.MissingExtraError` (for .nc) for a missing xarray.
     """
     path = checked_path(path)
     if any(cls.__name__ in FORMATS for cls in type(section).__mro__):

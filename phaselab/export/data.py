@@ -37,7 +37,7 @@ import numpy as np
 from phaselab.engine import limits
 from phaselab.engine.status import LEFT_BOX, OK, STATUS
 from phaselab.engine.provenance import plain
-from phaselab.errors import DataFileError, ParameterError, PhaselabError
+from phaselab.errors import DataFileError, MissingExtraError, ParameterError
 from phaselab.export import section_checks as checks
 from phaselab.export.describe import check_section, label_units, section_metadata
 from phaselab.base.atomic import atomic_path, checked_path
@@ -63,7 +63,7 @@ def _per_orbit(section) -> dict:
             return np.full(shape, fill, dtype=dtype)
         arr = np.asarray(value, dtype=dtype)
         if arr.shape != shape:
-            raise PhaselabError(f"section.{name} has shape {arr.shape}, expected {shape}")
+            raise ParameterError(f"section.{name} has shape {arr.shape}, expected {shape}")
         return arr
 
     return {
@@ -81,7 +81,7 @@ def _rows(section, counts):
     times = np.asarray(section.times, dtype=float)
     max_c = points.shape[1]
     if np.any(counts < 0) or np.any(counts > max_c):
-        raise PhaselabError(f"section.counts must lie between 0 and {max_c}, got {counts}")
+        raise ParameterError(f"section.counts must lie between 0 and {max_c}, got {counts}")
     keep = np.arange(max_c)[None, :] < counts[:, None]
     orbit, crossing = np.nonzero(keep)
     return orbit, crossing, times[orbit, crossing], points[orbit, crossing, :]
@@ -286,7 +286,7 @@ def _xarray():
     try:
         import xarray
     except ImportError:
-        raise PhaselabError(
+        raise MissingExtraError(
             "NetCDF export needs xarray and netCDF4; install them with pip install 'phaselab[lab]'") from None
     return xarray
 
@@ -300,7 +300,7 @@ def write_section_netcdf(section, path):
 
     Raises
     ------
-    PhaselabError
+    MissingExtraError
         If xarray (or a NetCDF engine) is not installed.
     """
     check_section(section)
@@ -344,7 +344,7 @@ def write_section_netcdf(section, path):
         try:
             ds.to_netcdf(tmp)
         except ValueError as exc:  # xarray says so when no NetCDF engine is installed
-            raise PhaselabError(
+            raise MissingExtraError(
                 f"cannot write NetCDF ({exc}); install netCDF4 with pip install 'phaselab[lab]'") from None
     return path
 
@@ -420,8 +420,8 @@ def load_section(path):
 
     Raises
     ------
-    PhaselabError
-        (:class:`~phaselab.errors.DataFileError`) For a file that is not a complete phaselab
+    DataFileError
+        For a file that is not a complete phaselab
         section file (see the readers and :mod:`phaselab.export.section_checks`), or that
         declares more than the memory limit allows: the sizes are checked before anything
         of that size is read or allocated.

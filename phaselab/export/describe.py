@@ -13,7 +13,7 @@ import numpy as np
 from phaselab.engine.provenance import expression_text, model_labels, plain  # noqa: F401  (expression_text re-exported)
 from phaselab.model.units import with_unit
 
-from phaselab.errors import PhaselabError
+from phaselab.errors import ParameterError
 
 #: Greek letter names that get a Unicode glyph in plain-text labels (bokeh, CSV readers).
 GREEK = {
@@ -35,22 +35,22 @@ def check_section(section) -> None:
 
     Raises
     ------
-    PhaselabError
+    ParameterError
         If ``section`` lacks the fields of :class:`phaselab.orbits.section_result.Section`, or
         has no finite point on the shown axes.
     """
     for name in ("points", "counts", "times", "axes"):
         if not hasattr(section, name):
-            raise PhaselabError(
+            raise ParameterError(
                 f"export expects a Section (with .points, .counts, .times, .axes); "
                 f"got {type(section).__name__} without .{name}")
     pts = np.asarray(section.points)
     if pts.ndim != 3:
-        raise PhaselabError(
+        raise ParameterError(
             f"section.points must have shape (n_orbits, max_crossings, 2n), got {pts.shape}")
     i, j = section.axes
     if pts.size == 0 or not np.any(np.isfinite(pts[..., i]) & np.isfinite(pts[..., j])):
-        raise PhaselabError(
+        raise ParameterError(
             "the section has no points to export (no orbit crossed the surface); "
             "seed more orbits, integrate longer or check the plane")
 

@@ -12,7 +12,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from phaselab.errors import PhaselabError
+from phaselab.errors import ParameterError
 from phaselab.engine.provenance import MODEL_NOTE
 from phaselab.export.marks import MARKERS
 from phaselab.export.describe import unit_of
@@ -35,7 +35,7 @@ def family_figure(family, y=None, size=(6.0, 4.2), dpi=150, title=None, note=MOD
     if y is None:
         y = "residue" if np.isfinite(np.asarray(family.residue, dtype=float)).any() else "index"
     if y not in ("residue", "period", "index"):
-        raise PhaselabError(f"y must be 'residue', 'period' or 'index', got {y!r}")
+        raise ParameterError(f"y must be 'residue', 'period' or 'index', got {y!r}")
     width, height = check_size(size, dpi)
     x = np.asarray(family.values, dtype=float)
     with matplotlib.rc_context(REPORT_RC):

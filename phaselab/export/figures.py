@@ -11,7 +11,7 @@ from pathlib import Path
 
 import numpy as np
 
-from phaselab.errors import PhaselabError
+from phaselab.errors import ParameterError
 from phaselab.export.describe import (FOOTER_SEPARATOR as _SEP, angle_limits, axis_label, axis_symbols,
                                       check_section, footer_text, text_problem)
 from phaselab.base.atomic import atomic_path
@@ -58,11 +58,11 @@ def check_size(size, dpi):
     try:
         width, height = (float(v) for v in size)
     except (TypeError, ValueError):
-        raise PhaselabError(f"size must be (width, height) in inches, got {size!r}") from None
+        raise ParameterError(f"size must be (width, height) in inches, got {size!r}") from None
     if not (np.isfinite(width) and np.isfinite(height) and width >= 2.0 and height >= 1.5):
-        raise PhaselabError(f"size must be at least 2 x 1.5 inches, got {size!r}")
+        raise ParameterError(f"size must be at least 2 x 1.5 inches, got {size!r}")
     if not (np.isfinite(dpi) and 10 <= dpi <= 2400):
-        raise PhaselabError(f"dpi must be between 10 and 2400, got {dpi!r}")
+        raise ParameterError(f"dpi must be between 10 and 2400, got {dpi!r}")
     return width, height
 
 
@@ -83,12 +83,12 @@ def check_overlays(overlays):
             try:
                 x, y = curve
             except (TypeError, ValueError):
-                raise PhaselabError(
+                raise ParameterError(
                     f"overlay {k} must be an (x, y) pair of arrays or an (n, 2) array") from None
         x = np.asarray(x, dtype=float).ravel()
         y = np.asarray(y, dtype=float).ravel()
         if x.shape != y.shape:
-            raise PhaselabError(f"overlay {k}: x has {x.size} values but y has {y.size}")
+            raise ParameterError(f"overlay {k}: x has {x.size} values but y has {y.size}")
         out.append((x, y))
     return out
 
@@ -118,13 +118,13 @@ def check_texts(**texts) -> None:
             continue
         problem = text_problem(str(text))
         if problem:
-            raise PhaselabError(f"{name}: {problem}")
+            raise ParameterError(f"{name}: {problem}")
 
 
 def per_orbit_scalar(color, n_orbits):
     values = np.asarray(color, dtype=float).ravel()
     if values.shape != (n_orbits,):
-        raise PhaselabError(
+        raise ParameterError(
             f"color must hold one value per orbit ({n_orbits}), got {np.shape(color)}")
     return values
 
@@ -171,7 +171,7 @@ def section_figure(section, size=(6.0, 4.5), dpi=150, point_size=1.6, color=None
     check_section(section)
     width, height = check_size(size, dpi)
     if not (np.isfinite(point_size) and point_size > 0):
-        raise PhaselabError(f"point_size must be a positive number of points, got {point_size!r}")
+        raise ParameterError(f"point_size must be a positive number of points, got {point_size!r}")
     curves = check_overlays(overlays)
     check_texts(title=title, note=note, color_label=color_label)
     x, y = section.xy()
@@ -191,7 +191,7 @@ def section_figure(section, size=(6.0, 4.5), dpi=150, point_size=1.6, color=None
         top = 0.42 if title else 0.18
         ax_w, ax_h = width - left - right, height - bottom - top
         if ax_w < 0.8 or ax_h < 0.6:
-            raise PhaselabError(f"size {size!r} leaves no room for the plot; make it larger")
+            raise ParameterError(f"size {size!r} leaves no room for the plot; make it larger")
         ax = fig.add_axes((left / width, bottom / height, ax_w / width, ax_h / height))
 
         marker_area = float(point_size) ** 2
@@ -272,7 +272,7 @@ def save_figure(section, path, **kwargs):
     path = Path(path)
     fmt = FIGURE_SUFFIXES.get(path.suffix.lower())
     if fmt is None:
-        raise PhaselabError(
+        raise ParameterError(
             f"a static figure is written as .svg, .pdf or .png, not {path.suffix or 'no suffix'!r}")
     fig = section_figure(section, **kwargs)
     metadata = {"Creator": "phaselab"} if fmt in ("pdf", "svg") else {"Software": "phaselab"}

@@ -11,7 +11,7 @@ from pathlib import Path
 
 import numpy as np
 
-from phaselab.errors import PhaselabError
+from phaselab.errors import ParameterError
 from phaselab.export.describe import axis_symbols, check_section, footer_text, plain_label, unit_of
 from phaselab.model.units import with_unit
 from phaselab.export.figures import MISSING_COLOR, ORBIT_COLORS, SCALAR_STOPS
@@ -60,7 +60,7 @@ def bokeh_figure(section, width=640, height=480, point_size=3.0, color=None, col
 
     check_section(section)
     if not (int(width) >= 100 and int(height) >= 100):
-        raise PhaselabError(f"width and height must be at least 100 pixels, got {width} x {height}")
+        raise ParameterError(f"width and height must be at least 100 pixels, got {width} x {height}")
     curves = check_overlays(overlays)
     x, y = section.xy()
     orbit = section.orbit_index()

@@ -11,7 +11,7 @@ from pathlib import Path
 
 import numpy as np
 
-from phaselab.errors import PhaselabError
+from phaselab.errors import ParameterError
 from phaselab.export.describe import mathtext_label
 from phaselab.export.figures import REPORT_RC, FIGURE_SUFFIXES, check_size, check_texts, scalar_colormap
 from phaselab.base.atomic import atomic_path
@@ -25,9 +25,9 @@ FORBIDDEN_FILL = "#ece8df"
 def _check_level_set(ls) -> None:
     for name in ("x", "y", "values", "levels", "lines", "axes"):
         if not hasattr(ls, name):
-            raise PhaselabError(f"expected a LevelSet (from phaselab.level_set), got {type(ls).__name__}")
+            raise ParameterError(f"expected a LevelSet (from phaselab.level_set), got {type(ls).__name__}")
     if not any(len(pieces) for pieces in ls.lines) and not getattr(ls, "separatrices", None):
-        raise PhaselabError("the level set has no contour inside its grid; widen the ranges or change the levels")
+        raise ParameterError("the level set has no contour inside its grid; widen the ranges or change the levels")
 
 
 def level_set_figure(ls, size=(5.5, 4.5), dpi=150, title=None, shade_forbidden=None, footer=True,
@@ -69,7 +69,7 @@ def level_set_figure(ls, size=(5.5, 4.5), dpi=150, title=None, shade_forbidden=N
         bottom = 0.55 + (0.22 if footer else 0.0)
         ax_w, ax_h = width - left - right, height - bottom - top
         if ax_w < 0.8 or ax_h < 0.6:
-            raise PhaselabError(f"size {size!r} leaves no room for the plot; make it larger")
+            raise ParameterError(f"size {size!r} leaves no room for the plot; make it larger")
         ax = fig.add_axes((left / width, bottom / height, ax_w / width, ax_h / height))
         if shade:
             with np.errstate(invalid="ignore"):
@@ -114,9 +114,9 @@ def save_level_set(ls, path, **kwargs) -> Path:
     path = Path(path)
     fmt = FIGURE_SUFFIXES.get(path.suffix.lower())
     if fmt is None:
-        raise PhaselabError(f"a level set is written as .svg, .pdf or .png, not {path.suffix or 'no suffix'!r}")
+        raise ParameterError(f"a level set is written as .svg, .pdf or .png, not {path.suffix or 'no suffix'!r}")
     if not path.parent.exists():
-        raise PhaselabError(f"folder {str(path.parent)!r} does not exist")
+        raise ParameterError(f"folder {str(path.parent)!r} does not exist")
     fig = level_set_figure(ls, **kwargs)
     with atomic_path(path) as tmp:
         fig.savefig(tmp, format=fmt, dpi=fig.dpi, facecolor="white")

@@ -16,7 +16,7 @@ from pathlib import Path
 import numpy as np
 
 from phaselab.engine.provenance import MODEL_NOTE, provenance
-from phaselab.errors import PhaselabError
+from phaselab.errors import ParameterError
 from phaselab.export.marks import BRANCH_STYLE, MARKERS
 from phaselab.engine.provenance import cf_dataset
 
@@ -85,7 +85,7 @@ def structure_figure(items, section=None, axes=None, size=(6.0, 4.5), dpi=150, t
     orbits = _orbits_of(items)
     manifolds = _manifolds_of(items)
     if not orbits and not manifolds:
-        raise PhaselabError("nothing to draw: give periodic orbits, manifolds or families")
+        raise ParameterError("nothing to draw: give periodic orbits, manifolds or families")
     system = (orbits[0].system if orbits else manifolds[0].orbit.system)
     if section is not None:
         fig = section_figure(section, size=size, dpi=dpi, title=title, footer=footer, xlim=xlim, ylim=ylim,
@@ -174,7 +174,7 @@ def _write_atomic(path: Path, write) -> Path:
 
     path = Path(path)
     if not path.parent.exists():
-        raise PhaselabError(f"cannot save to {path}: folder {path.parent} does not exist")
+        raise ParameterError(f"cannot save to {path}: folder {path.parent} does not exist")
     with atomic_path(path) as tmp:
         write(tmp)
     return path
@@ -201,7 +201,7 @@ def save_structure(obj, path, **kwargs) -> Path:
             return _write_atomic(path, lambda tmp: fig.savefig(tmp, format=suffix[1:], dpi=fig.dpi,
                                                                 facecolor="white"))
     if kwargs:
-        raise PhaselabError(f"{suffix} data files take no options, got {', '.join(sorted(kwargs))}")
+        raise ParameterError(f"{suffix} data files take no options, got {', '.join(sorted(kwargs))}")
     if suffix == ".json":
         data = obj.summary() if hasattr(obj, "summary") else _structure_summary(obj)
         text = json.dumps(data, indent=1, allow_nan=True)
@@ -209,8 +209,8 @@ def save_structure(obj, path, **kwargs) -> Path:
     if suffix == ".nc":
         ds = cf_dataset(obj.to_xarray())
         return _write_atomic(path, lambda tmp: ds.to_netcdf(tmp))
-    raise PhaselabError(f"cannot save a {_kind(obj)} as {suffix or 'a file without suffix'!r}; use .json, "
-                        ".nc, .svg, .pdf or .png")
+    raise ParameterError(f"cannot save a {_kind(obj)} as {suffix or 'a file without suffix'!r}; use .json, "
+                         ".nc, .svg, .pdf or .png")
 
 
 def _structure_summary(obj) -> dict:

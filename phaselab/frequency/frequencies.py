@@ -371,7 +371,7 @@ def rotation_number(system, seeds, n=None, angle=None, params=None, t=None, dt=N
         ``kind="rotation"``, ``.nu`` of shape (n_orbits, 1), ``.lines`` None, ``.diffusion``
         the change between the two halves (log10).
     """
-    if (getattr(system, "kind", "flow") == "flow" and plane is None and t is None
+    if (inputs.system(system).kind == "flow" and plane is None and t is None
             and getattr(system, "period", None) is not None):
         plane = "stroboscopic"
     Z0, how, n, pdict = _common(system, seeds, plane, t, n, params, direction)

@@ -40,7 +40,7 @@ def check_seeds(system, seeds):
 
 def sampling_plan(system, plane, t, n):
     """Which sampling a call asks for, with its count of samples."""
-    is_map = getattr(system, "kind", "flow") == "map"
+    is_map = system.kind == "map"
     if is_map:
         if plane is not None:
             raise ParameterError("plane is not used for a map (its iterates are the samples); "
@@ -49,7 +49,8 @@ def sampling_plan(system, plane, t, n):
             raise ParameterError("a map is sampled per iterate: give the number of iterates n, "
                                  "not t")
         return "map"
-    if plane is None:
+    where = inputs.plane(system, plane)
+    if where.kind == "none":
         if t is None:
             raise ParameterError("t (the length of the record, model time) is needed to sample a "
                                  "flow in time; or give plane={...} or 'stroboscopic' for a section")
@@ -57,15 +58,10 @@ def sampling_plan(system, plane, t, n):
     if t is not None:
         raise ParameterError("t is the length of a record sampled in time; a section is sampled "
                              "per crossing (give n, and t_max to cap the time)")
-    if isinstance(plane, str):
-        if plane != "stroboscopic":
-            raise ParameterError(f"plane must be a mapping such as {{'x': 0.0}} or "
-                                 f"'stroboscopic', got {plane!r}")
+    if where.kind == "stroboscopic":
         return "stroboscopic"
-    if isinstance(plane, Mapping):
-        return "plane"
-    raise ParameterError(f"plane must be a mapping such as {{'x': 0.0}} or 'stroboscopic', "
-                         f"got {plane!r}")
+    where.single()
+    return "plane"
 
 
 def angle_periods(system, angles):
@@ -211,7 +207,7 @@ def integration_step(system, seeds, t=None, n=None, params=None, method="auto", 
     from phaselab.engine.compiled import loops
     from phaselab.engine.integrators import ADAPTIVE, default_step
 
-    if getattr(system, "kind", "flow") == "map" or (isinstance(method, str) and method.lower() in ADAPTIVE):
+    if system.kind == "map" or (isinstance(method, str) and method.lower() in ADAPTIVE):
         return None
     Z0 = check_seeds(system, seeds)
     pdict = parameter_values(system, params)

@@ -38,6 +38,10 @@ class PhaseSpaceSystem:
 
     Attributes
     ----------
+    kind : {"flow", "map"}
+        Declared by each subclass (``Hamiltonian.kind == "flow"``, ``AreaPreservingMap.kind ==
+        "map"``); code reads ``system.kind`` once :func:`phaselab.engine.inputs.system` has
+        checked the argument is a system.
     angle_intervals : dict of str to (float, float)
         Each state component that is an angle, with the interval ``[low, high)`` it is
         wrapped into where a point is shown or saved (:mod:`phaselab.model.angles`). A
@@ -47,6 +51,7 @@ class PhaseSpaceSystem:
         given one (:mod:`phaselab.model.units`); the rest have none.
     """
 
+    kind: str
     coords: tuple
     momenta: tuple
     parameters: tuple[Parameter, ...]

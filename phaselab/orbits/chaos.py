@@ -242,7 +242,7 @@ def chaos_indicators(system, states, t, params=None, dt=None, method="auto", vec
     values = system.param_values(params)
     used = dict(zip([p.name for p in system.parameters], values.tolist()))
     history = bool(history) or record_every is not None
-    if getattr(system, "kind", "flow") == "map":
+    if system.kind == "map":
         n_iter = inputs.count(t, "t (the number of iterates)")
         return _map_indicators(system, states, n_iter, values, used, record_every, history, vectors,
                                seed, deviations, box)

@@ -18,7 +18,6 @@ from __future__ import annotations
 
 import math
 import warnings
-from typing import Mapping
 
 import numpy as np
 
@@ -111,18 +110,17 @@ def section(system, seeds, plane=None, direction=+1, crossings=300, params=None,
     Z0, energy = _seed_array(system, seeds, energy)
     prm = system.param_values(params)
     pdict = dict(zip((p.name for p in system.parameters), prm.tolist()))
-    if getattr(system, "kind", "flow") == "map":
+    where = None if system.kind == "map" else inputs.plane(system, plane)   # a map ignores plane
+    if where is None:
         out = _map_section(system, Z0, crossings, prm, pdict, energy, axes, box)
-    elif plane is None or (isinstance(plane, str) and plane == "stroboscopic"):
+    elif where.kind != "fixed":
         out = _strobe_section(system, Z0, crossings, prm, pdict, dt, method, t_max, axes, box)
-    elif isinstance(plane, Mapping):
-        out = _plane_section(system, Z0, plane, direction, crossings, prm, pdict, dt, method, t_max,
-                             energy, axes, box)
     else:
-        raise ParameterError(f"plane must be a mapping such as {{'x': 0.0}} or 'stroboscopic', got {plane!r}")
+        out = _plane_section(system, Z0, where, direction, crossings, prm, pdict, dt, method, t_max,
+                             energy, axes, box)
     drift = (out.status == OK) & (out.energy_error > energy_limit)
     out.status[drift] = codes.ENERGY_DRIFT
-    if not lifted and getattr(system, "kind", "flow") != "map" and getattr(system, "angle_intervals", None):
+    if not lifted and system.kind != "map" and getattr(system, "angle_intervals", None):
         out.points = system.wrap_angles(out.points)
     _warn_stopped(out, energy_limit)
     return out
@@ -216,11 +214,7 @@ def _plane_section(system, Z0, plane, direction, crossings, prm, pdict, dt, meth
     if not system.is_autonomous:
         raise ModelError(f"{system.name!r} depends on time explicitly; use plane='stroboscopic' "
                          "(and give H a driving period), or section its .extended() system")
-    if len(plane) != 1:
-        raise ParameterError(f"plane must fix exactly one state component, e.g. {{'x': 0.0}}, got {dict(plane)!r}")
-    (name, value), = plane.items()
-    k = inputs.state_index(system, name, "plane component")
-    value = inputs.number(value, f"plane value of {name!r}")
+    k, value = plane.single()
     meth = inputs.method(system, method)
     lo, hi = inputs.box(system, box)
     ax, syms = _axes(system, axes, _default_plane_axes(system.dof, k))

@@ -186,8 +186,9 @@ def shell_seeds(system, energy, plane, solve_for, points, params=None, sign=+1) 
         An autonomous system (H without explicit time).
     energy : float
         The energy E (units of H).
-    plane : mapping of str to float
-        The fixed state components, e.g. ``{"x": 0.0}`` for a section plane x = 0.
+    plane : mapping of str to float, or None
+        The fixed state components, e.g. ``{"x": 0.0}`` for a section plane x = 0 (names as
+        text or sympy symbols; None fixes none; see :func:`phaselab.engine.inputs.plane`).
     solve_for : str or sympy.Symbol
         The component solved from H = E, usually the momentum conjugate to the plane's
         coordinate (``"px"``).
@@ -214,7 +215,7 @@ def shell_seeds(system, energy, plane, solve_for, points, params=None, sign=+1) 
     (``scipy.optimize.brentq``) on the side of the minimum of H given by ``sign``.
     """
     inputs.system(system)
-    if getattr(system, "kind", "flow") != "flow":
+    if system.kind != "flow":
         raise ModelError("shell_seeds needs a Hamiltonian flow; a map has no energy shell")
     if not system.is_autonomous:
         raise ModelError("H depends on time explicitly, so it has no energy shell; seed the "
@@ -222,12 +223,8 @@ def shell_seeds(system, energy, plane, solve_for, points, params=None, sign=+1) 
     if isinstance(sign, (bool, np.bool_)) or sign not in (1, -1):
         raise ParameterError(f"sign must be +1 or -1, got {sign!r}")
     E = _as_float(energy, "energy")
-    if not isinstance(plane, Mapping):
-        raise ParameterError(f"plane must be a mapping of state names to values such as {{'x': 0.0}}, got {plane!r}")
-    fixed = {}
-    for name, value in plane.items():
-        i = state_index(system, name, "plane component")
-        fixed[i] = _as_float(value, f"plane value of {system.state_symbols[i].name}")
+    where = inputs.plane(system, plane, stroboscopic=False)
+    fixed = dict(zip(where.indices, where.values))
     si = state_index(system, solve_for, "solve_for component")
     if si in fixed:
         raise ParameterError(f"{system.state_symbols[si].name} is both fixed by the plane and solved for")

@@ -192,7 +192,7 @@ def chaos_map(system, seeds, t, indicator: str = "megno", params=None, dt=None, 
     if not isinstance(indicator, str) or indicator not in INDICATORS:
         raise ParameterError(f"unknown indicator {indicator!r}; choose one of {', '.join(INDICATORS)}")
     states, valid, grid = scan_rows(system, seeds)
-    is_map = getattr(system, "kind", "flow") == "map"
+    is_map = system.kind == "map"
     t = float(inputs.count(t, "t (the number of iterates)")) if is_map else inputs.positive_number(t, "t")
     seed = inputs.count(seed, "seed", minimum=0)
     used = system.param_values(params)  # refuses unknown parameters before any work

@@ -32,7 +32,7 @@ from phaselab.engine import status as codes
 from phaselab.engine.provenance import (NOTE, expression_text, netcdf_attrs, provenance,  # noqa: F401
                                      state_names, versions, xarray_module)
 from phaselab.engine.provenance import cf_dataset
-from phaselab.errors import ParameterError, PhaselabError
+from phaselab.errors import MissingExtraError, ParameterError
 
 SCAN_STORE_KEY = "phaselab_scan"
 """The group attribute that marks a scan's resume store (:mod:`phaselab.scan.store`)."""
@@ -48,7 +48,7 @@ def zarr_module():
     try:
         import zarr
     except ImportError:
-        raise PhaselabError("Zarr stores need zarr; install it with pip install 'phaselab[scale]'") from None
+        raise MissingExtraError("Zarr stores need zarr; install it with pip install 'phaselab[scale]'") from None
     return zarr
 
 
@@ -125,7 +125,7 @@ def seed_dataset(grid, seeds, variables: dict, meta: dict, state=None, extra_coo
 
 def time_unit(system) -> str:
     """``"iterates"`` for a map, ``"model time units"`` for a flow."""
-    return "iterates" if getattr(system, "kind", "flow") == "map" else "model time units"
+    return "iterates" if system.kind == "map" else "model time units"
 
 
 # ----------------------------------------------------------------------------- files
@@ -150,8 +150,8 @@ def save_netcdf(dataset, path) -> Path:
         try:
             dataset.to_netcdf(tmp)
         except ValueError as exc:
-            raise PhaselabError(f"cannot write NetCDF ({exc}); install netCDF4 with "
-                                "pip install 'phaselab[lab]'") from None
+            raise MissingExtraError(f"cannot write NetCDF ({exc}); install netCDF4 with "
+                                    "pip install 'phaselab[lab]'") from None
 
     return atomic_write(path, write)
 

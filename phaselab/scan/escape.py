@@ -328,7 +328,7 @@ def escape_map(system, seeds, t, box, params=None, dt=None, method="auto", batch
         inputs.count(batch_size, "batch_size")
     inputs.box(system, box)
     used = system.param_values(params)
-    is_map = getattr(system, "kind", "flow") == "map"
+    is_map = system.kind == "map"
     if is_map:
         cap = inputs.count(t, "t (the number of iterates)")
         t = float(cap)

@@ -155,7 +155,7 @@ def _columns(system, angle, plane) -> int:
     if angle is not None:
         return 1
     dof = len(system.state_symbols) // 2
-    return dof - 1 if isinstance(plane, dict) or (plane is not None and not isinstance(plane, str)) else dof
+    return dof - 1 if system.kind == "flow" and inputs.plane(system, plane).kind == "fixed" else dof
 
 
 def frequency_map(system, seeds, t=None, n=None, params=None, dt=None, method="auto", plane=None,
@@ -201,10 +201,10 @@ def frequency_map(system, seeds, t=None, n=None, params=None, dt=None, method="a
                    box=box, t_max=t_max)
     if angle is None:
         options.update(window=window, angles=angles, fold=fold, lines=1)
-    elif getattr(system, "kind", "flow") == "flow" and plane is None and t is None \
+    elif system.kind == "flow" and plane is None and t is None \
             and getattr(system, "period", None) is not None:
         options["plane"] = "stroboscopic"
-    if dt is None and getattr(system, "kind", "flow") == "flow":
+    if dt is None and system.kind == "flow":
         options["dt"] = integration_step(system, states[todo], t=t, n=n, params=params,
                                          method=method, plane=options["plane"])
     k = _columns(system, angle, options["plane"])

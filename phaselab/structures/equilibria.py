@@ -97,7 +97,7 @@ def equilibria(system, params=None, bounds=None, starts: int = 200, seed: int = 
     inputs.system(system)
     starts = inputs.count(starts, "starts", minimum=0, maximum=100_000)
     seed = inputs.count(seed, "seed", minimum=0)
-    if getattr(system, "kind", "flow") == "map":
+    if system.kind == "map":
         return map_fixed_points(system, params, bounds, int(starts), seed)
     if not system.is_autonomous:
         raise ModelError(

@@ -112,12 +112,8 @@ class PlaneReturn(ReturnMap):
 
     def __init__(self, system, k, prm, box_lo, box_hi, plane, energy, direction, solve_for, dt,
                  method, t_max):
-        if not isinstance(plane, dict) or len(plane) != 1:
-            raise ParameterError(f"plane must fix exactly one state component, e.g. {{'x': 0.0}}, got {plane!r}")
-        (name, value), = plane.items()
         n = system.dof
-        self.plane_index = inputs.state_index(system, name, "plane component")
-        self.value = inputs.number(value, f"plane value of {name!r}")
+        self.plane_index, self.value = inputs.plane(system, plane).single()
         partner = (self.plane_index + n) % (2 * n)
         self.solve_index = partner if solve_for is None else inputs.state_index(system, solve_for, "solve_for")
         if self.solve_index == self.plane_index:

@@ -227,7 +227,7 @@ def level_set(system, ranges, levels, params=None, resolution=400, plane=None,
     from phaselab.structures.equilibria import check_bounds
 
     inputs.system(system), inputs.flag(separatrices, "separatrices")
-    if getattr(system, "kind", "flow") != "flow":
+    if system.kind != "flow":
         raise ModelError(f"system {getattr(system, 'name', '')!r} is a map: it has no Hamiltonian to draw "
                          "level sets of")
     if not system.is_autonomous:
@@ -242,7 +242,7 @@ def level_set(system, ranges, levels, params=None, resolution=400, plane=None,
     rng = check_bounds(ranges, names, what="ranges")
     if len(rng) != 2:
         raise ParameterError(f"ranges names the same variable twice: {list(ranges)}")
-    fixed = _check_plane(plane, names, rng)
+    fixed = _check_plane(system, plane, rng)
     levels_arr = _check_levels(levels)
     nx, ny = _check_resolution(resolution)
     if separatrices and system.dof != 1:
@@ -298,20 +298,12 @@ def allowed_mask(system, ranges, energy, params=None, resolution=400, plane=None
     return level_set(system, ranges, energy, params=params, resolution=resolution, plane=plane).allowed(energy)
 
 
-def _check_plane(plane, names, shown) -> dict[str, float]:
-    if plane is None:
-        return {}
-    if not isinstance(plane, Mapping):
-        raise ParameterError(f"plane must be a mapping of name to value, got {type(plane).__name__}")
-    out = {}
-    for key, value in plane.items():
-        name = str(getattr(key, "name", key))
-        if name not in names:
-            raise ParameterError(f"plane: unknown state variable {name!r}; this system has: {', '.join(names)}")
+def _check_plane(system, plane, shown) -> dict[str, float]:
+    fixed = inputs.plane(system, plane, stroboscopic=False)
+    for name in fixed.names:
         if name in shown:
             raise ParameterError(f"plane fixes {name!r}, which ranges also shows; a variable is one or the other")
-        out[name] = _finite_level(value, f"plane[{name!r}]")
-    return out
+    return fixed.as_dict()
 
 
 def _minimised_values(system, prm, base, shown, elim, X, Y):

@@ -43,23 +43,24 @@ def return_map(system, k, plane=None, energy=None, guess=None, direction=1, solv
     prm = system.param_values(params)
     k = inputs.count(k, "period")
     lo, hi = inputs.box(system, box)
-    kind = getattr(system, "kind", "flow")
+    kind = system.kind
     if kind == "map":
         return MapReturn(system, k, prm, lo, hi)
+    where = inputs.plane(system, plane)
     if not system.is_autonomous:
-        if plane not in (None, "stroboscopic"):
+        if where.kind == "fixed":
             raise ModelError("a time-dependent Hamiltonian is sectioned stroboscopically: leave plane out")
         ret = StrobeReturn(system, k, prm, lo, hi, inputs.step(dt), method)
         if guess is not None:
             ret.set_step(np.atleast_2d(guess))
         return ret
-    if plane is None or isinstance(plane, str):
+    if where.kind != "fixed":
         raise ParameterError("an autonomous flow needs a section plane, e.g. plane={'x': 0.0}")
     if energy is None:
         if guess is None:
             raise ParameterError("give energy=... (or a guess to take it from)")
         energy = float(np.atleast_1d(system.energy(np.atleast_2d(guess)[:1], params=params))[0])
-    ret = PlaneReturn(system, k, prm, lo, hi, dict(plane), energy, direction, solve_for, inputs.step(dt),
+    ret = PlaneReturn(system, k, prm, lo, hi, where, energy, direction, solve_for, inputs.step(dt),
                       method, None if t_max is None else inputs.positive_number(t_max, "t_max"))
     if guess is not None:
         ret.set_step(np.atleast_2d(guess))

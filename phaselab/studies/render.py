@@ -75,7 +75,7 @@ class Rendered:
         """One line: orbits, points, worst energy error."""
         sec = self.section
         text = f"{self.n_orbits} orbits, {self.n_points} section points"
-        if getattr(sec.system, "kind", "flow") == "map":
+        if sec.system.kind == "map":
             text += ", a map (no energy to conserve)"
         else:
             text += f", worst relative energy error {self.worst_energy_error:.2e}"

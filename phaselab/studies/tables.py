@@ -42,7 +42,7 @@ def read_section(f: Fields, data: dict, system, params) -> SectionSpec:
                 raise f.error(f"section.show[{i}]", f"{name!r} is not a coordinate or momentum; the state is "
                                                    + ", ".join(state))
     box = f.get_number(sec, "section", "box", positive=True)
-    is_map = getattr(system, "kind", "flow") == "map"
+    is_map = system.kind == "map"
     if is_map:
         for key in ("plane", "direction", "energy", "method", "dt"):
             if key in sec:

@@ -68,7 +68,7 @@ def _seed_states(f: Fields, study: Study) -> np.ndarray:
                                    f"E = {seeds.energy:g} (first: {first})")
     else:
         states = np.asarray(seeds, dtype=float)
-    if getattr(study.system, "kind", "flow") == "flow":   # the section evaluates H at the seeds (t = 0)
+    if study.system.kind == "flow":   # the section evaluates H at the seeds (t = 0)
         guarded(f, key, lambda: study.system.energy(states, params=study.params))
     return states
 

@@ -98,7 +98,7 @@ def color_values(view, section, color_by, params, energy):
     if isinstance(color_by, str) and color_by in CHAOS_INDICATORS:
         from phaselab.orbits.chaos import chaos_indicators
 
-        is_map = getattr(system, "kind", "flow") == "map"
+        is_map = system.kind == "map"
         m = len(system.state_symbols)
         for k in range(n):
             c = int(section.counts[k])

@@ -139,14 +139,14 @@ def write_figure(snap: Snapshot, path, dpi=150):
 
     import matplotlib
 
-    from phaselab.errors import PhaselabError
+    from phaselab.errors import ParameterError
 
     path = Path(path)
     fmt = path.suffix.lower().lstrip(".")
     if fmt not in ("png", "svg", "pdf"):
-        raise PhaselabError(f"a figure is written as .png, .svg or .pdf, not {path.suffix!r}")
+        raise ParameterError(f"a figure is written as .png, .svg or .pdf, not {path.suffix!r}")
     if not path.parent.exists():
-        raise PhaselabError(f"cannot save to {path}: folder {path.parent} does not exist")
+        raise ParameterError(f"cannot save to {path}: folder {path.parent} does not exist")
     fig = view_figure(snap, dpi=dpi)
     with atomic_path(path) as tmp, matplotlib.rc_context({"svg.fonttype": "none", "pdf.fonttype": 42}):
         fig.savefig(tmp, format=fmt, dpi=dpi, facecolor="white")

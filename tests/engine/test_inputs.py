@@ -1,68 +1,73 @@
-"""The shared argument checks (engine/inputs.py) and the limits on work (engine/limits.py),
-called directly. Each accepted form comes back in the form the compiled loops take; each
-mistake is one ParameterError naming the argument (DEVELOPERS.md, "Inputs")."""
-
+"""The section plane parsed in one place (engine/inputs.py) and refused alike by every caller."""
 import math
 
 import numpy as np
 import pytest
+import sympy as sp
 
+import phaselab
 from phaselab import ParameterError
-from phaselab.engine import inputs, limits
+from phaselab.engine import inputs
+
+H2 = phaselab.Hamiltonian("(px**2 + py**2)/2 + (x**2 + y**2)/2", ["x", "y"], ["px", "py"])
 
 
-@pytest.fixture(autouse=True)
-def _restore_limits():
-    before = limits.LIMITS
-    yield
-    limits.LIMITS = before
+@pytest.mark.parametrize("value, kind, fixed", [
+    (None, "none", {}),
+    ("stroboscopic", "stroboscopic", {}),
+    ({"x": 0.0}, "fixed", {"x": 0.0}),
+    ({sp.Symbol("y"): 0.25}, "fixed", {"y": 0.25}),          # a sympy symbol names the component
+    ({"x": np.float32(0.5), "py": 1}, "fixed", {"x": 0.5, "py": 1.0}),
+    ({"x": np.array(-0.5)}, "fixed", {"x": -0.5}),             # a 0-d array is a number
+    ({}, "fixed", {}),
+])
+def test_accepted_forms(value, kind, fixed):
+    where = inputs.plane(H2, value)
+    assert where.kind == kind
+    assert where.as_dict() == fixed
+    assert inputs.plane(H2, where) is where                    # a parsed plane passes through
 
 
-def test_numbers():
-    assert inputs.number(np.float32(0.5), "x") == 0.5 and isinstance(inputs.number(3, "x"), float)
-    for bad in (True, "1", 1 + 2j, None, math.nan, math.inf, 10**400):
-        with pytest.raises(ParameterError, match="x"):
-            inputs.number(bad, "x")
-    with pytest.raises(ParameterError, match="positive"):
-        inputs.positive_number(0.0, "tol")
+def test_a_sympy_number_is_its_float():
+    # reference: math.pi (the value float() gives a sympy constant)
+    assert inputs.plane(H2, {"x": sp.pi}).values == (math.pi,)
 
 
-def test_counts():
-    assert inputs.count(np.int64(7), "n") == 7 and inputs.count(8.0, "n") == 8
-    for bad, words in ((0, "at least 1"), (2.5, "integer"), (True, "integer"), (2**60, "2\\*\\*53"),
-                       ("3", "integer")):
-        with pytest.raises(ParameterError, match=words):
-            inputs.count(bad, "n")
-    with pytest.raises(ParameterError, match="at most 5"):
-        inputs.count(6, "n", maximum=5)
+@pytest.mark.parametrize("value, words", [
+    ("strobe", "mapping such as"),
+    ([("x", 0.0)], "mapping such as"),
+    (5, "mapping such as"),
+    ({"w": 0.0}, "unknown plane component 'w'"),
+    ({"x": "0"}, "real number"),
+    ({"x": True}, "real number"),
+    ({"x": 1j}, "real number"),
+    ({"x": [0.0]}, "real number"),
+    ({"x": math.nan}, "finite"),
+    ({"x": 0.0, sp.Symbol("x"): 1.0}, "fixes 'x' twice"),
+])
+def test_refused_forms_name_the_problem(value, words):
+    with pytest.raises(ParameterError, match=words):
+        inputs.plane(H2, value)
 
 
-def test_states_come_back_as_c_ordered_float64_batches():
-    z = inputs.states([0.1, 0.2], 2, ("q", "p"))
-    assert z.shape == (1, 2) and z.dtype == np.float64 and z.flags.c_contiguous
-    z = inputs.states(np.asfortranarray(np.ones((3, 2), dtype=np.float32)), 2, ("q", "p"))
-    assert z.shape == (3, 2) and z.dtype == np.float64 and z.flags.c_contiguous
-    for bad in ([0.1], [[0.1, 0.2, 0.3]], "abc", [[0.1, None]]):
-        with pytest.raises(ParameterError, match="seeds"):
-            inputs.states(bad, 2, ("q", "p"))
+def test_single_component_and_stroboscopic_only_where_meant():
+    assert inputs.plane(H2, {"py": 0.1}).single() == (3, 0.1)
+    with pytest.raises(ParameterError, match="exactly one state component"):
+        inputs.plane(H2, {"x": 0.0, "y": 0.0}).single()
+    with pytest.raises(ParameterError, match="state names to values"):
+        inputs.plane(H2, "stroboscopic", stroboscopic=False)
 
 
-def test_direction_and_step():
-    assert inputs.direction(-1) == -1 and inputs.direction(1) == 1
-    with pytest.raises(ParameterError, match="direction"):
-        inputs.direction(0)
-    assert inputs.step(None) is None and inputs.step(0.01) == 0.01
-    for bad in (0.0, -0.1, math.nan):
-        with pytest.raises(ParameterError, match="dt"):
-            inputs.step(bad)
-
-
-def test_budgets_refuse_before_work_and_say_how_to_raise_the_limit():
-    limits.set_limits(memory_bytes=1e6, orbit_steps=1e6)
-    limits.check_budget(10, 1e4, 1e4, "small")     # 1e5 steps, 80 kB: accepted
-    with pytest.raises(ParameterError, match="set_limits"):
-        limits.check_budget(1000, 1e4, 0, "many steps")
-    with pytest.raises(ParameterError, match="set_limits"):
-        limits.check_budget(1, 0, 1e6, "much memory")  # 8 MB of float64 over a 1 MB limit
-    with pytest.raises(ParameterError, match="grid"):
-        limits.grid_budget(1e6, 4, "a grid")
+@pytest.mark.parametrize("call", [
+    lambda p: phaselab.section(H2, [[0.0, 0.1, 0.2, 0.0]], plane=p, crossings=2, dt=0.05),
+    lambda p: phaselab.periodic_orbit(H2, [0.0, 0.1, 0.2, 0.0], plane=p, energy=0.1),
+    lambda p: phaselab.frequencies(H2, [[0.0, 0.1, 0.2, 0.0]], n=64, plane=p),
+    lambda p: phaselab.level_set(H2, {"y": (-1, 1), "py": (-1, 1)}, 0.1, plane=p, resolution=8),
+    lambda p: phaselab.shell_seeds(H2, 0.1, p, "px", {"y": [0.1], "py": [0.0]}),
+])
+def test_every_caller_refuses_a_bad_plane_with_the_same_words(call):
+    # one parser: the same message wherever a plane is taken, before any integration
+    with pytest.raises(ParameterError, match="unknown plane component 'w'; the state components"):
+        call({"w": 0.0})
+    with pytest.raises(ParameterError, match="plane value of 'x' must be finite"):
+        call({"x": math.inf})

@@ -282,8 +282,10 @@ def test_bad_input_errors(hh, quartic, bead):
         trajectory(hh, z, 1.0, save_every=0)
     with pytest.raises(ParameterError, match="save_every"):
         trajectory(hh, z, 1.0, save_every=-1)
-    with pytest.raises(ParameterError, match="map"):
-        trajectory(_FakeMap(), z, 1.0)
+    with pytest.raises(ParameterError, match="an area-preserving map"):
+        trajectory(phaselab.models.standard_map(), z, 1.0)
+    with pytest.raises(ParameterError, match="needs a Hamiltonian flow, got _FakeMap"):
+        trajectory(_FakeMap(), z, 1.0)   # an object that only says it is a map is no system
     # bounds known up front: steps and memory
     with pytest.raises(ParameterError, match="integrator steps.*set_limits"):
         trajectory(hh, z, 1e6, dt=1e-9)

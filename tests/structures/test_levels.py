@@ -158,7 +158,7 @@ def test_bad_levels(oscillator, levels):
 
 def test_bad_plane_and_elimination(henon_heiles):
     rng = {"y": (-1, 1), "py": (-1, 1)}
-    with pytest.raises(ParameterError, match="unknown state variable 'w'"):
+    with pytest.raises(ParameterError, match="unknown plane component 'w'"):
         level_set(henon_heiles, rng, 0.1, plane={"w": 0.0})
     with pytest.raises(ParameterError, match="plane fixes 'y'"):
         level_set(henon_heiles, rng, 0.1, plane={"y": 0.0, "x": 0.0})

@@ -6,6 +6,7 @@ from __future__ import annotations
 import numpy as np
 import sympy as sp
 
+from phaselab.engine import inputs
 from phaselab.errors import ModelError, ParameterError
 from phaselab.model.hamiltonian import Hamiltonian
 from phaselab.structures.normal_forms.arguments import check_order, check_point, check_resonances
@@ -68,7 +69,7 @@ def normal_form(system, at, order: int, *, resonances=None, params=None, arithme
         A time-dependent system or a map, a point that is not an equilibrium, an
         equilibrium that is not elliptic, or a resonance met that was not asked for.
     """
-    if getattr(system, "kind", None) == "map" and not isinstance(system, Hamiltonian):
+    if inputs.system(system).kind == "map":
         if resonances:
             raise ParameterError("resonant normal forms of maps are not available; leave resonances out")
         if arithmetic == "exact":

@@ -177,8 +177,8 @@ def _grid(system, region, resolution, plane):
     for (j, _), values in zip(axes, mesh):
         starts[:, j] = values.ravel()
     if isinstance(plane, dict):
-        for key, value in plane.items():
-            starts[:, inputs.state_index(system, key, "plane component")] = float(value)
+        where = inputs.plane(system, plane)
+        starts[:, list(where.indices)] = where.values
     return starts
 
 

@@ -52,7 +52,7 @@ class _Reversor:
 
 
 def _reversor_kernel(system):
-    if getattr(system, "kind", "flow") != "map" or getattr(system, "reversor", None) is None:
+    if system.kind != "map" or system.reversor is None:
         raise ModelError("symmetric orbits need a map with a reversor: AreaPreservingMap(..., reversor=[...])")
     return compile_kernel(_Reversor(system))
 

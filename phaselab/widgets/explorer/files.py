@@ -34,10 +34,10 @@ class SessionFiles:
 
         sec = self.section()
         if sec is None:
-            raise PhaselabError("there are no orbits to export yet")
+            raise ParameterError("there are no orbits to export yet")
         stem = (stem or self.controls.stem.value or "section").strip()
         if not stem or any(c in stem for c in "/\\") or stem.startswith("."):
-            raise PhaselabError(f"file name {stem!r} must be a plain name without folders")
+            raise ParameterError(f"file name {stem!r} must be a plain name without folders")
         stem = safe_stem(stem)
         snap = self.snapshot()
         paths = []

@@ -21,6 +21,7 @@ The shared parts (:class:`Frame`, :class:`Seeding`, the base class) are in
 
 from __future__ import annotations
 
+from phaselab.engine import inputs
 from phaselab.errors import ModelError
 from phaselab.widgets.views.base import GRID, TRACE_SAMPLES, BaseView, Frame, Seeding
 from phaselab.widgets.views.map_view import MapView
@@ -35,7 +36,7 @@ __all__ = ["GRID", "TRACE_SAMPLES", "BaseView", "Frame", "Seeding", "SectionView
 def make_view(system, plane=None, solve_for=None, crossings=300, ranges=None, sign=+1, duration=None,
               method="auto", dt=None):
     """The view for ``system``: map, stroboscopic, phase portrait or surface of section."""
-    if getattr(system, "kind", "flow") == "map":
+    if inputs.system(system).kind == "map":
         if plane is not None or solve_for is not None:
             raise ModelError("a map has no section plane or energy: leave plane and solve_for out")
         return MapView(system, crossings, ranges)
