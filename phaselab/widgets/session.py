@@ -28,7 +28,6 @@ Reading a file (bounded, every value checked before the explorer changes anythin
 from __future__ import annotations
 
 import json
-import math
 import os
 import tempfile
 from dataclasses import dataclass, field
@@ -37,6 +36,7 @@ from pathlib import Path
 import numpy as np
 
 from phaselab.errors import ParameterError
+from phaselab.model.params import finite_number
 from phaselab.widgets.session_file import FILE_FORMAT, FILE_VERSION, read_session
 
 
@@ -124,15 +124,6 @@ class Change:
     def anything(self) -> bool:
         return bool(self.added or self.removed or self.recompute or self.setting or self.selection)
 
-
-def _finite(value, what) -> float:
-    try:
-        v = float(value)
-    except (TypeError, ValueError):
-        raise ParameterError(f"{what} must be a finite number, got {value!r}") from None
-    if not math.isfinite(v):
-        raise ParameterError(f"{what} must be a finite number, got {value!r}")
-    return v
 
 
 class Session:
@@ -264,7 +255,7 @@ class Session:
 
     # ------------------------------------------------------------------ settings
     def set_energy(self, value) -> Change:
-        v = _finite(value, "energy")
+        v = finite_number(value, "energy")
         if self.energy is not None and v == self.energy:
             return Change()
         self.energy = v
@@ -273,7 +264,7 @@ class Session:
         return Change(setting=True, recompute=self.ids())
 
     def set_params(self, values: dict) -> Change:
-        new = {k: _finite(v, f"parameter {k!r}") for k, v in values.items()}
+        new = {k: finite_number(v, f"parameter {k!r}") for k, v in values.items()}
         unknown = [k for k in new if k not in self.params]
         if unknown:
             raise ParameterError(f"unknown parameters {', '.join(unknown)}; this system has "
