@@ -22,6 +22,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from phaselab.engine import accuracy as step_accuracy
 from phaselab.engine import status as codes
 
 from phaselab.engine import inputs, limits
@@ -73,8 +74,24 @@ class ChaosIndicators(codes.StatusReport):
     method: str
     dt: float
     params: dict = field(default_factory=dict)
+    system: object = field(default=None, repr=False)
 
-
+    @property
+    def error_estimate(self) -> float:
+        """The relative timing error of the integration step over the longest orbit (step
+        doubling, :func:`phaselab.engine.accuracy.estimate`). NaN for maps or without the
+        system. Measured on first use (a short pilot run) and kept."""
+        cached = self.__dict__.get("_error_estimate")
+        if cached is None:
+            t_end = np.asarray(self.t_end, dtype=float)
+            span = float(np.nanmax(t_end)) if np.isfinite(t_end).any() else float("nan")
+            if (self.system is None or self.system.kind == "map" or not np.isfinite(self.dt)
+                    or not np.isfinite(span) or span <= 0):
+                cached = float("nan")
+            else:
+                cached = step_accuracy.estimate(self.system, self.seeds, span, self.dt, self.params, self.method)
+            self.__dict__["_error_estimate"] = cached
+        return cached
 
     def take(self, orbits) -> "ChaosIndicators":
         """The indicators of the selected orbits (index, indices or boolean mask), copied."""
@@ -102,7 +119,7 @@ class ChaosIndicators(codes.StatusReport):
                 for k in ("lyapunov", "megno", "fli", "sali", "t_end", "status", "seeds")}
         history = {k: np.concatenate([p.history[k] for p in parts])[idx].copy() for k in first.history}
         return cls(**join, t=first.t.copy(), history=history, method=first.method, dt=first.dt,
-                   params=dict(first.params))
+                   params=dict(first.params), system=first.system)
 
     def to_xarray(self):
         """An ``xarray.Dataset`` with CF attributes: the indicators, ``t_end``, ``status`` and
@@ -288,7 +305,7 @@ def chaos_indicators(system, states, t, params=None, dt=None, method="auto", vec
     seeds = z if flow is system else np.column_stack([z[:, :n], z[:, n + 1:2 * n + 1]])
     t_end = np.where(status == codes.OK, n_steps * dt, np.maximum(stop - 1, 0) * dt)
     return _result(final, hist, status, t_end, every * dt * np.arange(1, n_rec + 1), seeds, m.name, dt,
-                   used, history)
+                   used, history, system)
 
 
 def _constant_pp(cs, z, values) -> bool:
@@ -333,15 +350,15 @@ def _map_indicators(system, states, n_iter, values, used, record_every, history,
                               final, hist, status, stop)
     t_end = np.where(status == codes.OK, float(n_iter), np.maximum(stop - 1, 0).astype(float))
     return _result(final, hist, status, t_end, every * np.arange(1, n_rec + 1, dtype=float), z, "map", 1.0,
-                   used, history)
+                   used, history, system)
 
 
-def _result(final, hist, status, t_end, times, seeds, method, dt, used, history):
+def _result(final, hist, status, t_end, times, seeds, method, dt, used, history, system):
     series = {name: hist[:, :, i] for i, name in enumerate(INDICATORS)} if history else {}
     return ChaosIndicators(
         lyapunov=final[:, 0], megno=final[:, 1], fli=final[:, 2], sali=final[:, 3], t_end=t_end,
         t=times if history else np.zeros(0), history=series, status=status, seeds=seeds,
-        method=method, dt=dt, params=used)
+        method=method, dt=dt, params=used, system=system)
 
 
 def lyapunov(system, state0, t, params=None, dt=None, method="auto", **kwargs) -> ChaosIndicators:

@@ -174,3 +174,15 @@ def test_standard_map_strong_kick_exponent():
     r = chaos_indicators(sm, seeds, 4000, params={"K": K})
     assert np.mean(r.lyapunov) == pytest.approx(np.log(K / 2), rel=0.05)
     assert np.all(r.sali < 1e-8)
+
+
+def test_chaos_indicators_state_the_error_of_their_step(hh):
+    """The stated step error of a leapfrog run falls by 2^2 when the step is halved (a
+    method of order p has a timing error ~ h^p: common practice), and maps state none."""
+    seeds = [[0.0, 0.1, 0.35, 0.0]]
+    coarse = phaselab.chaos_indicators(hh, seeds, 50.0, method="leapfrog", dt=0.02)
+    fine = phaselab.chaos_indicators(hh, seeds, 50.0, method="leapfrog", dt=0.01)
+    assert 0 < fine.error_estimate < coarse.error_estimate
+    assert coarse.error_estimate / fine.error_estimate == pytest.approx(4.0, rel=0.15)
+    sm = phaselab.models.standard_map()
+    assert np.isnan(phaselab.chaos_indicators(sm, [[0.1, 0.2]], 50).error_estimate)
