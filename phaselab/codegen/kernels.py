@@ -32,6 +32,7 @@ from types import ModuleType
 
 import numpy as np
 import sympy as sp
+from numba.core.errors import NumbaError
 
 from phaselab.codegen.cache import codegen_fingerprint, load_module, source_hash
 from phaselab.codegen.printer import Printed, check_supported, print_expressions
@@ -330,7 +331,15 @@ def compile_kernel(system) -> CompiledKernel:
     from phaselab.codegen.progress import compiling
 
     with compiling(f"kernels of this system ({len(system.state_symbols)} state components)"):
-        module = load_module(name, make_source)
+        try:
+            module = load_module(name, make_source)
+        except NumbaError as exc:
+            # the printed kernels passed every check and still do not type (a form of an
+            # expression the checks do not foresee): say so in phaselab's words
+            first = str(exc).strip().splitlines()[0] if str(exc).strip() else type(exc).__name__
+            raise ModelError(f"the kernels of system {system.name!r} cannot be compiled to numeric code "
+                             f"(the compiler says: {first[:200]}); write the expression in simpler "
+                             "real functions") from None
     out = CompiledKernel(code=holder[0] if holder else None, module=module, key=key, path=module.__file__,
                          param_names=tuple(p.name for p in system.parameters),
                          dof=len(system.state_symbols) // 2, kind=kind,

@@ -286,3 +286,21 @@ def test_unusable_cache_folder_falls_back_with_a_warning(tmp_path):
         os.chmod(ro, 0o500)
         res, err = _child(dict(os.environ, PHASELAB_CACHE_DIR=str(ro)), "cold")
         assert "not usable" in err
+
+
+def test_a_kernel_the_compiler_refuses_is_a_model_error(monkeypatch):
+    """A printed kernel that numba still cannot type (found once by the expression fuzz: a
+    complex literal reaching math.cos) ends in phaselab's ModelError, not numba's
+    TypingError."""
+    from numba.core.errors import TypingError
+
+    from phaselab.codegen import kernels
+    from phaselab.errors import ModelError
+
+    def refuse(name, make_source):
+        raise TypingError("No implementation of function Function(<built-in function cos>) found")
+
+    monkeypatch.setattr(kernels, "load_module", refuse)
+    H = phaselab.Hamiltonian("px**2/2 + x**2/2 + 0.123456*y**2", ["x", "y"], ["px", "py"])
+    with pytest.raises(ModelError, match="cannot be compiled to numeric code"):
+        kernels.compile_kernel(H)

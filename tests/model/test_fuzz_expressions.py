@@ -288,9 +288,10 @@ def _compiles(text: str) -> None:
         try:
             kernel = compile_kernel(H)
         except ModelError as exc:
-            # the one refusal left to kernel generation: derivatives past the size budget
-            # (model/limits.py), measured before they are printed
-            assert "too large to compile" in str(exc), str(exc)
+            # the refusals left to kernel generation: derivatives past the size budget
+            # (model/limits.py), measured before they are printed, and printed kernels the
+            # compiler still cannot type (said in phaselab's words, never numba's error)
+            assert "too large to compile" in str(exc) or "cannot be compiled to numeric code" in str(exc), str(exc)
             return
         for z in _STATES:
             for name in ("hamiltonian", "vector_field", "jacobian", "hess_pp", "hess_qq"):
@@ -306,7 +307,7 @@ def test_accepted_expressions_compile(text):
 
 @pytest.mark.slow
 @pytest.mark.filterwarnings("ignore:Generating overly large repr")
-@settings(max_examples=200, **_COMMON)
+@settings(max_examples=80, **_COMMON)      # each example compiles a kernel (about a second)
 @given(st.one_of(expressions, heavy_expressions))
 def test_many_accepted_expressions_compile(text):
     _compiles(text)
