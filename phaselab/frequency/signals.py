@@ -5,13 +5,11 @@ between the two halves of a record, and the fold of a frequency into its princip
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass
 
 import numpy as np
-from numba import njit, prange
 
-from phaselab.frequency.spectral import SpectralLines, Workspace, chunk_rows, leading_lines
+from phaselab.frequency.spectral import SpectralLines, Workspace, chunk_rows, leading_lines, routines
 from phaselab.frequency.spectral import window as hann_window
 
 DIFFUSION_FLOOR = 1e-30
@@ -19,64 +17,8 @@ DIFFUSION_FLOOR = 1e-30
 
 
 # ----------------------------------------------------------------------------- signals
-@njit(cache=True, nogil=True, parallel=True)
-def fill_signals(states, columns, periods, w, out, still):
-    """Complex signals of the degrees of freedom ``columns`` of every orbit.
-
-    ``out[c * n_orbits + o]`` is the signal of column ``c`` of orbit ``o``:
-    ``z = (q - <q>) - i (p - <p>) / s`` with ``s = rms(p - <p>) / rms(q - <q>)``, means and
-    rms weighted by ``w`` (the Hann window, summing to 1), so they do not depend on where
-    the record ends within a period. A harmonic orbit becomes ``A e^{+i w t}`` (positive
-    frequency for the usual clockwise motion in the (q, p) plane) with its conjugate line
-    removed, an anharmonic orbit close to it. An angle (``periods[c] > 0``) whose lifted
-    value covers a full period (the orbit winds) gives ``exp(2 pi i q / period)``.
-    ``still[o]`` is set when a degree of freedom of orbit ``o`` does not move.
-    """
-    n_orb, n, width = states.shape
-    dof = width // 2
-    k = columns.shape[0]
-    for o in prange(n_orb):
-        for c in range(k):
-            iq = columns[c]
-            ip = dof + iq
-            mq = 0.0
-            mp = 0.0
-            qmin = states[o, 0, iq]
-            qmax = qmin
-            pmin = states[o, 0, ip]
-            pmax = pmin
-            for j in range(n):
-                q = states[o, j, iq]
-                p = states[o, j, ip]
-                mq += w[j] * q
-                mp += w[j] * p
-                qmin = min(qmin, q)
-                qmax = max(qmax, q)
-                pmin = min(pmin, p)
-                pmax = max(pmax, p)
-            row = c * n_orb + o
-            period = periods[c]
-            if period > 0.0 and qmax - qmin >= period:
-                f = 2.0 * math.pi / period
-                for j in range(n):
-                    a = f * states[o, j, iq]
-                    out[row, j] = complex(math.cos(a), math.sin(a))
-                continue
-            if qmax == qmin and pmax == pmin:
-                still[o] = True
-            vq = 0.0
-            vp = 0.0
-            for j in range(n):
-                dq = states[o, j, iq] - mq
-                dp = states[o, j, ip] - mp
-                vq += w[j] * dq * dq
-                vp += w[j] * dp * dp
-            scale = math.sqrt(vp / vq) if vq > 0.0 and vp > 0.0 else 1.0
-            inv = 1.0 / scale
-            for j in range(n):
-                out[row, j] = complex(states[o, j, iq] - mq, -(states[o, j, ip] - mp) * inv)
-
-
+# (the signals are filled by ``fill_signals`` of the compiled spectral routines,
+# :mod:`phaselab.frequency.spectral_loops`, loaded from the kernel cache)
 @dataclass
 class SampleAnalysis:
     """What :func:`analyse_samples` finds: ``nu`` (n_orbits, k), ``lines`` (SpectralLines of
@@ -124,7 +66,7 @@ def analyse_samples(states, columns, step=1.0, angles=None, lines=1, window=1, d
         b = min(n_orb, a + per)
         m = b - a
         X = ws.get("orbit signals", k * m, n)
-        fill_signals(np.ascontiguousarray(states[a:b]), cols, periods, w, X, still[a:b])
+        routines().fill_signals(np.ascontiguousarray(states[a:b]), cols, periods, w, X, still[a:b])
         found = leading_lines(X, lines=lines, window_order=window, workspace=ws)
         shape = (k, m, lines)
         l_nu[a:b] = np.moveaxis(fold_frequencies(found.nu.reshape(shape), fold) / step, 0, 1)

@@ -79,3 +79,23 @@ def test_routines_are_read_as_text_from_the_package():
 
     ref = windows.hann(16)
     np.testing.assert_allclose(w, ref / ref.mean(), rtol=1e-12, atol=1e-14)
+
+
+def test_no_imported_module_keeps_machine_code_in_the_package():
+    """numba's ``cache=True`` writes beside the module's file: only loop text that the engine
+    loads from the kernel cache (engine/loops, frequency/spectral_loops.py) may use it; an
+    imported module of the package may not (read from each module's ast; common practice)."""
+    import ast
+
+    package = Path(phaselab.__file__).parent
+    text_only = {package / "frequency" / "spectral_loops.py"}
+    offenders = []
+    for path in package.rglob("*.py"):
+        if "loops" in path.relative_to(package).parts or path in text_only:
+            continue
+        for node in ast.walk(ast.parse(path.read_text())):
+            if isinstance(node, ast.Call) and any(
+                    k.arg == "cache" and isinstance(k.value, ast.Constant) and k.value.value is True
+                    for k in node.keywords):
+                offenders.append(f"{path.relative_to(package)}:{node.lineno}")
+    assert not offenders, f"numba cache=True in imported modules: {offenders}"
