@@ -31,13 +31,10 @@ from functools import cached_property
 from types import ModuleType
 
 import numpy as np
-import sympy as sp
 from numba.core.errors import NumbaError
 
 from phaselab.codegen.cache import codegen_fingerprint, load_module, source_hash
-from phaselab.codegen.printer import Printed, check_supported, print_expressions
-from phaselab.model.limits import derivative_problem
-from phaselab.model.numeric import rename_map
+from phaselab.codegen.printer import Printed, print_expressions
 from phaselab.errors import ModelError
 
 KERNELS = {"hamiltonian": 0, "grad_q": 1, "grad_p": 2, "vector_field": 3, "jacobian": 4,
@@ -85,30 +82,6 @@ class KernelCode:
         return FLOW_KERNELS if self.kind == "flow" else MAP_KERNELS
 
 
-def _derivatives(exprs, variables) -> list:
-    """Row-major Jacobian entries d expr_i / d var_j; entries of variables an expression does
-    not contain are 0 without calling sympy (large sparse chains stay fast)."""
-    out = []
-    for e in exprs:
-        free = e.free_symbols
-        out += [sp.diff(e, x) if x in free else sp.S.Zero for x in variables]
-    return out
-
-
-def _check_size(exprs, what: str) -> None:
-    """Refuse derivatives too large to print and compile (measured before the next step)."""
-    problem = derivative_problem(exprs, what)
-    if problem:
-        raise ModelError(problem + "; write the system with fewer nested functions or shorter terms")
-
-
-def _check_symbols(expr, ren: dict, where: str) -> None:
-    stray = sorted(str(x) for x in expr.free_symbols if x not in ren)
-    if stray:
-        raise ModelError(f"the {where} has symbols that are neither state nor parameters: "
-                         + ", ".join(stray))
-
-
 def kernel_code(system) -> KernelCode:
     """Differentiate and print the kernels of ``system`` (sympy work, no compilation).
 
@@ -124,41 +97,15 @@ def kernel_code(system) -> KernelCode:
     """
     t0 = time.perf_counter()
     kind = system.kind
-    state = system.state_symbols
+    if kind == "flow" and not system.is_autonomous:
+        raise ModelError("this Hamiltonian depends on time explicitly; kernels are generated for "
+                         "autonomous systems, so lift it with .extended() first")
+    # formed and checked when the model was made (phaselab.model.derivatives)
+    derivatives = system.kernel_derivatives
+    back = {v: k for k, v in derivatives.renamed.items()}
+    exprs = derivatives.groups
+    m = len(system.state_symbols)
     params = system.param_symbols
-    ren = rename_map(state, params)
-    back = {v: k for k, v in ren.items()}
-    s = [ren[x] for x in state]
-    m = len(state)
-    if kind == "flow":
-        if system.time is not None and system.time in system.expr.free_symbols:
-            raise ModelError("this Hamiltonian depends on time explicitly; kernels are generated for "
-                             "autonomous systems, so lift it with .extended() first")
-        check_supported(system.expr, "Hamiltonian")
-        _check_symbols(system.expr, ren, "Hamiltonian")
-        H = system.expr.xreplace(ren)
-        n = m // 2
-        dHdq = _derivatives([H], s[:n])
-        dHdp = _derivatives([H], s[n:])
-        _check_size(dHdq + dHdp, "first derivatives of the Hamiltonian")
-        field = dHdp + [-d for d in dHdq]
-        jac = _derivatives(field, s)
-        _check_size(jac, "second derivatives of the Hamiltonian")
-        # d2H/dp_i dp_j = d(qdot_i)/dp_j and d2H/dq_i dq_j = -d(pdot_i)/dq_j: entries of jac
-        hess_pp = [jac[i * m + n + j] for i in range(n) for j in range(n)]
-        hess_qq = [-jac[(n + i) * m + j] for i in range(n) for j in range(n)]
-        exprs = {"hamiltonian": ([H], 0), "grad_q": (dHdq, n), "grad_p": (dHdp, n),
-                 "vector_field": (field, m), "jacobian": (jac, m * m), "hess_pp": (hess_pp, n * n),
-                 "hess_qq": (hess_qq, n * n)}
-    else:
-        for i, e in enumerate(system.update):
-            check_supported(e, f"update of {state[i]}")
-            _check_symbols(e, ren, f"update of {state[i]}")
-        update = [e.xreplace(ren) for e in system.update]
-        _check_size(update, "update rules of the map")
-        jacobian = _derivatives(update, s)
-        _check_size(jacobian, "Jacobian entries of the map")
-        exprs = {"map_step": (update, m), "map_jacobian": (jacobian, m * m)}
     parts = {}
     for name, (group, length) in exprs.items():
         parts[name] = (print_expressions(group, skip_zero=length > 0, what=name.replace("_", " "),

@@ -7,7 +7,6 @@ Every symbol of a system is renamed to a safe identifier (``s0, s1, ...`` for th
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass
 from typing import Sequence
 
@@ -17,6 +16,7 @@ from sympy.printing.precedence import PRECEDENCE
 from sympy.printing.pycode import PythonCodePrinter
 
 from phaselab.errors import ModelError
+from phaselab.model.compilable import as_double, check_supported, short_text
 from phaselab.model.limits import CSE_BASIC_MAX_NODES, has_huge_number_power, tree_size
 
 
@@ -32,7 +32,7 @@ class KernelPrinter(PythonCodePrinter):
 
     def _print_Rational(self, expr):
         # the correctly rounded value of p/q (float(p) and float(q) apart could overflow)
-        return repr(_as_float(expr))
+        return repr(as_double(expr))
 
     def _print_Half(self, expr):
         return "0.5"
@@ -41,7 +41,7 @@ class KernelPrinter(PythonCodePrinter):
         value = int(expr)
         if abs(value) < 2**53:
             return str(value)
-        return repr(_as_float(expr))
+        return repr(as_double(expr))
 
     def _print_NumberSymbol(self, expr):
         return repr(float(expr))
@@ -69,86 +69,6 @@ class KernelPrinter(PythonCodePrinter):
 
     def _print_Min(self, expr):
         return "min(" + ", ".join(self._print(a) for a in expr.args) + ")"
-
-
-#: sympy function classes whose printed form compiles under numba.njit
-SUPPORTED_FUNCTIONS = (
-    sp.sin, sp.cos, sp.tan, sp.asin, sp.acos, sp.atan, sp.atan2, sp.sinh, sp.cosh, sp.tanh,
-    sp.asinh, sp.acosh, sp.atanh, sp.exp, sp.log, sp.Abs, sp.sign, sp.sec, sp.csc, sp.cot,
-    sp.Heaviside, sp.DiracDelta, sp.Max, sp.Min, sp.erf, sp.erfc,
-)
-
-
-def _as_float(number) -> float:
-    try:
-        value = float(number)
-    except (OverflowError, TypeError, ValueError):
-        value = math.inf
-    if not math.isfinite(value):
-        raise ModelError(f"the number {_short(number)} does not fit in a double-precision float")
-    return value
-
-
-def _short(expr) -> str:
-    text = str(expr)
-    return text if len(text) <= 80 else text[:77] + "..."
-
-
-def check_supported(expr: sp.Expr, where: str = "expression", display: dict | None = None) -> None:
-    """Refuse expressions that cannot become compiled numeric code.
-
-    Parameters
-    ----------
-    expr : sympy.Expr
-    where : str
-        What the expression is (``"dH/dq1"``), for the message.
-    display : dict, optional
-        Symbol replacements that turn renamed kernel symbols back into the model's names
-        for the message.
-
-    Raises
-    ------
-    ModelError
-        Naming the offending function or number.
-    """
-    try:
-        _check_nodes(expr, where)
-    except ModelError as exc:
-        if not display:
-            raise
-        shown = expr.xreplace(display)
-        raise ModelError(str(exc).replace(_short(expr), _short(shown))) from None
-
-
-def _check_nodes(expr: sp.Expr, where: str) -> None:
-    for node in sp.preorder_traversal(expr):
-        if isinstance(node, sp.Pow):
-            base, exponent = node.args
-            if base.is_number and base.is_negative and not exponent.is_integer:
-                raise ModelError(
-                    f"the {where} {_short(expr)} contains the complex number {_short(node)}")
-            continue
-        if node.is_Symbol or isinstance(node, (sp.Add, sp.Mul)):
-            continue
-        if node in (sp.pi, sp.E) or isinstance(node, sp.NumberSymbol):
-            continue
-        if node.is_Number:
-            if node in (sp.zoo, sp.oo, -sp.oo, sp.nan) or not node.is_finite:
-                raise ModelError(f"the {where} {_short(expr)} is infinite or undefined ({node})")
-            _as_float(node)
-            continue
-        if node is sp.I:
-            raise ModelError(f"the {where} {_short(expr)} contains the complex number {_short(node)}")
-        if isinstance(node, sp.Derivative):
-            raise ModelError(
-                f"the {where} needs the derivative {_short(node)}, which has no closed form; "
-                "use functions with known derivatives")
-        if isinstance(node, SUPPORTED_FUNCTIONS):
-            continue
-        name = getattr(node.func, "__name__", type(node).__name__)
-        raise ModelError(
-            f"function `{name}` in the {where} {_short(expr)} cannot be compiled to numeric code; "
-            "supported functions: " + ", ".join(f.__name__ for f in SUPPORTED_FUNCTIONS))
 
 
 def unpack_lines(n_state: int, n_params: int, used: set[str], indent: str = "    ") -> list[str]:
@@ -233,7 +153,7 @@ def _checked(printer: KernelPrinter, expr: sp.Expr) -> str:
     try:
         code = printer.doprint(expr)
     except PrintMethodNotImplementedError as exc:
-        raise ModelError(f"cannot generate numeric code for {_short(expr)}: {str(exc).splitlines()[0]}") from None
+        raise ModelError(f"cannot generate numeric code for {short_text(expr)}: {str(exc).splitlines()[0]}") from None
     if printer._not_supported or "# Not supported" in code:
         bad = ", ".join(sorted({type(e).__name__ for e in printer._not_supported})) or code
         printer._not_supported.clear()

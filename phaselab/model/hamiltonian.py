@@ -6,9 +6,11 @@ import hashlib
 from functools import cached_property
 import numpy as np
 import sympy as sp
+from sympy.core.function import AppliedUndef
 
 from phaselab.errors import ModelError
 from phaselab.model.angles import declared_angles
+from phaselab.model.derivatives import KernelDerivatives, flow_derivatives
 from phaselab.model.limits import work_problem
 from phaselab.model.numeric import numeric_function
 from phaselab.model.params import Parameter, make_parameters
@@ -76,6 +78,15 @@ class Hamiltonian(PhaseSpaceSystem):
                 raise ModelError("a driving period was given but the Hamiltonian has no time symbol")
         self.name = name or "H"
         self._declare(angles, units)
+        # the derivatives the compiled kernels need, formed now so that a model that cannot be
+        # compiled is refused when it is made (a driven system: those of its extended form);
+        # a model holding functions without a definition (V(r)) is symbolic only
+        self._extended_form = None
+        if not self.expr.atoms(AppliedUndef):
+            if self.is_autonomous:
+                self.kernel_derivatives
+            else:
+                self.extended()
 
     def _declare(self, angles, units) -> None:
         """Set the angles and units declared with the model (checked)."""
@@ -223,6 +234,8 @@ class Hamiltonian(PhaseSpaceSystem):
         """
         if self.is_autonomous:
             return self
+        if self._extended_form is not None:
+            return self._extended_form
         tau = self.time
         p_tau = sp.Symbol(f"p_{tau.name}", real=True)
         ext = Hamiltonian(self.expr + p_tau, self.coords + (tau,), self.momenta + (p_tau,),
@@ -232,7 +245,23 @@ class Hamiltonian(PhaseSpaceSystem):
         ext.units = dict(self.units)
         ext.time_coordinate = self.dof  # index of tau among the coordinates
         ext.original = self
+        self._extended_form = ext
         return ext
+
+    @cached_property
+    def kernel_derivatives(self) -> KernelDerivatives:
+        """H, its gradient, the vector field and its Jacobian in the kernels' renamed symbols
+        (:mod:`phaselab.model.derivatives`); formed and checked when the model is made.
+
+        Raises
+        ------
+        ModelError
+            For a time-dependent H (its kernels are those of :meth:`extended`).
+        """
+        if not self.is_autonomous:
+            raise ModelError("this Hamiltonian depends on time explicitly; kernels are generated for "
+                             "autonomous systems, so lift it with .extended() first")
+        return flow_derivatives(self.expr, self.state_symbols, self.param_symbols)
 
     def driving_period(self, params=None) -> float:
         """The numerical driving period for the given parameters."""

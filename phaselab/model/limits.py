@@ -61,10 +61,11 @@ def tree_size(expr: sp.Basic, limit: int | None = None) -> int:
 #: 2 s of CPU for the separability check and the printed kernels; 11 deep, work 385, 5.3 s)
 MAX_NESTING_WORK = 150
 #: most nodes (counted as a tree) of all first or all second derivatives of a system, past
-#: which printing and compiling its kernels is refused: a 64-particle chain from the catalogue
-#: has 19,000; a product of twelve sums raised to sums, 112,000, took 2.7 s of CPU for sympy
-#: and 4.8 s for numba (measured 2026-12-05)
-MAX_DERIVATIVE_NODES = 100_000
+#: which the model is refused when it is made: a 64-particle chain from the catalogue has
+#: 19,000; a product of 19 cosines, 78,000, took 4.3 s of CPU to form, check and print (and a
+#: product of secants near 100,000 took 13 s), past the 5 s every model must end within
+#: (measured on 2 cores, 2026-12-05)
+MAX_DERIVATIVE_NODES = 40_000
 #: most nodes (counted as a tree) of a group of kernel expressions for which common
 #: subexpressions are searched after sympy's "basic" rewriting (factor_terms), whose cost grows
 #: faster than the size: 0.35 s for the Jacobian of a 64-particle chain (2,800 nodes), 2.8 s
@@ -259,3 +260,66 @@ def plain_det(matrix: sp.Matrix) -> sp.Expr:
         minor = matrix[1:, [k for k in range(n) if k != j]]
         terms.append((-1) ** j * entry * plain_det(minor))
     return sp.Add(*terms)
+
+
+#: how many copies of its argument the derivative of a function holds (cos u -> -sin u: 1;
+#: asin u -> 1/sqrt(1 - u**2): 2); functions not named here count 2
+_COPIES_IN_DERIVATIVE = {"sin": 1, "cos": 1, "exp": 1, "sinh": 1, "cosh": 1, "log": 1, "Abs": 1,
+                         "sign": 1, "tan": 1, "tanh": 1, "Heaviside": 1, "DiracDelta": 1}
+
+
+def derivative_size_bound(expr: sp.Basic, x: sp.Symbol, limit: int) -> int:
+    """An estimate of the tree size of d expr / dx, formed without differentiating.
+
+    It counts the terms the product, power and chain rules write before sympy combines
+    anything (a product of N factors gives N terms of N factors), so it is close to the
+    size sympy forms and seldom below it; sympy's own time to form a derivative grows faster
+    than its size, so a derivative far past the budget is refused on this estimate instead
+    of being formed (a product of 60 cosines: 13 s to form its second derivative).
+
+    Parameters
+    ----------
+    expr : sympy.Basic
+    x : sympy.Symbol
+    limit : int
+        Stop once the estimate exceeds ``limit`` (the result is then ``limit + 1``).
+    """
+    cap = limit + 1
+    size: dict = {}
+    deriv: dict = {}
+    stack = [(expr, False)]
+    while stack:
+        node, ready = stack.pop()
+        if node in size:
+            continue
+        if not node.args:
+            size[node] = 1
+            deriv[node] = 1 if node == x else 0
+            continue
+        if not ready:
+            stack.append((node, True))
+            stack.extend((a, False) for a in node.args if a not in size)
+            continue
+        s = min(cap, 1 + sum(size[a] for a in node.args))
+        size[node] = s
+        moving = [a for a in node.args if deriv[a]]
+        if not moving:
+            deriv[node] = 0
+            continue
+        if isinstance(node, sp.Add):
+            d = 1 + sum(deriv[a] for a in moving)
+        elif isinstance(node, sp.Mul):
+            d = 1 + sum(s - size[a] + deriv[a] + 1 for a in moving)
+        elif isinstance(node, sp.Pow):
+            base, exponent = node.args
+            if not deriv[exponent]:
+                d = 2 * size[exponent] + size[base] + deriv[base] + 4
+            else:
+                d = 2 * s + deriv[exponent] + deriv[base] + 2 * size[base] + size[exponent] + 6
+        else:
+            copies = _COPIES_IN_DERIVATIVE.get(getattr(node.func, "__name__", ""), 2)
+            d = sum(copies * s + deriv[a] + 2 for a in moving)
+        deriv[node] = min(cap, d)
+        if deriv[node] >= cap and node is expr:
+            break
+    return int(min(deriv.get(expr, cap), cap))

@@ -39,11 +39,12 @@ import numpy as np
 import sympy as sp
 
 from phaselab.errors import ModelError
+from phaselab.model.derivatives import KernelDerivatives, map_derivatives
 from phaselab.model.angles import declared_angles
 from phaselab.model.system import PhaseSpaceSystem
 from phaselab.model.numeric import numeric_function
-from phaselab.model.limits import (EXPAND_MAX_TERMS, MAX_TREE_NODES, expanded_terms, plain_det, tree_size,
-                                   work_problem)
+from phaselab.model.limits import (EXPAND_MAX_TERMS, MAX_TREE_NODES, derivative_size_bound, expanded_terms,
+                                   plain_det, tree_size, work_problem)
 from phaselab.model.params import Parameter, finite_number, make_parameters
 from phaselab.model.parser import parse_expression, size_problem
 from phaselab.model.symplectic import check_determinant, check_symplectic, symplectic_form
@@ -155,6 +156,7 @@ class SymplecticMap(PhaseSpaceSystem):
                                 zip(self.state_symbols, self.modulus, self.modulus_low) if period is not None}
         self._set_units(units, None)
         self._check_jacobian_size()
+        self.kernel_derivatives  # the compiled kernels' expressions, formed and checked now
         self.symplectic_defect = self._check_symplectic()
         self.determinant, self.area_check = self._check_area()
         self.reversor = None if reversor is None else self._check_reversor(reversor)
@@ -314,7 +316,23 @@ class SymplecticMap(PhaseSpaceSystem):
         """The symbolic Jacobian d z' / d z, shape (2n, 2n)."""
         return sp.Matrix([[sp.diff(e, x) for x in self.state_symbols] for e in self.update])
 
+    @cached_property
+    def kernel_derivatives(self) -> KernelDerivatives:
+        """The update rules and their Jacobian in the kernels' renamed symbols
+        (:mod:`phaselab.model.derivatives`); formed and checked when the map is made."""
+        return map_derivatives(self.update, self.state_symbols, self.param_symbols)
+
     def _check_jacobian_size(self) -> None:
+        # sympy's time to form a derivative grows faster than its size: a Jacobian far past
+        # the budget on the estimate (model/limits.py) is refused before it is formed
+        guessed = 0
+        for e in self.update:
+            for x in self.state_symbols:
+                guessed += derivative_size_bound(e, x, limit=2 * MAX_JACOBIAN_NODES - guessed)
+                if guessed > 2 * MAX_JACOBIAN_NODES:
+                    raise ModelError(f"the Jacobian of map {self.name!r} would have far more than "
+                                     f"{MAX_JACOBIAN_NODES} nodes (estimated before forming it); the "
+                                     "map is too large to check and compile")
         size = 0
         for entry in self.jacobian_matrix:
             size += tree_size(entry, limit=MAX_JACOBIAN_NODES)

@@ -188,8 +188,11 @@ def test_coupled_kinetic_matrices_are_transformed_with_bounded_work():
     """Two velocities coupled through long trigonometric sums, and four coupled through a
     state-dependent matrix: the transform must not simplify the inverse (sympy's own 2 x 2
     determinant simplifies its products, and cancel multiplies the nested fractions of the
-    linear solve out). Each ends within 2 s of CPU in a child process with hard limits, and
-    dH/dp gives back the velocities (Hamilton's first equation, common practice)."""
+    linear solve out). Each ends within 5 s of CPU (the bound on every model, issue 24) in a
+    child process with hard limits; these two are refused when they are made, because the
+    second derivatives their compiled kernels need are past the size budget (model/derivatives.py;
+    they were refused at compile time before), and the transform alone, checked without the
+    kernels, gives back the velocities from dH/dp (Hamilton's first equation, common practice)."""
     from bounded import run_bounded
 
     k = 60
@@ -205,7 +208,18 @@ def test_coupled_kinetic_matrices_are_transformed_with_bounded_work():
             names = [f"q{{i}}" for i in range({n})], [f"v{{i}}" for i in range({n})]
 
             def build_and_check():
-                H = Hamiltonian.from_lagrangian({L!r}, *names)
+                from phaselab.errors import ModelError
+                try:
+                    Hamiltonian.from_lagrangian({L!r}, *names)
+                except ModelError as exc:
+                    assert "too large to compile" in str(exc), str(exc)
+                else:
+                    raise AssertionError("expected the size refusal")
+
+                class SymbolicOnly(Hamiltonian):
+                    kernel_derivatives = None     # the transform alone, no kernels formed
+
+                H = SymbolicOnly.from_lagrangian({L!r}, *names)
                 point = {{q: 0.3 + 0.2 * i for i, q in enumerate(H.coords)}}
                 vel = {{v: 0.5 - 0.3 * i for i, v in enumerate(H.velocity_symbols)}}
                 momenta = [sp.diff(H.lagrangian, v).evalf(subs={{**point, **vel}}) for v in H.velocity_symbols]
@@ -217,4 +231,4 @@ def test_coupled_kinetic_matrices_are_transformed_with_bounded_work():
         """)
         assert out.finished and out.error is None, out
         assert float(out.value) < 1e-10, out
-        assert out.cpu < 2.0 and out.rss_mib < 400, out
+        assert out.cpu < 5.0 and out.rss_mib < 400, out
