@@ -146,8 +146,8 @@ def _python_molecule():
     H = phaselab.Hamiltonian(
         "(px**2 + py**2)/2 + (wx**2*x**2 + wy**2*y**2)/2 + kappa*(x**2*y - y**3/3)",
         ["x", "y"], ["px", "py"], params={"wx": 1.0, "wy": 1.2, "kappa": 0.9})
-    seeds = phaselab.shell_seeds(H, 0.24, {"x": 0.0}, "px",
-                                 {"y": np.linspace(-0.5, 0.66, 20), "py": np.zeros(20)})
+    seeds = phaselab.shell_seeds(H, {"y": np.linspace(-0.5, 0.66, 20), "py": np.zeros(20)},
+                                 energy=0.24, plane={"x": 0.0}, solve_for="px")
     return phaselab.section(H, seeds, plane={"x": 0.0}, direction=+1, crossings=250,
                             method="yoshida4", dt=0.05)
 

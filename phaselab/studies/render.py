@@ -210,7 +210,7 @@ def compute_structure(study: Study, sec):
     from phaselab.structures.periodic import find_periodic_orbits
 
     spec = study.structure
-    opts = {"params": study.params, "region": spec.region, "resolution": spec.resolution}
+    opts = {"params": study.params, "ranges": spec.region, "resolution": spec.resolution}
     kind = study.section.kind
     if kind == "plane":
         opts.update(plane=plane_of(study), energy=sec.energy, direction=study.section.direction,

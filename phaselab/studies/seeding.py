@@ -24,8 +24,8 @@ def seed_states(study: Study):
     names = [s.name for s in system.state_symbols]
     columns = {name: seeds.values[:, i] for i, name in enumerate(seeds.columns)}
     if seeds.solve_for is not None:
-        return shell_seeds(system, spec.energy, {spec.coordinate: spec.value}, seeds.solve_for,
-                           columns, params=study.params, sign=spec.direction)
+        return shell_seeds(system, columns, energy=spec.energy, plane={spec.coordinate: spec.value},
+                           solve_for=seeds.solve_for, params=study.params, sign=spec.direction)
     states = np.empty((seeds.count, len(names)))
     for j, name in enumerate(names):
         if name in columns:
