@@ -46,7 +46,7 @@ def section_rows(sec):
 def test_check_prints_a_summary_and_exits_zero(capsys):
     assert main(["check", "molecule"]) == 0
     out = capsys.readouterr().out
-    assert out.startswith("ok: molecule.toml: two-mode molecule (hamiltonian), 20 seeds, 250 crossings")
+    assert out.startswith("ok: molecule.toml: two-mode molecule (hamiltonian), 20 starting states, 250 crossings")
     assert "writes molecule.png" in out
 
 
@@ -55,7 +55,7 @@ def test_bad_study_file_exits_2_with_the_key_on_stderr_and_no_traceback(tmp_path
     bad.write_text(example_path("molecule").read_text().replace('plane = "x = 0"', 'plane = "z = 0"'))
     proc = run("check", str(bad))
     assert proc.returncode == 2
-    assert "bad.toml: section.plane: 'z' is not a coordinate" in proc.stderr
+    assert "bad.toml: section.plane: unknown plane component 'z'" in proc.stderr
     assert "Traceback" not in proc.stderr
     assert proc.stdout == ""
 

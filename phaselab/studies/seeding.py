@@ -19,7 +19,7 @@ def seed_states(study: Study):
         A :class:`~phaselab.orbits.seeds.ShellSeeds` when the study solves a momentum from
         the energy, else full states.
     """
-    spec, seeds = study.section, study.seeds
+    spec, seeds = study.section, study.states
     system = study.system
     names = [s.name for s in system.state_symbols]
     columns = {name: seeds.values[:, i] for i, name in enumerate(seeds.columns)}
@@ -33,5 +33,5 @@ def seed_states(study: Study):
         elif name == spec.coordinate:
             states[:, j] = spec.value
         else:  # pragma: no cover - the reader refuses seeds that leave a component out
-            raise StudyFileError(f"{study.source}: seeds: no value for {name}")
+            raise StudyFileError(f"{study.source}: states: no value for {name}")
     return states
