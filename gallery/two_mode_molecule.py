@@ -76,9 +76,8 @@ chaotic = {}
 for E in energies:
     ys = np.concatenate([line[:, 0] for line in boundaries[E]])
     ps = np.concatenate([line[:, 1] for line in boundaries[E]])
-    grid = phaselab.shell_grid(molecule,
-                               {"y": (ys.min(), ys.max(), int(chaos_grid)), "py": (ps.min(), ps.max(), int(chaos_grid))},
-                               energy=E, plane={"x": 0.0}, solve_for="px")
+    ranges = {"y": (ys.min(), ys.max(), int(chaos_grid)), "py": (ps.min(), ps.max(), int(chaos_grid))}
+    grid = phaselab.shell_grid(molecule, ranges, energy=E, plane={"x": 0.0}, solve_for="px")
     chaos_maps[E] = phaselab.chaos_map(molecule, grid, chaos_time, indicator="megno", dt=dt, method="yoshida4")
     chaotic[E] = gt.chaotic_fraction(chaos_maps[E].values, megno_threshold)
     print(f"E = {E:g}: {int(grid.valid.sum())} seeds, chaotic fraction {chaotic[E]:.1%}")

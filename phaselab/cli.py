@@ -12,8 +12,9 @@
 
 ``STUDY`` is a path to a study file (TOML, see ``phaselab/studies/README.md``) or the name
 of a built-in example. ``--set section.crossings=100`` (repeatable) changes one value of the
-file for this run (:mod:`phaselab.studies.overrides`); the changed file is checked as a whole. Exit status: 0 on success, 2 for a bad study file or bad command
-line (the message goes to stderr, without a traceback), 1 for any other refused input,
+file for this run (:mod:`phaselab.studies.overrides`); the changed file is checked as a whole.
+Exit status: 0 on success, 2 for a bad study file or bad command line (the message goes to
+stderr, without a traceback), 1 for any other refused input,
 141 (quietly) when the reader of the output closed the pipe early (``... | head``).
 """
 
@@ -112,7 +113,8 @@ def cmd_check(args) -> int:
     if study.structure is not None:
         st = study.structure
         region = ", ".join(f"{k} in [{lo:g}, {hi:g}]" for k, (lo, hi) in st.ranges.items())
-        print(f"  finds {st.returns}-return periodic orbits from {st.resolution} x {st.resolution} starts ({region})"
+        print(f"  finds {st.returns}-return periodic orbits from {st.resolution} x {st.resolution} "
+              f"starts ({region})"
               + (", with the manifolds of the unstable ones" if st.manifolds else ""))
     for spec in study.outputs:
         print(f"  writes {study.folder + '/' if study.folder else ''}{spec.file}")

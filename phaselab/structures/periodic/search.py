@@ -84,8 +84,8 @@ class PeriodicOrbits:
 
 
 def find_periodic_orbits(system, returns, *, ranges=None, states=None, plane=None, energy=None,
-                         params=None, resolution=8, direction=+1, solve_for=None, dt=None, method="auto", shift=None,
-                         tol=1e-11, maxit=30, box=None, t_max=None, same=1e-7) -> PeriodicOrbits:
+                         params=None, resolution=8, direction=+1, solve_for=None, dt=None, method="auto",
+                         shift=None, tol=1e-11, maxit=30, box=None, t_max=None, same=1e-7) -> PeriodicOrbits:
     """Every distinct periodic orbit of ``k`` returns found from many starting points.
 
     Newton's method (:func:`periodic_orbit`) runs from every point of a grid over ``ranges``
