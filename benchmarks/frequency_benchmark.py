@@ -46,7 +46,8 @@ def seeds(H, n_orbits, energy=0.1):
     while sum(len(s) for s in out) < n_orbits:
         y = rng.uniform(-0.4, 0.6, 4 * n_orbits)
         py = rng.uniform(-0.45, 0.45, 4 * n_orbits)
-        s = phaselab.shell_seeds(H, energy, {"x": 0.0}, "px", {"y": y, "py": py})
+        s = phaselab.shell_seeds(H, {"y": y, "py": py}, energy=energy, plane={"x": 0.0},
+                                 solve_for="px")
         out.append(s.states[np.asarray(s.valid)])
     return np.concatenate(out)[:n_orbits]
 

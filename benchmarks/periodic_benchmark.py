@@ -40,7 +40,7 @@ def timed(fn):
         t = time.perf_counter(); r = fn(); out.append(time.perf_counter() - t)
     return r, sorted(out)[len(out) // 2]
 orbit, t1 = timed(lambda: phaselab.periodic_orbit(H, guess, plane={"x": 0.0}, energy=1 / 8))
-sym, t2 = timed(lambda: phaselab.periodic_orbit(sm, [0.0, 2 * np.pi * 55 / 89], period=89,
+sym, t2 = timed(lambda: phaselab.periodic_orbit(sm, [0.0, 2 * np.pi * 55 / 89], 89,
                                                 params={"K": 0.9}, symmetric=True))
 fixed = phaselab.periodic_orbit(sm, [0.01, 0.0], params={"K": 1.2})
 man, t3 = timed(lambda: phaselab.manifold(fixed, length=50.0, max_segment=1e-3))

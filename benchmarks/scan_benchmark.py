@@ -105,7 +105,8 @@ def floor_megno(Z0, W0v, h, n_steps, out):
 
 # ----------------------------------------------------------------------------- the case
 def grid(H, n=N):
-    return phaselab.shell_grid(H, E, {"x": 0.0}, "px", {"y": (-0.5, 0.75, n), "py": (-0.5, 0.5, n)})
+    return phaselab.shell_grid(H, {"y": (-0.5, 0.75, n), "py": (-0.5, 0.5, n)}, energy=E,
+                               plane={"x": 0.0}, solve_for="px")
 
 
 def timed(fn):

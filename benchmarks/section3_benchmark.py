@@ -202,7 +202,7 @@ def main():
     print(f"three-mode cubic potential, E = {E}, plane z = 0 (pz > 0), {N_ORBITS} orbits x {N_CROSS} "
           f"crossings; Yoshida 4 with dt = {dt}; numba threads = {n_threads}")
 
-    run = lambda: phaselab.section(H, Z0, {"z": 0.0}, direction=+1, crossings=N_CROSS, dt=dt,
+    run = lambda: phaselab.section(H, Z0, plane={"z": 0.0}, direction=+1, crossings=N_CROSS, dt=dt,
                                    method="yoshida4", energy=E)
     out = np.full((N_ORBITS, N_CROSS, 6), np.nan)
     floor = lambda: floor_section(Z0, dt, N_CROSS, out)

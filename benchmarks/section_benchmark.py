@@ -55,7 +55,7 @@ def seeds_along_y(H):
     r = np.sort(r[np.abs(r.imag) < 1e-12].real)
     lo, hi = r[0], r[1]  # the interval around y = 0
     y = np.linspace(lo, hi, N_ORBITS + 2)[1:-1]
-    s = phaselab.shell_seeds(H, E, {"x": 0.0}, "px", {"y": y, "py": 0.0})
+    s = phaselab.shell_seeds(H, {"y": y, "py": 0.0}, energy=E, plane={"x": 0.0}, solve_for="px")
     assert s.valid.all()
     return s
 
@@ -195,8 +195,8 @@ def main():
 
     # phaselab (warm) and the floor, timed alternately so that load from other processes
     # hits both alike; the best of several runs of each is kept
-    run = lambda: phaselab.section(H, seeds, {"x": 0.0}, direction=+1, crossings=N_CROSS, dt=dt,
-                                   method="yoshida4")
+    run = lambda: phaselab.section(H, seeds, plane={"x": 0.0}, direction=+1, crossings=N_CROSS,
+                                   dt=dt, method="yoshida4")
     out = np.full((N_ORBITS, N_CROSS, 4), np.nan)
     floor = lambda: floor_section(Z0, dt, N_CROSS, out)
     sec = run()
@@ -242,9 +242,9 @@ def main():
 
     # one new orbit, warm
     z_new = Z0[7:8] * (1 + 1e-3)
-    z_new = phaselab.shell_seeds(H, E, {"x": 0.0}, "px", z_new[:, [1, 3]]).valid_states()
-    t_one, one = timed(lambda: phaselab.section(H, z_new, {"x": 0.0}, crossings=N_CROSS, dt=dt,
-                                                method="yoshida4"), repeat=5)
+    z_new = phaselab.shell_seeds(H, z_new[:, [1, 3]], energy=E, plane={"x": 0.0}, solve_for="px").valid_states()
+    t_one, one = timed(lambda: phaselab.section(H, z_new, plane={"x": 0.0}, crossings=N_CROSS,
+                                                dt=dt, method="yoshida4"), repeat=5)
     print(f"one new orbit of {int(one.counts[0])} crossings (warm): {t_one * 1e3:.1f} ms   (target < 30 ms)")
 
     # thread scaling, and the floor comparison on one thread

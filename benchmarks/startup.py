@@ -81,7 +81,7 @@ else:
     E, plane, solve = 0.5, {H.coords[0].name: 0.0}, H.momenta[0].name
     free = {s.name: 0.05 * np.sin(np.linspace(0, 3, 20) + k) for k, s in
             enumerate(H.state_symbols) if s.name not in (H.coords[0].name, H.momenta[0].name)}
-seeds = phaselab.shell_seeds(H, E, plane, solve, free)
+seeds = phaselab.shell_seeds(H, free, energy=E, plane=plane, solve_for=solve)
 out = {"import": t_import}
 
 def timed(name, fn):
@@ -91,13 +91,13 @@ def timed(name, fn):
     out[name] = time.perf_counter() - t
     out[name + " compiling"] = compile_seconds[0] - c0
 
-timed("section", lambda: phaselab.section(H, seeds, plane, crossings=300))
+timed("section", lambda: phaselab.section(H, seeds, 300, plane=plane))
 timed("chaos indicators", lambda: phaselab.chaos_indicators(H, seeds.valid_states(), 200.0))
 timed("trajectory", lambda: phaselab.trajectory(H, seeds.valid_states(), 100.0))
 if "--cold" in sys.argv:
     z0 = seeds.valid_states()[0]
     timed("periodic orbit (plane)", lambda: phaselab.periodic_orbit(H, z0, plane=plane, energy=E))
-    timed("frequencies", lambda: phaselab.frequencies(H, seeds.valid_states()[:4], t=102.4, n=1024))
+    timed("frequencies", lambda: phaselab.frequencies(H, seeds.valid_states()[:4], t=102.4, samples=1024))
 if which != "fput" and "--cold" not in sys.argv:
     ex = phaselab.explore(H, energy=E, plane=plane, solve_for=solve, crossings=300)
     def click():

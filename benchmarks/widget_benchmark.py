@@ -81,9 +81,9 @@ def main(repeats: int = 7) -> None:
         dt = time.perf_counter() - t0
         assert len(ex.figures.all_points()["x"]) == before + 300, "the tap did not add 300 points"
         click.append(dt)
-        seeds = phaselab.shell_seeds(H, E, plane, "px", [p])
+        seeds = phaselab.shell_seeds(H, [p], energy=E, plane=plane, solve_for="px")
         t0 = time.perf_counter()
-        phaselab.section(H, seeds, plane, crossings=300, energy=E, axes=("y", "py"))
+        phaselab.section(H, seeds, plane=plane, crossings=300, energy=E, axes=("y", "py"))
         bare_click.append(time.perf_counter() - t0)
 
     drag, bare_drag = [], []
@@ -92,9 +92,9 @@ def main(repeats: int = 7) -> None:
         drag_to(ex, *p)
         drag.append(time.perf_counter() - t0)
         assert ex.orbits[-1].seed == tuple(p), ex.status
-        seeds = phaselab.shell_seeds(H, E, plane, "px", [p])
+        seeds = phaselab.shell_seeds(H, [p], energy=E, plane=plane, solve_for="px")
         t0 = time.perf_counter()
-        phaselab.section(H, seeds, plane, crossings=300, energy=E, axes=("y", "py"))
+        phaselab.section(H, seeds, plane=plane, crossings=300, energy=E, axes=("y", "py"))
         bare_drag.append(time.perf_counter() - t0)
 
     ex.clear()
@@ -107,9 +107,10 @@ def main(repeats: int = 7) -> None:
         ex.sliders["energy"].value = e
         move.append(time.perf_counter() - t0)
         assert "Recomputed 30 orbits" in ex.status, ex.status
-        seeds = phaselab.shell_seeds(H, e, plane, "px", [o.seed for o in ex.orbits])
+        seeds = phaselab.shell_seeds(H, [o.seed for o in ex.orbits], energy=e, plane=plane,
+                                     solve_for="px")
         t0 = time.perf_counter()
-        phaselab.section(H, seeds, plane, crossings=300, energy=e, axes=("y", "py"))
+        phaselab.section(H, seeds, plane=plane, crossings=300, energy=e, axes=("y", "py"))
         bare_move.append(time.perf_counter() - t0)
 
     def row(name, widget, bare, target):

@@ -58,7 +58,7 @@ spins = np.linspace(*spin_sweep[:2], int(spin_sweep[2]))
 tilted_angle = []
 stable_count = []
 for w in spins:
-    eqs = phaselab.equilibria(hoop, params={"w": w}, bounds={"th": (-np.pi, np.pi), "p": (-1, 1)})
+    eqs = phaselab.equilibria(hoop, params={"w": w}, ranges={"th": (-np.pi, np.pi), "p": (-1, 1)})
     stable = [e for e in eqs if e.stability == "elliptic"]
     stable_count.append(len(stable))
     tilted = [abs(e.state[0]) for e in stable if abs(e.state[0]) > 1e-6]

@@ -70,7 +70,7 @@ files = gt.save_and_show(punctures, out_dir, "punctures", (".png",), dpi=figure_
 # $0 < R < 1$ for an O-point (stable), $R < 0$ for an X-point.
 
 # %%
-chain = phaselab.find_periodic_orbits(ring, 5, region={"theta": (0.05, 2 * np.pi - 0.05),
+chain = phaselab.find_periodic_orbits(ring, 5, ranges={"theta": (0.05, 2 * np.pi - 0.05),
                                                        "psi": (resonant_psi - 0.08, resonant_psi + 0.08)},
                                       resolution=8)
 print(chain.table())
@@ -128,8 +128,9 @@ files += gt.save_and_show(family.plot(title="Residue of the O-point against the 
 
 # %%
 noble = 1 / (2 + (np.sqrt(5) - 1) / 2)
-breakup = phaselab.torus_breakup(ring, noble, "eps", tuple(breakup_range), max_period=int(breakup_period),
-                                 steps=16, action_of=lambda nu: (nu - iota_axis) / shear)
+breakup = phaselab.torus_breakup(ring, noble, "eps", tuple(breakup_range),
+                                 max_returns=int(breakup_period), steps=16,
+                                 action_of=lambda nu: (nu - iota_axis) / shear)
 print(breakup)
 
 # %%

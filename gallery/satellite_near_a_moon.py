@@ -40,7 +40,8 @@ gt.output_folder(out_dir)
 pair = phaselab.models.restricted_three_body()
 prm = {"mu": mass_ratio}
 moon_x = 1 - mass_ratio
-eqs = phaselab.equilibria(pair, params=prm, bounds={"x": (-2, 2), "y": (-2, 2), "px": (-2, 2), "py": (-2, 2)})
+eqs = phaselab.equilibria(pair, params=prm,
+                          ranges={"x": (-2, 2), "y": (-2, 2), "px": (-2, 2), "py": (-2, 2)})
 points = sorted(eqs, key=lambda e: e.energy)
 for e in points:
     print(f"rest point at x = {e.state[0]:+.4f}, y = {e.state[1]:+.4f}: C = {-2 * e.energy:.4f}, {e.stability}")
@@ -77,7 +78,8 @@ files = gt.save_and_show(fig, out_dir, "zero_velocity", dpi=figure_dpi)
 # %%
 H0 = -jacobi / 2
 xs = np.linspace(moon_x - seed_distance[0], moon_x - seed_distance[1], int(n_seeds))
-seeds = phaselab.shell_seeds(pair, H0, {"y": 0.0}, "py", {"x": xs, "px": np.zeros_like(xs)}, params=prm)
+seeds = phaselab.shell_seeds(pair, {"x": xs, "px": np.zeros_like(xs)}, energy=H0, plane={"y": 0.0},
+                             solve_for="py", params=prm)
 near_moon = phaselab.section(pair, seeds, plane={"y": 0.0}, crossings=int(crossings), dt=dt,
                              params=prm, box=escape_radius)
 near_moon

@@ -51,7 +51,8 @@ for E in energies:
     boundaries[E] = edge.lines[0]
     ys = np.concatenate([line[:, 0] for line in edge.lines[0]])
     line = np.linspace(ys.min(), ys.max(), int(n_seeds) + 2)[1:-1]
-    seeds = phaselab.shell_seeds(molecule, E, {"x": 0.0}, "px", {"y": line, "py": np.zeros_like(line)})
+    seeds = phaselab.shell_seeds(molecule, {"y": line, "py": np.zeros_like(line)}, energy=E,
+                                 plane={"x": 0.0}, solve_for="px")
     sections[E] = phaselab.section(molecule, seeds, plane={"x": 0.0}, crossings=int(crossings), dt=dt,
                                    method="yoshida4")
     print(sections[E])
@@ -75,8 +76,8 @@ chaotic = {}
 for E in energies:
     ys = np.concatenate([line[:, 0] for line in boundaries[E]])
     ps = np.concatenate([line[:, 1] for line in boundaries[E]])
-    grid = phaselab.shell_grid(molecule, E, {"x": 0.0}, "px",
-                               {"y": (ys.min(), ys.max(), int(chaos_grid)), "py": (ps.min(), ps.max(), int(chaos_grid))})
+    ranges = {"y": (ys.min(), ys.max(), int(chaos_grid)), "py": (ps.min(), ps.max(), int(chaos_grid))}
+    grid = phaselab.shell_grid(molecule, ranges, energy=E, plane={"x": 0.0}, solve_for="px")
     chaos_maps[E] = phaselab.chaos_map(molecule, grid, chaos_time, indicator="megno", dt=dt, method="yoshida4")
     chaotic[E] = gt.chaotic_fraction(chaos_maps[E].values, megno_threshold)
     print(f"E = {E:g}: {int(grid.valid.sum())} seeds, chaotic fraction {chaotic[E]:.1%}")

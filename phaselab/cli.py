@@ -3,15 +3,18 @@
 ::
 
     phaselab demo [--out DIR]              render the built-in two-mode molecule study
-    phaselab render STUDY [--out DIR]      compute a study file's section and write its files
-    phaselab check STUDY                   read and check a study file, compute nothing
+    phaselab render STUDY [--out DIR] [--set KEY=VALUE ...]
+                                           compute a study file's section and write its files
+    phaselab check STUDY [--set KEY=VALUE ...]  read and check a study file, compute nothing
     phaselab equations STUDY|MODEL [--latex]  print the equations of motion (as LaTeX with --latex)
     phaselab examples                      list the built-in studies and catalogue models
     phaselab keys                          print the reference of study-file tables and keys
 
 ``STUDY`` is a path to a study file (TOML, see ``phaselab/studies/README.md``) or the name
-of a built-in example. Exit status: 0 on success, 2 for a bad study file or bad command
-line (the message goes to stderr, without a traceback), 1 for any other refused input,
+of a built-in example. ``--set section.crossings=100`` (repeatable) changes one value of the
+file for this run (:mod:`phaselab.studies.overrides`); the changed file is checked as a whole.
+Exit status: 0 on success, 2 for a bad study file or bad command line (the message goes to
+stderr, without a traceback), 1 for any other refused input,
 141 (quietly) when the reader of the output closed the pipe early (``... | head``).
 """
 
@@ -46,10 +49,10 @@ def _study_path(text: str) -> Path:
                          f"phaselab equations: {', '.join(MODELS)})")
 
 
-def _read(text: str):
+def _read(text: str, overrides=None):
     from phaselab.studies import read_study
 
-    return read_study(_study_path(text))
+    return read_study(_study_path(text), overrides=overrides)
 
 
 def _unicode_ok(stream) -> bool:
@@ -66,9 +69,9 @@ def _print_files(files, out=sys.stdout):
 def cmd_render(args, demo: bool = False) -> int:
     from phaselab.studies import DEMO, example_path, read_study, render_study
 
-    study = read_study(example_path(DEMO)) if demo else _read(args.study)
+    study = read_study(example_path(DEMO)) if demo else _read(args.study, args.set)
     out_dir = Path(args.out)
-    n = study.seeds.count
+    n = study.states.count
     bar = None
     progress = None
     if not args.quiet:
@@ -97,7 +100,7 @@ def cmd_render(args, demo: bool = False) -> int:
 
 
 def cmd_check(args) -> int:
-    study = _read(args.study)
+    study = _read(args.study, args.set)
     sec = study.section
     if sec.kind == "plane":
         what = f"plane {sec.coordinate} = {sec.value:g}"
@@ -105,12 +108,13 @@ def cmd_check(args) -> int:
         what = "once per driving period"
     else:
         what = "every iterate"
-    print(f"ok: {study.source}: {study.system.name} ({study.system_form}), {study.seeds.count} seeds, "
+    print(f"ok: {study.source}: {study.system.name} ({study.system_form}), {study.states.count} starting states, "
           f"{sec.crossings} crossings, section {what}")
     if study.structure is not None:
         st = study.structure
-        region = ", ".join(f"{k} in [{lo:g}, {hi:g}]" for k, (lo, hi) in st.region.items())
-        print(f"  finds period-{st.period} orbits from {st.resolution} x {st.resolution} starts ({region})"
+        region = ", ".join(f"{k} in [{lo:g}, {hi:g}]" for k, (lo, hi) in st.ranges.items())
+        print(f"  finds {st.returns}-return periodic orbits from {st.resolution} x {st.resolution} "
+              f"starts ({region})"
               + (", with the manifolds of the unstable ones" if st.manifolds else ""))
     for spec in study.outputs:
         print(f"  writes {study.folder + '/' if study.folder else ''}{spec.file}")
@@ -218,9 +222,11 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--out", default=".", metavar="DIR",
                    help="folder the study's files are written into (default: the current folder)")
     p.add_argument("--quiet", action="store_true", help="no progress bar")
+    _add_set(p)
 
     p = sub.add_parser("check", help="read and check a study file without computing")
     p.add_argument("study", metavar="STUDY", help="a study file (.toml) or a built-in example name")
+    _add_set(p)
 
     p = sub.add_parser("equations", help="print the equations of motion of a study's system or a model")
     p.add_argument("study", metavar="STUDY|MODEL", help="a study file, an example name or a catalogue model")
@@ -231,6 +237,12 @@ def build_parser() -> argparse.ArgumentParser:
     sub.add_parser("warm", help="compile the loops every system shares, once per machine (for images and "
                                 "shared installs)")
     return parser
+
+
+def _add_set(p) -> None:
+    p.add_argument("--set", action="append", default=[], metavar="KEY=VALUE",
+                   help="change one value of the study file for this run, e.g. section.crossings=100 or "
+                        "params.eps=0.2 (repeatable; checked like the file)")
 
 
 COMMANDS = {
@@ -251,8 +263,13 @@ def main(argv=None) -> int:
         args = parser.parse_args(argv)
     except SystemExit as exc:  # argparse: --help (0) or a usage error (2)
         return int(exc.code or 0)
+    except BrokenPipeError:   # --help into a closed pipe
+        return _closed_pipe()
     if not args.command:
-        parser.print_help(sys.stderr)
+        try:
+            parser.print_help(sys.stderr)
+        except BrokenPipeError:
+            pass
         return BAD_INPUT
     try:
         status = COMMANDS[args.command](args)

@@ -66,16 +66,17 @@ def _table():
                                    {"update": [None, 3, ["q + p"], [["q", "q + p", "x"]], [3, 4], ["q", "p*2"]],
                                     "coords": [None, 3], "modulus": ["x", [1, 2, 3], -1.0, NAN, {"q": "a"}]}),
         "trajectory": _case(phaselab.trajectory, (H1, [[0.1, 0.0]], 1.0), {"dt": 0.1},
-                            {"system": NOT_SYSTEMS, "state0": STATES1, "t": REQUIRED + [1e300],
+                            {"system": NOT_SYSTEMS, "states": STATES1, "t": REQUIRED + [1e300],
                              "dt": POSITIVE + [1e-300], "method": METHODS, "params": PARAMS,
                              "box": BOXES, "save_every": COUNTS, "tol": POSITIVE,
                              "maxit": COUNTS}),
-        "shell_seeds": _case(phaselab.shell_seeds, (H2, 0.1, {"x": 0.0}, "px", {"y": [0.1], "py": [0.0]}), {},
+        "shell_seeds": _case(phaselab.shell_seeds, (H2, {"y": [0.1], "py": [0.0]}),
+                             {"energy": 0.1, "plane": {"x": 0.0}, "solve_for": "px"},
                              {"system": NOT_SYSTEMS, "energy": REQUIRED, "plane": MAPPINGS + [{"x": NAN}],
                               "solve_for": NAMES, "points": MAPPINGS + [{"y": "a", "py": [0.0]}],
                               "params": PARAMS[:2], "sign": DIRECTIONS}),
         "section": _case(phaselab.section, (H2, seeds_h2), {"plane": {"x": 0.0}, "crossings": 3, "dt": 0.05},
-                         {"system": NOT_SYSTEMS, "seeds": STATES1, "plane": MAPPINGS + [{"x": NAN}],
+                         {"system": NOT_SYSTEMS, "states": STATES1, "plane": MAPPINGS + [{"x": NAN}],
                           "direction": DIRECTIONS, "crossings": COUNTS + HUGE, "params": PARAMS[:3],
                           "dt": POSITIVE, "method": METHODS, "t_max": POSITIVE,
                           "energy": NUMBERS, "axes": [3, ["q"], "no_such_name"], "box": BOXES[:3],
@@ -85,29 +86,29 @@ def _table():
                             "params": PARAMS, "resolution": COUNTS + HUGE, "plane": MAPPINGS,
                             "separatrices": ["yes", None, 2]}),
         "equilibria": _case(phaselab.equilibria, (H1,), {"starts": 2},
-                            {"system": NOT_SYSTEMS, "params": PARAMS, "bounds": BOXES[1:],
+                            {"system": NOT_SYSTEMS, "params": PARAMS, "ranges": BOXES[1:],
                              "starts": [c for c in COUNTS if c != 0] + HUGE, "seed": [NAN, "1", -1, 1.5]}),
         "lyapunov": _case(phaselab.lyapunov, (H1, [0.1, 0.0], 1.0), {"dt": 0.1},
-                          {"system": NOT_SYSTEMS, "state0": STATES1, "t": REQUIRED + [1e300],
+                          {"system": NOT_SYSTEMS, "states": STATES1, "t": REQUIRED + [1e300],
                            "params": PARAMS, "dt": POSITIVE, "method": METHODS}),
         "chaos_indicators": _case(phaselab.chaos_indicators, (H1, [[0.1, 0.0]], 1.0), {"dt": 0.1},
                                   {"system": NOT_SYSTEMS, "states": STATES1, "t": REQUIRED + [1e300],
                                    "params": PARAMS, "dt": POSITIVE, "method": METHODS,
-                                   "seed": [NAN, "1", -1], "record_every": COUNTS, "box": BOXES,
+                                   "seed": [NAN, "1", -1], "save_every": COUNTS, "box": BOXES,
                                    "history": ["yes", 2]}),
         "chaos_map": _case(phaselab.chaos_map, (H1, GRID1, 1.0), {"dt": 0.1},
-                           {"system": NOT_SYSTEMS, "seeds": STATES1, "t": REQUIRED + [1e300],
+                           {"system": NOT_SYSTEMS, "states": STATES1, "t": REQUIRED + [1e300],
                             "indicator": NAMES, "params": PARAMS, "dt": POSITIVE, "method": METHODS,
                             "box": BOXES, "batch_size": COUNTS, "seed": [NAN, "1", -1]}),
-        "escape_map": _case(phaselab.escape_map, (H1, GRID1, 1.0, 2.0), {"dt": 0.1},
-                            {"system": NOT_SYSTEMS, "seeds": STATES1, "t": NUMBERS + [1e300, 10**11],
+        "escape_map": _case(phaselab.escape_map, (H1, GRID1, 1.0), {"dt": 0.1, "box": 2.0},
+                            {"system": NOT_SYSTEMS, "states": STATES1, "t": NUMBERS + [1e300, 10**11],
                              "box": BOXES + [None], "params": PARAMS, "dt": POSITIVE,
                              "method": METHODS, "batch_size": COUNTS}),
         "parameter_scan": _case(phaselab.parameter_scan, (lambda a: {"x": a}, {"a": [1.0, 2.0]}), {},
                                 {"function": [None, 3, "abs"], "grid": MAPPINGS + [{"a": "x"}, {"a": [[1, 2]]}, {"a": []}],
                                  "batch_size": COUNTS}),
-        "shell_grid": _case(phaselab.shell_grid, (H2, 0.1, {"x": 0.0}, "px", {"y": (-0.1, 0.1), "py": (-0.1, 0.1)}),
-                            {"resolution": 3},
+        "shell_grid": _case(phaselab.shell_grid, (H2, {"y": (-0.1, 0.1), "py": (-0.1, 0.1)}),
+                            {"energy": 0.1, "plane": {"x": 0.0}, "solve_for": "px", "resolution": 3},
                             {"system": NOT_SYSTEMS, "energy": REQUIRED, "plane": MAPPINGS, "solve_for": NAMES,
                              "ranges": RANGES[:2] + [{"y": (0, 1, 10**9), "py": (0, 1)}],
                              "resolution": COUNTS + HUGE, "params": PARAMS[:3], "sign": DIRECTIONS}),
@@ -115,35 +116,35 @@ def _table():
                             {"system": NOT_SYSTEMS, "ranges": RANGES, "resolution": COUNTS + [10**9],
                              "fixed": MAPPINGS + [{"q": "a"}, {"nope": 1.0}, {"q": NAN}]}),
         "frequencies": _case(phaselab.frequencies, (H1, [[0.1, 0.0]]), {"t": 10.0, "dt": 0.1},
-                             {"system": NOT_SYSTEMS, "seeds": STATES1, "t": REQUIRED + [1e300],
-                              "n": COUNTS + HUGE, "params": PARAMS, "dt": POSITIVE, "method": METHODS,
+                             {"system": NOT_SYSTEMS, "states": STATES1, "t": REQUIRED + [1e300],
+                              "samples": COUNTS + HUGE, "params": PARAMS, "dt": POSITIVE, "method": METHODS,
                               "lines": COUNTS + HUGE, "window": [NAN, "1", -1, 99], "fold": NAMES,
                               "angles": [3, "nope", ["nope"]]}),
-        "rotation_number": _case(phaselab.rotation_number, (MAP, [[0.1, 0.1]]), {"n": 16},
-                                 {"system": NOT_SYSTEMS, "seeds": STATES1, "n": COUNTS + HUGE,
-                                  "angle": NAMES[:1] + NAMES[2:], "params": PARAMS[:3], "centre": MAPPINGS}),
+        "rotation_number": _case(phaselab.rotation_number, (MAP, [[0.1, 0.1]]), {"samples": 16},
+                                 {"system": NOT_SYSTEMS, "states": STATES1, "samples": COUNTS + HUGE,
+                                  "angle": NAMES[:1] + NAMES[2:], "params": PARAMS[:3], "center": MAPPINGS}),
         "frequency_map": _case(phaselab.frequency_map, (H1, GRID1), {"t": 10.0, "dt": 0.1},
-                               {"system": NOT_SYSTEMS, "seeds": STATES1, "t": REQUIRED + [1e300],
-                                "n": COUNTS + HUGE, "params": PARAMS, "dt": POSITIVE, "method": METHODS,
+                               {"system": NOT_SYSTEMS, "states": STATES1, "t": REQUIRED + [1e300],
+                                "samples": COUNTS + HUGE, "params": PARAMS, "dt": POSITIVE, "method": METHODS,
                                 "batch_size": COUNTS}),
-        "periodic_orbit": _case(phaselab.periodic_orbit, (MAP, [3.14, 0.0]), {"period": 1},
-                                {"system": NOT_SYSTEMS, "guess": STATES1, "period": COUNTS + [10**5, 10**9],
+        "periodic_orbit": _case(phaselab.periodic_orbit, (MAP, [3.14, 0.0]), {"returns": 1},
+                                {"system": NOT_SYSTEMS, "states": STATES1, "returns": COUNTS + [10**5, 10**9],
                                  "params": PARAMS[:3], "direction": DIRECTIONS, "tol": POSITIVE,
                                  "maxit": COUNTS, "box": BOXES[:3], "shift": MAPPINGS,
                                  "symmetric": ["yes", 2]}),
         "find_periodic_orbits": _case(phaselab.find_periodic_orbits, (MAP, 1),
-                                      {"region": {"q": (3.0, 3.3), "p": (-0.1, 0.1)}, "resolution": 2},
-                                      {"system": NOT_SYSTEMS, "period": COUNTS + [10**5],
-                                       "region": RANGES[:1] + RANGES[2:3], "resolution": COUNTS + HUGE,
+                                      {"ranges": {"q": (3.0, 3.3), "p": (-0.1, 0.1)}, "resolution": 2},
+                                      {"system": NOT_SYSTEMS, "returns": COUNTS + [10**5],
+                                       "ranges": RANGES[:1] + RANGES[2:3], "resolution": COUNTS + HUGE,
                                        "same": POSITIVE, "tol": POSITIVE, "maxit": COUNTS}),
         "continue_family": _case(phaselab.continue_family, (None, "K", (0.5, 1.0)), {},
                                  {"orbit": NOT_SYSTEMS + [MAP]}),
         "manifold": _case(phaselab.manifold, (None,), {}, {"orbit": NOT_SYSTEMS + [MAP]}),
-        "torus_breakup": _case(phaselab.torus_breakup, (MAP, 0.618, "K", (0.5, 1.0)), {"max_period": 5},
+        "torus_breakup": _case(phaselab.torus_breakup, (MAP, 0.618, "K", (0.5, 1.0)), {"max_returns": 5},
                                {"system": NOT_SYSTEMS + [H1], "rotation_number": REQUIRED,
-                                "parameter": NAMES, "bracket": [(0.5, 1.0, 2.0), (NAN, 1.0), "ab", 0.5, None,
+                                "parameter": NAMES, "span": [(0.5, 1.0, 2.0), (NAN, 1.0), "ab", 0.5, None,
                                                                 (1.0, 1.0)],
-                                "params": PARAMS[:3], "max_period": COUNTS + [10**9],
+                                "params": PARAMS[:3], "max_returns": COUNTS + [10**9],
                                 "threshold": POSITIVE, "steps": COUNTS + [10**9],
                                 "tol": POSITIVE, "xtol": POSITIVE}),
         "explore": _case(phaselab.explore, (H2,), {"energy": 0.1, "plane": {"x": 0.0}},
@@ -201,7 +202,7 @@ def test_bad_argument_is_refused_by_phaselab(fn, args, kwargs, params, arg, valu
 @pytest.fixture(scope="module")
 def saddle():
     """The standard map's hyperbolic fixed point at the origin (multipliers 1 + K/2 +- ...)."""
-    return phaselab.periodic_orbit(MAP, [0.0, 0.0], period=1)
+    return phaselab.periodic_orbit(MAP, [0.0, 0.0], returns=1)
 
 
 ORBIT_TABLE = {
@@ -242,7 +243,7 @@ def test_sizes_name_the_limit_and_how_to_raise_it():
     and set_limits; a lowered limit refuses what the default lets through."""
     for period in (10**5, 10**9):
         with pytest.raises(phaselab.ParameterError, match=r"limit of .*phaselab\.set_limits\("):
-            phaselab.periodic_orbit(MAP, [3.14, 0.0], period=period)
+            phaselab.periodic_orbit(MAP, [3.14, 0.0], returns=period)
     with pytest.raises(phaselab.ParameterError, match=r"at most 100000"):
         phaselab.state_grid(H1, {"q": (-1, 1), "p": (-1, 1)}, resolution=10**9)
     with pytest.raises(phaselab.ParameterError, match=r"set_limits\(orbit_steps"):
@@ -252,6 +253,6 @@ def test_sizes_name_the_limit_and_how_to_raise_it():
         with pytest.raises(phaselab.ParameterError, match=r"limit of 1e\+04"):
             phaselab.escape_map(H1, GRID1, 1000.0, box=2.0, dt=0.1)
         with pytest.raises(phaselab.ParameterError, match=r"limit of 1e\+04"):
-            phaselab.find_periodic_orbits(MAP, 50, region={"q": (0, 1), "p": (0, 1)}, resolution=4)
+            phaselab.find_periodic_orbits(MAP, 50, ranges={"q": (0, 1), "p": (0, 1)}, resolution=4)
     finally:
         phaselab.set_limits(**vars(before))

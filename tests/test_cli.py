@@ -46,7 +46,7 @@ def section_rows(sec):
 def test_check_prints_a_summary_and_exits_zero(capsys):
     assert main(["check", "molecule"]) == 0
     out = capsys.readouterr().out
-    assert out.startswith("ok: molecule.toml: two-mode molecule (hamiltonian), 20 seeds, 250 crossings")
+    assert out.startswith("ok: molecule.toml: two-mode molecule (hamiltonian), 20 starting states, 250 crossings")
     assert "writes molecule.png" in out
 
 
@@ -55,7 +55,7 @@ def test_bad_study_file_exits_2_with_the_key_on_stderr_and_no_traceback(tmp_path
     bad.write_text(example_path("molecule").read_text().replace('plane = "x = 0"', 'plane = "z = 0"'))
     proc = run("check", str(bad))
     assert proc.returncode == 2
-    assert "bad.toml: section.plane: 'z' is not a coordinate" in proc.stderr
+    assert "bad.toml: section.plane: unknown plane component 'z'" in proc.stderr
     assert "Traceback" not in proc.stderr
     assert proc.stdout == ""
 
@@ -146,8 +146,8 @@ def _python_molecule():
     H = phaselab.Hamiltonian(
         "(px**2 + py**2)/2 + (wx**2*x**2 + wy**2*y**2)/2 + kappa*(x**2*y - y**3/3)",
         ["x", "y"], ["px", "py"], params={"wx": 1.0, "wy": 1.2, "kappa": 0.9})
-    seeds = phaselab.shell_seeds(H, 0.24, {"x": 0.0}, "px",
-                                 {"y": np.linspace(-0.5, 0.66, 20), "py": np.zeros(20)})
+    seeds = phaselab.shell_seeds(H, {"y": np.linspace(-0.5, 0.66, 20), "py": np.zeros(20)},
+                                 energy=0.24, plane={"x": 0.0}, solve_for="px")
     return phaselab.section(H, seeds, plane={"x": 0.0}, direction=+1, crossings=250,
                             method="yoshida4", dt=0.05)
 

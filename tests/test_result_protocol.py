@@ -57,23 +57,28 @@ def _scan_point(point):
 BUILDERS = {
     "Trajectory": lambda: phaselab.trajectory(_pendulum(), [[0.5, 0.0], [1.0, 0.0]], 2.0, dt=0.05),
     "Section": lambda: phaselab.section(ROTOR, STATES, crossings=20, params=PARAMS),
-    "ShellSeeds": lambda: phaselab.shell_seeds(models.henon_heiles(), 1 / 8, {"x": 0.0}, "px",
-                                               {"y": np.linspace(-0.2, 0.3, 4), "py": np.zeros(4)}),
+    "ShellSeeds": lambda: phaselab.shell_seeds(models.henon_heiles(),
+                                               {"y": np.linspace(-0.2, 0.3, 4), "py": np.zeros(4)},
+                                               energy=1 / 8, plane={"x": 0.0}, solve_for="px"),
     "LevelSet": lambda: phaselab.level_set(_pendulum(), {"q": (-3.0, 3.0), "p": (-2.0, 2.0)}, [0.0, 0.5],
                                            resolution=40),
     "Equilibrium": lambda: phaselab.equilibria(_pendulum())[0],
     "ChaosIndicators": lambda: phaselab.chaos_indicators(ROTOR, STATES, 40, params=PARAMS),
     "ChaosMap": lambda: phaselab.chaos_map(ROTOR, _grid(), 20, params=PARAMS, progress=False),
-    "EscapeMap": lambda: phaselab.escape_map(ROTOR, _grid(), 20, 4.0, params=PARAMS, progress=False),
-    "FrequencyMap": lambda: phaselab.frequency_map(ROTOR, _grid(), n=64, params={"K": 0.3}, progress=False),
+    "EscapeMap": lambda: phaselab.escape_map(ROTOR, _grid(), 20, box=4.0, params=PARAMS,
+                                             progress=False),
+    "FrequencyMap": lambda: phaselab.frequency_map(ROTOR, _grid(), samples=64, params={"K": 0.3},
+                                                   progress=False),
     "ParameterScan": lambda: phaselab.parameter_scan(_scan_point, {"K": [0.5, 1.0, 1.5]}, progress=False),
-    "Frequencies": lambda: phaselab.frequencies(ROTOR, STATES, n=64, params={"K": 0.3}),
+    "Frequencies": lambda: phaselab.frequencies(ROTOR, STATES, samples=64, params={"K": 0.3}),
     "PeriodicOrbit": lambda: _orbit(),
-    "PeriodicOrbits": lambda: phaselab.find_periodic_orbits(ROTOR, 1, region={"q": (0.0, 6.2), "p": (-0.5, 0.5)},
+    "PeriodicOrbits": lambda: phaselab.find_periodic_orbits(ROTOR, 1,
+                                                            ranges={"q": (0.0, 6.2), "p": (-0.5, 0.5)},
                                                             params={"K": 0.5}, resolution=3),
     "Manifold": lambda: phaselab.manifold(_orbit(0.01, 1.2), length=1.0),
     "Family": lambda: phaselab.continue_family(_orbit(), "K", (0.5, 0.7), steps=4),
-    "TorusBreakup": lambda: phaselab.torus_breakup(ROTOR, GOLDEN, "K", (0.9, 1.05), max_period=5, steps=3),
+    "TorusBreakup": lambda: phaselab.torus_breakup(ROTOR, GOLDEN, "K", (0.9, 1.05), max_returns=5,
+                                                   steps=3),
     "SectionSlice": _slice,
     "NormalForm": lambda: phaselab.normal_form(_pendulum(), [0.0, 0.0], 4),
 }
@@ -188,7 +193,7 @@ def test_cf_readers_find_the_axes_and_the_units(tmp_path):
         assert ds.cf["T"].attrs["units"] == "s"
         assert ds.attrs["Conventions"] == "CF-1.10" and "phaselab" in ds.attrs["source"]
     square = phaselab.state_grid(flow, {"x": (-1.0, 1.0, 2), "p": (-1.0, 1.0, 2)})
-    path = phaselab.escape_map(flow, square, 1.0, 5.0, dt=0.1, progress=False).save(tmp_path / "escape.nc")
+    path = phaselab.escape_map(flow, square, 1.0, box=5.0, dt=0.1, progress=False).save(tmp_path / "escape.nc")
     with xr.open_dataset(path) as ds:      # the model's time unit replaces "model time units"
         assert ds["survival_time"].attrs["units"] == "s"
         assert ds.cf["X"].attrs["units"] == "m" and ds.cf["Y"].attrs["units"] == "kg m s^-1"
@@ -213,11 +218,11 @@ def test_scan_store_opens_with_xarray_resumes_aloud_and_is_never_overwritten(tmp
 
 
 def test_take_and_concat_keep_running_values_and_refuse_parts_that_do_not_fit():
-    ci = phaselab.chaos_indicators(ROTOR, STATES, 40, params=PARAMS, history=True, record_every=10)
+    ci = phaselab.chaos_indicators(ROTOR, STATES, 40, params=PARAMS, history=True, save_every=10)
     back = type(ci).concat([ci.take([2]), ci.take([0, 1])])
     np.testing.assert_array_equal(back.history["megno"], ci.history["megno"][[2, 0, 1]])
     np.testing.assert_array_equal(back.seeds, ci.seeds[[2, 0, 1]])
-    other = phaselab.chaos_indicators(ROTOR, STATES, 40, params=PARAMS, history=True, record_every=20)
+    other = phaselab.chaos_indicators(ROTOR, STATES, 40, params=PARAMS, history=True, save_every=20)
     with pytest.raises(phaselab.ParameterError, match="record times"):
         type(ci).concat([ci, other])
     tr = built("Trajectory")

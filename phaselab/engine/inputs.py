@@ -106,7 +106,7 @@ def _show(value) -> str:
 
 
 # ----------------------------------------------------------------------------- states
-def states(value, width: int, names=None, what: str = "seeds") -> np.ndarray:
+def states(value, width: int, names=None, what: str = "states") -> np.ndarray:
     """A batch of states as a C-ordered float64 array of shape ``(n_orbits, width)``.
 
     A single state of shape ``(width,)`` becomes one row. Entries must be real numbers

@@ -37,7 +37,7 @@ LIMITS = Limits()
 """The limits in force (see :func:`set_limits`)."""
 
 
-def set_limits(memory_bytes: float | None = None, orbit_steps: float | None = None) -> Limits:
+def set_limits(*, memory_bytes: float | None = None, orbit_steps: float | None = None) -> Limits:
     """Raise (or lower) the limits on one call's memory and work for this session.
 
     Parameters

@@ -32,8 +32,9 @@ def _paths():
     seeds = np.array([[0.0, 0.1, 0.3, 0.0], [0.0, -0.1, 0.3, 0.05]])
     return {
         "trajectory": lambda: phaselab.trajectory(flow, seeds, 1.0, dt=0.1),
-        "section": lambda: phaselab.section(flow, seeds, {"x": 0.0}, crossings=2, dt=0.1),
-        "section (one orbit)": lambda: phaselab.section(flow, seeds[:1], {"x": 0.0}, crossings=2, dt=0.1),
+        "section": lambda: phaselab.section(flow, seeds, plane={"x": 0.0}, crossings=2, dt=0.1),
+        "section (one orbit)": lambda: phaselab.section(flow, seeds[:1], plane={"x": 0.0},
+                                                        crossings=2, dt=0.1),
         "stroboscopic section": lambda: phaselab.section(driven, [[0.1, 0.0]], crossings=2, dt=0.5),
         "map iterates": lambda: phaselab.section(rotor, [[0.1, 0.2]], crossings=2),
         "chaos indicators": lambda: phaselab.chaos_indicators(flow, seeds, 1.0, dt=0.1),
@@ -43,19 +44,21 @@ def _paths():
         "map indicators": lambda: phaselab.chaos_indicators(rotor, [[0.1, 0.2]], 4),
         "periodic orbit (plane)": lambda: phaselab.periodic_orbit(flow, [0.0, 0.1, 0.3, 0.0], plane={"x": 0.0},
                                                                   dt=0.1),
-        "periodic orbits (many starts)": lambda: phaselab.find_periodic_orbits(
-            flow, 1, seeds=seeds, plane={"x": 0.0}, energy=0.05, dt=0.1),
+        "periodic orbits (many starts)": lambda: phaselab.find_periodic_orbits(flow, 1,
+                                                                               states=seeds,
+                                                                               plane={"x": 0.0},
+                                                                               energy=0.05, dt=0.1),
         "periodic orbit (drive)": lambda: phaselab.periodic_orbit(driven, [0.1, 0.0], dt=0.5),
         "periodic orbit (map)": lambda: phaselab.periodic_orbit(rotor, [0.01, 0.0]),
         "manifold (map)": lambda: phaselab.manifold(phaselab.periodic_orbit(rotor, [0.01, 0.0]), length=0.5),
         "manifold (map, stable)": lambda: phaselab.manifold(phaselab.periodic_orbit(rotor, [0.01, 0.0]),
                                                             branch="stable", length=0.5),
-        "frequencies": lambda: phaselab.frequencies(flow, seeds, t=25.6, n=256, dt=0.1),
-        "frequencies (map)": lambda: phaselab.frequencies(rotor, [[0.1, 0.2]], n=256),
+        "frequencies": lambda: phaselab.frequencies(flow, seeds, 25.6, samples=256, dt=0.1),
+        "frequencies (map)": lambda: phaselab.frequencies(rotor, [[0.1, 0.2]], samples=256),
     }
 
 
-def warm(verbose: bool = False) -> dict:
+def warm(*, verbose: bool = False) -> dict:
     """Compile (or load from the kernel cache) every generic loop of the public calls.
 
     Parameters

@@ -54,15 +54,23 @@ def scalar_colormap():
     return cmap.with_extremes(bad=MISSING_COLOR)
 
 
+DPI_RANGE = (10, 2400)
+"""Dots per inch a saved figure may have (the API's ``dpi=`` and a study file's ``dpi``)."""
+MIN_FIGURE_SIZE = (2.0, 1.5)
+"""Smallest (width, height) of a figure, in inches."""
+
+
 def check_size(size, dpi):
     try:
         width, height = (float(v) for v in size)
     except (TypeError, ValueError):
         raise ParameterError(f"size must be (width, height) in inches, got {size!r}") from None
-    if not (np.isfinite(width) and np.isfinite(height) and width >= 2.0 and height >= 1.5):
-        raise ParameterError(f"size must be at least 2 x 1.5 inches, got {size!r}")
-    if not (np.isfinite(dpi) and 10 <= dpi <= 2400):
-        raise ParameterError(f"dpi must be between 10 and 2400, got {dpi!r}")
+    if not (np.isfinite(width) and np.isfinite(height) and width >= MIN_FIGURE_SIZE[0]
+            and height >= MIN_FIGURE_SIZE[1]):
+        raise ParameterError(f"size must be at least {MIN_FIGURE_SIZE[0]:g} x {MIN_FIGURE_SIZE[1]:g} inches, "
+                             f"got {size!r}")
+    if not (np.isfinite(dpi) and DPI_RANGE[0] <= dpi <= DPI_RANGE[1]):
+        raise ParameterError(f"dpi must be between {DPI_RANGE[0]} and {DPI_RANGE[1]}, got {dpi!r}")
     return width, height
 
 

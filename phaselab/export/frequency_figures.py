@@ -19,7 +19,7 @@ from pathlib import Path
 import numpy as np
 
 from phaselab.errors import ParameterError
-from phaselab.export.figures import FIGURE_SUFFIXES, REPORT_RC
+from phaselab.export.figures import DPI_RANGE, FIGURE_SUFFIXES, REPORT_RC
 from phaselab.frequency.resonances import Resonance, resonances
 
 __all__ = ["Resonance", "resonances", "frequency_map_figure", "diffusion_map_figure",
@@ -128,8 +128,8 @@ def _check_frame_size(size, dpi):
         dpi = float(dpi)
     except (TypeError, ValueError):
         raise ParameterError(f"dpi must be a number, got {dpi!r}") from None
-    if not (math.isfinite(dpi) and 10 <= dpi <= 2400):
-        raise ParameterError(f"dpi must be between 10 and 2400, got {dpi!r}")
+    if not (math.isfinite(dpi) and DPI_RANGE[0] <= dpi <= DPI_RANGE[1]):
+        raise ParameterError(f"dpi must be between {DPI_RANGE[0]} and {DPI_RANGE[1]}, got {dpi!r}")
     return width, height, dpi
 
 

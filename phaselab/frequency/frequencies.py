@@ -166,8 +166,8 @@ class Frequencies:
 
 
 # ----------------------------------------------------------------------------- frequencies
-def frequencies(system, seeds, t=None, n=None, params=None, dt=None, method="auto", plane=None,
-                direction=+1, lines=1, window=1, angles=None, diffusion=True, fold="signed",
+def frequencies(system, states, t=None, *, samples=None, params=None, dt=None, method="auto",
+                plane=None, direction=+1, lines=1, window=1, angles=None, diffusion=True, fold="signed",
                 box=None, t_max=None, accuracy=None) -> Frequencies:
     """Fundamental frequencies of every orbit by Laskar's frequency analysis.
 
@@ -196,15 +196,15 @@ def frequencies(system, seeds, t=None, n=None, params=None, dt=None, method="aut
     Parameters
     ----------
     system : Hamiltonian or AreaPreservingMap
-    seeds : array_like, shape (n_orbits, 2n) or (2n,), or ShellSeeds
+    states : array_like, shape (n_orbits, 2n) or (2n,), or ShellSeeds
         Initial states ``(q1..qn, p1..pn)``.
     t : float, optional
         Flows sampled in time (``plane=None``): the length of the record in model time;
-        the ``n`` samples are ``t / (n - 1)`` apart. Not used for maps and sections.
-    n : int, optional
+        the ``samples`` points are ``t / (samples - 1)`` apart. Not used for maps and sections.
+    samples : int, optional
         Samples per orbit (default 2048, at least 32): points in time, iterates of a map
-        (the seed and ``n - 1`` iterates), crossings of a plane, or driving periods (the seed
-        and ``n - 1`` periods). The error falls like ``n^-(2 window + 2)`` on an invariant
+        (the seed and ``samples - 1`` iterates), crossings of a plane, or driving periods (the
+        seed and ``samples - 1`` periods). The error falls like ``samples^-(2 window + 2)`` on an invariant
         torus.
     params : mapping, optional
         Parameter values by name.
@@ -243,7 +243,7 @@ def frequencies(system, seeds, t=None, n=None, params=None, dt=None, method="aut
         Flows, instead of ``dt``: the relative error of the frequencies asked of the
         integration (a relative timing error in (0, 1), as in :func:`phaselab.trajectory`);
         the step is chosen by step doubling over short pilot runs and the error reached is
-        ``.error_estimate``. The spectral analysis adds its own error (see ``n``).
+        ``.error_estimate``. The spectral analysis adds its own error (see ``samples``).
 
     Returns
     -------
@@ -254,7 +254,7 @@ def frequencies(system, seeds, t=None, n=None, params=None, dt=None, method="aut
     Raises
     ------
     ParameterError
-        Bad ``seeds``, ``t``, ``n``, ``dt``, ``lines``, ``window``, ``fold``, ``plane``,
+        Bad ``states``, ``t``, ``samples``, ``dt``, ``lines``, ``window``, ``fold``, ``plane``,
         ``angles``, ``box``, or unknown parameters.
     ModelError, IntegrationError
         From the sampling (see :func:`phaselab.trajectory`, :func:`phaselab.section`).
@@ -267,7 +267,7 @@ def frequencies(system, seeds, t=None, n=None, params=None, dt=None, method="aut
     angle (a rotating pendulum) the signal is not quasi-periodic: declare the angle, or
     use :func:`rotation_number`.
     """
-    Z0, how, n, pdict = _common(system, seeds, plane, t, n, params, direction)
+    Z0, how, n, pdict = _common(system, states, plane, t, samples, params, direction)
     limits.check_budget(len(Z0), n, 4.0 * len(Z0) * n * Z0.shape[1], "frequencies")
     lines = inputs.count(lines, "lines", maximum=max(1, n // 2))
     window = inputs.count(window, "window", 0, MAX_WINDOW_ORDER)
@@ -308,7 +308,7 @@ def _common(system, seeds, plane, t, n, params, direction):
         raise ParameterError(f"system must be a Hamiltonian or an AreaPreservingMap, got "
                              f"{type(system).__name__}")
     Z0 = check_seeds(system, seeds)
-    n = DEFAULT_SAMPLES if n is None else inputs.count(n, "n", MIN_SAMPLES)
+    n = DEFAULT_SAMPLES if n is None else inputs.count(n, "samples", MIN_SAMPLES)
     inputs.direction(direction)
     how = sampling_plan(system, plane, t, n)
     pdict = parameter_values(system, params)
@@ -330,8 +330,8 @@ def birkhoff_weights(m: int) -> np.ndarray:
     return w / total if total > 0 else np.full(m, 1.0 / m)
 
 
-def rotation_number(system, seeds, n=None, angle=None, params=None, t=None, dt=None,
-                    method="auto", plane=None, direction=+1, centre=None, box=None,
+def rotation_number(system, states, t=None, *, samples=None, angle=None, params=None, dt=None,
+                    method="auto", plane=None, direction=+1, center=None, box=None,
                     t_max=None, accuracy=None) -> Frequencies:
     """Rotation numbers from the advance of a lifted angle, by weighted Birkhoff averaging.
 
@@ -345,24 +345,24 @@ def rotation_number(system, seeds, n=None, angle=None, params=None, t=None, dt=N
     Parameters
     ----------
     system : Hamiltonian or AreaPreservingMap
-    seeds : array_like, shape (n_orbits, 2n) or (2n,)
-    n : int, optional
+    states : array_like, shape (n_orbits, 2n) or (2n,)
+    t : float, optional
+        Record length for a flow sampled in time.
+    samples : int, optional
         Samples per orbit (default 2048, at least 32); see :func:`frequencies`.
     angle : str or (str, str), optional
         A coordinate whose value is the angle (in radians; a map's wrapped coordinate is
         lifted exactly), or a pair of names ``(q, p)``: the polar angle
-        ``atan2(-(p - p_c), q - q_c)`` about ``centre``, clockwise positive like the tunes of
+        ``atan2(-(p - p_c), q - q_c)`` about ``center``, clockwise positive like the tunes of
         :func:`frequencies`; its per-sample advance must stay below half a turn. Default:
         the coordinate of a one-degree-of-freedom system.
     params, dt, method, box, t_max, accuracy : optional
         As in :func:`frequencies`.
-    t : float, optional
-        Record length for a flow sampled in time.
     plane : None, mapping or "stroboscopic"
         As in :func:`frequencies`; a driven flow given neither ``t`` nor ``plane`` is sampled
         once per driving period.
     direction : {+1, -1}
-    centre : (float, float), optional
+    center : (float, float), optional
         ``(q_c, p_c)`` for a pair ``angle``; default (0, 0).
 
     Returns
@@ -374,7 +374,7 @@ def rotation_number(system, seeds, n=None, angle=None, params=None, t=None, dt=N
     if (inputs.system(system).kind == "flow" and plane is None and t is None
             and getattr(system, "period", None) is not None):
         plane = "stroboscopic"
-    Z0, how, n, pdict = _common(system, seeds, plane, t, n, params, direction)
+    Z0, how, n, pdict = _common(system, states, plane, t, samples, params, direction)
     limits.check_budget(len(Z0), n, 4.0 * len(Z0) * n * Z0.shape[1], "rotation_number")
     dof = system.dof
     if angle is None:
@@ -387,15 +387,15 @@ def rotation_number(system, seeds, n=None, angle=None, params=None, t=None, dt=N
             raise ParameterError(f"angle as a pair must name (q, p), got {angle!r}")
         iq, ip = (inputs.state_index(system, a, "angle component") for a in angle)
         label = f"angle({system.state_symbols[iq].name}, {system.state_symbols[ip].name})"
-        if centre is None:
+        if center is None:
             qc, pc = 0.0, 0.0
         else:
-            if isinstance(centre, str) or not hasattr(centre, "__len__") or len(centre) != 2:
-                raise ParameterError(f"centre must be a pair (q_c, p_c), got {centre!r}")
-            qc, pc = (inputs.number(c, "centre") for c in centre)
+            if isinstance(center, str) or not hasattr(center, "__len__") or len(center) != 2:
+                raise ParameterError(f"center must be a pair (q_c, p_c), got {center!r}")
+            qc, pc = (inputs.number(c, "center") for c in center)
     else:
-        if centre is not None:
-            raise ParameterError("centre is used only with a pair angle=(q, p)")
+        if center is not None:
+            raise ParameterError("center is used only with a pair angle=(q, p)")
         iq, ip = inputs.state_index(system, angle, "angle"), None
         label = system.state_symbols[iq].name
     S = sample_orbits(system, Z0, how, n, t, pdict, dt, method, plane, direction, box, t_max, accuracy)

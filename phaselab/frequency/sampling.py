@@ -46,8 +46,8 @@ def sampling_plan(system, plane, t, n):
             raise ParameterError("plane is not used for a map (its iterates are the samples); "
                                  "leave it out")
         if t is not None:
-            raise ParameterError("a map is sampled per iterate: give the number of iterates n, "
-                                 "not t")
+            raise ParameterError("a map is sampled per iterate: give the number of iterates "
+                                 "samples=, not t")
         return "map"
     where = inputs.plane(system, plane)
     if where.kind == "none":
@@ -57,7 +57,7 @@ def sampling_plan(system, plane, t, n):
         return "time"
     if t is not None:
         raise ParameterError("t is the length of a record sampled in time; a section is sampled "
-                             "per crossing (give n, and t_max to cap the time)")
+                             "per crossing (give samples=, and t_max to cap the time)")
     if where.kind == "stroboscopic":
         return "stroboscopic"
     where.single()

@@ -87,7 +87,7 @@ class LinearElement:
     matrix: object
 
 
-def compose_map(elements, coords, momenta, params=None, modulus=None, name=None) -> SymplecticMap:
+def compose_map(elements, coords, momenta, *, params=None, modulus=None, name=None) -> SymplecticMap:
     """The map that applies ``elements`` in order (the first acts first).
 
     Parameters

@@ -54,7 +54,7 @@ class Hamiltonian(PhaseSpaceSystem):
 
     kind = "flow"
 
-    def __init__(self, expr, coords, momenta, params=None, time=None, period=None, name=None,
+    def __init__(self, expr, coords, momenta, *, params=None, time=None, period=None, name=None,
                  angles=None, units=None):
         self._set_state(coords, momenta, "a Hamiltonian")
         self.time = as_symbols(time, "time")[0] if time is not None else None
@@ -111,7 +111,7 @@ class Hamiltonian(PhaseSpaceSystem):
         return expr
 
     @classmethod
-    def from_lagrangian(cls, L, coords, velocities, params=None, time=None, period=None, name=None,
+    def from_lagrangian(cls, L, coords, velocities, *, params=None, time=None, period=None, name=None,
                         momenta=None, angles=None, units=None) -> "Hamiltonian":
         """Build H from a Lagrangian by the Legendre transform.
 

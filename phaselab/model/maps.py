@@ -136,7 +136,7 @@ class SymplecticMap(PhaseSpaceSystem):
     period = None
     is_autonomous = True
 
-    def __init__(self, update, coords, momenta, params=None, modulus=None, name=None, reversor=None,
+    def __init__(self, update, coords, momenta, *, params=None, modulus=None, name=None, reversor=None,
                  angles=None, units=None):
         self._set_state(coords, momenta, "a map")
         if len(self.state_symbols) > MAX_COMPONENTS:

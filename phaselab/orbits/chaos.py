@@ -33,7 +33,7 @@ INDICATORS = ("lyapunov", "megno", "fli", "sali")
 """The indicators, in the order the compiled loops write them."""
 
 DEFAULT_RECORDS = 200
-"""Records of the running values kept with ``history=True`` when ``record_every`` is not given."""
+"""Records of the running values kept with ``history=True`` when ``save_every`` is not given."""
 
 
 @dataclass(repr=False)
@@ -205,8 +205,8 @@ def _given_deviations(given, n_orbits, width, vectors, active):
     return W
 
 
-def chaos_indicators(system, states, t, params=None, dt=None, method="auto", vectors=None,
-                     seed=0, deviations=None, history=False, record_every=None, tol=None,
+def chaos_indicators(system, states, t, *, params=None, dt=None, method="auto", vectors=None,
+                     seed=0, deviations=None, history=False, save_every=None, tol=None,
                      maxit=None, box=None) -> ChaosIndicators:
     """Lyapunov exponent, MEGNO, FLI and SALI of every orbit of a batch.
 
@@ -234,7 +234,7 @@ def chaos_indicators(system, states, t, params=None, dt=None, method="auto", vec
     history : bool
         Keep the running values (``.history``, at times ``.t``); off by default, which
         saves memory in large scans.
-    record_every : int, optional
+    save_every : int, optional
         Steps between recorded running values (implies ``history``; default about 200
         records).
     tol, maxit : optional
@@ -258,10 +258,10 @@ def chaos_indicators(system, states, t, params=None, dt=None, method="auto", vec
     tol, maxit = inputs.implicit_solver(tol, maxit)
     values = system.param_values(params)
     used = dict(zip([p.name for p in system.parameters], values.tolist()))
-    history = bool(history) or record_every is not None
+    history = bool(history) or save_every is not None
     if system.kind == "map":
         n_iter = inputs.count(t, "t (the number of iterates)")
-        return _map_indicators(system, states, n_iter, values, used, record_every, history, vectors,
+        return _map_indicators(system, states, n_iter, values, used, save_every, history, vectors,
                                seed, deviations, box)
     t = inputs.positive_number(t, "t")
     flow = system.extended() if not system.is_autonomous else system
@@ -282,7 +282,7 @@ def chaos_indicators(system, states, t, params=None, dt=None, method="auto", vec
         dt = 0.005 if m.order <= 2 else 0.01
     limits.check_budget(len(z), t / dt, 0, "chaos_indicators")
     n_steps = max(int(round(t / dt)), 1)
-    every, n_rec = _records(n_steps, record_every, history)
+    every, n_rec = _records(n_steps, save_every, history)
     limits.check_budget(len(z), n_steps, len(z) * (n_rec * 4 + 4), "chaos_indicators")
     width = 2 * flow.dof
     active = np.ones(width, dtype=bool)
@@ -320,21 +320,21 @@ def _constant_pp(cs, z, values) -> bool:
     return bool(all(np.array_equal(blocks[0], b) for b in blocks[1:]))
 
 
-def _records(n_steps, record_every, history):
+def _records(n_steps, save_every, history):
     if not history:
         return 0, 0
-    every = (inputs.count(record_every, "record_every") if record_every is not None
+    every = (inputs.count(save_every, "save_every") if save_every is not None
              else max(n_steps // DEFAULT_RECORDS, 1))
     return every, n_steps // every
 
 
-def _map_indicators(system, states, n_iter, values, used, record_every, history, vectors, seed,
+def _map_indicators(system, states, n_iter, values, used, save_every, history, vectors, seed,
                     deviations, box):
     from phaselab.orbits.section import map_wrapping
 
     width = len(system.state_symbols)
     z = inputs.states(states, width, [s.name for s in system.state_symbols], "states")
-    every, n_rec = _records(n_iter, record_every, history)
+    every, n_rec = _records(n_iter, save_every, history)
     limits.check_budget(len(z), n_iter, len(z) * (n_rec * 4 + 4), "chaos_indicators")
     active = np.ones(width, dtype=bool)
     W0 = (deviation_vectors(z, seed, vectors, active) if deviations is None
@@ -361,7 +361,7 @@ def _result(final, hist, status, t_end, times, seeds, method, dt, used, history,
         method=method, dt=dt, params=used, system=system)
 
 
-def lyapunov(system, state0, t, params=None, dt=None, method="auto", **kwargs) -> ChaosIndicators:
+def lyapunov(system, states, t, *, params=None, dt=None, method="auto", **kwargs) -> ChaosIndicators:
     """Largest Lyapunov exponent by Benettin's algorithm on the tangent dynamics.
 
     The deviation vector is propagated by the derivative of the symplectic step and
@@ -376,4 +376,4 @@ def lyapunov(system, state0, t, params=None, dt=None, method="auto", **kwargs) -
         for maps); with ``history=True``, ``.history["lyapunov"]`` its running estimate at
         times ``.t``.
     """
-    return chaos_indicators(system, state0, t, params=params, dt=dt, method=method, **kwargs)
+    return chaos_indicators(system, states, t, params=params, dt=dt, method=method, **kwargs)

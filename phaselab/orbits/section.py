@@ -37,26 +37,26 @@ DEFAULT_STEPS_PER_CROSSING = 5000
 """With ``t_max=None`` an orbit may take at most this many steps per requested crossing."""
 
 
-def section(system, seeds, plane=None, direction=+1, crossings=300, params=None, dt=None,
+def section(system, states, crossings=300, *, plane=None, direction=+1, params=None, dt=None,
             method="auto", t_max=None, energy=None, axes=None, box=None,
-            energy_limit=codes.ENERGY_LIMIT, *, lifted=False) -> Section:
+            energy_limit=codes.ENERGY_LIMIT, lifted=False) -> Section:
     """A surface of section of an ensemble of orbits.
 
     Parameters
     ----------
     system : Hamiltonian or AreaPreservingMap
-    seeds : ShellSeeds or array_like, shape (n_orbits, 2n) or (2n,)
+    states : ShellSeeds or array_like, shape (n_orbits, 2n) or (2n,)
         Initial states. For a :class:`~phaselab.orbits.seeds.ShellSeeds` the energy is
         taken from it and invalid seeds are left out with a warning naming them. A seed
         with NaN or infinite entries gets status ``NOT_FINITE`` and no points.
+    crossings : int
+        Crossings (periods, iterates) to record per orbit; the cap per orbit.
     plane : mapping, "stroboscopic" or None
         ``{"x": 0.0}``: the plane where the named coordinate or momentum equals the value
         (autonomous flows). ``"stroboscopic"`` or ``None`` for a time-periodic H (``H.period``
         set). Ignored for maps (the iterates are the section).
     direction : {+1, -1}
         Record crossings where the plane's component increases (+1) or decreases (-1).
-    crossings : int
-        Crossings (periods, iterates) to record per orbit; the cap per orbit.
     params : mapping, optional
         Parameter values by name.
     dt : float, optional
@@ -69,7 +69,7 @@ def section(system, seeds, plane=None, direction=+1, crossings=300, params=None,
         ``crossings * 5000 * dt``. An orbit with no crossing at all before ``t_max`` gets
         status ``NO_CROSSING`` and a :class:`RuntimeWarning` names it.
     energy : float, optional
-        The shell energy to record when ``seeds`` is a plain array.
+        The shell energy to record when ``states`` is a plain array.
     axes : pair of str, optional
         Names of the two state components to show. Default for a plane through coordinate
         ``q_i`` (or momentum ``p_i``): the first other coordinate and its momentum
@@ -81,7 +81,7 @@ def section(system, seeds, plane=None, direction=+1, crossings=300, params=None,
     energy_limit : float
         An orbit whose worst relative energy error exceeds this gets status
         ``ENERGY_DRIFT`` (its points are kept): the step was too large for it.
-    lifted : bool, keyword-only
+    lifted : bool
         For a flow, keep its angles (``system.angles``) lifted, as integrated, instead of
         wrapped into their intervals (frequency analysis needs the lift). Maps are wrapped
         by their iteration either way.
@@ -107,7 +107,7 @@ def section(system, seeds, plane=None, direction=+1, crossings=300, params=None,
     direction = inputs.direction(direction)
     crossings = inputs.count(crossings, "crossings")
     energy_limit = inputs.positive_number(energy_limit, "energy_limit")
-    Z0, energy = _seed_array(system, seeds, energy)
+    Z0, energy = _seed_array(system, states, energy)
     prm = system.param_values(params)
     pdict = dict(zip((p.name for p in system.parameters), prm.tolist()))
     where = None if system.kind == "map" else inputs.plane(system, plane)   # a map ignores plane

@@ -177,13 +177,18 @@ def _broadcast_points(system, points, free: list[str]) -> np.ndarray:
     return arr
 
 
-def shell_seeds(system, energy, plane, solve_for, points, params=None, sign=+1) -> ShellSeeds:
+def shell_seeds(system, points, *, energy, plane, solve_for, params=None, sign=+1) -> ShellSeeds:
     """Put points on the energy shell H = E by solving one state component.
 
     Parameters
     ----------
     system : Hamiltonian
         An autonomous system (H without explicit time).
+    points : array_like, shape (n_points, k), or mapping of name to array
+        The remaining (free) components. As an array, the columns are the free components in
+        state order ``(q1..qn, p1..pn)`` with the fixed and the solved ones left out (for
+        Henon-Heiles with plane x = 0 solving px: columns (y, py)). As a mapping, name to
+        values, broadcast against each other.
     energy : float
         The energy E (units of H).
     plane : mapping of str to float, or None
@@ -192,11 +197,6 @@ def shell_seeds(system, energy, plane, solve_for, points, params=None, sign=+1) 
     solve_for : str or sympy.Symbol
         The component solved from H = E, usually the momentum conjugate to the plane's
         coordinate (``"px"``).
-    points : array_like, shape (n_points, k), or mapping of name to array
-        The remaining (free) components. As an array, the columns are the free components in
-        state order ``(q1..qn, p1..pn)`` with the fixed and the solved ones left out (for
-        Henon-Heiles with plane x = 0 solving px: columns (y, py)). As a mapping, name to
-        values, broadcast against each other.
     params : mapping, optional
         Parameter values by name.
     sign : {+1, -1}

@@ -222,7 +222,7 @@ def _check_four(section, what: str) -> tuple:
 
 
 # ----------------------------------------------------------------------------- public
-def section_projection(section, axes, color=None) -> SectionSlice:
+def section_projection(section, axes, *, color=None) -> SectionSlice:
     """The section projected onto two or three of its coordinates, coloured by another.
 
     Parameters
@@ -261,7 +261,7 @@ def section_projection(section, axes, color=None) -> SectionSlice:
     return _result(section, "projection", states, orbit, crossing, idx, axes, color, states[:, c])
 
 
-def section_slice(section, name, center, half_width, axes=None) -> SectionSlice:
+def section_slice(section, name, center, half_width, *, axes=None) -> SectionSlice:
     """A 3-D phase-space slice: the points with ``|w - center| < half_width``.
 
     Parameters
@@ -307,7 +307,7 @@ def section_slice(section, name, center, half_width, axes=None) -> SectionSlice:
     return _result(section, "slice", states[inside], orbit[inside], crossing[inside], idx, axes, slab=slab)
 
 
-def projection_grid(section, coordinates=None) -> SectionSlice:
+def projection_grid(section, *, coordinates=None) -> SectionSlice:
     """Every recorded point in all the given section coordinates, drawn as a matrix of
     pairwise projections (``plot()``).
 

@@ -108,7 +108,7 @@ class Trajectory(codes.StatusReport):
 
 
 
-    def wrapped_path(self, orbit: int = 0, every: int = 1) -> tuple[np.ndarray, np.ndarray]:
+    def wrapped_path(self, orbit: int = 0, *, every: int = 1) -> tuple[np.ndarray, np.ndarray]:
         """One orbit ready to draw: the model's angles wrapped into their intervals, with a
         NaN row wherever an angle jumps across its interval. ``states`` stays lifted.
 
@@ -212,7 +212,7 @@ def _times(t):
 
 
 # ----------------------------------------------------------------------------- the call
-def trajectory(system, state0, t, dt=None, method="auto", params=None, box=None, save_every=None,
+def trajectory(system, states, t, *, dt=None, method="auto", params=None, box=None, save_every=None,
                tol=None, maxit=None, rtol=1e-10, atol=1e-12, check_step=True,
                energy_limit=codes.ENERGY_LIMIT, accuracy=None) -> Trajectory:
     """Integrate orbits of a Hamiltonian system.
@@ -225,7 +225,7 @@ def trajectory(system, state0, t, dt=None, method="auto", params=None, box=None,
         momentum ``p_tau``, K = H + p_tau), seeded with ``tau = t0`` and
         ``p_tau = -H(q, p, t0)`` so that K = 0; the returned states are in the original
         ``2n`` coordinates and ``energy_error`` is that of K (absolute, since K(0) = 0).
-    state0 : array_like, shape (2n,) or (n_orbits, 2n)
+    states : array_like, shape (2n,) or (n_orbits, 2n)
         Initial states ``(q1..qn, p1..pn)``. A single state gives ``n_orbits = 1``. A seed
         with a NaN or infinite entry does not stop the batch: that orbit gets status
         ``NOT_FINITE`` at ``t0`` (its states NaN after sample 0) and a ``RuntimeWarning``
@@ -297,7 +297,7 @@ def trajectory(system, state0, t, dt=None, method="auto", params=None, box=None,
     Raises
     ------
     ParameterError
-        A bad argument: ``state0`` of the wrong shape or not real numbers, bad ``t``,
+        A bad argument: ``states`` of the wrong shape or not real numbers, bad ``t``,
         ``dt``, ``save_every``, ``box``, ``method``, an unknown parameter, a request over
         :data:`phaselab.engine.limits.LIMITS`, a map instead of a flow.
     ModelError
@@ -315,7 +315,7 @@ def trajectory(system, state0, t, dt=None, method="auto", params=None, box=None,
     inputs.flow(system, "trajectory()")
     prm = system.param_values(params)
     names = [s.name for s in system.state_symbols]
-    Z0 = inputs.states(state0, len(names), names, "state0")
+    Z0 = inputs.states(states, len(names), names, "states")
     t0, t1, out_times = _times(t)
     span = t1 - t0
     if span == 0:

@@ -146,7 +146,7 @@ def _chunk(states, valid, threads, system, t, indicator, params, seed, options):
                                                    "t_end": ((), np.nan, float)}, compute)
 
 
-def chaos_map(system, seeds, t, indicator: str = "megno", params=None, dt=None, method="auto",
+def chaos_map(system, states, t, *, indicator: str = "megno", params=None, dt=None, method="auto",
               box=None, tol=None, maxit=None, seed: int = 0, batch_size=None, client=None,
               progress=None, store=None) -> ChaosMap:
     """A chaos indicator for every seed, computed in chunks.
@@ -154,7 +154,7 @@ def chaos_map(system, seeds, t, indicator: str = "megno", params=None, dt=None, 
     Parameters
     ----------
     system : Hamiltonian or AreaPreservingMap
-    seeds : StateGrid or array_like, shape (n_seeds, 2n)
+    states : StateGrid or array_like, shape (n_seeds, 2n)
         A grid from :func:`phaselab.state_grid` or :func:`phaselab.shell_grid` (invalid
         points are not run), or seeds.
     t : float
@@ -191,7 +191,7 @@ def chaos_map(system, seeds, t, indicator: str = "megno", params=None, dt=None, 
     """
     if not isinstance(indicator, str) or indicator not in INDICATORS:
         raise ParameterError(f"unknown indicator {indicator!r}; choose one of {', '.join(INDICATORS)}")
-    states, valid, grid = scan_rows(system, seeds)
+    states, valid, grid = scan_rows(system, states)
     is_map = system.kind == "map"
     t = float(inputs.count(t, "t (the number of iterates)")) if is_map else inputs.positive_number(t, "t")
     seed = inputs.count(seed, "seed", minimum=0)

@@ -44,7 +44,7 @@ class Aperture:
 
     Attributes
     ----------
-    centre : tuple of float
+    center : tuple of float
         In the two grid components (horizontal, vertical).
     angles : ndarray, shape (k,)
         Directions in radians, counter-clockwise from the horizontal grid axis.
@@ -58,7 +58,7 @@ class Aperture:
     axis_names : tuple of str
     """
 
-    centre: tuple
+    center: tuple
     angles: np.ndarray
     radius: np.ndarray
     at_edge: np.ndarray
@@ -71,7 +71,7 @@ class Aperture:
         return float(np.min(self.radius))
 
     def __repr__(self) -> str:
-        return (f"Aperture(centre={self.centre}, {len(self.angles)} directions in "
+        return (f"Aperture(center={self.center}, {len(self.angles)} directions in "
                 f"({', '.join(self.axis_names)}), minimum radius {self.minimum:.4g})")
 
 
@@ -132,12 +132,12 @@ class EscapeMap:
             raise ParameterError(f"what must be 'survival' or 'survived', got {what!r}")
         return np.asarray(values, dtype=float).reshape(self.grid.shape)
 
-    def aperture(self, centre=(0.0, 0.0), directions=16) -> Aperture:
-        """The largest radius around ``centre`` inside which every seed survived, per direction.
+    def aperture(self, *, center=(0.0, 0.0), directions=16) -> Aperture:
+        """The largest radius around ``center`` inside which every seed survived, per direction.
 
         Parameters
         ----------
-        centre : pair of float
+        center : pair of float
             In the two grid components (horizontal, vertical); must lie inside the grid.
         directions : int or array_like
             A number k of directions evenly spaced over the full turn (starting along the
@@ -151,11 +151,11 @@ class EscapeMap:
             raise ParameterError("the aperture needs an escape map over a grid (state_grid or shell_grid)")
         g = self.grid
         try:
-            cx, cy = (inputs.number(c, "centre") for c in centre)
+            cx, cy = (inputs.number(c, "center") for c in center)
         except (TypeError, ValueError):
-            raise ParameterError(f"centre must be a pair of numbers, got {centre!r}") from None
+            raise ParameterError(f"center must be a pair of numbers, got {center!r}") from None
         if not (g.x[0] <= cx <= g.x[-1] and g.y[0] <= cy <= g.y[-1]):
-            raise ParameterError(f"centre ({cx:g}, {cy:g}) lies outside the grid "
+            raise ParameterError(f"center ({cx:g}, {cy:g}) lies outside the grid "
                                  f"[{g.x[0]:g}, {g.x[-1]:g}] x [{g.y[0]:g}, {g.y[-1]:g}]")
         if np.ndim(directions) == 0:
             k = inputs.count(directions, "directions")
@@ -280,14 +280,14 @@ def _map_chunk(states, valid, threads, system, n_iter, params, box):
     return {"survival": survival, "status": status}, {"method": "map", "dt": 1.0}
 
 
-def escape_map(system, seeds, t, box, params=None, dt=None, method="auto", batch_size=None,
+def escape_map(system, states, t, *, box=None, params=None, dt=None, method="auto", batch_size=None,
                client=None, progress=None, store=None) -> EscapeMap:
     """How long every seed stays inside a region, up to a cap.
 
     Parameters
     ----------
     system : Hamiltonian or AreaPreservingMap
-    seeds : StateGrid or array_like, shape (n_seeds, 2n)
+    states : StateGrid or array_like, shape (n_seeds, 2n)
         A grid from :func:`phaselab.state_grid` or :func:`phaselab.shell_grid` (invalid
         points are not run), or seeds.
     t : float
@@ -323,7 +323,7 @@ def escape_map(system, seeds, t, box, params=None, dt=None, method="auto", batch
     """
     if box is None:
         raise ParameterError("an escape map needs the region: box=R or box={name: (low, high)}")
-    states, valid, grid = scan_rows(system, seeds)
+    states, valid, grid = scan_rows(system, states)
     if batch_size is not None:
         inputs.count(batch_size, "batch_size")
     inputs.box(system, box)

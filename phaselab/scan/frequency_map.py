@@ -76,7 +76,7 @@ class FrequencyMap:
         """Seeds analysed in full with finite frequencies, shape (n_seeds,)."""
         return (self.status == codes.OK) & np.all(np.isfinite(self.nu), axis=1)
 
-    def image(self, what="diffusion", column=0) -> np.ndarray:
+    def image(self, what="diffusion", *, column=0) -> np.ndarray:
         """A picture of shape (ny, nx) over the grid: ``"diffusion"`` or ``"nu"`` (the
         ``column``-th frequency); NaN where invalid."""
         if self.grid is None:
@@ -158,18 +158,18 @@ def _columns(system, angle, plane) -> int:
     return dof - 1 if system.kind == "flow" and inputs.plane(system, plane).kind == "fixed" else dof
 
 
-def frequency_map(system, seeds, t=None, n=None, params=None, dt=None, method="auto", plane=None,
-                  direction=+1, window=1, angles=None, angle=None, box=None, t_max=None,
+def frequency_map(system, states, t=None, *, samples=None, params=None, dt=None, method="auto",
+                  plane=None, direction=+1, window=1, angles=None, angle=None, box=None, t_max=None,
                   fold="signed", batch_size=None, client=None, progress=None, store=None) -> FrequencyMap:
     """Frequencies and diffusion for every seed of a grid, computed in chunks.
 
     Parameters
     ----------
     system : Hamiltonian or AreaPreservingMap
-    seeds : StateGrid or array_like, shape (n_seeds, 2n)
+    states : StateGrid or array_like, shape (n_seeds, 2n)
         A grid from :func:`phaselab.state_grid` or :func:`phaselab.shell_grid` (invalid
         grid points are skipped), or seeds.
-    t, n, params, dt, method, plane, direction, window, angles, box, t_max, fold
+    t, samples, params, dt, method, plane, direction, window, angles, box, t_max, fold
         As in :func:`phaselab.frequency.frequencies.frequencies`.
     angle : str or (str, str), optional
         Rotation numbers of this angle instead of frequencies
@@ -192,12 +192,12 @@ def frequency_map(system, seeds, t=None, n=None, params=None, dt=None, method="a
     """
     if batch_size is not None:
         inputs.count(batch_size, "batch_size")
-    states, valid, grid = scan_rows(system, seeds)
+    states, valid, grid = scan_rows(system, states)
     todo = np.flatnonzero(valid)
     if not todo.size:
         raise ParameterError("no valid seeds to analyse (every grid point is invalid)")
     used = system.param_values(params)  # refuse unknown parameters before any work
-    options = dict(t=t, n=n, params=params, dt=dt, method=method, plane=plane, direction=direction,
+    options = dict(t=t, samples=samples, params=params, dt=dt, method=method, plane=plane, direction=direction,
                    box=box, t_max=t_max)
     if angle is None:
         options.update(window=window, angles=angles, fold=fold, lines=1)
@@ -205,7 +205,7 @@ def frequency_map(system, seeds, t=None, n=None, params=None, dt=None, method="a
             and getattr(system, "period", None) is not None:
         options["plane"] = "stroboscopic"
     if dt is None and system.kind == "flow":
-        options["dt"] = integration_step(system, states[todo], t=t, n=n, params=params,
+        options["dt"] = integration_step(system, states[todo], t=t, n=samples, params=params,
                                          method=method, plane=options["plane"])
     k = _columns(system, angle, options["plane"])
     fingerprint = {"scan": "frequency_map", "system": system.key, "params": used.tolist(),

@@ -66,7 +66,7 @@ def _two_ranges(ranges, resolution):
     return xn, x, yn, y
 
 
-def state_grid(system, ranges, resolution: int = 100, fixed=None) -> StateGrid:
+def state_grid(system, ranges, *, resolution: int = 100, fixed=None) -> StateGrid:
     """Seeds on a grid of two state components, the others fixed.
 
     Parameters
@@ -94,7 +94,7 @@ def state_grid(system, ranges, resolution: int = 100, fixed=None) -> StateGrid:
     return StateGrid(states, np.ones(len(states), dtype=bool), x, y, (ix, iy), (xn, yn))
 
 
-def shell_grid(system, energy, plane, solve_for, ranges, resolution: int = 100, params=None,
+def shell_grid(system, ranges, *, energy, plane, solve_for, resolution: int = 100, params=None,
                sign: int = +1) -> StateGrid:
     """Seeds on a grid of two components, on the energy shell H = E in a section plane.
 
@@ -107,8 +107,8 @@ def shell_grid(system, energy, plane, solve_for, ranges, resolution: int = 100, 
     xn, x, yn, y = _two_ranges(ranges, resolution)
     limits.grid_budget(len(x) * len(y), len(system.state_symbols), "shell_grid")
     X, Y = np.meshgrid(x, y)
-    seeds = shell_seeds(system, energy, plane, solve_for, {xn: X.ravel(), yn: Y.ravel()},
-                        params=params, sign=sign)
+    seeds = shell_seeds(system, {xn: X.ravel(), yn: Y.ravel()}, energy=energy, plane=plane,
+                        solve_for=solve_for, params=params, sign=sign)
     return StateGrid(seeds.states, np.asarray(seeds.valid, dtype=bool), x, y,
                      (_index(system, xn), _index(system, yn)), (xn, yn), float(energy))
 
@@ -145,9 +145,9 @@ def scan_rows(system, seeds) -> tuple[np.ndarray, np.ndarray, StateGrid | None]:
     except ValueError:  # ragged rows
         shape = None
     if shape is not None and (len(shape) not in (1, 2) or shape[-1] != len(names)):
-        raise ParameterError(f"seeds must have shape (n_seeds, {len(names)}), ordered "
+        raise ParameterError(f"states must have shape (n_seeds, {len(names)}), ordered "
                              f"({', '.join(names)}); got shape {shape}")
-    states = inputs.states(given, len(names), names, "seeds")
+    states = inputs.states(given, len(names), names, "states")
     valid = grid.valid.copy() if grid is not None else np.ones(len(states), dtype=bool)
     valid &= np.all(np.isfinite(states), axis=1)
     return states, valid, grid

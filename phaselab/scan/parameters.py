@@ -137,7 +137,7 @@ def _function_name(function) -> str:
     return f"{module}.{name}" if module else name
 
 
-def parameter_scan(function: Callable, grid: Mapping, client=None, progress=None, store=None,
+def parameter_scan(function: Callable, grid: Mapping, *, client=None, progress=None, store=None,
                    batch_size=1) -> ParameterScan:
     """Evaluate ``function(params)`` at every point of a grid of parameter values.
 

@@ -146,7 +146,7 @@ def _follow(system, frac, line, name, values, params, angle, action, tol, action
     return out, points
 
 
-def torus_breakup(system, rotation_number, parameter, bracket, params=None, *, max_period=200,
+def torus_breakup(system, rotation_number, parameter, span, *, params=None, max_returns=200,
                   threshold=0.25, steps=12, angle=None, action_of=None, tol=1e-11,
                   xtol=1e-9) -> TorusBreakup:
     """Where the invariant torus of a given rotation number breaks, by Greene's criterion.
@@ -165,15 +165,15 @@ def torus_breakup(system, rotation_number, parameter, bracket, params=None, *, m
         In turns of the angle per iterate, e.g. the golden mean (sqrt(5) - 1) / 2.
     parameter : str
         The parameter that destroys the torus (``"K"``).
-    bracket : (float, float)
+    span : (float, float)
         Parameter values with the torus present at the first and gone at the second.
-    max_period : int
-        Longest convergent period followed.
+    max_returns : int
+        Longest convergent period followed, in iterates (the denominator Q).
     threshold : float
         The residue that marks the breakup (1/4 in Greene's criterion).
     steps : int
-        Values of the parameter in the table over the bracket; also the continuation steps
-        that bring each orbit from the low end to the bracket.
+        Values of the parameter in the table over the span; also the continuation steps
+        that bring each orbit from the low end to the span.
     angle : str, optional
         The wrapped angle whose winding defines the rotation number (default: the first
         wrapped coordinate); its partner is the action. The search starts on the symmetry
@@ -191,16 +191,16 @@ def torus_breakup(system, rotation_number, parameter, bracket, params=None, *, m
     inputs.number(rotation_number, "rotation_number"), inputs.word(parameter, "parameter")
     threshold, tol, xtol = (inputs.positive_number(v, w) for v, w in
                             ((threshold, "threshold"), (tol, "tol"), (xtol, "xtol")))
-    max_period, steps = inputs.count(max_period, "max_period"), inputs.count(steps, "steps", minimum=2)
-    limits.check_budget(2 * steps, 61.0 * 2 * max_period, 0, "torus_breakup")
+    max_returns, steps = inputs.count(max_returns, "max_returns"), inputs.count(steps, "steps", minimum=2)
+    limits.check_budget(2 * steps, 61.0 * 2 * max_returns, 0, "torus_breakup")
     if getattr(system, "reversor", None) is None:
         raise ModelError("torus_breakup needs a reversible map (AreaPreservingMap(..., reversor=...))")
     names = [s.name for s in system.state_symbols]
     if parameter not in system.params:
         raise ParameterError(f"unknown parameter {parameter!r}; this map has: {', '.join(system.params)}")
-    lo, hi = inputs.pair(bracket, "bracket")
+    lo, hi = inputs.pair(span, "span")
     if not lo < hi:
-        raise ParameterError(f"bracket needs low < high, got ({lo}, {hi})")
+        raise ParameterError(f"span needs low < high, got ({lo}, {hi})")
     if angle is None:
         wrapped = [i for i, mod in enumerate(system.modulus) if mod is not None]
         if not wrapped:
@@ -210,10 +210,10 @@ def torus_breakup(system, rotation_number, parameter, bracket, params=None, *, m
         a = inputs.state_index(system, angle, "angle")
     n = system.dof
     b = (a + n) % (2 * n)
-    fracs = [f for f in convergents(rotation_number, max_period)
+    fracs = [f for f in convergents(rotation_number, max_returns)
              if f.denominator >= 2]
     if not fracs:
-        raise ParameterError(f"no convergent of {rotation_number} has a period up to {max_period}")
+        raise ParameterError(f"no convergent of {rotation_number} has a period up to {max_returns} iterates")
     base = dict(system.params, **(inputs.mapping(params, "params") or {}))
     values = np.linspace(lo, hi, steps)
     residues = np.full((len(fracs), len(values), 2), np.nan)

@@ -14,7 +14,7 @@ How they are found
    ``sympy.solve_poly_system`` then returns every solution, the real ones are kept and each
    is polished by Newton's method. This path is complete (no equilibrium is missed).
 2. Otherwise (or when sympy declines the system), a multi-start Newton search: ``starts``
-   points drawn uniformly (``numpy.random.default_rng(seed)``) in the ``bounds`` box plus its
+   points drawn uniformly (``numpy.random.default_rng(seed)``) in the ``ranges`` box plus its
    centre, each handed to ``scipy.optimize.root`` (method ``hybr``) with the lambdified
    Hessian as Jacobian. This path finds the equilibria whose basins the starts hit; more
    starts or tighter bounds find more.
@@ -22,7 +22,7 @@ How they are found
 Conventions
 -----------
 * Default bounds: ``(-pi, pi)`` for an angle coordinate, ``(-3, 3)`` in the model's units for
-  every other state variable. Names missing from ``bounds`` keep their default.
+  every other state variable. Names missing from ``ranges`` keep their default.
 * A coordinate counts as an angle when H is 2 pi periodic in it (checked numerically at
   random states to 1e-9 relative). Angles are reported reduced into ``(-pi, pi]`` when that
   value lies in the bounds (else the first representative at or above the lower bound), and
@@ -33,7 +33,7 @@ Conventions
 * State variables absent from H (cyclic coordinates, or momenta H does not contain) make the
   equilibria come in lines; they are held at the centre of their bounds, listed in
   ``Equilibrium.free``, and such equilibria have zero eigenvalues ("degenerate").
-* Symbolic solutions are all returned when ``bounds`` is None; with explicit bounds, and
+* Symbolic solutions are all returned when ``ranges`` is None; with explicit bounds, and
   always for the Newton search, only equilibria inside the box are returned.
 * Straight lines of equilibria (null directions of the Hessian along which grad H stays
   zero, as for a lattice invariant under translation) give one result each, the point of
@@ -64,7 +64,7 @@ __all__ = ["equilibria", "Equilibrium", "check_bounds", "exact_number", "classif
 
 
 # --------------------------------------------------------------------------- public entry
-def equilibria(system, params=None, bounds=None, starts: int = 200, seed: int = 0) -> list[Equilibrium]:
+def equilibria(system, *, params=None, ranges=None, starts: int = 200, seed: int = 0) -> list[Equilibrium]:
     """Equilibria of an autonomous Hamiltonian flow, or fixed points of an area-preserving map.
 
     Parameters
@@ -73,7 +73,7 @@ def equilibria(system, params=None, bounds=None, starts: int = 200, seed: int = 
         A time-dependent Hamiltonian is refused (see Raises).
     params : mapping of str to float, optional
         Parameter values; defaults from the model.
-    bounds : mapping of str to (float, float), optional
+    ranges : mapping of str to (float, float), optional
         Search box per state variable name; see the module docstring for defaults, the
         handling of angles and which solutions are returned.
     starts : int
@@ -91,18 +91,18 @@ def equilibria(system, params=None, bounds=None, starts: int = 200, seed: int = 
     ModelError
         For a Hamiltonian with explicit time dependence.
     ParameterError
-        For unknown names or empty/non-finite intervals in ``bounds``, unknown parameters,
+        For unknown names or empty/non-finite intervals in ``ranges``, unknown parameters,
         or a non-positive ``starts``.
     """
     inputs.system(system)
     starts = inputs.count(starts, "starts", minimum=0, maximum=100_000)
     seed = inputs.count(seed, "seed", minimum=0)
     if system.kind == "map":
-        return map_fixed_points(system, params, bounds, int(starts), seed)
+        return map_fixed_points(system, params, ranges, int(starts), seed)
     if not system.is_autonomous:
         raise ModelError(
             f"system {system.name!r} depends on time explicitly, so it has no equilibria in the "
             f"usual sense; for the equilibria of the frozen system at a fixed time, build it with "
             f"the time symbol {system.time.name!r} declared as a parameter (e.g. "
             f"params={{'{system.time.name}': 0.0}}) and pass the time you want in params")
-    return FlowSearch(system, params, bounds).run(int(starts), seed)
+    return FlowSearch(system, params, ranges).run(int(starts), seed)

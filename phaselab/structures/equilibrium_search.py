@@ -36,7 +36,7 @@ def exact_number(value: float) -> sp.Rational:
     return sp.Rational(repr(float(value)))
 
 
-def check_bounds(bounds, names: tuple[str, ...], what: str = "bounds") -> dict[str, tuple[float, float]]:
+def check_bounds(bounds, names: tuple[str, ...], what: str = "ranges") -> dict[str, tuple[float, float]]:
     """Validate a mapping of state-variable name to (lo, hi)."""
     if bounds is None:
         return {}

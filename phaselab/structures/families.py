@@ -150,7 +150,7 @@ class Family:
                                           stopped=self.note)))
         return cf_dataset(ds)
 
-    def plot(self, y=None, **kwargs):
+    def plot(self, *, y=None, **kwargs):
         """A stability diagram: the parameter against the residue (``y="residue"``, the
         default for 2-D section maps), the stability index of each multiplier pair
         (``y="index"``, the default otherwise) or ``y="period"``; stable and unstable
@@ -239,8 +239,8 @@ def _tangent(Ju, Fl, previous=None, sign=1.0):
     return t / np.linalg.norm(t)
 
 
-def continue_family(orbit: PeriodicOrbit, parameter, span, steps=200, ds=None, ds_max=None, tol=1e-10,
-                    maxit=12, resonances=None) -> Family:
+def continue_family(orbit: PeriodicOrbit, parameter, span, *, steps=200, ds=None, ds_max=None,
+                    tol=1e-10, maxit=12, resonances=None) -> Family:
     """Follow the family of a periodic orbit along a parameter (or the energy).
 
     Parameters

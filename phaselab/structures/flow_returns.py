@@ -161,7 +161,8 @@ class PlaneReturn(ReturnMap):
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
             for sign in (1, -1):
-                s = shell_seeds(self.system, self.energy, plane, sname, points, params=self.params, sign=sign)
+                s = shell_seeds(self.system, points, energy=self.energy, plane=plane,
+                                solve_for=sname, params=self.params, sign=sign)
                 cands.append(s.states)
         z = np.full((n_pts, m), np.nan)
         for cand in cands:

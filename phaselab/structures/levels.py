@@ -187,7 +187,7 @@ def _as_grid(v, shape) -> np.ndarray:
 
 
 # --------------------------------------------------------------------------- public entry
-def level_set(system, ranges, levels, params=None, resolution=400, plane=None,
+def level_set(system, ranges, levels, *, params=None, resolution=400, plane=None,
               separatrices: bool = False) -> LevelSet:
     """Contours of H on a grid of two state variables.
 
@@ -281,7 +281,7 @@ def level_set(system, ranges, levels, params=None, resolution=400, plane=None,
     if separatrices:
         from phaselab.structures.equilibria import equilibria
 
-        eqs = equilibria(system, params=params, bounds={sx.name: rng[sx.name], sy.name: rng[sy.name]})
+        eqs = equilibria(system, params=params, ranges={sx.name: rng[sx.name], sy.name: rng[sy.name]})
         for eq in eqs:
             if eq.stability == "hyperbolic":
                 seps.append(Separatrix(eq, eq.energy, _contour(x, y, values, eq.energy)))

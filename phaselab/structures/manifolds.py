@@ -98,7 +98,7 @@ class Manifold:
                                  "max_segment": self.max_segment, "complete": int(self.complete),
                                  "note": self.note, "model_note": "model results: confirm with validated tools"}))
 
-    def plot(self, section=None, **kwargs):
+    def plot(self, *, section=None, **kwargs):
         """A static figure of the branch with its orbit, over a section if one is given."""
         from phaselab.export.structures import structure_figure
 
@@ -138,7 +138,7 @@ def _eigen(M, branch):
     return 1.0 / lam_s, vecs[:, order[0]].real
 
 
-def manifold(orbit, branch="unstable", side=+1, length=10.0, max_segment=None, max_angle=0.3,
+def manifold(orbit, *, branch="unstable", side=+1, length=10.0, max_segment=None, max_angle=0.3,
              first=None, point=None, max_points=2_000_000, min_segment=None) -> Manifold:
     """Grow the stable or unstable manifold of an unstable periodic orbit.
 

@@ -41,7 +41,7 @@ def return_map(system, k, plane=None, energy=None, guess=None, direction=1, solv
     not given (H at the first guess) and the step.
     """
     prm = system.param_values(params)
-    k = inputs.count(k, "period")
+    k = inputs.count(k, "returns")
     lo, hi = inputs.box(system, box)
     kind = system.kind
     if kind == "map":

@@ -1,7 +1,7 @@
 """Reading and checking study files: TOML text -> a :class:`Study` of plain, checked values.
 
 A study file describes one surface-of-section computation and the files to write from it.
-Its tables are ``[study]``, ``[system]``, ``[parameters]``, ``[section]``, ``[seeds]`` and
+Its tables are ``[study]``, ``[system]``, ``[parameters]``, ``[section]``, ``[states]`` and
 ``[output]`` (see ``phaselab/studies/README.md`` for the full key list and examples). Reading
 a file never executes anything from it: expressions are strings for the safe parser, a
 catalogue model is looked up by name in a fixed table, every value is type- and
@@ -20,12 +20,13 @@ from pathlib import Path
 
 from phaselab.errors import PhaselabError, StudyFileError
 from phaselab.studies.fields import Fields
+from phaselab.studies.overrides import apply_overrides
 from phaselab.studies.paths import check_relative, confined_path
 from phaselab.studies.spec import (DATA_SUFFIXES, FIGURE_SUFFIXES, MAX_CROSSINGS, MAX_ORBITS,
                                    MAX_OUTPUTS, MAX_PIXELS, MAX_POINTS, OutputSpec, SectionSpec,
                                    SeedSpec, Study)
 from phaselab.studies.system_table import read_system
-from phaselab.studies.tables import read_output, read_seeds, read_section, read_structure
+from phaselab.studies.tables import read_output, read_section, read_states, read_structure
 from phaselab.studies.trial import try_study
 
 if sys.version_info >= (3, 11):
@@ -40,11 +41,12 @@ __all__ = ["read_study", "parse_study", "Study", "SectionSpec", "SeedSpec", "Out
 #: largest study file read, in bytes
 MAX_FILE_BYTES = 256 * 1024
 
-_TOP_KEYS = ("study", "system", "parameters", "section", "seeds", "structure", "output")
+_TOP_KEYS = ("study", "system", "parameters", "section", "states", "structure", "output")
 
 
-def read_study(path) -> Study:
-    """Read and check the study file at ``path``.
+def read_study(path, overrides=None) -> Study:
+    """Read and check the study file at ``path``, with ``overrides`` (``"key=value"``
+    strings, see :mod:`phaselab.studies.overrides`) applied before the checks.
 
     Raises
     ------
@@ -71,11 +73,12 @@ def read_study(path) -> Study:
         text = raw.decode("utf-8")
     except UnicodeDecodeError:
         raise StudyFileError(f"{source}: the file is not UTF-8 text") from None
-    return parse_study(text, source=source)
+    return parse_study(text, source=source, overrides=overrides)
 
 
-def parse_study(text: str, source: str = "<text>") -> Study:
-    """Check study-file ``text`` (TOML) and build the :class:`Study` it describes."""
+def parse_study(text: str, source: str = "<text>", overrides=None) -> Study:
+    """Check study-file ``text`` (TOML), with ``overrides`` applied, and build the
+    :class:`Study` it describes."""
     f = Fields(source)
     if not isinstance(text, str):
         raise f.error("", f"study text must be a string, got {type(text).__name__}")
@@ -87,6 +90,7 @@ def parse_study(text: str, source: str = "<text>") -> Study:
         raise f.error("", f"not valid TOML: {exc}") from None
     except RecursionError:
         raise f.error("", "nested too deeply to read") from None
+    apply_overrides(f, data, overrides)
     f.check_nesting(data)
     f.only_keys(data, "", _TOP_KEYS)
 
@@ -111,16 +115,16 @@ def _build(f: Fields, data: dict) -> Study:
 
     system, form, params = read_system(f, data)
     section = read_section(f, data, system, params)
-    seeds = read_seeds(f, data, system, section)
-    total = seeds.count * section.crossings
+    states = read_states(f, data, system, section)
+    total = states.count * section.crossings
     if total > MAX_POINTS:
-        raise f.error("section.crossings", f"{seeds.count} orbits x {section.crossings} crossings "
+        raise f.error("section.crossings", f"{states.count} orbits x {section.crossings} crossings "
                                            f"= {total} points; the limit is {MAX_POINTS}")
     structure = read_structure(f, data, system, section)
     folder, outputs = read_output(f, data)
     if structure is None and any(spec.kind == "orbits" for spec in outputs):
         raise f.error("output.orbits", "writes the periodic orbits of a [structure] table, and the file has none")
-    study = Study(f.source, title, about, note, system, form, params, section, seeds, folder, outputs,
+    study = Study(f.source, title, about, note, system, form, params, section, states, folder, outputs,
                   structure)
     try_study(study)   # what render would fail on, found now
     return study

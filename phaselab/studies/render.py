@@ -116,8 +116,8 @@ def section_options(study: Study) -> dict:
     if spec.kind != "map":
         opts["method"] = spec.method
         opts["dt"] = spec.dt
-    if spec.show is not None:
-        opts["axes"] = spec.show
+    if spec.axes is not None:
+        opts["axes"] = spec.axes
     if spec.box is not None:
         opts["box"] = spec.box
     return opts
@@ -150,7 +150,7 @@ def compute_section(study: Study, progress=None):
         states = seeds.valid_states()
         if states.shape[0] == 0:
             first = left_out[0][1] if left_out else "no seeds"
-            raise StudyFileError(f"{study.source}: seeds: none of the {seeds.n_points} seeds has a state on "
+            raise StudyFileError(f"{study.source}: states: none of the {seeds.n_points} starting points has a state on "
                                  f"the energy shell E = {seeds.energy:g} (first: {first})")
     else:
         states = seeds
@@ -210,7 +210,7 @@ def compute_structure(study: Study, sec):
     from phaselab.structures.periodic import find_periodic_orbits
 
     spec = study.structure
-    opts = {"params": study.params, "region": spec.region, "resolution": spec.resolution}
+    opts = {"params": study.params, "ranges": spec.ranges, "resolution": spec.resolution}
     kind = study.section.kind
     if kind == "plane":
         opts.update(plane=plane_of(study), energy=sec.energy, direction=study.section.direction,
@@ -218,7 +218,7 @@ def compute_structure(study: Study, sec):
     elif kind == "stroboscopic":
         opts.update(dt=sec.dt, method=sec.method)
     try:
-        found = find_periodic_orbits(study.system, spec.period, **opts)
+        found = find_periodic_orbits(study.system, spec.returns, **opts)
         branches = []
         if spec.manifolds:
             for orbit in found:

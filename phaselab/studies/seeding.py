@@ -19,13 +19,13 @@ def seed_states(study: Study):
         A :class:`~phaselab.orbits.seeds.ShellSeeds` when the study solves a momentum from
         the energy, else full states.
     """
-    spec, seeds = study.section, study.seeds
+    spec, seeds = study.section, study.states
     system = study.system
     names = [s.name for s in system.state_symbols]
     columns = {name: seeds.values[:, i] for i, name in enumerate(seeds.columns)}
     if seeds.solve_for is not None:
-        return shell_seeds(system, spec.energy, {spec.coordinate: spec.value}, seeds.solve_for,
-                           columns, params=study.params, sign=spec.direction)
+        return shell_seeds(system, columns, energy=spec.energy, plane={spec.coordinate: spec.value},
+                           solve_for=seeds.solve_for, params=study.params, sign=spec.direction)
     states = np.empty((seeds.count, len(names)))
     for j, name in enumerate(names):
         if name in columns:
@@ -33,5 +33,5 @@ def seed_states(study: Study):
         elif name == spec.coordinate:
             states[:, j] = spec.value
         else:  # pragma: no cover - the reader refuses seeds that leave a component out
-            raise StudyFileError(f"{study.source}: seeds: no value for {name}")
+            raise StudyFileError(f"{study.source}: states: no value for {name}")
     return states

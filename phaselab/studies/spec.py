@@ -1,6 +1,6 @@
 """What a checked study file describes: its limits and the plain records the reader builds.
 
-:class:`Study` holds the system, the section, the seeds and the outputs of one study file, as
+:class:`Study` holds the system, the section, the starting states and the outputs of one study file, as
 checked Python values; the table readers (:mod:`phaselab.studies.tables`) fill it and the
 renderer (:mod:`phaselab.studies.render`) consumes it.
 """
@@ -39,20 +39,20 @@ class SectionSpec:
         ``"plane"`` (a coordinate equal to a value), ``"stroboscopic"`` (once per driving
         period of a time-periodic H) or ``"map"`` (every iterate of a map).
     coordinate : str or None
-        The coordinate of the plane.
+        The state component the plane fixes (a coordinate or a momentum).
     value : float or None
         Its value on the plane.
     direction : int
         +1 for crossings with the coordinate increasing, -1 for decreasing.
     energy : float or None
-        The energy shell the seeds are put on (with ``seeds.solve_for``).
+        The energy shell the starting states are put on (with ``states.solve_for``).
     crossings : int
         Crossings (or iterates) recorded per orbit.
     method : str
         Integrator name, or ``"auto"``.
     dt : float or None
         Step size (model time units); None lets the library choose.
-    show : tuple of str or None
+    axes : tuple of str or None
         The two state components to plot (None: the library's default for the plane).
     box : float or None
         Escape radius: an orbit with any |component| above it is stopped and flagged.
@@ -66,7 +66,7 @@ class SectionSpec:
     crossings: int
     method: str
     dt: float | None
-    show: tuple | None = None
+    axes: tuple | None = None
     box: float | None = None
 
 
@@ -83,7 +83,7 @@ class SeedSpec:
     values : ndarray, shape (n_orbits, len(columns))
         Their values, one row per orbit.
     solve_for : str or None
-        The momentum solved from H = energy (None: the seeds are full states).
+        The component solved from H = energy (None: the states are given whole).
     """
 
     form: str
@@ -103,9 +103,9 @@ class StructureSpec:
 
     Attributes
     ----------
-    period : int
-        Returns per period (iterates, drive periods or crossings of the plane).
-    region : dict of str to (float, float)
+    returns : int
+        Returns per period of the orbit (iterates, drive periods or crossings of the plane).
+    ranges : dict of str to (float, float)
         Two state components and the ranges a grid of starts covers.
     resolution : int
         Starts per axis of that grid.
@@ -115,8 +115,8 @@ class StructureSpec:
         Arclength of each branch from each orbit point (reduced coordinates).
     """
 
-    period: int
-    region: dict
+    returns: int
+    ranges: dict
     resolution: int = 8
     manifolds: bool = False
     manifold_length: float = 2.0
@@ -164,7 +164,8 @@ class Study:
         The parameter values used (defaults of the file's own parameters, or the overrides
         given for a catalogue model).
     section : SectionSpec
-    seeds : SeedSpec
+    states : SeedSpec
+        The starting states (``[states]``).
     folder : str
         Sub-folder of the output folder the files go in ("" for the output folder itself).
     outputs : list of OutputSpec
@@ -180,7 +181,7 @@ class Study:
     system_form: str
     params: dict
     section: SectionSpec
-    seeds: SeedSpec
+    states: SeedSpec
     folder: str
     outputs: list
     structure: StructureSpec | None = None

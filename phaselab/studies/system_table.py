@@ -1,6 +1,7 @@
 """The reader of a study file's ``[system]`` table with its ``[parameters]``: the model (a
 Hamiltonian, a Lagrangian, a map's rules or a catalogue model), its parameters and their
-overrides, the driving period and the angles' modulus. Every problem is a
+overrides, the driving period, the angles (a map's modulus), the units, and the check that
+every declared parameter is used. Every problem is a
 :class:`~phaselab.errors.StudyFileError` naming the file, the dotted key and what is wrong.
 """
 
@@ -13,7 +14,7 @@ from phaselab.studies.fields import Fields
 
 _SYSTEM_FORMS = ("hamiltonian", "lagrangian", "map", "model")
 _SYSTEM_KEYS = _SYSTEM_FORMS + ("coordinates", "momenta", "velocities", "time", "period",
-                                "modulus", "name", "options")
+                                "modulus", "angles", "units", "name", "options")
 
 
 # ====================================================================== [system], [parameters]
@@ -30,9 +31,9 @@ def read_system(f: Fields, data: dict):
                                 f"system.map or system.model (got {got})")
     form = forms[0]
     allowed_extra = {
-        "hamiltonian": {"coordinates", "momenta", "time", "period", "name"},
-        "lagrangian": {"coordinates", "velocities", "momenta", "time", "period", "name"},
-        "map": {"coordinates", "momenta", "modulus", "name"},
+        "hamiltonian": {"coordinates", "momenta", "time", "period", "angles", "units", "name"},
+        "lagrangian": {"coordinates", "velocities", "momenta", "time", "period", "angles", "units", "name"},
+        "map": {"coordinates", "momenta", "modulus", "angles", "units", "name"},
         "model": {"options"},
     }[form]
     extra = [k for k in sysd if k != form and k not in allowed_extra]
@@ -55,26 +56,92 @@ def read_system(f: Fields, data: dict):
         if form == "hamiltonian":
             expr = f.string(sysd, "system", "hamiltonian", required=True)
             momenta = f.names(sysd, "system", "momenta", required=True)
+            angles, units = _angles_and_units(f, sysd, form, coords, momenta, time, declared)
             system = _guard("system.hamiltonian", f, lambda: Hamiltonian(
                 expr, coords, momenta, params=declared, time=time,
-                period=_period(f, sysd, declared), name=name))
+                period=_period(f, sysd, declared), name=name, angles=angles, units=units))
         elif form == "lagrangian":
             expr = f.string(sysd, "system", "lagrangian", required=True)
             velocities = f.names(sysd, "system", "velocities", required=True)
             momenta = f.names(sysd, "system", "momenta")
+            angles, units = _angles_and_units(f, sysd, form, coords, momenta or [f"p_{c}" for c in coords],
+                                              time, declared)
             system = _guard("system.lagrangian", f, lambda: Hamiltonian.from_lagrangian(
                 expr, coords, velocities, params=declared, time=time,
-                period=_period(f, sysd, declared), name=name, momenta=momenta))
+                period=_period(f, sysd, declared), name=name, momenta=momenta, angles=angles, units=units))
         else:
             momenta = f.names(sysd, "system", "momenta", required=True)
             rules = _map_rules(f, sysd["map"])
             modulus = _modulus(f, sysd, coords + momenta)
+            angles, units = _angles_and_units(f, sysd, form, coords, momenta, None, declared)
             system = _guard("system.map", f, lambda: AreaPreservingMap(
-                rules, coords, momenta, params=declared, modulus=modulus, name=name))
+                rules, coords, momenta, params=declared, modulus=modulus, name=name, angles=angles,
+                units=units))
     except RecursionError:  # pragma: no cover - _guard catches it first
         raise f.error(f"system.{form}", "expression too deeply nested") from None
+    _refuse_unused(f, system, form, declared)
     params = {p.name: p.default for p in system.parameters}
     return system, form, params
+
+
+def _angles_and_units(f: Fields, sysd: dict, form: str, coords, momenta, time, declared):
+    """``system.angles`` and ``system.units``, checked here by the model's own readers (so a
+    problem is reported at its key) and handed to the constructor as the API takes them:
+    ``angles = { theta = "2*pi" }`` (a period, or ``[low, high]``) or a list of names (period
+    2 pi each); ``units = { x = "m", px = "kg m/s", t = "s", mu = "1" }``."""
+    from phaselab.model.angles import declared_angles, interval
+    from phaselab.model.units import declared_units
+
+    angles = sysd.get("angles")
+    if angles is not None:
+        if not isinstance(angles, (dict, list, str)):
+            raise f.error("system.angles", "must be a table of coordinate = period (or [low, high]), or a "
+                                           "list of coordinate names")
+        state = list(coords) + list(momenta)
+        if form == "map":   # a map may wrap any component (its modulus by another name)
+            for key in (angles if isinstance(angles, dict) else []):
+                if key not in state:
+                    raise f.error(f"system.angles.{key}", "not a coordinate or momentum; the state is "
+                                                          + ", ".join(state))
+        try:
+            if form == "map":
+                for key, entry in (angles.items() if isinstance(angles, dict) else []):
+                    interval(entry, key)
+            else:
+                declared_angles(angles, state, list(coords))
+        except PhaselabError as exc:
+            raise f.error("system.angles", str(exc)) from None
+    units = sysd.get("units")
+    if units is not None:
+        if not isinstance(units, dict):
+            raise f.error("system.units", "must be a table of name = \"unit\", e.g. { x = \"m\", t = \"s\" }")
+        allowed = {name: "state" for name in list(coords) + list(momenta)}
+        allowed[time or "t"] = "time"
+        allowed.update({name: "parameter" for name in declared})
+        try:
+            declared_units(units, allowed)
+        except PhaselabError as exc:
+            raise f.error("system.units", str(exc)) from None
+    return angles, units
+
+
+def _refuse_unused(f: Fields, system, form: str, declared: dict) -> None:
+    """A parameter declared in ``[parameters]`` that the system never uses is a mistake in the
+    file (a misspelt name, a leftover): refused, naming it."""
+    if form == "model" or not declared:
+        return
+    if system.kind == "map":
+        used = set().union(*(e.free_symbols for e in system.update))
+        where = "system.map"
+    else:
+        used = set(system.expr.free_symbols)
+        if getattr(system, "period", None) is not None and hasattr(system.period, "free_symbols"):
+            used |= system.period.free_symbols
+        where = f"system.{form}" + (" or system.period" if system.period is not None else "")
+    names = {s.name for s in used}
+    for key in declared:
+        if key not in names:
+            raise f.error(f"parameters.{key}", f"declared but not used by {where}; remove it, or use it")
 
 
 def _guard(key: str, f: Fields, build):

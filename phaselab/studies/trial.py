@@ -64,7 +64,7 @@ def _seed_states(f: Fields, study: Study) -> np.ndarray:
         states = seeds.valid_states()
         if states.shape[0] == 0:
             first = seeds.invalid()[0][1] if seeds.invalid() else "no seeds"
-            raise f.error("seeds", f"none of the {seeds.n_points} seeds has a state on the energy shell "
+            raise f.error("states", f"none of the {seeds.n_points} starting points has a state on the energy shell "
                                    f"E = {seeds.energy:g} (first: {first})")
     else:
         states = np.asarray(seeds, dtype=float)
@@ -88,8 +88,8 @@ def _check_structure(f: Fields, study: Study) -> None:
     if spec is None:
         return
     plane = {study.section.coordinate: study.section.value} if study.section.kind == "plane" else None
-    guarded(f, "structure.period", lambda: limits.shooting_budget(
-        study.system, plane, spec.resolution ** 2, spec.period, STRUCTURE_MAXIT, "the structure search"))
+    guarded(f, "structure.returns", lambda: limits.shooting_budget(
+        study.system, plane, spec.resolution ** 2, spec.returns, STRUCTURE_MAXIT, "the structure search"))
 
 
 __all__ = ["try_study", "guarded", "STRUCTURE_MAXIT"]

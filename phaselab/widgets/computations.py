@@ -134,7 +134,7 @@ def orbit_frequencies(view, seeds, params, n, section=None):
 
     system = view.system
     n = max(int(n), 32)
-    kw = {"params": dict(params), "n": n}
+    kw = {"params": dict(params), "samples": n}
     if view.kind == "section":
         kw.update(plane=view.plane, direction=view.sign, dt=view.dt, method=view.method)
     elif view.kind == "strobe":
@@ -263,7 +263,7 @@ def periodic(view, guess_point, period, energy, params, manifolds=False) -> Peri
     if not seeding.valid[0]:
         raise ParameterError(f"no state at the clicked point: {seeding.reasons[0]}")
     guess = seeding.states[0]
-    kw = {"period": int(period), "params": dict(params)}
+    kw = {"returns": int(period), "params": dict(params)}
     if view.kind == "section":
         kw.update(plane=view.plane, energy=energy, direction=view.sign, solve_for=view.solve_for)
     elif view.kind == "portrait":

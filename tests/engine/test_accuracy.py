@@ -33,7 +33,7 @@ def test_asked_accuracy_bounds_the_frequency_error(pendulum13, accuracy):
     honest: the true error is not above it by more than a factor 2."""
     f_exact = _pendulum_frequency()
     t = 400.0 / f_exact
-    res = phaselab.frequencies(pendulum13, [THETA0, 0.0], t=t, n=8192, accuracy=accuracy)
+    res = phaselab.frequencies(pendulum13, [THETA0, 0.0], t=t, samples=8192, accuracy=accuracy)
     err = abs(res.nu[0, 0] / f_exact - 1.0)
     assert err < accuracy
     assert 0 < res.error_estimate <= accuracy
@@ -71,7 +71,7 @@ def test_accuracy_arguments_are_checked(pendulum13, standard_map):
     with pytest.raises(ParameterError, match="dop853"):
         phaselab.trajectory(pendulum13, [THETA0, 0.0], 1.0, method="dop853", accuracy=1e-6)
     with pytest.raises(ParameterError, match="map"):
-        phaselab.frequencies(standard_map, [[0.1, 0.2]], n=64, accuracy=1e-6)
+        phaselab.frequencies(standard_map, [[0.1, 0.2]], samples=64, accuracy=1e-6)
 
 
 def test_aliased_record_warns_and_the_advised_n_resolves_it():
@@ -83,15 +83,15 @@ def test_aliased_record_warns_and_the_advised_n_resolves_it():
     H = phaselab.Hamiltonian("p**2/2 + w**2*q**2/2", ["q"], ["p"], params={"w": 2 * np.pi * f0})
     t = 255 * 2.9
     with pytest.warns(RuntimeWarning, match="aliased") as rec:
-        folded = phaselab.frequencies(H, [1.0, 0.0], t=t, n=256)
+        folded = phaselab.frequencies(H, [1.0, 0.0], t=t, samples=256)
     assert folded.nu[0, 0] == pytest.approx(f0 - 1 / 2.9, abs=1e-6)
     text = str(rec[0].message)
     n_advised = int(text.split("use n >= ")[1].split()[0])
     assert 2 * f0 * t + 1 < n_advised <= 1.5 * 2 * f0 * t + 2   # Nyquist: n - 1 >= 2 f0 t
     with warnings.catch_warnings():
         warnings.simplefilter("error")
-        good = phaselab.frequencies(H, [1.0, 0.0], t=t, n=n_advised)
-        fine = phaselab.frequencies(H, [1.0, 0.0], t=255.0, n=256)
+        good = phaselab.frequencies(H, [1.0, 0.0], t=t, samples=n_advised)
+        fine = phaselab.frequencies(H, [1.0, 0.0], t=255.0, samples=256)
     assert good.nu[0, 0] == pytest.approx(f0, rel=1e-6)
     assert fine.nu[0, 0] == pytest.approx(f0, rel=1e-6)
 
@@ -104,10 +104,11 @@ def test_rotating_angle_sampled_too_sparsely_warns(pendulum13):
     no warning comes, and the rate lies between those bounds over 2 pi."""
     seed = [0.0, 10.0]
     with pytest.warns(RuntimeWarning, match="aliased"):
-        phaselab.frequencies(pendulum13, seed, t=0.5 * 511, n=512, angles={"q": 2 * np.pi})
+        phaselab.frequencies(pendulum13, seed, t=0.5 * 511, samples=512, angles={"q": 2 * np.pi})
     with warnings.catch_warnings():
         warnings.simplefilter("error")
-        fine = phaselab.frequencies(pendulum13, seed, t=0.1 * 511, n=512, angles={"q": 2 * np.pi})
+        fine = phaselab.frequencies(pendulum13, seed, t=0.1 * 511, samples=512,
+                                    angles={"q": 2 * np.pi})
     p_min = np.sqrt(100.0 - 4 * W0**2)      # p at q = pi from H(0, 10) = H(pi, p)
     assert p_min / (2 * np.pi) < fine.nu[0, 0] < 10.0 / (2 * np.pi)
 

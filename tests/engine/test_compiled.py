@@ -69,8 +69,9 @@ CHILD = textwrap.dedent("""
     import phaselab
     H = phaselab.Hamiltonian("(px**2 + py**2)/2 + (x**2 + 1.3*y**2)/2 + 0.4*x**2*y", ["x", "y"],
                              ["px", "py"])
-    seeds = phaselab.shell_seeds(H, 0.1, {"x": 0.0}, "px", {"y": np.linspace(-0.2, 0.2, 5), "py": 0.0})
-    sec = phaselab.section(H, seeds, {"x": 0.0}, crossings=40, dt=0.05)
+    seeds = phaselab.shell_seeds(H, {"y": np.linspace(-0.2, 0.2, 5), "py": 0.0}, energy=0.1,
+                                 plane={"x": 0.0}, solve_for="px")
+    sec = phaselab.section(H, seeds, 40, plane={"x": 0.0}, dt=0.05)
     ind = phaselab.chaos_indicators(H, seeds.valid_states(), 50.0, dt=0.05)
     print(json.dumps({"points": sec.points.tolist(), "megno": ind.megno.tolist()}))
 """)

@@ -61,9 +61,10 @@ def test_single_component_and_stroboscopic_only_where_meant():
 @pytest.mark.parametrize("call", [
     lambda p: phaselab.section(H2, [[0.0, 0.1, 0.2, 0.0]], plane=p, crossings=2, dt=0.05),
     lambda p: phaselab.periodic_orbit(H2, [0.0, 0.1, 0.2, 0.0], plane=p, energy=0.1),
-    lambda p: phaselab.frequencies(H2, [[0.0, 0.1, 0.2, 0.0]], n=64, plane=p),
+    lambda p: phaselab.frequencies(H2, [[0.0, 0.1, 0.2, 0.0]], samples=64, plane=p),
     lambda p: phaselab.level_set(H2, {"y": (-1, 1), "py": (-1, 1)}, 0.1, plane=p, resolution=8),
-    lambda p: phaselab.shell_seeds(H2, 0.1, p, "px", {"y": [0.1], "py": [0.0]}),
+    lambda p: phaselab.shell_seeds(H2, {"y": [0.1], "py": [0.0]}, energy=0.1, plane=p,
+                                   solve_for="px"),
 ])
 def test_every_caller_refuses_a_bad_plane_with_the_same_words(call):
     # one parser: the same message wherever a plane is taken, before any integration

@@ -58,9 +58,9 @@ def test_no_equilibria_on_the_collision_line(bodies):
 
 def test_section_stops_a_singular_orbit(bodies):
     seeds = np.array([[0.0, 0.0, 0.0, 0.0], [0.0, 2.0, 0.0, 0.0], [0.0, 3.0, 0.0, 0.0]])
-    sec = section(bodies, seeds, {"x1": 1.0}, crossings=2, t_max=20.0, dt=0.001)
+    sec = section(bodies, seeds, plane={"x1": 1.0}, crossings=2, t_max=20.0, dt=0.001)
     assert sec.status[0] == codes.SINGULAR
-    alone = section(bodies, seeds[1:], {"x1": 1.0}, crossings=2, t_max=20.0, dt=0.001)
+    alone = section(bodies, seeds[1:], plane={"x1": 1.0}, crossings=2, t_max=20.0, dt=0.001)
     assert _same(sec.status[1:], alone.status) and _same(sec.points[1:], alone.points)
 
 

@@ -117,8 +117,8 @@ def test_pendulum_libration_frequency(oscillator):
     analysis error far below the integrator's)."""
     theta0 = np.array([0.3, 1.5, 2.8])
     seeds = np.column_stack([theta0, np.zeros(3)])
-    res = frequencies(oscillator, seeds, t=1000.0, n=4096, dt=0.05, method="yoshida8", window=2,
-                      params={"s": 1.0})
+    res = frequencies(oscillator, seeds, t=1000.0, samples=4096, dt=0.05, method="yoshida8",
+                      window=2, params={"s": 1.0})
     expected = 1.0 / (4.0 * ellipk(np.sin(theta0 / 2) ** 2))
     np.testing.assert_allclose(res.nu[:, 0], expected, rtol=1e-10)
     assert res.unit == "cycles per unit time" and res.names == ("x",)
@@ -135,10 +135,10 @@ def test_rotating_pendulum_turns_at_the_elliptic_rate(oscillator):
     p0 = np.array([2.5, 4.0])
     seeds = np.column_stack([np.zeros(2), p0])
     expected = p0 / (4.0 * ellipk(4.0 / p0**2))
-    freq = frequencies(oscillator, seeds, t=300.0, n=4096, dt=0.02, method="yoshida8", window=2,
-                       angles={"x": 2 * np.pi}, params={"s": 1.0})
+    freq = frequencies(oscillator, seeds, t=300.0, samples=4096, dt=0.02, method="yoshida8",
+                       window=2, angles={"x": 2 * np.pi}, params={"s": 1.0})
     np.testing.assert_allclose(freq.nu[:, 0], expected, rtol=1e-10)
-    rot = rotation_number(oscillator, seeds, t=300.0, n=4096, dt=0.02, method="yoshida8",
+    rot = rotation_number(oscillator, seeds, t=300.0, samples=4096, dt=0.02, method="yoshida8",
                           params={"s": 1.0})
     assert rot.unit == "turns per unit time"
     np.testing.assert_allclose(rot.nu[:, 0], expected, rtol=1e-10)
@@ -154,7 +154,7 @@ def test_weakly_anharmonic_oscillator_frequency_shift(oscillator):
     w0, a, b = 1.3, 0.5, 1.0
     coefficient = 3 * b / (8 * w0) - 5 * a**2 / (12 * w0**3)
     x0 = np.array([0.01, 0.02, 0.04])
-    res = frequencies(oscillator, np.column_stack([x0, 0 * x0]), t=600.0, n=4096, dt=0.02,
+    res = frequencies(oscillator, np.column_stack([x0, 0 * x0]), t=600.0, samples=4096, dt=0.02,
                       method="yoshida8", window=2, params={"s": 0.0, "w0": w0, "a": a, "b": b})
     A = res.lines.amplitude[:, 0, 0]
     shift = 2 * np.pi * res.nu[:, 0] - w0
@@ -170,10 +170,11 @@ def test_section_tune_of_an_isochronous_pair(pair):
     of freedom is fixed by the plane and not reported."""
     H = pair
     seeds = np.array([[0.0, 0.1, 0.5, 0.0], [0.0, -0.3, 0.2, 0.1]])
-    res = frequencies(H, seeds, plane={"x": 0.0}, n=256, dt=0.02, method="yoshida8")
+    res = frequencies(H, seeds, plane={"x": 0.0}, samples=256, dt=0.02, method="yoshida8")
     assert res.names == ("y",) and res.unit == "cycles per crossing"
     np.testing.assert_allclose(res.nu[:, 0], math.sqrt(2) - 1, atol=1e-11)
-    pos = frequencies(H, seeds, plane={"x": 0.0}, n=256, dt=0.02, method="yoshida8", fold="positive")
+    pos = frequencies(H, seeds, plane={"x": 0.0}, samples=256, dt=0.02, method="yoshida8",
+                      fold="positive")
     np.testing.assert_allclose(pos.nu[:, 0], math.sqrt(2) - 1, atol=1e-11)
 
 
@@ -186,7 +187,7 @@ def test_rotational_transform_of_a_field_line_flow():
                              params={"i0": 0.31, "i1": 0.4, "eps": 0.05}, time="phi",
                              period="2*pi", name="model field")
     psi = np.linspace(0.1, 0.9, 5)
-    res = rotation_number(F, np.column_stack([np.zeros(5), psi]), n=64, dt=2 * np.pi / 64)
+    res = rotation_number(F, np.column_stack([np.zeros(5), psi]), samples=64, dt=2 * np.pi / 64)
     assert res.sampling == "stroboscopic" and res.unit == "turns per driving period"
     np.testing.assert_allclose(res.nu[:, 0], 0.31 + 0.4 * psi, rtol=0, atol=1e-12)
 
@@ -203,7 +204,7 @@ def test_octupole_kick_detuning(kicked_rotation):
     O(c^2 A^4), so the relative error of the shift must scale like A^2."""
     A = np.array([0.025, 0.05, 0.1])
     Q0, c = 0.1813, 1.0
-    res = frequencies(kicked_rotation, np.column_stack([A, 0 * A]), n=4096, window=2)
+    res = frequencies(kicked_rotation, np.column_stack([A, 0 * A]), samples=4096, window=2)
     assert res.unit == "cycles per iterate"
     shift = res.nu[:, 0] - Q0
     predicted = 3 * c * A**2 / (16 * np.pi)
@@ -211,7 +212,8 @@ def test_octupole_kick_detuning(kicked_rotation):
     assert np.all(np.abs(rel) < 0.5 * A**2)
     assert 3.0 < rel[1] / rel[0] < 5.0 and 3.0 < rel[2] / rel[1] < 5.0
     # the polar angle about the fixed point advances at the same mean rate
-    rot = rotation_number(kicked_rotation, np.column_stack([A, 0 * A]), n=4096, angle=("x", "p"))
+    rot = rotation_number(kicked_rotation, np.column_stack([A, 0 * A]), samples=4096,
+                          angle=("x", "p"))
     np.testing.assert_allclose(rot.nu[:, 0], res.nu[:, 0], atol=1e-10)
 
 
@@ -222,10 +224,10 @@ def test_circle_rotation_is_exact(rotor):
     w folded, to the same accuracy."""
     for w in (0.1, 0.7236067977, 2.3819660113):
         seeds = [[0.3, 2 * np.pi * w], [5.0, 2 * np.pi * w]]
-        rot = rotation_number(rotor, seeds, n=1000, params={"K": 0.0})
+        rot = rotation_number(rotor, seeds, samples=1000, params={"K": 0.0})
         assert np.all(np.abs(rot.nu[:, 0] - w) < 1e-14)
         assert np.all(rot.diffusion < -13)
-        freq = frequencies(rotor, seeds[:1], n=1000, params={"K": 0.0})
+        freq = frequencies(rotor, seeds[:1], samples=1000, params={"K": 0.0})
         assert abs(freq.nu[0, 0] - ((w + 0.5) % 1 - 0.5)) < 1e-14
 
 
@@ -236,13 +238,13 @@ def test_standard_map_rotation_numbers(rotor):
     invariant circle the frequency of exp(i q) equals the rotation number (mod 1)."""
     sm = rotor
     seeds = np.array([[np.pi + 1e-3, 0.0], [0.1, 1.0], [1.0, 2.5]])
-    rot = rotation_number(sm, seeds, n=2048, params={"K": 0.5})
-    tune = frequencies(sm, seeds, n=2048, params={"K": 0.5})
+    rot = rotation_number(sm, seeds, samples=2048, params={"K": 0.5})
+    tune = frequencies(sm, seeds, samples=2048, params={"K": 0.5})
     assert abs(rot.nu[0, 0]) < 1e-12
     line = phaselab.state_grid(sm, {"q": (0.1, 0.2, 2), "p": (0.5, 2.5, 4)})
-    profile = phaselab.frequency_map(sm, line, n=2048, params={"K": 0.5}, angle="q")
+    profile = phaselab.frequency_map(sm, line, samples=2048, params={"K": 0.5}, angle="q")
     assert profile.kind == "rotation" and profile.image("nu").shape == (4, 2)
-    direct = rotation_number(sm, line.states, n=2048, params={"K": 0.5})
+    direct = rotation_number(sm, line.states, samples=2048, params={"K": 0.5})
     np.testing.assert_array_equal(profile.nu, direct.nu)
     assert tune.nu[0, 0] == pytest.approx(np.arccos(1 - 0.25) / (2 * np.pi), abs=1e-6)
     np.testing.assert_allclose(tune.nu[1:, 0], (rot.nu[1:, 0] + 0.5) % 1 - 0.5, atol=1e-9)
@@ -253,21 +255,21 @@ def test_chaotic_orbits_diffuse(rotor):
     accuracy of the method; in a chaotic zone it does not. Standard map at K = 1.5: an
     island orbit near (pi, 0) against an orbit seeded in the chaotic sea near the
     hyperbolic point (0, 0) (Chirikov 1979)."""
-    res = frequencies(rotor, [[np.pi + 0.2, 0.0], [1e-3, 1e-3]], n=4096, params={"K": 1.5})
+    res = frequencies(rotor, [[np.pi + 0.2, 0.0], [1e-3, 1e-3]], samples=4096, params={"K": 1.5})
     assert res.diffusion[0] < -9
     assert res.diffusion[1] > -5
 
 
 # ----------------------------------------------------------------------------- statuses
 def test_stopped_orbits_and_still_degrees_of_freedom(kicked_rotation):
-    res = frequencies(kicked_rotation, [[0.05, 0.0], [3.0, 0.0]], n=256, box=1.0)
+    res = frequencies(kicked_rotation, [[0.05, 0.0], [3.0, 0.0]], samples=256, box=1.0)
     assert res.status[0] == 0 and np.isfinite(res.nu[0, 0])
     assert res.status[1] == 1 and np.isnan(res.nu[1, 0]) and not res.valid[1]
     assert STATUS_TEXT[int(res.status[1])] == "left the box"
-    still = frequencies(kicked_rotation, [[0.0, 0.0]], n=64)
+    still = frequencies(kicked_rotation, [[0.0, 0.0]], samples=64)
     assert still.status[0] == 10 and np.isnan(still.nu[0, 0])
     # a non-finite seed does not stop the batch: that orbit is flagged (as everywhere)
-    mixed = frequencies(kicked_rotation, [[np.nan, 0.0], [0.05, 0.0]], n=64)
+    mixed = frequencies(kicked_rotation, [[np.nan, 0.0], [0.05, 0.0]], samples=64)
     assert mixed.status[0] == 2 and np.isnan(mixed.nu[0, 0]) and mixed.status[1] == 0
 
 
@@ -275,11 +277,11 @@ def test_stopped_orbits_and_still_degrees_of_freedom(kicked_rotation):
 def test_frequency_map_over_a_grid(tmp_path, kicked_rotation):
     xr = pytest.importorskip("xarray")
     grid = phaselab.state_grid(kicked_rotation, {"x": (0.02, 0.3, 5), "p": (-0.1, 0.1, 3)})
-    one = phaselab.frequency_map(kicked_rotation, grid, n=512)
-    many = phaselab.frequency_map(kicked_rotation, grid, n=512, batch_size=4)
+    one = phaselab.frequency_map(kicked_rotation, grid, samples=512)
+    many = phaselab.frequency_map(kicked_rotation, grid, samples=512, batch_size=4)
     np.testing.assert_array_equal(one.nu, many.nu)
     np.testing.assert_array_equal(one.diffusion, many.diffusion)
-    direct = frequencies(kicked_rotation, grid.states, n=512)
+    direct = frequencies(kicked_rotation, grid.states, samples=512)
     np.testing.assert_array_equal(one.nu, direct.nu)
     assert one.image("nu").shape == (3, 5)
     ds = one.to_xarray()
@@ -301,8 +303,10 @@ def test_frequency_map_on_a_shell_grid_skips_forbidden_points(pair):
     """Points outside the energy shell are not run (status -1) and stay NaN; the seed
     y = py = 0 leaves y at rest (status 10, nu_y NaN). The others have the tune
     sqrt(2) - 1 per crossing (derived in test_section_tune_of_an_isochronous_pair)."""
-    grid = phaselab.shell_grid(pair, 0.1, {"x": 0.0}, "px", {"y": (-0.4, 0.4, 5), "py": (-0.3, 0.3, 3)})
-    fm = phaselab.frequency_map(pair, grid, plane={"x": 0.0}, n=128, dt=0.02, method="yoshida8")
+    grid = phaselab.shell_grid(pair, {"y": (-0.4, 0.4, 5), "py": (-0.3, 0.3, 3)}, energy=0.1,
+                               plane={"x": 0.0}, solve_for="px")
+    fm = phaselab.frequency_map(pair, grid, plane={"x": 0.0}, samples=128, dt=0.02,
+                                method="yoshida8")
     assert np.all(fm.status[~grid.valid] == -1) and np.all(np.isnan(fm.nu[~grid.valid]))
     rest = (grid.states[:, 1] == 0) & (grid.states[:, 3] == 0)
     assert np.all(fm.status[rest] == 10) and np.all(np.isnan(fm.nu[rest, 0]))
@@ -316,10 +320,11 @@ def test_frequency_map_on_a_shell_grid_skips_forbidden_points(pair):
 def test_frequency_map_on_dask_matches_local(kicked_rotation):
     distributed = pytest.importorskip("distributed")
     grid = phaselab.state_grid(kicked_rotation, {"x": (0.02, 0.3, 4), "p": (-0.1, 0.1, 3)})
-    local = phaselab.frequency_map(kicked_rotation, grid, n=256, batch_size=5)
+    local = phaselab.frequency_map(kicked_rotation, grid, samples=256, batch_size=5)
     with distributed.LocalCluster(n_workers=1, threads_per_worker=2, processes=False,
                                   dashboard_address=None) as cluster, distributed.Client(cluster) as client:
-        remote = phaselab.frequency_map(kicked_rotation, grid, n=256, batch_size=5, client=client)
+        remote = phaselab.frequency_map(kicked_rotation, grid, samples=256, batch_size=5,
+                                        client=client)
     np.testing.assert_array_equal(local.nu, remote.nu)
 
 
@@ -371,11 +376,12 @@ def test_diffusion_map_and_profile_figures(tmp_path, kicked_rotation):
     from phaselab.export.frequency_figures import diffusion_map_figure, frequency_profile_figure
 
     grid = phaselab.state_grid(kicked_rotation, {"x": (0.02, 0.3, 6), "p": (-0.1, 0.1, 4)})
-    fm = phaselab.frequency_map(kicked_rotation, grid, n=256)
+    fm = phaselab.frequency_map(kicked_rotation, grid, samples=256)
     fig = diffusion_map_figure(fm, title="kicked rotation")
     assert fig.axes[0].get_xlabel() == "$x$"
     fm.save(tmp_path / "diffusion.png")
-    res = frequencies(kicked_rotation, np.column_stack([np.linspace(0.01, 0.3, 12), np.zeros(12)]), n=256)
+    res = frequencies(kicked_rotation, np.column_stack([np.linspace(0.01, 0.3, 12), np.zeros(12)]),
+                      samples=256)
     fig = frequency_profile_figure(res, along="x", rationals=5, ylim=(0.17, 0.21))
     assert "1/5" in [t.get_text() for t in fig.axes[0].texts]
     res.save(tmp_path / "profile.pdf")
@@ -395,14 +401,14 @@ def test_bad_input(oscillator, kicked_rotation):
     H, M = oscillator, kicked_rotation
     cases = [
         (lambda: frequencies(H, [[0.1, 0.0]]), "t .*is needed"),
-        (lambda: frequencies(M, [[0.1, 0.0]], t=10.0), "give the number of iterates n"),
-        (lambda: frequencies(M, [[0.1, 0.0]], n=8), "n must be at least 32"),
-        (lambda: frequencies(M, [[0.1, 0.0]], n=100.5), "n must be an integer"),
+        (lambda: frequencies(M, [[0.1, 0.0]], t=10.0), "give the number of iterates"),
+        (lambda: frequencies(M, [[0.1, 0.0]], samples=8), "samples must be at least 32"),
+        (lambda: frequencies(M, [[0.1, 0.0]], samples=100.5), "samples must be an integer"),
         (lambda: frequencies(M, [[0.1, 0.0]], window=9), "window must be at most 8"),
         (lambda: frequencies(M, [[0.1, 0.0]], lines=0), "lines must be at least 1"),
         (lambda: frequencies(M, [[0.1, 0.0]], fold="up"), "fold must be"),
-        (lambda: frequencies(M, [[0.1, 0.0, 0.2]]), r"seeds must have shape \(2,\)"),
-        (lambda: frequencies(M, "seeds"), "seeds must be real numbers"),
+        (lambda: frequencies(M, [[0.1, 0.0, 0.2]]), r"states must have shape \(2,\)"),
+        (lambda: frequencies(M, "seeds"), "states must be real numbers"),
         (lambda: frequencies(M, [[0.1, 0.0]], plane={"x": 0.0}), "plane is not used for a map"),
         (lambda: frequencies(H, [[0.1, 0.0]], t=-1.0), "t must be positive"),
         (lambda: frequencies(H, [[0.1, 0.0]], t=10.0, dt=0.0), "dt must be positive"),
@@ -416,10 +422,10 @@ def test_bad_input(oscillator, kicked_rotation):
         (lambda: frequencies(M, [[0.1, 0.0]], box="wide"), "box must be a positive number"),
         (lambda: rotation_number(M, [[0.1, 0.0]], angle="z"), "unknown angle 'z'"),
         (lambda: rotation_number(M, [[0.1, 0.0]], angle=("x",)), "pair must name"),
-        (lambda: rotation_number(M, [[0.1, 0.0]], centre=(0, 0)), "centre is used only"),
-        (lambda: rotation_number(M, [[0.1, 0.0]], angle=("x", "p"), centre=(0, "a")), "centre"),
+        (lambda: rotation_number(M, [[0.1, 0.0]], center=(0, 0)), "center is used only"),
+        (lambda: rotation_number(M, [[0.1, 0.0]], angle=("x", "p"), center=(0, "a")), "center"),
         (lambda: phaselab.frequency_map(M, [[0.1, 0.0]], batch_size=0), "batch_size"),
-        (lambda: phaselab.frequency_map(M, [[0.1]]), r"seeds must have shape \(n_seeds, 2\)"),
+        (lambda: phaselab.frequency_map(M, [[0.1]]), r"states must have shape \(n_seeds, 2\)"),
     ]
     for call, message in cases:
         with pytest.raises(ParameterError, match=message):

@@ -34,8 +34,8 @@ def strobe(driven):
     seeds = np.array([[0.5, 0.0], [2.5, 1.5], [0.1, 2.5], [3.0, -2.0]])
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", RuntimeWarning)
-        wrapped = pl.section(driven, seeds, "stroboscopic", crossings=150)
-        lifted = pl.section(driven, seeds, "stroboscopic", crossings=150, lifted=True)
+        wrapped = pl.section(driven, seeds, plane="stroboscopic", crossings=150)
+        lifted = pl.section(driven, seeds, plane="stroboscopic", crossings=150, lifted=True)
     return wrapped, lifted
 
 
@@ -111,8 +111,8 @@ def test_stroboscopic_section_of_the_driven_pendulum_is_wrapped(strobe):
 
 def test_a_section_without_angles_is_bit_identical(hh):
     seeds = np.array([[0.0, 0.1, 0.35, 0.0], [0.0, -0.2, 0.3, 0.05]])
-    a = pl.section(hh, seeds, {"x": 0.0}, crossings=40)
-    b = pl.section(hh, seeds, {"x": 0.0}, crossings=40, lifted=True)
+    a = pl.section(hh, seeds, plane={"x": 0.0}, crossings=40)
+    b = pl.section(hh, seeds, plane={"x": 0.0}, crossings=40, lifted=True)
     assert a.points.tobytes() == b.points.tobytes()
     assert hh.wrap_angles(a.points).tobytes() == a.points.tobytes()
 
@@ -134,18 +134,18 @@ def test_trajectories_stay_lifted_and_are_drawn_wrapped(driven):
 def test_a_rotating_periodic_orbit_winds_by_its_angle_without_a_given_shift(driven):
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", RuntimeWarning)
-        orbit = pl.periodic_orbit(driven, [0.0, 2.0], period=1)
+        orbit = pl.periodic_orbit(driven, [0.0, 2.0], returns=1)
     assert orbit.shift[0] == pytest.approx(TWO_PI)
     assert -math.pi <= orbit.points[0, 0] < math.pi
     # its image one driving period later is the same point plus one turn (numpy reference)
-    lifted = pl.section(driven, orbit.points[:1], "stroboscopic", crossings=1, lifted=True).points[0, 0]
+    lifted = pl.section(driven, orbit.points[:1], plane="stroboscopic", crossings=1, lifted=True).points[0, 0]
     np.testing.assert_allclose(lifted - orbit.points[0], [TWO_PI, 0.0], atol=1e-8)
 
 
 def test_manifold_of_the_inverted_state_lies_in_the_angle_interval(driven):
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", RuntimeWarning)
-        orbit = pl.periodic_orbit(driven, [math.pi, 0.0], period=1)
+        orbit = pl.periodic_orbit(driven, [math.pi, 0.0], returns=1)
         man = pl.manifold(orbit, length=2.0)
     q = np.concatenate([b[:, 0] for b in man.branches])
     assert np.all((q >= -math.pi) & (q < math.pi))
@@ -156,13 +156,13 @@ def test_manifold_of_the_inverted_state_lies_in_the_angle_interval(driven):
 # ----------------------------------------------------------------------------- frequencies
 def test_frequency_analysis_reads_the_models_angles_on_lifted_samples(driven):
     seeds = np.array([[0.1, 2.5], [0.5, 0.0]])
-    own = pl.frequencies(driven, seeds, n=256, plane="stroboscopic")
-    given = pl.frequencies(driven, seeds, n=256, plane="stroboscopic", angles={"q": TWO_PI})
+    own = pl.frequencies(driven, seeds, samples=256, plane="stroboscopic")
+    given = pl.frequencies(driven, seeds, samples=256, plane="stroboscopic", angles={"q": TWO_PI})
     np.testing.assert_array_equal(own.nu, given.nu)
     # rotation numbers use the lift; numpy reference: the mean advance of the lifted angle
     # per driving period, in turns, over the same 255 periods
-    rho = pl.rotation_number(driven, seeds[:1], n=256)
-    s = pl.section(driven, seeds[:1], "stroboscopic", crossings=255, lifted=True)
+    rho = pl.rotation_number(driven, seeds[:1], samples=256)
+    s = pl.section(driven, seeds[:1], plane="stroboscopic", crossings=255, lifted=True)
     mean_turns = (s.points[0, -1, 0] - seeds[0, 0]) / (TWO_PI * 255)
     assert abs(mean_turns) > 0.9                       # it winds about once per period
     assert rho.nu[0, 0] == pytest.approx(mean_turns, abs=2e-3)
@@ -202,7 +202,7 @@ def test_units_reach_figure_labels_and_section_files(tmp_path):
     h = pl.Hamiltonian("(px**2 + py**2)/2 + (x**2 + y**2)/2 + x**2*y - y**3/3", ["x", "y"], ["px", "py"],
                        units={"x": "m", "y": "m", "px": "kg m/s", "py": "kg m/s", "t": "s"})
     seeds = np.array([[0.0, 0.1, 0.35, 0.0]])
-    sec = pl.section(h, seeds, {"x": 0.0}, crossings=20)
+    sec = pl.section(h, seeds, plane={"x": 0.0}, crossings=20)
     from phaselab.export.figures import section_figure
 
     fig = section_figure(sec)
@@ -230,7 +230,7 @@ def test_angles_reach_files_and_figure_axes(driven, strobe, tmp_path):
     assert section_figure(wrapped).axes[0].get_xlim() == pytest.approx((-math.pi, math.pi))
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", RuntimeWarning)
-        orbit = pl.periodic_orbit(driven, [0.0, 0.0], period=1)
+        orbit = pl.periodic_orbit(driven, [0.0, 0.0], returns=1)
     attrs = orbit.to_xarray().attrs
     assert json.loads(attrs["angles"]) == {"q": [-math.pi, math.pi]}
 
@@ -260,7 +260,7 @@ def test_a_family_figure_labels_its_parameter_with_its_unit():
                        units={"g": "m/s^2", "t": "s"}, angles=["q"])
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", RuntimeWarning)
-        orbit = pl.periodic_orbit(d, [0.0, 0.0], period=1)
+        orbit = pl.periodic_orbit(d, [0.0, 0.0], returns=1)
         fam = pl.continue_family(orbit, "g", (9.81, 9.0), steps=4)
     assert fam.plot().axes[0].get_xlabel() == "g [m s^-2]"
     q = fam.states[:, 0]

@@ -65,7 +65,7 @@ def test_map_step_with_a_shadowing_parameter():
 
 def test_shell_seeds_with_a_shadowing_parameter():
     H = Hamiltonian("(px**2 + py**2)/2 + (x**2 + y**2)*E/2", ["x", "y"], ["px", "py"], params={"E": 3.0})
-    s = shell_seeds(H, 1.0, {"x": 0.0}, "px", {"y": [0.0, 0.5], "py": 0.0})
+    s = shell_seeds(H, {"y": [0.0, 0.5], "py": 0.0}, energy=1.0, plane={"x": 0.0}, solve_for="px")
     # with E the parameter 3: px = sqrt(2 - 3 y**2) (the energy equation solved by hand)
     expected = np.sqrt(2.0 - 3.0 * np.array([0.0, 0.5]) ** 2)
     assert np.allclose(s.states[:, 2], expected, rtol=1e-14)

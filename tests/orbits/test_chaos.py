@@ -128,8 +128,8 @@ def test_bad_input_is_refused(henon_heiles):
         chaos_indicators(henon_heiles, [[True, False, True, False]], 10.0)
     with pytest.raises(ParameterError, match="maxit must be at least 1"):
         chaos_indicators(henon_heiles, seed, 10.0, method="gauss6", maxit=0)
-    with pytest.raises(ParameterError, match="record_every must be at least 1"):
-        chaos_indicators(henon_heiles, seed, 10.0, record_every=-1)
+    with pytest.raises(ParameterError, match="save_every must be at least 1"):
+        chaos_indicators(henon_heiles, seed, 10.0, save_every=-1)
     # a request far over the work limit is refused before it starts, naming the way out
     with pytest.raises(ParameterError, match="set_limits"):
         chaos_indicators(henon_heiles, seed, 1e12)

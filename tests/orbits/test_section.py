@@ -32,7 +32,7 @@ def hh_rhs(t, z):
 
 def hh_seeds(hh, E, n):
     y = np.linspace(-0.25, 0.35, n)
-    s = shell_seeds(hh, E, {"x": 0.0}, "px", {"y": y, "py": 0.0})
+    s = shell_seeds(hh, {"y": y, "py": 0.0}, energy=E, plane={"x": 0.0}, solve_for="px")
     assert s.valid.all()
     return s
 
@@ -44,7 +44,7 @@ def test_uncoupled_oscillators_lie_on_exact_ellipses(oscillators):
     # t = 2 pi k / wx (closed-form solution of the harmonic oscillator; common practice).
     wx, wy = 1.0, np.sqrt(2.0)
     Z0 = np.array([[0.0, 0.3, 0.5, 0.1], [0.0, -0.2, 0.8, 0.4], [0.0, 0.0, 0.2, 0.6]])
-    sec = section(oscillators, Z0, {"x": 0.0}, crossings=40, params={"wx": wx, "wy": wy},
+    sec = section(oscillators, Z0, plane={"x": 0.0}, crossings=40, params={"wx": wx, "wy": wy},
                   method="yoshida8", dt=0.02)
     assert sec.counts.tolist() == [40, 40, 40]
     assert sec.axes == (1, 3) and [s.name for s in sec.axis_symbols] == ["y", "py"]
@@ -64,7 +64,7 @@ def test_uncoupled_oscillators_lie_on_exact_ellipses(oscillators):
 def test_crossing_refinement_matches_scipy_event_location(hh):
     E = 1.0 / 8.0
     s = hh_seeds(hh, E, 3)
-    sec = section(hh, s, {"x": 0.0}, crossings=4, method="yoshida8", dt=0.01)
+    sec = section(hh, s, plane={"x": 0.0}, crossings=4, method="yoshida8", dt=0.01)
     assert np.max(np.abs(sec.points[..., 0])) < 1e-13
     # reference: scipy DOP853, rtol 1e-12, with its own event location of x = 0 upwards
     # (the seed itself, on the plane, is reported by scipy as an event at t = 0)
@@ -81,7 +81,7 @@ def test_crossing_refinement_matches_scipy_event_location(hh):
 
 def test_refinement_is_exact_on_the_plane_for_other_values_and_direction(hh):
     s = hh_seeds(hh, 1.0 / 12.0, 4)
-    sec = section(hh, s, {"y": 0.05}, direction=-1, crossings=20, dt=0.02)
+    sec = section(hh, s, plane={"y": 0.05}, direction=-1, crossings=20, dt=0.02)
     assert np.all(sec.counts == 20)
     assert np.max(np.abs(sec.points[..., 1] - 0.05)) < 1e-13
     assert np.all(sec.points[..., 3] < 0)  # dy/dt = py < 0 when crossing downwards
@@ -92,7 +92,7 @@ def test_refinement_is_exact_on_the_plane_for_other_values_and_direction(hh):
 @pytest.mark.parametrize("E", [1.0 / 12.0, 1.0 / 8.0])
 def test_henon_heiles_sections(hh, E):
     s = hh_seeds(hh, E, 6)
-    sec = section(hh, s, {"x": 0.0}, crossings=150, dt=0.02)
+    sec = section(hh, s, plane={"x": 0.0}, crossings=150, dt=0.02)
     # bounded below the saddle energy 1/6 (Henon & Heiles 1964): every orbit gives all crossings
     assert sec.counts.tolist() == [150] * 6
     assert not sec.escaped.any()
@@ -108,7 +108,7 @@ def test_henon_heiles_sections(hh, E):
 
 def test_time_cap_comes_first(hh):
     s = hh_seeds(hh, 1.0 / 8.0, 2)
-    sec = section(hh, s, {"x": 0.0}, crossings=300, t_max=50.0, dt=0.02)
+    sec = section(hh, s, plane={"x": 0.0}, crossings=300, t_max=50.0, dt=0.02)
     assert np.all(sec.counts < 300) and np.all(sec.counts > 3)
     assert np.nanmax(sec.times) <= 50.0
     assert not sec.escaped.any()
@@ -121,7 +121,7 @@ def test_escapes_and_bad_seeds_are_flagged_while_the_rest_survive(hh):
                    [0.0, 0.0, 0.9, 0.0],          # E = 0.405 > 1/6, leaves the box
                    [np.nan, 0.0, 0.1, 0.0],       # non-finite seed
                    [0.0, -0.1, 0.35, 0.05]])
-    sec = section(hh, Z0, {"x": 0.0}, crossings=50, dt=0.02, box=4.0)
+    sec = section(hh, Z0, plane={"x": 0.0}, crossings=50, dt=0.02, box=4.0)
     np.testing.assert_array_equal(sec.escaped, [False, True, True, False])
     from phaselab.engine.status import LEFT_BOX, NOT_FINITE
     assert sec.status[1] == LEFT_BOX and sec.status[2] == NOT_FINITE
@@ -134,14 +134,15 @@ def test_escapes_and_bad_seeds_are_flagged_while_the_rest_survive(hh):
 def test_plane_never_crossed_warns(hh):
     s = hh_seeds(hh, 1.0 / 12.0, 2)
     with pytest.warns(RuntimeWarning, match="never crossed"):
-        sec = section(hh, s, {"x": 2.0}, crossings=5, t_max=30.0, dt=0.05)
+        sec = section(hh, s, plane={"x": 2.0}, crossings=5, t_max=30.0, dt=0.05)
     assert sec.counts.tolist() == [0, 0] and not sec.escaped.any()
 
 
 def test_invalid_shell_seeds_are_left_out_with_a_warning(hh):
-    s = shell_seeds(hh, 1.0 / 8.0, {"x": 0.0}, "px", {"y": [0.1, 0.95, 0.2], "py": 0.0})
+    s = shell_seeds(hh, {"y": [0.1, 0.95, 0.2], "py": 0.0}, energy=1.0 / 8.0, plane={"x": 0.0},
+                    solve_for="px")
     with pytest.warns(RuntimeWarning, match="#1: outside the energetically allowed region"):
-        sec = section(hh, s, {"x": 0.0}, crossings=3, dt=0.02)
+        sec = section(hh, s, plane={"x": 0.0}, crossings=3, dt=0.02)
     assert sec.n_orbits == 2
     np.testing.assert_array_equal(sec.seeds, s.valid_states())
 
@@ -149,29 +150,29 @@ def test_invalid_shell_seeds_are_left_out_with_a_warning(hh):
 def test_bad_arguments(hh):
     Z0 = np.array([[0.0, 0.1, 0.3, 0.0]])
     with pytest.raises(ParameterError, match="x, y, px, py"):
-        section(hh, Z0, {"r": 0.0})
+        section(hh, Z0, plane={"r": 0.0})
     with pytest.raises(ParameterError, match="direction"):
-        section(hh, Z0, {"x": 0.0}, direction=0)
+        section(hh, Z0, plane={"x": 0.0}, direction=0)
     with pytest.raises(ParameterError, match="crossings"):
-        section(hh, Z0, {"x": 0.0}, crossings=0)
+        section(hh, Z0, plane={"x": 0.0}, crossings=0)
     with pytest.raises(ParameterError, match=r"shape \(4,\) or \(n_orbits, 4\)"):
-        section(hh, np.zeros((2, 3)), {"x": 0.0})
+        section(hh, np.zeros((2, 3)), plane={"x": 0.0})
     with pytest.raises(ModelError, match="autonomous"):
-        section(hh, Z0, "stroboscopic")
+        section(hh, Z0, plane="stroboscopic")
     with pytest.raises(ParameterError, match="axes|axis"):
-        section(hh, Z0, {"x": 0.0}, axes=("y", "q"))
+        section(hh, Z0, plane={"x": 0.0}, axes=("y", "q"))
     with pytest.raises(ParameterError, match="adaptive"):
-        section(hh, Z0, {"x": 0.0}, method="dop853")
+        section(hh, Z0, plane={"x": 0.0}, method="dop853")
     # requests whose size is known up front are refused before any memory is taken
     with pytest.raises(ParameterError, match="GiB.*set_limits"):
-        section(hh, Z0, {"x": 0.0}, crossings=10**8, dt=0.02, t_max=100.0)
+        section(hh, Z0, plane={"x": 0.0}, crossings=10**8, dt=0.02, t_max=100.0)
     with pytest.raises(ParameterError, match="set_limits"):
-        section(hh, Z0, {"x": 0.0}, crossings=10**20, dt=0.02)
+        section(hh, Z0, plane={"x": 0.0}, crossings=10**20, dt=0.02)
     with pytest.raises(ParameterError, match="dt must be positive"):
-        section(hh, Z0, {"x": 0.0}, dt=-0.1)
+        section(hh, Z0, plane={"x": 0.0}, dt=-0.1)
     with pytest.raises(ParameterError, match="box"):
-        section(hh, Z0, {"x": 0.0}, box="big")
-    sec = section(hh, Z0, {"x": 0.0}, crossings=2, dt=0.02, axes=("y", "px"))
+        section(hh, Z0, plane={"x": 0.0}, box="big")
+    sec = section(hh, Z0, plane={"x": 0.0}, crossings=2, dt=0.02, axes=("y", "px"))
     assert sec.axes == (1, 2)
 
 
@@ -183,7 +184,7 @@ def test_stroboscopic_section_of_a_driven_oscillator():
     H = phaselab.Hamiltonian("p**2/2 + w0**2*x**2/2 - F*x*cos(W*t)", ["x"], ["p"],
                              params={"w0": w0, "F": F, "W": W}, time="t", period="2*pi/W")
     Z0 = np.array([[0.5, 0.0], [0.0, 0.3], [-0.4, -0.2]])
-    sec = section(H, Z0, "stroboscopic", crossings=40, method="yoshida8", dt=0.02)
+    sec = section(H, Z0, plane="stroboscopic", crossings=40, method="yoshida8", dt=0.02)
     T = 2 * np.pi / W
     assert sec.plane == {"kind": "stroboscopic", "period": pytest.approx(T)}
     assert sec.counts.tolist() == [40] * 3 and sec.axes == (0, 1)

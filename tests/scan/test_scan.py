@@ -75,7 +75,8 @@ def test_sali_uses_two_vectors_and_the_rest_one(kicked_rotor):
 def test_chaos_map_is_labelled(tmp_path, hh, monkeypatch):
     xr = pytest.importorskip("xarray")
     pytest.importorskip("zarr")
-    grid = phaselab.shell_grid(hh, 0.125, {"x": 0.0}, "px", {"y": (-0.5, 0.75, 5), "py": (-0.5, 0.5, 4)})
+    grid = phaselab.shell_grid(hh, {"y": (-0.5, 0.75, 5), "py": (-0.5, 0.5, 4)}, energy=0.125,
+                               plane={"x": 0.0}, solve_for="px")
     cmap = chaos_map(hh, grid, 4.0, indicator="megno", method="yoshida4", dt=0.01)
     ds = cmap.to_xarray()
     assert ds["megno"].dims == ("py", "y") and ds["seeds"].dims == ("py", "y", "state")
@@ -156,9 +157,9 @@ def test_frequency_map_resumes_and_is_labelled_by_the_same_helper(tmp_path, kick
     all (the first chunk's description is kept in the store)."""
     pytest.importorskip("zarr")
     grid = state_grid(kicked_rotor, {"q": (0.1, 6.0, 4), "p": (0.5, 2.5, 3)})
-    first = phaselab.frequency_map(kicked_rotor, grid, n=256, params={"K": 0.5}, batch_size=4,
+    first = phaselab.frequency_map(kicked_rotor, grid, samples=256, params={"K": 0.5}, batch_size=4,
                                    store=tmp_path / "tunes.zarr")
-    again = phaselab.frequency_map(kicked_rotor, grid, n=256, params={"K": 0.5},
+    again = phaselab.frequency_map(kicked_rotor, grid, samples=256, params={"K": 0.5},
                                    store=tmp_path / "tunes.zarr")
     assert (first.run.computed, again.run.computed, again.run.reused) == (3, 0, 3)
     np.testing.assert_array_equal(first.nu, again.nu)
@@ -200,7 +201,7 @@ def test_escape_times_of_an_oscillator(oscillator):
     assert np.all(err > -1e-6) and np.all(err <= dt + 1e-6)
     np.testing.assert_array_equal(em.survival[em.survived], 10.0)
     assert em.image().shape == (31, 31)
-    ap = em.aperture(centre=(0.0, 0.0), directions=8)
+    ap = em.aperture(center=(0.0, 0.0), directions=8)
     # the surviving set is the unit disc: every direction reaches r = 1 to the grid's
     # resolution (spacing 0.1; the ray is sampled every 0.05)
     assert np.all(np.abs(ap.radius - 1.0) <= 0.1) and not ap.at_edge.any()
@@ -300,7 +301,7 @@ def test_bad_input(kicked_rotor, oscillator):
         chaos_map(kicked_rotor, [[0.1, 0.2]], 10, params={"kick": 1.0})
     with pytest.raises(ParameterError, match="finite"):
         parameter_scan(lambda p: 0, {"K": [1.0, float("nan")]})
-    with pytest.raises(ParameterError, match=r"seeds must have shape \(n_seeds, 2\)"):
+    with pytest.raises(ParameterError, match=r"states must have shape \(n_seeds, 2\)"):
         chaos_map(kicked_rotor, [[0.1, 0.2, 0.3]], 10)
     with pytest.raises(ParameterError, match="batch_size must be at least 1"):
         chaos_map(kicked_rotor, [[0.1, 0.2]], 10, batch_size=0)
@@ -321,6 +322,6 @@ def test_bad_input(kicked_rotor, oscillator):
         em.aperture()
     grid = state_grid(oscillator, {"q": (-1, 1, 3), "p": (-1, 1, 3)})
     with pytest.raises(ParameterError, match="outside the grid"):
-        escape_map(oscillator, grid, 1.0, box=2.0).aperture(centre=(5.0, 0.0))
+        escape_map(oscillator, grid, 1.0, box=2.0).aperture(center=(5.0, 0.0))
     with pytest.raises(ParameterError, match="must be callable"):
         parameter_scan(3, {"K": [1.0]})

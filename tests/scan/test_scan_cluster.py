@@ -72,7 +72,8 @@ def test_local_dask_and_resumed_runs_agree(client, kicked_rotor, hh, tmp_path, m
     np.testing.assert_array_equal(resumed.values, local.values)
 
     # Henon-Heiles (E = 1/8, x = 0): MEGNO over a small shell grid
-    shell = phaselab.shell_grid(hh, 0.125, {"x": 0.0}, "px", {"y": (-0.4, 0.6, 5), "py": (-0.4, 0.4, 4)})
+    shell = phaselab.shell_grid(hh, {"y": (-0.4, 0.6, 5), "py": (-0.4, 0.4, 4)}, energy=0.125,
+                                plane={"x": 0.0}, solve_for="px")
     a = chaos_map(hh, shell, 10.0, method="yoshida4", dt=0.01)
     b = chaos_map(hh, shell, 10.0, method="yoshida4", dt=0.01, client=client, batch_size=3)
     np.testing.assert_array_equal(a.values, b.values)

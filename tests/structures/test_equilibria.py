@@ -105,11 +105,11 @@ def test_pendulum_bottom_elliptic_top_hyperbolic(pendulum):
 
 
 def test_bounds_select_and_angles_reduce(pendulum):
-    eqs = equilibria(pendulum, bounds={"q": (2.0, 4.0)})
+    eqs = equilibria(pendulum, ranges={"q": (2.0, 4.0)})
     assert len(eqs) == 1
     np.testing.assert_allclose(eqs[0].state, [math.pi, 0.0], atol=1e-12)  # sin q = 0 at q = pi (common practice)
     # a window away from (-pi, pi]: the representative inside it is reported
-    eqs = equilibria(pendulum, bounds={"q": (5.0, 7.0)})
+    eqs = equilibria(pendulum, ranges={"q": (5.0, 7.0)})
     assert len(eqs) == 1
     np.testing.assert_allclose(eqs[0].state, [2 * math.pi, 0.0], atol=1e-12)
 
@@ -216,7 +216,7 @@ def test_translation_invariant_lattice_gives_one_line():
 
 def test_cyclic_coordinate_is_free():
     H = phaselab.Hamiltonian("pr**2/2 + pth**2/(2*r**2) + (r-1)**2/2", ["r", "th"], ["pr", "pth"])
-    eqs = equilibria(H, bounds={"r": (0.5, 2.0)})
+    eqs = equilibria(H, ranges={"r": (0.5, 2.0)})
     assert len(eqs) == 1 and eqs[0].free == ("th",)
     np.testing.assert_allclose(eqs[0].state, [1.0, 0.0, 0.0, 0.0], atol=1e-10)  # V'(r) = 0 at r = 1
     assert eqs[0].stability == "degenerate"
@@ -255,7 +255,7 @@ def test_standard_map_fixed_points():
 ])
 def test_bad_bounds(pendulum, bounds, match):
     with pytest.raises(ParameterError, match=match):
-        equilibria(pendulum, bounds=bounds)
+        equilibria(pendulum, ranges=bounds)
 
 
 def test_bad_starts_and_params(pendulum):

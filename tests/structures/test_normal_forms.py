@@ -128,7 +128,7 @@ def test_henon_heiles_resonant_form_on_the_y_axis_family(hh):
         errors.append(abs(nf.frequencies([[0.0, J]])[0, 1] - w))
     assert errors[0] < 5e-5 and 2.8 < errors[0] / errors[1] < 6  # J^2 scaling: about 4
     seeds = np.array([[0.0, 0.08, 0.0, 0.0], [0.0, 0.04, 0.0, 0.0]])
-    measured = 2 * np.pi * phaselab.frequencies(hh, seeds, t=400.0, n=2048).nu[:, 1]
+    measured = 2 * np.pi * phaselab.frequencies(hh, seeds, t=400.0, samples=2048).nu[:, 1]
     J, _ = nf.to_normal(seeds)
     predicted = nf.frequencies(J)[:, 1]
     gap = np.abs(predicted - measured)
@@ -148,7 +148,7 @@ def test_henon_heiles_resonant_terms_against_measured_frequencies(hh):
         r = np.sqrt(4 * j)
         seeds.append([r * np.cos(-np.pi / 6), r * np.sin(-np.pi / 6), 0.0, 0.0])  # a symmetry line
     seeds = np.array(seeds)
-    measured = 2 * np.pi * phaselab.frequencies(hh, seeds, t=600.0, n=4096).nu
+    measured = 2 * np.pi * phaselab.frequencies(hh, seeds, t=600.0, samples=4096).nu
     J, phi = nf.to_normal(seeds)
     gap = np.abs(nf.frequencies(J, phi) - measured).max(axis=1)
     assert gap[0] < 6e-5 and gap[1] < 1.2e-4
@@ -421,7 +421,8 @@ def test_map_detuning_against_measured_tunes(standard_map):
     nf = phaselab.normal_form(standard_map, [np.pi, 0.0], 6, params={"K": 0.5})
     assert abs(nf.omega[0] - np.arccos(1 - 0.25)) < 1e-12  # trace of the linear map: 2 - K
     seeds = np.array([[np.pi + 0.4, 0.0], [np.pi + 0.4 / 2**0.5, 0.0]])
-    measured = 2 * np.pi * phaselab.frequencies(standard_map, seeds, n=4096, params={"K": 0.5}).nu[:, 0]
+    measured = 2 * np.pi * phaselab.frequencies(standard_map, seeds, samples=4096,
+                                                params={"K": 0.5}).nu[:, 0]
     J, _ = nf.to_normal(seeds)
     gap = np.abs(nf.frequencies(J)[:, 0] - measured)
     assert gap[0] < 1e-4 and 5 < gap[0] / gap[1] < 12

@@ -47,8 +47,9 @@ def test_standard_map_period_two_residues(standard_map):
     2 + 2K(a1 + a2) + K^2 a1 a2, so R = K^2/4 for the first and R = -K c - K^2 c^2/4 with
     c = cos q1 for the second (Greene 1979's construction, derived here; q1 by scipy's brentq)."""
     K = 0.8
-    found = phaselab.find_periodic_orbits(standard_map, 2, region={"q": (0.1, 6.1), "p": (2.0, 4.2)},
-                                          resolution=7, params={"K": K})
+    found = phaselab.find_periodic_orbits(standard_map, 2,
+                                          ranges={"q": (0.1, 6.1), "p": (2.0, 4.2)}, resolution=7,
+                                          params={"K": K})
     residues = sorted(o.residue for o in found)
     q1 = brentq(lambda q: 4 * q + K * np.sin(q) - 2 * np.pi, 0.0, np.pi)
     c = np.cos(q1)
@@ -62,9 +63,10 @@ def test_standard_map_period_two_residues(standard_map):
 def test_symmetric_orbit_agrees_with_newton(standard_map):
     """Greene's symmetric search and plain Newton find the same period-5 orbit (same residue)."""
     K = 0.7
-    sym = phaselab.periodic_orbit(standard_map, [0.0, 2 * np.pi * 2 / 5], period=5, params={"K": K},
-                                  symmetric=True)
-    plain = phaselab.periodic_orbit(standard_map, sym.points[0] + [1e-5, -1e-5], period=5, params={"K": K})
+    sym = phaselab.periodic_orbit(standard_map, [0.0, 2 * np.pi * 2 / 5], returns=5,
+                                  params={"K": K}, symmetric=True)
+    plain = phaselab.periodic_orbit(standard_map, sym.points[0] + [1e-5, -1e-5], returns=5,
+                                    params={"K": K})
     assert sym.residue == pytest.approx(plain.residue, rel=1e-9, abs=1e-12)
     assert sym.shift[0] == pytest.approx(2 * 2 * np.pi)   # rotation number 2/5
 
@@ -79,9 +81,10 @@ def test_henon_heiles_period_one_orbits_close_under_scipy(henon_heiles):
     """The stable and unstable period-1 orbits of Henon-Heiles at E = 1/8 on x = 0: each
     closes after its period when integrated independently by scipy's DOP853 (rtol 1e-13)."""
     E = 1 / 8
-    found = phaselab.find_periodic_orbits(henon_heiles, 1, region={"y": (-0.4, 0.6), "py": (-0.3, 0.3)},
-                                          plane={"x": 0.0}, energy=E, resolution=6, method="yoshida8",
-                                          dt=0.01)
+    found = phaselab.find_periodic_orbits(henon_heiles, 1,
+                                          ranges={"y": (-0.4, 0.6), "py": (-0.3, 0.3)},
+                                          plane={"x": 0.0}, energy=E, resolution=6,
+                                          method="yoshida8", dt=0.01)
     words = {o.stability for o in found}
     assert {"stable", "unstable"} <= words
     for o in found:
@@ -110,8 +113,9 @@ def test_arenstorf_orbit_period(tmp_path):
     p = {"mu": 0.012277471}
     z0 = np.array([0.994, 0.0, 0.0, -2.00158510637908252240537862224 + 0.994])
     E = R.energy(z0, params=p)
-    o = phaselab.periodic_orbit(R, z0 + [1e-4, 0.0, 1e-4, 0.0], period=3, plane={"y": 0.0}, energy=E,
-                                direction=-1, params=p, dt=2.5e-4, method="gauss6", t_max=20.0)
+    o = phaselab.periodic_orbit(R, z0 + [1e-4, 0.0, 1e-4, 0.0], returns=3, plane={"y": 0.0},
+                                energy=E, direction=-1, params=p, dt=2.5e-4, method="gauss6",
+                                t_max=20.0)
     assert o.period == pytest.approx(17.0652165601579625588917206249, rel=1e-9)
     np.testing.assert_allclose(o.points[0], z0, atol=1e-8)
     o.save(tmp_path / "arenstorf.json")
@@ -227,7 +231,7 @@ def test_golden_torus_breaks_near_the_published_value(standard_map):
     convergents' symmetric orbits reach 1/4 at parameters converging to K = 0.971635
     (Greene 1979; MacKay 1983 gives 0.971635406, recalled from memory)."""
     golden = (np.sqrt(5) - 1) / 2
-    res = phaselab.torus_breakup(standard_map, golden, "K", (0.9, 1.05), max_period=89, steps=8)
+    res = phaselab.torus_breakup(standard_map, golden, "K", (0.9, 1.05), max_returns=89, steps=8)
     assert [c.denominator for c in res.convergents][-3:] == [34, 55, 89]
     assert abs(res.estimate - 0.971635406) < 2e-3
     crit = res.critical[np.isfinite(res.critical)]
@@ -240,8 +244,8 @@ def test_bad_requests_are_refused(henon_heiles, standard_map):
         phaselab.periodic_orbit(henon_heiles, [0, 0.1, 0.3, 0])
     with pytest.raises(ParameterError, match="shape"):
         phaselab.periodic_orbit(henon_heiles, [0, 0.1, 0.3], plane={"x": 0.0})
-    with pytest.raises(ParameterError, match="period"):
-        phaselab.periodic_orbit(standard_map, [0.1, 0.1], period=0)
+    with pytest.raises(ParameterError, match="returns"):
+        phaselab.periodic_orbit(standard_map, [0.1, 0.1], returns=0)
     with pytest.raises(IntegrationError, match="energy shell|no period-1 orbit"):
         phaselab.periodic_orbit(henon_heiles, [0, 3.0, 0.3, 0], plane={"x": 0.0}, energy=1 / 8)
     with pytest.raises(ModelError, match="reversor"):
@@ -250,8 +254,9 @@ def test_bad_requests_are_refused(henon_heiles, standard_map):
 
 
 def test_results_save_and_label(tmp_path, standard_map):
-    found = phaselab.find_periodic_orbits(standard_map, 1, region={"q": (0.1, 6.2), "p": (-0.5, 0.5)},
-                                          resolution=4, params={"K": 1.0})
+    found = phaselab.find_periodic_orbits(standard_map, 1,
+                                          ranges={"q": (0.1, 6.2), "p": (-0.5, 0.5)}, resolution=4,
+                                          params={"K": 1.0})
     assert {o.stability for o in found} == {"stable", "unstable"}
     ds = found[0].to_xarray()
     assert ds["points"].shape[1:] == (1, 2) and "stability" in ds
@@ -284,6 +289,8 @@ def test_every_integrating_result_states_its_step_error(henon_heiles):
     reference = times[0]
     # measured: 2.27e-5 against an estimate of 2.36e-5 (dt 0.02)
     assert 0.5 * est <= abs(o.period / reference - 1.0) <= 2 * est
-    sec = phaselab.section(henon_heiles, [z0], {"x": 0.0}, crossings=5, method="leapfrog", dt=0.02)
+    sec = phaselab.section(henon_heiles, [z0], plane={"x": 0.0}, crossings=5, method="leapfrog",
+                           dt=0.02)
     assert sec.error_estimate == pytest.approx(est, rel=0.5)
-    assert np.isnan(phaselab.section(phaselab.models.standard_map(), [[0.1, 0.2]], None, crossings=3).error_estimate)
+    assert np.isnan(phaselab.section(phaselab.models.standard_map(), [[0.1, 0.2]], plane=None,
+                                     crossings=3).error_estimate)

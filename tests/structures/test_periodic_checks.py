@@ -53,7 +53,8 @@ def test_a_guess_that_is_really_too_far_is_still_called_so(standard_map):
     """From (3.008, 1.003) no period-7 orbit of the standard map at K = 6 is near: the residual
     is of order one when the line search gives up, far above any rounding."""
     with pytest.raises(IntegrationError, match="too far"):
-        phaselab.periodic_orbit(standard_map, [3.00844215, 1.00316038], period=7, params={"K": 6.0})
+        phaselab.periodic_orbit(standard_map, [3.00844215, 1.00316038], returns=7,
+                                params={"K": 6.0})
 
 
 def test_distance_from_the_guess_is_reported_and_a_far_one_warned(henon_heiles):

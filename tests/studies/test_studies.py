@@ -40,7 +40,7 @@ BASE = textwrap.dedent("""
     method = "leapfrog"
     dt = 0.02
 
-    [seeds]
+    [states]
     solve_for = "px"
     line = { y = [-0.1, 0.1], py = [0.0, 0.0], count = 5 }
 
@@ -84,10 +84,10 @@ def test_base_study_reads_into_checked_values():
     sec = study.section
     assert (sec.kind, sec.coordinate, sec.value, sec.direction) == ("plane", "x", 0.0, 1)
     assert (sec.energy, sec.crossings, sec.method, sec.dt) == (0.05, 20, "leapfrog", 0.02)
-    assert study.seeds.columns == ("y", "py")
-    assert study.seeds.solve_for == "px"
+    assert study.states.columns == ("y", "py")
+    assert study.states.solve_for == "px"
     # linear seed line: numpy.linspace is the reference
-    np.testing.assert_array_equal(study.seeds.values[:, 0], np.linspace(-0.1, 0.1, 5))
+    np.testing.assert_array_equal(study.states.values[:, 0], np.linspace(-0.1, 0.1, 5))
     assert [(o.kind, o.file) for o in study.outputs] == [("figure", "puck.png"), ("data", "puck.csv")]
     assert study.outputs[0].options == {"size": (4.0, 3.0), "dpi": 80.0}
 
@@ -111,7 +111,7 @@ def test_hamiltonian_matches_sympy_built_directly():
 def test_grid_seeds_cover_the_product_in_state_order():
     text = with_changes(**{'line = { y = [-0.1, 0.1], py = [0.0, 0.0], count = 5 }':
                            'grid = { py = [-0.02, 0.02, 3], y = [-0.1, 0.1, 4] }'})
-    seeds = parse_study(text).seeds
+    seeds = parse_study(text).states
     assert seeds.columns == ("y", "py")  # state order, whatever order the file used
     assert seeds.count == 12
     pairs = {(round(a, 12), round(b, 12)) for a, b in seeds.values}
@@ -124,7 +124,7 @@ def test_grid_seeds_cover_the_product_in_state_order():
 def test_points_and_fixed_columns():
     text = with_changes(**{'line = { y = [-0.1, 0.1], py = [0.0, 0.0], count = 5 }':
                            'points = { y = [0.01, 0.02, 0.03] }\nfixed = { py = 0.005 }'})
-    seeds = parse_study(text).seeds
+    seeds = parse_study(text).states
     np.testing.assert_array_equal(seeds.values, [[0.01, 0.005], [0.02, 0.005], [0.03, 0.005]])
 
 
@@ -144,7 +144,7 @@ def test_lagrangian_form_builds_the_legendre_transform():
         [section]
         plane = "th = 0"
         crossings = 3
-        [seeds]
+        [states]
         points = { pth = [0.1] }
         """)
     study = parse_study(text)
@@ -165,7 +165,7 @@ def test_catalogue_model_with_overrides_and_options():
         plane = "q1 = 0"
         energy = 0.2
         crossings = 10
-        [seeds]
+        [states]
         solve_for = "p1"
         points = { q2 = [0.1], q3 = [0.0], q4 = [0.0], p2 = [0.0], p3 = [0.0], p4 = [0.0] }
         """)
@@ -186,7 +186,7 @@ def test_map_study_with_named_modulus():
         k = 0.5
         [section]
         crossings = 10
-        [seeds]
+        [states]
         points = { q = [1.0, 2.0], p = [0.0, 0.1] }
         """)
     study = parse_study(text)
@@ -202,7 +202,7 @@ def test_examples_read_and_name_their_outputs(name):
     assert study.outputs, name
     assert any(o.file.endswith(".png") for o in study.outputs)
     assert any(o.file.endswith(".csv") for o in study.outputs)
-    assert study.seeds.count <= 64  # examples stay quick
+    assert study.states.count <= 64  # examples stay quick
 
 
 def test_there_are_three_examples_including_the_demo():
@@ -250,7 +250,7 @@ def test_hostile_catalogue_names_and_options():
         [section]
         plane = "x = 0"
         crossings = 3
-        [seeds]
+        [states]
         points = {{ y = [0.0], px = [0.1], py = [0.0] }}
         """)
     refused(model.format(name="__import__", options=""), "system.model", "unknown model")
@@ -279,11 +279,11 @@ def test_hostile_catalogue_names_and_options():
     ('coordinates = ["x", "y"]', 'coordinates = 3', ("system.coordinates", "list of names")),
     ('coordinates = ["x", "y"]', 'coordinates = ["x", "y z"]', ("system.coordinates[1]", "plain name")),
     ('coordinates = ["x", "y"]', 'coordinates = ["x", "__y"]', ("system.coordinates[1]", "plain name")),
-    ('plane = "x = 0"', 'plane = "q = 0"', ("section.plane", "not a coordinate")),
-    ('plane = "x = 0"', 'plane = "x"', ("section.plane", "<coordinate> = <value>")),
-    ('plane = "x = 0"', 'plane = 0', ("section.plane", "must be a string")),
+    ('plane = "x = 0"', 'plane = "q = 0"', ("section.plane", "unknown plane component 'q'")),
+    ('plane = "x = 0"', 'plane = "x"', ("section.plane", "<component> = <value>")),
+    ('plane = "x = 0"', 'plane = 0', ("section.plane", "must be text")),
     ('plane = "x = 0"', 'plane = "x = zz"', ("section.plane", "unknown")),
-    ('solve_for = "px"', 'solve_for = "y"', ("seeds.solve_for", "not a momentum")),
+    ('solve_for = "px"', 'solve_for = "x"', ("states.solve_for", "is fixed by the plane")),
     ('[section]', '[section]\ndirection = "sideways"', ("section.direction",)),
     ('a = { default = 0.3, range = [0.0, 1.0] }', 'a = { default = 0.3, range = [1.0, 0.0] }',
      ("parameters.a.range", "low < high")),
@@ -316,20 +316,20 @@ def test_missing_pieces_are_named():
     refused(with_changes(**{'solve_for = "px"\n': ''}), "section.energy", "solve_for")
     refused(with_changes(**{'energy = 0.05\n': ''}), "section.energy", "missing")
     refused(with_changes(**{'line = { y = [-0.1, 0.1], py = [0.0, 0.0], count = 5 }':
-                            'line = { y = [-0.1, 0.1], count = 5 }'}), "seeds.line", "py")
+                            'line = { y = [-0.1, 0.1], count = 5 }'}), "states.line", "py")
     refused(with_changes(**{'line = { y = [-0.1, 0.1], py = [0.0, 0.0], count = 5 }':
                             'line = { x = [0, 1], y = [-0.1, 0.1], py = [0.0, 0.0], count = 5 }'}),
-            "seeds.line.x", "the plane sets it")
+            "states.line.x", "the plane sets it")
 
 
 def test_seed_counts_beyond_the_limit_are_refused_before_allocating():
-    refused(with_changes(**{'count = 5': 'count = 1000000000'}), "seeds.line.count", "at most")
+    refused(with_changes(**{'count = 5': 'count = 1000000000'}), "states.line.count", "at most")
     grid = 'grid = { y = [-0.1, 0.1, 100000], py = [0.0, 0.1, 100000] }'
     refused(with_changes(**{'line = { y = [-0.1, 0.1], py = [0.0, 0.0], count = 5 }': grid}),
-            "seeds.grid", "the limit is")
+            "states.grid", "the limit is")
     big = ", ".join(["0.0"] * (MAX_ORBITS + 1))
     refused(with_changes(**{'line = { y = [-0.1, 0.1], py = [0.0, 0.0], count = 5 }':
-                            f'points = {{ y = [{big}], py = [{big}] }}'}), "seeds.points")
+                            f'points = {{ y = [{big}], py = [{big}] }}'}), "states.points")
     refused(with_changes(**{'crossings = 20': 'crossings = 10000000'}), "section.crossings", "at most")
     refused(with_changes(**{'crossings = 20': 'crossings = 100000', 'count = 5': 'count = 4000'}),
             "section.crossings", "points")
@@ -398,7 +398,7 @@ def test_not_an_area_preserving_map_is_refused():
         momenta = ["p"]
         [section]
         crossings = 10
-        [seeds]
+        [states]
         points = { q = [1.0], p = [0.0] }
         """)
     refused(text, "system.map", "not area-preserving")
@@ -412,7 +412,7 @@ def test_map_rules_of_the_wrong_shape():
         momenta = ["p"]
         [section]
         crossings = 10
-        [seeds]
+        [states]
         points = { q = [1.0], p = [0.0] }
         """)
     refused(text, "system.map[0]", "pair of strings")
@@ -450,7 +450,7 @@ def test_map_refuses_flow_keys():
         [section]
         crossings = 10
         dt = 0.1
-        [seeds]
+        [states]
         points = { q = [1.0], p = [0.0] }
         """)
     refused(text, "section.dt", "not used for a map")
@@ -474,7 +474,7 @@ DRIVEN = textwrap.dedent("""
     plane = "stroboscopic"
     crossings = 10
 
-    [seeds]
+    [states]
     line = { x = [-1.0, 1.0], p = [0.0, 0.0], count = 4 }
     """)
 
@@ -529,7 +529,7 @@ def test_mathtext_that_typesets_and_lone_dollars_are_accepted():
         [section]
         plane = "q = 0"
         crossings = 5
-        [seeds]
+        [states]
         points = { p_q = [0.1] }
         """)),
     ("system.lagrangian", textwrap.dedent("""
@@ -540,7 +540,7 @@ def test_mathtext_that_typesets_and_lone_dollars_are_accepted():
         [section]
         plane = "q = 0"
         crossings = 5
-        [seeds]
+        [states]
         points = { p_q = [0.1] }
         """)),
 ])
@@ -630,7 +630,7 @@ def test_structure_table_finds_the_island_chain_and_writes_it(tmp_path):
     from phaselab.studies import example_path, read_study, render_study
 
     study = read_study(example_path("field_lines"))
-    assert study.structure.period == 5 and study.structure.manifolds
+    assert study.structure.returns == 5 and study.structure.manifolds
     done = render_study(study, tmp_path)
     data = json.loads((tmp_path / "island_chain.json").read_text())
     eps, s = study.params["eps"], study.params["s"]
@@ -659,17 +659,17 @@ momenta = ["p"]
 k = 0.5
 [section]
 crossings = 10
-[seeds]
+[states]
 points = { q = [0.1], p = [0.2] }
 """
-    with pytest.raises(StudyFileError, match="structure.period"):
-        parse_study(base + "[structure]\nregion = { q = [0, 1], p = [0, 1] }\n", "s.toml")
-    with pytest.raises(StudyFileError, match="structure.region"):
-        parse_study(base + "[structure]\nperiod = 2\nregion = { q = [0, 1] }\n", "s.toml")
-    with pytest.raises(StudyFileError, match="structure.region.z"):
-        parse_study(base + "[structure]\nperiod = 2\nregion = { q = [0, 1], z = [0, 1] }\n", "s.toml")
+    with pytest.raises(StudyFileError, match="structure.returns"):
+        parse_study(base + "[structure]\nranges = { q = [0, 1], p = [0, 1] }\n", "s.toml")
+    with pytest.raises(StudyFileError, match="structure.ranges"):
+        parse_study(base + "[structure]\nreturns = 2\nranges = { q = [0, 1] }\n", "s.toml")
+    with pytest.raises(StudyFileError, match="structure.ranges.z"):
+        parse_study(base + "[structure]\nreturns = 2\nranges = { q = [0, 1], z = [0, 1] }\n", "s.toml")
     with pytest.raises(StudyFileError, match="structure.resolution"):
-        parse_study(base + "[structure]\nperiod = 2\nregion = { q = [0, 1], p = [0, 1] }\nresolution = 50\n",
+        parse_study(base + "[structure]\nreturns = 2\nranges = { q = [0, 1], p = [0, 1] }\nresolution = 50\n",
                     "s.toml")
     with pytest.raises(StudyFileError, match="output.orbits"):
         parse_study(base + '[output]\n[[output.orbits]]\nfile = "o.json"\n', "s.toml")

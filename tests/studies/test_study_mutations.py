@@ -26,7 +26,7 @@ TARGETS = {
     "field_lines": ("eps", "map", "theta"),
     "shaken_cart": ("beta", "hamiltonian", "x"),
 }
-KEY_MESSAGE = re.compile(r"^[\w.-]+\.toml: (study|system|parameters|section|seeds|structure|output)\b"
+KEY_MESSAGE = re.compile(r"^[\w.-]+\.toml: (study|system|parameters|section|states|structure|output)\b"
                          r"[\w.\[\]]*( \([^)]*\))?: \S")
 
 
@@ -68,8 +68,8 @@ def _mutants():
             "box-tiny": _in_section(base, "box = 1e-300"),
             "box-small": _in_section(base, "box = 1e-3"),
             "structure-huge": re.sub(r"(?ms)^\[structure\].*?(?=^\[)", "", base) + (
-                "\n[structure]\nperiod = 1000\nresolution = 20\n"
-                f"region = {{ {coord} = [0.1, 0.2], {_partner(base, coord)} = [0.1, 0.2] }}\n"),
+                "\n[structure]\nreturns = 1000\nresolution = 20\n"
+                f"ranges = {{ {coord} = [0.1, 0.2], {_partner(base, coord)} = [0.1, 0.2] }}\n"),
         }
         if "energy = " in base:
             cases["energy-below-all"] = re.sub(r"(?m)^energy = .*$", "energy = -50.0", base)
@@ -116,14 +116,14 @@ def test_what_render_would_fail_on_is_found_by_check():
     base = example_path("molecule").read_text()
     cases = {
         "section.box": base.replace("dt = 0.05", "dt = 0.05\nbox = 1e-300"),
-        "seeds": re.sub(r"(?m)^energy = .*$", "energy = -50.0", base),
+        "states": re.sub(r"(?m)^energy = .*$", "energy = -50.0", base),
     }
     for key, text in cases.items():
         with pytest.raises(StudyFileError, match=rf"^molecule.toml: {re.escape(key)}: "):
             parse_study(text, "molecule.toml")
-    field = example_path("field_lines").read_text().replace("period = 5", "period = 1000").replace(
+    field = example_path("field_lines").read_text().replace("returns = 5", "returns = 1000").replace(
         "resolution = 8", "resolution = 20")
-    with pytest.raises(StudyFileError, match=r"^field_lines.toml: structure.period: .*set_limits"):
+    with pytest.raises(StudyFileError, match=r"^field_lines.toml: structure.returns: .*set_limits"):
         parse_study(field, "field_lines.toml")
     # sympy keeps sin(10**30) exact; whatever evaluates it must give a number or check says where
     odd = base.replace("kappa*(x**2*y - y**3/3)", "kappa*(x**2*y - y**3/3) + sin(10**30)*y**2")

@@ -67,9 +67,10 @@ def direct(system, seed, energy, params=None, crossings=300, solve_for="px"):
     """The section of one seed (or of a batch, given a list of seeds: the step is chosen per
     batch, so a batch recomputed together is compared with the same batch)."""
     batch = seed if isinstance(seed, list) else [seed]
-    seeds = phaselab.shell_seeds(system, energy, PLANE, solve_for, batch, params=params)
-    return phaselab.section(system, seeds, PLANE, crossings=crossings, params=params, energy=energy,
-                            axes=("y", "py"))
+    seeds = phaselab.shell_seeds(system, batch, energy=energy, plane=PLANE,
+                                 solve_for=solve_for, params=params)
+    return phaselab.section(system, seeds, plane=PLANE, crossings=crossings, params=params,
+                            energy=energy, axes=("y", "py"))
 
 
 def source_xy(explorer, orbit_id=None):
@@ -431,7 +432,8 @@ def test_view_controls_plane_axes_direction_and_aspect(hh):
     ex.set_view(plane={"y": 0.0}, solve_for="py")  # shown (x, px)
     assert ex.view.axis_names == ("x", "px") and ex.figures.main.xaxis.axis_label == "x"
     # the orbit is the same trajectory, now cut by y = 0 (direct section from its state)
-    ref = phaselab.section(hh, state[None, :], {"y": 0.0}, crossings=300, energy=E0, axes=("x", "px"))
+    ref = phaselab.section(hh, state[None, :], plane={"y": 0.0}, crossings=300, energy=E0,
+                           axes=("x", "px"))
     np.testing.assert_allclose(source_xy(ex)[0], ref.xy()[0], atol=1e-10)
     ex.controls.direction.value = -1
     assert ex.view.sign == -1 and "decreasing" in ex.controls.title.value
@@ -451,16 +453,16 @@ def test_periodic_orbit_on_the_standard_map():
     K = m.params["K"]
     ex = phaselab.explore(m, background=False)
     ex.controls.manifolds.value = True
-    ex.find_periodic_orbit(3.0, 0.1, period=1)
+    ex.find_periodic_orbit(3.0, 0.1, returns=1)
     po = ex.structures[0].orbit
     assert po.stability == "stable" and po.residue == pytest.approx(K / 4, rel=1e-9)
     assert f"residue {K / 4:.4g}" in ex.status
     assert ex.figures.periodic.data["marker"] == ["circle"]
-    ex.find_periodic_orbit(0.1, 0.05, period=1)
+    ex.find_periodic_orbit(0.1, 0.05, returns=1)
     assert ex.structures[1].orbit.stability == "unstable"
     assert ex.figures.periodic.data["marker"][1] == "x"  # shape, not only colour
     assert len(ex.figures.unstable.data["xs"]) >= 2 and len(ex.figures.stable.data["xs"]) >= 2
-    ex.find_periodic_orbit(1.0, 1.0, period=0)
+    ex.find_periodic_orbit(1.0, 1.0, returns=0)
     assert "period" in ex.status and "refused" in ex.controls.status.value
 
 
@@ -468,7 +470,7 @@ def test_frequency_colouring_matches_a_direct_call(hh):
     ex = phaselab.explore(hh, energy=E0, background=False, color_by="frequency", crossings=256)
     ex.add_seeds([(0.1, 0.05), (0.3, 0.0)])
     seeds = np.array([o.state for o in ex.orbits])
-    ref = phaselab.frequencies(hh, seeds, n=256, plane=PLANE, direction=+1)
+    ref = phaselab.frequencies(hh, seeds, samples=256, plane=PLANE, direction=+1)
     np.testing.assert_allclose([o.scalar for o in ex.orbits], ref.nu[:, 0], rtol=1e-12)
     assert "frequencies" in ex.status
 
@@ -540,7 +542,8 @@ def test_frequency_colours_span_the_values_with_unit_and_sign(hh):
     ex.add_seeds([(0.0, 0.0), (-0.15, 0.1), (0.2, -0.1), (0.3, 0.0)])
     vals = np.array([o.scalar for o in ex.orbits])
     # the values are those of a direct phaselab.frequencies call on the same seeds
-    ref = phaselab.frequencies(hh, np.array([o.section.seeds[0] for o in ex.orbits]), n=128, plane=PLANE)
+    ref = phaselab.frequencies(hh, np.array([o.section.seeds[0] for o in ex.orbits]), samples=128,
+                               plane=PLANE)
     np.testing.assert_allclose(vals, ref.nu[:, 0], atol=1e-9)
     s = ex.scale
     assert s.low < vals.min() and vals.max() < s.high  # nothing clipped to an end colour
@@ -703,7 +706,7 @@ def test_a_click_shows_a_placeholder_at_once(hh):
     assert em._stem.value == "standard_map-iterates"
     # a periodic search: its mark replaces the placeholder; the key names what the mark means
     # (the fixed point (pi, 0) of the standard map is a centre for 0 < K < 4, Chirikov 1979)
-    em.find_periodic_orbit(3.1, 0.1, period=1)
+    em.find_periodic_orbit(3.1, 0.1, returns=1)
     assert list(em.figures.pending.data["x"]) == [] and len(em.structures) == 1
     assert em.structures[0].orbit.stability == "stable" and "centre (stable)" in em.controls.key.value
     # its residue is K/4 (Greene 1979, J. Math. Phys. 20, 1183)

@@ -140,11 +140,11 @@ def orbit_points(ret: ReturnMap, z0) -> np.ndarray:
             if ret.kind == "map":
                 pts = np.vstack([z0, ret.iterates(z0, k - 1)])
             elif ret.kind == "stroboscopic":
-                sec = section(system, z0, "stroboscopic", crossings=k - 1, params=ret.params, dt=ret.h,
-                              method=ret.method.name)
+                sec = section(system, z0, plane="stroboscopic", crossings=k - 1, params=ret.params,
+                              dt=ret.h, method=ret.method.name)
                 pts = np.vstack([z0, sec.points[0]])
             else:
-                sec = section(system, z0, ret.plane, direction=ret.direction, crossings=k - 1,
+                sec = section(system, z0, plane=ret.plane, direction=ret.direction, crossings=k - 1,
                               params=ret.params, dt=ret.h, method=ret.method.name, t_max=ret.t_max)
                 pts = np.vstack([z0, sec.points[0]])
     pts = ret.wrap(pts)      # the model's angles (a map's modulus, a flow's angles)

@@ -83,13 +83,13 @@ class PeriodicOrbits:
                 f"{failed} starts did not converge)\n" + self.table())
 
 
-def find_periodic_orbits(system, period, region=None, seeds=None, plane=None, energy=None, params=None, *,
-                         resolution=8, direction=+1, solve_for=None, dt=None, method="auto", shift=None,
-                         tol=1e-11, maxit=30, box=None, t_max=None, same=1e-7) -> PeriodicOrbits:
-    """Every distinct periodic orbit of period ``k`` found from many starting points.
+def find_periodic_orbits(system, returns, *, ranges=None, states=None, plane=None, energy=None,
+                         params=None, resolution=8, direction=+1, solve_for=None, dt=None, method="auto",
+                         shift=None, tol=1e-11, maxit=30, box=None, t_max=None, same=1e-7) -> PeriodicOrbits:
+    """Every distinct periodic orbit of ``k`` returns found from many starting points.
 
-    Newton's method (:func:`periodic_orbit`) runs from every point of a grid over ``region``
-    (or from ``seeds``) at once, in one compiled call per iteration; orbits found twice (the
+    Newton's method (:func:`periodic_orbit`) runs from every point of a grid over ``ranges``
+    (or from ``states``) at once, in one compiled call per iteration; orbits found twice (the
     same orbit from another start, or another point of the same orbit) are kept once, and
     orbits whose least period divides ``k`` (a fixed point in a period-2 search) are left
     out.
@@ -97,11 +97,13 @@ def find_periodic_orbits(system, period, region=None, seeds=None, plane=None, en
     Parameters
     ----------
     system : Hamiltonian or AreaPreservingMap
-    period : int
-    region : mapping, optional
+    returns : int
+        ``k``: iterates of a map, drive periods, or crossings of the plane per period of the
+        orbit (as in :func:`periodic_orbit`).
+    ranges : mapping, optional
         Two coordinates with ranges, ``{"y": (-0.4, 0.6), "py": (-0.5, 0.5)}`` (the others 0
         or on the plane): a ``resolution x resolution`` grid of starts.
-    seeds : array_like, shape (N, 2n), optional
+    states : array_like, shape (N, 2n), optional
         Starting states instead of a grid.
     same : float
         Two orbits are the same when a point of one is within ``same`` (1 + |z|) of a point
@@ -114,15 +116,15 @@ def find_periodic_orbits(system, period, region=None, seeds=None, plane=None, en
     """
     inputs.system(system)
     names = [s.name for s in system.state_symbols]
-    k = inputs.count(period, "period")
+    k = inputs.count(returns, "returns")
     tol, same = inputs.positive_number(tol, "tol"), inputs.positive_number(same, "same")
     maxit = inputs.count(maxit, "maxit", minimum=1, maximum=1000)
-    if (region is None) == (seeds is None):
-        raise ParameterError("give either region={name: (low, high), ...} or seeds=...")
-    if seeds is None:
-        starts = _grid(system, region, inputs.count(resolution, "resolution", 1, 1000), plane)
+    if (ranges is None) == (states is None):
+        raise ParameterError("give either ranges={name: (low, high), ...} or states=...")
+    if states is None:
+        starts = _grid(system, ranges, inputs.count(resolution, "resolution", 1, 1000), plane)
     else:
-        starts = inputs.states(seeds, len(names), names, "seeds")
+        starts = inputs.states(states, len(names), names, "states")
     limits.shooting_budget(system, plane, len(starts), k, maxit, "find_periodic_orbits")
     starts = starts[np.all(np.isfinite(starts), axis=1)]
     if not len(starts):
@@ -159,18 +161,18 @@ def find_periodic_orbits(system, period, region=None, seeds=None, plane=None, en
 
 def _grid(system, region, resolution, plane):
     if not isinstance(region, dict) or not region:
-        raise ParameterError("region must map coordinate names to (low, high), e.g. {'y': (-0.5, 0.5)}")
+        raise ParameterError("ranges must map coordinate names to (low, high), e.g. {'y': (-0.5, 0.5)}")
     names = [s.name for s in system.state_symbols]
     limits.grid_budget(float(resolution) ** len(region), len(names), "find_periodic_orbits")
     axes = []
     for key, rng in region.items():
-        j = inputs.state_index(system, key, "region coordinate")
+        j = inputs.state_index(system, key, "ranges coordinate")
         try:
             lo, hi = float(rng[0]), float(rng[1])
         except (TypeError, ValueError, IndexError):
-            raise ParameterError(f"region range of {key!r} must be (low, high), got {rng!r}") from None
+            raise ParameterError(f"ranges entry of {key!r} must be (low, high), got {rng!r}") from None
         if not (np.isfinite(lo) and np.isfinite(hi) and lo < hi):
-            raise ParameterError(f"region range of {key!r} needs finite low < high, got ({lo}, {hi})")
+            raise ParameterError(f"ranges entry of {key!r} needs finite low < high, got ({lo}, {hi})")
         axes.append((j, np.linspace(lo, hi, resolution)))
     mesh = np.meshgrid(*[a for _, a in axes], indexing="ij")
     starts = np.zeros((mesh[0].size, len(names)))

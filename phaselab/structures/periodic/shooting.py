@@ -199,18 +199,18 @@ def explain(reason) -> str:
 
 
 # ----------------------------------------------------------------------------- public calls
-def periodic_orbit(system, guess, period=1, plane=None, energy=None, params=None, *, direction=+1,
+def periodic_orbit(system, states, returns=1, *, plane=None, energy=None, params=None, direction=+1,
                    solve_for=None, dt=None, method="auto", shift=None, symmetric=False, tol=1e-11,
                    maxit=30, box=None, t_max=None) -> PeriodicOrbit:
-    """Find a periodic orbit near ``guess`` by Newton's method on the return map.
+    """Find a periodic orbit near ``states`` (one state) by Newton's method on the return map.
 
     Parameters
     ----------
     system : Hamiltonian or AreaPreservingMap
-    guess : array_like, shape (2n,)
-        A state near the orbit. For a section plane it is put on the plane and on the energy
+    states : array_like, shape (2n,)
+        A state near the orbit (the guess). For a section plane it is put on the plane and on the energy
         shell (the solved component is recomputed).
-    period : int
+    returns : int
         ``k``: iterates of a map, drive periods of a time-periodic H, or crossings of the
         plane of an autonomous flow per period of the orbit.
     plane : mapping, optional
@@ -277,13 +277,13 @@ def periodic_orbit(system, guess, period=1, plane=None, energy=None, params=None
     inputs.system(system)
     tol = inputs.positive_number(tol, "tol")
     maxit = inputs.count(maxit, "maxit", minimum=1, maximum=1000)
-    k = inputs.count(period, "period")
+    k = inputs.count(returns, "returns")
     inputs.direction(direction), inputs.flag(symmetric, "symmetric")
     names = [s.name for s in system.state_symbols]
     limits.shooting_budget(system, plane, 1, k, maxit, "periodic_orbit")
-    g = inputs.states(guess, len(names), names, "guess")
+    g = inputs.states(states, len(names), names, "states")
     if len(g) != 1:
-        raise ParameterError("guess must be one state; use find_periodic_orbits for many")
+        raise ParameterError("states must be one state; use find_periodic_orbits for many")
     if symmetric:
         return symmetric_orbit(system, g[0], k, params=params, tol=tol, maxit=maxit, box=box)
     ret1 = return_map(system, 1, plane=plane, energy=energy, guess=g, direction=direction,

@@ -143,7 +143,7 @@ def symmetric_orbit(system, guess, period, params=None, tol=1e-11, maxit=60, box
     method); the :class:`~phaselab.structures.periodic.PeriodicOrbit` it returns has the full
     monodromy of ``period`` iterates, its residue and stability."""
 
-    Q = inputs.count(period, "period")
+    Q = inputs.count(period, "returns")
     prm = system.param_values(params)
     z, iters, _ = symmetric_solve(system, np.asarray(guess, dtype=float).ravel(), Q, prm, tol, maxit, box)
     lo, hi = inputs.box(system, box)

@@ -91,7 +91,7 @@ class Explorer(OrbitCommands, ViewCommands, Wiring, Scheduling, Drawing, Session
         Periodic orbits found (with their manifolds).
     """
 
-    def __init__(self, system, energy=None, plane=None, solve_for=None, crossings=300, params=None,
+    def __init__(self, system, *, energy=None, plane=None, solve_for=None, crossings=300, params=None,
                  ranges=None, sign=+1, energy_range=None, color_by=None, color_label=None,
                  background=True, export_dir=".", export_formats=(".png", ".csv"), duration=None,
                  method="auto", dt=None, title=None, scale=None, session=None):
@@ -266,7 +266,7 @@ class Explorer(OrbitCommands, ViewCommands, Wiring, Scheduling, Drawing, Session
         super().close()
 
 
-def explore(system, energy=None, plane=None, solve_for=None, crossings=300, params=None, **options):
+def explore(system, *, energy=None, plane=None, solve_for=None, crossings=300, params=None, **options):
     """An interactive surface of section (or phase portrait, or map iterates) for a notebook.
 
     Parameters

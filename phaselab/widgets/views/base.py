@@ -165,7 +165,7 @@ class BaseView:
         """The two panels' (x, y) curves from a trajectory of the selected orbit."""
         step = max(1, len(tr.t) // TRACE_SAMPLES)
         t = np.asarray(tr.t[::step], float)
-        tw, st = tr.wrapped_path(0, step)          # angles wrapped, broken where they jump
+        tw, st = tr.wrapped_path(0, every=step)          # angles wrapped, broken where they jump
         n = len(self.names) // 2
         first = (st[:, 0], st[:, 1]) if n >= 2 else (tw, st[:, 0])
         return first, (t, np.asarray(tr.energy_error[0, ::step], float))

@@ -137,7 +137,8 @@ class SectionView(BaseView):
         pts = np.atleast_2d(np.asarray(points, dtype=float))
         if pts.ndim != 2 or pts.shape[1] != 2:
             raise ParameterError(f"seeds must be ({self.axis_names[0]}, {self.axis_names[1]}) pairs, got shape {pts.shape}")
-        s = shell_seeds(self.system, energy, self.plane, self.solve_for, pts, params=params, sign=self.sign)
+        s = shell_seeds(self.system, pts, energy=energy, plane=self.plane, solve_for=self.solve_for,
+                        params=params, sign=self.sign)
         return Seeding(s.states, s.valid, list(s.reasons))
 
     def compute(self, states, energy, params, crossings=None):
@@ -145,9 +146,9 @@ class SectionView(BaseView):
 
         with warnings.catch_warnings():
             warnings.simplefilter("ignore", RuntimeWarning)
-            return section(self.system, states, self.plane, direction=self.sign, crossings=crossings or self.crossings,
-                           params=params, dt=self.dt, method=self.method, energy=energy,
-                           axes=self.axis_names)
+            return section(self.system, states, plane=self.plane, direction=self.sign,
+                           crossings=crossings or self.crossings, params=params, dt=self.dt,
+                           method=self.method, energy=energy, axes=self.axis_names)
 
     def trace(self, state, params, until):
         from phaselab.orbits.trajectory import trajectory

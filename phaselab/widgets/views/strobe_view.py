@@ -61,7 +61,7 @@ class StrobeView(BaseView):
         st = tr.states[0, ::step]
         t = np.asarray(tr.t[::step], float)
         h = np.asarray(self.system.energy(st, params, t=t), float)
-        _, shown = tr.wrapped_path(0, step)        # angles wrapped, broken where they jump
+        _, shown = tr.wrapped_path(0, every=step)        # angles wrapped, broken where they jump
         return (shown[:, 0], shown[:, 1]), (t, h)
 
     def compute(self, states, energy, params, crossings=None):
@@ -69,8 +69,9 @@ class StrobeView(BaseView):
 
         with warnings.catch_warnings():
             warnings.simplefilter("ignore", RuntimeWarning)
-            return section(self.system, states, "stroboscopic", crossings=crossings or self.crossings, params=params,
-                           dt=self.dt, method=self.method)
+            return section(self.system, states, plane="stroboscopic",
+                           crossings=crossings or self.crossings, params=params, dt=self.dt,
+                           method=self.method)
 
     def trace(self, state, params, until):
         from phaselab.orbits.trajectory import trajectory
