@@ -98,6 +98,7 @@ def branch_family(family: Family, bifurcation, span, *, side=1, offset=None, ste
     tol = inputs.positive_number(tol, "tol")
     maxit = inputs.count(maxit, "maxit", minimum=1, maximum=1000)
     offset = None if offset is None else inputs.positive_number(offset, "offset")
+    steps = inputs.count(steps, "steps", minimum=1, maximum=100_000)
     i, j = flag["between"]
     if family.orbit(i).symmetries:
         raise ModelError("branch switching is not available for orbits of a flow with conserved momenta")
