@@ -5,6 +5,7 @@ every member closing under scipy's DOP853 and on its own energy shell."""
 
 import numpy as np
 import pytest
+import sympy as sp
 from scipy.integrate import solve_ivp
 from scipy.optimize import brentq
 
@@ -69,6 +70,28 @@ def test_the_other_side_of_the_doubling_is_the_same_orbit_from_its_other_point(d
     K, z = new.values[-1], new.states[-1]
     a = period_two_amplitude(K)
     np.testing.assert_allclose(z, [np.pi - a, 2 * np.pi - 2 * a], atol=1e-9)
+
+
+@pytest.mark.parametrize("side", [1, -1])
+def test_pitchfork_of_a_cubic_kick_map_gives_the_closed_form_fixed_points(side):
+    """The map p' = p - a q - q^3, q' = q + p' (a kick then a drift, area-preserving) has the
+    fixed point (0, 0) with trace 2 - a (derivation: Jacobian [[1 - a - 3q^2, 1],
+    [-a - 3q^2, 1]] in (q, p)), whose multiplier passes +1 at a = 0 with eigenvector (1, 0);
+    for a < 0 the fixed points (+-sqrt(-a), 0) (p' = p and q' = q need p' = 0 and
+    a q + q^3 = 0) branch off, stable with trace 2 + 2a (derivation)."""
+    q, p, a = sp.symbols("q p a", real=True)
+    kick = phaselab.AreaPreservingMap([(p, p - a * q - q ** 3), (q, q + p)], [q], [p], params={a: 0.5},
+                                      name="cubic_kick")
+    o = phaselab.periodic_orbit(kick, [0.01, 0.0], params={"a": 0.5})
+    fam = phaselab.continue_family(o, "a", (-0.5, 0.5), steps=40)
+    (flag,) = [b for b in fam.bifurcations if b["kind"] == "tangent (multiplier +1)"]
+    assert flag["parameter"] == pytest.approx(0.0, abs=1e-12)
+    new = phaselab.branch_family(fam, flag, (-0.5, 0.5), side=side, steps=30)
+    assert new.complete and new.values[-1] == -0.5 and np.all(np.diff(new.values) < 0)
+    for A, z, b in zip(new.values, new.states, new.stability_indices[:, 0].real):
+        atol = 1e-6 if A > -1e-3 else 1e-9      # the branch moves like sqrt(-a) near a = 0
+        np.testing.assert_allclose(z, [side * np.sqrt(-A), 0.0], atol=atol)
+        assert b == pytest.approx(2 + 2 * A, abs=1e-6)
 
 
 def test_bad_arguments_are_refused(doubling, standard_map):
