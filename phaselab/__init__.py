@@ -58,6 +58,7 @@ _LAZY = {
     "PeriodicOrbits": "phaselab.structures.periodic",
     "continue_family": "phaselab.structures.families",
     "Family": "phaselab.structures.families",
+    "branch_family": "phaselab.structures.branching",
     "manifold": "phaselab.structures.manifolds",
     "Manifold": "phaselab.structures.manifolds",
     "torus_breakup": "phaselab.structures.breakup",

@@ -34,7 +34,7 @@ SCENARIOS = ["bead_on_spinning_hoop", "two_mode_molecule", "satellite_near_a_moo
              "driven_oscillator", "kicked_rotor", "oscillator_chain"]
 
 # notebooks that tell a story with one system (run with their defaults only)
-STORIES = ["field_line_islands"]
+STORIES = ["field_line_islands", "spatial_orbits_near_a_moon"]
 
 # the one parameter changed in the second run of each notebook
 CHANGED = {
@@ -485,3 +485,46 @@ def test_field_line_orbits_residues_against_a_numpy_product(runs):
     # family of the O-point crosses it (a tangent crossing) at eps = 0
     tangent = [b["parameter"] for b in out["bifurcations"] if b["kind"].startswith("tangent")]
     assert tangent and min(abs(t) for t in tangent) < 1e-3
+
+
+def _spatial_field(z, mu):
+    """Hamilton's equations of the spatial restricted three-body problem in the rotating
+    frame, written out by hand from H = |p|^2/2 + y px - x py - (1-mu)/r1 - mu/r2
+    (Szebehely 1967)."""
+    x, y, zz, px, py, pz = z
+    r1 = math.sqrt((x + mu) ** 2 + y ** 2 + zz ** 2)
+    r2 = math.sqrt((x - 1 + mu) ** 2 + y ** 2 + zz ** 2)
+    a1, a2 = (1 - mu) / r1 ** 3, mu / r2 ** 3
+    return [px + y, py - x, pz, py - a1 * (x + mu) - a2 * (x - 1 + mu), -px - (a1 + a2) * y, -(a1 + a2) * zz]
+
+
+def test_spatial_moon_family_leaves_the_plane_and_closes_under_scipy(runs):
+    """The invented moon's notebook: L2 at the brentq root of the collinear equation, and
+    every member of the spatial family it starts at the vertical bifurcation on its own
+    energy shell, closing under scipy's DOP853 of the hand-written equations (below 1e-9,
+    issue 22), its height out of the plane growing from near 0."""
+    from scipy.integrate import solve_ivp
+    from scipy.optimize import brentq
+
+    a = summary(runs, "spatial_orbits_near_a_moon")
+    mu = a["mass_ratio"]
+
+    def dU(x):
+        return x - (1 - mu) * (x + mu) / abs(x + mu) ** 3 - mu * (x - 1 + mu) / abs(x - 1 + mu) ** 3
+
+    assert a["L2_x"] == pytest.approx(brentq(dU, 1 - mu + 1e-6, 2.0, xtol=1e-14), abs=1e-9)
+    assert a["L2_energy"] < a["bifurcation_energy"] < a["spatial_energies"][0]
+    assert a["spatial_members"] >= 5
+    for E, z0, T in zip(a["spatial_energies"], a["spatial_states"], a["spatial_periods"]):
+        x, y, zz, px, py, pz = z0
+        r1 = math.sqrt((x + mu) ** 2 + y ** 2 + zz ** 2)
+        r2 = math.sqrt((x - 1 + mu) ** 2 + y ** 2 + zz ** 2)
+        H = (px ** 2 + py ** 2 + pz ** 2) / 2 + y * px - x * py - (1 - mu) / r1 - mu / r2
+        assert H == pytest.approx(E, abs=1e-10)
+        sol = solve_ivp(lambda t, s: _spatial_field(s, mu), (0.0, T), z0, method="DOP853", rtol=1e-13,
+                        atol=1e-13)
+        assert np.max(np.abs(sol.y[:, -1] - np.array(z0))) < 1e-9
+    heights = np.array(a["heights"])
+    assert heights[0] < 0.005 and np.all(np.diff(heights) > 0)
+    assert a["stopped"] == 0 and a["worst_energy_error"] < 1e-6
+    assert a["slice_points"] > 100

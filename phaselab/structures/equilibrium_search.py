@@ -324,8 +324,11 @@ class FlowSearch:
         D = np.array(lines)
         centre = self.box.centre[self.var_idx]
         moved = x - D.T @ (D @ (x - centre))
+        # judged at the moved point's own size: a far-away point where the gradient fades
+        # (Newton run off to infinity) has no line to carry onto the box
+        near = RESIDUAL * (1.0 + scale * (1.0 + float(np.max(np.abs(moved)))))
         with np.errstate(all="ignore"):
-            if np.all(np.abs(self._fun(moved)) <= tol):
+            if np.all(np.abs(self._fun(moved)) <= min(tol, near)):
                 x = moved
         full = np.zeros((len(D), len(self.names)))
         full[:, self.var_idx] = D

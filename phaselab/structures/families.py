@@ -439,3 +439,17 @@ def _tracked_pairs(mons) -> list:
             p = p.take(multipliers.track(out[-1].indices, p.indices))
         out.append(p)
     return out
+
+
+# ----------------------------------------------------------------------------- for branch switching
+def correct(ret, name, pred, shift, *, tol, maxit, plane=None, fixed=None):
+    """The continuation's corrector for :mod:`phaselab.structures.branching`: Newton's
+    method from ``pred`` = (u, lam) (shape (d + 1,)) on P(u; lam) - u - shift = 0 with the
+    row ``t . (x - x0) = h`` (``plane`` = (t, x0, h)) or the parameter held at ``fixed``.
+    ``(x, dF/du, dF/dlam, images)`` or None where it does not converge."""
+    return _correct(ret, name, pred, shift, tol, maxit, plane=plane, fixed=fixed)
+
+
+def set_value(ret, name, value) -> None:
+    """Set the return map's parameter ``name`` (or ``"energy"``) to ``value``."""
+    _set(ret, name, value)

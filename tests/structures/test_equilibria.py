@@ -167,6 +167,24 @@ def test_three_body_lagrange_points(mu):
         assert e.stability == "saddle-centre"
 
 
+def test_spatial_three_body_has_the_five_lagrange_points_and_no_false_one():
+    """The spatial problem with a box around all five points: exactly L1..L5 in the plane
+    (Szebehely 1967), the collinear ones at the brentq roots. Before the fix a Newton run
+    that went off to z ~ -1e83 (where the gradient fades) was carried along its "line of
+    equilibria" onto the box centre and reported as a rest point next to the planet."""
+    mu = 0.015
+    box = {"x": (-1.5, 1.5), "y": (-1.0, 1.0), "z": (-0.1, 0.1), "px": (-1.0, 1.0), "py": (-1.5, 1.5),
+           "pz": (-0.1, 0.1)}
+    eqs = equilibria(phaselab.models.spatial_restricted_three_body(), params={"mu": mu}, bounds=box, starts=400)
+    assert len(eqs) == 5
+    for e in eqs:   # grad H = 0 there, evaluated independently: px = -y, py = x, z = pz = 0
+        np.testing.assert_allclose(e.state[3:5], [-e.state[1], e.state[0]], atol=1e-10)
+        np.testing.assert_allclose(e.state[[2, 5]], 0.0, atol=1e-12)
+    collinear = sorted((e.state[0] for e in eqs if abs(e.state[1]) <= 0.1))
+    L1, L2, L3 = collinear_points(mu)
+    np.testing.assert_allclose(collinear, [L3, L1, L2], atol=1e-10)
+
+
 def test_routh_critical_mass_ratio():
     mu_c = (1 - math.sqrt(23 / 27)) / 2  # Routh (1875) critical mass ratio, about 0.0385
     assert 0.01 < mu_c < 0.05
