@@ -120,7 +120,8 @@ check.save(gt.output_folder(out_dir) / "normal_form_check.nc")
 #
 # On the resonance the separatrix has one energy. The section $x = 0$ (crossed upwards) at
 # that energy shows the island chain; the separatrix the normal form predicts is drawn over
-# it, carried to $(y, p_y)$ by `from_normal` at the crossing of $x = 0$.
+# it (`check.separatrix_curves`: the pendulum model's separatrix carried to $(y, p_y)$ by
+# `from_normal` where it crosses $x = 0$).
 
 # %%
 island = check.island
@@ -128,32 +129,11 @@ x_point = island.centre_actions, (island.centre_angle + np.pi) * K / (K @ K)
 E_sep = float(nf.energy([x_point[0]], [x_point[1]])[0])
 
 
-def separatrix_on_plane(island, n_psi=160, n_phi=360):
-    """(y, py) of the predicted separatrix where it crosses x = 0 upwards (px > 0)."""
-    psi = np.linspace(-np.pi, np.pi, n_psi)
-    phi1 = np.linspace(-np.pi, np.pi, n_phi + 1)
-    curves = []
-    for sign in (+1, -1):
-        for turn in (0.0, np.pi):          # phi2 = (phi1 - psi)/2 has two branches: two islands
-            points = []
-            for s, I in zip(psi, sign * island.separatrix(psi)):
-                J = np.tile(island.centre_actions + I * K, (len(phi1), 1))
-                phi = np.stack([phi1, (phi1 - s) / 2 + turn], axis=1)
-                z = nf.from_normal(np.clip(J, 0, None), phi)
-                up = (z[:-1, 0] < 0) & (z[1:, 0] >= 0)
-                if up.any():
-                    j = int(np.argmax(up))
-                    w = z[j, 0] / (z[j, 0] - z[j + 1, 0])
-                    points.append((1 - w) * z[j, [1, 3]] + w * z[j + 1, [1, 3]])
-            curves.append(np.array(points))
-    return curves
-
-
 ys = np.linspace(-0.55, 0.55, int(section_seeds))     # a line through both islands
 seeds = phaselab.shell_seeds(molecule, E_sep, {"x": 0.0}, "px", {"y": ys, "py": 0.8 * ys})
 section = phaselab.section(molecule, seeds, plane={"x": 0.0}, crossings=int(crossings), dt=dt, method="yoshida4")
 files += gt.save_and_show(section, out_dir, "section_with_separatrix", (".png",), dpi=figure_dpi,
-                          overlays=separatrix_on_plane(island), title=f"x = 0 at the separatrix energy E = {E_sep:.4f}",
+                          overlays=[c[:, [1, 3]] for c in check.separatrix_curves({"x": 0.0})], title=f"x = 0 at the separatrix energy E = {E_sep:.4f}",
                           note="Model results with made-up constants.")
 
 # %%

@@ -25,6 +25,7 @@ from phaselab.engine.provenance import cf_dataset, provenance
 from phaselab.errors import ParameterError
 from phaselab.frequency.frequencies import DEFAULT_SAMPLES, frequencies
 from phaselab.scan.island_check import ISLAND_ORBITS, IslandCheck, measure_island
+from phaselab.structures.normal_forms.curves import separatrix_curves
 from phaselab.structures.normal_forms.result import NormalForm
 
 #: lines found per coordinate, among which each mode's line is chosen
@@ -171,6 +172,14 @@ class NormalFormCheck:
                                                 if isinstance(v, (int, float, str))})
         ds.attrs = attrs
         return cf_dataset(ds, title=f"normal form beside measurement for {meta['system']}".strip())
+
+    def separatrix_curves(self, plane, *, direction=+1, points=160) -> list:
+        """The island's predicted separatrix on a surface of section ``plane`` (a mapping
+        ``{coordinate name: value}``): polylines of states, shape (points, 4) each, one per
+        branch and island (:func:`phaselab.structures.normal_forms.curves.separatrix_curves`)."""
+        if self.island is None:
+            raise ParameterError("this check measured no island; ask for one with island=J")
+        return separatrix_curves(self.normal_form, self.island, plane, direction=direction, points=points)
 
     def save(self, path, **kwargs):
         """Write ``.nc``/``.zarr`` (:meth:`to_xarray`) or the figure of :meth:`plot` as
