@@ -51,7 +51,8 @@ class NormalFormCheck:
         form), rad per unit time (per iterate for a map).
     measured : ndarray, shape (m, n)
         ``2 pi nu`` of each mode measured by Laskar's method, same units; NaN where the
-        analysis failed or no line was found near the mode (see :attr:`status`).
+        analysis failed (see :attr:`status`), no line was found near the mode, or the mode
+        was launched with zero action.
     status : ndarray of int, shape (m,)
         The frequency analysis' status per orbit (:mod:`phaselab.engine.status`).
     order : int
@@ -285,6 +286,7 @@ def normal_form_check(system, nf, actions, t=None, *, angles=None, n=DEFAULT_SAM
     else:
         measured_result = frequencies(system, states, **options)
     measured = _mode_lines(nf, measured_result)
+    measured[J == 0] = np.nan   # a mode launched without action has no line of its own to measure
     predicted = nf.frequencies(J)
     unit = "rad per unit time" if flow else "rad per iterate"
     return NormalFormCheck(J, phi, states, predicted, measured, np.asarray(measured_result.status, dtype=int),

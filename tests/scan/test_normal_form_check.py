@@ -133,3 +133,11 @@ def test_bad_arguments():
     resonant = phaselab.normal_form(other, [0, 0, 0, 0], 4, resonances=[(2, -1)])
     with pytest.raises(ParameterError, match="island must be 2"):
         phaselab.normal_form_check(other, resonant, [[0.1, 0.1]], 10.0, n=64, island=[0.17])
+
+
+def test_a_mode_launched_without_action_is_not_measured():
+    system = detuned_two_to_one()
+    nf = phaselab.normal_form(system, [0, 0, 0, 0], 4)
+    check = phaselab.normal_form_check(system, nf, [[0.02, 0.0]], 100.0, n=512)
+    assert np.isnan(check.measured[0, 1]) and np.isfinite(check.measured[0, 0])
+    assert abs(check.gap[0, 0]) < 1e-3
