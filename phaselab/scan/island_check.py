@@ -28,6 +28,7 @@ from phaselab.engine import inputs
 from phaselab.engine import status as codes
 from phaselab.errors import ModelError, ParameterError
 from phaselab.orbits.section import section
+from phaselab.structures.normal_forms.arguments import check_resonances
 from phaselab.structures.normal_forms.islands import primitive
 
 #: orbits launched across the island by default
@@ -147,10 +148,17 @@ def measure_island(system, nf, J, *, resonance=None, orbits=ISLAND_ORBITS, cross
     """
     if not nf.resonances:
         raise ModelError("a Birkhoff normal form predicts no island; compute one with resonances=[k]")
+    if resonance is not None:
+        if isinstance(resonance, (str, bytes)) or not hasattr(resonance, "__len__"):
+            raise ParameterError(f"resonance must be {nf.dof} whole numbers, got {resonance!r}")
+        resonance = check_resonances([resonance], nf.dof)[0]
     k = primitive(resonance if resonance is not None else nf.resonances[0])
     orbits = inputs.count(orbits, "island_orbits", minimum=5, maximum=400)
-    J = np.asarray(J, dtype=float)
-    if J.shape != (nf.dof,) or not np.all(np.isfinite(J)) or np.any(J < 0):
+    try:
+        J = np.asarray(J, dtype=float) if not isinstance(J, (str, bytes)) else None
+    except (TypeError, ValueError, OverflowError):
+        J = None
+    if J is None or J.shape != (nf.dof,) or not np.all(np.isfinite(J)) or np.any(J < 0):
         raise ParameterError(f"island must be {nf.dof} finite actions >= 0 (one per mode), got {np.shape(J)}")
     centre = resonant_torus(nf, J, k)
     model = nf.resonance_width(centre, k)

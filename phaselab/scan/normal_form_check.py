@@ -295,8 +295,18 @@ def normal_form_check(system, nf, actions, t=None, *, angles=None, n=DEFAULT_SAM
                            int(measured_result.n_samples), nf)
 
 
+def _floats(value):
+    """``value`` as a float array, or None when it is not numbers."""
+    if isinstance(value, (str, bytes)):
+        return None
+    try:
+        return np.asarray(value, dtype=float)
+    except (TypeError, ValueError, OverflowError):
+        return None
+
+
 def _actions(actions, dof: int) -> np.ndarray:
-    J = np.asarray(actions, dtype=float) if not isinstance(actions, str) else None
+    J = _floats(actions)
     if J is not None and J.ndim == 1 and dof == 1:
         J = J[:, None]
     if J is None or J.ndim != 2 or J.shape[1] != dof or J.shape[0] < 1:
@@ -308,9 +318,10 @@ def _actions(actions, dof: int) -> np.ndarray:
 
 
 def _angles(angles, shape) -> np.ndarray:
-    phi = np.asarray(angles, dtype=float)
-    if phi.shape != shape or not np.all(np.isfinite(phi)):
-        raise ParameterError(f"angles must be finite with the shape of actions {shape}, got {phi.shape}")
+    phi = _floats(angles)
+    if phi is None or phi.shape != shape or not np.all(np.isfinite(phi)):
+        raise ParameterError(f"angles must be finite numbers with the shape of actions {shape}, got "
+                             f"{np.shape(angles) if phi is not None else type(angles).__name__}")
     return phi
 
 

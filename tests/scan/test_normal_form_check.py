@@ -141,3 +141,45 @@ def test_a_mode_launched_without_action_is_not_measured():
     check = phaselab.normal_form_check(system, nf, [[0.02, 0.0]], 100.0, n=512)
     assert np.isnan(check.measured[0, 1]) and np.isfinite(check.measured[0, 0])
     assert abs(check.gap[0, 0]) < 1e-3
+
+
+NAN, INF = float("nan"), float("inf")
+BAD = {
+    "system": [None, "p**2/2", 1.0, object()],
+    "nf": [None, "nf", 3, object()],
+    "actions": [None, "abc", object(), [[1j]], [[NAN]], [[INF]], [[-1.0]], [], [[[0.1]]], [["a"]]],
+    "t": [None, NAN, INF, -1.0, 0.0, "1", 1j, True],
+    "angles": ["abc", object(), [[NAN]], [[0.1, 0.2]], [[1j]]],
+    "n": [-1, 0, 1.5, NAN, "10", True, 10**12],
+    "dt": [NAN, INF, -1.0, 0.0, "0.1"],
+    "method": [3, "nope", None],
+}
+ISLAND_BAD = {
+    "island": ["ab", object(), [NAN, 0.1], [0.1], [[0.1, 0.1]], [1j, 0.1], [-0.1, 0.1]],
+    "resonance": ["ab", 3, [0, 0], [1.5, -2], [1, -2, 0], [True, 1]],
+    "island_orbits": [-1, 0, 4, 1.5, NAN, "10", 10**9],
+    "crossings": [-1, 0, 1.5, NAN, "10", 10**9],
+    "plane": ["x", 5, {"nope": 0.0}, {"q1": NAN}, {"q1": "a"}],
+    "direction": [0, 2, "up", NAN],
+}
+
+
+@pytest.mark.parametrize("arg, value", [(a, v) for a, vs in BAD.items() for v in vs])
+def test_every_bad_argument_is_refused_by_phaselab(arg, value):
+    """Each argument's bad values end in a PhaselabError subclass, never numpy's or Python's own."""
+    system = unit_pendulum()
+    nf = phaselab.normal_form(system, [0, 0], 4)
+    args = {"system": system, "nf": nf, "actions": [[0.1]], "t": 20.0}
+    kwargs = {"n": 64}
+    (args if arg in args else kwargs)[arg] = value
+    with pytest.raises(phaselab.PhaselabError):
+        phaselab.normal_form_check(args["system"], args["nf"], args["actions"], args["t"], **kwargs)
+
+
+@pytest.mark.parametrize("arg, value", [(a, v) for a, vs in ISLAND_BAD.items() for v in vs])
+def test_every_bad_island_argument_is_refused_by_phaselab(arg, value):
+    system = detuned_two_to_one()
+    nf = phaselab.normal_form(system, [0, 0, 0, 0], 4, resonances=[(2, -1)])
+    kwargs = {"n": 64, "island": [0.17, 0.1], "island_orbits": 5, "crossings": 20, arg: value}
+    with pytest.raises(phaselab.PhaselabError):
+        phaselab.normal_form_check(system, nf, [[0.1, 0.1]], 20.0, **kwargs)
