@@ -148,7 +148,12 @@ def cmd_normal_form(args) -> int:
     order = args.order or (spec.order if spec is not None else 4)
     resonances = args.resonance or (list(spec.resonances) if spec is not None else None) or None
     arithmetic = spec.arithmetic if spec is not None else "auto"
-    nf = normal_form(system, at, order, resonances=resonances, params=params, arithmetic=arithmetic)
+    try:
+        nf = normal_form(system, at, order, resonances=resonances, params=params, arithmetic=arithmetic)
+    except ModelError as exc:
+        if "resonances=" not in str(exc):
+            raise
+        raise ModelError(f"{exc}; on the command line give each vector as --resonance, e.g. --resonance 1,-1") from None
     if args.latex:
         print(nf.latex())
         return OK

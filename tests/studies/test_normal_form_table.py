@@ -148,3 +148,5 @@ def test_console_prints_a_normal_form(tmp_path, capsys):
     assert main(["normal-form", "pendulum", "--at", "1"]) == 2
     assert "--at" in capsys.readouterr().err
     assert main(["normal-form", "pendulum", "--resonance", "a,b"]) == 2
+    assert main(["normal-form", "henon_heiles", "--order", "4"]) == 1
+    assert "--resonance" in capsys.readouterr().err
