@@ -65,6 +65,8 @@ _LAZY = {
     "TorusBreakup": "phaselab.structures.breakup",
     "normal_form": "phaselab.structures.normal_forms",
     "NormalForm": "phaselab.structures.normal_forms",
+    "normal_form_check": "phaselab.scan.normal_form_check",
+    "NormalFormCheck": "phaselab.scan.normal_form_check",
     "warm": "phaselab.engine.warm",
     "set_limits": "phaselab.engine.limits",
 }

@@ -7,6 +7,8 @@
                                            compute a study file's section and write its files
     phaselab check STUDY [--set KEY=VALUE ...]  read and check a study file, compute nothing
     phaselab equations STUDY|MODEL [--latex]  print the equations of motion (as LaTeX with --latex)
+    phaselab normal-form STUDY|MODEL [--order N] [--at Q,P] [--resonance K] [--latex]
+                                           compute and print a normal form (the study's [normal_form])
     phaselab examples                      list the built-in studies and catalogue models
     phaselab keys                          print the reference of study-file tables and keys
 
@@ -26,7 +28,7 @@ import os
 import sys
 from pathlib import Path
 
-from phaselab.errors import PhaselabError, StudyFileError
+from phaselab.errors import ModelError, PhaselabError, StudyFileError
 
 OK, FAILED, BAD_INPUT = 0, 1, 2
 CLOSED_PIPE = 141
@@ -116,9 +118,78 @@ def cmd_check(args) -> int:
         print(f"  finds {st.returns}-return periodic orbits from {st.resolution} x {st.resolution} "
               f"starts ({region})"
               + (", with the manifolds of the unstable ones" if st.manifolds else ""))
+    if study.normal_form is not None:
+        from phaselab.studies.normal_form_table import describe
+
+        print(f"  {describe(study.normal_form)}")
     for spec in study.outputs:
         print(f"  writes {study.folder + '/' if study.folder else ''}{spec.file}")
     return OK
+
+
+def cmd_normal_form(args) -> int:
+    """Compute a normal form and print it: of the study's ``[normal_form]`` table, or of a
+    catalogue model (or a study without one) at ``--at`` (default: its elliptic equilibrium
+    or fixed point of lowest energy found by phaselab.equilibria), to ``--order``."""
+    from phaselab.model.catalogue import MODELS
+    from phaselab.structures.normal_forms.compute import normal_form
+    from phaselab.studies.fields import Fields
+
+    target = args.study
+    if target in MODELS and not Path(target).exists():
+        system, params, spec = MODELS[target](), None, None
+    else:
+        study = _read(target)
+        system, params, spec = study.system, study.params, study.normal_form
+    names = [s.name for s in system.state_symbols]
+    f = Fields("command line")
+    if args.at is not None:
+        at = f.numbers(args.at.split(","), "--at", length=len(names))
+    elif spec is not None:
+        at = list(spec.at)
+    else:
+        at = _elliptic_point(system, params)
+    order = args.order or (spec.order if spec is not None else 4)
+    resonances = args.resonance or (list(spec.resonances) if spec is not None else None) or None
+    arithmetic = spec.arithmetic if spec is not None else "auto"
+    try:
+        nf = normal_form(system, at, order, resonances=resonances, params=params, arithmetic=arithmetic)
+    except ModelError as exc:
+        if "resonances=" not in str(exc):
+            raise
+        raise ModelError(f"{exc}; on the command line give each vector as --resonance, e.g. --resonance 1,-1") from None
+    if args.latex:
+        print(nf.latex())
+        return OK
+    import sympy as sp
+
+    print(f"{system.name}: {nf!r}")
+    print("at " + ", ".join(f"{n} = {v:.10g}" for n, v in zip(names, nf.equilibrium)))
+    print(f"arithmetic: {nf.arithmetic} ({nf.arithmetic_note})")
+    divisors = ", ".join(f"degree {k}: {v:.4g}" for k, v in sorted(nf.small_divisors.items()))
+    print(f"smallest |k.omega| removed: {divisors or 'none'}")
+    print()
+    print(sp.pretty(sp.Eq(sp.Symbol("H"), nf.hamiltonian, evaluate=False), use_unicode=_unicode_ok(sys.stdout)))
+    print()
+    print(f"{'degree':>6}  {'powers of J':<16}{'harmonic k':<14}{'cos':>22}  {'sin':>22}")
+    for row in nf.table():
+        powers = "(" + ", ".join(row["powers"] if isinstance(row["powers"][0], str)
+                                 else map(str, row["powers"])) + ")"
+        harmonic = "(" + ", ".join(map(str, row["harmonic"])) + ")"
+        print(f"{row['degree']:>6}  {powers:<16}{harmonic:<14}{row['cos_value']:>22.15g}  {row['sin_value']:>22.15g}")
+    return OK
+
+
+def _elliptic_point(system, params) -> list:
+    """The elliptic equilibrium (or fixed point) of lowest energy, for ``normal-form``."""
+    from phaselab.structures.equilibria import equilibria
+
+    found = [e for e in equilibria(system, params=params) if e.stability == "elliptic"]
+    if not found:
+        raise ModelError(f"{system.name} has no elliptic equilibrium that phaselab.equilibria finds; "
+                         "give one with --at")
+    found.sort(key=lambda e: float(getattr(e, "energy", 0.0) or 0.0))
+    return list(found[0].state)
 
 
 def cmd_equations(args) -> int:
@@ -203,6 +274,23 @@ def cmd_warm(args) -> int:
 
 
 # ----------------------------------------------------------------------------- parser
+def _order(text: str) -> int:
+    try:
+        value = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"must be a whole number, got {text!r}") from None
+    if not 2 <= value <= 16:
+        raise argparse.ArgumentTypeError(f"must be between 2 and 16, got {value}")
+    return value
+
+
+def _vector(text: str) -> tuple:
+    try:
+        return tuple(int(x) for x in text.split(","))
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"must be whole numbers separated by commas, e.g. 2,-1; got {text!r}") from None
+
+
 def build_parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(
         prog="phaselab",
@@ -232,6 +320,18 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("study", metavar="STUDY|MODEL", help="a study file, an example name or a catalogue model")
     p.add_argument("--latex", action="store_true", help="print LaTeX (one equation per line) for a report")
 
+    p = sub.add_parser("normal-form", help="compute and print a normal form at an elliptic equilibrium")
+    p.add_argument("study", metavar="STUDY|MODEL", help="a study file (its [normal_form] table), an example name "
+                                                        "or a catalogue model")
+    p.add_argument("--order", type=_order, default=None, metavar="N",
+                   help="highest degree in the distance from the equilibrium (default: the study's, else 4)")
+    p.add_argument("--at", default=None, metavar="Q,P",
+                   help="the equilibrium, comma-separated in state order (default: the study's, else the "
+                        "elliptic one of lowest energy)")
+    p.add_argument("--resonance", type=_vector, action="append", default=None, metavar="K",
+                   help="a resonance vector to keep, e.g. 2,-1 (repeat for several)")
+    p.add_argument("--latex", action="store_true", help="print the normal form as one LaTeX equation")
+
     sub.add_parser("examples", help="list the built-in studies and catalogue models")
     sub.add_parser("keys", help="print the reference of study-file tables and keys")
     sub.add_parser("warm", help="compile the loops every system shares, once per machine (for images and "
@@ -250,6 +350,7 @@ COMMANDS = {
     "render": cmd_render,
     "check": cmd_check,
     "equations": cmd_equations,
+    "normal-form": cmd_normal_form,
     "examples": cmd_examples,
     "keys": cmd_keys,
     "warm": cmd_warm,

@@ -108,6 +108,7 @@ FORMATS = {
     "Family": {s: _structure for s in (".json", ".nc", *FIGURE_FORMATS)},
     "SectionSlice": {s: _slice for s in (".nc", *FIGURE_FORMATS)},
     "NormalForm": {**{s: _own_file for s in (".json", ".nc", ".tex")}, **FIGURES},
+    "NormalFormCheck": {**DATA, **FIGURES},
     "Frequencies": {s: _frequencies for s in (".nc", *FIGURE_FORMATS)},
     "FrequencyMap": {**SCAN, **{s: _frequencies for s in FIGURE_FORMATS}},
     "ChaosMap": SCAN,

@@ -1,8 +1,8 @@
 """Reading and checking study files: TOML text -> a :class:`Study` of plain, checked values.
 
 A study file describes one surface-of-section computation and the files to write from it.
-Its tables are ``[study]``, ``[system]``, ``[parameters]``, ``[section]``, ``[states]`` and
-``[output]`` (see ``phaselab/studies/README.md`` for the full key list and examples). Reading
+Its tables are ``[study]``, ``[system]``, ``[parameters]``, ``[section]``, ``[states]``,
+the optional ``[structure]`` and ``[normal_form]``, and ``[output]`` (see ``phaselab/studies/README.md`` for the full key list and examples). Reading
 a file never executes anything from it: expressions are strings for the safe parser, a
 catalogue model is looked up by name in a fixed table, every value is type- and
 range-checked, unknown keys are refused, sizes are capped, and output paths are confined to
@@ -21,6 +21,7 @@ from pathlib import Path
 from phaselab.errors import PhaselabError, StudyFileError
 from phaselab.studies.fields import Fields
 from phaselab.studies.overrides import apply_overrides
+from phaselab.studies.normal_form_table import read_normal_form
 from phaselab.studies.paths import check_relative, confined_path
 from phaselab.studies.spec import (DATA_SUFFIXES, FIGURE_SUFFIXES, MAX_CROSSINGS, MAX_ORBITS,
                                    MAX_OUTPUTS, MAX_PIXELS, MAX_POINTS, OutputSpec, SectionSpec,
@@ -41,7 +42,7 @@ __all__ = ["read_study", "parse_study", "Study", "SectionSpec", "SeedSpec", "Out
 #: largest study file read, in bytes
 MAX_FILE_BYTES = 256 * 1024
 
-_TOP_KEYS = ("study", "system", "parameters", "section", "states", "structure", "output")
+_TOP_KEYS = ("study", "system", "parameters", "section", "states", "structure", "normal_form", "output")
 
 
 def read_study(path, overrides=None) -> Study:
@@ -121,10 +122,13 @@ def _build(f: Fields, data: dict) -> Study:
         raise f.error("section.crossings", f"{states.count} orbits x {section.crossings} crossings "
                                            f"= {total} points; the limit is {MAX_POINTS}")
     structure = read_structure(f, data, system, section)
+    normal_form = read_normal_form(f, data, system)
     folder, outputs = read_output(f, data)
     if structure is None and any(spec.kind == "orbits" for spec in outputs):
         raise f.error("output.orbits", "writes the periodic orbits of a [structure] table, and the file has none")
+    if normal_form is None and any(spec.kind == "normal_form" for spec in outputs):
+        raise f.error("output.normal_form", "writes the normal form of a [normal_form] table, and the file has none")
     study = Study(f.source, title, about, note, system, form, params, section, states, folder, outputs,
-                  structure)
+                  structure, normal_form)
     try_study(study)   # what render would fail on, found now
     return study

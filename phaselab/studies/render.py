@@ -19,6 +19,7 @@ import numpy as np
 
 from phaselab.errors import PhaselabError, StudyFileError
 from phaselab.studies.fields import Fields
+from phaselab.studies.normal_form_table import compute_normal_form
 from phaselab.studies.paths import confined_path, open_output_folder
 from phaselab.studies.spec import Study
 from phaselab.studies.seeding import seed_states
@@ -47,6 +48,8 @@ class Rendered:
         The periodic orbits of the study's ``[structure]`` table.
     manifolds : list of Manifold
         Their manifolds, when asked for.
+    normal_form : NormalForm or None
+        The normal form of the study's ``[normal_form]`` table.
     """
 
     section: object
@@ -55,6 +58,7 @@ class Rendered:
     messages: list = field(default_factory=list)
     orbits: object = None
     manifolds: list = field(default_factory=list)
+    normal_form: object = None
 
     @property
     def n_orbits(self) -> int:
@@ -93,6 +97,8 @@ class Rendered:
                      f"{len(words) - words.count('stable')} not)")
             if self.manifolds:
                 text += f" and {len(self.manifolds)} manifold branches"
+        if self.normal_form is not None:
+            text += f"; {self.normal_form!r}"
         return text
 
 
@@ -243,7 +249,7 @@ def join_sections(parts):
     return Section.concat(parts)
 
 
-def write_outputs(study: Study, sec, out_dir, orbits=None, manifolds=()) -> list[Path]:
+def write_outputs(study: Study, sec, out_dir, orbits=None, manifolds=(), normal_form=None) -> list[Path]:
     """Write every output the study names, under ``out_dir`` (folders made as needed).
 
     Each path is checked to resolve inside ``out_dir``; the file is then written through a
@@ -266,6 +272,8 @@ def write_outputs(study: Study, sec, out_dir, orbits=None, manifolds=()) -> list
         key = f"output.{spec.kind}"
         path = confined_path(Path(out_dir), study.folder, spec.file, study.source)
         options = dict(spec.options)
+        if spec.kind == "normal_form" and Path(spec.file).suffix.lower() in (".svg", ".pdf", ".png"):
+            options.setdefault("title", study.title or None)
         if spec.kind == "figure":
             options.setdefault("title", study.title or None)
             if study.note:
@@ -273,6 +281,8 @@ def write_outputs(study: Study, sec, out_dir, orbits=None, manifolds=()) -> list
         what = sec
         if spec.kind == "orbits":
             what = orbits
+        elif spec.kind == "normal_form":
+            what = normal_form
         elif spec.kind == "figure" and orbits is not None:
             # the structure over the section (the figure says these are model results)
             from phaselab.export.structures import MODEL_NOTE, structure_figure
@@ -327,8 +337,9 @@ def render_study(study: Study, out_dir, progress=None) -> Rendered:
     orbits, branches = (None, [])
     if study.structure is not None:
         orbits, branches = compute_structure(study, sec)
-    files = write_outputs(study, sec, out_dir, orbits, branches)
-    return Rendered(sec, files, left_out, messages, orbits, branches)
+    nf = compute_normal_form(study) if study.normal_form is not None else None
+    files = write_outputs(study, sec, out_dir, orbits, branches, normal_form=nf)
+    return Rendered(sec, files, left_out, messages, orbits, branches, nf)
 
 
 @dataclass

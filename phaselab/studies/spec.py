@@ -128,13 +128,14 @@ MAX_STARTS = 400
 
 @dataclass
 class OutputSpec:
-    """One file to write: a figure (.svg/.pdf/.png), a section data file (.csv/.nc), or the
-    periodic orbits of ``[structure]`` (.json/.nc).
+    """One file to write: a figure (.svg/.pdf/.png), a section data file (.csv/.nc), the
+    periodic orbits of ``[structure]`` (.json/.nc), or the normal form of ``[normal_form]``
+    (.tex/.json/.nc, or its detuning figure as .svg/.pdf/.png).
 
     Attributes
     ----------
     kind : str
-        ``"figure"``, ``"data"`` or ``"orbits"``.
+        ``"figure"``, ``"data"``, ``"orbits"`` or ``"normal_form"``.
     file : str
         Path relative to the output folder (checked not to leave it).
     options : dict
@@ -171,6 +172,9 @@ class Study:
     outputs : list of OutputSpec
     structure : StructureSpec or None
         Periodic orbits (and manifolds) to find, from ``[structure]``.
+    normal_form : NormalFormSpec or None
+        The normal form to compute, from ``[normal_form]``
+        (:mod:`phaselab.studies.normal_form_table`).
     """
 
     source: str
@@ -185,6 +189,7 @@ class Study:
     folder: str
     outputs: list
     structure: StructureSpec | None = None
+    normal_form: object = None
 
     def output_paths(self, out_dir) -> list[Path]:
         """The paths the outputs are written to under ``out_dir`` (confined to it)."""

@@ -225,13 +225,13 @@ def read_states(f: Fields, data: dict, system, section: SectionSpec) -> SeedSpec
 # ====================================================================== [output]
 def read_output(f: Fields, data: dict):
     out = f.table(data, "", "output")
-    f.only_keys(out, "output", ("folder", "figure", "data", "orbits"))
+    f.only_keys(out, "output", ("folder", "figure", "data", "orbits", "normal_form"))
     folder = ""
     if "folder" in out:
         folder = f.string(out, "output", "folder", max_length=200)
         check_relative(f, folder, "output.folder")
     specs: list[OutputSpec] = []
-    for kind in ("figure", "data", "orbits"):
+    for kind in ("figure", "data", "orbits", "normal_form"):
         items = out.get(kind, [])
         if isinstance(items, dict):
             items = [items]
@@ -243,15 +243,26 @@ def read_output(f: Fields, data: dict):
                 raise f.error(full, "must be a table with at least a file key")
             if kind == "figure":
                 f.only_keys(item, full, ("file", "size", "dpi", "title", "point_size"))
+            elif kind == "normal_form":
+                f.only_keys(item, full, ("file", "size", "dpi", "title", "j_max"))
             else:
                 f.only_keys(item, full, ("file",))
             name = f.string(item, full, "file", required=True, max_length=300)
             check_relative(f, name, f"{full}.file")
-            suffixes = {"figure": FIGURE_SUFFIXES, "data": DATA_SUFFIXES, "orbits": ORBIT_SUFFIXES}[kind]
+            suffixes = {"figure": FIGURE_SUFFIXES, "data": DATA_SUFFIXES, "orbits": ORBIT_SUFFIXES,
+                        "normal_form": NORMAL_FORM_SUFFIXES}[kind]
             suffix = PurePosixPath(name).suffix.lower()
             if suffix not in suffixes:
                 raise f.error(f"{full}.file", f"a {kind} file ends in {', '.join(suffixes)}, got {name!r}")
             options = {}
+            if kind == "normal_form":
+                if suffix in FIGURE_SUFFIXES:
+                    options = _figure_options(f, item, full)
+                    j_max = f.get_number(item, full, "j_max", positive=True)
+                    if j_max is not None:
+                        options["j_max"] = j_max
+                elif set(item) - {"file"}:
+                    raise f.error(f"{full}.{sorted(set(item) - {'file'})[0]}", "only figures (.svg, .pdf, .png) take options")
             if kind == "figure":
                 if "size" in item:
                     w, h = f.numbers(item["size"], f"{full}.size", length=2)
@@ -284,6 +295,27 @@ def read_output(f: Fields, data: dict):
 
 
 ORBIT_SUFFIXES = (".json", ".nc")
+NORMAL_FORM_SUFFIXES = (".tex", ".json", ".nc") + FIGURE_SUFFIXES
+
+
+def _figure_options(f: Fields, item: dict, full: str) -> dict:
+    """size, dpi and title of a normal form's figure (checked like a section figure's)."""
+    options = {}
+    if "size" in item:
+        w, h = f.numbers(item["size"], f"{full}.size", length=2)
+        if not (2.0 <= w <= 40.0 and 1.5 <= h <= 40.0):
+            raise f.error(f"{full}.size", f"must be [width, height] in inches between 2 x 1.5 and 40 x 40, "
+                                          f"got [{w:g}, {h:g}]")
+        options["size"] = (w, h)
+    dpi = f.get_number(item, full, "dpi", low=20, high=600)
+    if dpi is not None:
+        options["dpi"] = dpi
+    w, h = options.get("size", (5.5, 4.0))
+    if max(w, h) * options.get("dpi", 150) > MAX_PIXELS:
+        raise f.error(f"{full}.dpi", f"the figure would be more than {MAX_PIXELS} pixels on a side")
+    if "title" in item:
+        options["title"] = f.drawn_text(item, full, "title", max_length=200)
+    return options
 
 
 def read_structure(f: Fields, data: dict, system, section):

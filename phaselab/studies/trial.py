@@ -18,6 +18,7 @@ import numpy as np
 from phaselab.engine import limits
 from phaselab.errors import PhaselabError, StudyFileError
 from phaselab.studies.fields import Fields
+from phaselab.studies.normal_form_table import try_normal_form
 from phaselab.studies.seeding import seed_states
 from phaselab.studies.spec import Study
 
@@ -52,6 +53,7 @@ def try_study(study: Study) -> None:
     states = _seed_states(f, study)
     _check_box(f, study, states)
     _check_structure(f, study)
+    try_normal_form(f, study.normal_form, study.system, study.params)
 
 
 def _seed_states(f: Fields, study: Study) -> np.ndarray:

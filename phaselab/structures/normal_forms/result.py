@@ -11,6 +11,7 @@ import sympy as sp
 
 from phaselab.base.atomic import atomic_path
 from phaselab.errors import ParameterError
+from phaselab.structures.normal_forms.curves import torus_curve
 from phaselab.structures.normal_forms.islands import resonance_width
 from phaselab.structures.normal_forms.polynomials import as_arrays, evaluate
 from phaselab.structures.normal_forms.terms import evaluate_terms, term_arrays
@@ -230,6 +231,26 @@ class NormalForm:
         ResonanceWidth
         """
         return resonance_width(self._arrays, self.resonances, J, resonance)
+
+    def invariant_curve(self, J, plane, *, direction=+1, points=200) -> np.ndarray:
+        """The trace of the torus of actions ``J`` (shape (2,)) on a surface of section, from
+        :meth:`from_normal` (flows of two degrees of freedom; see
+        :mod:`phaselab.structures.normal_forms.curves`).
+
+        Parameters
+        ----------
+        J : array_like, shape (2,)
+        plane : mapping
+            ``{coordinate name: value}``, crossed in ``direction`` (+1: increasing).
+        points : int
+            Values of the other angle.
+
+        Returns
+        -------
+        ndarray, shape (points + 1, 4)
+            States on the plane (a closed curve), NaN where the torus misses it.
+        """
+        return torus_curve(self, J, plane, direction=direction, points=points)
 
     # ----------------------------------------------------------------- reports
     def table(self) -> list[dict]:
