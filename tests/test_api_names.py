@@ -47,6 +47,8 @@ POSITIONAL = {
     "manifold": ("orbit",),
     "torus_breakup": ("system", "rotation_number", "parameter", "span"),
     "normal_form": ("system", "at", "order"),
+    "normal_form_check": ("system", "nf", "actions", "t"),
+    "branch_family": ("family", "bifurcation", "span"),
     "warm": (),
     "set_limits": (),
 }

@@ -82,7 +82,7 @@ BUILDERS = {
     "SectionSlice": _slice,
     "NormalForm": lambda: phaselab.normal_form(_pendulum(), [0.0, 0.0], 4),
     "NormalFormCheck": lambda: phaselab.normal_form_check(_pendulum(), phaselab.normal_form(_pendulum(), [0.0, 0.0], 4),
-                                                          [[0.05], [0.1]], 60.0, n=256),
+                                                          [[0.05], [0.1]], 60.0, samples=256),
 }
 
 ORBITS = {"Trajectory", "Section", "ChaosIndicators", "Frequencies"}

@@ -150,7 +150,7 @@ BAD = {
     "actions": [None, "abc", object(), [[1j]], [[NAN]], [[INF]], [[-1.0]], [], [[[0.1]]], [["a"]]],
     "t": [None, NAN, INF, -1.0, 0.0, "1", 1j, True],
     "angles": ["abc", object(), [[NAN]], [[0.1, 0.2]], [[1j]]],
-    "n": [-1, 0, 1.5, NAN, "10", True, 10**12],
+    "samples": [-1, 0, 1.5, NAN, "10", True, 10**12],
     "dt": [NAN, INF, -1.0, 0.0, "0.1"],
     "method": [3, "nope", None],
 }
@@ -170,7 +170,7 @@ def test_every_bad_argument_is_refused_by_phaselab(arg, value):
     system = unit_pendulum()
     nf = phaselab.normal_form(system, [0, 0], 4)
     args = {"system": system, "nf": nf, "actions": [[0.1]], "t": 20.0}
-    kwargs = {"n": 64}
+    kwargs = {"samples": 64}
     (args if arg in args else kwargs)[arg] = value
     with pytest.raises(phaselab.PhaselabError):
         phaselab.normal_form_check(args["system"], args["nf"], args["actions"], args["t"], **kwargs)
@@ -180,6 +180,6 @@ def test_every_bad_argument_is_refused_by_phaselab(arg, value):
 def test_every_bad_island_argument_is_refused_by_phaselab(arg, value):
     system = detuned_two_to_one()
     nf = phaselab.normal_form(system, [0, 0, 0, 0], 4, resonances=[(2, -1)])
-    kwargs = {"n": 64, "island": [0.17, 0.1], "island_orbits": 5, "crossings": 20, arg: value}
+    kwargs = {"samples": 64, "island": [0.17, 0.1], "island_orbits": 5, "crossings": 20, arg: value}
     with pytest.raises(phaselab.PhaselabError):
         phaselab.normal_form_check(system, nf, [[0.1, 0.1]], 20.0, **kwargs)

@@ -324,7 +324,7 @@ def test_island_width_of_an_isolated_resonance():
     I = np.concatenate([[0.0], half * np.linspace(0.85, 1.15, 7), -half * np.linspace(0.85, 1.15, 7)])
     J = np.stack([J1 + 2 * I, J2 - I], axis=1)
     phi = np.zeros_like(J)
-    phi[:, 0] = island.centre_angle / 2
+    phi[:, 0] = island.center_angle / 2
     tr = phaselab.trajectory(system, nf.from_normal(J, phi), 5000.0, method="yoshida6")
     z = tr.states[:, ::25]
     angles = -np.angle(z[..., :2] * nf.omega + 1j * z[..., 2:])

@@ -36,7 +36,7 @@ class ResonanceWidth:
         Full width ``4 sqrt(|A/G|)`` in the action ``I`` along ``k``.
     action_widths : ndarray, shape (n,)
         Full width in each action ``J_j`` (``|k_j| width``).
-    centre_angle : float
+    center_angle : float
         The resonant angle ``psi = k . phi`` of the island centres (rad, in (-pi, pi]).
     """
 
@@ -46,7 +46,7 @@ class ResonanceWidth:
     curvature: float
     width: float
     action_widths: np.ndarray
-    centre_angle: float
+    center_angle: float
 
 
 def primitive(k) -> tuple:

@@ -17,6 +17,7 @@ compiled reversor kernel.
 from __future__ import annotations
 
 import hashlib
+from functools import cached_property
 
 import numpy as np
 import sympy as sp
@@ -25,6 +26,7 @@ from phaselab.codegen import compile_kernel
 from phaselab.engine import inputs
 from phaselab.engine import status as codes
 from phaselab.errors import IntegrationError, ModelError
+from phaselab.model.derivatives import map_derivatives
 from phaselab.structures.periodic.assembly import assemble, image_of
 from phaselab.structures.returns import MapReturn
 
@@ -49,6 +51,11 @@ class _Reversor:
     @property
     def param_symbols(self):
         return tuple(p.symbol for p in self.parameters)
+
+    @cached_property
+    def kernel_derivatives(self):
+        """The rules and their Jacobian as the code generator prints them."""
+        return map_derivatives(self.update, self.state_symbols, self.param_symbols)
 
 
 def _reversor_kernel(system):
