@@ -1,4 +1,5 @@
-"""The README's tour runs as written (its Python blocks, in order, in a scratch folder)."""
+"""The README's tour runs as written (its Python blocks, in order, in a scratch folder), the
+cluster snippet on a local two-worker Dask cluster."""
 
 import os
 import re
@@ -21,6 +22,8 @@ def test_readme_tour_runs(tmp_path, monkeypatch):
     assert (tmp_path / "bead_portrait.svg").stat().st_size > 0
     assert scope["picture"].shape == (200, 200)
     assert (tmp_path / "megno.nc").stat().st_size > 0 and (tmp_path / "megno.zarr").is_dir()
+    # the cluster snippet ran on a local two-worker cluster and gave the local numbers
+    assert scope["spread"].image.shape == (200, 200)
 
 
 def test_readme_commands_match_ci():
