@@ -59,7 +59,7 @@ moon_x = 1 - mass_ratio
 # %%
 box = {"x": (-1.5, 1.5), "y": (-1.0, 1.0), "z": (-0.1, 0.1), "px": (-1.0, 1.0), "py": (-1.5, 1.5),
        "pz": (-0.1, 0.1)}
-eqs = phaselab.equilibria(pair, params=prm, bounds=box, starts=400)
+eqs = phaselab.equilibria(pair, params=prm, ranges=box, starts=400)
 for e in eqs:
     print(f"rest point at x = {e.state[0]:+.5f}, y = {e.state[1]:+.5f}, z = {e.state[2]:+.1e}: "
           f"C = {-2 * e.energy:.5f}, {e.stability}")
