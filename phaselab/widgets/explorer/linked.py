@@ -75,7 +75,7 @@ class LinkedExplorer(LinkedCommands, LinkedFiles, W.VBox):
 
     def __init__(self, system, energy=None, plane=None, solve_for=None, crossings=300, params=None, **options):
         from phaselab.widgets.linked_figures import LinkedFigures
-        from phaselab.widgets.page import LiveBokehModel
+        from phaselab.widgets.linked_page import LinkedBokehModel
 
         unknown = sorted(set(options) - set(OPTIONS))
         if unknown:
@@ -121,7 +121,7 @@ class LinkedExplorer(LinkedCommands, LinkedFiles, W.VBox):
         self._apply_held(o.get("held"))
         self.figures = LinkedFigures(self._labels, [self.view.windows[c] for c in coords], self._pair)
         self._wire_figures()   # before the document is made: its events are subscribed then
-        self.bokeh = LiveBokehModel(self.figures.layout, combine_events=False)
+        self.bokeh = LinkedBokehModel(self.figures.layout, self.figures.points.selected, combine_events=False)
         self.bokeh.add_class("pl-plot")
         self.controls = c = LinkedControls(self.name, self.view.describe(), f"pl-readout-{self._uid}", coords)
         self._add_controls(energy, o.get("energy_range"), p0)

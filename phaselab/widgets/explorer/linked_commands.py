@@ -196,7 +196,13 @@ class LinkedCommands:
                                  f"{', '.join(scales.CHAOS_INDICATORS)}, got {color_by!r}")
         old, self.color_by = self.color_by, color_by
         self._sync({"c": self.controls.color}, {"c": color_by or ""})
-        f = self.figures
+        with self._patch(models_change=True):
+            self._draw_color()
+        if color_by in scales.CHAOS_INDICATORS and old != color_by and self.session.orbits:
+            self._recompute_all()   # the values of the new indicator
+
+    def _draw_color(self):
+        coords, color_by, f = self.view.coordinates, self.color_by, self.figures
         if color_by is None:
             f.color_by_orbit()
         elif color_by in coords:
@@ -207,8 +213,6 @@ class LinkedCommands:
             scale = (scales.megno_scale(self.crossings, None, self.view.noun) if color_by == "megno"
                      else scales.scale_for(color_by))
             f.color_by_column("value", scale.low, scale.high, scale.palette(), scale.title)
-            if old != color_by and self.session.orbits:
-                self._recompute_all()
 
     # ------------------------------------------------------------------ slab
     def set_slab(self, name=None, center=None, half_width=None):
@@ -250,7 +254,18 @@ class LinkedCommands:
     # ------------------------------------------------------------------ selection
     def select_points(self, rows):
         """Select points by row number (as a box or lasso in the page does)."""
-        self.figures.points.selected.indices = [int(i) for i in np.asarray(rows, dtype=np.int64)]
+        from bokeh.core.property.validation import without_property_validation
+
+        rows = np.asarray(rows)
+        n = len(self.figures.points.data["orbit"])
+        if rows.ndim != 1 or (rows.size and (rows.dtype.kind not in "iu" or rows.min() < 0 or rows.max() >= n)):
+            raise ParameterError(f"rows must be whole numbers from 0 to {n - 1}, got {rows!r:.80}")
+
+        @without_property_validation
+        def assign():   # whole numbers in range, checked above
+            self.figures.points.selected.indices = rows.astype(np.int32)
+
+        assign()
 
     def _on_selection(self, attr, old, new):
         t0 = time.perf_counter()
@@ -274,13 +289,15 @@ class LinkedCommands:
 
     # ------------------------------------------------------------------ drawing
     @contextlib.contextmanager
-    def _patch(self):
-        """The bokeh changes made inside reach the page as one patch."""
+    def _patch(self, models_change=False):
+        """The bokeh changes made inside reach the page as one patch. ``models_change``: the
+        changes name models (a colour spec names its mapper), and the document's list of
+        models is then walked once at the end instead of after each (7 walks otherwise)."""
         doc = self.figures.main.document
         if doc is None:
             yield
             return
-        with self.bokeh.batch():
+        with self.bokeh.batch(), (doc.models.freeze() if models_change else contextlib.nullcontext()):
             doc.hold("combine")
             try:
                 yield
