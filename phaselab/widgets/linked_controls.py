@@ -44,6 +44,7 @@ class LinkedControls(Controls):
         self.slab_width = W.BoundedFloatText(value=0.05, min=1e-12, max=1e12, step=0.005, description="half-width",
                                              style={"description_width": "62px"}, layout=W.Layout(width="150px"))
         self.selection = W.HTML("")
+        self.color.description = ""   # the row's label says it
 
     def add_held(self, name, description, value, lo, hi):
         """A slider for held section coordinate ``name`` (its value at the next seeds)."""
@@ -63,7 +64,7 @@ class LinkedControls(Controls):
         s.max = max(hi, s.max)
         s.value = center
         s.min, s.max, s.step = lo, hi, step
-        self.slab_width.value = half_width
+        self.slab_width.value = float(f"{half_width:.2g}")
 
     def linked_layout(self, bokeh):
         header = W.HBox([self.title, self.count], layout=W.Layout(justify_content="space-between"))

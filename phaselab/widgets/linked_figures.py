@@ -142,19 +142,12 @@ class LinkedFigures:
             cells.append(line)
         grid = gridplot(cells, toolbar_location="right", merge_tools=True)
 
-        bar = figure(width=96, height=SEED_FRAME + 40, toolbar_location=None, tools=[], min_border=0,
-                     outline_line_color=None, name="phaselab-linked-colorbar", x_range=(0, 1), y_range=(0, 1))
-        bar.axis.visible = False
-        bar.grid.visible = False
-        bar.background_fill_color = None
-        bar.border_fill_color = None
-        self.color_bar = ColorBar(color_mapper=self.scalar_mapper, title="", width=12, padding=4,
+        self.color_bar = ColorBar(color_mapper=self.scalar_mapper, title="", width=12, padding=6,
                                   major_label_text_font_size="10px", background_fill_alpha=0.0,
-                                  title_text_font_size="10.5px", title_text_font_style="normal")
-        bar.add_layout(self.color_bar, "left")
-        bar.visible = False
-        self.bar = bar
-        self.layout = row(main, bar, grid, spacing=8)
+                                  title_text_font_size="11px", title_text_font_style="normal",
+                                  title_text_color=theme.INK, visible=False)
+        main.add_layout(self.color_bar, "right")
+        self.layout = row(main, grid, spacing=12)
 
     # ------------------------------------------------------------------ drawing
     def set_points(self, columns):
@@ -184,7 +177,7 @@ class LinkedFigures:
 
     def color_by_orbit(self):
         self._fill({"field": "shade", "transform": self.orbit_mapper})
-        self.bar.visible = False
+        self.color_bar.visible = False
 
     def color_by_column(self, column, low, high, palette, title):
         """Colour by a data column (a section coordinate or ``value``) on ``palette``."""
@@ -192,11 +185,14 @@ class LinkedFigures:
         self.scalar_mapper.low, self.scalar_mapper.high = float(low), float(high)
         self.color_bar.title = title
         self._fill({"field": column, "transform": self.scalar_mapper})
-        self.bar.visible = True
+        self.color_bar.visible = True
 
     def _fill(self, spec):
+        # the selected and the faded points are drawn by glyphs of their own
         for r in self.point_renderers:
-            r.glyph.fill_color = spec
+            for g in (r.glyph, r.selection_glyph, r.nonselection_glyph):
+                if hasattr(g, "fill_color"):
+                    g.fill_color = spec
 
     def show_seeds(self, xs, ys, colors, ids):
         self.seeds.data = dict(x=list(map(float, xs)), y=list(map(float, ys)), color=list(colors),

@@ -148,8 +148,8 @@ def test_selection_in_one_projection_is_reported_by_orbit(ex):
 
 def test_colour_by_hidden_coordinate_changes_only_the_mapper(ex):
     ex.set_color("p2")
-    spec = ex.figures.point_renderers[0].glyph.fill_color
-    assert spec["field"] == "c3"
+    for r in ex.figures.point_renderers:     # the selected and faded points too
+        assert {g.fill_color["field"] for g in (r.glyph, r.selection_glyph, r.nonselection_glyph)} == {"c3"}
     assert (ex.figures.scalar_mapper.low, ex.figures.scalar_mapper.high) == ex.view.windows["p2"]
     ex.set_color(None)
     with pytest.raises(phaselab.ParameterError, match="section coordinate"):

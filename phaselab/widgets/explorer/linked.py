@@ -26,6 +26,7 @@ from pathlib import Path
 import ipywidgets as W
 import numpy as np
 
+from phaselab.codegen import progress
 from phaselab.errors import ParameterError
 from phaselab.model.params import finite_number
 from phaselab.widgets import scales, theme
@@ -36,7 +37,7 @@ from phaselab.widgets.explorer.linked_files import LinkedFiles
 from phaselab.widgets.linked_controls import SLAB_FRACTION, LinkedControls
 from phaselab.widgets.session import Session
 from phaselab.widgets.views.section4_view import Section4View
-from phaselab.widgets.worker import JobRunner
+from phaselab.widgets.worker import JobRunner, current_loop
 
 #: Options of :func:`phaselab.explore` the linked explorer takes (besides the essentials).
 OPTIONS = ("ranges", "sign", "axes", "held", "energy_range", "color_by", "background", "export_dir",
@@ -102,6 +103,7 @@ class LinkedExplorer(LinkedCommands, LinkedFiles, W.VBox):
         if bad or not self.export_formats:
             raise ParameterError(f"export_formats must be some of .png .svg .pdf .csv .nc; got {formats!r}")
         self.jobs = JobRunner(o.get("background", True))
+        self._loop = current_loop()
         self.name = o.get("title") or getattr(system, "name", "system")
         self.last_timing: dict[str, float] = {}
         self.last_error = None
@@ -134,6 +136,8 @@ class LinkedExplorer(LinkedCommands, LinkedFiles, W.VBox):
         self._say("Click the left plot to start an orbit (the sliders hold the other section coordinates); "
                   "select points with the box or lasso in any projection.")
         self._show_count()
+        # compile news (the first orbit of a new system) goes to the status line, not the console
+        progress.add_listener(self._on_compile_event)
         if o.get("session") is not None:
             self.load_session(o["session"])
 
@@ -232,7 +236,15 @@ class LinkedExplorer(LinkedCommands, LinkedFiles, W.VBox):
         self.bokeh.refresh(send=True)
         return super()._repr_mimebundle_(**kwargs)
 
+    def _on_compile_event(self, event, what):
+        # called from any thread: shown by the widgets' thread
+        if event not in ("start", "end"):
+            return
+        text = f"Compiling {what} (first time only) ..." if event == "start" else f"Compiled {what}."
+        self.jobs.call_soon(lambda: self._say(text), self._loop)
+
     def close(self):
+        progress.remove_listener(self._on_compile_event)
         if hasattr(self, "jobs"):
             self.jobs.close()
         super().close()
