@@ -133,6 +133,12 @@ def test_slab_filter_equals_numpy_selection(ex):
     assert all(r.view.filter is ex.figures.slab_filter for r in ex.figures.point_renderers)
     # the same points as the library's slice of the same section
     assert ex.sliced().n_points == len(expected)
+    # an orbit added while the slab is on: its rows are appended (streamed) and filtered too
+    ex.add_seed(0.1, -0.3)
+    p2 = np.concatenate([o.section.points[0, : o.section.counts[0], 4] for o in ex.orbits])
+    assert len(ex.figures.points.data["c3"]) == len(p2) == 4 * CROSSINGS
+    np.testing.assert_array_equal(ex.figures.points.data["c3"], p2)
+    np.testing.assert_array_equal(np.asarray(ex.figures.slab_filter.indices), np.flatnonzero(np.abs(p2 - 0.05) < 0.08))
     ex.clear_slab()
     assert all(r.view.filter is ex.figures.all_rows for r in ex.figures.point_renderers)
 

@@ -67,7 +67,7 @@ class LinkedCommands:
                 records.append(rec)
             self.session.add(records)
             accepted.extend(records)
-            self._redraw()
+            self._append(records)
             self.last_timing["orbits"] = seconds
             if refused:
                 where, why = refused[0]
@@ -315,6 +315,24 @@ class LinkedCommands:
                                     [r.color for r in shown], [r.id for r in shown])
             if self.slab is not None:
                 self.figures.set_slab_rows(np.flatnonzero(self.slab.mask(self.figures.points.data)))
+        self.last_timing["columns"] = time.perf_counter() - t0
+        self._show_count()
+
+    def _append(self, records):
+        """New orbits' points appended to the source: only their rows travel to the page
+        (the shown points stay, and so does the selection's meaning)."""
+        t0 = time.perf_counter()
+        shown = [r for r in records if r.shown]
+        with self._patch():
+            if shown:
+                self.figures.append_points(point_columns(shown, len(self.view.coordinates),
+                                                         len(theme.ORBIT_COLORS)))
+                if self.slab is not None:
+                    self.figures.set_slab_rows(np.flatnonzero(self.slab.mask(self.figures.points.data)))
+            a, b = self._pair
+            every = self.session.shown()
+            self.figures.show_seeds([self._seed_of[r.id][a] for r in every], [self._seed_of[r.id][b] for r in every],
+                                    [r.color for r in every], [r.id for r in every])
         self.last_timing["columns"] = time.perf_counter() - t0
         self._show_count()
 
