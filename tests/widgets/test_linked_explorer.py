@@ -188,3 +188,34 @@ def test_bad_options_are_refused(springs):
         phaselab.explore(springs, energy=E0, plane=PLANE, duration=3.0, background=False)
     with pytest.raises(phaselab.ParameterError, match="energy"):
         phaselab.explore(springs, plane=PLANE, background=False)
+
+
+def test_section4_session_files_are_checked(ex, tmp_path):
+    import json
+
+    from phaselab.widgets.session_file import read_session
+
+    good = {"format": "phaselab-explorer-session", "version": 1, "system": "three springs", "kind": "section4",
+            "energy": 0.5, "params": {"k": 0.1},
+            "view": {"plane": {"x3": 0.0}, "solve_for": "p3", "direction": 1, "axes": ["x1", "p1"],
+                     "coordinates": ["x1", "x2", "p1", "p2"], "held": {"x2": 0.0, "p2": 0.1},
+                     "slab": {"name": "p2", "center": 0.0, "half_width": 0.1}},
+            "color": {"by": "x2"}, "orbits": [{"seed": [0.1, 0.0, 0.2, 0.1], "crossings": 20}], "selected": None}
+    path = tmp_path / "good.json"
+    path.write_text(json.dumps(good))
+    assert read_session(path)["orbits"][0]["seed"] == [0.1, 0.0, 0.2, 0.1]
+    bad = json.loads(json.dumps(good))
+    bad["view"]["slab"]["half_width"] = -0.1
+    path.write_text(json.dumps(bad))
+    with pytest.raises(phaselab.ParameterError, match="view.slab.half_width"):
+        read_session(path)
+    bad = json.loads(json.dumps(good))
+    bad["orbits"][0]["seed"] = [0.1, 0.0, 0.2]
+    path.write_text(json.dumps(bad))
+    with pytest.raises(phaselab.ParameterError, match=r"orbits\[0\].seed"):
+        ex.load_session(path)          # three numbers for four section coordinates
+    plane_kind = json.loads(json.dumps(good))
+    plane_kind["kind"] = "section"
+    path.write_text(json.dumps(plane_kind))
+    with pytest.raises(phaselab.ParameterError, match=r"orbits\[0\].seed"):
+        read_session(path)             # a plane explorer's seed is a pair
