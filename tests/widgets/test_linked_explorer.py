@@ -219,3 +219,20 @@ def test_section4_session_files_are_checked(ex, tmp_path):
     path.write_text(json.dumps(plane_kind))
     with pytest.raises(phaselab.ParameterError, match=r"orbits\[0\].seed"):
         read_session(path)             # a plane explorer's seed is a pair
+
+
+@pytest.mark.slow
+def test_colour_by_megno(ex):
+    ex.clear()
+    ex.add_seeds([(0.3, 0.25), (-0.2, 0.4)], held={"x2": 0.1, "p2": 0.1})
+    ex.set_color("megno")
+    values = [o.scalar for o in ex.orbits]
+    # a linear system (our springs) has isochronous motion: deviations grow at most
+    # linearly with a constant rate, and MEGNO tends to 0 (Cincotta & Simo, Astron.
+    # Astrophys. Suppl. 147, 205, 2000, the harmonic oscillator case)
+    assert all(np.isfinite(v) and abs(v) < 0.05 for v in values), values
+    d = ex.figures.points.data
+    for o in ex.orbits:
+        assert np.all(d["value"][d["orbit"] == o.id] == o.scalar)
+    assert ex.figures.point_renderers[0].glyph.fill_color["field"] == "value"
+    ex.set_color(None)
