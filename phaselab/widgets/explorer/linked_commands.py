@@ -320,15 +320,17 @@ class LinkedCommands:
 
     def _append(self, records):
         """New orbits' points appended to the source: only their rows travel to the page
-        (the shown points stay, and so does the selection's meaning)."""
+        (the shown points stay, and so does the selection's meaning). With the slab on every
+        point is sent again: the page kept streamed rows outside the slab's filter in view."""
+        if self.slab is not None:
+            self._redraw()
+            return
         t0 = time.perf_counter()
         shown = [r for r in records if r.shown]
         with self._patch():
             if shown:
                 self.figures.append_points(point_columns(shown, len(self.view.coordinates),
                                                          len(theme.ORBIT_COLORS)))
-                if self.slab is not None:
-                    self.figures.set_slab_rows(np.flatnonzero(self.slab.mask(self.figures.points.data)))
             a, b = self._pair
             every = self.session.shown()
             self.figures.show_seeds([self._seed_of[r.id][a] for r in every], [self._seed_of[r.id][b] for r in every],
