@@ -21,6 +21,11 @@ own (see :data:`FILE_FORMAT`), so a notebook can re-create the same picture:
 from the energy (sections) or is zero-free (maps, portraits, driven systems: the seed is
 the state). ``selected`` is an orbit's place in ``orbits`` counted from 1, or null.
 
+Files of the linked explorer (three or more degrees of freedom) have kind ``"section4"``:
+each ``seed`` holds every section coordinate (clicked pair and held values, in
+``view.coordinates`` order), and ``view`` adds ``coordinates``, ``held`` (the sliders) and
+``slab`` (``{"name", "center", "half_width"}`` or null).
+
 Reading a file (bounded, every value checked before the explorer changes anything) is in
 :mod:`phaselab.widgets.session_file`.
 """

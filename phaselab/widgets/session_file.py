@@ -34,7 +34,13 @@ MAX_CROSSINGS = 100_000
 MAX_POINTS = 2_000_000
 """Most crossings summed over the orbits of one file."""
 KEYS = ("format", "version", "system", "kind", "energy", "params", "view", "color", "orbits", "selected")
-VIEW_KEYS = ("plane", "solve_for", "direction", "axes", "ranges", "equal_aspect", "crossings")
+VIEW_KEYS = ("plane", "solve_for", "direction", "axes", "ranges", "equal_aspect", "crossings", "coordinates",
+             "held", "slab")
+"""The last three only in files of the linked explorer (kind ``"section4"``)."""
+LINKED_KIND = "section4"
+"""The kind of the linked explorer's files, whose seeds hold every section coordinate."""
+MAX_SEED = 64
+"""Most numbers in one seed (a seed in every section coordinate of the linked explorer)."""
 COLOR_KEYS = ("by", "low", "anchor", "high")
 _STRING = re.compile(r'"(?:[^"\\]|\\.)*"', re.S)
 _BRACKET = re.compile(r"[\[\]{}]")
@@ -196,7 +202,7 @@ def _check(data) -> dict:
     if data.get("version") != FILE_VERSION or isinstance(data.get("version"), bool):
         raise _Bad("version", f"version {_show(data.get('version'))} is not supported (expected {FILE_VERSION})")
     params = _mapping(data.get("params"), "params")
-    orbits = _orbits(data.get("orbits"))
+    orbits = _orbits(data.get("orbits"), data.get("kind") == LINKED_KIND)
     selected = data.get("selected")
     if selected is not None:
         if not orbits:
@@ -240,9 +246,39 @@ def _view(value) -> dict:
     if not isinstance(equal, bool):
         raise _Bad("view.equal_aspect", f"must be true or false, got {_show(equal)}")
     crossings = v.get("crossings")
-    return {"plane": plane, "solve_for": _text(v.get("solve_for"), "view.solve_for"),
+    extra = _linked_view(v)
+    return {**extra, "plane": plane, "solve_for": _text(v.get("solve_for"), "view.solve_for"),
             "direction": direction, "axes": axes, "ranges": ranges, "equal_aspect": equal,
             "crossings": None if crossings is None else _integer(crossings, "view.crossings", 1, MAX_CROSSINGS)}
+
+
+def _linked_view(v) -> dict:
+    """``coordinates``, ``held`` and ``slab`` of a linked explorer's view (absent: None)."""
+    coords = v.get("coordinates")
+    if coords is not None:
+        if not isinstance(coords, list) or not 2 <= len(coords) <= MAX_SEED:
+            raise _Bad("view.coordinates", f"must be a list of names, got {_show(coords)}")
+        coords = [_text(c, "view.coordinates", False) for c in coords]
+    held = v.get("held")
+    if held is not None:
+        held = {_text(k, "view.held", False): _number(x, f"view.held.{k}")
+                for k, x in _mapping(held, "view.held").items()}
+    slab = v.get("slab")
+    if slab is not None:
+        slab = _mapping(slab, "view.slab", ("name", "center", "half_width"))
+        width = _number(slab.get("half_width"), "view.slab.half_width")
+        if not width > 0:
+            raise _Bad("view.slab.half_width", f"must be positive, got {width:g}")
+        slab = {"name": _text(slab.get("name"), "view.slab.name", False),
+                "center": _number(slab.get("center"), "view.slab.center"), "half_width": width}
+    return {"coordinates": coords, "held": held, "slab": slab}
+
+
+def _seed(value, key) -> list:
+    """A seed: ``[x, y]`` in the shown plane, or one number per section coordinate."""
+    if not isinstance(value, list) or not 2 <= len(value) <= MAX_SEED:
+        raise _Bad(key, f"must be a list of 2 to {MAX_SEED} finite numbers, got {_show(value)}")
+    return [_number(x, f"{key}[{i}]") for i, x in enumerate(value)]
 
 
 def _color(value) -> dict:
@@ -251,7 +287,7 @@ def _color(value) -> dict:
             **{k: _optional_number(c.get(k), f"color.{k}") for k in ("low", "anchor", "high")}}
 
 
-def _orbits(value) -> list:
+def _orbits(value, linked=False) -> list:
     if value is None:
         return []
     if not isinstance(value, list):
@@ -263,8 +299,9 @@ def _orbits(value) -> list:
         key = f"orbits[{k}]"
         o = _mapping(o, key, ("seed", "crossings"))
         if "seed" not in o:
-            raise _Bad(key, "needs a seed [x, y] of two finite numbers")
-        seed = _pair(o["seed"], f"{key}.seed")
+            raise _Bad(key, "needs a seed [x, y] of two finite numbers (one per section coordinate for "
+                        f"kind {LINKED_KIND!r})")
+        seed = _seed(o["seed"], f"{key}.seed") if linked else _pair(o["seed"], f"{key}.seed")
         n = _integer(o.get("crossings", 300), f"{key}.crossings", 1, MAX_CROSSINGS)
         total += n
         if total > MAX_POINTS:

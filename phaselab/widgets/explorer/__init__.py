@@ -44,6 +44,7 @@ from phaselab.widgets import messages, scales, theme
 from phaselab.widgets.controls import Controls
 from phaselab.widgets.explorer.drawing import Drawing
 from phaselab.widgets.explorer.files import EXPORT_FORMATS, SessionFiles, safe_stem
+from phaselab.widgets.explorer.linked import LinkedExplorer, wants_linked
 from phaselab.widgets.explorer.orbit_commands import OrbitCommands
 from phaselab.widgets.explorer.scheduling import Scheduling
 from phaselab.widgets.explorer.view_commands import ViewCommands
@@ -52,7 +53,7 @@ from phaselab.widgets.session import OrbitRecord, Session
 from phaselab.widgets.views import make_view
 from phaselab.widgets.worker import JobRunner, current_loop
 
-__all__ = ["explore", "Explorer", "OrbitRecord", "load_bokehjs"]
+__all__ = ["explore", "Explorer", "LinkedExplorer", "OrbitRecord", "load_bokehjs"]
 
 CHAOS_INDICATORS = scales.CHAOS_INDICATORS
 #: The second half of the default export name, per kind of view (the first is the system's name).
@@ -298,9 +299,16 @@ def explore(system, *, energy=None, plane=None, solve_for=None, crossings=300, p
         phase portrait); ``method``, ``dt``; ``title``; ``session`` (a session JSON file
         to restore, see :mod:`phaselab.widgets.session`).
 
+    With three or more degrees of freedom and a plane fixing one component (or none given)
+    the section has ``2n - 2 >= 4`` coordinates and a
+    :class:`~phaselab.widgets.explorer.linked.LinkedExplorer` is returned instead: a click
+    gives two section coordinates (``axes``), sliders hold the others (``held``), every
+    pairwise projection is linked (a selection in one selects in all), a slab control
+    shows a slice, colouring by a section coordinate or a chaos indicator.
+
     Returns
     -------
-    Explorer
+    Explorer or LinkedExplorer
         An ``ipywidgets`` widget; ``.orbits``, ``.params``, ``.energy``, ``add_seed``,
         ``add_seeds``, ``move_seed``, ``undo``, ``clear``, ``delete``, ``more_crossings``,
         ``select``, ``set_energy``, ``set_params``, ``set_color``, ``set_scale``,
@@ -308,5 +316,8 @@ def explore(system, *, energy=None, plane=None, solve_for=None, crossings=300, p
         ``save_session``, ``load_session``, ``wait``.
     """
     inputs.system(system), inputs.count(crossings, "crossings", maximum=100_000)
+    if wants_linked(system, plane, solve_for):
+        return LinkedExplorer(system, energy=energy, plane=plane, solve_for=solve_for, crossings=crossings,
+                              params=params, **options)
     return Explorer(system, energy=energy, plane=plane, solve_for=solve_for, crossings=crossings,
                     params=params, **options)

@@ -1,0 +1,191 @@
+"""The linked explorer (three degrees of freedom) in a real JupyterLab, driven by headless
+chromium through Playwright (started as in test_browser.py).
+
+A notebook of our own (three springs, 12 orbits) is run, then, through the page's own plot
+data and with screenshots in test-artifacts/:
+
+* the seeding projection and the six pairwise projections draw one data source;
+* a click in the seeding projection brings a new orbit's points; a click outside the
+  energy shell is refused with the reason in the status line;
+* a box selection in one projection selects the same rows in the shared source, and the
+  kernel reports what it holds;
+* the slab check box hides the points outside the slab in every projection, also the
+  points of an orbit added afterwards.
+
+Skips when /usr/bin/chromium is absent.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import secrets
+import socket
+import subprocess
+import sys
+import time
+import urllib.request
+from pathlib import Path
+
+import pytest
+
+pytestmark = [pytest.mark.browser, pytest.mark.slow]
+
+CHROMIUM = "/usr/bin/chromium"
+ROOT = Path(__file__).resolve().parents[2]
+ARTIFACTS = ROOT / "test-artifacts"
+CELLS = [
+    "import numpy as np, phaselab\n"
+    "H = phaselab.Hamiltonian('(p1**2 + p2**2 + p3**2)/2 + (x1**2 + 1.3*x2**2 + 1.7*x3**2)/2 + k*(x1*x2 + x2*x3)"
+    " + 0.3*x1**2*x2', ['x1', 'x2', 'x3'], ['p1', 'p2', 'p3'], params={'k': (0.1, (0.0, 0.3))},"
+    " name='three springs')\n"
+    "explorer = phaselab.explore(H, energy=0.5, plane={'x3': 0.0}, crossings=400)\n"
+    "explorer",
+    "rng = np.random.default_rng(3)\n"
+    "explorer.add_seeds(rng.uniform(-0.4, 0.4, (12, 2)), held={'x2': 0.05, 'p2': 0.1})\n"
+    "explorer.wait(300)\n"
+    "print(f'KERNEL_ORBITS={len(explorer.orbits)}')",
+]
+JS = """() => { window.__pl = {};
+  window.__pl.doc = () => { const docs = (window.Bokeh && window.Bokeh.documents) || [];
+    for (let i = docs.length - 1; i >= 0; i--) { const d = docs[i];
+      if (d.roots().length && d.get_model_by_name('phaselab-seeding')) return d; } return null; };
+  window.__pl.view = (name) => { let found = null;
+    const walk = (v) => { if (v.model && v.model.name === name && v.el && v.el.isConnected) found = v;
+                          for (const c of (v.child_views || [])) walk(c); };
+    for (const root of window.Bokeh.index) walk(root); return found; };
+  window.__pl.screen = (name, x, y) => { const v = window.__pl.view(name);
+    const r = v.canvas_view.el.getBoundingClientRect();
+    return [r.left + v.frame.x_scale.compute(x), r.top + v.frame.y_scale.compute(y)]; };
+  window.__pl.src = () => window.__pl.doc().get_model_by_name('phaselab-linked-points');
+  window.__pl.n = () => window.__pl.src().data.orbit.length;
+  window.__pl.sel = () => window.__pl.src().selected.indices.length;
+  window.__pl.renderers = () => [...window.__pl.doc().all_models].filter(m => m.data_source === window.__pl.src());
+  window.__pl.sharing = () => window.__pl.renderers().length;
+  window.__pl.filtered = () => window.__pl.renderers().every(r => r.view.filter.indices != null);
+  window.__pl.outside = (half) => { const p2 = window.__pl.src().data.c3; let worst = -Infinity;
+    for (const r of window.__pl.renderers()) for (const i of r.view.filter.indices) worst = Math.max(worst, Math.abs(p2[i]) - half);
+    return worst; };
+}"""
+
+
+def _free_port() -> int:
+    with socket.socket() as s:
+        s.bind(("127.0.0.1", 0))
+        return s.getsockname()[1]
+
+
+@pytest.fixture(scope="module")
+def lab(tmp_path_factory):
+    if not os.path.exists(CHROMIUM):
+        pytest.skip(f"{CHROMIUM} is absent (install Debian's chromium: apt-get install -y chromium)")
+    pytest.importorskip("playwright.sync_api", reason="the playwright package is not installed")
+    pytest.importorskip("jupyterlab", reason="jupyterlab is not installed")
+    work = tmp_path_factory.mktemp("linked-lab")
+    nb = {"cells": [{"cell_type": "code", "execution_count": None, "metadata": {}, "outputs": [], "source": c}
+                    for c in CELLS],
+          "metadata": {"kernelspec": {"name": "python3", "display_name": "Python 3", "language": "python"}},
+          "nbformat": 4, "nbformat_minor": 5}
+    (work / "linked.ipynb").write_text(json.dumps(nb))
+    port, token = _free_port(), secrets.token_hex(16)
+    env = dict(os.environ)
+    for key, sub in (("JUPYTER_RUNTIME_DIR", "runtime"), ("JUPYTERLAB_SETTINGS_DIR", "settings"),
+                     ("JUPYTERLAB_WORKSPACES_DIR", "workspaces"), ("JUPYTER_CONFIG_DIR", "config")):
+        (work / sub).mkdir()
+        env[key] = str(work / sub)
+    notes = work / "settings" / "@jupyterlab" / "apputils-extension"
+    notes.mkdir(parents=True)
+    (notes / "notification.jupyterlab-settings").write_text(json.dumps({"fetchNews": "false"}))
+    log = open(work / "lab.log", "w")
+    proc = subprocess.Popen(
+        [sys.executable, "-m", "jupyter", "lab", "--no-browser", "--ServerApp.ip=127.0.0.1",
+         f"--ServerApp.port={port}", "--ServerApp.port_retries=0", f"--IdentityProvider.token={token}",
+         f"--ServerApp.root_dir={work}", "--LabApp.expose_app_in_browser=True",
+         *(["--allow-root"] if hasattr(os, "geteuid") and os.geteuid() == 0 else [])],
+        cwd=work, env=env, stdout=log, stderr=subprocess.STDOUT)
+    try:
+        end = time.monotonic() + 90
+        while True:
+            try:
+                urllib.request.urlopen(f"http://127.0.0.1:{port}/api/status?token={token}", timeout=2)
+                break
+            except OSError:
+                if time.monotonic() > end or proc.poll() is not None:
+                    raise RuntimeError("JupyterLab did not start: " + (work / "lab.log").read_text()[-2000:])
+                time.sleep(0.25)
+        yield {"url": f"http://127.0.0.1:{port}", "token": token}
+    finally:
+        proc.terminate()
+        try:
+            proc.wait(timeout=20)
+        except subprocess.TimeoutExpired:
+            proc.kill()
+        log.close()
+
+
+def test_linked_explorer_in_jupyterlab(lab):
+    from playwright.sync_api import sync_playwright
+
+    ARTIFACTS.mkdir(exist_ok=True)
+    with sync_playwright() as p:
+        browser = p.chromium.launch(executable_path=CHROMIUM, args=["--headless", "--no-sandbox", "--disable-gpu",
+                                                                    "--no-first-run"])
+        page = browser.new_page(viewport={"width": 1500, "height": 1300})
+        console = []
+        page.on("pageerror", lambda e: console.append(f"pageerror: {e}"))
+        page.goto(f"{lab['url']}/lab/tree/linked.ipynb?token={lab['token']}")
+        page.wait_for_function("() => window.jupyterapp && window.jupyterapp.shell.currentWidget "
+                               "&& window.jupyterapp.shell.currentWidget.sessionContext "
+                               "&& window.jupyterapp.shell.currentWidget.sessionContext.session "
+                               "&& window.jupyterapp.shell.currentWidget.sessionContext.session.kernel",
+                               timeout=120_000)
+        page.evaluate("() => { const s = window.jupyterapp.shell; if (!s.leftCollapsed) s.collapseLeft(); }")
+        page.evaluate("() => window.jupyterapp.commands.execute('notebook:run-all-cells')")
+        page.wait_for_function("() => [...document.querySelectorAll('.jp-OutputArea-output')]"
+                               ".some(e => e.innerText.includes('KERNEL_ORBITS='))", timeout=400_000)
+        page.evaluate(JS)
+        page.wait_for_function("() => window.__pl.doc() && window.__pl.n() >= 12 * 400 * 0.9", timeout=120_000)
+        assert page.evaluate("() => window.__pl.sharing()") == 7     # seeding + 6 projections, one source
+        ex = page.locator(".phaselab-explorer").first
+        status = page.locator(".phaselab-explorer .pl-status").first
+
+        # a click in the seeding projection: a new orbit's points arrive
+        n0 = page.evaluate("() => window.__pl.n()")
+        x, y = page.evaluate("() => window.__pl.screen('phaselab-seeding', 0.2, -0.3)")
+        page.mouse.click(x, y)
+        page.wait_for_function(f"() => window.__pl.n() > {n0}", timeout=120_000)
+        # outside the shell: x1^2/2 + p1^2/2 > E with the held coordinates at 0
+        x, y = page.evaluate("() => window.__pl.screen('phaselab-seeding', 0.95, 0.95)")
+        page.mouse.click(x, y)
+        page.wait_for_function("() => /outside the energetically allowed region/.test(document.querySelector("
+                               "'.phaselab-explorer .pl-status').innerText)", timeout=60_000)
+        assert "refused" in status.inner_text()
+
+        # a box in the x1-x2 projection selects rows of the one source; the kernel reports them
+        a = page.evaluate("() => window.__pl.screen('phaselab-projection-0-1', -0.2, -0.5)")
+        b = page.evaluate("() => window.__pl.screen('phaselab-projection-0-1', 0.5, 0.5)")
+        page.mouse.move(*a)
+        page.mouse.down()
+        page.mouse.move((a[0] + b[0]) / 2, (a[1] + b[1]) / 2, steps=5)
+        page.mouse.move(*b, steps=5)
+        page.mouse.up()
+        page.wait_for_function("() => /points selected/.test(document.querySelector('.phaselab-explorer').innerText)",
+                               timeout=60_000)
+        selected = page.evaluate("() => window.__pl.sel()")
+        assert 0 < selected < page.evaluate("() => window.__pl.n()")
+        assert f"{selected} points selected" in ex.inner_text()
+        ex.screenshot(path=str(ARTIFACTS / "linked-selected.png"))
+
+        # the slab (p2, centre 0, the starting half-width) in every projection, then one more orbit
+        half = float(page.locator(".phaselab-explorer input[type=number]").last.input_value())
+        page.locator(".phaselab-explorer input[type=checkbox]").first.check()
+        page.wait_for_function("() => window.__pl.filtered()", timeout=60_000)
+        n0 = page.evaluate("() => window.__pl.n()")
+        x, y = page.evaluate("() => window.__pl.screen('phaselab-seeding', 0.0, 0.2)")
+        page.mouse.click(x, y)
+        page.wait_for_function(f"() => window.__pl.n() > {n0}", timeout=120_000)
+        page.wait_for_timeout(1000)
+        assert page.evaluate(f"() => window.__pl.outside({half})") < 0   # |p2| < half-width for every shown row
+        ex.screenshot(path=str(ARTIFACTS / "linked-slab.png"))
+        assert not console, console
+        browser.close()

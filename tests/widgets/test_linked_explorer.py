@@ -1,0 +1,238 @@
+"""The explorer for three degrees of freedom (linked projections of a 4-D section), without
+a browser: clicks are fed through jupyter_bokeh's own message handler as in
+test_widgets.py, and every number is compared with an independent evaluation (sympy for
+H, numpy for the slab, a direct phaselab.section for the points)."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+import sympy as sp
+
+import phaselab
+
+pytest.importorskip("ipywidgets")
+pytest.importorskip("jupyter_bokeh")
+
+H_TEXT = "(p1**2 + p2**2 + p3**2)/2 + (x1**2 + 1.3*x2**2 + 1.7*x3**2)/2 + k*(x1*x2 + x2*x3)"
+PLANE = {"x3": 0.0}
+E0 = 0.5
+CROSSINGS = 60
+
+
+@pytest.fixture(scope="module")
+def springs():
+    # our own system: three masses on springs, nearest neighbours coupled (k), bounded
+    return phaselab.Hamiltonian(H_TEXT, ["x1", "x2", "x3"], ["p1", "p2", "p3"],
+                                params={"k": (0.1, (0.0, 0.3))}, name="three springs")
+
+
+@pytest.fixture(scope="module")
+def h_sympy():
+    """H evaluated by sympy from the same text, independently of phaselab's kernels."""
+    syms = sp.symbols("x1 x2 x3 p1 p2 p3 k")
+    expr = sp.sympify(H_TEXT, locals={s.name: s for s in syms})
+    f = sp.lambdify(syms, expr, "numpy")
+    return lambda states, k=0.1: f(*np.asarray(states, float).T, k)
+
+
+@pytest.fixture(scope="module")
+def ex(springs):
+    e = phaselab.explore(springs, energy=E0, plane=PLANE, crossings=CROSSINGS, background=False)
+    yield e
+    e.close()
+
+
+def send_tap(explorer, x, y):
+    """What the page sends for a click at data coordinates (x, y) on the seeding projection."""
+    from bokeh.core.serialization import Serializer
+
+    doc = explorer.figures.main.document
+    ref = Serializer(references=set(doc.models)).encode(explorer.figures.main)
+    values = {"type": "map", "entries": [["model", ref], ["sx", 200.0], ["sy", 150.0], ["x", x], ["y", y]]}
+    content = {"event": "jsevent", "kind": "MessageSent", "msg_type": "bokeh_event",
+               "msg_data": {"type": "event", "name": "tap", "values": values}}
+    explorer.bokeh._sync_model(explorer.bokeh, content, [])
+
+
+def test_three_dof_gets_the_linked_explorer_and_two_dof_keeps_the_plane_one(ex):
+    from phaselab.widgets.explorer import Explorer, LinkedExplorer
+
+    assert isinstance(ex, LinkedExplorer)
+    assert ex.view.coordinates == ("x1", "x2", "p1", "p2")
+    assert ex.view.axis_names == ("x1", "p1") and ex.view.held == ("x2", "p2")
+    assert set(ex.controls.held) == {"x2", "p2"}
+    hh = phaselab.models.henon_heiles()
+    plane_ex = phaselab.explore(hh, energy=0.1, background=False)
+    assert type(plane_ex) is Explorer
+    plane_ex.close()
+
+
+def test_windows_hold_the_allowed_region(ex):
+    # along x1 with the others at 0: x1^2/2 <= E, |x1| <= 1 (the window must contain it)
+    lo, hi = ex.view.windows["x1"]
+    assert lo < -1.0 and hi > 1.0
+    lo, hi = ex.view.windows["p2"]     # |p2| <= sqrt(2 E) = 1
+    assert lo < -1.0 and hi > 1.0 and hi < 1.6
+
+
+def test_linked_projections_share_one_source(ex):
+    f = ex.figures
+    assert len(f.grid) == 6                    # 4 coordinates: 4 * 3 / 2 pairwise projections
+    assert len(f.point_renderers) == 7         # the grid and the seeding projection
+    assert all(r.data_source is f.points for r in f.point_renderers)
+    assert len({id(r.view) for r in f.point_renderers}) == 7   # each its own view, one filter
+
+
+def test_click_seeds_an_orbit_on_the_energy_shell(ex, springs, h_sympy):
+    ex.clear()
+    ex.set_held(x2=0.1, p2=-0.2)
+    send_tap(ex, 0.3, 0.25)
+    assert len(ex.orbits) == 1, ex.status
+    rec = ex.orbits[0]
+    x1, x2, x3, p1, p2, p3 = rec.state
+    assert (x1, p1, x2, p2, x3) == (0.3, 0.25, 0.1, -0.2, 0.0)
+    assert p3 > 0                              # sign +1: the crossing direction of x3
+    # H = E at the seed, H from sympy (independent of the compiled kernel)
+    assert abs(h_sympy(rec.state[None, :])[0] - E0) < 1e-12
+    # every crossing on the shell: energy error of the fixed-step symplectic integrator
+    # (common practice: a relative error well below 1e-5 at the default step)
+    states = rec.section.points[0, : rec.section.counts[0]]
+    assert len(states) == CROSSINGS
+    assert np.max(np.abs(h_sympy(states) - E0)) / E0 < 1e-5
+    assert np.all(np.abs(states[:, 2]) < 1e-9)   # on the plane x3 = 0
+    # the points shown are the direct section's, in the section coordinates
+    direct = phaselab.section(springs, rec.state[None, :], PLANE, crossings=CROSSINGS, energy=E0)
+    d = ex.figures.points.data
+    ref = direct.points[0, : direct.counts[0]]
+    for j, name in enumerate(ex.view.coordinates):
+        k = ["x1", "x2", "x3", "p1", "p2", "p3"].index(name)
+        np.testing.assert_allclose(d[f"c{j}"], ref[:, k], rtol=0, atol=1e-12)
+    assert list(ex.figures.seeds.data["x"]) == [0.3] and list(ex.figures.seeds.data["y"]) == [0.25]
+
+
+def test_click_outside_the_shell_is_refused_with_the_reason(ex):
+    n = len(ex.orbits)
+    ex.set_held(x2=0.0, p2=0.0)
+    send_tap(ex, 0.9, 0.9)          # x1^2/2 + p1^2/2 = 0.81 > E: no p3 solves H = E
+    assert len(ex.orbits) == n
+    assert "refused" in ex.status and "outside the energetically allowed region" in ex.status
+    assert ex.controls.status.value.count("refused") >= 1
+
+
+def test_slab_filter_equals_numpy_selection(ex):
+    ex.clear()
+    ex.add_seeds([(0.3, 0.25), (-0.2, 0.4), (0.5, 0.0)], held={"x2": 0.1, "p2": 0.1})
+    assert len(ex.orbits) == 3
+    ex.set_slab("p2", 0.05, 0.08)
+    # numpy on the orbits' own section points (state column 4 is p2)
+    p2 = np.concatenate([o.section.points[0, : o.section.counts[0], 4] for o in ex.orbits])
+    expected = np.flatnonzero(np.abs(p2 - 0.05) < 0.08)
+    assert 0 < len(expected) < len(p2)
+    np.testing.assert_array_equal(np.asarray(ex.figures.slab_filter.indices), expected)
+    assert all(r.view.filter is ex.figures.slab_filter for r in ex.figures.point_renderers)
+    # the same points as the library's slice of the same section
+    assert ex.sliced().n_points == len(expected)
+    # an orbit added while the slab is on: its rows are appended (streamed) and filtered too
+    ex.add_seed(0.1, -0.3)
+    p2 = np.concatenate([o.section.points[0, : o.section.counts[0], 4] for o in ex.orbits])
+    assert len(ex.figures.points.data["c3"]) == len(p2) == 4 * CROSSINGS
+    np.testing.assert_array_equal(ex.figures.points.data["c3"], p2)
+    np.testing.assert_array_equal(np.asarray(ex.figures.slab_filter.indices), np.flatnonzero(np.abs(p2 - 0.05) < 0.08))
+    ex.clear_slab()
+    assert all(r.view.filter is ex.figures.all_rows for r in ex.figures.point_renderers)
+
+
+def test_selection_in_one_projection_is_reported_by_orbit(ex):
+    ex.clear()
+    ex.add_seeds([(0.3, 0.25), (-0.2, 0.4)], held={"x2": 0.1, "p2": 0.1})
+    rows = np.flatnonzero(ex.figures.points.data["orbit"] == ex.orbits[1].id)[:7]
+    ex.select_points(rows)
+    assert ex.selection == (7, [ex.orbits[1].id])
+    assert "7 points selected" in ex.controls.selection.value
+
+
+def test_colour_by_hidden_coordinate_changes_only_the_mapper(ex):
+    ex.set_color("p2")
+    for r in ex.figures.point_renderers:     # the selected and faded points too
+        assert {g.fill_color["field"] for g in (r.glyph, r.selection_glyph, r.nonselection_glyph)} == {"c3"}
+    assert (ex.figures.scalar_mapper.low, ex.figures.scalar_mapper.high) == ex.view.windows["p2"]
+    ex.set_color(None)
+    with pytest.raises(phaselab.ParameterError, match="section coordinate"):
+        ex.set_color("x3")
+
+
+def test_session_round_trip_and_export(ex, springs, tmp_path):
+    ex.clear()
+    ex.add_seeds([(0.3, 0.25), (-0.2, 0.4)], held={"x2": 0.1, "p2": -0.1})
+    ex.set_slab("x2", 0.0, 0.1)
+    path = ex.save_session(tmp_path / "s.json")
+    other = phaselab.explore(springs, energy=0.3, plane=PLANE, crossings=CROSSINGS, background=False)
+    other.load_session(path)
+    assert other.energy == E0 and other.slab == ex.slab
+    assert len(other.orbits) == 2
+    for a, b in zip(ex.orbits, other.orbits):
+        np.testing.assert_array_equal(a.state, b.state)
+        np.testing.assert_array_equal(a.points, b.points)
+    paths = ex.export("springs", formats=(".png", ".csv"))
+    assert [p.suffix for p in paths] == [".png", ".csv"] and all(p.stat().st_size > 0 for p in paths)
+    other.close()
+
+
+def test_bad_options_are_refused(springs):
+    with pytest.raises(phaselab.ParameterError, match="held"):
+        phaselab.explore(springs, energy=E0, plane=PLANE, held={"x3": 0.0}, background=False)
+    with pytest.raises(phaselab.ModelError, match="solve_for"):
+        phaselab.explore(springs, energy=E0, plane=PLANE, solve_for="p1", background=False)
+    with pytest.raises(phaselab.ParameterError, match="not an option"):
+        phaselab.explore(springs, energy=E0, plane=PLANE, duration=3.0, background=False)
+    with pytest.raises(phaselab.ParameterError, match="energy"):
+        phaselab.explore(springs, plane=PLANE, background=False)
+
+
+def test_section4_session_files_are_checked(ex, tmp_path):
+    import json
+
+    from phaselab.widgets.session_file import read_session
+
+    good = {"format": "phaselab-explorer-session", "version": 1, "system": "three springs", "kind": "section4",
+            "energy": 0.5, "params": {"k": 0.1},
+            "view": {"plane": {"x3": 0.0}, "solve_for": "p3", "direction": 1, "axes": ["x1", "p1"],
+                     "coordinates": ["x1", "x2", "p1", "p2"], "held": {"x2": 0.0, "p2": 0.1},
+                     "slab": {"name": "p2", "center": 0.0, "half_width": 0.1}},
+            "color": {"by": "x2"}, "orbits": [{"seed": [0.1, 0.0, 0.2, 0.1], "crossings": 20}], "selected": None}
+    path = tmp_path / "good.json"
+    path.write_text(json.dumps(good))
+    assert read_session(path)["orbits"][0]["seed"] == [0.1, 0.0, 0.2, 0.1]
+    bad = json.loads(json.dumps(good))
+    bad["view"]["slab"]["half_width"] = -0.1
+    path.write_text(json.dumps(bad))
+    with pytest.raises(phaselab.ParameterError, match="view.slab.half_width"):
+        read_session(path)
+    bad = json.loads(json.dumps(good))
+    bad["orbits"][0]["seed"] = [0.1, 0.0, 0.2]
+    path.write_text(json.dumps(bad))
+    with pytest.raises(phaselab.ParameterError, match=r"orbits\[0\].seed"):
+        ex.load_session(path)          # three numbers for four section coordinates
+    plane_kind = json.loads(json.dumps(good))
+    plane_kind["kind"] = "section"
+    path.write_text(json.dumps(plane_kind))
+    with pytest.raises(phaselab.ParameterError, match=r"orbits\[0\].seed"):
+        read_session(path)             # a plane explorer's seed is a pair
+
+
+@pytest.mark.slow
+def test_colour_by_megno(ex):
+    ex.clear()
+    ex.add_seeds([(0.3, 0.25), (-0.2, 0.4)], held={"x2": 0.1, "p2": 0.1})
+    ex.set_color("megno")
+    values = [o.scalar for o in ex.orbits]
+    # a linear system (our springs) has isochronous motion: deviations grow at most
+    # linearly with a constant rate, and MEGNO tends to 0 (Cincotta & Simo, Astron.
+    # Astrophys. Suppl. 147, 205, 2000, the harmonic oscillator case)
+    assert all(np.isfinite(v) and abs(v) < 0.05 for v in values), values
+    d = ex.figures.points.data
+    for o in ex.orbits:
+        assert np.all(d["value"][d["orbit"] == o.id] == o.scalar)
+    assert ex.figures.point_renderers[0].glyph.fill_color["field"] == "value"
+    ex.set_color(None)
