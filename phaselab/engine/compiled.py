@@ -31,6 +31,7 @@ from phaselab.codegen.cache import cache_dir, load_module, reload_module
 from phaselab.codegen.kernels import ensure_code
 from phaselab.codegen.progress import compiling
 from phaselab.engine.inlined_build import ready_signatures, request_build
+from phaselab.engine.orbit_threads import run_sliced
 from phaselab.engine.loop_source import (DEFAULT_FAMILY, LOOPS_DIR, MODULE_NAMES,  # noqa: F401 (re-exported)
                                          LoopFile, closure, family_of_call, generic_module,
                                          generic_module_name, generic_source, inlined_module_name,
@@ -91,19 +92,13 @@ FAMILY_WORDS = {"composition": "explicit symplectic steps", "gauss": "implicit G
 """How compile news names a stepper family."""
 
 
-def _rows(args) -> int:
-    """Rows (orbits) of the first array argument of two or more dimensions."""
-    for a in args:
-        if isinstance(a, np.ndarray) and a.ndim >= 2:
-            return a.shape[0]
-    return 0
-
-
 class LoopSet:
     """The loops of a set of loop files, bound to one system's kernel.
 
     Call an entry point as a method without the kernel argument:
-    ``loops(H, "sections").section_plane_orbits(Z0, bounds, prm, ...)``. The generic module
+    ``loops(H, "sections").section_plane_orbits(Z0, prm, ...)``; an entry point over
+    independent orbits (``ORBITS`` of its loop file) runs slices of them on numba's count of
+    threads (:mod:`phaselab.engine.orbit_threads`). The generic module
     answers until the system's inlined module is ready (see the module docstring).
 
     Attributes
@@ -123,6 +118,7 @@ class LoopSet:
         self._requested: set = set()
         self._checked: set = set()
         self.entries = tuple(e for f in files for e in f.provides)
+        self._orbit_args = {e: at for f in files for e, at in f.orbit_args}
 
     # ------------------------------------------------------------------ modules
     def generic(self, family: str = DEFAULT_FAMILY):
@@ -186,18 +182,10 @@ class LoopSet:
                               _signature((0, *args)), family=family)
         full = (0, *args) if inlined else (self.kernel.kernel, *args)
         disp = self._prepare(entry, "inlined" if inlined else "generic", family, full)
-        if self._serial or _rows(args) <= 1:
-            # one orbit gains nothing from threads, and waking them costs milliseconds on a
-            # busy machine
-            import numba
-
-            before = numba.get_num_threads()
-            numba.set_num_threads(1)
-            try:
-                return disp(*full)
-            finally:
-                numba.set_num_threads(before)
-        return disp(*full)
+        positions = self._orbit_args.get(entry)
+        if positions is None or self._serial:
+            return disp(*full)
+        return run_sliced(disp, full, tuple(i + 1 for i in positions))
 
     def _prepare(self, entry, form, family, full):
         """The dispatcher of ``entry``, compiled (or loaded from numba's cache) for the types of

@@ -6,7 +6,16 @@ The loops (steppers, section crossings, tangent dynamics, ...) live as text in
     REQUIRES = ("steppers",)          # loop files whose functions this one calls
     PROVIDES = ("section_plane_orbits", ...)   # entry points called from Python
 
-and may use, besides its own and its required files' functions, only the names that every
+and, where entry points run over independent orbits, a third::
+
+    ORBITS = {"section_plane_orbits": ("Z0", "out_points", ...)}   # arguments with one row per orbit
+
+An entry point named in ``ORBITS`` runs its orbits one after the other; the arguments named
+there all have one row per orbit, so :mod:`phaselab.engine.compiled` runs slices of the rows
+on separate threads (numba's count). The modules hold no ``parallel=True`` code: numba's
+parallel compilation costs more than half the first-call compile time of a loop.
+
+A loop file may use, besides its own and its required files' functions, only the names that every
 assembled module defines (:data:`MODULE_NAMES`): ``np``, ``math``, ``njit``, ``prange``, the
 constants of :mod:`phaselab.engine.status`, and the kernel access functions
 ``hamiltonian(kern, z, prm)``, ``grad_q(kern, z, prm, out)``, ``grad_p``, ``vector_field``,
@@ -133,6 +142,9 @@ class LoopFile:
     kind_at : tuple of (str, int)
         Pairs entry point, position of its ``kind`` argument among the arguments after ``kern``
         (entry points without one are absent).
+    orbit_args : tuple of (str, tuple of int)
+        Pairs entry point, positions (after ``kern``) of its arguments with one row per orbit
+        (from ``ORBITS``; entry points whose orbits cannot be sliced are absent).
     """
 
     name: str
@@ -141,6 +153,7 @@ class LoopFile:
     provides: tuple
     defines: tuple
     kind_at: tuple
+    orbit_args: tuple
 
 
 @lru_cache(maxsize=None)
@@ -154,11 +167,13 @@ def loop_file(name: str) -> LoopFile:
     declared, drop = {}, []
     for node in tree.body:
         if isinstance(node, ast.Assign) and len(node.targets) == 1 \
-                and isinstance(node.targets[0], ast.Name) and node.targets[0].id in ("REQUIRES", "PROVIDES"):
-            declared[node.targets[0].id] = tuple(ast.literal_eval(node.value))
+                and isinstance(node.targets[0], ast.Name) \
+                and node.targets[0].id in ("REQUIRES", "PROVIDES", "ORBITS"):
+            declared[node.targets[0].id] = ast.literal_eval(node.value)
             drop.append((node.lineno, node.end_lineno))
-    if set(declared) != {"REQUIRES", "PROVIDES"}:
+    if not {"REQUIRES", "PROVIDES"} <= set(declared):
         raise RuntimeError(f"loop file {path} must declare REQUIRES and PROVIDES")
+    declared["REQUIRES"], declared["PROVIDES"] = tuple(declared["REQUIRES"]), tuple(declared["PROVIDES"])
     lines = text.split("\n")
     for first, last in sorted(drop, reverse=True):
         del lines[first - 1:last]
@@ -166,14 +181,23 @@ def loop_file(name: str) -> LoopFile:
     missing = set(declared["PROVIDES"]) - set(defines)
     if missing:
         raise RuntimeError(f"loop file {path} declares entry points it does not define: {sorted(missing)}")
-    kind_at = []
+    kind_at, orbit_args = [], []
+    orbits = declared.get("ORBITS", {})
     for node in tree.body:
         if isinstance(node, ast.FunctionDef) and node.name in declared["PROVIDES"]:
             names = [a.arg for a in node.args.args][1:]      # after kern
             if "kind" in names:
                 kind_at.append((node.name, names.index("kind")))
+            if node.name in orbits:
+                unknown = set(orbits[node.name]) - set(names)
+                if unknown:
+                    raise RuntimeError(f"loop file {path}: ORBITS names arguments {node.name} lacks: "
+                                       f"{sorted(unknown)}")
+                orbit_args.append((node.name, tuple(names.index(a) for a in orbits[node.name])))
+    if set(orbits) - set(declared["PROVIDES"]):
+        raise RuntimeError(f"loop file {path}: ORBITS names what it does not provide")
     return LoopFile(name, "\n".join(lines), declared["REQUIRES"], declared["PROVIDES"], defines,
-                    tuple(kind_at))
+                    tuple(kind_at), tuple(orbit_args))
 
 
 def family_file(family: str) -> LoopFile:

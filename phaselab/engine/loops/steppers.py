@@ -17,6 +17,9 @@ a module compiles only the steppers of the method it runs).
 
 REQUIRES = ()
 PROVIDES = ("run_orbits", "evaluate_points", "step_matrix")
+ORBITS = {
+    "run_orbits": ("Z0", "out_states", "out_energy", "status", "stop_step"),
+}
 
 
 @njit(cache=True, nogil=True)
@@ -166,11 +169,11 @@ def check_state(z, box_lo, box_hi):
     return OK
 
 
-@njit(cache=True, nogil=True, parallel=True)
+@njit(cache=True, nogil=True)
 def run_orbits(kern, Z0, prm, h, n_steps, save_every, kind, weights, A, b, tol, maxit,
                box_lo, box_hi, out_states, out_energy, status, stop_step):
     """Integrate every orbit of ``Z0`` (shape ``(n_orbits, 2n)``) for ``n_steps`` steps,
-    in parallel over orbits, saving every ``save_every`` steps.
+    saving every ``save_every`` steps.
 
     ``out_states`` (``(n_orbits, n_saves, 2n)``) and ``out_energy`` (``(n_orbits,
     n_saves)``) must be pre-filled with NaN; sample 0 is the initial state. When
@@ -182,7 +185,7 @@ def run_orbits(kern, Z0, prm, h, n_steps, save_every, kind, weights, A, b, tol, 
     """
     n_orb = Z0.shape[0]
     m = Z0.shape[1]
-    for o in prange(n_orb):
+    for o in range(n_orb):
         work = make_work(max(b.shape[0], 1), m)
         z = Z0[o].copy()
         st = check_state(z, box_lo, box_hi)
