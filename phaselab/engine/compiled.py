@@ -29,13 +29,14 @@ from phaselab.base.locks import file_lock
 from phaselab.codegen import KERNELS, compile_kernel
 from phaselab.codegen.cache import cache_dir, load_module, reload_module
 from phaselab.codegen.kernels import ensure_code
-from phaselab.codegen.progress import compiling
+from phaselab.codegen.progress import compiler_passes, compiling
+from phaselab.engine import background_warm
 from phaselab.engine.inlined_build import ready_signatures, request_build
 from phaselab.engine.orbit_threads import run_sliced
 from phaselab.engine.loop_source import (DEFAULT_FAMILY, LOOPS_DIR, MODULE_NAMES,  # noqa: F401 (re-exported)
-                                         LoopFile, closure, family_of_call, generic_module,
+                                         LoopFile, closure, family_of_kind, generic_module,
                                          generic_module_name, generic_source, inlined_module_name,
-                                         inlined_source, loop_file)
+                                         inlined_source, kind_positions, loop_file)
 from phaselab.errors import ParameterError
 
 # ----------------------------------------------------------------------------- loop form chosen
@@ -119,6 +120,7 @@ class LoopSet:
         self._checked: set = set()
         self.entries = tuple(e for f in files for e in f.provides)
         self._orbit_args = {e: at for f in files for e, at in f.orbit_args}
+        self._kind_at = kind_positions(files)
 
     # ------------------------------------------------------------------ modules
     def generic(self, family: str = DEFAULT_FAMILY):
@@ -169,7 +171,7 @@ class LoopSet:
     def run(self, entry: str, *args):
         """Call the entry point ``entry`` with ``args`` (without the kernel), in the module of
         the stepper family its ``kind`` argument names."""
-        family = family_of_call(self.files, entry, args)
+        family = family_of_kind(self._kind_at.get(entry), args)
         policy = loop_form_choice()
         inlined = policy == "inlined"
         if policy == "auto":
@@ -197,9 +199,9 @@ class LoopSet:
         mark = (entry, form, family, str(sig))
         if mark in self._checked:
             return disp
-        stepping = any(entry in dict(f.kind_at) for f in self.files)
-        what = describe_loop(entry, form, family if stepping else None)
+        what = describe_loop(entry, form, family if entry in self._kind_at else None)
         lock = self._lock_path(form, family, entry)
+        passes = compiler_passes()
         try:
             with file_lock(lock), compiling(what):
                 disp.compile(sig)
@@ -215,6 +217,8 @@ class LoopSet:
             with file_lock(lock), compiling(what):
                 disp.compile(sig)
         self._checked.add(mark)
+        if form == "generic" and compiler_passes() > passes:
+            background_warm.start()      # a user waited for a shared loop: compile the others meanwhile
         return disp
 
     def _lock_path(self, form, family, entry):

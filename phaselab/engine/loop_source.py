@@ -211,11 +211,19 @@ def family_of_call(files, entry: str, args) -> str:
     """The stepper family a call of ``entry`` with ``args`` (without the kernel) runs: read
     from its ``kind`` argument (a kind outside :data:`FAMILIES` steps as Runge-Kutta, as
     the steppers always did), :data:`DEFAULT_FAMILY` for an entry point without one."""
-    for f in files:
-        at = dict(f.kind_at).get(entry)
-        if at is not None:
-            return FAMILIES.get(int(args[at]), FAMILIES[codes.RK4])
-    return DEFAULT_FAMILY
+    return family_of_kind(kind_positions(files).get(entry), args)
+
+
+def kind_positions(files) -> dict:
+    """Entry point -> position of its ``kind`` argument (after ``kern``), for ``files``."""
+    return {e: at for f in files for e, at in f.kind_at}
+
+
+def family_of_kind(at, args) -> str:
+    """The family named by ``args[at]`` (:data:`DEFAULT_FAMILY` when ``at`` is None)."""
+    if at is None:
+        return DEFAULT_FAMILY
+    return FAMILIES.get(int(args[at]), FAMILIES[codes.RK4])
 
 
 def closure(names) -> tuple[LoopFile, ...]:
