@@ -38,15 +38,22 @@ def sliceable(args, positions) -> int:
     return rows or 0
 
 
-def run_sliced(disp, args, positions, threads: int | None = None):
+def compiled_for(disp, args) -> bool:
+    """Whether the numba dispatcher ``disp`` holds machine code for the types of ``args``."""
+    return tuple(numba.typeof(a) for a in args) in disp.overloads
+
+
+def run_sliced(disp, args, positions, threads: int | None = None, ready: bool = True):
     """Call ``disp(*args)`` on slices of the rows of the arguments at ``positions`` (indices
     into ``args``), one slice per thread, the first on the calling thread.
 
     Parameters
     ----------
     disp : numba dispatcher
-        Compiled with ``nogil=True`` for the types of ``args`` (row slices of C-ordered
-        arrays keep their type).
+        With ``nogil=True`` (row slices of C-ordered arrays keep their type). With
+        ``ready=False`` and no machine code for these types yet, the first slice runs
+        alone on the calling thread first, so that compiling (or loading from the cache)
+        happens there once, where the compile news watches it.
     args : tuple
         The call's arguments, the kernel first.
     positions : tuple of int
@@ -74,10 +81,14 @@ def run_sliced(disp, args, positions, threads: int | None = None):
         except BaseException as exc:      # handed to the calling thread
             errors.append(exc)
 
+    first = not ready and not compiled_for(disp, args)
+    if first:
+        disp(*parts[0])
     helpers = [threading.Thread(target=work, args=(p,), daemon=True) for p in parts[1:]]
     for t in helpers:
         t.start()
-    work(parts[0])
+    if not first:
+        work(parts[0])
     for t in helpers:
         t.join()
     if errors:
