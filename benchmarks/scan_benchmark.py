@@ -19,6 +19,10 @@ with Yoshida 4 and dt = 0.01.
    through a function pointer, compiled once per machine). Target: inlined / floor <= 1.5.
    The floor measured on the 2-core development machine (2026-12, shared, load average
    2-7 from other work; best of 3 runs): 1.07-1.13 CPU seconds, 0.63-1.7 s wall.
+   Where ``../shared/benchmarks/megno_floor.py`` exists beside the checkout, that
+   independent floor (its own Yoshida 4 loop and MEGNO sums) is timed on the same seeds
+   too, with the ratio inlined / independent (target <= 1.3). The two floors take the same
+   CPU time (2026-12: 1.09 and 1.10 s); read the CPU column on a shared machine.
 2. The same map on a LocalCluster of two worker processes with one thread each (each
    chunk a task on one thread) against the local run (both cores, one process). Target:
    Dask / local <= 1.3, identical values.
