@@ -19,6 +19,10 @@ with Yoshida 4 and dt = 0.01.
    through a function pointer, compiled once per machine). Target: inlined / floor <= 1.5.
    The floor measured on the 2-core development machine (2026-12, shared, load average
    2-7 from other work; best of 3 runs): 1.07-1.13 CPU seconds, 0.63-1.7 s wall.
+   Where ``../shared/benchmarks/megno_floor.py`` exists beside the checkout, that
+   independent floor (its own Yoshida 4 loop and MEGNO sums) is timed on the same seeds
+   too, with the ratio inlined / independent (target <= 1.3). The two floors take the same
+   CPU time (2026-12: 1.09 and 1.10 s); read the CPU column on a shared machine.
 2. The same map on a LocalCluster of two worker processes with one thread each (each
    chunk a task on one thread) against the local run (both cores, one process). Target:
    Dask / local <= 1.3, identical values.
@@ -103,6 +107,20 @@ def floor_megno(Z0, W0v, h, n_steps, out):
         out[o] = y_mean
 
 
+def independent_floor():
+    """The independent hand-written floor kept beside the project (``../shared/benchmarks/
+    megno_floor.py``: its own Yoshida 4 loop and MEGNO sums), or None where it is absent."""
+    import importlib.util
+
+    path = Path(__file__).resolve().parents[2] / "shared" / "benchmarks" / "megno_floor.py"
+    if not path.is_file():
+        return None
+    spec = importlib.util.spec_from_file_location("megno_floor", path)
+    module = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(module)
+    return module
+
+
 # ----------------------------------------------------------------------------- the case
 def grid(H, n=N):
     return phaselab.shell_grid(H, {"y": (-0.5, 0.75, n), "py": (-0.5, 0.5, n)}, energy=E,
@@ -141,20 +159,30 @@ def part_floor(H, repeat):
         floor_megno(Z, W, DT, n_steps, out)
         return out.copy()
 
+    shared = independent_floor()
+
+    def other():
+        return shared.megno_floor(Z, T, DT, shared.C, shared.D)
+
     # warm: compile the floor, the generic loops and the inlined module (in this process)
     for form in ("generic", "inlined"):
         os.environ["PHASELAB_LOOPS"] = form
         megno(H, Z[:8], 1.0)
     floor_megno(Z[:2], W[:2], DT, 10, out[:2])
+    if shared is not None:
+        shared.megno_floor(Z[:2], 0.1, DT, shared.C, shared.D)
 
     best = {"floor": np.inf, "inlined": np.inf, "generic": np.inf}
+    if shared is not None:
+        best["independent"] = np.inf
     cpu = dict(best)
     results = {}
     for r in range(repeat):
-        for name in ("floor", "inlined", "generic"):
+        for name in best:
             if name == "generic" and r >= 1:
                 continue                      # slow: one run is enough
-            dt_, res, c = timed(floor if name == "floor" else (lambda n=name: run(n)))
+            fn = {"floor": floor, "independent": other}.get(name, lambda n=name: run(n))
+            dt_, res, c = timed(fn)
             best[name] = min(best[name], dt_)
             cpu[name] = min(cpu[name], c)
             results[name] = res
@@ -169,6 +197,11 @@ def part_floor(H, repeat):
                         ("generic", "chaos_map, generic loops")):
         print(f"   {label:30s}{best[name]:9.3f}{best[name] / best['floor']:9.2f}{cpu[name]:9.3f}"
               f"{cpu[name] / cpu['floor']:9.2f}" + ("   (target <= 1.5)" if name == "inlined" else ""))
+    if shared is not None:
+        print(f"   {'independent floor':30s}{best['independent']:9.3f}{'':9s}{cpu['independent']:9.3f}   "
+              f"(../shared/benchmarks/megno_floor.py); inlined / independent: wall "
+              f"{best['inlined'] / best['independent']:.2f}, CPU {cpu['inlined'] / cpu['independent']:.2f}"
+              f"   (target <= 1.3)")
     print(f"   chunks: {results['inlined'].run.chunks} of {results['inlined'].run.chunk} seeds; inlined and "
           f"generic values identical: {bool(np.array_equal(vi, vg, equal_nan=True))}")
     print(f"   regular orbits (|MEGNO - 2| < 0.3 in the floor): {int(regular.sum())}; max |phaselab - floor| "

@@ -138,6 +138,12 @@ _passes = _PassCounter()
 event.register("numba:run_pass", _passes)
 
 
+def compiler_passes() -> int:
+    """How many numba compiler passes this thread has run (grows only when machine code is
+    really compiled, never when it is loaded from the cache)."""
+    return _passes.counts.get(threading.get_ident(), 0)
+
+
 def _kept() -> str:
     """How long the compiled code is kept: said only when it is true."""
     if is_fallback():

@@ -29,11 +29,14 @@ from phaselab.base.locks import file_lock
 from phaselab.codegen import KERNELS, compile_kernel
 from phaselab.codegen.cache import cache_dir, load_module, reload_module
 from phaselab.codegen.kernels import ensure_code
-from phaselab.codegen.progress import compiling
+from phaselab.codegen.progress import compiler_passes, compiling
+from phaselab.engine import background_warm
 from phaselab.engine.inlined_build import ready_signatures, request_build
-from phaselab.engine.loop_source import (LOOPS_DIR, MODULE_NAMES, LoopFile, closure,  # noqa: F401 (re-exported)
-                                         generic_module, generic_module_name, generic_source,
-                                         inlined_module_name, inlined_source, loop_file)
+from phaselab.engine.orbit_threads import run_sliced
+from phaselab.engine.loop_source import (DEFAULT_FAMILY, LOOPS_DIR, MODULE_NAMES,  # noqa: F401 (re-exported)
+                                         LoopFile, closure, family_of_kind, generic_module,
+                                         generic_module_name, generic_source, inlined_module_name,
+                                         inlined_source, kind_positions, loop_file)
 from phaselab.errors import ParameterError
 
 # ----------------------------------------------------------------------------- loop form chosen
@@ -77,19 +80,26 @@ def _signature(args) -> tuple:
     return sig
 
 
-def _rows(args) -> int:
-    """Rows (orbits) of the first array argument of two or more dimensions."""
-    for a in args:
-        if isinstance(a, np.ndarray) and a.ndim >= 2:
-            return a.shape[0]
-    return 0
+def describe_loop(entry: str, form: str, family) -> str:
+    """Words for compile news about the loop ``entry`` of a module: its form and the stepper
+    family it runs (None for a loop that steps with no method)."""
+    method = "" if family is None else f" ({FAMILY_WORDS[family]})"
+    whose = "for this system" if form == "inlined" else "that all systems share"
+    return f"the loop {entry}{method} {whose}"
+
+
+FAMILY_WORDS = {"composition": "explicit symplectic steps", "gauss": "implicit Gauss-Legendre steps",
+                "rk4": "Runge-Kutta steps"}
+"""How compile news names a stepper family."""
 
 
 class LoopSet:
     """The loops of a set of loop files, bound to one system's kernel.
 
     Call an entry point as a method without the kernel argument:
-    ``loops(H, "sections").section_plane_orbits(Z0, bounds, prm, ...)``. The generic module
+    ``loops(H, "sections").section_plane_orbits(Z0, prm, ...)``; an entry point over
+    independent orbits (``ORBITS`` of its loop file) runs slices of them on numba's count of
+    threads (:mod:`phaselab.engine.orbit_threads`). The generic module
     answers until the system's inlined module is ready (see the module docstring).
 
     Attributes
@@ -103,27 +113,37 @@ class LoopSet:
         self._serial = serial
         self.files = files
         self.kernel = compile_kernel(system)
-        self._generic = None
-        self._inlined = None
-        self._inlined_name = inlined_module_name(self.kernel.key, files)
+        self._names: dict = {}          # stepper family -> name of the inlined module
+        self._generic: dict = {}        # stepper family -> generic module
+        self._inlined: dict = {}        # stepper family -> the system's inlined module
         self._requested: set = set()
         self._checked: set = set()
         self.entries = tuple(e for f in files for e in f.provides)
+        self._orbit_args = {e: at for f in files for e, at in f.orbit_args}
+        self._kind_at = kind_positions(files)
 
     # ------------------------------------------------------------------ modules
-    def generic(self):
-        if self._generic is None:
-            self._generic = generic_module(self.files)
-        return self._generic
+    def generic(self, family: str = DEFAULT_FAMILY):
+        """The generic module of these loop files with the stepper ``family``."""
+        if family not in self._generic:
+            self._generic[family] = generic_module(self.files, family)
+        return self._generic[family]
 
-    def _make_inlined_source(self):
-        return inlined_source(ensure_code(self.kernel, self.system), self.files)
+    def inlined_name(self, family: str = DEFAULT_FAMILY) -> str:
+        """The cache name of the system's inlined module with the stepper ``family``."""
+        name = self._names.get(family)
+        if name is None:
+            name = self._names[family] = inlined_module_name(self.kernel.key, self.files, family)
+        return name
 
-    def inlined(self):
+    def _make_inlined_source(self, family):
+        return lambda: inlined_source(ensure_code(self.kernel, self.system), self.files, family)
+
+    def inlined(self, family: str = DEFAULT_FAMILY):
         """The system's inlined module (generated now if needed; compiled lazily by numba)."""
-        if self._inlined is None:
-            self._inlined = load_module(self._inlined_name, self._make_inlined_source)
-        return self._inlined
+        if family not in self._inlined:
+            self._inlined[family] = load_module(self.inlined_name(family), self._make_inlined_source(family))
+        return self._inlined[family]
 
     @property
     def serial(self) -> "LoopSet":
@@ -149,62 +169,62 @@ class LoopSet:
         return call
 
     def run(self, entry: str, *args):
-        """Call the entry point ``entry`` with ``args`` (without the kernel)."""
+        """Call the entry point ``entry`` with ``args`` (without the kernel), in the module of
+        the stepper family its ``kind`` argument names."""
+        family = family_of_kind(self._kind_at.get(entry), args)
         policy = loop_form_choice()
         inlined = policy == "inlined"
         if policy == "auto":
+            name = self.inlined_name(family)
             sig = str(_signature((0, *args)))
-            inlined = sig in ready_signatures(self._inlined_name).get(entry, ())
-            if not inlined and (entry, sig) not in self._requested:
-                self._requested.add((entry, sig))
-                request_build(self.system, tuple(f.name for f in self.files), self._inlined_name, entry,
-                              _signature((0, *args)))
+            inlined = sig in ready_signatures(name).get(entry, ())
+            if not inlined and (entry, family, sig) not in self._requested:
+                self._requested.add((entry, family, sig))
+                request_build(self.system, tuple(f.name for f in self.files), name, entry,
+                              _signature((0, *args)), family=family)
         full = (0, *args) if inlined else (self.kernel.kernel, *args)
-        disp = self._prepare(entry, "inlined" if inlined else "generic", full)
-        if self._serial or _rows(args) <= 1:
-            # one orbit gains nothing from threads, and waking them costs milliseconds on a
-            # busy machine
-            import numba
+        disp = self._prepare(entry, "inlined" if inlined else "generic", family, full)
+        positions = self._orbit_args.get(entry)
+        if positions is None or self._serial:
+            return disp(*full)
+        return run_sliced(disp, full, tuple(i + 1 for i in positions))
 
-            before = numba.get_num_threads()
-            numba.set_num_threads(1)
-            try:
-                return disp(*full)
-            finally:
-                numba.set_num_threads(before)
-        return disp(*full)
-
-    def _prepare(self, entry, form, full):
+    def _prepare(self, entry, form, family, full):
         """The dispatcher of ``entry``, compiled (or loaded from numba's cache) for the types of
         ``full``. Damaged machine code in the cache is repaired once: the module is
         generated and compiled anew."""
-        module = self.inlined() if form == "inlined" else self.generic()
+        module = self.inlined(family) if form == "inlined" else self.generic(family)
         disp = getattr(module, entry)
         sig = _signature(full)
-        mark = (entry, form, str(sig))
+        mark = (entry, form, family, str(sig))
         if mark in self._checked:
             return disp
-        what = f"the loop {entry} " + ("for this system" if form == "inlined" else "that all systems share")
+        what = describe_loop(entry, form, family if entry in self._kind_at else None)
+        lock = self._lock_path(form, family, entry)
+        passes = compiler_passes()
         try:
-            with file_lock(self._lock_path(form, entry)), compiling(what):
+            with file_lock(lock), compiling(what):
                 disp.compile(sig)
         except Exception:
             if form == "generic":
-                self._generic = reload_module(generic_module_name(self.files),
-                                              lambda: generic_source(self.files))
-                disp = getattr(self._generic, entry)
+                self._generic[family] = reload_module(generic_module_name(self.files, family),
+                                                      lambda: generic_source(self.files, family))
+                disp = getattr(self._generic[family], entry)
             else:
-                self._inlined = reload_module(self._inlined_name, self._make_inlined_source)
-                disp = getattr(self._inlined, entry)
-            with file_lock(self._lock_path(form, entry)), compiling(what):
+                self._inlined[family] = reload_module(self.inlined_name(family),
+                                                      self._make_inlined_source(family))
+                disp = getattr(self._inlined[family], entry)
+            with file_lock(lock), compiling(what):
                 disp.compile(sig)
         self._checked.add(mark)
+        if form == "generic" and compiler_passes() > passes:
+            background_warm.start()      # a user waited for a shared loop: compile the others meanwhile
         return disp
 
-    def _lock_path(self, form, entry):
+    def _lock_path(self, form, family, entry):
         """The lock file that lets one process per machine compile ``entry`` of a module
         while the others wait and then load its machine code (see phaselab.base.locks)."""
-        module = self._inlined_name if form == "inlined" else generic_module_name(self.files)
+        module = self.inlined_name(family) if form == "inlined" else generic_module_name(self.files, family)
         return cache_dir() / f".lock-{module}-{entry}"
 
     def evaluate(self, name: str, Z, prm) -> np.ndarray:
@@ -226,9 +246,9 @@ class LoopSet:
         steppers = _steppers_only(self.files)
         kern = self.kernel.kernel
         if steppers is not self.files:
-            module = generic_module(steppers)
+            module = generic_module(steppers, DEFAULT_FAMILY)
         else:
-            module = self.generic()
+            module = self.generic(DEFAULT_FAMILY)
         module.evaluate_points(kern, KERNELS[name], Z, prm, out)
         if name == "hamiltonian":
             return out[:, 0]

@@ -36,7 +36,7 @@ from pathlib import Path
 from phaselab.base.atomic import atomic_path, remove_stale
 from phaselab.codegen.cache import cache_dir, is_fallback, load_module
 from phaselab.codegen.kernels import compile_kernel, ensure_code
-from phaselab.engine.loop_source import closure, inlined_source
+from phaselab.engine.loop_source import DEFAULT_FAMILY, closure, inlined_source
 
 BUILD_TIMEOUT = 1800.0
 """Seconds after which a background build is abandoned."""
@@ -73,14 +73,16 @@ def ready_signatures(name: str) -> dict:
     return data
 
 
-def request_build(system, files: tuple, name: str, entry: str, signature: tuple) -> None:
+def request_build(system, files: tuple, name: str, entry: str, signature: tuple,
+                  family: str = DEFAULT_FAMILY) -> None:
     """Queue the compilation of ``entry`` with ``signature`` in the inlined module ``name``
-    of ``system`` (loop files ``files``). Requests for a module not yet started are merged;
-    jobs still queued when the process exits are handed to one detached child process."""
+    of ``system`` (loop files ``files``, stepper family ``family``). Requests for a module not
+    yet started are merged; jobs still queued when the process exits are handed to one
+    detached child process."""
     with _lock:
         job = next((j for j in _pending if j["name"] == name), None)
         if job is None:
-            job = {"system": system, "files": files, "name": name, "entries": {}}
+            job = {"system": system, "files": files, "family": family, "name": name, "entries": {}}
             _pending.append(job)
         sigs = job["entries"].setdefault(entry, [])
         if signature not in sigs:
@@ -118,7 +120,7 @@ def _write_job(job: dict):
         return None
     remove_stale_jobs(folder)
     try:
-        payload = pickle.dumps({k: job[k] for k in ("system", "files", "name", "entries")})
+        payload = pickle.dumps({k: job[k] for k in ("system", "files", "family", "name", "entries")})
     except Exception:  # a system that cannot travel: it stays on the generic loops
         return None
     fd, path = tempfile.mkstemp(dir=folder, prefix=f".build-{os.getpid()}-", suffix=".pickle")
@@ -186,7 +188,8 @@ def build(job: dict) -> dict:
     system = job["system"]
     files = closure(job["files"])
     kernel = compile_kernel(system)
-    module = load_module(job["name"], lambda: inlined_source(ensure_code(kernel, system), files))
+    family = job.get("family", DEFAULT_FAMILY)
+    module = load_module(job["name"], lambda: inlined_source(ensure_code(kernel, system), files, family))
     done = {}
     for entry, signatures in job["entries"].items():
         for sig in signatures:

@@ -6,12 +6,28 @@ The loops (steppers, section crossings, tangent dynamics, ...) live as text in
     REQUIRES = ("steppers",)          # loop files whose functions this one calls
     PROVIDES = ("section_plane_orbits", ...)   # entry points called from Python
 
-and may use, besides its own and its required files' functions, only the names that every
+and, where entry points run over independent orbits, a third::
+
+    ORBITS = {"section_plane_orbits": ("Z0", "out_points", ...)}   # arguments with one row per orbit
+
+An entry point named in ``ORBITS`` runs its orbits one after the other; the arguments named
+there all have one row per orbit, so :mod:`phaselab.engine.compiled` runs slices of the rows
+on separate threads (numba's count). The modules hold no ``parallel=True`` code: numba's
+parallel compilation costs more than half the first-call compile time of a loop.
+
+A loop file may use, besides its own and its required files' functions, only the names that every
 assembled module defines (:data:`MODULE_NAMES`): ``np``, ``math``, ``njit``, ``prange``, the
 constants of :mod:`phaselab.engine.status`, and the kernel access functions
 ``hamiltonian(kern, z, prm)``, ``grad_q(kern, z, prm, out)``, ``grad_p``, ``vector_field``,
-``jacobian``, ``hess_pp``, ``hess_qq``, ``map_step``, ``map_jacobian`` and ``nstate(z)``. A test
-checks every file's free names against this contract.
+``jacobian``, ``hess_pp``, ``hess_qq``, ``map_step``, ``map_jacobian`` and ``nstate(z)``, and
+the stepper functions ``advance`` and ``advance_tangent``. A test checks every file's free
+names against this contract.
+
+Stepper families: ``advance`` and ``advance_tangent`` come from one *family file*
+(``loops/family_<family>.py``, :data:`FAMILIES`: compositions of leapfrogs, Gauss-Legendre,
+classical Runge-Kutta), chosen when a module is assembled. Every module holds one family, so
+a call compiles the steppers of its own method only; :func:`family_of_call` reads the family
+from an entry point's ``kind`` argument (entry points without one use :data:`DEFAULT_FAMILY`).
 
 The same text is assembled into two kinds of module (see :mod:`phaselab.engine.compiled` for
 when each runs): the *generic* module of a set of loop files calls ``kern`` through a function
@@ -37,8 +53,16 @@ LOOPS_DIR = Path(__file__).parent / "loops"
 
 ACCESS_NAMES = ("hamiltonian", "grad_q", "grad_p", "vector_field", "jacobian", "hess_pp", "hess_qq",
                 "map_step", "map_jacobian", "nstate")
-MODULE_NAMES = frozenset({"np", "math", "njit", "prange", *codes.LOOP_CONSTANTS, *ACCESS_NAMES})
+FAMILY_NAMES = ("advance", "advance_tangent")
+"""What a stepper family file defines for the loops."""
+MODULE_NAMES = frozenset({"np", "math", "njit", "prange", *codes.LOOP_CONSTANTS, *ACCESS_NAMES,
+                          *FAMILY_NAMES})
 """Names every assembled loop module defines for the loop files."""
+
+FAMILIES = {codes.COMPOSITION: "composition", codes.GAUSS: "gauss", codes.RK4: "rk4"}
+"""Stepper kind -> the family file (``loops/family_<name>.py``) a module is assembled with."""
+DEFAULT_FAMILY = "composition"
+"""The family of modules whose entry points step with no method (maps, kernel evaluation)."""
 
 HEADER = '''"""Loops assembled by phaselab.engine.compiled ({what}). Do not edit."""
 import math
@@ -115,6 +139,12 @@ class LoopFile:
         Entry points called from Python.
     defines : tuple of str
         Every top-level function it defines.
+    kind_at : tuple of (str, int)
+        Pairs entry point, position of its ``kind`` argument among the arguments after ``kern``
+        (entry points without one are absent).
+    orbit_args : tuple of (str, tuple of int)
+        Pairs entry point, positions (after ``kern``) of its arguments with one row per orbit
+        (from ``ORBITS``; entry points whose orbits cannot be sliced are absent).
     """
 
     name: str
@@ -122,6 +152,8 @@ class LoopFile:
     requires: tuple
     provides: tuple
     defines: tuple
+    kind_at: tuple
+    orbit_args: tuple
 
 
 @lru_cache(maxsize=None)
@@ -135,11 +167,13 @@ def loop_file(name: str) -> LoopFile:
     declared, drop = {}, []
     for node in tree.body:
         if isinstance(node, ast.Assign) and len(node.targets) == 1 \
-                and isinstance(node.targets[0], ast.Name) and node.targets[0].id in ("REQUIRES", "PROVIDES"):
-            declared[node.targets[0].id] = tuple(ast.literal_eval(node.value))
+                and isinstance(node.targets[0], ast.Name) \
+                and node.targets[0].id in ("REQUIRES", "PROVIDES", "ORBITS"):
+            declared[node.targets[0].id] = ast.literal_eval(node.value)
             drop.append((node.lineno, node.end_lineno))
-    if set(declared) != {"REQUIRES", "PROVIDES"}:
+    if not {"REQUIRES", "PROVIDES"} <= set(declared):
         raise RuntimeError(f"loop file {path} must declare REQUIRES and PROVIDES")
+    declared["REQUIRES"], declared["PROVIDES"] = tuple(declared["REQUIRES"]), tuple(declared["PROVIDES"])
     lines = text.split("\n")
     for first, last in sorted(drop, reverse=True):
         del lines[first - 1:last]
@@ -147,7 +181,49 @@ def loop_file(name: str) -> LoopFile:
     missing = set(declared["PROVIDES"]) - set(defines)
     if missing:
         raise RuntimeError(f"loop file {path} declares entry points it does not define: {sorted(missing)}")
-    return LoopFile(name, "\n".join(lines), declared["REQUIRES"], declared["PROVIDES"], defines)
+    kind_at, orbit_args = [], []
+    orbits = declared.get("ORBITS", {})
+    for node in tree.body:
+        if isinstance(node, ast.FunctionDef) and node.name in declared["PROVIDES"]:
+            names = [a.arg for a in node.args.args][1:]      # after kern
+            if "kind" in names:
+                kind_at.append((node.name, names.index("kind")))
+            if node.name in orbits:
+                unknown = set(orbits[node.name]) - set(names)
+                if unknown:
+                    raise RuntimeError(f"loop file {path}: ORBITS names arguments {node.name} lacks: "
+                                       f"{sorted(unknown)}")
+                orbit_args.append((node.name, tuple(names.index(a) for a in orbits[node.name])))
+    if set(orbits) - set(declared["PROVIDES"]):
+        raise RuntimeError(f"loop file {path}: ORBITS names what it does not provide")
+    return LoopFile(name, "\n".join(lines), declared["REQUIRES"], declared["PROVIDES"], defines,
+                    tuple(kind_at), tuple(orbit_args))
+
+
+def family_file(family: str) -> LoopFile:
+    """The stepper family file ``loops/family_<family>.py`` (``family`` in :data:`FAMILIES`)."""
+    if family not in FAMILIES.values():
+        raise ParameterError(f"no stepper family {family!r}; known: {', '.join(FAMILIES.values())}")
+    return loop_file(f"family_{family}")
+
+
+def family_of_call(files, entry: str, args) -> str:
+    """The stepper family a call of ``entry`` with ``args`` (without the kernel) runs: read
+    from its ``kind`` argument (a kind outside :data:`FAMILIES` steps as Runge-Kutta, as
+    the steppers always did), :data:`DEFAULT_FAMILY` for an entry point without one."""
+    return family_of_kind(kind_positions(files).get(entry), args)
+
+
+def kind_positions(files) -> dict:
+    """Entry point -> position of its ``kind`` argument (after ``kern``), for ``files``."""
+    return {e: at for f in files for e, at in f.kind_at}
+
+
+def family_of_kind(at, args) -> str:
+    """The family named by ``args[at]`` (:data:`DEFAULT_FAMILY` when ``at`` is None)."""
+    if at is None:
+        return DEFAULT_FAMILY
+    return FAMILIES.get(int(args[at]), FAMILIES[codes.RK4])
 
 
 def closure(names) -> tuple[LoopFile, ...]:
@@ -176,19 +252,21 @@ def _constants(extra: dict | None = None) -> str:
     return "\n".join(f"{k} = {v!r}" for k, v in items.items())
 
 
-def generic_source(files: tuple[LoopFile, ...]) -> str:
-    """The text of the generic module of a set of loop files."""
+def generic_source(files: tuple[LoopFile, ...], family: str = DEFAULT_FAMILY) -> str:
+    """The text of the generic module of a set of loop files with one stepper family."""
     header = HEADER.format(what="generic: kernels called through a function pointer",
                            constants=_constants())
-    return "\n".join([header, access_source("generic"), *(f.text for f in files)]) + "\n"
+    texts = [f.text for f in files] + [family_file(family).text]
+    return "\n".join([header, access_source("generic"), *texts]) + "\n"
 
 
-def inlined_source(code, files: tuple[LoopFile, ...]) -> str:
-    """The text of a system's inlined module: its kernels, then the loops."""
+def inlined_source(code, files: tuple[LoopFile, ...], family: str = DEFAULT_FAMILY) -> str:
+    """The text of a system's inlined module: its kernels, then the loops and one stepper family."""
     header = HEADER.format(what=f"inlined kernels of system key {code.key}",
                            constants=_constants({"NSTATE": code.n_state}))
     access = access_source("flow" if code.kind == "flow" else "map")
-    return "\n".join([header, kernel_functions_source(code), access, *(f.text for f in files)]) + "\n"
+    texts = [f.text for f in files] + [family_file(family).text]
+    return "\n".join([header, kernel_functions_source(code), access, *texts]) + "\n"
 
 
 @lru_cache(maxsize=None)
@@ -200,18 +278,19 @@ def _set_name(files) -> str:
     return "-".join(f.name for f in files)
 
 
-def generic_module_name(files) -> str:
-    """The cache name of the generic module of ``files`` (changes with its text)."""
-    return f"loops_{_set_name(files)}_{source_hash(generic_source(files), _fingerprint())}"
+def generic_module_name(files, family: str = DEFAULT_FAMILY) -> str:
+    """The cache name of the generic module of ``files`` and ``family`` (changes with its text)."""
+    text = generic_source(files, family)
+    return f"loops_{_set_name(files)}_{family}_{source_hash(text, _fingerprint())}"
 
 
-def inlined_module_name(key: str, files) -> str:
-    """The cache name of the inlined module of the system ``key`` and ``files``."""
-    texts = [HEADER, *(f.text for f in files)]
-    return f"inlined_{key[:16]}_{_set_name(files)}_{source_hash(key, *texts, _fingerprint())}"
+def inlined_module_name(key: str, files, family: str = DEFAULT_FAMILY) -> str:
+    """The cache name of the inlined module of the system ``key``, ``files`` and ``family``."""
+    texts = [HEADER, *(f.text for f in files), family_file(family).text]
+    return f"inlined_{key[:16]}_{_set_name(files)}_{family}_{source_hash(key, *texts, _fingerprint())}"
 
 
-def generic_module(files):
-    """The imported generic module of a set of loop files."""
-    name = generic_module_name(files)
-    return load_module(name, lambda: generic_source(files))
+def generic_module(files, family: str = DEFAULT_FAMILY):
+    """The imported generic module of a set of loop files with one stepper family."""
+    name = generic_module_name(files, family)
+    return load_module(name, lambda: generic_source(files, family))

@@ -24,6 +24,8 @@ def _paths():
     flow = phaselab.Hamiltonian("(px**2 + py**2)/2 + (x**2 + y**2)/2 + x**2*y/4", ["x", "y"], ["px", "py"],
                                 name="warm-up flow")
     mixed = phaselab.Hamiltonian("p**2/2 + q**2/2 + q**2*p**2/8", ["q"], ["p"], name="warm-up mixed")
+    mixed2 = phaselab.Hamiltonian("(px**2 + py**2)/2 + (x**2 + y**2)/2 + x**2*py**2/8", ["x", "y"], ["px", "py"],
+                                  name="warm-up mixed plane")
     driven = phaselab.Hamiltonian("p**2/2 + q**2/2 - e*q*cos(t)", ["q"], ["p"], params={"e": 0.1},
                                   time="t", period="2*pi", name="warm-up driven")
     rotor = phaselab.AreaPreservingMap([("p", "p + k*sin(q)"), ("q", "q + p")], ["q"], ["p"],
@@ -35,6 +37,8 @@ def _paths():
         "section": lambda: phaselab.section(flow, seeds, plane={"x": 0.0}, crossings=2, dt=0.1),
         "section (one orbit)": lambda: phaselab.section(flow, seeds[:1], plane={"x": 0.0},
                                                         crossings=2, dt=0.1),
+        "section (implicit)": lambda: phaselab.section(mixed2, seeds, plane={"x": 0.0}, crossings=2, dt=0.1),
+        "trajectory (implicit)": lambda: phaselab.trajectory(mixed, [[0.1, 0.0], [0.2, 0.0]], 1.0, dt=0.1),
         "stroboscopic section": lambda: phaselab.section(driven, [[0.1, 0.0]], crossings=2, dt=0.5),
         "map iterates": lambda: phaselab.section(rotor, [[0.1, 0.2]], crossings=2),
         "chaos indicators": lambda: phaselab.chaos_indicators(flow, seeds, 1.0, dt=0.1),
@@ -44,6 +48,8 @@ def _paths():
         "map indicators": lambda: phaselab.chaos_indicators(rotor, [[0.1, 0.2]], 4),
         "periodic orbit (plane)": lambda: phaselab.periodic_orbit(flow, [0.0, 0.1, 0.3, 0.0], plane={"x": 0.0},
                                                                   dt=0.1),
+        "periodic orbit (plane, implicit)": lambda: phaselab.periodic_orbit(mixed2, [0.0, 0.1, 0.3, 0.0],
+                                                                            plane={"x": 0.0}, dt=0.1),
         "periodic orbits (many starts)": lambda: phaselab.find_periodic_orbits(flow, 1,
                                                                                states=seeds,
                                                                                plane={"x": 0.0},

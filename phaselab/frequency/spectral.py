@@ -51,6 +51,7 @@ import numpy as np
 from phaselab.base.locks import file_lock
 from phaselab.codegen.cache import cache_dir, codegen_fingerprint, load_module, source_hash
 from phaselab.codegen.progress import compiling
+from phaselab.engine.orbit_threads import run_sliced
 from phaselab.errors import ParameterError
 
 __all__ = ["SpectralLines", "Workspace", "leading_lines", "window", "chunk_rows", "MAX_WINDOW_ORDER"]
@@ -107,6 +108,25 @@ def routines():
     return _routines_module[0]
 
 
+SIGNAL_ROWS = {
+    "project_all": (0, 2, 4, 5, 6),
+    "remove_mean": (0, 2, 3, 4, 5, 6),
+    "energies": (0, 2),
+    "apply_window": (0, 2),
+    "peak_bins": (0, 1, 2, 3),
+    "refine_all": (0, 2, 3, 5, 6),
+}
+"""Routine -> positions of its arguments with one row per signal. These routines treat the
+signals independently and hold no ``parallel=True`` code (numba's parallel compilation is
+slow): slices of the signals run on numba's count of threads
+(:func:`phaselab.engine.orbit_threads.run_sliced`), with the same numbers."""
+
+
+def batch(name: str, *args):
+    """Call the routine ``name`` of :data:`SIGNAL_ROWS` on slices of the signals on threads."""
+    return run_sliced(getattr(routines(), name), args, SIGNAL_ROWS[name], ready=False)
+
+
 def window(n, order):
     """The Hann-type window of order ``order`` on ``n`` samples (see ``spectral_loops.window``)."""
     return routines().window(n, order)
@@ -129,11 +149,11 @@ def _coarse(residual, w, active, buffer, windowed=False):
     from scipy import fft as sfft
 
     if not windowed:
-        routines().apply_window(residual, w, buffer)
+        batch("apply_window", residual, w, buffer)
     spec = sfft.fft(buffer, axis=1, overwrite_x=True, workers=_threads())
     centre = np.empty(len(residual))
     start = np.empty(len(residual))
-    routines().peak_bins(spec, active, centre, start)
+    batch("peak_bins", spec, active, centre, start)
     return centre, start
 
 
@@ -241,25 +261,25 @@ def _chunk(x, residual, buffer, lines, p, amplitudes, nu, amp, phase):
     active = np.ones(n_sig, dtype=bool)
     total = np.empty(n_sig)
     left = np.empty(n_sig)
-    routines().remove_mean(x, w, residual, buffer, coef, total, left)
+    batch("remove_mean", x, w, residual, buffer, coef, total, left)
     half_width = (0.75 if p == 0 else 1.0) * 2.0 * np.pi / n
     found = np.zeros(n_sig, dtype=np.int64)
     for j in range(1, lines + 1):
         if j > 1:
-            routines().energies(residual, w, left)
+            batch("energies", residual, w, left)
         active &= left > _SILENT * total
         if not active.any():
             break
         centre, start = _coarse(residual, w, active, buffer, windowed=j == 1)
         peak = np.empty(n_sig)
-        routines().refine_all(residual, w, start, centre, half_width, active, peak)
+        batch("refine_all", residual, w, start, centre, half_width, active, peak)
         omegas[:, j] = np.where(active, peak, np.nan)
         was = active.copy()
         last = j == lines
         if last and not amplitudes:
             found[active] = j
             break
-        routines().project_all(x, w, omegas, j + 1, active, residual, coef, not last)
+        batch("project_all", x, w, omegas, j + 1, active, residual, coef, not last)
         found[was & active] = j
     m = np.arange(1, lines + 1)
     ok = m[None, :] <= found[:, None]

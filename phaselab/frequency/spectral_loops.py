@@ -3,7 +3,8 @@ for the method, its accuracy and references): the window, the scalar products an
 derivatives in the frequency, the safeguarded Newton refinement of a line, the projection on
 the lines found so far, the peak bin of a spectrum, and the complex signals of orbits
 (``fill_signals``). numba functions (``cache=True,
-nogil=True``), parallel over signals where they take a batch.
+nogil=True``); the routines over a batch of signals run slices of it on threads (spectral.SIGNAL_ROWS),
+only ``fill_signals`` is compiled in numba's parallel mode.
 """
 
 from __future__ import annotations
@@ -110,11 +111,11 @@ def refine_peak(wx, start, centre, half_width):
     return x
 
 
-@njit(cache=True, nogil=True, parallel=True)
+@njit(cache=True, nogil=True)
 def refine_all(residual, w, start, centre, half_width, active, out):
     """Refine the peak of every active signal; ``out[i]`` in rad per sample."""
     n_sig, n = residual.shape
-    for i in prange(n_sig):
+    for i in range(n_sig):
         if not active[i]:
             out[i] = np.nan
             continue
@@ -218,13 +219,13 @@ def project_one(x, w, omegas, m, res, coef, with_residual):
     return True
 
 
-@njit(cache=True, nogil=True, parallel=True)
+@njit(cache=True, nogil=True)
 def project_all(x, w, omegas, m, active, residual, coef, with_residual):
     """For every active signal: coefficients of the lines ``omegas[i, :m]`` in ``x`` and
     (if ``with_residual``) the residual of ``x`` after removing them. A signal whose normal matrix is singular keeps its previous
     residual and coefficients, its newest line is set to NaN and it becomes inactive."""
     n_sig, n = x.shape
-    for i in prange(n_sig):
+    for i in range(n_sig):
         if not active[i]:
             continue
         res = np.empty(n, dtype=np.complex128)
@@ -240,7 +241,7 @@ def project_all(x, w, omegas, m, active, residual, coef, with_residual):
             active[i] = False
 
 
-@njit(cache=True, nogil=True, parallel=True)
+@njit(cache=True, nogil=True)
 def remove_mean(x, w, residual, windowed, coef, total, left):
     """The zero-frequency line, in two passes instead of the general projection:
     ``coef[i, 0]`` the windowed mean of row i, ``residual`` the row minus it and
@@ -250,7 +251,7 @@ def remove_mean(x, w, residual, windowed, coef, total, left):
     wsum = 0.0
     for k in range(n):
         wsum += w[k]
-    for i in prange(n_sig):
+    for i in range(n_sig):
         acc = 0j
         e = 0.0
         for k in range(n):
@@ -269,10 +270,10 @@ def remove_mean(x, w, residual, windowed, coef, total, left):
         left[i] = e / n
 
 
-@njit(cache=True, nogil=True, parallel=True)
+@njit(cache=True, nogil=True)
 def energies(x, w, out):
     n_sig, n = x.shape
-    for i in prange(n_sig):
+    for i in range(n_sig):
         acc = 0.0
         for k in range(n):
             v = x[i, k]
@@ -280,20 +281,20 @@ def energies(x, w, out):
         out[i] = acc / n
 
 
-@njit(cache=True, nogil=True, parallel=True)
+@njit(cache=True, nogil=True)
 def apply_window(residual, w, out):
     n_sig, n = residual.shape
-    for i in prange(n_sig):
+    for i in range(n_sig):
         for k in range(n):
             out[i, k] = w[k] * residual[i, k]
 
 
-@njit(cache=True, nogil=True, parallel=True)
+@njit(cache=True, nogil=True)
 def peak_bins(spec, active, centre, start):
     """Largest bin of each spectrum, moved off the grid by Gaussian interpolation of the
     three largest bins; both in rad per sample."""
     n_sig, n = spec.shape
-    for i in prange(n_sig):
+    for i in range(n_sig):
         if not active[i]:
             centre[i] = 0.0
             start[i] = 0.0

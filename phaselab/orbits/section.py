@@ -202,12 +202,6 @@ def _warn_stopped(sec: Section, energy_limit: float):
                       stacklevel=3)
 
 
-def _threads() -> int:
-    import numba
-
-    return int(numba.get_num_threads())
-
-
 # ----------------------------------------------------------------------------- flows
 def _plane_section(system, Z0, plane, direction, crossings, prm, pdict, dt, method, t_max, energy,
                    axes, box):
@@ -233,12 +227,7 @@ def _plane_section(system, Z0, plane, direction, crossings, prm, pdict, dt, meth
     stop = np.zeros(n)
     args = (prm, h, max_steps, k, value, float(direction), crossings, meth.kind, meth.weights, meth.A,
             meth.b, codes.IMPLICIT_TOL, codes.IMPLICIT_MAXIT, lo, hi, pts, tms, counts, err, status, stop)
-    groups = min(n, _threads())
-    if groups <= 1:
-        cs.section_plane_orbits_serial(Z0, *args)
-    else:
-        bounds = np.linspace(0, n, groups + 1).round().astype(np.int64)
-        cs.section_plane_orbits(Z0, bounds, *args)
+    cs.section_plane_orbits(Z0, *args)      # slices of the orbits on numba's threads
     status[(status == TIME_LIMIT) & (counts == 0)] = NO_CROSSING
     sym = system.state_symbols[k]
     return Section(points=pts, counts=counts, times=tms, axes=ax, axis_symbols=syms, energy_error=err,

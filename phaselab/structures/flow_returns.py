@@ -231,14 +231,7 @@ class PlaneReturn(ReturnMap):
         args = (self.prm, h, self.max_steps, self.plane_index, self.value, float(direction), self.k, meth.kind,
                 meth.weights, meth.A, meth.b, codes.IMPLICIT_TOL, codes.IMPLICIT_MAXIT, self.box_lo, self.box_hi,
                 pts, tms, counts, err, st, stop)
-        cs = loops(self.system, "sections")
-        import numba
-
-        groups = min(n, int(numba.get_num_threads()))
-        if groups <= 1:
-            cs.section_plane_orbits_serial(Z, *args)
-        else:
-            cs.section_plane_orbits(Z, np.linspace(0, n, groups + 1).round().astype(np.int64), *args)
+        loops(self.system, "sections").section_plane_orbits(Z, *args)
         res = pts[:, -1][:, self.index]
         st = np.where((st == codes.OK) & (counts == self.k), codes.OK, np.where(st == codes.OK, codes.TIME_LIMIT, st))
         res[st != codes.OK] = np.nan

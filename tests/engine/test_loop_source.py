@@ -10,6 +10,7 @@ import pytest
 
 from phaselab.codegen import KERNELS
 from phaselab.engine import loop_source
+from phaselab.errors import ParameterError
 
 # The kernel access functions as they were written out by hand, one template per form, before
 # they were generated from engine/loop_source.ACCESS (the reference the table must reproduce).
@@ -197,3 +198,29 @@ def test_loop_source_and_background_build_do_not_import_the_call_side():
         tree = ast.parse((folder / name).read_text())
         modules = {n.module for n in ast.walk(tree) if isinstance(n, ast.ImportFrom)}
         assert "phaselab.engine.compiled" not in modules, name
+
+
+def test_a_module_holds_one_stepper_family():
+    """A loop module compiles the steppers of one method family only: its text holds that
+    family's file and defines ``advance`` once."""
+    files = loop_source.closure(["sections", "tangent"])
+    for family in loop_source.FAMILIES.values():
+        text = loop_source.generic_source(files, family)
+        assert loop_source.family_file(family).text in text
+        assert text.count("\ndef advance(") == 1 and text.count("\ndef advance_tangent(") == 1
+        for other in set(loop_source.FAMILIES.values()) - {family}:
+            assert loop_source.family_file(other).text not in text
+    names = {loop_source.generic_module_name(files, f) for f in loop_source.FAMILIES.values()}
+    assert len(names) == len(loop_source.FAMILIES)
+
+
+def test_the_family_of_a_call_is_read_from_its_kind_argument():
+    files = loop_source.closure(["sections"])
+    at = dict(loop_source.loop_file("sections").kind_at)["section_plane_orbits"]
+    args = [None] * 30
+    for kind, family in loop_source.FAMILIES.items():
+        args[at] = kind
+        assert loop_source.family_of_call(files, "section_plane_orbits", args) == family
+    assert loop_source.family_of_call(files, "section_map_orbits", args) == loop_source.DEFAULT_FAMILY
+    with pytest.raises(ParameterError, match="stepper family"):
+        loop_source.family_file("euler")

@@ -21,6 +21,12 @@ the result vanish (the image lies on the plane whatever the start).
 REQUIRES = ("steppers",)
 PROVIDES = ("periodic_plane_return", "periodic_strobe_return", "periodic_map_return",
             "periodic_map_inverse")
+ORBITS = {
+    "periodic_plane_return": ("Z0", "out_state", "out_jac", "out_time", "status"),
+    "periodic_strobe_return": ("X0", "out_state", "out_jac", "status"),
+    "periodic_map_return": ("Z0", "out_state", "out_jac", "status"),
+    "periodic_map_inverse": ("Y", "out_state", "status"),
+}
 
 
 @njit(cache=True, nogil=True)
@@ -94,7 +100,7 @@ def periodic_henon_refine(kern, z, W, t, k, value, prm, n_sub, out, Wout):
     return t
 
 
-@njit(cache=True, nogil=True, parallel=True)
+@njit(cache=True, nogil=True)
 def periodic_plane_return(kern, Z0, prm, h, max_steps, k, value, direction, n_cross, kind, weights,
                           A, b, tol, maxit, box_lo, box_hi, out_state, out_jac, out_time, status):
     """The ``n_cross``-th crossing of ``z[k] = value`` (in ``direction``) of every orbit of
@@ -107,7 +113,7 @@ def periodic_plane_return(kern, Z0, prm, h, max_steps, k, value, direction, n_cr
     """
     n_orb = Z0.shape[0]
     m = Z0.shape[1]
-    for o in prange(n_orb):
+    for o in range(n_orb):
         work = make_work(max(b.shape[0], 1), m)
         jac = np.zeros((m, m))
         z = Z0[o].copy()
@@ -152,7 +158,7 @@ def periodic_plane_return(kern, Z0, prm, h, max_steps, k, value, direction, n_cr
         status[o] = st
 
 
-@njit(cache=True, nogil=True, parallel=True)
+@njit(cache=True, nogil=True)
 def periodic_strobe_return(kern, X0, prm, h, n_steps, kind, weights, A, b, tol, maxit, box_lo, box_hi,
                            out_state, out_jac, status):
     """The state after ``n_steps`` steps (whole drive periods) of every extended state of
@@ -160,7 +166,7 @@ def periodic_strobe_return(kern, X0, prm, h, n_steps, kind, weights, A, b, tol, 
     :func:`periodic_plane_return`)."""
     n_orb = X0.shape[0]
     m = X0.shape[1]
-    for o in prange(n_orb):
+    for o in range(n_orb):
         work = make_work(max(b.shape[0], 1), m)
         jac = np.zeros((m, m))
         z = X0[o].copy()
@@ -183,13 +189,13 @@ def periodic_strobe_return(kern, X0, prm, h, n_steps, kind, weights, A, b, tol, 
         status[o] = st
 
 
-@njit(cache=True, nogil=True, parallel=True)
+@njit(cache=True, nogil=True)
 def periodic_map_return(kern, Z0, prm, n_iter, box_lo, box_hi, out_state, out_jac, status):
     """``n_iter`` unwrapped iterates of a map from every row of ``Z0`` and the Jacobian of
     the composed map (shapes as for :func:`periodic_plane_return`)."""
     n_orb = Z0.shape[0]
     m = Z0.shape[1]
-    for o in prange(n_orb):
+    for o in range(n_orb):
         jac = np.zeros((m, m))
         z = Z0[o].copy()
         zn = np.empty(m)
@@ -223,7 +229,7 @@ def periodic_map_return(kern, Z0, prm, n_iter, box_lo, box_hi, out_state, out_ja
         status[o] = st
 
 
-@njit(cache=True, nogil=True, parallel=True)
+@njit(cache=True, nogil=True)
 def periodic_map_inverse(kern, Y, prm, tol, maxit, out_state, status):
     """Preimages under a map: for every row ``y`` of ``Y`` the ``x`` with map(x) = y, by
     Newton's method from ``x = 2 y - map(y)`` (exact for a translation). ``status`` is
@@ -231,7 +237,7 @@ def periodic_map_inverse(kern, Y, prm, tol, maxit, out_state, status):
     times (1 + |y|)."""
     n_orb = Y.shape[0]
     m = Y.shape[1]
-    for o in prange(n_orb):
+    for o in range(n_orb):
         jac = np.zeros((m, m))
         fx = np.empty(m)
         y = Y[o]

@@ -15,8 +15,12 @@ as it is the independent variable.
 """
 
 REQUIRES = ("steppers",)
-PROVIDES = ("section_plane_orbits", "section_plane_orbits_serial", "section_strobe_orbits",
-            "section_map_orbits")
+PROVIDES = ("section_plane_orbits", "section_strobe_orbits", "section_map_orbits")
+ORBITS = {
+    "section_plane_orbits": ("Z0", "out_points", "out_times", "counts", "energy_error", "status", "stop_time"),
+    "section_strobe_orbits": ("Z0", "out_points", "counts", "energy_error", "status"),
+    "section_map_orbits": ("Z0", "out_points", "counts", "status"),
+}
 
 
 @njit(cache=True, nogil=True)
@@ -273,33 +277,22 @@ def section_plane_group(kern, Z0, first, last, prm, h, max_steps, k, value, dire
                     active += 1
 
 
-@njit(cache=True, nogil=True, parallel=True)
-def section_plane_orbits(kern, Z0, bounds, prm, h, max_steps, k, value, direction, max_cross, kind, weights,
+@njit(cache=True, nogil=True)
+def section_plane_orbits(kern, Z0, prm, h, max_steps, k, value, direction, max_cross, kind, weights,
                          A, b, tol, maxit, box_lo, box_hi, out_points, out_times, counts,
                          energy_error, status, stop_time):
-    """:func:`section_plane_group` for the orbit ranges ``bounds[g] .. bounds[g + 1] - 1``
-    in parallel (one range per thread).
+    """:func:`section_plane_group` for all orbits of ``Z0`` (the orbits are independent:
+    slices of them run on separate threads, see ``ORBITS``).
 
     ``out_points`` (n_orbits, max_cross, 2n) and ``out_times`` (n_orbits, max_cross) must be
     NaN-filled; ``counts``, ``energy_error``, ``status``, ``stop_time`` have shape (n_orbits,).
     """
-    for g in prange(bounds.shape[0] - 1):
-        section_plane_group(kern, Z0, bounds[g], bounds[g + 1], prm, h, max_steps, k, value, direction,
-                            max_cross, kind, weights, A, b, tol, maxit, box_lo, box_hi, out_points,
-                            out_times, counts, energy_error, status, stop_time)
-
-
-@njit(cache=True, nogil=True)
-def section_plane_orbits_serial(kern, Z0, prm, h, max_steps, k, value, direction, max_cross, kind, weights,
-                                A, b, tol, maxit, box_lo, box_hi, out_points, out_times, counts,
-                                energy_error, status, stop_time):
-    """All orbits on the calling thread (no thread start-up, e.g. for a single new orbit)."""
     section_plane_group(kern, Z0, 0, Z0.shape[0], prm, h, max_steps, k, value, direction, max_cross, kind,
                         weights, A, b, tol, maxit, box_lo, box_hi, out_points, out_times, counts,
                         energy_error, status, stop_time)
 
 
-@njit(cache=True, nogil=True, parallel=True)
+@njit(cache=True, nogil=True)
 def section_strobe_orbits(kern, Z0, prm, h, steps_per_period, n_periods, kind, weights, A, b, tol, maxit,
                           box_lo, box_hi, out_points, counts, energy_error, status):
     """Sample every orbit of an extended (autonomous) system once per period.
@@ -310,7 +303,7 @@ def section_strobe_orbits(kern, Z0, prm, h, steps_per_period, n_periods, kind, w
     """
     n_orb = Z0.shape[0]
     m = Z0.shape[1]
-    for o in prange(n_orb):
+    for o in range(n_orb):
         work = make_work(max(b.shape[0], 1), m)
         z = Z0[o].copy()
         k0 = hamiltonian(kern, z, prm)
@@ -348,14 +341,14 @@ def section_strobe_orbits(kern, Z0, prm, h, steps_per_period, n_periods, kind, w
         energy_error[o] = worst
 
 
-@njit(cache=True, nogil=True, parallel=True)
+@njit(cache=True, nogil=True)
 def section_map_orbits(kern, Z0, prm, n_iter, period, low, box_lo, box_hi, out_points, counts, status):
     """Iterate ``map_step`` on every row of ``Z0`` ``n_iter`` times, wrapping component j
     into ``[low[j], low[j] + period[j])`` where ``period[j] > 0``. Iterate i+1 goes to
     ``out_points[o, i]``. Non-finite or out-of-box iterates stop the orbit."""
     n_orb = Z0.shape[0]
     m = Z0.shape[1]
-    for o in prange(n_orb):
+    for o in range(n_orb):
         z = Z0[o].copy()
         zn = np.empty(m)
         st = check_state(z, box_lo, box_hi)

@@ -10,11 +10,16 @@ pointer in the generic module (compiled once per machine), unused in a system's 
 module (where the access functions call the system's kernels directly).
 
 Every stepper advances one state ``z`` (shape ``(2n,)``) in place by a step ``h`` and
-returns a status code.
+returns a status code. The loops step with ``advance`` and ``advance_tangent``, defined by the
+stepper family file the module is assembled with (``family_*.py``: one family per module, so
+a module compiles only the steppers of the method it runs).
 """
 
 REQUIRES = ()
 PROVIDES = ("run_orbits", "evaluate_points", "step_matrix")
+ORBITS = {
+    "run_orbits": ("Z0", "out_states", "out_energy", "status", "stop_step"),
+}
 
 
 @njit(cache=True, nogil=True)
@@ -134,40 +139,6 @@ def make_work(n_stages, m):
 
 
 @njit(cache=True, nogil=True)
-def advance(kern, z, h, prm, kind, weights, A, b, tol, maxit, work):
-    """Advance ``z`` in place by one step of the method ``kind``; returns a status code.
-
-    Parameters
-    ----------
-    kern : kernel
-    z : ndarray, shape (2n,)
-    h : float
-        Step (may be negative: every method here runs backwards as well).
-    prm : ndarray, shape (n_params,)
-    kind : int
-        ``COMPOSITION``, ``GAUSS`` or ``RK4``.
-    weights : ndarray, shape (s,)
-        Leapfrog weights of a composition (``[1.0]`` is the leapfrog itself).
-    A, b : ndarray, shapes (s, s) and (s,)
-        Gauss-Legendre tableau.
-    tol : float
-        Relative tolerance of the implicit solve.
-    maxit : int
-        Most fixed-point iterations of the implicit solve.
-    work : ndarray
-        From :func:`make_work`.
-    """
-    n = nstate(z) // 2
-    if kind == COMPOSITION:
-        return composition_step(kern, z, h, prm, weights, work[0, :n], work[1, :n])
-    if kind == GAUSS:
-        s = b.shape[0]
-        return gauss_step(kern, z, h, prm, A, b, tol, maxit, work[:s], work[s:2 * s], work[2 * s])
-    n0 = work.shape[0] - 5
-    return rk4_step(kern, z, h, prm, work[n0], work[n0 + 1], work[n0 + 2], work[n0 + 3], work[n0 + 4])
-
-
-@njit(cache=True, nogil=True)
 def check_value(v):
     """``OK`` for a finite number, else ``SINGULAR`` (a kernel value at a singularity:
     kernels divide as IEEE arithmetic does, so x / 0 gives inf or nan)."""
@@ -198,11 +169,11 @@ def check_state(z, box_lo, box_hi):
     return OK
 
 
-@njit(cache=True, nogil=True, parallel=True)
+@njit(cache=True, nogil=True)
 def run_orbits(kern, Z0, prm, h, n_steps, save_every, kind, weights, A, b, tol, maxit,
                box_lo, box_hi, out_states, out_energy, status, stop_step):
     """Integrate every orbit of ``Z0`` (shape ``(n_orbits, 2n)``) for ``n_steps`` steps,
-    in parallel over orbits, saving every ``save_every`` steps.
+    saving every ``save_every`` steps.
 
     ``out_states`` (``(n_orbits, n_saves, 2n)``) and ``out_energy`` (``(n_orbits,
     n_saves)``) must be pre-filled with NaN; sample 0 is the initial state. When
@@ -214,7 +185,7 @@ def run_orbits(kern, Z0, prm, h, n_steps, save_every, kind, weights, A, b, tol, 
     """
     n_orb = Z0.shape[0]
     m = Z0.shape[1]
-    for o in prange(n_orb):
+    for o in range(n_orb):
         work = make_work(max(b.shape[0], 1), m)
         z = Z0[o].copy()
         st = check_state(z, box_lo, box_hi)
@@ -419,28 +390,6 @@ def rk4_tangent_step(kern, z, V, h, prm):
             V[r, col] += h * (dks[0, r, col] + 2.0 * dks[1, r, col] + 2.0 * dks[2, r, col]
                               + dks[3, r, col]) / 6.0
     return OK
-
-
-@njit(cache=True, nogil=True)
-def advance_tangent(kern, z, V, h, prm, kind, weights, A, b, tol, maxit, work, jac):
-    """Advance ``z`` and the tangent vectors ``V`` (shape ``(2n, k)``) by one step of the
-    method ``kind``, in place; returns the status code of the state step.
-
-    Arguments are those of :func:`advance`, and ``jac`` is scratch space of shape
-    ``(2n, 2n)``. ``V`` is left unchanged when the step fails.
-    """
-    n = nstate(z) // 2
-    if kind == COMPOSITION:
-        # the first n*n entries of the (C-ordered) scratch matrix serve as an n x n block
-        hess = jac.reshape(jac.shape[0] * jac.shape[1])[:n * n].reshape((n, n))
-        return composition_tangent_step(kern, z, V, h, prm, weights, work[0, :n], work[1, :n], hess)
-    if kind == GAUSS:
-        z_old = z.copy()
-        st = advance(kern, z, h, prm, kind, weights, A, b, tol, maxit, work)
-        if st == OK:
-            st = gauss_tangent(kern, z_old, V, h, prm, A, b, work[:b.shape[0]])
-        return st
-    return rk4_tangent_step(kern, z, V, h, prm)
 
 
 @njit(cache=True, nogil=True)

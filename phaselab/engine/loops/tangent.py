@@ -11,6 +11,11 @@ serves the Lyapunov exponent, MEGNO and FLI; SALI needs two (``W0.shape[2] == 2`
 
 REQUIRES = ("steppers",)
 PROVIDES = ("tangent_flow_indicators", "tangent_composition_indicators", "tangent_map_indicators")
+ORBITS = {
+    "tangent_flow_indicators": ("Z0", "W0", "final", "history", "status", "stop_step"),
+    "tangent_composition_indicators": ("Z0", "W0", "final", "history", "status", "stop_step"),
+    "tangent_map_indicators": ("Z0", "W0", "final", "history", "status", "stop_step"),
+}
 
 
 @njit(cache=True, nogil=True)
@@ -82,7 +87,7 @@ def tangent_store(o, t, acc, out):
     out[o, 3] = acc[4]
 
 
-@njit(cache=True, nogil=True, parallel=True)
+@njit(cache=True, nogil=True)
 def tangent_flow_indicators(kern, Z0, W0, prm, h, n_steps, record_every, kind, weights, A, b, tol,
                             maxit, box_lo, box_hi, final, history, status, stop_step):
     """Benettin's largest Lyapunov exponent, MEGNO, FLI and SALI along every orbit of a flow.
@@ -96,7 +101,7 @@ def tangent_flow_indicators(kern, Z0, W0, prm, h, n_steps, record_every, kind, w
     """
     n_orb = Z0.shape[0]
     m = Z0.shape[1]
-    for o in prange(n_orb):
+    for o in range(n_orb):
         work = make_work(max(b.shape[0], 1), m)
         jac = np.zeros((m, m))
         acc = np.zeros(5)
@@ -129,7 +134,7 @@ def tangent_flow_indicators(kern, Z0, W0, prm, h, n_steps, record_every, kind, w
             tangent_store(o, done * h, acc, final)
 
 
-@njit(cache=True, nogil=True, parallel=True)
+@njit(cache=True, nogil=True)
 def tangent_composition_indicators(kern, Z0, W0, prm, h, n_steps, record_every, weights, constant_pp,
                                    box_lo, box_hi, final, history, status, stop_step):
     """:func:`tangent_flow_indicators` for a composition of leapfrogs (a separable H), with
@@ -151,7 +156,7 @@ def tangent_composition_indicators(kern, Z0, W0, prm, h, n_steps, record_every, 
     for i in range(s):
         dd[i] = weights[i] * h
         cc[i + 1] = 0.5 * (weights[i] + weights[i + 1]) * h if i + 1 < s else 0.5 * weights[i] * h
-    for o in prange(n_orb):
+    for o in range(n_orb):
         n = nstate(Z0[o]) // 2
         k = W0.shape[2]
         gp = np.empty(n)
@@ -250,7 +255,7 @@ def tangent_composition_indicators(kern, Z0, W0, prm, h, n_steps, record_every, 
             tangent_store(o, done * h, acc, final)
 
 
-@njit(cache=True, nogil=True, parallel=True)
+@njit(cache=True, nogil=True)
 def tangent_map_indicators(kern, Z0, W0, prm, n_iter, record_every, modulus, low, box_lo, box_hi,
                            final, history, status, stop_step):
     """The indicators of :func:`tangent_flow_indicators` for an area-preserving map, one
@@ -258,7 +263,7 @@ def tangent_map_indicators(kern, Z0, W0, prm, n_iter, record_every, modulus, low
     component into ``[low, low + m)`` where ``m > 0``."""
     n_orb = Z0.shape[0]
     m = Z0.shape[1]
-    for o in prange(n_orb):
+    for o in range(n_orb):
         k = W0.shape[2]
         jac = np.zeros((m, m))
         znew = np.zeros(m)

@@ -1,0 +1,96 @@
+"""Running a compiled loop over independent orbits on several threads.
+
+The loop modules hold no ``parallel=True`` code (numba's parallel compilation costs more than
+half the first-call compile time of a loop). An entry point whose orbits are independent
+declares the arguments with one row per orbit (``ORBITS`` in its loop file); it is compiled
+with ``nogil=True``, so slices of its rows run side by side on Python threads: the same
+contiguous split over ``numba.get_num_threads()`` threads that numba's static schedule used,
+and the same arithmetic per orbit, hence the same numbers to the last bit.
+"""
+
+from __future__ import annotations
+
+import threading
+
+import numba
+import numpy as np
+
+
+def split(n_rows: int, threads: int) -> np.ndarray:
+    """Bounds of ``min(n_rows, threads)`` contiguous slices of ``n_rows`` rows, shape
+    ``(n_slices + 1,)`` (the first 0, the last ``n_rows``)."""
+    groups = max(1, min(n_rows, threads))
+    return np.linspace(0, n_rows, groups + 1).round().astype(np.int64)
+
+
+def sliceable(args, positions) -> int:
+    """The number of orbits of a call when every argument at ``positions`` is an array with
+    that many rows, else 0 (the call then runs whole on the calling thread)."""
+    rows = None
+    for i in positions:
+        a = args[i]
+        if not isinstance(a, np.ndarray) or a.ndim == 0:
+            return 0
+        if rows is None:
+            rows = a.shape[0]
+        elif a.shape[0] != rows:
+            return 0
+    return rows or 0
+
+
+def compiled_for(disp, args) -> bool:
+    """Whether the numba dispatcher ``disp`` holds machine code for the types of ``args``."""
+    return tuple(numba.typeof(a) for a in args) in disp.overloads
+
+
+def run_sliced(disp, args, positions, threads: int | None = None, ready: bool = True):
+    """Call ``disp(*args)`` on slices of the rows of the arguments at ``positions`` (indices
+    into ``args``), one slice per thread, the first on the calling thread.
+
+    Parameters
+    ----------
+    disp : numba dispatcher
+        With ``nogil=True`` (row slices of C-ordered arrays keep their type). With
+        ``ready=False`` and no machine code for these types yet, the first slice runs
+        alone on the calling thread first, so that compiling (or loading from the cache)
+        happens there once, where the compile news watches it.
+    args : tuple
+        The call's arguments, the kernel first.
+    positions : tuple of int
+        Indices into ``args`` of the arrays with one row per orbit.
+    threads : int, optional
+        Default ``numba.get_num_threads()`` (of the calling thread).
+    """
+    n = sliceable(args, positions)
+    threads = int(numba.get_num_threads()) if threads is None else int(threads)
+    if n <= 1 or threads <= 1:
+        return disp(*args)
+    bounds = split(n, threads)
+    parts = []
+    for g in range(bounds.shape[0] - 1):
+        lo, hi = int(bounds[g]), int(bounds[g + 1])
+        part = list(args)
+        for i in positions:
+            part[i] = args[i][lo:hi]
+        parts.append(tuple(part))
+    errors: list = []
+
+    def work(part):
+        try:
+            disp(*part)
+        except BaseException as exc:      # handed to the calling thread
+            errors.append(exc)
+
+    first = not ready and not compiled_for(disp, args)
+    if first:
+        disp(*parts[0])
+    helpers = [threading.Thread(target=work, args=(p,), daemon=True) for p in parts[1:]]
+    for t in helpers:
+        t.start()
+    if not first:
+        work(parts[0])
+    for t in helpers:
+        t.join()
+    if errors:
+        raise errors[0]
+    return None
