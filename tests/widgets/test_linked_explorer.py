@@ -174,6 +174,7 @@ def test_session_round_trip_and_export(ex, springs, tmp_path):
     for a, b in zip(ex.orbits, other.orbits):
         np.testing.assert_array_equal(a.state, b.state)
         np.testing.assert_array_equal(a.points, b.points)
+    ex.export_dir = tmp_path
     paths = ex.export("springs", formats=(".png", ".csv"))
     assert [p.suffix for p in paths] == [".png", ".csv"] and all(p.stat().st_size > 0 for p in paths)
     other.close()
