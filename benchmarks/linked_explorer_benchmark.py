@@ -105,7 +105,7 @@ def main(repeats: int = 7, orbits: int = 100, crossings: int = 1000) -> None:
     ex.crossings = 300
     seeds = rng.uniform(-0.3, 0.3, (repeats, 2))
     w = timed(lambda k: tap(ex, *seeds[k]), repeats)
-    b = timed(lambda k: phaselab.section(H, ex.orbits[-1].state[None, :], {"x3": 0.0}, crossings=300,
+    b = timed(lambda k: phaselab.section(H, ex.orbits[-1].state[None, :], 300, plane={"x3": 0.0},
                                          energy=0.5), repeats)
     rows.append((f"click-to-points ({len(ex.figures.points.data['orbit'])} shown)", w, b))
     ex.set_slab("p2", 0.0, 0.05)

@@ -102,7 +102,7 @@ def test_click_seeds_an_orbit_on_the_energy_shell(ex, springs, h_sympy):
     assert np.max(np.abs(h_sympy(states) - E0)) / E0 < 1e-5
     assert np.all(np.abs(states[:, 2]) < 1e-9)   # on the plane x3 = 0
     # the points shown are the direct section's, in the section coordinates
-    direct = phaselab.section(springs, rec.state[None, :], PLANE, crossings=CROSSINGS, energy=E0)
+    direct = phaselab.section(springs, rec.state[None, :], CROSSINGS, plane=PLANE, energy=E0)
     d = ex.figures.points.data
     ref = direct.points[0, : direct.counts[0]]
     for j, name in enumerate(ex.view.coordinates):

@@ -29,7 +29,7 @@ class LinkedFiles:
         if sec is None:
             raise ParameterError("there are no orbits to export yet")
         if self.slab is None:
-            return projection_grid(sec, list(self.view.coordinates))
+            return projection_grid(sec, coordinates=list(self.view.coordinates))
         return section_slice(sec, self.slab.name, self.slab.center, self.slab.half_width)
 
     def export(self, stem=None, formats=None):

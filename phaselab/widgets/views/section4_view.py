@@ -140,8 +140,8 @@ class Section4View(BaseView):
 
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
-            return shell_seeds(self.system, energy, self.plane, self.solve_for, pts, params=params,
-                               sign=self.sign).valid
+            return shell_seeds(self.system, pts, energy=energy, plane=self.plane, solve_for=self.solve_for,
+                               params=params, sign=self.sign).valid
 
     def fit_ranges(self, energy, params):
         """Choose a window for every section coordinate.
@@ -231,7 +231,8 @@ class Section4View(BaseView):
             raise ParameterError(f"the values of {', '.join(missing)} are needed to seed this section")
         fixed = dict(self.plane)
         fixed.update({c: float(held[c]) for c in self.held})
-        s = shell_seeds(self.system, energy, fixed, self.solve_for, pts, params=params, sign=self.sign)
+        s = shell_seeds(self.system, pts, energy=energy, plane=fixed, solve_for=self.solve_for, params=params,
+                        sign=self.sign)
         return Seeding(s.states, s.valid, list(s.reasons))
 
     def compute(self, states, energy, params, crossings=None):
@@ -239,8 +240,8 @@ class Section4View(BaseView):
 
         with warnings.catch_warnings():
             warnings.simplefilter("ignore", RuntimeWarning)
-            return section(self.system, states, self.plane, direction=self.sign,
-                           crossings=crossings or self.crossings, params=params, dt=self.dt,
+            return section(self.system, states, crossings or self.crossings, plane=self.plane,
+                           direction=self.sign, params=params, dt=self.dt,
                            method=self.method, energy=energy, axes=self.axis_names)
 
     def coordinate_points(self, section) -> np.ndarray:
