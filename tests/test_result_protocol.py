@@ -231,3 +231,69 @@ def test_take_and_concat_keep_running_values_and_refuse_parts_that_do_not_fit():
     longer = phaselab.trajectory(_pendulum(), [[0.5, 0.0]], 3.0, dt=0.05)
     with pytest.raises(phaselab.ParameterError, match="same times"):
         type(tr).concat([tr, longer])
+
+
+# ------------------------------------------------------------------------------ figure footers
+#: The system each builder's figure must name in its footer (None: a scan of a plain function).
+SYSTEM_NAMES = {name: ROTOR.name for name in BUILDERS}
+SYSTEM_NAMES.update({"Trajectory": models.pendulum().name, "LevelSet": models.pendulum().name,
+                     "Equilibrium": models.pendulum().name, "NormalForm": models.pendulum().name,
+                     "NormalFormCheck": models.pendulum().name, "ShellSeeds": models.henon_heiles().name,
+                     "SectionSlice": "rotations", "ParameterScan": None})
+
+
+def _footer(fig):
+    """The figure-level texts that carry ``phaselab <version>`` and the lines above them."""
+    texts = [t for t in fig.texts if t.get_text()]
+    return " ".join(t.get_text() for t in texts), texts
+
+
+def _kinds(ax):
+    """Distinct (artist type, colour) pairs drawn in ``ax`` that a reader must tell apart:
+    lines with data and markers or collections that are not colour-mapped; grey reference
+    lines (equal red, green and blue) are not counted."""
+    from matplotlib.colors import to_rgb
+
+    kinds = set()
+    for line in ax.get_lines():
+        if len(np.atleast_1d(line.get_xdata())) and line.get_label() != "_nolegend_":
+            r, g, b = to_rgb(line.get_color())
+            if not (r == g == b):
+                kinds.add(("line", line.get_linestyle(), line.get_marker(), (r, g, b)))
+    for art in ax.collections:
+        if art.get_array() is None and len(art.get_offsets()):
+            kinds.add(("points", tuple(np.round(art.get_facecolor()[:1].ravel(), 3))))
+    return kinds
+
+
+@pytest.mark.parametrize("name", sorted(BUILDERS))
+def test_every_figure_has_a_footer_keys_and_labelled_colour_bars(name):
+    fig = built(name).plot()
+    words, texts = _footer(fig)
+    assert "phaselab " + phaselab.__version__ in words
+    if SYSTEM_NAMES[name]:
+        assert SYSTEM_NAMES[name] in words
+    # every footer line lies inside the figure (matplotlib's own text measurement)
+    fig.canvas.draw()
+    right = fig.get_size_inches()[0] * fig.dpi
+    for text in texts:
+        assert text.get_window_extent().x1 <= right + 1, text.get_text()
+    for ax in fig.axes:
+        for art in list(ax.collections) + list(ax.images):
+            bar = getattr(art, "colorbar", None)
+            if bar is not None:
+                assert (bar.ax.get_ylabel() or bar.ax.get_xlabel()).strip(), name
+        if len(_kinds(ax)) > 1:
+            assert ax.get_legend() is not None or fig.legends, (name, _kinds(ax))
+
+
+def test_footer_names_the_parameters_and_can_be_left_out():
+    words, _ = _footer(built("Section").plot())
+    assert all(f"{k} = {v:g}" in words for k, v in PARAMS.items())       # the section's own params
+    words, _ = _footer(built("Family").plot())
+    family = built("Family")
+    assert f"K from {min(family.values):g} to {max(family.values):g}" in words
+    assert "Model results" in words
+    for name in ("Trajectory", "ChaosMap", "Family", "Section"):
+        words, _ = _footer(built(name).plot(footer=False))
+        assert "phaselab " + phaselab.__version__ not in words

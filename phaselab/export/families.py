@@ -46,7 +46,7 @@ def family_figure(family, y=None, size=(6.0, 4.2), dpi=150, title=None, note=MOD
 
         fig = Figure(figsize=(width, height), dpi=dpi, facecolor="white")
         lines = footers.footer_lines(footers.footer_text(family), width) if footer else []
-        bottom = 0.55 + footers.margin(lines, note)
+        bottom = 0.55 + footers.margin(lines, note, width)
         top = 0.42 if title else 0.18
         ax = fig.add_axes((0.8 / width, bottom / height, (width - 1.0) / width, (height - bottom - top) / height))
         if y == "index":

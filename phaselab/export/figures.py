@@ -178,7 +178,7 @@ def section_figure(section, size=(6.0, 4.5), dpi=150, point_size=1.6, color=None
         fig = Figure(figsize=(width, height), dpi=dpi, facecolor="white")
         # Margins in inches, so every size gets the same breathing room around the axes.
         left, right = 0.72, (1.05 if scalar is not None else 0.22)
-        bottom = 0.55 + footers.margin(footer_lines, note)
+        bottom = 0.55 + footers.margin(footer_lines, note, width)
         top = 0.42 if title else 0.18
         ax_w, ax_h = width - left - right, height - bottom - top
         if ax_w < 0.8 or ax_h < 0.6:
@@ -235,9 +235,10 @@ def section_figure(section, size=(6.0, 4.5), dpi=150, point_size=1.6, color=None
 
 
 def orbit_key(ax, n_orbits, marker_area, curves=False):
-    """A small key in the upper right of ``ax``: the colour of each orbit (up to five; more
-    orbits are one entry saying the colours cycle by orbit number) and, with ``curves``, the
-    overlay curves drawn. Nothing when there is nothing to tell apart."""
+    """A small key in the upper right of ``ax`` (an axes or a figure): the colour of each
+    orbit (up to five; more orbits are one entry saying the colours follow the orbit
+    number) and, with ``curves``, the overlay curves drawn. Nothing when there is nothing to
+    tell apart."""
     from matplotlib.lines import Line2D
 
     size = max(float(np.sqrt(marker_area)), 3.0)
@@ -248,7 +249,8 @@ def orbit_key(ax, n_orbits, marker_area, curves=False):
     elif n_orbits > 5:
         handles = [Line2D([], [], ls="", marker="o", ms=size, mew=0, color=ORBIT_COLORS[0],
                           label=f"{n_orbits} orbits, colour by orbit number")]
-    handles += [h for h in ax.get_lines() if h.get_label() == "overlay curve"]
+    if curves:
+        handles += [h for h in ax.get_lines() if h.get_label() == "overlay curve"]
     if handles:
         ax.legend(handles=handles, loc="upper right", fontsize=6.5, frameon=True, framealpha=0.85,
                   edgecolor="none", handletextpad=0.3, borderaxespad=0.2, labelspacing=0.25)

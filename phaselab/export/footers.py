@@ -9,6 +9,7 @@ its members, else the ``meta`` dictionary a scan records.
 from __future__ import annotations
 
 import math
+import textwrap
 
 import numpy as np
 
@@ -179,6 +180,8 @@ def _extra_parts(result) -> list[str]:
         record = f"records of t = {result.t:g}, " if getattr(result, "t", None) is not None else ""
         return [f"{record}{result.n_samples} samples",
                 f"{_normal_form_kind(result.normal_form)}; Laskar's frequency analysis"]
+    if hasattr(result, "convergents") and hasattr(result, "threshold"):
+        return [f"Greene's residue criterion, |R| = {_num(result.threshold)}"]
     if hasattr(result, "description") and hasattr(result, "levels"):
         n = np.size(result.levels)
         return [t for t in (str(result.description or ""), f"{n} level{'s' if n != 1 else ''}") if t]
@@ -237,9 +240,20 @@ def footer_lines(text: str, width_in: float, fontsize: float = FONT_SIZE) -> lis
     return lines + ([current] if current else [])
 
 
-def margin(lines, note=None) -> float:
-    """Height in inches the footer ``lines`` and the ``note`` take under the axes."""
-    return (GAP + LINE_HEIGHT * len(lines) if lines else 0.0) + (NOTE_HEIGHT if note else 0.0)
+def note_lines(note, width_in: float, fontsize: float = FONT_SIZE) -> list[str]:
+    """The note broken between words into lines that fit ``width_in`` inches (same glyph
+    estimate as :func:`footer_lines`)."""
+    if not note:
+        return []
+    most = max(20, int((width_in - 2 * INDENT) * 72 / (0.55 * fontsize)))
+    return textwrap.wrap(str(note), most) or [str(note)]
+
+
+def margin(lines, note=None, width_in=None) -> float:
+    """Height in inches the footer ``lines`` and the ``note`` (wrapped to ``width_in``
+    inches; one line when no width is given) take under the axes."""
+    n_note = len(note_lines(note, width_in)) if width_in is not None else (1 if note else 0)
+    return (GAP + LINE_HEIGHT * len(lines) if lines else 0.0) + NOTE_HEIGHT * n_note
 
 
 def draw(fig, lines, note=None) -> None:
@@ -247,8 +261,8 @@ def draw(fig, lines, note=None) -> None:
     the lower left of ``fig``; names are shown as written, never typeset as math."""
     width, height = fig.get_size_inches()
     y = BASE
-    if note:
-        fig.text(INDENT / width, y / height, str(note), ha="left", va="bottom", fontsize=FONT_SIZE,
+    for line in reversed(note_lines(note, width)):
+        fig.text(INDENT / width, y / height, line, ha="left", va="bottom", fontsize=FONT_SIZE,
                  color=NOTE_COLOR, style="italic", parse_math=False)
         y += NOTE_HEIGHT
     for line in reversed(lines):
@@ -271,7 +285,7 @@ def add_footer(fig, result, *, note=None, footer=True):
     """
     width, height = fig.get_size_inches()
     lines = footer_lines(footer_text(result), width) if footer else []
-    room = margin(lines, note)
+    room = margin(lines, note, width)
     if not room:
         return fig
     share = min(room / height, 0.5)

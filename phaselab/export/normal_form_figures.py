@@ -58,7 +58,7 @@ def normal_form_check_figure(check, size=None, dpi=150, title=None, footer=True,
     with matplotlib.rc_context(REPORT_RC):
         fig = Figure(figsize=(width, height), dpi=dpi, facecolor="white")
         lines = footers.footer_lines(footers.footer_text(check), width) if footer else []
-        bottom = 0.55 + footers.margin(lines, note)
+        bottom = 0.55 + footers.margin(lines, note, width)
         top = (0.42 if title else 0.2) + (0.2 if island is not None else 0.0)
         panels = 2 if island is not None else 1
         gap = 0.75

@@ -112,7 +112,7 @@ def structure_figure(items, section=None, axes=None, size=(6.0, 4.5), dpi=150, t
             fig = Figure(figsize=(width, height), dpi=dpi, facecolor="white")
             lines = footers.footer_lines(footers.footer_text(about if about is not None else items[0]),
                                          width) if footer else []
-            bottom = 0.55 + footers.margin(lines, note)
+            bottom = 0.55 + footers.margin(lines, note, width)
             top = 0.42 if title else 0.18
             ax = fig.add_axes((0.72 / width, bottom / height, (width - 0.94) / width,
                                (height - bottom - top) / height))

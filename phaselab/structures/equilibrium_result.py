@@ -42,6 +42,8 @@ class Equilibrium:
         of the search box. Empty for an isolated equilibrium.
     system_name : str
         The name of the system it belongs to (for footers of figures).
+    params : dict
+        The parameter values in force where it was found.
     """
 
     state: np.ndarray
@@ -54,6 +56,7 @@ class Equilibrium:
     free: tuple = field(default_factory=tuple)
     directions: np.ndarray = field(default_factory=lambda: np.zeros((0, 0)))
     system_name: str = ""
+    params: dict = field(default_factory=dict)
 
     def to_xarray(self):
         """An ``xarray.Dataset`` with CF attributes: the state and the eigenvalues."""
