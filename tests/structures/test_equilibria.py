@@ -175,7 +175,7 @@ def test_spatial_three_body_has_the_five_lagrange_points_and_no_false_one():
     mu = 0.015
     box = {"x": (-1.5, 1.5), "y": (-1.0, 1.0), "z": (-0.1, 0.1), "px": (-1.0, 1.0), "py": (-1.5, 1.5),
            "pz": (-0.1, 0.1)}
-    eqs = equilibria(phaselab.models.spatial_restricted_three_body(), params={"mu": mu}, bounds=box, starts=400)
+    eqs = equilibria(phaselab.models.spatial_restricted_three_body(), params={"mu": mu}, ranges=box, starts=400)
     assert len(eqs) == 5
     for e in eqs:   # grad H = 0 there, evaluated independently: px = -y, py = x, z = pz = 0
         np.testing.assert_allclose(e.state[3:5], [-e.state[1], e.state[0]], atol=1e-10)
