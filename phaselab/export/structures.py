@@ -127,11 +127,14 @@ def structure_figure(items, section=None, axes=None, size=(6.0, 4.5), dpi=150, t
                 fig.text(0.72 / width, 1 - 0.12 / height, str(title), ha="left", va="top", fontsize=11)
             footers.draw(fig, lines, note)
     with matplotlib.rc_context(REPORT_RC):
+        keyed = set()
         for man in manifolds:
             colour, style = BRANCH_STYLE.get(man.branch, ("#333333", "-"))
             for line in man.branches:
+                label = f"{man.branch} manifold" if man.branch not in keyed else None
+                keyed.add(man.branch)
                 ax.plot(line[:, i], line[:, j], color=colour, linestyle=style, linewidth=line_width,
-                        zorder=3)
+                        zorder=3, label=label)
         seen = set()
         for orbit in orbits:
             marker, colour = MARKERS.get(orbit.stability, ("D", "#333333"))
@@ -139,7 +142,7 @@ def structure_figure(items, section=None, axes=None, size=(6.0, 4.5), dpi=150, t
             seen.add(orbit.stability)
             ax.scatter(orbit.points[:, i], orbit.points[:, j], s=marker_size ** 2, marker=marker,
                        c=colour, edgecolors="white", linewidths=0.6, zorder=4, label=label)
-        if seen:
+        if seen or keyed:
             ax.legend(loc="upper right", fontsize=7.5, frameon=False, handletextpad=0.3, borderaxespad=0.2)
         if section is None:
             ax.margins(0.06)
