@@ -20,6 +20,8 @@ import numpy as np
 from phaselab.base.atomic import atomic_path
 from phaselab.engine.provenance import MODEL_NOTE
 from phaselab.export import footers
+from phaselab.export.describe import unit_of
+from phaselab.model.units import with_unit
 from phaselab.engine.provenance import cf_dataset
 from phaselab.errors import ParameterError
 from phaselab.export.figures import (FIGURE_SUFFIXES, ORBIT_COLORS, REPORT_RC, check_size, check_texts, orbit_key,
@@ -105,7 +107,7 @@ def _scatter(fig, result, point_size, elevation, azimuth):
         art = ax.scatter(*cols, c=values, cmap=scalar_colormap(), **style)
         cax = fig.add_axes((0.86, 0.2, 0.025, 0.72))
         bar = fig.colorbar(art, cax=cax)
-        bar.set_label(result.color, fontsize=9)
+        bar.set_label(with_unit(result.color, unit_of(getattr(result, "system", None), result.color)), fontsize=9)
         bar.ax.tick_params(labelsize=7.5)
     else:
         ax.scatter(*cols, c=_colors(result), **style)
