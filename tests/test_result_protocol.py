@@ -300,3 +300,22 @@ def test_footer_names_the_parameters_and_can_be_left_out():
     for name in ("Trajectory", "ChaosMap", "Family", "Section"):
         words, _ = _footer(built(name).plot(footer=False))
         assert "phaselab " + phaselab.__version__ not in words
+
+
+def test_colour_bars_and_footers_carry_the_models_units():
+    """A flow with declared units: the Lyapunov exponent's colour bar is per second and the
+    survival time in seconds (common practice: an exponent of growth in time has the unit of
+    inverse time); the footer gives each parameter and the step with their units."""
+    flow = phaselab.Hamiltonian("p**2/(2*m) + k*x**2/2", ["x"], ["p"], params={"m": 1.0, "k": 1.0},
+                                units={"x": "m", "p": "kg m/s", "t": "s", "m": "kg", "k": "kg/s^2"})
+    square = phaselab.state_grid(flow, {"x": (-1.0, 1.0, 2), "p": (-1.0, 1.0, 2)})
+    for result, label in ((phaselab.chaos_map(flow, square, 1.0, dt=0.1, indicator="lyapunov", progress=False),
+                           "largest Lyapunov exponent (1/s)"),
+                          (phaselab.escape_map(flow, square, 1.0, box=5.0, dt=0.1, progress=False),
+                           "survival time (s)")):
+        fig = result.plot()
+        bars = [art.colorbar for ax in fig.axes for art in ax.collections if getattr(art, "colorbar", None)]
+        assert [bar.ax.get_ylabel() for bar in bars] == [label]
+        assert fig.axes[0].get_xlabel() == "x [m]"
+        words, _ = _footer(fig)
+        assert "m = 1 kg" in words and "dt = 0.1 s" in words and "Model results" in words

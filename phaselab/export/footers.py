@@ -85,6 +85,12 @@ def varied(result) -> dict:
     return {}
 
 
+def units_of(result) -> dict:
+    """The units the model declares, ``{name: unit}`` (from the system or a scan's record)."""
+    units = getattr(getattr(_source(result), "system", None), "units", None) or _meta(result).get("units")
+    return dict(units) if isinstance(units, dict) else {}
+
+
 def used_params(result) -> dict:
     """Parameter values in force: the system's defaults overridden by the result's own."""
     source = _source(result)
@@ -121,14 +127,16 @@ def _method_text(result) -> str:
         return f"map, {count}" if count else "map"
     if not isinstance(method, str) or not method:
         return ""
+    unit = units_of(result).get("t")
+    unit = f" {unit}" if unit else ""
     text = method
     try:
         if math.isfinite(float(dt)):
-            text += f", dt = {_num(dt)}"
+            text += f", dt = {_num(dt)}{unit}"
     except (TypeError, ValueError):
         pass
     if isinstance(run, (int, float)) and math.isfinite(run):
-        text += f", t = {_num(run)}"
+        text += f", t = {_num(run)}{unit}"
     return text
 
 
@@ -213,8 +221,10 @@ def footer_text(result) -> str:
         parts.append(f"E = {_num(energy)}")
     ranges = varied(result)
     params = {k: v for k, v in used_params(result).items() if k not in ranges}
+    units = units_of(result)
     if params:
-        parts.append(", ".join(f"{k} = {_num(v)}" for k, v in params.items()))
+        parts.append(", ".join(f"{k} = {_num(v)}" + (f" {units[k]}" if units.get(k) else "")
+                               for k, v in params.items()))
     for k, (lo, hi) in ranges.items():
         parts.append(f"{k} from {_num(lo)} to {_num(hi)}")
     method = _method_text(result)

@@ -40,7 +40,12 @@ def _names(system, width):
 
 
 def _label(system, name):
-    unit = (getattr(system, "units", None) or {}).get(name)
+    return _unit_label(getattr(system, "units", None) or {}, name)
+
+
+def _unit_label(units, name):
+    """``name [unit]`` where ``units`` (the model's, ``{name: unit}``) has one, else ``name``."""
+    unit = units.get(name)
     return f"{name} [{unit}]" if unit else name
 
 
@@ -50,11 +55,11 @@ def footers_time(system) -> str:
     return getattr(time, "name", None) or "t"
 
 
-def indicator_label(indicator, system, is_map) -> str:
+def indicator_label(indicator, time_unit, is_map) -> str:
     """The label of a chaos indicator with its unit: MEGNO, FLI and SALI are dimensionless;
-    the Lyapunov exponent is per iterate (maps) or per unit of the model's time."""
-    unit = (getattr(system, "units", None) or {}).get(footers_time(system))
-    time = "per iterate" if is_map else (f"1/{unit}" if unit else "per unit of model time")
+    the Lyapunov exponent is per iterate (maps) or per unit of the model's time
+    (``time_unit``, None where the model declares none)."""
+    time = "per iterate" if is_map else (f"1/{time_unit}" if time_unit else "per unit of model time")
     return INDICATOR_LABELS.get(indicator, str(indicator)).format(time=time)
 
 
@@ -66,8 +71,7 @@ def scan_label(quantity, meta) -> str:
     time_unit = (meta.get("units") or {}).get("t")
     if quantity == "survival time":
         return f"survival time ({'iterates' if is_map else time_unit or 'model time units'})"
-    system = type("Units", (), {"units": {"t": time_unit} if time_unit else {}})()
-    return indicator_label(quantity, system, is_map)
+    return indicator_label(quantity, time_unit, is_map)
 
 
 def _with_units(name, da) -> str:
@@ -130,7 +134,8 @@ def chaos_figure(ci, indicator="megno", size=(5.5, 4.0), dpi=150, title=None, *,
     else:
         ax.plot(np.arange(len(ci.status)), getattr(ci, indicator), "o", ms=3)
         ax.set_xlabel("orbit")
-    ax.set_ylabel(indicator_label(indicator, ci.system, ci.method == "map"))
+    time_unit = (getattr(ci.system, "units", None) or {}).get(footers_time(ci.system))
+    ax.set_ylabel(indicator_label(indicator, time_unit, ci.method == "map"))
     return footers.add_footer(fig, ci, note=footers.default_note(ci), footer=footer)
 
 
@@ -149,8 +154,9 @@ def picture_figure(values, grid, label, size=(5.5, 4.5), dpi=150, title=None, *,
     x, y = np.asarray(grid.x, dtype=float), np.asarray(grid.y, dtype=float)
     art = ax.pcolormesh(x, y, np.ma.masked_invalid(image), cmap=scalar_colormap(), shading="nearest")
     fig.colorbar(art, ax=ax, label=label)
-    ax.set_xlabel(str(grid.axis_names[0]))
-    ax.set_ylabel(str(grid.axis_names[1]))
+    units = footers.units_of(result) if result is not None else {}
+    ax.set_xlabel(_unit_label(units, str(grid.axis_names[0])))
+    ax.set_ylabel(_unit_label(units, str(grid.axis_names[1])))
     return _finish(fig, result, footer)
 
 
