@@ -185,7 +185,9 @@ def _extra_parts(result) -> list[str]:
     if all(hasattr(result, k) for k in ("points", "counts", "axes", "plane")):
         return _section_parts(result)
     if hasattr(result, "normal_form") and hasattr(result, "n_samples"):
-        record = f"records of t = {result.t:g}, " if getattr(result, "t", None) is not None else ""
+        unit = units_of(result).get("t")
+        record = (f"records of t = {result.t:g}{' ' + unit if unit else ''}, "
+                  if getattr(result, "t", None) is not None else "")
         return [f"{record}{result.n_samples} samples",
                 f"{_normal_form_kind(result.normal_form)}; Laskar's frequency analysis"]
     if hasattr(result, "convergents") and hasattr(result, "threshold"):
