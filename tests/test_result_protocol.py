@@ -231,3 +231,91 @@ def test_take_and_concat_keep_running_values_and_refuse_parts_that_do_not_fit():
     longer = phaselab.trajectory(_pendulum(), [[0.5, 0.0]], 3.0, dt=0.05)
     with pytest.raises(phaselab.ParameterError, match="same times"):
         type(tr).concat([tr, longer])
+
+
+# ------------------------------------------------------------------------------ figure footers
+#: The system each builder's figure must name in its footer (None: a scan of a plain function).
+SYSTEM_NAMES = {name: ROTOR.name for name in BUILDERS}
+SYSTEM_NAMES.update({"Trajectory": models.pendulum().name, "LevelSet": models.pendulum().name,
+                     "Equilibrium": models.pendulum().name, "NormalForm": models.pendulum().name,
+                     "NormalFormCheck": models.pendulum().name, "ShellSeeds": models.henon_heiles().name,
+                     "SectionSlice": "rotations", "ParameterScan": None})
+
+
+def _footer(fig):
+    """The figure-level texts that carry ``phaselab <version>`` and the lines above them."""
+    texts = [t for t in fig.texts if t.get_text()]
+    return " ".join(t.get_text() for t in texts), texts
+
+
+def _kinds(ax):
+    """Distinct (artist type, colour) pairs drawn in ``ax`` that a reader must tell apart:
+    lines with data and markers or collections that are not colour-mapped; grey reference
+    lines (equal red, green and blue) are not counted."""
+    from matplotlib.colors import to_rgb
+
+    kinds = set()
+    for line in ax.get_lines():
+        if len(np.atleast_1d(line.get_xdata())) and line.get_label() != "_nolegend_":
+            r, g, b = to_rgb(line.get_color())
+            if not (r == g == b):
+                kinds.add(("line", line.get_linestyle(), line.get_marker(), (r, g, b)))
+    for art in ax.collections:
+        if art.get_array() is None and len(art.get_offsets()):
+            kinds.add(("points", tuple(np.round(art.get_facecolor()[:1].ravel(), 3))))
+    return kinds
+
+
+@pytest.mark.parametrize("name", sorted(BUILDERS))
+def test_every_figure_has_a_footer_keys_and_labelled_colour_bars(name):
+    fig = built(name).plot()
+    words, texts = _footer(fig)
+    assert "phaselab " + phaselab.__version__ in words
+    if SYSTEM_NAMES[name]:
+        assert SYSTEM_NAMES[name] in words
+    # every footer line lies inside the figure (matplotlib's own text measurement)
+    fig.canvas.draw()
+    right = fig.get_size_inches()[0] * fig.dpi
+    for text in texts:
+        assert text.get_window_extent().x1 <= right + 1, text.get_text()
+    for ax in fig.axes:
+        for art in list(ax.collections) + list(ax.images):
+            bar = getattr(art, "colorbar", None)
+            if bar is not None:
+                assert (bar.ax.get_ylabel() or bar.ax.get_xlabel()).strip(), name
+        kinds = _kinds(ax)
+        if len(kinds) > 1:            # a key, with at least one entry for each kind drawn
+            legend = ax.get_legend() or (fig.legends[0] if fig.legends else None)
+            assert legend is not None, (name, kinds)
+            assert len([t for t in legend.get_texts() if t.get_text()]) >= len(kinds), name
+
+
+def test_footer_names_the_parameters_and_can_be_left_out():
+    words, _ = _footer(built("Section").plot())
+    assert all(f"{k} = {v:g}" in words for k, v in PARAMS.items())       # the section's own params
+    words, _ = _footer(built("Family").plot())
+    family = built("Family")
+    assert f"K from {min(family.values):g} to {max(family.values):g}" in words
+    assert "Model results" in words
+    for name in ("Trajectory", "ChaosMap", "Family", "Section"):
+        words, _ = _footer(built(name).plot(footer=False))
+        assert "phaselab " + phaselab.__version__ not in words
+
+
+def test_colour_bars_and_footers_carry_the_models_units():
+    """A flow with declared units: the Lyapunov exponent's colour bar is per second and the
+    survival time in seconds (common practice: an exponent of growth in time has the unit of
+    inverse time); the footer gives each parameter and the step with their units."""
+    flow = phaselab.Hamiltonian("p**2/(2*m) + k*x**2/2", ["x"], ["p"], params={"m": 1.0, "k": 1.0},
+                                units={"x": "m", "p": "kg m/s", "t": "s", "m": "kg", "k": "kg/s^2"})
+    square = phaselab.state_grid(flow, {"x": (-1.0, 1.0, 2), "p": (-1.0, 1.0, 2)})
+    for result, label in ((phaselab.chaos_map(flow, square, 1.0, dt=0.1, indicator="lyapunov", progress=False),
+                           "largest Lyapunov exponent (1/s)"),
+                          (phaselab.escape_map(flow, square, 1.0, box=5.0, dt=0.1, progress=False),
+                           "survival time (s)")):
+        fig = result.plot()
+        bars = [art.colorbar for ax in fig.axes for art in ax.collections if getattr(art, "colorbar", None)]
+        assert [bar.ax.get_ylabel() for bar in bars] == [label]
+        assert fig.axes[0].get_xlabel() == "x [m]"
+        words, _ = _footer(fig)
+        assert "m = 1 kg" in words and "dt = 0.1 s" in words and "Model results" in words

@@ -260,38 +260,3 @@ def section_metadata(section) -> dict:
         "phaselab_version": __version__,
         **model_labels(system),
     }
-
-
-def _num(value) -> str:
-    try:
-        return f"{float(value):.6g}"
-    except (TypeError, ValueError):
-        return str(value)
-
-
-def footer_text(section) -> str:
-    """One line naming the system, energy, parameters and method, for figure footers."""
-    meta = section_metadata(section)
-    parts = []
-    if meta["system"]:
-        parts.append(meta["system"])
-    if meta["energy"] is not None:
-        parts.append(f"E = {_num(meta['energy'])}")
-    if meta["params"]:
-        parts.append(", ".join(f"{k} = {_num(v)}" for k, v in meta["params"].items()))
-    method = meta["method"]
-    if method:
-        dt = meta["dt"]
-        parts.append(f"{method}, dt = {_num(dt)}" if math.isfinite(dt) else method)
-    plane = meta["plane"]
-    if plane.get("kind") == "plane" and "index" in plane:
-        names = meta["state"]
-        idx = int(plane["index"])
-        label = names[idx] if 0 <= idx < len(names) else f"z{idx}"
-        arrow = {1: "upward", -1: "downward"}.get(plane.get("direction"), "both ways")
-        parts.append(f"section {plain_label(label)} = {_num(plane.get('value', 0.0))}, {arrow}")
-    elif plane.get("kind") == "stroboscopic":
-        parts.append(f"stroboscopic, T = {_num(plane.get('period'))}")
-    n_pts = int(np.isfinite(np.asarray(section.points)[..., section.axes[0]]).sum())
-    parts.append(f"{section.points.shape[0]} orbits, {n_pts} points")
-    return FOOTER_SEPARATOR.join(parts)

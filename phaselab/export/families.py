@@ -14,15 +14,18 @@ import numpy as np
 
 from phaselab.errors import ParameterError
 from phaselab.engine.provenance import MODEL_NOTE
+from phaselab.export import footers
 from phaselab.export.marks import MARKERS
 from phaselab.export.describe import unit_of
 from phaselab.model.units import with_unit
 
 
-def family_figure(family, y=None, size=(6.0, 4.2), dpi=150, title=None, note=MODEL_NOTE):
+def family_figure(family, y=None, size=(6.0, 4.2), dpi=150, title=None, note=MODEL_NOTE, *, footer=True):
     """Parameter against residue (``y="residue"``), period (``y="period"``) or the
     stability index of each multiplier pair (``y="index"``, the real part; a complex index
     is drawn hollow). By default the residue for a 2-D section map, the indices otherwise.
+
+    ``footer=False`` leaves out the footer (system, parameters, method, version).
 
     Returns
     -------
@@ -42,7 +45,8 @@ def family_figure(family, y=None, size=(6.0, 4.2), dpi=150, title=None, note=MOD
         from matplotlib.figure import Figure
 
         fig = Figure(figsize=(width, height), dpi=dpi, facecolor="white")
-        bottom = 0.55 + (0.2 if note else 0.0)
+        lines = footers.footer_lines(footers.footer_text(family), width) if footer else []
+        bottom = 0.55 + footers.margin(lines, note, width)
         top = 0.42 if title else 0.18
         ax = fig.add_axes((0.8 / width, bottom / height, (width - 1.0) / width, (height - bottom - top) / height))
         if y == "index":
@@ -61,9 +65,7 @@ def family_figure(family, y=None, size=(6.0, 4.2), dpi=150, title=None, note=MOD
         ax.legend(loc="best", fontsize=7.5, frameon=False)
         if title:
             fig.text(0.8 / width, 1 - 0.12 / height, str(title), ha="left", va="top", fontsize=11)
-        if note:
-            fig.text(0.1 / width, 0.1 / height, note, ha="left", va="bottom", fontsize=6.5, color="#6a6a6a",
-                     style="italic")
+        footers.draw(fig, lines, note)
     return fig
 
 

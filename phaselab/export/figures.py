@@ -12,8 +12,8 @@ from pathlib import Path
 import numpy as np
 
 from phaselab.errors import ParameterError
-from phaselab.export.describe import (FOOTER_SEPARATOR as _SEP, angle_limits, axis_label, axis_symbols,
-                                      check_section, footer_text, text_problem)
+from phaselab.export.describe import angle_limits, axis_label, axis_symbols, check_section, text_problem
+from phaselab.export import footers
 from phaselab.base.atomic import atomic_path
 
 #: Orbit colours, cycled by orbit index: muted, well separated hues that stay apart on
@@ -101,23 +101,6 @@ def check_overlays(overlays):
     return out
 
 
-def _wrap_footer(text, width_in, fontsize=6.5):
-    """Split the footer at its separators into lines that fit ``width_in`` inches."""
-    # an average sans-serif glyph is about 0.55 em wide (common practice for estimates)
-    max_chars = max(20, int((width_in - 0.2) * 72 / (0.55 * fontsize)))
-    lines, current = [], ""
-    for part in text.split(_SEP):
-        candidate = part if not current else current + _SEP + part
-        if current and len(candidate) > max_chars:
-            lines.append(current)
-            current = part
-        else:
-            current = candidate
-    if current:
-        lines.append(current)
-    return lines
-
-
 def check_texts(**texts) -> None:
     """Refuse a title or note matplotlib could not draw (see
     :func:`phaselab.export.describe.text_problem`), naming the option."""
@@ -185,7 +168,7 @@ def section_figure(section, size=(6.0, 4.5), dpi=150, point_size=1.6, color=None
     x, y = section.xy()
     orbit = section.orbit_index()
     scalar = None if color is None else per_orbit_scalar(color, section.n_orbits)
-    footer_lines = _wrap_footer(footer_text(section), width) if footer else []
+    footer_lines = footers.footer_lines(footers.footer_text(section), width) if footer else []
     if rasterize is None:
         rasterize = x.size > 20_000
 
@@ -195,7 +178,7 @@ def section_figure(section, size=(6.0, 4.5), dpi=150, point_size=1.6, color=None
         fig = Figure(figsize=(width, height), dpi=dpi, facecolor="white")
         # Margins in inches, so every size gets the same breathing room around the axes.
         left, right = 0.72, (1.05 if scalar is not None else 0.22)
-        bottom = 0.55 + (0.08 + 0.14 * len(footer_lines) if footer_lines else 0.0) + (0.16 if note else 0.0)
+        bottom = 0.55 + footers.margin(footer_lines, note, width)
         top = 0.42 if title else 0.18
         ax_w, ax_h = width - left - right, height - bottom - top
         if ax_w < 0.8 or ax_h < 0.6:
@@ -221,11 +204,12 @@ def section_figure(section, size=(6.0, 4.5), dpi=150, point_size=1.6, color=None
             bar = fig.colorbar(art, cax=cax)
             bar.outline.set_linewidth(0.6)
             bar.ax.tick_params(labelsize=7.5)
-            if color_label:
-                bar.set_label(color_label, fontsize=9)
+            bar.set_label(color_label or "value per orbit (as given)", fontsize=9)
 
-        for cx, cy in curves:
-            ax.plot(cx, cy, color="#26313b", linewidth=0.9, alpha=0.85, zorder=3)
+        for k, (cx, cy) in enumerate(curves):
+            ax.plot(cx, cy, color="#26313b", linewidth=0.9, alpha=0.85, zorder=3,
+                    label="overlay curve" if k == 0 else None)
+        orbit_key(ax, section.n_orbits if scalar is None else 0, marker_area, bool(curves))
 
         hsym, vsym = axis_symbols(section)
         system = getattr(section, "system", None)
@@ -246,17 +230,30 @@ def section_figure(section, size=(6.0, 4.5), dpi=150, point_size=1.6, color=None
         if title:
             fig.text(left / width, 1 - 0.12 / height, str(title), ha="left", va="top",
                      fontsize=11, color="#1e1e1e")
-        y_text = 0.1
-        if note:
-            fig.text(0.1 / width, y_text / height, str(note), ha="left", va="bottom",
-                     fontsize=6.5, color="#6a6a6a", style="italic")
-            y_text += 0.16
-        for line in reversed(footer_lines):
-            # names in the footer are shown as written, never typeset as math
-            fig.text(0.1 / width, y_text / height, line, ha="left", va="bottom",
-                     fontsize=6.5, color="#555555", parse_math=False)
-            y_text += 0.14
+        footers.draw(fig, footer_lines, note)
     return fig
+
+
+def orbit_key(ax, n_orbits, marker_area, curves=False):
+    """A small key in the upper right of ``ax`` (an axes or a figure): the colour of each
+    orbit (up to five; more orbits are one entry saying the colours follow the orbit
+    number) and, with ``curves``, the overlay curves drawn. Nothing when there is nothing to
+    tell apart."""
+    from matplotlib.lines import Line2D
+
+    size = max(float(np.sqrt(marker_area)), 3.0)
+    handles = []
+    if 1 < n_orbits <= 5:
+        handles = [Line2D([], [], ls="", marker="o", ms=size, mew=0, color=ORBIT_COLORS[k],
+                          label=f"orbit {k + 1}") for k in range(n_orbits)]
+    elif n_orbits > 5:
+        handles = [Line2D([], [], ls="", marker="o", ms=size, mew=0, color=ORBIT_COLORS[0],
+                          label=f"{n_orbits} orbits, colour by orbit number")]
+    if curves:
+        handles += [h for h in ax.get_lines() if h.get_label() == "overlay curve"]
+    if handles:
+        ax.legend(handles=handles, loc="upper right", fontsize=6.5, frameon=True, framealpha=0.85,
+                  edgecolor="none", handletextpad=0.3, borderaxespad=0.2, labelspacing=0.25)
 
 
 def save_figure(section, path, **kwargs):

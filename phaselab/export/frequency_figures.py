@@ -18,6 +18,7 @@ from pathlib import Path
 
 import numpy as np
 
+from phaselab.export import footers
 from phaselab.errors import ParameterError
 from phaselab.export.figures import DPI_RANGE, FIGURE_SUFFIXES, REPORT_RC
 from phaselab.frequency.resonances import Resonance, resonances
@@ -85,26 +86,9 @@ def _meta(result) -> dict:
     return dict(getattr(result, "meta", {}) or {})
 
 
-def _footer(result) -> str:
-    meta = _meta(result)
-    parts = []
-    if meta.get("system"):
-        parts.append(str(meta["system"]))
-    energy = meta.get("energy")
-    if energy is not None and isinstance(energy, float) and math.isfinite(energy):
-        parts.append(f"E = {energy:.6g}")
-    params = meta.get("params") or {}
-    if params:
-        parts.append(", ".join(f"{k} = {float(v):.6g}" for k, v in params.items()))
-    method, dt = meta.get("method"), meta.get("dt", float("nan"))
-    if method and method != "map":
-        parts.append(f"{method}, dt = {dt:.4g}" if isinstance(dt, float) and math.isfinite(dt) else str(method))
-    if meta.get("n_samples"):
-        parts.append(f"{meta['n_samples']} samples per orbit")
-    window = meta.get("window")
-    if isinstance(window, int) and window >= 0:
-        parts.append(f"window order {window}")
-    return "  ·  ".join(parts)
+def _footer(result, width) -> list[str]:
+    """The footer lines of a frequency figure (see :mod:`phaselab.export.footers`)."""
+    return footers.footer_lines(footers.footer_text(result), width)
 
 
 # ----------------------------------------------------------------------------- checks, layout
@@ -133,12 +117,12 @@ def _check_frame_size(size, dpi):
     return width, height, dpi
 
 
-def _frame(width, height, dpi, title, footer_text, colorbar):
+def _frame(width, height, dpi, title, footer_lines, colorbar):
     from matplotlib.figure import Figure
 
     fig = Figure(figsize=(width, height), dpi=dpi, facecolor="white")
     left, right = 0.8, (1.1 if colorbar else 0.25)
-    bottom = 0.6 + (0.22 if footer_text else 0.0)
+    bottom = 0.6 + footers.margin(footer_lines)
     top = 0.45 if title else 0.2
     ax_w, ax_h = width - left - right, height - bottom - top
     if ax_w < 1.0 or ax_h < 0.8:
@@ -150,9 +134,7 @@ def _frame(width, height, dpi, title, footer_text, colorbar):
     if title:
         fig.text(left / width, 1 - 0.14 / height, str(title), ha="left", va="top", fontsize=11,
                  color="#1c1c1c")
-    if footer_text:
-        fig.text(0.12 / width, 0.1 / height, footer_text, ha="left", va="bottom", fontsize=6.5,
-                 color="#555555")
+    footers.draw(fig, footer_lines)
     for spine in ("top", "right"):
         ax.spines[spine].set_visible(False)
     ax.tick_params(labelsize=8, color="#444444", labelcolor="#333333")
@@ -239,7 +221,7 @@ def frequency_map_figure(result, columns=(0, 1), order=4, label_order=None, size
     names = (result.names[i], result.names[j])
     kind = getattr(result, "kind", "frequency")
     with matplotlib.rc_context(REPORT_RC):
-        fig, ax, cax = _frame(width, height, dpi, title, _footer(result) if footer else "", True)
+        fig, ax, cax = _frame(width, height, dpi, title, _footer(result, width) if footer else [], True)
         if order:
             lines = resonances(int(order), xlim, ylim, getattr(result, "base_frequency", 1.0))
             top = order if label_order is None else int(label_order)
@@ -308,7 +290,7 @@ def diffusion_map_figure(fmap, size=(6.0, 5.0), dpi=150, vmin=None, vmax=None, t
     lo, hi = _color_limits(img, vmin, vmax)
     x, y = np.asarray(grid.x, dtype=float), np.asarray(grid.y, dtype=float)
     with matplotlib.rc_context(REPORT_RC):
-        fig, ax, cax = _frame(width, height, dpi, title, _footer(fmap) if footer else "", True)
+        fig, ax, cax = _frame(width, height, dpi, title, _footer(fmap, width) if footer else [], True)
         art = ax.pcolormesh(_edges(x), _edges(y), np.ma.masked_invalid(img), cmap=scalar_colormap(),
                             vmin=lo, vmax=hi, shading="flat", rasterized=True)
         ax.set_facecolor("#e3e3e3")
@@ -381,7 +363,7 @@ def frequency_profile_figure(result, along=None, column=0, rationals=None, size=
         raise ParameterError(f"rationals must be an integer from 0 to 50, got {rationals!r}")
     kind = getattr(result, "kind", "frequency")
     with matplotlib.rc_context(REPORT_RC):
-        fig, ax, cax = _frame(width, height, dpi, title, _footer(result) if footer else "",
+        fig, ax, cax = _frame(width, height, dpi, title, _footer(result, width) if footer else [],
                               bool(color_by_diffusion))
         ax.plot(x, yv, color=PROFILE_LINE, linewidth=0.7, zorder=2)
         if color_by_diffusion:

@@ -12,7 +12,8 @@ from pathlib import Path
 import numpy as np
 
 from phaselab.errors import ParameterError
-from phaselab.export.describe import axis_symbols, check_section, footer_text, plain_label, unit_of
+from phaselab.export.describe import axis_symbols, check_section, plain_label, unit_of
+from phaselab.export.footers import footer_text
 from phaselab.model.units import with_unit
 from phaselab.export.figures import MISSING_COLOR, ORBIT_COLORS, SCALAR_STOPS
 from phaselab.base.atomic import atomic_path

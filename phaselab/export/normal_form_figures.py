@@ -18,49 +18,13 @@ import numpy as np
 
 from phaselab.engine.provenance import MODEL_NOTE
 from phaselab.errors import ParameterError
-from phaselab.export.describe import FOOTER_SEPARATOR
+from phaselab.export import footers
 from phaselab.export.figures import ORBIT_COLORS, REPORT_RC, check_size, check_texts
 
 #: points of the predicted curve
 CURVE_POINTS = 200
 #: librating and circulating section points, and the predicted separatrix
 INSIDE_COLOR, OUTSIDE_COLOR, SEPARATRIX_COLOR = "#2b5d7d", "#c9c9c9", "#b8452f"
-
-
-def footer_text(check) -> str:
-    """System, parameters, method and step, record, normal form and phaselab version."""
-    from phaselab import __version__
-
-    parts = []
-    name = str(getattr(check.system, "name", "") or "")
-    if name:
-        parts.append(name)
-    if check.params:
-        parts.append(", ".join(f"{k} = {float(v):.6g}" for k, v in check.params.items()))
-    if check.t is not None:
-        step = f", dt = {check.dt:.4g}" if math.isfinite(check.dt) else ""
-        parts.append(f"{check.method}{step}, records of t = {check.t:g}, {check.n_samples} samples")
-    else:
-        parts.append(f"{check.n_samples} iterates")
-    kind = "Birkhoff" if not check.resonances else "resonant " + ", ".join(str(tuple(r)) for r in check.resonances)
-    parts.append(f"{kind} normal form of order {check.order}; Laskar's frequency analysis")
-    parts.append(f"phaselab {__version__}")
-    return FOOTER_SEPARATOR.join(parts)
-
-
-def footer_lines(text: str, width_in: float, fontsize: float = 6.5) -> list[str]:
-    """The footer split at its separators into lines that fit ``width_in`` inches (an average
-    glyph taken as 0.55 em wide, common practice for estimates)."""
-    most = max(20, int((width_in - 0.2) * 72 / (0.55 * fontsize)))
-    lines, current = [], ""
-    for part in text.split(FOOTER_SEPARATOR):
-        candidate = part if not current else current + FOOTER_SEPARATOR + part
-        if current and len(candidate) > most:
-            lines.append(current)
-            current = part
-        else:
-            current = candidate
-    return lines + ([current] if current else [])
 
 
 def normal_form_check_figure(check, size=None, dpi=150, title=None, footer=True, note=MODEL_NOTE):
@@ -93,8 +57,8 @@ def normal_form_check_figure(check, size=None, dpi=150, title=None, footer=True,
         raise ParameterError("the check has no finite frequency to draw")
     with matplotlib.rc_context(REPORT_RC):
         fig = Figure(figsize=(width, height), dpi=dpi, facecolor="white")
-        lines = footer_lines(footer_text(check), width) if footer else []
-        bottom = 0.55 + (0.06 + 0.14 * len(lines) if lines else 0.0) + (0.16 if note else 0.0)
+        lines = footers.footer_lines(footers.footer_text(check), width) if footer else []
+        bottom = 0.55 + footers.margin(lines, note, width)
         top = (0.42 if title else 0.2) + (0.2 if island is not None else 0.0)
         panels = 2 if island is not None else 1
         gap = 0.75
@@ -110,15 +74,7 @@ def normal_form_check_figure(check, size=None, dpi=150, title=None, footer=True,
             _island(ax2, island)
         if title:
             fig.text(left / width, 1 - 0.12 / height, str(title), ha="left", va="top", fontsize=11)
-        y = 0.1
-        if note:
-            fig.text(0.1 / width, y / height, str(note), ha="left", va="bottom", fontsize=6.5, color="#6a6a6a",
-                     style="italic")
-            y += 0.16
-        for line in reversed(lines):
-            fig.text(0.1 / width, y / height, line, ha="left", va="bottom", fontsize=6.5, color="#555555",
-                     parse_math=False)
-            y += 0.14
+        footers.draw(fig, lines, note)
     return fig
 
 

@@ -12,6 +12,7 @@ from pathlib import Path
 import numpy as np
 
 from phaselab.errors import ParameterError
+from phaselab.export import footers
 from phaselab.export.describe import mathtext_label
 from phaselab.export.figures import REPORT_RC, FIGURE_SUFFIXES, check_size, check_texts, scalar_colormap
 from phaselab.base.atomic import atomic_path
@@ -46,7 +47,7 @@ def level_set_figure(ls, size=(5.5, 4.5), dpi=150, title=None, shade_forbidden=N
         Fill the region where the grid values exceed the (single) level: the energetically
         forbidden region of a zero-velocity picture. Default: on when there is one level.
     footer : bool
-        A line under the plot saying what was contoured and with which parameters.
+        Lines under the plot: the system, what was contoured, the parameters, the version.
     line_width : float
         Width of the level curves in points (separatrices are drawn 1.6 times wider).
 
@@ -66,7 +67,8 @@ def level_set_figure(ls, size=(5.5, 4.5), dpi=150, title=None, shade_forbidden=N
 
         fig = Figure(figsize=(width, height), dpi=dpi, facecolor="white")
         left, right, top = 0.72, 0.22, (0.42 if title else 0.18)
-        bottom = 0.55 + (0.22 if footer else 0.0)
+        lines = footers.footer_lines(footers.footer_text(ls), width) if footer else []
+        bottom = 0.55 + footers.margin(lines)
         ax_w, ax_h = width - left - right, height - bottom - top
         if ax_w < 0.8 or ax_h < 0.6:
             raise ParameterError(f"size {size!r} leaves no room for the plot; make it larger")
@@ -76,17 +78,29 @@ def level_set_figure(ls, size=(5.5, 4.5), dpi=150, title=None, shade_forbidden=N
                 forbidden = np.where(np.isfinite(ls.values), ls.values > levels.max(), True)
             ax.contourf(ls.x, ls.y, forbidden.astype(float), levels=[0.5, 1.5], colors=[FORBIDDEN_FILL],
                         zorder=1)
+            from matplotlib.patches import Patch
+
+            keys = [Patch(color=FORBIDDEN_FILL, label="above the level (forbidden)")]
+        else:
+            keys = []
         cmap = scalar_colormap()
         for k, pieces in enumerate(ls.lines):
             colour = cmap(0.15 + 0.7 * k / max(len(ls.lines) - 1, 1)) if len(ls.lines) > 1 else SEPARATRIX_COLOR
-            for piece in pieces:
-                ax.plot(piece[:, 0], piece[:, 1], color=colour, linewidth=line_width, zorder=2)
-        for sep in getattr(ls, "separatrices", None) or []:
-            for piece in sep.lines:
+            for n, piece in enumerate(pieces):
+                ax.plot(piece[:, 0], piece[:, 1], color=colour, linewidth=line_width, zorder=2,
+                        label=f"level {levels[k]:.4g}" if n == 0 and k < len(levels)
+                        and (len(ls.lines) <= 6 or k in (0, len(ls.lines) - 1)) else None)
+        for s, sep in enumerate(getattr(ls, "separatrices", None) or []):
+            for n, piece in enumerate(sep.lines):
                 ax.plot(piece[:, 0], piece[:, 1], color=SEPARATRIX_COLOR, linewidth=1.6 * line_width,
-                        zorder=3)
+                        zorder=3, label="separatrix" if s == 0 and n == 0 else None)
             q, p = np.asarray(sep.equilibrium.state, dtype=float)[:2]
-            ax.plot([q], [p], marker="o", markersize=3.5, color=SEPARATRIX_COLOR, zorder=4)
+            ax.plot([q], [p], marker="o", markersize=3.5, color=SEPARATRIX_COLOR, zorder=4, linestyle="",
+                    label="hyperbolic equilibrium" if s == 0 else None)
+        handles = keys + [h for h in ax.get_lines() if not h.get_label().startswith("_")]
+        if len(handles) > 1:
+            ax.legend(handles=handles, loc="upper right", fontsize=6.5, frameon=True, framealpha=0.85,
+                      edgecolor="none", handletextpad=0.4, borderaxespad=0.2, labelspacing=0.25)
         ax.set_xlim(ls.x[0], ls.x[-1])
         ax.set_ylim(ls.y[0], ls.y[-1])
         ax.set_xlabel(mathtext_label(ls.axes[0]), fontsize=11, labelpad=3)
@@ -97,12 +111,7 @@ def level_set_figure(ls, size=(5.5, 4.5), dpi=150, title=None, shade_forbidden=N
         if title:
             fig.text(left / width, 1 - 0.12 / height, str(title), ha="left", va="top", fontsize=11,
                      color="#1e1e1e")
-        if footer:
-            params = ", ".join(f"{k} = {v:g}" for k, v in (getattr(ls, "params", {}) or {}).items())
-            text = " · ".join(t for t in (getattr(ls, "description", ""), params,
-                                           f"{len(levels)} level{'s' if len(levels) != 1 else ''}") if t)
-            fig.text(0.1 / width, 0.1 / height, text, ha="left", va="bottom", fontsize=6.5, color="#555555",
-                     parse_math=False)
+        footers.draw(fig, lines)
     return fig
 
 

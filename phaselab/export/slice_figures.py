@@ -19,9 +19,12 @@ import numpy as np
 
 from phaselab.base.atomic import atomic_path
 from phaselab.engine.provenance import MODEL_NOTE
+from phaselab.export import footers
+from phaselab.export.describe import unit_of
+from phaselab.model.units import with_unit
 from phaselab.engine.provenance import cf_dataset
 from phaselab.errors import ParameterError
-from phaselab.export.figures import (FIGURE_SUFFIXES, ORBIT_COLORS, REPORT_RC, check_size, check_texts,
+from phaselab.export.figures import (FIGURE_SUFFIXES, ORBIT_COLORS, REPORT_RC, check_size, check_texts, orbit_key,
                                      scalar_colormap)
 
 #: marker area (points^2) below which rasterising the points pays off
@@ -29,7 +32,7 @@ RASTER_ABOVE = 20_000
 
 
 def slice_figure(result, size=None, dpi=150, point_size=1.6, title=None, note=MODEL_NOTE,
-                 elevation=22.0, azimuth=-58.0):
+                 elevation=22.0, azimuth=-58.0, *, footer=True):
     """The figure of a projection, slice or grid.
 
     Parameters
@@ -45,6 +48,9 @@ def slice_figure(result, size=None, dpi=150, point_size=1.6, title=None, note=MO
     elevation, azimuth : float
         Viewing angles in degrees of 3-D axes (the "rotation" of Froeschle's method, fixed
         for print).
+    footer : bool
+        The footer under the plot (system, parameters, method, version); the figure keeps
+        its size and its axes make room for it.
 
     Returns
     -------
@@ -68,14 +74,19 @@ def slice_figure(result, size=None, dpi=150, point_size=1.6, title=None, note=MO
         else:
             _scatter(fig, result, point_size, elevation, azimuth)
         lines = [_slab_text(result)] if result.slab else []
-        if note:
-            lines.append(str(note))
         for i, line in enumerate(reversed(lines)):
             fig.text(0.1 / width, (0.08 + 0.15 * i) / height, line, ha="left", va="bottom", fontsize=6.5,
                      color="#6a6a6a", style="italic", parse_math=False)
         if title:
             fig.text(0.5, 1 - 0.1 / height, str(title), ha="center", va="top", fontsize=11)
+        footers.add_footer(fig, result, note=note, footer=footer)
     return fig
+
+
+def _n_orbits(result) -> int:
+    """How many orbits the colours tell apart (orbit indices run from 0)."""
+    orbit = np.asarray(result.orbit)
+    return int(orbit.max()) + 1 if orbit.size else 0
 
 
 def _colors(result):
@@ -96,10 +107,11 @@ def _scatter(fig, result, point_size, elevation, azimuth):
         art = ax.scatter(*cols, c=values, cmap=scalar_colormap(), **style)
         cax = fig.add_axes((0.86, 0.2, 0.025, 0.72))
         bar = fig.colorbar(art, cax=cax)
-        bar.set_label(result.color, fontsize=9)
+        bar.set_label(with_unit(result.color, unit_of(getattr(result, "system", None), result.color)), fontsize=9)
         bar.ax.tick_params(labelsize=7.5)
     else:
         ax.scatter(*cols, c=_colors(result), **style)
+        orbit_key(ax, _n_orbits(result), style["s"])
     ax.set_xlabel(result.axes[0])
     ax.set_ylabel(result.axes[1])
     if three:
@@ -137,6 +149,7 @@ def _grid(fig, result, point_size):
                 ax.set_yticklabels([])
             else:
                 ax.set_ylabel(result.axes[i], fontsize=8)
+    orbit_key(fig, _n_orbits(result), style["s"])     # in the empty upper right of the matrix
 
 
 def _slab_text(result) -> str:

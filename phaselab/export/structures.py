@@ -16,6 +16,7 @@ from pathlib import Path
 import numpy as np
 
 from phaselab.engine.provenance import MODEL_NOTE, provenance
+from phaselab.export import footers
 from phaselab.errors import ParameterError
 from phaselab.export.marks import BRANCH_STYLE, MARKERS
 from phaselab.engine.provenance import cf_dataset
@@ -57,7 +58,7 @@ def default_axes(system, plane=None) -> tuple[int, int]:
 
 def structure_figure(items, section=None, axes=None, size=(6.0, 4.5), dpi=150, title=None, footer=True,
                      xlim=None, ylim=None, note=MODEL_NOTE, marker_size=7.0, line_width=0.9,
-                     section_color="#c4c9cf"):
+                     section_color="#c4c9cf", about=None):
     """A static figure of periodic orbits and manifolds, over a section if one is given.
 
     Parameters
@@ -70,6 +71,8 @@ def structure_figure(items, section=None, axes=None, size=(6.0, 4.5), dpi=150, t
         :func:`phaselab.export.section_figure`), so the structure stands out.
     axes : pair of str, optional
         The two state components shown (default: the section's, or the section convention).
+    about : object, optional
+        The result the footer describes (default: the first item).
     Other parameters as for :func:`phaselab.export.section_figure`.
 
     Returns
@@ -107,7 +110,9 @@ def structure_figure(items, section=None, axes=None, size=(6.0, 4.5), dpi=150, t
             from matplotlib.figure import Figure
 
             fig = Figure(figsize=(width, height), dpi=dpi, facecolor="white")
-            bottom = 0.55 + (0.2 if note else 0.0)
+            lines = footers.footer_lines(footers.footer_text(about if about is not None else items[0]),
+                                         width) if footer else []
+            bottom = 0.55 + footers.margin(lines, note, width)
             top = 0.42 if title else 0.18
             ax = fig.add_axes((0.72 / width, bottom / height, (width - 0.94) / width,
                                (height - bottom - top) / height))
@@ -120,15 +125,16 @@ def structure_figure(items, section=None, axes=None, size=(6.0, 4.5), dpi=150, t
                 ax.spines[spine].set_visible(False)
             if title:
                 fig.text(0.72 / width, 1 - 0.12 / height, str(title), ha="left", va="top", fontsize=11)
-            if note:
-                fig.text(0.1 / width, 0.1 / height, note, ha="left", va="bottom", fontsize=6.5,
-                         color="#6a6a6a", style="italic")
+            footers.draw(fig, lines, note)
     with matplotlib.rc_context(REPORT_RC):
+        keyed = set()
         for man in manifolds:
             colour, style = BRANCH_STYLE.get(man.branch, ("#333333", "-"))
             for line in man.branches:
+                label = f"{man.branch} manifold" if man.branch not in keyed else None
+                keyed.add(man.branch)
                 ax.plot(line[:, i], line[:, j], color=colour, linestyle=style, linewidth=line_width,
-                        zorder=3)
+                        zorder=3, label=label)
         seen = set()
         for orbit in orbits:
             marker, colour = MARKERS.get(orbit.stability, ("D", "#333333"))
@@ -136,7 +142,7 @@ def structure_figure(items, section=None, axes=None, size=(6.0, 4.5), dpi=150, t
             seen.add(orbit.stability)
             ax.scatter(orbit.points[:, i], orbit.points[:, j], s=marker_size ** 2, marker=marker,
                        c=colour, edgecolors="white", linewidths=0.6, zorder=4, label=label)
-        if seen:
+        if seen or keyed:
             ax.legend(loc="upper right", fontsize=7.5, frameon=False, handletextpad=0.3, borderaxespad=0.2)
         if section is None:
             ax.margins(0.06)

@@ -112,7 +112,9 @@ class ChaosMap:
         from phaselab.export.result_figures import picture_figure
 
         values = self.values
-        return picture_figure(values, self.grid, self.indicator, **kwargs)
+        from phaselab.export.result_figures import scan_label
+
+        return picture_figure(values, self.grid, scan_label(self.indicator, self.meta), result=self, **kwargs)
 
     def save(self, path, **kwargs):
         """Write :meth:`to_xarray` to ``path``: ``.nc`` NetCDF, ``.zarr`` Zarr, no suffix:

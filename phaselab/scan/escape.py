@@ -209,10 +209,10 @@ class EscapeMap:
     def plot(self, **kwargs):
         """A matplotlib figure of the values over the grid with a colour bar (per seed
         without a grid); see :func:`phaselab.export.result_figures.picture_figure`."""
-        from phaselab.export.result_figures import picture_figure
+        from phaselab.export.result_figures import picture_figure, scan_label
 
         values = self.survival
-        return picture_figure(values, self.grid, "survival time", **kwargs)
+        return picture_figure(values, self.grid, scan_label("survival time", self.meta), result=self, **kwargs)
 
     def save(self, path, **kwargs):
         """Write :meth:`to_xarray` to ``path`` (``.nc``, ``.zarr``, or no suffix: by size),

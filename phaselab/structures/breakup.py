@@ -62,6 +62,10 @@ class TorusBreakup:
     estimate : float
         The estimate from the longest convergent.
     threshold : float
+    params : dict
+        Parameter values given (the system's defaults for the others).
+    system_name : str
+        The name of the map (for footers of figures).
     """
 
     rotation_number: float
@@ -73,6 +77,7 @@ class TorusBreakup:
     estimate: float
     threshold: float
     params: dict = field(default_factory=dict)
+    system_name: str = ""
 
     def to_xarray(self):
         """An ``xarray.Dataset`` with CF attributes: residues and critical values."""
@@ -232,7 +237,8 @@ def torus_breakup(system, rotation_number, parameter, span, *, params=None, max_
     estimate = float(finite[-1]) if finite.size else float("nan")
     return TorusBreakup(rotation_number=float(rotation_number), parameter=parameter, values=values,
                         convergents=fracs, residues=residues, critical=critical, estimate=estimate,
-                        threshold=float(threshold), params=dict(params or {}))
+                        threshold=float(threshold), params=dict(params or {}),
+                        system_name=str(getattr(system, "name", "") or ""))
 
 
 def _bisect(system, frac, name, values, seeds, params, threshold, tol, xtol):

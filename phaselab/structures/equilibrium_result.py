@@ -40,6 +40,10 @@ class Equilibrium:
         Unit directions of straight lines of equilibria through ``state`` (a symmetry such
         as a translation); the reported state is the point of the line nearest the centre
         of the search box. Empty for an isolated equilibrium.
+    system_name : str
+        The name of the system it belongs to (for footers of figures).
+    params : dict
+        The parameter values in force where it was found.
     """
 
     state: np.ndarray
@@ -51,6 +55,8 @@ class Equilibrium:
     residual: float = 0.0
     free: tuple = field(default_factory=tuple)
     directions: np.ndarray = field(default_factory=lambda: np.zeros((0, 0)))
+    system_name: str = ""
+    params: dict = field(default_factory=dict)
 
     def to_xarray(self):
         """An ``xarray.Dataset`` with CF attributes: the state and the eigenvalues."""

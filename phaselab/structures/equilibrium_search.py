@@ -146,6 +146,12 @@ def _add_unique(found: list, z: np.ndarray, residual: float, method: str, box: _
     found.append((z, residual, method))
 
 
+def _used(system, params) -> dict:
+    """The parameter values in force: the system's defaults overridden by ``params``
+    (already checked by ``system.param_values``)."""
+    return {**dict(getattr(system, "params", {}) or {}), **dict(params or {})}
+
+
 # --------------------------------------------------------------------------- flows
 class FlowSearch:
     def __init__(self, system, params, bounds):
@@ -342,7 +348,9 @@ class FlowSearch:
         energy = float(self.system.energy(z, self.params))
         return Equilibrium(state=z, energy=energy, eigenvalues=lam, stability=stability, names=self.names,
                            method=method, residual=res, free=tuple(self.names[i] for i in self.fixed_idx),
-                           directions=np.zeros((0, len(z))) if directions is None else directions)
+                           directions=np.zeros((0, len(z))) if directions is None else directions,
+                           system_name=str(getattr(self.system, "name", "") or ""),
+                           params=_used(self.system, self.params))
 
 
 # --------------------------------------------------------------------------- maps
@@ -394,6 +402,7 @@ def map_fixed_points(system, params, bounds, starts, seed) -> list[Equilibrium]:
     for z, res, method in found:
         lam, stability = classify_map(kernel.call("map_jacobian", np.asarray(z, dtype=float), values))
         out.append(Equilibrium(state=z, energy=float("nan"), eigenvalues=lam, stability=stability,
-                               names=names, method=method, residual=res, directions=np.zeros((0, n2))))
+                               names=names, method=method, residual=res, directions=np.zeros((0, n2)),
+                               system_name=str(getattr(system, "name", "") or ""), params=_used(system, params)))
     out.sort(key=lambda e: tuple(e.state))
     return out

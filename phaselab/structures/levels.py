@@ -93,6 +93,8 @@ class LevelSet:
         In words, what ``values`` is.
     params : dict
         Parameter values used.
+    system_name : str
+        The name of the system contoured (for footers of figures).
     """
 
     x: np.ndarray
@@ -107,6 +109,7 @@ class LevelSet:
     separatrices: list = field(default_factory=list)
     description: str = ""
     params: dict = field(default_factory=dict)
+    system_name: str = ""
 
     def allowed(self, energy: float) -> np.ndarray:
         """Boolean mask, shape (ny, nx): grid points energetically allowed at ``energy``
@@ -287,7 +290,7 @@ def level_set(system, ranges, levels, *, params=None, resolution=400, plane=None
                 seps.append(Separatrix(eq, eq.energy, _contour(x, y, values, eq.energy)))
     return LevelSet(x=x, y=y, values=values, levels=levels_arr, lines=lines, axes=(sx, sy), plane=fixed,
                     eliminated=tuple(s.name for s in elim), minimisers=minimisers, separatrices=seps,
-                    description=description, params=param_dict)
+                    description=description, params=param_dict, system_name=str(getattr(system, "name", "") or ""))
 
 
 def allowed_mask(system, ranges, energy, params=None, resolution=400, plane=None) -> np.ndarray:

@@ -75,7 +75,7 @@ class PeriodicOrbits:
     def plot(self, **kwargs):
         from phaselab.export.structures import structure_figure
 
-        return structure_figure(self.orbits, **kwargs)
+        return structure_figure(self.orbits, about=self, **kwargs)
 
     def __repr__(self) -> str:
         failed = sum(self.failed.values())
