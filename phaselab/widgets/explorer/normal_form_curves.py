@@ -127,7 +127,7 @@ class NormalFormCurves:
             self.nf_key.items[0].label = {"value": found.label}
             self.nf_key.visible = True
             self._say(f"Drew {len(found.levels)} invariant curves of the {found.label} at E = {energy:.6g} "
-                      f"(its energy matches E to {found.mismatch:.1e} of E - E0 at the median point).")
+                      f"({found.measured}: {found.mismatch:.1e} of E - E0).")
             self._schedule_picture()
 
         self._submit("normal form", f"computing the order-{order} normal form's curves", compute, deliver)
