@@ -137,12 +137,13 @@ def test_the_explorer_draws_and_redraws_the_curves(hh):
         assert "Drew 3 invariant curves" in ex.status and "refused" not in ex.controls.status.value
         ex.set_energy(0.02)
         ex.wait()
-        assert "E = 0.02" in ex.status
         assert max(np.nanmax(np.abs(v)) for v in ex.nf_source.data["xs"]) > max(np.nanmax(np.abs(v)) for v in first)
         ex.set_energy(-0.01)   # below the equilibrium's energy: nothing to draw
         ex.wait()
         assert "No normal-form curves" in ex.status and "not above" in ex.status
         assert "refused" in ex.controls.status.value and len(ex.nf_source.data["xs"]) == 0
+        ex.show_normal_form_curves(True, order=7)
+        assert "order must be one of 4, 6, 8" in ex.status and ex.nf_order.value == 6
         ex.show_normal_form_curves(False)
         assert not ex.nf_key.visible and len(ex.nf_source.data["xs"]) == 0
     finally:

@@ -11,7 +11,8 @@ import ipywidgets as W
 
 from phaselab.errors import PhaselabError
 from phaselab.widgets import theme
-from phaselab.widgets.normal_form_overlay import DEFAULT_COUNT, DEFAULT_ORDER, MAX_COUNT, ORDERS, NormalFormOverlay
+from phaselab.widgets.normal_form_overlay import (DEFAULT_COUNT, DEFAULT_ORDER, MAX_COUNT, ORDERS, NormalFormOverlay,
+                                                  check_count, check_order)
 from phaselab.widgets.worker import Outcome
 
 #: the dashed curves' colour: a slate violet used by no orbit, mark or manifold
@@ -67,37 +68,41 @@ class NormalFormCurves:
         count : int, optional
             Number of curves, 1..12 (default the control's).
         """
+        try:
+            order = self.nf_order.value if order is None else check_order(order)
+            count = self.nf_count.value if count is None else check_count(count)
+        except PhaselabError as exc:
+            self._say(f"Normal-form curves refused: {exc}.", refused=True)
+            return
         self._setting_controls = True
         try:
             self.nf_toggle.value = bool(on)
-            if order is not None and order in ORDERS:
-                self.nf_order.value = order
-            if count is not None and 1 <= int(count) <= MAX_COUNT:
-                self.nf_count.value = int(count)
+            self.nf_order.value = order
+            self.nf_count.value = count
         finally:
             self._setting_controls = False
-        if order is not None and order not in ORDERS:
-            self._say(f"The normal-form order must be one of {', '.join(map(str, ORDERS))}, got {order!r}.",
-                      refused=True)
-            return
         self._nf_shown = None
-        self._refresh_normal_form_curves()
+        self._refresh_normal_form_curves(announce=True)
 
     def _on_normal_form_control(self, change):
         if self._setting_controls:
             return
         self._nf_shown = None
-        self._refresh_normal_form_curves()
+        self._refresh_normal_form_curves(announce=True)
 
     def _clear_normal_form_curves(self):
         with self._held():
             self.nf_source.data = dict(xs=[], ys=[])
             self.nf_key.visible = False
 
-    def _refresh_normal_form_curves(self):
-        """Compute and draw the curves for the current setting (nothing when off or unchanged)."""
-        if not getattr(self, "nf_toggle", None) or not self.nf_toggle.value:
-            if getattr(self, "nf_toggle", None) is not None and len(self.nf_source.data["xs"]):
+    def _refresh_normal_form_curves(self, announce=False):
+        """Compute and draw the curves for the current setting (nothing when off or unchanged).
+        A refusal is always said in the status line; a success only when ``announce`` (a
+        change of the control), so that it does not hide what a recomputation said."""
+        if getattr(self, "nf_toggle", None) is None:
+            return
+        if not self.nf_toggle.value:
+            if len(self.nf_source.data["xs"]):
                 self._clear_normal_form_curves()
             self._nf_shown = None
             return
@@ -126,8 +131,9 @@ class NormalFormCurves:
             self.nf_source.data = dict(xs=[c[:, 0] for c in found.lines], ys=[c[:, 1] for c in found.lines])
             self.nf_key.items[0].label = {"value": found.label}
             self.nf_key.visible = True
-            self._say(f"Drew {len(found.levels)} invariant curves of the {found.label} at E = {energy:.6g} "
-                      f"({found.measured}: {found.mismatch:.1e} of E - E0).")
+            if announce:
+                self._say(f"Drew {len(found.levels)} invariant curves of the {found.label} at E = {energy:.6g} "
+                          f"({found.measured}: {found.mismatch:.1e} of E - E0).")
             self._schedule_picture()
 
         self._submit("normal form", f"computing the order-{order} normal form's curves", compute, deliver)
