@@ -17,8 +17,9 @@ and order, at the elliptic equilibrium of lowest energy. Its curves on the secti
 
 Where the normal form stops holding (a torus whose points miss the model's ``H = E``, or
 grid points where the form's own energy misses ``E``, by more than :data:`ENERGY_MISMATCH`
-of ``E - E0``) nothing is drawn; with nothing left the energy is refused as outside the range
-where the curves exist. The curves are predictions, accurate to the order of the
+of ``E - E0``) nothing is drawn; with no torus left, or with the form's energy missing ``E``
+by more than that at the median point of the window, the energy is refused as outside the
+range where the curves exist. The curves are predictions, accurate to the order of the
 transformation, to draw over computed orbits.
 """
 
@@ -267,9 +268,9 @@ def _level_curves(nf, k, view, energy, params, count) -> OverlayCurves:
     E0 = float(nf.energy0)
     miss = np.abs(nf.energy(np.clip(J, 0.0, None), phi) - energy) / (energy - E0)
     trusted = np.isfinite(miss) & (miss <= ENERGY_MISMATCH)
-    if trusted.sum() < 16:
+    if trusted.sum() < 16 or not np.nanmedian(miss) <= ENERGY_MISMATCH:
         raise ModelError(f"E = {energy:.6g} is outside the range where the order-{nf.order} normal form holds "
-                         f"(its energy misses E by {np.nanmedian(miss):.0%} or more on this section); "
+                         f"(its energy misses E by {np.nanmedian(miss):.0%} at the median point of this section); "
                          "lower the energy or raise the order")
     m = conserved_action(k)
     values = np.full(X.size, np.nan)
@@ -281,7 +282,7 @@ def _level_curves(nf, k, view, energy, params, count) -> OverlayCurves:
     lines = [line for _, line in pieces]
     states = [view.seeds(line, energy, params).states for line in lines]
     return OverlayCurves(lines=lines, states=states, levels=levels, level_of=[i for i, _ in pieces], action=m, order=nf.order, resonance=k,
-                         equilibrium=nf.equilibrium.copy(), mismatch=float(np.median(miss[trusted])),
+                         equilibrium=nf.equilibrium.copy(), mismatch=float(np.nanmedian(miss)),
                          measured="median |H - E| of the normal form's energy at the section's points")
 
 

@@ -13,7 +13,7 @@ import pytest
 import sympy as sp
 
 import phaselab
-from phaselab.errors import ParameterError
+from phaselab.errors import ModelError, ParameterError
 from phaselab.export.marks import BRANCH_STYLE, MARKERS
 from phaselab.widgets import theme
 from phaselab.widgets.explorer.normal_form_curves import CURVE_COLOR
@@ -91,6 +91,9 @@ def test_henon_heiles_curves_hold_the_orbits_launched_on_them(hh):
         worst[order] = max(orbit_distance(hh, curves, level) for level in range(3))
     assert worst[8] < 5e-4
     assert worst[8] < worst[6] / 4
+    # far above the escape energy 1/6 the order-4 form misses E over most of the window
+    with pytest.raises(ModelError, match="outside the range where the order-4 normal form holds"):
+        overlay.curves(view, 0.5, {}, 4, 3)
 
 
 def test_birkhoff_tori_lie_on_the_shell_to_the_order():

@@ -29,6 +29,7 @@ class NormalFormCurves:
 
         self._nf_overlay = NormalFormOverlay(self.system)
         self._nf_shown = None
+        self._nf_said = None   # the last status text of this control
         self.nf_toggle = W.Checkbox(value=False, description="normal-form curves", indent=False,
                                     layout=W.Layout(width="150px"))
         self.nf_order = W.Dropdown(options=list(ORDERS), value=DEFAULT_ORDER, description="order",
@@ -97,8 +98,9 @@ class NormalFormCurves:
 
     def _refresh_normal_form_curves(self, announce=False):
         """Compute and draw the curves for the current setting (nothing when off or unchanged).
-        A refusal is always said in the status line; a success only when ``announce`` (a
-        change of the control), so that it does not hide what a recomputation said."""
+        A refusal is always said in the status line; a success when ``announce`` (a change of
+        the control) or when the status line still shows this control's last words, so that
+        it does not hide what a recomputation said."""
         if getattr(self, "nf_toggle", None) is None:
             return
         if not self.nf_toggle.value:
@@ -125,15 +127,17 @@ class NormalFormCurves:
                 why = out.error if isinstance(out.error, PhaselabError) else \
                     f"{type(out.error).__name__}: {out.error}"
                 self._say(f"No normal-form curves: {why}", refused=True)
+                self._nf_said = self._message
                 return
             found = out.value
             self._nf_shown = key
             self.nf_source.data = dict(xs=[c[:, 0] for c in found.lines], ys=[c[:, 1] for c in found.lines])
             self.nf_key.items[0].label = {"value": found.label}
             self.nf_key.visible = True
-            if announce:
+            if announce or self._message == self._nf_said:   # not over what another command said
                 self._say(f"Drew {len(found.levels)} invariant curves of the {found.label} at E = {energy:.6g} "
                           f"({found.measured}: {found.mismatch:.1e} of E - E0).")
+                self._nf_said = self._message
             self._schedule_picture()
 
         self._submit("normal form", f"computing the order-{order} normal form's curves", compute, deliver)
