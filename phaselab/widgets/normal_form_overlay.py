@@ -115,7 +115,7 @@ def find_resonance(omega, order: int):
     scale = float(np.max(np.abs(omega)))
     for total in range(1, order + 1):
         for k1 in range(1, total + 1):
-            for k2 in {total - k1, k1 - total}:
+            for k2 in sorted({total - k1, k1 - total}):
                 if abs(k1 * omega[0] + k2 * omega[1]) <= RESONANT * scale:
                     return (k1, k2)
     return None
