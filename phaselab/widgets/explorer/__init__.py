@@ -45,6 +45,7 @@ from phaselab.widgets.controls import Controls
 from phaselab.widgets.explorer.drawing import Drawing
 from phaselab.widgets.explorer.files import EXPORT_FORMATS, SessionFiles, safe_stem
 from phaselab.widgets.explorer.linked import LinkedExplorer, wants_linked
+from phaselab.widgets.explorer.normal_form_curves import NormalFormCurves
 from phaselab.widgets.explorer.orbit_commands import OrbitCommands
 from phaselab.widgets.explorer.scheduling import Scheduling
 from phaselab.widgets.explorer.view_commands import ViewCommands
@@ -73,7 +74,7 @@ def load_bokehjs(force=True):
 def _building(event, what):
     """The compile listener while an explorer is built: it only keeps the console quiet."""
 
-class Explorer(OrbitCommands, ViewCommands, Wiring, Scheduling, Drawing, SessionFiles, W.VBox):
+class Explorer(OrbitCommands, ViewCommands, Wiring, Scheduling, Drawing, SessionFiles, NormalFormCurves, W.VBox):
     """The interactive explorer (see :func:`explore` for the parameters).
 
     Attributes
@@ -183,11 +184,13 @@ class Explorer(OrbitCommands, ViewCommands, Wiring, Scheduling, Drawing, Session
         self._add_sliders(system, energy, energy_range, p0)
         c.stem.value = f"{safe_stem(self.name)}-{STEM_WORDS.get(self.view.kind, self.view.kind)}"
         self._wire_controls(color_by, color_label)
+        self._add_normal_form_control()
 
         has_plane = self.view.kind == "section" and system.dof == 2
         has_structures = self.view.kind in ("section", "map", "strobe")
         super().__init__(c.layout(self.bokeh, self.view.kind, has_plane, has_structures),
                          layout=W.Layout(width="fit-content"))
+        self.children = self._with_normal_form_row(self.children)
         self.add_class("phaselab-explorer")
         with self._held():
             self._frame = self.view.frame(energy, p0)

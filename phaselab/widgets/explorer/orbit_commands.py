@@ -205,6 +205,7 @@ class OrbitCommands:
         self._sync_sliders()
         if change.setting:
             self._recompute_all()
+            self._refresh_normal_form_curves()
 
     def set_params(self, **values):
         """Change parameter values by name and recompute every orbit."""
@@ -219,6 +220,7 @@ class OrbitCommands:
         self._sync_sliders()
         if change.setting:
             self._recompute_all()
+            self._refresh_normal_form_curves()
 
     def find_periodic_orbit(self, x, y, *, returns=None):
         """Find the periodic orbit of ``returns`` returns (default the control's) nearest ``(x, y)``;

@@ -125,6 +125,7 @@ class ViewCommands:
             self._schedule_picture()
 
         self._submit("view", "computing the new plane", compute, deliver)
+        self._refresh_normal_form_curves()
 
     def set_equal_aspect(self, on=True):
         """Show both axes at the same scale (the window widens along one axis)."""
