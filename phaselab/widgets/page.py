@@ -3,9 +3,10 @@
 Three things go wrong with a plain ``jupyter_bokeh.BokehModel`` and are handled here:
 
 * BokehJS must be on the page before a bokeh view is created, in every browser tab.
-  :func:`load_bokehjs` puts the core library (inline, no network) into the output each
-  time the explorer is displayed, so a second tab running the notebook, or a reloaded
-  saved notebook, has it too.
+  :func:`load_bokehjs` puts the core library (inline, no network) into the output of the
+  first explorer displayed for each page (:mod:`phaselab.widgets.bokehjs`), so a second
+  tab running the notebook, or a reloaded saved notebook, has it too, and a notebook with
+  several explorers holds it once.
 * A view is built from the model's ``render_bundle``, which jupyter_bokeh fills once, when
   the model is made; later changes travel as patches to views that exist. A view made
   later (the first display after seeds were added, another tab, a reload) would show the
@@ -26,12 +27,12 @@ import json
 from jupyter_bokeh import BokehModel
 
 
-def load_bokehjs():
-    """Display the core BokehJS library inline (no network, no banner)."""
-    from bokeh.io import output_notebook
-    from bokeh.resources import Resources
+def load_bokehjs(force=False):
+    """Display the core BokehJS library inline (no network, no banner) unless this page's
+    notebook holds it already; ``force`` displays it anyway."""
+    from phaselab.widgets import bokehjs
 
-    output_notebook(resources=Resources(mode="inline", components=["bokeh"]), hide_banner=True)
+    return bokehjs.load(force=force)
 
 
 class LiveBokehModel(BokehModel):
