@@ -96,16 +96,21 @@ class LiveBokehModel(BokehModel):
 
     def _send_patch(self, events):
         """One PATCH-DOC message for ``events``, in the framing jupyter_bokeh's page side reads
-        (header, metadata, content, then each buffer's reference and its bytes)."""
-        from bokeh.protocol import Protocol
+        (header, metadata, content). Arrays travel inside the content (base64) rather than as
+        buffers of their own: a click's patch is three comm messages, not three plus two per
+        array column (27 for a new orbit), each of which crossed the server and the page's
+        message queue on its own."""
+        from bokeh.core.serialization import Serializer
+        from bokeh.protocol.messages.patch_doc import patch_doc
 
-        msg = Protocol().create("PATCH-DOC", events)
+        doc = self._document
+        serializer = Serializer(references=doc.models.synced_references, deferred=False)
+        content = dict(events=serializer.encode(events))
+        doc.models.flush_synced(lambda model: not serializer.has_ref(model))
+        msg = patch_doc(patch_doc.create_header(), {}, content)
         self.send({"msg": "patch", "payload": msg.header_json})
         self.send({"msg": "patch", "payload": msg.metadata_json})
         self.send({"msg": "patch", "payload": msg.content_json})
-        for buffer in msg.buffers:
-            self.send({"msg": "patch", "payload": json.dumps(buffer.ref)})
-            self.send({"msg": "patch"}, [buffer.to_bytes()])
 
     def get_state(self, key=None, drop_defaults=False):
         # a full state is asked for when a page (re)builds its widgets: give the current plot

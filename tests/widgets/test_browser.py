@@ -252,11 +252,20 @@ def test_explorer_in_jupyterlab(lab):
 
             # ---------------------------------------------------------- 20 clicks
             rng = np.random.default_rng(11)
-            latencies, parts = [], []
+            latencies, parts, replies, drawing = [], [], [], []
             page.evaluate("""() => {
                 const send = WebSocket.prototype.send;
                 WebSocket.prototype.send = function (data) {
                     if (window.__pl.down != null && window.__pl.sent == null) window.__pl.sent = performance.now();
+                    if (!this.__plHeard) {  // when the kernel's messages reach the page
+                        this.__plHeard = true;
+                        this.addEventListener('message', () => {
+                            if (window.__pl.sent == null || window.__pl.seen != null) return;
+                            const now = performance.now();
+                            if (window.__pl.first == null) window.__pl.first = now;
+                            window.__pl.last = now;
+                        });
+                    }
                     return send.call(this, data);
                 };
                 const add = WebSocket.prototype.addEventListener;
@@ -275,6 +284,7 @@ def test_explorer_in_jupyterlab(lab):
                 sx, sy = page.evaluate(f"() => window.__pl.screen({b}, {pb})")
                 n0 = page.evaluate("() => window.__pl.len('phaselab-seeds', 'x')")
                 page.evaluate("""(n0) => { window.__pl.down = null; window.__pl.seen = null; window.__pl.sent = null;
+                    window.__pl.first = null; window.__pl.last = null;
                     document.addEventListener('pointerdown', () => { window.__pl.down = performance.now();
                                                                      window.__pl.down_wall = Date.now(); },
                                               {capture: true, once: true});
@@ -286,6 +296,10 @@ def test_explorer_in_jupyterlab(lab):
                 page.wait_for_function("() => window.__pl.seen !== null", timeout=60_000)
                 latencies.append(page.evaluate("() => window.__pl.seen - window.__pl.down"))
                 parts.append(page.evaluate("() => window.__pl.sent == null ? NaN : window.__pl.sent - window.__pl.down"))
+                # sent -> the last kernel message before the points showed (kernel and wire);
+                # that message -> shown (the page applying the patch and drawing)
+                replies.append(page.evaluate("() => window.__pl.last == null ? NaN : window.__pl.last - window.__pl.sent"))
+                drawing.append(page.evaluate("() => window.__pl.last == null ? NaN : window.__pl.seen - window.__pl.last"))
                 page.wait_for_timeout(150)
             load_after = os.getloadavg()
             last_walls = page.evaluate("() => [window.__pl.down_wall, window.__pl.seen_wall]")
@@ -293,7 +307,9 @@ def test_explorer_in_jupyterlab(lab):
             report.append(f"click-to-points over {len(lat)} clicks: median {np.median(lat):.0f} ms, "
                           f"95th percentile {np.percentile(lat, 95):.0f} ms, max {lat.max():.0f} ms "
                           f"(all: {', '.join(f'{v:.0f}' for v in lat)}); pointerdown to the first message "
-                          f"sent to the kernel: median {np.nanmedian(parts):.0f} ms; load average before "
+                          f"sent to the kernel: median {np.nanmedian(parts):.0f} ms; sent to the last kernel message before the points: "
+                          f"median {np.nanmedian(replies):.0f} ms; the last message before the points to the points "
+                          f"shown: median {np.nanmedian(drawing):.0f} ms, max {np.nanmax(drawing):.0f} ms; load average before "
                           f"{load_before[0]:.2f}, after {load_after[0]:.2f}")
             assert page.evaluate("() => window.__pl.len('phaselab-seeds', 'x')") == 23, _status(page)
             assert page.evaluate("() => window.__pl.summary()")["points"] == 23 * 300
