@@ -3,9 +3,10 @@
 The library (about 1.3 MB inline, no network) must be on a page before a bokeh view is made,
 and a notebook keeps every output it was sent: an explorer that sent it with each display
 (and in two forms, plain JavaScript and bokeh's own load type) made a notebook with three
-explorers weigh over 8 MB. Here it is sent once, in bokeh's load type only (run by the
-jupyter_bokeh extension that draws the explorer), by the first explorer displayed for each
-page connected to the kernel:
+explorers weigh over 8 MB. Here it is sent once, packed (deflated, about 0.47 MB, see
+:mod:`phaselab.widgets.packed_script`), in bokeh's load type only (run by the jupyter_bokeh
+extension that draws the explorer), by the first explorer displayed for each page connected
+to the kernel:
 
 * A page is told apart by the client session of the request being executed (a second tab,
   or a page reloaded and run again, has its own: its first explorer sends the library again).
@@ -20,6 +21,7 @@ copy; reopened with a kernel, its explorers are drawn once a cell with an explor
 
 from __future__ import annotations
 
+import functools
 from dataclasses import dataclass
 
 #: The mime type jupyter_bokeh's page side runs as a script (bokeh.io.notebook.LOAD_MIME_TYPE).
@@ -68,6 +70,14 @@ def needed(request: Request | None, held: Request | None) -> bool:
     return request.cell is not None and request.cell == held.cell and request.message != held.message
 
 
+@functools.lru_cache(maxsize=1)
+def packed_library() -> str:
+    """:func:`library_js` packed (:mod:`phaselab.widgets.packed_script`): about 0.47 MB."""
+    from phaselab.widgets.packed_script import packed
+
+    return packed(library_js())
+
+
 def library_js() -> str:
     """The core BokehJS library inline (no network), wrapped in bokeh's own loader."""
     from bokeh.core.templates import AUTOLOAD_NB_JS
@@ -87,6 +97,6 @@ def load(force: bool = False) -> bool:
     request = current_request()
     if not force and not needed(request, _held["request"]):
         return False
-    publish_display_data({LOAD_MIME: library_js()})
+    publish_display_data({LOAD_MIME: packed_library()})
     _held["request"] = request
     return True

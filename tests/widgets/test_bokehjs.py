@@ -35,7 +35,7 @@ def test_load_publishes_only_bokehs_load_type(monkeypatch):
     assert bokehjs.load() is True and bokehjs.load() is False
     assert bokehjs.load(force=True) is True
     assert len(sent) == 2 and all(list(d) == [bokehjs.LOAD_MIME] for d in sent)
-    assert "Bokeh" in sent[0][bokehjs.LOAD_MIME] and len(sent[0][bokehjs.LOAD_MIME]) > 500_000
+    assert sent[0][bokehjs.LOAD_MIME] == bokehjs.packed_library()
 
 
 NOTEBOOK_SETUP = """import asyncio, phaselab
@@ -44,13 +44,15 @@ toy = phaselab.Hamiltonian("(p_s**2 + p_b**2)/2 + s**2/2 + 1.69*b**2/2 + 0.6*s*b
 EXPLORER_CELL = """e{k} = phaselab.explore(toy, energy=0.9, plane={{"s": 0.0}}, solve_for="p_s", crossings=120)
 e{k}.add_seeds([(0.3, 0.0), (0.{k}5, 0.2)])
 e{k}"""
-# the pictures are drawn after a quiet spell: the last cell lets the kernel's loop deliver them
-SETTLE_CELL = """for e in (e0, e1, e2):
-    e.wait(180)
-await asyncio.sleep(3 * 2.5 + 3)
-for e in (e0, e1, e2):
-    e.wait(60)
-await asyncio.sleep(1)"""
+# the pictures are drawn after a quiet spell, delivered by the kernel's event loop: the last
+# cell awaits (blocking calls such as Explorer.wait would hold that loop) until each
+# explorer's picture shows its two orbits
+SETTLE_CELL = """explorers = (e0, e1, e2)
+for _ in range(1200):
+    await asyncio.sleep(0.25)
+    if all(e.picture.state.get("orbits") == 2 and not e.jobs.busy and not e.idle_jobs.busy for e in explorers):
+        break
+await asyncio.sleep(0.5)"""
 
 
 @pytest.mark.slow
@@ -79,3 +81,45 @@ def test_three_explorers_saved_notebook_is_small_and_keeps_the_pictures(tmp_path
         assert png[:8] == b"\x89PNG\r\n\x1a\n"  # the PNG signature (PNG specification, RFC 2083)
         state = json.loads(html.unescape(found[0].group(1)))
         assert state["orbits"] == 2 and state["colour"] == "own", state
+
+
+def test_packed_library_unpacks_to_the_library():
+    import zlib
+
+    js = bokehjs.library_js()
+    text = re.search(r'const text = "([A-Za-z0-9+/=]+)", size = (\d+);', bokehjs.packed_library())
+    # zlib's raw inflate (RFC 1951) as the outside reference for what the page unpacks
+    assert zlib.decompress(base64.b64decode(text.group(1)), -15).decode("utf-8") == js
+    assert int(text.group(2)) == len(js.encode("utf-8"))
+    assert len(bokehjs.packed_library()) < 0.45 * len(js)
+
+
+def test_page_inflater_agrees_with_zlib(tmp_path):
+    """The page's inflater run by node on zlib's raw deflate output at levels 0, 1 and 9
+    (stored, fixed and dynamic blocks), compared by SHA-256 with the input."""
+    import hashlib
+    import random
+    import shutil
+    import subprocess
+    import zlib
+
+    from phaselab.widgets.packed_script import INFLATE_JS
+
+    node = shutil.which("node")
+    if node is None:
+        pytest.skip("node is not installed")
+    rng = random.Random(5)
+    cases = [b"", b"a", b"ab" * 40_000, bytes(rng.getrandbits(8) for _ in range(70_000)),
+             b"x" * 70_000 + bytes(range(256)) * 300 + bokehjs.library_js()[:200_000].encode()]
+    lines = [INFLATE_JS, "const crypto = require('crypto');"]
+    for raw in cases:
+        for level in (0, 1, 9):
+            c = zlib.compressobj(level, zlib.DEFLATED, -15, 9)
+            data = base64.b64encode(c.compress(raw) + c.flush()).decode()
+            lines.append(f"{{ const o = __plInflate(new Uint8Array(Buffer.from('{data}', 'base64')), {len(raw)});"
+                         f" console.log(crypto.createHash('sha256').update(o).digest('hex')); }}")
+    script = tmp_path / "inflate.js"
+    script.write_text("\n".join(lines))
+    out = subprocess.run([node, str(script)], capture_output=True, text=True, timeout=60, check=True)
+    expected = [hashlib.sha256(raw).hexdigest() for raw in cases for _ in range(3)]
+    assert out.stdout.split() == expected
