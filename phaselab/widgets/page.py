@@ -15,6 +15,13 @@ Three things go wrong with a plain ``jupyter_bokeh.BokehModel`` and are handled 
 * A notebook saved and opened without a kernel has no widget to draw.
   :class:`StaticPicture` keeps a PNG of the last state in an ordinary output next to the
   widget; the explorer's own style sheet hides it while the live explorer is on the page.
+
+Limit: the kernel reaches the picture's output through its display id, and a page routes
+such updates only to outputs of executions it started itself. After a reload with the kernel
+running, the output on the page is the saved copy: the live explorer is drawn afresh and
+works, but the picture (hidden meanwhile) keeps the state of the last save until the
+explorer's cell runs again, or until a new explorer is displayed. Saving the notebook after
+a reload without running that cell keeps the earlier picture.
 """
 
 from __future__ import annotations
