@@ -20,8 +20,7 @@ Limit: the kernel reaches the picture's output through its display id, and a pag
 such updates only to outputs of executions it started itself. After a reload with the kernel
 running, the output on the page is the saved copy: the live explorer is drawn afresh and
 works, but the picture (hidden meanwhile) keeps the state of the last save until the
-explorer's cell runs again, or until a new explorer is displayed. Saving the notebook after
-a reload without running that cell keeps the earlier picture.
+explorer's cell runs again. Saving the notebook after a reload without running that cell keeps the earlier picture.
 """
 
 from __future__ import annotations
