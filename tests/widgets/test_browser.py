@@ -423,6 +423,12 @@ def test_explorer_in_jupyterlab(lab):
             page.close()  # the first tab holds an older copy of the notebook: it must not save over it
             page2.evaluate("() => window.jupyterapp.commands.execute('docmanager:save')")
             page2.wait_for_timeout(1500)
+            # the saved file holds BokehJS once (packed), in bokeh's load type only
+            saved_file = lab["dir"] / "explorer_demo.ipynb"
+            saved_outputs = [o for c in json.loads(saved_file.read_text())["cells"] for o in c.get("outputs", [])]
+            copies = [o for o in saved_outputs if "application/vnd.bokehjs_load.v0+json" in o.get("data", {})]
+            report.append(f"saved notebook: {saved_file.stat().st_size} bytes, BokehJS in {len(copies)} output")
+            assert len(copies) == 1 and not [o for o in saved_outputs if "application/javascript" in o.get("data", {})]
             page2.reload()
             page2.wait_for_selector(".phaselab-explorer", timeout=120_000)
             page2.evaluate(JS_HELPERS)
