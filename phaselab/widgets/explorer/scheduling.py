@@ -43,6 +43,8 @@ class Scheduling:
                 self.last_error = out
             with self._held():
                 deliver(out)
+            if key.startswith("seeds-"):
+                self.last_timing["sent_wall"] = time.time()  # the patch is on its way to the page
             self._show_status()
 
         (runner or self.jobs).submit(key, compute, held, delay=delay)
