@@ -3,9 +3,10 @@
 Three things go wrong with a plain ``jupyter_bokeh.BokehModel`` and are handled here:
 
 * BokehJS must be on the page before a bokeh view is created, in every browser tab.
-  :func:`load_bokehjs` puts the core library (inline, no network) into the output each
-  time the explorer is displayed, so a second tab running the notebook, or a reloaded
-  saved notebook, has it too.
+  :func:`load_bokehjs` puts the core library (inline, no network) into the output of the
+  first explorer displayed for each page (:mod:`phaselab.widgets.bokehjs`), so a second
+  tab running the notebook, or a reloaded saved notebook, has it too, and a notebook with
+  several explorers holds it once.
 * A view is built from the model's ``render_bundle``, which jupyter_bokeh fills once, when
   the model is made; later changes travel as patches to views that exist. A view made
   later (the first display after seeds were added, another tab, a reload) would show the
@@ -14,6 +15,12 @@ Three things go wrong with a plain ``jupyter_bokeh.BokehModel`` and are handled 
 * A notebook saved and opened without a kernel has no widget to draw.
   :class:`StaticPicture` keeps a PNG of the last state in an ordinary output next to the
   widget; the explorer's own style sheet hides it while the live explorer is on the page.
+
+Limit: the kernel reaches the picture's output through its display id, and a page routes
+such updates only to outputs of executions it started itself. After a reload with the kernel
+running, the output on the page is the saved copy: the live explorer is drawn afresh and
+works, but the picture (hidden meanwhile) keeps the state of the last save until the
+explorer's cell runs again. Saving the notebook after a reload without running that cell keeps the earlier picture.
 """
 
 from __future__ import annotations
@@ -26,12 +33,12 @@ import json
 from jupyter_bokeh import BokehModel
 
 
-def load_bokehjs():
-    """Display the core BokehJS library inline (no network, no banner)."""
-    from bokeh.io import output_notebook
-    from bokeh.resources import Resources
+def load_bokehjs(force=False):
+    """Display the core BokehJS library inline (no network, no banner) unless this page's
+    notebook holds it already; ``force`` displays it anyway."""
+    from phaselab.widgets import bokehjs
 
-    output_notebook(resources=Resources(mode="inline", components=["bokeh"]), hide_banner=True)
+    return bokehjs.load(force=force)
 
 
 class LiveBokehModel(BokehModel):
@@ -95,16 +102,21 @@ class LiveBokehModel(BokehModel):
 
     def _send_patch(self, events):
         """One PATCH-DOC message for ``events``, in the framing jupyter_bokeh's page side reads
-        (header, metadata, content, then each buffer's reference and its bytes)."""
-        from bokeh.protocol import Protocol
+        (header, metadata, content). Arrays travel inside the content (base64) rather than as
+        buffers of their own: a click's patch is three comm messages, not three plus two per
+        array column (27 for a new orbit), each of which crossed the server and the page's
+        message queue on its own."""
+        from bokeh.core.serialization import Serializer
+        from bokeh.protocol.messages.patch_doc import patch_doc
 
-        msg = Protocol().create("PATCH-DOC", events)
+        doc = self._document
+        serializer = Serializer(references=doc.models.synced_references, deferred=False)
+        content = dict(events=serializer.encode(events))
+        doc.models.flush_synced(lambda model: not serializer.has_ref(model))
+        msg = patch_doc(patch_doc.create_header(), {}, content)
         self.send({"msg": "patch", "payload": msg.header_json})
         self.send({"msg": "patch", "payload": msg.metadata_json})
         self.send({"msg": "patch", "payload": msg.content_json})
-        for buffer in msg.buffers:
-            self.send({"msg": "patch", "payload": json.dumps(buffer.ref)})
-            self.send({"msg": "patch"}, [buffer.to_bytes()])
 
     def get_state(self, key=None, drop_defaults=False):
         # a full state is asked for when a page (re)builds its widgets: give the current plot

@@ -64,10 +64,11 @@ number = messages.number
 
 
 def load_bokehjs(force=True):
-    """Put the core BokehJS library into the page (inline: no network)."""
+    """Put the core BokehJS library into the page (inline: no network); without ``force``
+    only when this page's notebook does not hold it yet."""
     from phaselab.widgets.page import load_bokehjs as load
 
-    load()
+    return load(force=force)
 
 
 

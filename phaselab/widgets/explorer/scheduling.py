@@ -16,8 +16,11 @@ from phaselab.widgets.worker import Outcome
 PICTURE_DELAY = 2.5
 #: Seconds for which the end of a compilation stays in the status line.
 COMPILE_NOTE_SECONDS = 10.0
-#: Seconds of quiet after which the companion panels follow the selected orbit.
-TRACE_DELAY = 0.3
+#: Seconds of quiet after which the companion panels follow the selected orbit: longer than
+#: the usual gap between quick clicks, so a run of clicks computes only the points (a trace
+#: and its frequency analysis, about as long as the orbit itself, would run beside the next
+#: click and delay it).
+TRACE_DELAY = 0.6
 
 
 class Scheduling:
@@ -40,6 +43,8 @@ class Scheduling:
                 self.last_error = out
             with self._held():
                 deliver(out)
+            if key.startswith("seeds-"):
+                self.last_timing["sent_wall"] = time.time()  # the patch is on its way to the page
             self._show_status()
 
         (runner or self.jobs).submit(key, compute, held, delay=delay)
