@@ -9,6 +9,7 @@ from phaselab.errors import ParameterError, PhaselabError
 from phaselab.widgets import scales
 from phaselab.widgets.session import read_session, write_session
 from phaselab.widgets.views import make_view
+from phaselab.widgets.explorer.session_buttons import SessionButtons
 from phaselab.widgets.worker import Outcome
 
 EXPORT_FORMATS = (".png", ".svg", ".pdf", ".csv", ".nc", ".html")
@@ -21,7 +22,7 @@ def safe_stem(text) -> str:
     return s or "explorer"
 
 
-class SessionFiles:
+class SessionFiles(SessionButtons):
     """Export, save_session and load_session, and the buttons that call them (mixed into
     :class:`Explorer`)."""
 
@@ -164,20 +165,6 @@ class SessionFiles:
             self._say("Saved " + ", ".join(str(p) for p in out.value))
 
         self._submit("export", "saving files", compute, deliver)
-
-    def _save_clicked(self):
-        try:
-            path = self.save_session(self.export_dir / self.controls.session_path.value.strip())
-        except PhaselabError as exc:
-            self._say(f"Session not saved: {exc}", refused=True)
-            return
-        self._say(f"Saved the session to {path}.")
-
-    def _load_clicked(self):
-        try:
-            self.load_session(self.export_dir / self.controls.session_path.value.strip())
-        except PhaselabError as exc:
-            self._say(f"Session not loaded: {exc}", refused=True)
 
     def _view_dict(self):
         v = self.view

@@ -6,14 +6,15 @@ from __future__ import annotations
 
 import numpy as np
 
-from phaselab.errors import ParameterError, PhaselabError
+from phaselab.errors import ParameterError
 from phaselab.widgets.explorer.files import safe_stem
 from phaselab.widgets.orbit_sections import merge_sections
 from phaselab.widgets.session import read_session, write_session
+from phaselab.widgets.explorer.session_buttons import SessionButtons
 from phaselab.widgets.worker import Outcome
 
 
-class LinkedFiles:
+class LinkedFiles(SessionButtons):
     """section(), export, save_session and load_session (mixed into the linked explorer)."""
 
     def section(self):
@@ -141,16 +142,3 @@ class LinkedFiles:
 
         self.jobs.submit("export", compute, deliver)
 
-    def _save_clicked(self):
-        try:
-            path = self.save_session(self.export_dir / self.controls.session_path.value.strip())
-        except PhaselabError as exc:
-            self._say(f"Session not saved: {exc}", refused=True)
-            return
-        self._say(f"Saved the session to {path}.")
-
-    def _load_clicked(self):
-        try:
-            self.load_session(self.export_dir / self.controls.session_path.value.strip())
-        except PhaselabError as exc:
-            self._say(f"Session not loaded: {exc}", refused=True)
