@@ -23,19 +23,15 @@ from __future__ import annotations
 import json
 import os
 import re
-import secrets
-import socket
-import subprocess
-import sys
 import time
 import urllib.request
 from pathlib import Path
 
 import pytest
+from lab_server import CHROMIUM, running_lab, skip_without_browser
 
 pytestmark = [pytest.mark.browser, pytest.mark.slow]
 
-CHROMIUM = "/usr/bin/chromium"
 ROOT = Path(__file__).resolve().parents[2]
 DEMO = ROOT / "gallery" / "explorer_demo.ipynb"
 ARTIFACTS = ROOT / "test-artifacts"
@@ -43,33 +39,9 @@ CHROMIUM_ARGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-quic"
                  "--disable-background-networking", "--disable-component-update", "--disable-sync"]
 
 
-def _free_port() -> int:
-    with socket.socket() as s:
-        s.bind(("127.0.0.1", 0))
-        return s.getsockname()[1]
-
-
-def _wait_http(url: str, seconds: float, proc, log_path) -> None:
-    end = time.monotonic() + seconds
-    while time.monotonic() < end:
-        if proc.poll() is not None:
-            raise RuntimeError(f"JupyterLab exited with code {proc.returncode}; log: "
-                               + Path(log_path).read_text()[-2000:])
-        try:
-            with urllib.request.urlopen(url, timeout=2) as r:
-                if r.status == 200:
-                    return
-        except OSError:
-            time.sleep(0.25)
-    raise RuntimeError(f"JupyterLab did not answer at {url} within {seconds} s")
-
-
 @pytest.fixture(scope="module")
 def lab(tmp_path_factory):
-    if not os.path.exists(CHROMIUM):
-        pytest.skip(f"{CHROMIUM} is absent (install Debian's chromium: apt-get install -y chromium)")
-    pytest.importorskip("playwright.sync_api", reason="the playwright package is not installed")
-    pytest.importorskip("jupyterlab", reason="jupyterlab is not installed")
+    skip_without_browser()
     work = tmp_path_factory.mktemp("lab")
     nb = json.loads(DEMO.read_text())
     # one more cell that reports what the kernel holds, read back after the click
@@ -79,33 +51,8 @@ def lab(tmp_path_factory):
                                   "print('KERNEL_RANGES=' + __import__('json').dumps([v for r in explorer.figures.view_ranges for v in r]))\n"
                                   "print('KERNEL_TIMING=' + repr({k: round(v, 4) for k, v in explorer.last_timing.items()}))"})
     (work / "explorer_demo.ipynb").write_text(json.dumps(nb))
-    port, token = _free_port(), secrets.token_hex(16)
-    env = dict(os.environ)
-    for key, sub in (("JUPYTER_RUNTIME_DIR", "runtime"), ("JUPYTERLAB_SETTINGS_DIR", "settings"),
-                     ("JUPYTERLAB_WORKSPACES_DIR", "workspaces"), ("JUPYTER_CONFIG_DIR", "config")):
-        (work / sub).mkdir()
-        env[key] = str(work / sub)
-    # no news pop-up over the page
-    notes = work / "settings" / "@jupyterlab" / "apputils-extension"
-    notes.mkdir(parents=True)
-    (notes / "notification.jupyterlab-settings").write_text(json.dumps({"fetchNews": "false"}))
-    log = open(work / "lab.log", "w")
-    proc = subprocess.Popen(
-        [sys.executable, "-m", "jupyter", "lab", "--no-browser", "--ServerApp.ip=127.0.0.1",
-         f"--ServerApp.port={port}", "--ServerApp.port_retries=0", f"--IdentityProvider.token={token}",
-         f"--ServerApp.root_dir={work}", "--LabApp.expose_app_in_browser=True",
-         *(["--allow-root"] if hasattr(os, "geteuid") and os.geteuid() == 0 else [])],
-        cwd=work, env=env, stdout=log, stderr=subprocess.STDOUT)
-    try:
-        _wait_http(f"http://127.0.0.1:{port}/api/status?token={token}", 90, proc, work / "lab.log")
-        yield {"url": f"http://127.0.0.1:{port}", "token": token, "dir": work}
-    finally:
-        proc.terminate()
-        try:
-            proc.wait(timeout=20)
-        except subprocess.TimeoutExpired:
-            proc.kill()
-        log.close()
+    with running_lab(work) as lab_info:
+        yield lab_info
 
 
 

@@ -18,20 +18,13 @@ Skips when /usr/bin/chromium is absent.
 from __future__ import annotations
 
 import json
-import os
-import secrets
-import socket
-import subprocess
-import sys
-import time
-import urllib.request
 from pathlib import Path
 
 import pytest
+from lab_server import CHROMIUM, running_lab, skip_without_browser
 
 pytestmark = [pytest.mark.browser, pytest.mark.slow]
 
-CHROMIUM = "/usr/bin/chromium"
 ROOT = Path(__file__).resolve().parents[2]
 ARTIFACTS = ROOT / "test-artifacts"
 CELLS = [
@@ -69,58 +62,17 @@ JS = """() => { window.__pl = {};
 }"""
 
 
-def _free_port() -> int:
-    with socket.socket() as s:
-        s.bind(("127.0.0.1", 0))
-        return s.getsockname()[1]
-
-
 @pytest.fixture(scope="module")
 def lab(tmp_path_factory):
-    if not os.path.exists(CHROMIUM):
-        pytest.skip(f"{CHROMIUM} is absent (install Debian's chromium: apt-get install -y chromium)")
-    pytest.importorskip("playwright.sync_api", reason="the playwright package is not installed")
-    pytest.importorskip("jupyterlab", reason="jupyterlab is not installed")
+    skip_without_browser()
     work = tmp_path_factory.mktemp("linked-lab")
     nb = {"cells": [{"cell_type": "code", "execution_count": None, "metadata": {}, "outputs": [], "source": c}
                     for c in CELLS],
           "metadata": {"kernelspec": {"name": "python3", "display_name": "Python 3", "language": "python"}},
           "nbformat": 4, "nbformat_minor": 5}
     (work / "linked.ipynb").write_text(json.dumps(nb))
-    port, token = _free_port(), secrets.token_hex(16)
-    env = dict(os.environ)
-    for key, sub in (("JUPYTER_RUNTIME_DIR", "runtime"), ("JUPYTERLAB_SETTINGS_DIR", "settings"),
-                     ("JUPYTERLAB_WORKSPACES_DIR", "workspaces"), ("JUPYTER_CONFIG_DIR", "config")):
-        (work / sub).mkdir()
-        env[key] = str(work / sub)
-    notes = work / "settings" / "@jupyterlab" / "apputils-extension"
-    notes.mkdir(parents=True)
-    (notes / "notification.jupyterlab-settings").write_text(json.dumps({"fetchNews": "false"}))
-    log = open(work / "lab.log", "w")
-    proc = subprocess.Popen(
-        [sys.executable, "-m", "jupyter", "lab", "--no-browser", "--ServerApp.ip=127.0.0.1",
-         f"--ServerApp.port={port}", "--ServerApp.port_retries=0", f"--IdentityProvider.token={token}",
-         f"--ServerApp.root_dir={work}", "--LabApp.expose_app_in_browser=True",
-         *(["--allow-root"] if hasattr(os, "geteuid") and os.geteuid() == 0 else [])],
-        cwd=work, env=env, stdout=log, stderr=subprocess.STDOUT)
-    try:
-        end = time.monotonic() + 90
-        while True:
-            try:
-                urllib.request.urlopen(f"http://127.0.0.1:{port}/api/status?token={token}", timeout=2)
-                break
-            except OSError:
-                if time.monotonic() > end or proc.poll() is not None:
-                    raise RuntimeError("JupyterLab did not start: " + (work / "lab.log").read_text()[-2000:])
-                time.sleep(0.25)
-        yield {"url": f"http://127.0.0.1:{port}", "token": token}
-    finally:
-        proc.terminate()
-        try:
-            proc.wait(timeout=20)
-        except subprocess.TimeoutExpired:
-            proc.kill()
-        log.close()
+    with running_lab(work) as lab_info:
+        yield lab_info
 
 
 def test_linked_explorer_in_jupyterlab(lab):
