@@ -26,7 +26,7 @@ import os
 import numpy as np
 
 from phaselab.base.locks import file_lock
-from phaselab.codegen import KERNELS, compile_kernel
+from phaselab.codegen import compile_kernel
 from phaselab.codegen.cache import cache_dir, load_module, reload_module
 from phaselab.codegen.kernels import ensure_code
 from phaselab.codegen.progress import compiler_passes, compiling
@@ -249,7 +249,7 @@ class LoopSet:
             module = generic_module(steppers, DEFAULT_FAMILY)
         else:
             module = self.generic(DEFAULT_FAMILY)
-        module.evaluate_points(kern, KERNELS[name], Z, prm, out)
+        getattr(module, f"evaluate_{name}")(kern, Z, prm, out)
         if name == "hamiltonian":
             return out[:, 0]
         if name.endswith("jacobian"):

@@ -9,7 +9,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from phaselab.frequency.spectral import SpectralLines, Workspace, chunk_rows, leading_lines, routines
+from phaselab.frequency.spectral import SpectralLines, Workspace, batch, chunk_rows, leading_lines
 from phaselab.frequency.spectral import window as hann_window
 
 DIFFUSION_FLOOR = 1e-30
@@ -66,7 +66,9 @@ def analyse_samples(states, columns, step=1.0, angles=None, lines=1, window=1, d
         b = min(n_orb, a + per)
         m = b - a
         X = ws.get("orbit signals", k * m, n)
-        routines().fill_signals(np.ascontiguousarray(states[a:b]), cols, periods, w, X, still[a:b])
+        S = np.ascontiguousarray(states[a:b])
+        for c in range(k):            # rows c * m .. (c + 1) * m - 1: column c of each orbit
+            batch("fill_signals", S, int(cols[c]), float(periods[c]), w, X[c * m:(c + 1) * m], still[a:b])
         found = leading_lines(X, lines=lines, window_order=window, workspace=ws)
         shape = (k, m, lines)
         l_nu[a:b] = np.moveaxis(fold_frequencies(found.nu.reshape(shape), fold) / step, 0, 1)

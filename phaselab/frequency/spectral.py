@@ -109,6 +109,7 @@ def routines():
 
 
 SIGNAL_ROWS = {
+    "fill_signals": (0, 4, 5),
     "project_all": (0, 2, 4, 5, 6),
     "remove_mean": (0, 2, 3, 4, 5, 6),
     "energies": (0, 2),
@@ -116,9 +117,9 @@ SIGNAL_ROWS = {
     "peak_bins": (0, 1, 2, 3),
     "refine_all": (0, 2, 3, 5, 6),
 }
-"""Routine -> positions of its arguments with one row per signal. These routines treat the
-signals independently and hold no ``parallel=True`` code (numba's parallel compilation is
-slow): slices of the signals run on numba's count of threads
+"""Routine -> positions of its arguments with one row per signal (per orbit for
+``fill_signals``). These routines treat the rows independently and hold no ``parallel=True``
+code (numba's parallel compilation is slow): slices of the signals run on numba's count of threads
 (:func:`phaselab.engine.orbit_threads.run_sliced`), with the same numbers."""
 
 

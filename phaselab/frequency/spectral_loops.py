@@ -3,8 +3,8 @@ for the method, its accuracy and references): the window, the scalar products an
 derivatives in the frequency, the safeguarded Newton refinement of a line, the projection on
 the lines found so far, the peak bin of a spectrum, and the complex signals of orbits
 (``fill_signals``). numba functions (``cache=True,
-nogil=True``); the routines over a batch of signals run slices of it on threads (spectral.SIGNAL_ROWS),
-only ``fill_signals`` is compiled in numba's parallel mode.
+nogil=True``, none in numba's parallel mode, whose compilation is slow); the routines over a
+batch of signals or orbits run slices of it on threads (spectral.SIGNAL_ROWS).
 """
 
 from __future__ import annotations
@@ -12,7 +12,7 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from numba import njit, prange
+from numba import njit
 
 _RESET = 256            # recompute e^{-i w s} exactly every this many samples
 _NEWTON_MAX = 60        # safeguarded Newton iterations per line (typically 3 to 6 are used)
@@ -324,59 +324,55 @@ def peak_bins(spec, active, centre, start):
         start[i] = 2.0 * math.pi * (kk + delta) / n
 
 
-@njit(cache=True, nogil=True, parallel=True)
-def fill_signals(states, columns, periods, w, out, still):
-    """Complex signals of the degrees of freedom ``columns`` of every orbit.
+@njit(cache=True, nogil=True)
+def fill_signals(states, iq, period, w, out, still):
+    """Complex signals of the degree of freedom ``iq`` of every orbit.
 
-    ``out[c * n_orbits + o]`` is the signal of column ``c`` of orbit ``o``:
+    ``out[o]`` is the signal of orbit ``o``:
     ``z = (q - <q>) - i (p - <p>) / s`` with ``s = rms(p - <p>) / rms(q - <q>)``, means and
     rms weighted by ``w`` (the Hann window, summing to 1), so they do not depend on where
     the record ends within a period. A harmonic orbit becomes ``A e^{+i w t}`` (positive
     frequency for the usual clockwise motion in the (q, p) plane) with its conjugate line
-    removed, an anharmonic orbit close to it. An angle (``periods[c] > 0``) whose lifted
+    removed, an anharmonic orbit close to it. An angle (``period > 0``) whose lifted
     value covers a full period (the orbit winds) gives ``exp(2 pi i q / period)``.
-    ``still[o]`` is set when a degree of freedom of orbit ``o`` does not move.
+    ``still[o]`` is set when the degree of freedom of orbit ``o`` does not move. The orbits
+    are independent: slices of them run on threads (``spectral.SIGNAL_ROWS``).
     """
     n_orb, n, width = states.shape
     dof = width // 2
-    k = columns.shape[0]
-    for o in prange(n_orb):
-        for c in range(k):
-            iq = columns[c]
-            ip = dof + iq
-            mq = 0.0
-            mp = 0.0
-            qmin = states[o, 0, iq]
-            qmax = qmin
-            pmin = states[o, 0, ip]
-            pmax = pmin
+    ip = dof + iq
+    for o in range(n_orb):
+        mq = 0.0
+        mp = 0.0
+        qmin = states[o, 0, iq]
+        qmax = qmin
+        pmin = states[o, 0, ip]
+        pmax = pmin
+        for j in range(n):
+            q = states[o, j, iq]
+            p = states[o, j, ip]
+            mq += w[j] * q
+            mp += w[j] * p
+            qmin = min(qmin, q)
+            qmax = max(qmax, q)
+            pmin = min(pmin, p)
+            pmax = max(pmax, p)
+        if period > 0.0 and qmax - qmin >= period:
+            f = 2.0 * math.pi / period
             for j in range(n):
-                q = states[o, j, iq]
-                p = states[o, j, ip]
-                mq += w[j] * q
-                mp += w[j] * p
-                qmin = min(qmin, q)
-                qmax = max(qmax, q)
-                pmin = min(pmin, p)
-                pmax = max(pmax, p)
-            row = c * n_orb + o
-            period = periods[c]
-            if period > 0.0 and qmax - qmin >= period:
-                f = 2.0 * math.pi / period
-                for j in range(n):
-                    a = f * states[o, j, iq]
-                    out[row, j] = complex(math.cos(a), math.sin(a))
-                continue
-            if qmax == qmin and pmax == pmin:
-                still[o] = True
-            vq = 0.0
-            vp = 0.0
-            for j in range(n):
-                dq = states[o, j, iq] - mq
-                dp = states[o, j, ip] - mp
-                vq += w[j] * dq * dq
-                vp += w[j] * dp * dp
-            scale = math.sqrt(vp / vq) if vq > 0.0 and vp > 0.0 else 1.0
-            inv = 1.0 / scale
-            for j in range(n):
-                out[row, j] = complex(states[o, j, iq] - mq, -(states[o, j, ip] - mp) * inv)
+                a = f * states[o, j, iq]
+                out[o, j] = complex(math.cos(a), math.sin(a))
+            continue
+        if qmax == qmin and pmax == pmin:
+            still[o] = True
+        vq = 0.0
+        vp = 0.0
+        for j in range(n):
+            dq = states[o, j, iq] - mq
+            dp = states[o, j, ip] - mp
+            vq += w[j] * dq * dq
+            vp += w[j] * dp * dp
+        scale = math.sqrt(vp / vq) if vq > 0.0 and vp > 0.0 else 1.0
+        inv = 1.0 / scale
+        for j in range(n):
+            out[o, j] = complex(states[o, j, iq] - mq, -(states[o, j, ip] - mp) * inv)

@@ -30,6 +30,15 @@ ORBITS = {
 
 
 @njit(cache=True, nogil=True)
+def periodic_identity(m):
+    """The identity matrix of shape (m, m) (written out: ``np.eye`` costs a compile of its own)."""
+    W = np.zeros((m, m))
+    for r in range(m):
+        W[r, r] = 1.0
+    return W
+
+
+@njit(cache=True, nogil=True)
 def periodic_henon_slope(kern, z, W, k, prm, f, jac, gz, gW):
     """gz = f / f_k and gW = Dg W at ``z``; returns 1 / f_k (dt/ds)."""
     m = z.shape[0]
@@ -117,7 +126,7 @@ def periodic_plane_return(kern, Z0, prm, h, max_steps, k, value, direction, n_cr
         work = make_work(max(b.shape[0], 1), m)
         jac = np.zeros((m, m))
         z = Z0[o].copy()
-        W = np.eye(m)
+        W = periodic_identity(m)
         zp = np.empty(m)
         Wp = np.empty((m, m))
         st = check_state(z, box_lo, box_hi)
@@ -170,7 +179,7 @@ def periodic_strobe_return(kern, X0, prm, h, n_steps, kind, weights, A, b, tol, 
         work = make_work(max(b.shape[0], 1), m)
         jac = np.zeros((m, m))
         z = X0[o].copy()
-        W = np.eye(m)
+        W = periodic_identity(m)
         st = check_state(z, box_lo, box_hi)
         if st == OK:
             for step in range(n_steps):
@@ -199,7 +208,7 @@ def periodic_map_return(kern, Z0, prm, n_iter, box_lo, box_hi, out_state, out_ja
         jac = np.zeros((m, m))
         z = Z0[o].copy()
         zn = np.empty(m)
-        W = np.eye(m)
+        W = periodic_identity(m)
         Wn = np.empty((m, m))
         st = check_state(z, box_lo, box_hi)
         if st == OK:

@@ -159,10 +159,11 @@ def section_fill_lane(kern, l, nxt, last, Z0, Z, lane_orbit, lane_step, lane_e0,
 
 
 @njit(cache=True, nogil=True)
-def section_plane_group(kern, Z0, first, last, prm, h, max_steps, k, value, direction, max_cross, kind,
-                        weights, A, b, tol, maxit, box_lo, box_hi, out_points, out_times, counts,
-                        energy_error, status, stop_time):
-    """Section the orbits ``first .. last - 1`` of ``Z0`` on the calling thread.
+def section_plane_orbits(kern, Z0, prm, h, max_steps, k, value, direction, max_cross, kind, weights,
+                         A, b, tol, maxit, box_lo, box_hi, out_points, out_times, counts,
+                         energy_error, status, stop_time):
+    """Section every orbit of ``Z0`` (the orbits are independent: slices of them run on
+    separate threads, see ``ORBITS``).
 
     Up to ``SECTION_LANES`` orbits are stepped side by side (sub-step by sub-step for
     compositions, so the processor overlaps their dependency chains); a lane whose orbit is
@@ -172,7 +173,14 @@ def section_plane_group(kern, Z0, first, last, prm, h, max_steps, k, value, dire
     ``status[o]`` is ``OK`` (all crossings found), ``TIME_LIMIT`` or the code that
     stopped the orbit; ``energy_error[o]`` the worst ``|H - H0| / max(|H0|, 1)`` at its
     crossings; ``stop_time[o]`` the time reached.
+
+    ``out_points`` (n_orbits, max_cross, 2n) and ``out_times`` (n_orbits, max_cross) must be
+    NaN-filled; ``counts``, ``energy_error``, ``status``, ``stop_time`` have shape (n_orbits,).
+    (One function, not a wrapper around a worker: every level of compiled calls costs its
+    own optimisation and machine code on a first call.)
     """
+    first = np.int64(0)       # typed int64, not the literal 0: one signature of section_fill_lane
+    last = Z0.shape[0]
     m = nstate(Z0[0])
     n = m // 2
     L = min(SECTION_LANES, last - first)
@@ -275,21 +283,6 @@ def section_plane_group(kern, Z0, first, last, prm, h, max_steps, k, value, dire
                                         energy_error, status, stop_time)
                 if lane_orbit[l] >= 0:
                     active += 1
-
-
-@njit(cache=True, nogil=True)
-def section_plane_orbits(kern, Z0, prm, h, max_steps, k, value, direction, max_cross, kind, weights,
-                         A, b, tol, maxit, box_lo, box_hi, out_points, out_times, counts,
-                         energy_error, status, stop_time):
-    """:func:`section_plane_group` for all orbits of ``Z0`` (the orbits are independent:
-    slices of them run on separate threads, see ``ORBITS``).
-
-    ``out_points`` (n_orbits, max_cross, 2n) and ``out_times`` (n_orbits, max_cross) must be
-    NaN-filled; ``counts``, ``energy_error``, ``status``, ``stop_time`` have shape (n_orbits,).
-    """
-    section_plane_group(kern, Z0, 0, Z0.shape[0], prm, h, max_steps, k, value, direction, max_cross, kind,
-                        weights, A, b, tol, maxit, box_lo, box_hi, out_points, out_times, counts,
-                        energy_error, status, stop_time)
 
 
 @njit(cache=True, nogil=True)

@@ -1,5 +1,5 @@
 """One-step integrators and their exact tangent maps, the ensemble trajectory loop, and a
-batch evaluator of the kernels.
+batch evaluator per kernel.
 
 Loop text: never imported on its own. :mod:`phaselab.engine.compiled` assembles it into a
 module whose header defines the status codes and stepper kinds, ``np``, ``math``, ``njit``,
@@ -16,7 +16,8 @@ a module compiles only the steppers of the method it runs).
 """
 
 REQUIRES = ()
-PROVIDES = ("run_orbits", "evaluate_points", "step_matrix")
+PROVIDES = ("run_orbits", "evaluate_hamiltonian", "evaluate_grad_q", "evaluate_grad_p", "evaluate_vector_field",
+            "evaluate_map_step", "evaluate_jacobian", "evaluate_map_jacobian", "step_matrix")
 ORBITS = {
     "run_orbits": ("Z0", "out_states", "out_energy", "status", "stop_step"),
 }
@@ -220,37 +221,73 @@ def run_orbits(kern, Z0, prm, h, n_steps, save_every, kind, weights, A, b, tol, 
                     break
 
 
-@njit(cache=True, nogil=True)
-def evaluate_points(kern, which, Z, prm, out):
-    """Evaluate one kernel at every row of ``Z`` (shape ``(n_points, 2n)``).
+# One entry point per kernel, so that a first evaluation compiles only the kernel access it
+# uses. ``out`` has shape ``(n_points, width)``: H goes to ``out[i, 0]``; dH/dq and dH/dp to
+# ``out[i, :n]``; the vector field and a map's step to ``out[i, :2n]``; a Jacobian, row-major,
+# to ``out[i, :(2n)^2]``.
 
-    ``which`` 0: H into ``out[i, 0]``; 1, 2: dH/dq, dH/dp into ``out[i, :n]``; 3: the vector
-    field into ``out[i, :2n]``; 4: its Jacobian, row-major, into ``out[i, :(2n)^2]``; 5, 6:
-    a map's step and Jacobian likewise. ``out`` has shape ``(n_points, width)``.
-    """
+
+@njit(cache=True, nogil=True)
+def evaluate_hamiltonian(kern, Z, prm, out):
+    """H at every row of ``Z`` (shape ``(n_points, 2n)``) into ``out[i, 0]``."""
+    for i in range(Z.shape[0]):
+        out[i, 0] = hamiltonian(kern, Z[i], prm)
+
+
+@njit(cache=True, nogil=True)
+def evaluate_grad_q(kern, Z, prm, out):
+    """dH/dq at every row of ``Z`` into ``out[i, :n]``."""
+    n = Z.shape[1] // 2
+    for i in range(Z.shape[0]):
+        grad_q(kern, Z[i], prm, out[i, :n])
+
+
+@njit(cache=True, nogil=True)
+def evaluate_grad_p(kern, Z, prm, out):
+    """dH/dp at every row of ``Z`` into ``out[i, :n]``."""
+    n = Z.shape[1] // 2
+    for i in range(Z.shape[0]):
+        grad_p(kern, Z[i], prm, out[i, :n])
+
+
+@njit(cache=True, nogil=True)
+def evaluate_vector_field(kern, Z, prm, out):
+    """The vector field at every row of ``Z`` into ``out[i, :2n]``."""
     m = Z.shape[1]
-    n = m // 2
+    for i in range(Z.shape[0]):
+        vector_field(kern, Z[i], prm, out[i, :m])
+
+
+@njit(cache=True, nogil=True)
+def evaluate_map_step(kern, Z, prm, out):
+    """A map's step at every row of ``Z`` into ``out[i, :2n]``."""
+    m = Z.shape[1]
+    for i in range(Z.shape[0]):
+        map_step(kern, Z[i], prm, out[i, :m])
+
+
+@njit(cache=True, nogil=True)
+def evaluate_jacobian(kern, Z, prm, out):
+    """The Jacobian of the vector field at every row of ``Z``, row-major, into ``out[i, :(2n)^2]``."""
+    m = Z.shape[1]
     jac = np.empty((m, m))
     for i in range(Z.shape[0]):
-        z = Z[i]
-        if which == 0:
-            out[i, 0] = hamiltonian(kern, z, prm)
-        elif which == 1:
-            grad_q(kern, z, prm, out[i, :n])
-        elif which == 2:
-            grad_p(kern, z, prm, out[i, :n])
-        elif which == 3:
-            vector_field(kern, z, prm, out[i, :m])
-        elif which == 5:
-            map_step(kern, z, prm, out[i, :m])
-        else:
-            if which == 4:
-                jacobian(kern, z, prm, jac)
-            else:
-                map_jacobian(kern, z, prm, jac)
-            for r in range(m):
-                for c in range(m):
-                    out[i, r * m + c] = jac[r, c]
+        jacobian(kern, Z[i], prm, jac)
+        for r in range(m):
+            for c in range(m):
+                out[i, r * m + c] = jac[r, c]
+
+
+@njit(cache=True, nogil=True)
+def evaluate_map_jacobian(kern, Z, prm, out):
+    """A map's Jacobian at every row of ``Z``, row-major, into ``out[i, :(2n)^2]``."""
+    m = Z.shape[1]
+    jac = np.empty((m, m))
+    for i in range(Z.shape[0]):
+        map_jacobian(kern, Z[i], prm, jac)
+        for r in range(m):
+            for c in range(m):
+                out[i, r * m + c] = jac[r, c]
 
 
 # --------------------------------------------------------------------------- tangent maps
