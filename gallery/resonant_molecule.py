@@ -130,7 +130,8 @@ E_sep = float(nf.energy([x_point[0]], [x_point[1]])[0])
 
 
 ys = np.linspace(-0.55, 0.55, int(section_seeds))     # a line through both islands
-seeds = phaselab.shell_seeds(molecule, E_sep, {"x": 0.0}, "px", {"y": ys, "py": 0.8 * ys})
+seeds = phaselab.shell_seeds(molecule, {"y": ys, "py": 0.8 * ys}, energy=E_sep, plane={"x": 0.0},
+                             solve_for="px")
 section = phaselab.section(molecule, seeds, plane={"x": 0.0}, crossings=int(crossings), dt=dt, method="yoshida4")
 files += gt.save_and_show(section, out_dir, "section_with_separatrix", (".png",), dpi=figure_dpi,
                           overlays=[c[:, [1, 3]] for c in check.separatrix_curves({"x": 0.0})], title=f"x = 0 at the separatrix energy E = {E_sep:.4f}",

@@ -155,8 +155,8 @@ print("largest height out of the plane per member:", np.round(heights, 4))
 # %%
 xs = np.linspace(moon_x - seed_distance[0], moon_x - seed_distance[1], int(n_orbits))
 zs = np.linspace(seed_height[0], seed_height[1], int(n_orbits))
-seeds = phaselab.shell_seeds(pair, section_energy, {"y": 0.0}, "py",
-                             {"x": xs, "z": zs, "px": np.zeros_like(xs), "pz": np.zeros_like(xs)}, params=prm)
+seeds = phaselab.shell_seeds(pair, {"x": xs, "z": zs, "px": np.zeros_like(xs), "pz": np.zeros_like(xs)},
+                             energy=section_energy, plane={"y": 0.0}, solve_for="py", params=prm)
 around = phaselab.section(pair, seeds, plane={"y": 0.0}, crossings=int(crossings), dt=dt, params=prm, box=3.0)
 around
 
