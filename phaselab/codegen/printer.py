@@ -64,6 +64,18 @@ class KernelPrinter(PythonCodePrinter):
         a = self._print(expr.args[0])
         return f"(0.0 if {a} < 0 else (0.5 if {a} == 0 else 1.0))"
 
+    # sympy's code printer has no math name for these and rewrites the whole call (with
+    # automatic evaluation and assumption queries, which take tens of seconds on nested
+    # arguments); the reciprocal is printed directly, the same arithmetic as the rewrite
+    def _print_sec(self, expr):
+        return f"(1/math.cos({self._print(expr.args[0])}))"
+
+    def _print_csc(self, expr):
+        return f"(1/math.sin({self._print(expr.args[0])}))"
+
+    def _print_cot(self, expr):
+        return f"(1/math.tan({self._print(expr.args[0])}))"
+
     def _print_Max(self, expr):
         return "max(" + ", ".join(self._print(a) for a in expr.args) + ")"
 
