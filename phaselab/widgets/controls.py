@@ -127,8 +127,8 @@ class Controls:
         self.click = W.Dropdown(options=[("starts an orbit", "orbit"), ("finds a periodic orbit", "periodic")],
                                 value="orbit", description="a click", style={"description_width": "46px"},
                                 layout=W.Layout(width="230px"))
-        self.period = W.BoundedIntText(value=1, min=1, max=64, description="period",
-                                       style={"description_width": "44px"}, layout=W.Layout(width="110px"))
+        self.returns = W.BoundedIntText(value=1, min=1, max=64, description="returns",
+                                       style={"description_width": "52px"}, layout=W.Layout(width="118px"))
         self.manifolds = W.Checkbox(value=False, description="manifolds of unstable ones", indent=False,
                                     layout=W.Layout(width="210px"))
         self.clear_structures = W.Button(description="Remove marks", tooltip="Remove periodic orbits and manifolds",
@@ -173,7 +173,7 @@ class Controls:
         rows.append(line([_label("view")] + view))
         rows.append(line([_label("colour")] + [self.color, self.scale_box]))
         if has_structures:
-            rows.append(line([_label("structures"), self.click, self.period, self.manifolds,
+            rows.append(line([_label("structures"), self.click, self.returns, self.manifolds,
                                 self.clear_structures]))
             rows.append(line([_label(""), self.key]))
         rows.append(line([_label("files"), self.stem, self.export, self.session_path, self.save, self.load]))

@@ -225,7 +225,7 @@ class OrbitCommands:
     def find_periodic_orbit(self, x, y, *, returns=None):
         """Find the periodic orbit of ``returns`` returns (default the control's) nearest ``(x, y)``;
         it is marked with its stability's shape and its residue is shown in the status."""
-        k = int(self.controls.period.value if returns is None else returns)
+        k = int(self.controls.returns.value if returns is None else returns)
         view, energy, params = self.view, self.session.energy, self.params
         manifolds = bool(self.controls.manifolds.value)
 
