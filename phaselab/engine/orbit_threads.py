@@ -3,9 +3,12 @@
 The loop modules hold no ``parallel=True`` code (numba's parallel compilation costs more than
 half the first-call compile time of a loop). An entry point whose orbits are independent
 declares the arguments with one row per orbit (``ORBITS`` in its loop file); it is compiled
-with ``nogil=True``, so slices of its rows run side by side on Python threads: the same
-contiguous split over ``numba.get_num_threads()`` threads that numba's static schedule used,
-and the same arithmetic per orbit, hence the same numbers to the last bit.
+with ``nogil=True``, so slices of its rows run side by side on ``numba.get_num_threads()``
+Python threads. The rows are cut into up to ``SLICES_PER_THREAD`` contiguous slices per
+thread, and each thread takes the next slice left when it is free (orbits of one call can
+differ a lot in cost: a chaotic orbit steps more, an escaping one stops early, so equal
+shares per thread leave one thread idle). Each orbit's arithmetic is the same as in one
+call, hence the same numbers to the last bit.
 """
 
 from __future__ import annotations
@@ -16,10 +19,15 @@ import numba
 import numpy as np
 
 
-def split(n_rows: int, threads: int) -> np.ndarray:
-    """Bounds of ``min(n_rows, threads)`` contiguous slices of ``n_rows`` rows, shape
+SLICES_PER_THREAD = 4
+"""Slices per thread of a call's rows: enough for a free thread to take work from a busy
+one, few enough that the per-slice call (a few microseconds) does not count."""
+
+
+def split(n_rows: int, slices: int) -> np.ndarray:
+    """Bounds of ``min(n_rows, slices)`` contiguous slices of ``n_rows`` rows, shape
     ``(n_slices + 1,)`` (the first 0, the last ``n_rows``)."""
-    groups = max(1, min(n_rows, threads))
+    groups = max(1, min(n_rows, slices))
     return np.linspace(0, n_rows, groups + 1).round().astype(np.int64)
 
 
@@ -45,7 +53,8 @@ def compiled_for(disp, args) -> bool:
 
 def run_sliced(disp, args, positions, threads: int | None = None, ready: bool = True):
     """Call ``disp(*args)`` on slices of the rows of the arguments at ``positions`` (indices
-    into ``args``), one slice per thread, the first on the calling thread.
+    into ``args``), shared out to ``threads`` threads (the calling thread one of them) as
+    each becomes free.
 
     Parameters
     ----------
@@ -65,7 +74,7 @@ def run_sliced(disp, args, positions, threads: int | None = None, ready: bool = 
     threads = int(numba.get_num_threads()) if threads is None else int(threads)
     if n <= 1 or threads <= 1:
         return disp(*args)
-    bounds = split(n, threads)
+    bounds = split(n, threads * SLICES_PER_THREAD)
     parts = []
     for g in range(bounds.shape[0] - 1):
         lo, hi = int(bounds[g]), int(bounds[g + 1])
@@ -74,21 +83,27 @@ def run_sliced(disp, args, positions, threads: int | None = None, ready: bool = 
             part[i] = args[i][lo:hi]
         parts.append(tuple(part))
     errors: list = []
-
-    def work(part):
-        try:
-            disp(*part)
-        except BaseException as exc:      # handed to the calling thread
-            errors.append(exc)
-
     first = not ready and not compiled_for(disp, args)
     if first:
         disp(*parts[0])
-    helpers = [threading.Thread(target=work, args=(p,), daemon=True) for p in parts[1:]]
+    queue = iter(parts[1:] if first else parts)
+    lock = threading.Lock()
+
+    def work():
+        while not errors:
+            with lock:
+                part = next(queue, None)
+            if part is None:
+                return
+            try:
+                disp(*part)
+            except BaseException as exc:      # handed to the calling thread
+                errors.append(exc)
+
+    helpers = [threading.Thread(target=work, daemon=True) for _ in range(min(threads, len(parts)) - 1)]
     for t in helpers:
         t.start()
-    if not first:
-        work(parts[0])
+    work()
     for t in helpers:
         t.join()
     if errors:

@@ -20,10 +20,10 @@ def _square_rows(kern, Z0, scale, out):
 
 def test_split_covers_every_row_once_in_contiguous_slices():
     for n in (1, 2, 3, 7, 100):
-        for threads in (1, 2, 3, 8):
-            b = split(n, threads)
+        for slices in (1, 2, 3, 8, 16):
+            b = split(n, slices)
             assert b[0] == 0 and b[-1] == n
-            assert len(b) - 1 == min(n, threads)
+            assert len(b) - 1 == min(n, slices)
             assert np.all(np.diff(b) >= 1)
 
 
@@ -40,7 +40,9 @@ def test_sliced_call_gives_the_numbers_of_one_call_and_hands_errors_back():
     _square_rows(0, Z, 3.0, whole)
     run_sliced(_square_rows, (0, Z, 3.0, parts), (1, 3), threads=4)
     assert np.array_equal(whole, parts)
-    Z[30, 0] = -1.0                                   # in the last slice, on a helper thread
+    run_sliced(_square_rows, (0, Z[:3], 3.0, parts[:3]), (1, 3), threads=8)   # fewer rows than slices
+    assert np.array_equal(whole[:3], parts[:3])
+    Z[30, 0] = -1.0                                   # in one of the last slices
     with pytest.raises(ValueError, match="negative"):
         run_sliced(_square_rows, (0, Z, 3.0, parts), (1, 3), threads=4)
 
