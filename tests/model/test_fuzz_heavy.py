@@ -13,7 +13,7 @@ from fuzz_cases import (COMMON, HEAVY_CPU_SECONDS, MAX_LENGTH, check_case, compi
 
 
 @pytest.mark.filterwarnings("ignore:Generating overly large repr")
-@settings(max_examples=60, **COMMON)
+@settings(max_examples=25, **COMMON)
 @given(heavy_expressions)
 def test_deep_towers_and_symbolic_powers_are_refused_or_quick(text):
     """Functions nested up to 25 deep and sums raised to symbolic powers: refused when the
@@ -23,7 +23,7 @@ def test_deep_towers_and_symbolic_powers_are_refused_or_quick(text):
 
 @pytest.mark.slow
 @pytest.mark.filterwarnings("ignore:Generating overly large repr")
-@settings(max_examples=600, **COMMON)
+@settings(max_examples=250, **COMMON)
 @given(heavy_expressions)
 def test_many_deep_towers_and_symbolic_powers(text):
     check_case(text, HEAVY_CPU_SECONDS)
