@@ -12,8 +12,7 @@ from scipy.optimize import brentq
 import phaselab
 from phaselab.errors import ParameterError
 
-MU = 0.01215
-"""A mass ratio near the Earth-Moon value (the scenario: a moon of an invented planet)."""
+from rtbp_reference import MU, lyapunov_guess, rtbp_field
 
 
 # ----------------------------------------------------------------------------- a 2-D map
@@ -118,40 +117,10 @@ def test_bad_arguments_are_refused(doubling, standard_map):
 
 
 # ----------------------------------------------------------------------------- the spatial problem
-def rtbp_field(z, mu=MU):
-    """Hamilton's equations of the spatial restricted three-body problem in the rotating
-    frame, written out by hand from H = |p|^2/2 + y px - x py - (1-mu)/r1 - mu/r2
-    (Szebehely 1967)."""
-    x, y, zz, px, py, pz = z
-    r1 = np.sqrt((x + mu) ** 2 + y ** 2 + zz ** 2)
-    r2 = np.sqrt((x - 1 + mu) ** 2 + y ** 2 + zz ** 2)
-    a1, a2 = (1 - mu) / r1 ** 3, mu / r2 ** 3
-    return np.array([px + y, py - x, pz, py - a1 * (x + mu) - a2 * (x - 1 + mu), -px - (a1 + a2) * y,
-                     -(a1 + a2) * zz])
-
-
-def lyapunov_guess(amplitude=0.005, mu=MU):
-    """A state near a planar Lyapunov orbit about L2 (the oscillating eigenvector of the
-    linearisation at L2, scaled to the amplitude in x) and the crossing direction."""
-    def ux(x):
-        return x - (1 - mu) * (x + mu) / abs(x + mu) ** 3 - mu * (x - 1 + mu) / abs(x - 1 + mu) ** 3
-
-    xl = brentq(ux, 1 - mu + 1e-3, 2.0)
-    c2 = (1 - mu) / abs(xl + mu) ** 3 + mu / abs(xl - 1 + mu) ** 3
-    A = np.array([[0, 0, 1, 0], [0, 0, 0, 1], [1 + 2 * c2, 0, 0, 2], [0, 1 - c2, -2, 0]])
-    w, V = np.linalg.eig(A)
-    v = V[:, np.argmax(np.abs(w.imag))]
-    v = (v * 1j * abs(v[1]) / v[1]).real          # start on y = 0
-    dx, _, dvx, dvy = amplitude * v / abs(v[0])
-    z = np.zeros(6)
-    z[0], z[3], z[4] = xl + dx, dvx, xl + dx + dvy      # px = vx - y, py = vy + x
-    return z, (1 if dvy > 0 else -1)
-
-
 @pytest.fixture(scope="module")
 def spatial_branch():
     H = phaselab.models.spatial_restricted_three_body()
-    z, direction = lyapunov_guess()
+    z, direction = lyapunov_guess(3)
     o = phaselab.periodic_orbit(H, z, plane={"y": 0.0}, params={"mu": MU}, direction=direction)
     fam = phaselab.continue_family(o, "energy", (o.energy, -1.574), steps=60)
     flag = [b for b in fam.bifurcations if b["kind"] == "tangent (multiplier +1)"][0]

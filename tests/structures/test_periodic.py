@@ -2,7 +2,6 @@
 closed forms, published values and scipy."""
 
 import json
-import warnings
 
 import numpy as np
 import pytest
