@@ -189,6 +189,15 @@ def _warn_stopped(sec: Section, energy_limit: float):
         warnings.warn(f"{never.size} orbit(s) never crossed the plane {sec.describe_plane()} before t_max "
                       f"(orbits {', '.join(map(str, never[:10]))}{' ...' if never.size > 10 else ''}); "
                       "their count is 0", RuntimeWarning, stacklevel=3)
+    blown = np.flatnonzero((codes_ == codes.NOT_FINITE) & np.isfinite(sec.seeds).all(axis=1))
+    if blown.size:
+        if getattr(sec.system, "kind", None) == "map":
+            why = "their iterates run away to infinity"
+        else:
+            why = f"the step (dt = {sec.dt:g}) may be too large for them, or they run away to infinity"
+        warnings.warn(f"{blown.size} orbit(s) reached a non-finite state (orbits "
+                      f"{', '.join(map(str, blown[:10]))}{' ...' if blown.size > 10 else ''}): {why}; "
+                      "their points up to there are kept", RuntimeWarning, stacklevel=3)
     failed = np.flatnonzero(codes_ == NOT_CONVERGED)
     if failed.size:
         warnings.warn(f"{failed.size} orbit(s) stopped because an implicit step did not converge "

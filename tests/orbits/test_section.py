@@ -138,6 +138,19 @@ def test_plane_never_crossed_warns(hh):
     assert sec.counts.tolist() == [0, 0] and not sec.escaped.any()
 
 
+def test_orbits_blown_up_by_a_huge_step_are_named_in_a_warning(hh):
+    """Henon-Heiles is unbounded above E = 1/6: with dt = 5 a bound orbit at E = 1/12 is thrown
+    out and overflows (the step is far past the stability limit of a composition method for a
+    unit frequency, dt < 2; common practice). A seed that was non-finite from the start is not
+    named (it never ran)."""
+    s = hh_seeds(hh, 1.0 / 12.0, 2)
+    states = np.vstack([s.valid_states(), [np.nan, 0.0, 0.0, 0.0]])
+    with pytest.warns(RuntimeWarning, match=r"2 orbit\(s\) reached a non-finite state \(orbits 0, 1\).*dt = 5"):
+        sec = section(hh, states, plane={"x": 0.0}, crossings=5, dt=5.0)
+    from phaselab.engine.status import NOT_FINITE
+    assert (sec.status == NOT_FINITE).all()
+
+
 def test_invalid_shell_seeds_are_left_out_with_a_warning(hh):
     s = shell_seeds(hh, {"y": [0.1, 0.95, 0.2], "py": 0.0}, energy=1.0 / 8.0, plane={"x": 0.0},
                     solve_for="px")
