@@ -18,6 +18,7 @@ Reading the numbers (for orbits integrated long enough):
 
 from __future__ import annotations
 
+import warnings
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -350,10 +351,30 @@ def _map_indicators(system, states, n_iter, values, used, save_every, history, v
                               final, hist, status, stop)
     t_end = np.where(status == codes.OK, float(n_iter), np.maximum(stop - 1, 0).astype(float))
     return _result(final, hist, status, t_end, every * np.arange(1, n_rec + 1, dtype=float), z, "map", 1.0,
-                   used, history, system)
+                   used, history, system, depth=5)
 
 
-def _result(final, hist, status, t_end, times, seeds, method, dt, used, history, system):
+#: codes of orbits stopped by numerical trouble (not by a box the caller set): their
+#: indicators cover only the stretch before the stop and are easily misread as chaos
+TROUBLE = (codes.NOT_FINITE, codes.NOT_CONVERGED, codes.STEP_TOO_LARGE)
+
+
+def warn_trouble(status, t_end, dt, system, stacklevel=2):
+    """Warn (``RuntimeWarning``) naming the orbits that ``TROUBLE`` stopped early, with the
+    time they reached and the likely cause."""
+    hit = np.flatnonzero(np.isin(status, TROUBLE))
+    if not hit.size:
+        return
+    which = ", ".join(f"{i} (t = {t_end[i]:g})" for i in hit[:6]) + (" ..." if hit.size > 6 else "")
+    cause = ("their iterates run away to infinity" if system.kind == "map" else
+             f"they run away to infinity, or the step dt = {dt:g} is too large for them")
+    warnings.warn(f"{hit.size} orbit(s) stopped early by a non-finite state or a failed step: {which}; "
+                  f"{cause}; their indicators cover only the time before the stop, so do not read "
+                  "them as chaos (status and t_end say so)", RuntimeWarning, stacklevel=stacklevel)
+
+
+def _result(final, hist, status, t_end, times, seeds, method, dt, used, history, system, depth=4):
+    warn_trouble(status, t_end, dt, system, stacklevel=depth)
     series = {name: hist[:, :, i] for i, name in enumerate(INDICATORS)} if history else {}
     return ChaosIndicators(
         lyapunov=final[:, 0], megno=final[:, 1], fli=final[:, 2], sali=final[:, 3], t_end=t_end,

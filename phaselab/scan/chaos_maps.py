@@ -10,6 +10,7 @@ chunking, on the order of the orbits, on the cluster, or on whether it was resum
 
 from __future__ import annotations
 
+import warnings
 from dataclasses import dataclass, field
 from functools import partial
 
@@ -136,8 +137,10 @@ def _chunk(states, valid, threads, system, t, indicator, params, seed, options):
     from phaselab.orbits.chaos import chaos_indicators
 
     def compute(z):
-        res = chaos_indicators(system, z, t, params=params, seed=seed,
-                               vectors=2 if indicator == "sali" else 1, history=False, **options)
+        with warnings.catch_warnings():     # stopped orbits are NaN cells of the map, with their status
+            warnings.filterwarnings("ignore", "orbit.s. stopped early", RuntimeWarning)
+            res = chaos_indicators(system, z, t, params=params, seed=seed,
+                                   vectors=2 if indicator == "sali" else 1, history=False, **options)
         values = np.array(getattr(res, indicator), dtype=float)
         values[codes.stopped(res.status)] = np.nan
         info = {"method": res.method, "dt": float(res.dt), "params": res.params}

@@ -149,7 +149,8 @@ def test_deviation_vectors_do_not_depend_on_the_batch(henon_heiles):
 
 def test_escaping_orbit_is_flagged_and_batch_survives(quartic):
     # with c = 0, d = 1 an orbit with energy above 0 reaches infinity in finite time
-    r = chaos_indicators(quartic, [[0.0, 0.0], [2.0, 3.0]], 50.0, dt=0.01, params={"c": 0.0, "d": 1.0})
+    with pytest.warns(RuntimeWarning, match=r"1 orbit\(s\) stopped early .*: 1 \(t = "):
+        r = chaos_indicators(quartic, [[0.0, 0.0], [2.0, 3.0]], 50.0, dt=0.01, params={"c": 0.0, "d": 1.0})
     assert not r.escaped[0] and r.escaped[1]
     assert r.status_text[1] in ("non-finite state", "implicit step did not converge", "left the box")
     assert np.isfinite(r.lyapunov[0])
@@ -186,3 +187,14 @@ def test_chaos_indicators_state_the_error_of_their_step(hh):
     assert coarse.error_estimate / fine.error_estimate == pytest.approx(4.0, rel=0.15)
     sm = phaselab.models.standard_map()
     assert np.isnan(phaselab.chaos_indicators(sm, [[0.1, 0.2]], 50).error_estimate)
+
+
+def test_orbits_stopped_by_a_huge_step_are_named_in_a_warning(henon_heiles):
+    """dt = 5 is far past the stability limit of a composition method for unit frequencies
+    (dt < 2, common practice): the orbit overflows; the warning names it with the time it
+    reached, and its status says why."""
+    from phaselab.engine.status import NOT_FINITE
+
+    with pytest.warns(RuntimeWarning, match=r"1 orbit\(s\) stopped early .*: 0 \(t = .*dt = 5 is too large"):
+        res = phaselab.chaos_indicators(henon_heiles, [[0.0, 0.1, 0.3, 0.0]], 100.0, dt=5.0)
+    assert res.status[0] == NOT_FINITE and res.t_end[0] < 100.0
