@@ -369,9 +369,14 @@ class SymplecticMap(PhaseSpaceSystem):
             if residual == 0:
                 return sp.Integer(1), "symbolic"
             if residual.is_number:
+                # floating-point coefficients (a rotation matrix from cos and sin) leave a
+                # round-off residual: judged with the tolerance of the numerical check
+                off = complex(residual.evalf())
+                if abs(off) <= DET_TOL:
+                    return sp.Float(1.0 + off.real), "numeric"
                 raise ModelError(
                     f"map {self.name!r} is not area-preserving: its Jacobian determinant is "
-                    f"{residual + 1}, not 1")
+                    f"{complex(residual.evalf() + 1).real:.12g}, not 1")
             det = residual + 1
         if not implied:
             self._numeric_det_check(det)

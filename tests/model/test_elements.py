@@ -77,3 +77,28 @@ def test_bad_elements_are_refused(elements, match):
     with pytest.raises(phaselab.PhaselabError, match=match) as info:
         compose_map(elements, ["q"], ["p"])
     assert isinstance(info.value, (ModelError, phaselab.ExpressionError))
+
+
+def test_a_ring_of_floating_point_rotations_and_a_thin_sextupole_is_accepted():
+    """A one-turn map written as beam physicists do: a thin sextupole kick, then the linear
+    ring as a numeric matrix of two phase advances (rotations built from numpy's cos and
+    sin, so det = 1 only to rounding). A rotation [[c, s], [-s, c]] in each plane is
+    symplectic (common practice); the map's Jacobian at a point equals R K with the kick's
+    Jacobian K = [[I, 0], [-Hess V, I]] formed here with numpy (V = k (x^3 - 3 x y^2)/3,
+    Hess V = 2k [[x, -y], [-y, -x]], derived)."""
+    mu_x, mu_y = 2 * np.pi * 0.31, 1.3
+    cx, sx, cy, sy = np.cos(mu_x), np.sin(mu_x), np.cos(mu_y), np.sin(mu_y)
+    R = np.array([[cx, 0, sx, 0], [0, cy, 0, sy], [-sx, 0, cx, 0], [0, -sy, 0, cy]])
+    m = compose_map([ThinKick("k*(x**3 - 3*x*y**2)/3"), LinearElement(R)], ["x", "y"], ["px", "py"],
+                    params={"k": 1.0}, name="sextupole ring")
+    assert m.symplectic_defect < 1e-12 and abs(float(m.determinant) - 1.0) < 1e-12
+    x, y, k = 0.3, -0.2, 1.0
+    hess = 2 * k * np.array([[x, -y], [-y, -x]])
+    K = np.block([[np.eye(2), np.zeros((2, 2))], [-hess, np.eye(2)]])
+    jac = sp.lambdify(list(m.state_symbols) + list(m.param_symbols), m.jacobian_matrix)
+    np.testing.assert_allclose(np.array(jac(x, y, 0.1, 0.05, k), dtype=float), R @ K, atol=1e-13)
+
+
+def test_a_map_whose_determinant_is_a_number_other_than_one_is_refused_with_it():
+    with pytest.raises(ModelError, match=r"determinant is 1.00000005, not 1"):
+        phaselab.AreaPreservingMap([("q", "0.5*q"), ("p", "2.0000001*p")], ["q"], ["p"])
