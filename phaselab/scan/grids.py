@@ -48,6 +48,12 @@ class StateGrid:
         """(ny, nx), the shape of a picture of the grid."""
         return (len(self.y), len(self.x))
 
+    def __repr__(self) -> str:
+        (xn, yn), (x, y) = self.axis_names, (self.x, self.y)
+        shell = f" on the shell E = {self.energy:g}" if self.energy is not None else ""
+        return (f"StateGrid({xn}: {len(x)} points in [{x[0]:g}, {x[-1]:g}], {yn}: {len(y)} points in "
+                f"[{y[0]:g}, {y[-1]:g}]{shell}; {int(np.count_nonzero(self.valid))} of {len(self.valid)} valid)")
+
 
 def _index(system, name) -> int:
     return inputs.state_index(system, name, "state component")

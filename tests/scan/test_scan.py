@@ -325,3 +325,14 @@ def test_bad_input(kicked_rotor, oscillator):
         escape_map(oscillator, grid, 1.0, box=2.0).aperture(center=(5.0, 0.0))
     with pytest.raises(ParameterError, match="must be callable"):
         parameter_scan(3, {"K": [1.0]})
+
+
+def test_a_grid_prints_its_axes_and_valid_count_not_its_arrays():
+    H = phaselab.Hamiltonian("(px**2 + py**2)/2 + (x**2 + y**2)/2", ["x", "y"], ["px", "py"])
+    g = phaselab.shell_grid(H, {"y": (-1.5, 1.5, 30), "py": (-0.7, 0.7, 20)}, energy=0.5, plane={"x": 0.0},
+                            solve_for="px")
+    # y^2/2 + py^2/2 <= E = 0.5 inside the unit circle (closed form): count the grid points there
+    inside = int(np.count_nonzero(np.add.outer(np.linspace(-0.7, 0.7, 20) ** 2,
+                                               np.linspace(-1.5, 1.5, 30) ** 2) <= 1.0))
+    assert repr(g) == (f"StateGrid(y: 30 points in [-1.5, 1.5], py: 20 points in [-0.7, 0.7] on the shell "
+                       f"E = 0.5; {inside} of 600 valid)")
