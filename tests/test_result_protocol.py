@@ -316,6 +316,6 @@ def test_colour_bars_and_footers_carry_the_models_units():
         fig = result.plot()
         bars = [art.colorbar for ax in fig.axes for art in ax.collections if getattr(art, "colorbar", None)]
         assert [bar.ax.get_ylabel() for bar in bars] == [label]
-        assert fig.axes[0].get_xlabel() == "x [m]"
+        assert fig.axes[0].get_xlabel() == "$x$ [m]"      # typeset as on a section
         words, _ = _footer(fig)
         assert "m = 1 kg" in words and "dt = 0.1 s" in words and "Model results" in words

@@ -14,6 +14,8 @@ import numpy as np
 
 from phaselab.errors import ParameterError
 from phaselab.export import footers
+from phaselab.export.describe import mathtext_label
+from phaselab.model.units import with_unit
 from phaselab.export.figures import REPORT_RC, check_size, scalar_colormap
 
 #: Colour-bar labels of the chaos indicators, with their unit (``{time}``: the unit of time).
@@ -155,8 +157,9 @@ def picture_figure(values, grid, label, size=(5.5, 4.5), dpi=150, title=None, *,
     art = ax.pcolormesh(x, y, np.ma.masked_invalid(image), cmap=scalar_colormap(), shading="nearest")
     fig.colorbar(art, ax=ax, label=label)
     units = footers.units_of(result) if result is not None else {}
-    ax.set_xlabel(_unit_label(units, str(grid.axis_names[0])))
-    ax.set_ylabel(_unit_label(units, str(grid.axis_names[1])))
+    xn, yn = str(grid.axis_names[0]), str(grid.axis_names[1])
+    ax.set_xlabel(with_unit(mathtext_label(xn), units.get(xn)))     # typeset as on a section
+    ax.set_ylabel(with_unit(mathtext_label(yn), units.get(yn)))
     return _finish(fig, result, footer)
 
 
