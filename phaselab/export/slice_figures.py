@@ -20,7 +20,7 @@ import numpy as np
 from phaselab.base.atomic import atomic_path
 from phaselab.engine.provenance import MODEL_NOTE
 from phaselab.export import footers
-from phaselab.export.describe import unit_of
+from phaselab.export.describe import mathtext_label, unit_of
 from phaselab.model.units import with_unit
 from phaselab.engine.provenance import cf_dataset
 from phaselab.errors import ParameterError
@@ -83,6 +83,11 @@ def slice_figure(result, size=None, dpi=150, point_size=1.6, title=None, note=MO
     return fig
 
 
+def _label(result, name) -> str:
+    """A section coordinate typeset as on a section figure, with its unit."""
+    return with_unit(mathtext_label(name), unit_of(getattr(result, "system", None), name))
+
+
 def _n_orbits(result) -> int:
     """How many orbits the colours tell apart (orbit indices run from 0)."""
     orbit = np.asarray(result.orbit)
@@ -107,15 +112,15 @@ def _scatter(fig, result, point_size, elevation, azimuth):
         art = ax.scatter(*cols, c=values, cmap=scalar_colormap(), **style)
         cax = fig.add_axes((0.86, 0.2, 0.025, 0.72))
         bar = fig.colorbar(art, cax=cax)
-        bar.set_label(with_unit(result.color, unit_of(getattr(result, "system", None), result.color)), fontsize=9)
+        bar.set_label(_label(result, result.color), fontsize=9)
         bar.ax.tick_params(labelsize=7.5)
     else:
         ax.scatter(*cols, c=_colors(result), **style)
         orbit_key(ax, _n_orbits(result), style["s"])
-    ax.set_xlabel(result.axes[0])
-    ax.set_ylabel(result.axes[1])
+    ax.set_xlabel(_label(result, result.axes[0]))
+    ax.set_ylabel(_label(result, result.axes[1]))
     if three:
-        ax.set_zlabel(result.axes[2])
+        ax.set_zlabel(_label(result, result.axes[2]))
         ax.view_init(elev=float(elevation), azim=float(azimuth))
     else:
         for spine in ("top", "right"):
@@ -135,7 +140,7 @@ def _grid(fig, result, point_size):
             ax = fig.add_axes((left + j * w, bottom + (k - 1 - i) * h, w * 0.92, h * 0.92))
             ax.tick_params(labelsize=6, length=2)
             if i == j:
-                ax.text(0.5, 0.5, result.axes[i], ha="center", va="center", fontsize=10,
+                ax.text(0.5, 0.5, _label(result, result.axes[i]), ha="center", va="center", fontsize=10,
                         transform=ax.transAxes)
                 ax.set_xticks([])
                 ax.set_yticks([])
@@ -144,11 +149,11 @@ def _grid(fig, result, point_size):
             if i < k - 1:
                 ax.set_xticklabels([])
             else:
-                ax.set_xlabel(result.axes[j], fontsize=8)
+                ax.set_xlabel(_label(result, result.axes[j]), fontsize=8)
             if j > 0:
                 ax.set_yticklabels([])
             else:
-                ax.set_ylabel(result.axes[i], fontsize=8)
+                ax.set_ylabel(_label(result, result.axes[i]), fontsize=8)
     orbit_key(fig, _n_orbits(result), style["s"])     # in the empty upper right of the matrix
 
 
