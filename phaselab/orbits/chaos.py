@@ -367,7 +367,8 @@ def warn_trouble(status, t_end, dt, system, stacklevel=2):
         return
     which = ", ".join(f"{i} (t = {t_end[i]:g})" for i in hit[:6]) + (" ..." if hit.size > 6 else "")
     cause = ("their iterates run away to infinity" if system.kind == "map" else
-             f"they run away to infinity, or the step dt = {dt:g} is too large for them")
+             f"they run away to infinity or reach a singularity of H, or the step dt = {dt:g} is too "
+             "large for them")
     warnings.warn(f"{hit.size} orbit(s) stopped early by a non-finite state or a failed step: {which}; "
                   f"{cause}; their indicators cover only the time before the stop, so do not read "
                   "them as chaos (status and t_end say so)", RuntimeWarning, stacklevel=stacklevel)

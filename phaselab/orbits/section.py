@@ -194,7 +194,8 @@ def _warn_stopped(sec: Section, energy_limit: float):
         if getattr(sec.system, "kind", None) == "map":
             why = "their iterates run away to infinity"
         else:
-            why = f"the step (dt = {sec.dt:g}) may be too large for them, or they run away to infinity"
+            why = (f"they run away to infinity or reach a singularity of H, or the step dt = {sec.dt:g} is "
+                   "too large for them")
         warnings.warn(f"{blown.size} orbit(s) reached a non-finite state (orbits "
                       f"{', '.join(map(str, blown[:10]))}{' ...' if blown.size > 10 else ''}): {why}; "
                       "their points up to there are kept", RuntimeWarning, stacklevel=3)

@@ -440,6 +440,15 @@ def trajectory(system, states, t, *, dt=None, method="auto", params=None, box=No
                           "marked escaped. Unless they were running away, use a smaller dt or a larger "
                           "maxit", RuntimeWarning, stacklevel=2)
 
+        blown = np.flatnonzero((status == codes.NOT_FINITE) & ~bad_seed)
+        if blown.size:
+            where = ", ".join(f"orbit {o} at t = {escape_time[o]:.6g}" for o in blown[:10])
+            warnings.warn(f"{blown.size} orbit(s) reached a non-finite state ({where}"
+                          f"{' ...' if blown.size > 10 else ''}): they run away to infinity or reach a "
+                          "singularity of H, or the "
+                          f"step dt = {dt_used:g} is too large for them; they are stopped there and "
+                          "marked escaped", RuntimeWarning, stacklevel=2)
+
     states[bad_seed, 0] = Zw[bad_seed]
     e0 = energy[:, :1]
     with np.errstate(invalid="ignore"):

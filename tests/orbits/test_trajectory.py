@@ -355,3 +355,14 @@ def test_orbit_through_a_singularity_is_not_reported_ok():
     assert tr.status[0] == OK
     assert tr.status[1] != OK
     assert tr.status_text[1] in ("relative energy error above the limit", "non-finite state")
+
+
+def test_an_orbit_running_away_is_named_in_a_warning_with_its_time(hh):
+    """Henon-Heiles above the saddle energy 1/6 (Henon & Heiles 1964): an orbit with
+    E = 0.39 leaves through a channel and the cubic potential throws it to infinity in
+    finite time; the warning names it with the time it stopped, and a bound orbit beside it
+    is not named."""
+    states = [[0.0, 0.5, 0.6, 0.3], [0.0, 0.1, 0.2, 0.0]]
+    with pytest.warns(RuntimeWarning, match=r"1 orbit\(s\) reached a non-finite state \(orbit 0 at t = [0-9.]+\)"):
+        tr = phaselab.trajectory(hh, states, 50.0, dt=0.01)
+    assert tr.escaped.tolist() == [True, False]
