@@ -359,7 +359,7 @@ def test_orbit_through_a_singularity_is_not_reported_ok():
 
 def test_an_orbit_running_away_is_named_in_a_warning_with_its_time(hh):
     """Henon-Heiles above the saddle energy 1/6 (Henon & Heiles 1964): an orbit with
-    E = 0.39 leaves through a channel and the cubic potential throws it to infinity in
+    E = 0.308 (computed by hand) leaves through a channel and the cubic potential throws it to infinity in
     finite time; the warning names it with the time it stopped, and a bound orbit beside it
     is not named."""
     states = [[0.0, 0.5, 0.6, 0.3], [0.0, 0.1, 0.2, 0.0]]
