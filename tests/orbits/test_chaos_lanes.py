@@ -73,3 +73,26 @@ def test_orbits_whose_block_is_not_the_identity_are_left_for_the_general_loop(mo
     for a, b in zip(side, general):
         assert np.array_equal(a[ran], b[ran], equal_nan=True)
     assert np.all(np.isnan(side[0][skipped])) and np.all(side[3][skipped] == -1)
+
+
+def test_skipped_orbits_are_run_by_the_general_loop(monkeypatch):
+    """When the check of a constant block misses (here forced: it reports the identity), the
+    orbits whose block at the start is not the identity still get the general loop's numbers
+    (holding the block of their start), in their places."""
+    from phaselab.orbits import chaos
+
+    monkeypatch.setenv("PHASELAB_LOOPS", "inlined")
+    H = phaselab.Hamiltonian("p1**2/2 + p1**4/12 + p2**2/2 + q1**2/2 + q2**2/2 + q1**2*q2", ["q1", "q2"],
+                             ["p1", "p2"])
+    z = np.array([[0.1, 0.2, 0.0, 0.3], [0.1, 0.2, 0.2, 0.3], [0.0, 0.1, 0.0, 0.2], [0.3, 0.0, -0.1, 0.1]])
+    monkeypatch.setattr(chaos, "_constant_pp", lambda cs, z, values: np.eye(2))
+    res = phaselab.chaos_indicators(H, z, 5.0, method="yoshida4", dt=0.01, vectors=2, save_every=100)
+    W0 = np.ascontiguousarray(chaos.deviation_vectors(z, 0, 2, np.ones(4, dtype=bool)))
+    w = 1.0 / (2.0 - 2.0 ** (1.0 / 3.0))
+    final, hist = np.full((4, 4), np.nan), np.full((4, 5, 4), np.nan)
+    status, stop = np.zeros(4, dtype=np.int64), np.full(4, -1, dtype=np.int64)
+    loops(H, "tangent").tangent_composition_indicators(z, W0, H.param_values(None), 0.01, 500, 100,
+                                                       np.array([w, 1.0 - 2.0 * w, w]), True, np.full(4, -np.inf),
+                                                       np.full(4, np.inf), final, hist, status, stop)
+    assert np.array_equal(np.column_stack([res.lyapunov, res.megno, res.fli, res.sali]), final)
+    assert np.array_equal(res.history["megno"], hist[:, :, 1])
