@@ -172,22 +172,33 @@ class LoopSet:
         """Call the entry point ``entry`` with ``args`` (without the kernel), in the module of
         the stepper family its ``kind`` argument names."""
         family = family_of_kind(self._kind_at.get(entry), args)
-        policy = loop_form_choice()
-        inlined = policy == "inlined"
-        if policy == "auto":
-            name = self.inlined_name(family)
-            sig = str(_signature((0, *args)))
-            inlined = sig in ready_signatures(name).get(entry, ())
-            if not inlined and (entry, family, sig) not in self._requested:
-                self._requested.add((entry, family, sig))
-                request_build(self.system, tuple(f.name for f in self.files), name, entry,
-                              _signature((0, *args)), family=family)
+        inlined = self._use_inlined(entry, family, args)
         full = (0, *args) if inlined else (self.kernel.kernel, *args)
         disp = self._prepare(entry, "inlined" if inlined else "generic", family, full)
         positions = self._orbit_args.get(entry)
         if positions is None or self._serial:
             return disp(*full)
         return run_sliced(disp, full, tuple(i + 1 for i in positions))
+
+    def runs_inlined(self, entry: str, *args) -> bool:
+        """Whether a call of ``entry`` with ``args`` (without the kernel) runs the system's
+        inlined module now: ``PHASELAB_LOOPS=inlined``, or ``auto`` once the module is built
+        (asking for its build, as :meth:`run` does, when it is not)."""
+        return self._use_inlined(entry, family_of_kind(self._kind_at.get(entry), args), args)
+
+    def _use_inlined(self, entry, family, args) -> bool:
+        policy = loop_form_choice()
+        if policy != "auto":
+            return policy == "inlined"
+        name = self.inlined_name(family)
+        sig = str(_signature((0, *args)))
+        if sig in ready_signatures(name).get(entry, ()):
+            return True
+        if (entry, family, sig) not in self._requested:
+            self._requested.add((entry, family, sig))
+            request_build(self.system, tuple(f.name for f in self.files), name, entry,
+                          _signature((0, *args)), family=family)
+        return False
 
     def _prepare(self, entry, form, family, full):
         """The dispatcher of ``entry``, compiled (or loaded from numba's cache) for the types of

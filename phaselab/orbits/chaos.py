@@ -298,8 +298,8 @@ def chaos_indicators(system, states, t, *, params=None, dt=None, method="auto", 
     cs = loops(flow, "tangent")
     W0 = np.ascontiguousarray(W0)
     if m.kind == codes.COMPOSITION:
-        cs.tangent_composition_indicators(z, W0, values, dt, n_steps, every, m.weights,
-                                          _constant_pp(cs, z, values), lo, hi, final, hist, status, stop)
+        _composition_indicators(flow, z, W0, values, dt, n_steps, every, m.weights, lo, hi, final, hist,
+                                status, stop)
     else:
         cs.tangent_flow_indicators(z, W0, values, dt, n_steps, every, m.kind, m.weights, m.A, m.b, tol,
                                    maxit, lo, hi, final, hist, status, stop)
@@ -309,16 +309,48 @@ def chaos_indicators(system, states, t, *, params=None, dt=None, method="auto", 
                    used, history, system)
 
 
-def _constant_pp(cs, z, values) -> bool:
-    """Whether d2H/dp2 is the same at every state (a kinetic energy quadratic in the
-    momenta): the same matrix at the seeds and at scattered states around them."""
+def _composition_indicators(flow, z, W0, values, dt, n_steps, every, weights, lo, hi, final, hist, status,
+                            stop):
+    """Run the compiled loops of a composition method, filling ``final``, ``hist``,
+    ``status`` and ``stop``: where d2H/dp2 is the identity (H = p^2/2 + V(q)) and the
+    system's inlined loops run, the loop that steps two orbits side by side (through the
+    generic loops' kernel calls it is slower than the general loop); for the other orbits
+    the general loop. Both give the same numbers."""
+    cs = loops(flow, "tangent")
+    block = _constant_pp(cs, z, values)
+    todo = np.ones(len(z), dtype=bool)
+    if block is not None and np.array_equal(block, np.eye(len(block))):
+        lanes = loops(flow, "tangent_lanes")
+        args = (z, W0, values, dt, n_steps, every, weights, lo, hi, final, hist, status, stop,
+                np.zeros(len(z), dtype=bool))
+        if lanes.runs_inlined("lanes_composition_indicators", *args):
+            lanes.lanes_composition_indicators(*args)
+            todo = args[-1]
+            if not todo.any():
+                return
+    if todo.all():
+        cs.tangent_composition_indicators(z, W0, values, dt, n_steps, every, weights, block is not None, lo,
+                                          hi, final, hist, status, stop)
+        return
+    rows = np.flatnonzero(todo)
+    part = [np.ascontiguousarray(a[rows]) for a in (final, hist, status, stop)]
+    cs.tangent_composition_indicators(np.ascontiguousarray(z[rows]), np.ascontiguousarray(W0[rows]), values, dt,
+                                      n_steps, every, weights, block is not None, lo, hi, *part)
+    for whole, got in zip((final, hist, status, stop), part):
+        whole[rows] = got
+
+
+def _constant_pp(cs, z, values):
+    """d2H/dp2 (shape (n, n)) when it is the same at every state (a kinetic energy
+    quadratic in the momenta): the same matrix at the seeds and at scattered states around
+    them; else None."""
     finite = z[np.all(np.isfinite(z), axis=1)]
     if not len(finite):
-        return False
+        return None
     rng = np.random.default_rng(7)
     probes = np.vstack([finite[:4], finite[0] + rng.normal(scale=1.0 + np.abs(finite[0]), size=(4, z.shape[1]))])
     blocks = [cs.kernel.call("hess_pp", p, values) for p in probes]
-    return bool(all(np.array_equal(blocks[0], b) for b in blocks[1:]))
+    return blocks[0] if all(np.array_equal(blocks[0], b) for b in blocks[1:]) else None
 
 
 def _records(n_steps, save_every, history):

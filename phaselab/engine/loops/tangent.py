@@ -135,20 +135,56 @@ def tangent_flow_indicators(kern, Z0, W0, prm, h, n_steps, record_every, kind, w
 
 
 @njit(cache=True, nogil=True)
+def tangent_pp_kind(kern, z, prm, hp, hpd, constant_pp):
+    """How the drift moves the deviation vectors: 0 through the full block d2H/dp2 (``hp``,
+    evaluated at every drift), 1 through its diagonal ``hpd`` (a constant diagonal block),
+    2 unchanged (a constant identity block, as for p^2/2: the product by its 1.0 entries is
+    left out, the same numbers). A constant block is evaluated once at ``z``."""
+    n = hp.shape[0]
+    if not constant_pp:
+        return 0
+    hess_pp(kern, z, prm, hp)
+    kind = 2
+    for a in range(n):
+        hpd[a] = hp[a, a]
+        if hpd[a] != 1.0:
+            kind = 1
+        for b in range(n):
+            if a != b and hp[a, b] != 0.0:
+                return 0
+    return kind
+
+
+@njit(cache=True, nogil=True)
+def tangent_sali(v0, v1):
+    """SALI of two unit deviation vectors: min(|v0 + v1|, |v0 - v1|)."""
+    plus = 0.0
+    minus = 0.0
+    for j in range(v0.shape[0]):
+        plus += (v0[j] + v1[j]) ** 2
+        minus += (v0[j] - v1[j]) ** 2
+    return min(math.sqrt(plus), math.sqrt(minus))
+
+
+@njit(cache=True, nogil=True)
 def tangent_composition_indicators(kern, Z0, W0, prm, h, n_steps, record_every, weights, constant_pp,
                                    box_lo, box_hi, final, history, status, stop_step):
     """:func:`tangent_flow_indicators` for a composition of leapfrogs (a separable H), with
-    the step and its tangent map written out in the orbit loop: the same arithmetic in the
-    same order as ``composition_tangent_step``, without its calls, so the compiler keeps
-    the small arrays of one orbit close at hand (the hot loop of chaos maps). With
-    ``constant_pp`` (d2H/dp2 the same everywhere, as for a kinetic energy quadratic in the
-    momenta) that block is evaluated once per orbit, and when it is also diagonal the drift
-    of the deviation vectors multiplies by its diagonal only (the same numbers: the full
-    product adds exact zeros). The running sums of :func:`tangent_update` are kept in local
-    variables and written to ``acc`` only when stored; the arithmetic is the same, in the
-    same order, so the values agree with :func:`tangent_flow_indicators` to the last bit."""
+    the step and its tangent map written out in the orbit loop (the hot loop of chaos maps):
+    the arithmetic of ``composition_tangent_step``, without its calls.
+
+    Everything one orbit steps with (state, the one or two deviation vectors, the kernels'
+    outputs) lives in ONE scratch array at fixed offsets, so the compiler knows that a
+    kernel writing its output cannot change the state or the vectors and keeps them in
+    registers between the sub-steps (separate arrays may overlap as far as it can tell, and
+    every value then goes to memory and back on each sub-step: most of the time the loop
+    took beyond a hand-written one). The second vector is stepped only when SALI is asked
+    for (``W0.shape[2] == 2``). With ``constant_pp`` (d2H/dp2 the same everywhere) the block
+    is evaluated once per orbit (:func:`tangent_pp_kind`). A matrix-vector product starts
+    from its first term instead of 0.0 + (the same numbers, but for the sign of a zero
+    entry). The running sums of :func:`tangent_update` are local variables written to
+    ``acc`` only when stored; values agree with :func:`tangent_flow_indicators`."""
     n_orb = Z0.shape[0]
-    m = Z0.shape[1]
     s = weights.shape[0]
     cc = np.empty(s + 1)
     dd = np.empty(s)
@@ -157,38 +193,40 @@ def tangent_composition_indicators(kern, Z0, W0, prm, h, n_steps, record_every, 
         dd[i] = weights[i] * h
         cc[i + 1] = 0.5 * (weights[i] + weights[i + 1]) * h if i + 1 < s else 0.5 * weights[i] * h
     for o in range(n_orb):
-        n = nstate(Z0[o]) // 2
+        m = nstate(Z0[o])
+        n = m // 2
         k = W0.shape[2]
-        gp = np.empty(n)
-        gq = np.empty(n)
-        hp = np.empty((n, n))
-        hq = np.empty((n, n))
+        # z | v0 | v1 | dH/dp | dH/dq | diagonal of d2H/dp2 | d2H/dp2 | d2H/dq2
+        buf = np.empty(3 * m + 3 * n + 2 * n * n)
+        z = buf[0:m]
+        v0 = buf[m:2 * m]
+        v1 = buf[2 * m:3 * m]
+        gp = buf[3 * m:3 * m + n]
+        gq = buf[3 * m + n:3 * m + 2 * n]
+        hpd = buf[3 * m + 2 * n:3 * m + 3 * n]
+        hp = buf[3 * m + 3 * n:3 * m + 3 * n + n * n].reshape((n, n))
+        hq = buf[3 * m + 3 * n + n * n:3 * m + 3 * n + 2 * n * n].reshape((n, n))
         acc = np.zeros(5)
         acc[4] = np.nan
-        z = Z0[o].copy()
         W = W0[o].copy()
         tangent_normalise(W)
+        for j in range(m):
+            z[j] = Z0[o, j]
+            v0[j] = W[j, 0]
+            v1[j] = W[j, k - 1]
         st = check_state(z, box_lo, box_hi)
         if st != OK:
             status[o] = st
             stop_step[o] = 0
             continue
-        diagonal_pp = False
-        hpd = np.empty(n)
-        if constant_pp:
-            hess_pp(kern, z, prm, hp)
-            diagonal_pp = True
-            for a in range(n):
-                hpd[a] = hp[a, a]
-                for b in range(n):
-                    if a != b and hp[a, b] != 0.0:
-                        diagonal_pp = False
+        pp = tangent_pp_kind(kern, z, prm, hp, hpd, constant_pp)
         rec = 0
         done = 0
         log_sum = 0.0
         fli = 0.0
         y_int = 0.0
         y_mean = 0.0
+        sali = np.nan
         for step in range(1, n_steps + 1):
             for i in range(s + 1):
                 c = cc[i]
@@ -197,17 +235,30 @@ def tangent_composition_indicators(kern, Z0, W0, prm, h, n_steps, record_every, 
                 grad_p(kern, z, prm, gp)
                 for a in range(n):
                     z[a] += c * gp[a]
-                if diagonal_pp:
-                    for col in range(k):
+                if pp == 2:
+                    for a in range(n):
+                        v0[a] += c * v0[n + a]
+                    if k > 1:
                         for a in range(n):
-                            W[a, col] += c * (hpd[a] * W[n + a, col])
+                            v1[a] += c * v1[n + a]
+                elif pp == 1:
+                    for a in range(n):
+                        v0[a] += c * (hpd[a] * v0[n + a])
+                    if k > 1:
+                        for a in range(n):
+                            v1[a] += c * (hpd[a] * v1[n + a])
                 else:
-                    for col in range(k):
+                    for a in range(n):
+                        t = hp[a, 0] * v0[n]
+                        for b in range(1, n):
+                            t += hp[a, b] * v0[n + b]
+                        v0[a] += c * t
+                    if k > 1:
                         for a in range(n):
-                            t = 0.0
-                            for b in range(n):
-                                t += hp[a, b] * W[n + b, col]
-                            W[a, col] += c * t
+                            t = hp[a, 0] * v1[n]
+                            for b in range(1, n):
+                                t += hp[a, b] * v1[n + b]
+                            v1[a] += c * t
                 if i == s:
                     break
                 d = dd[i]
@@ -215,18 +266,28 @@ def tangent_composition_indicators(kern, Z0, W0, prm, h, n_steps, record_every, 
                 grad_q(kern, z, prm, gq)
                 for a in range(n):
                     z[n + a] -= d * gq[a]
-                for col in range(k):
+                for a in range(n):
+                    t = hq[a, 0] * v0[0]
+                    for b in range(1, n):
+                        t += hq[a, b] * v0[b]
+                    v0[n + a] -= d * t
+                if k > 1:
                     for a in range(n):
-                        t = 0.0
-                        for b in range(n):
-                            t += hq[a, b] * W[b, col]
-                        W[n + a, col] -= d * t
+                        t = hq[a, 0] * v1[0]
+                        for b in range(1, n):
+                            t += hq[a, b] * v1[b]
+                        v1[n + a] -= d * t
             # tangent_update, with the running sums in local variables
             g = 0.0
-            for j in range(2 * n):
-                g += W[j, 0] * W[j, 0]
+            for j in range(m):
+                g += v0[j] * v0[j]
             g = math.sqrt(g)
-            g2 = tangent_norm(W, 1) if k > 1 else 1.0
+            g2 = 1.0
+            if k > 1:
+                g2 = 0.0
+                for j in range(m):
+                    g2 += v1[j] * v1[j]
+                g2 = math.sqrt(g2)
             st = check_state(z, box_lo, box_hi)
             if st == OK and not (tangent_usable(g) and tangent_usable(g2)):
                 st = SINGULAR
@@ -241,16 +302,18 @@ def tangent_composition_indicators(kern, Z0, W0, prm, h, n_steps, record_every, 
             now = step * h
             y_int += 2.0 * (now - 0.5 * h) * growth
             y_mean += (y_int / now - y_mean) * h / now
-            for j in range(2 * n):
-                W[j, 0] /= g
+            for j in range(m):
+                v0[j] /= g
             if k > 1:
-                tangent_second(W, g2, acc)
+                for j in range(m):
+                    v1[j] /= g2
+                sali = tangent_sali(v0, v1)
             done = step
             if record_every > 0 and step % record_every == 0 and rec < history.shape[1]:
-                acc[0], acc[1], acc[2], acc[3] = log_sum, fli, y_int, y_mean
+                acc[0], acc[1], acc[2], acc[3], acc[4] = log_sum, fli, y_int, y_mean, sali
                 tangent_store(o, now, acc, history[:, rec])
                 rec += 1
-        acc[0], acc[1], acc[2], acc[3] = log_sum, fli, y_int, y_mean
+        acc[0], acc[1], acc[2], acc[3], acc[4] = log_sum, fli, y_int, y_mean, sali
         if done > 0:
             tangent_store(o, done * h, acc, final)
 
