@@ -18,7 +18,6 @@ Reading the numbers (for orbits integrated long enough):
 
 from __future__ import annotations
 
-import warnings
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -28,6 +27,7 @@ from phaselab.engine import status as codes
 
 from phaselab.engine import inputs, limits
 from phaselab.engine.compiled import loops
+from phaselab.orbits.stopped import warn_stopped
 from phaselab.errors import ParameterError
 
 INDICATORS = ("lyapunov", "megno", "fli", "sali")
@@ -386,28 +386,9 @@ def _map_indicators(system, states, n_iter, values, used, save_every, history, v
                    used, history, system, depth=5)
 
 
-#: codes of orbits stopped by numerical trouble (not by a box the caller set): their
-#: indicators cover only the stretch before the stop and are easily misread as chaos
-TROUBLE = (codes.NOT_FINITE, codes.NOT_CONVERGED, codes.STEP_TOO_LARGE)
-
-
-def warn_trouble(status, t_end, dt, system, stacklevel=2):
-    """Warn (``RuntimeWarning``) naming the orbits that ``TROUBLE`` stopped early, with the
-    time they reached and the likely cause."""
-    hit = np.flatnonzero(np.isin(status, TROUBLE))
-    if not hit.size:
-        return
-    which = ", ".join(f"{i} (t = {t_end[i]:g})" for i in hit[:6]) + (" ..." if hit.size > 6 else "")
-    cause = ("their iterates run away to infinity" if system.kind == "map" else
-             f"they run away to infinity or reach a singularity of H, or the step dt = {dt:g} is too "
-             "large for them")
-    warnings.warn(f"{hit.size} orbit(s) stopped early by a non-finite state or a failed step: {which}; "
-                  f"{cause}; their indicators cover only the time before the stop, so do not read "
-                  "them as chaos (status and t_end say so)", RuntimeWarning, stacklevel=stacklevel)
-
-
 def _result(final, hist, status, t_end, times, seeds, method, dt, used, history, system, depth=4):
-    warn_trouble(status, t_end, dt, system, stacklevel=depth)
+    warn_stopped(status, t_end, dt=dt, system=system, stacklevel=depth - 1,
+                 kept="their indicators cover only the time before the stop, not the whole span")
     series = {name: hist[:, :, i] for i, name in enumerate(INDICATORS)} if history else {}
     return ChaosIndicators(
         lyapunov=final[:, 0], megno=final[:, 1], fli=final[:, 2], sali=final[:, 3], t_end=t_end,

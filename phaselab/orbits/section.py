@@ -24,11 +24,12 @@ import numpy as np
 from phaselab.engine import status as codes
 
 from phaselab.engine import inputs, limits
-from phaselab.engine.status import NO_CROSSING, NOT_CONVERGED, OK, TIME_LIMIT
+from phaselab.engine.status import NO_CROSSING, OK, TIME_LIMIT
 from phaselab.engine.compiled import loops
 from phaselab.engine.integrators import default_step
 from phaselab.orbits.section_result import Section
 from phaselab.orbits.seeds import ShellSeeds
+from phaselab.orbits.stopped import warn_stopped
 from phaselab.errors import ModelError, ParameterError
 
 __all__ = ["section", "Section"]
@@ -189,21 +190,8 @@ def _warn_stopped(sec: Section, energy_limit: float):
         warnings.warn(f"{never.size} orbit(s) never crossed the plane {sec.describe_plane()} before t_max "
                       f"(orbits {', '.join(map(str, never[:10]))}{' ...' if never.size > 10 else ''}); "
                       "their count is 0", RuntimeWarning, stacklevel=3)
-    blown = np.flatnonzero((codes_ == codes.NOT_FINITE) & np.isfinite(sec.seeds).all(axis=1))
-    if blown.size:
-        if getattr(sec.system, "kind", None) == "map":
-            why = "their iterates run away to infinity"
-        else:
-            why = (f"they run away to infinity or reach a singularity of H, or the step dt = {sec.dt:g} is "
-                   "too large for them")
-        warnings.warn(f"{blown.size} orbit(s) reached a non-finite state (orbits "
-                      f"{', '.join(map(str, blown[:10]))}{' ...' if blown.size > 10 else ''}): {why}; "
-                      "their points up to there are kept", RuntimeWarning, stacklevel=3)
-    failed = np.flatnonzero(codes_ == NOT_CONVERGED)
-    if failed.size:
-        warnings.warn(f"{failed.size} orbit(s) stopped because an implicit step did not converge "
-                      f"(orbits {', '.join(map(str, failed[:10]))}); they are flagged as escaped; "
-                      "try a smaller dt", RuntimeWarning, stacklevel=3)
+    warn_stopped(codes_, dt=sec.dt, system=sec.system, started=np.isfinite(sec.seeds).all(axis=1),
+                 kept="their points up to there are kept (status says why)")
     drift = np.flatnonzero(codes_ == codes.ENERGY_DRIFT)
     if drift.size:
         warnings.warn(f"{drift.size} orbit(s) have a relative energy error above {energy_limit:g} "

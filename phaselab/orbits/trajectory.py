@@ -17,7 +17,8 @@ import numpy as np
 from phaselab.engine import accuracy as step_accuracy
 from phaselab.engine import status as codes
 from phaselab.engine import inputs, limits
-from phaselab.engine.status import NOT_CONVERGED, OK, STEP_TOO_LARGE
+from phaselab.engine.status import OK, STEP_TOO_LARGE
+from phaselab.orbits.stopped import warn_stopped
 from phaselab.engine.compiled import loops
 from phaselab.engine.integrators import choose_method, default_step
 from phaselab.errors import IntegrationError, ModelError, ParameterError
@@ -432,22 +433,8 @@ def trajectory(system, states, t, *, dt=None, method="auto", params=None, box=No
         energy[refused, 0] = cs.evaluate("hamiltonian", Zw[refused], prm) if refused.any() else 0.0
         escape_time = np.where(status != OK, t0 + h * stop_step, np.nan)
         name, dt_used = meth.name, float(dt)
-        stuck = np.flatnonzero(status == NOT_CONVERGED)
-        if stuck.size:
-            where = ", ".join(f"orbit {o} at t = {t0 + h * (stop_step[o] - 1):.6g}" for o in stuck[:10])
-            warnings.warn(f"the implicit {meth.name} step did not converge in {maxit} iterations for "
-                          f"{where}{' ...' if stuck.size > 10 else ''}; those orbits are stopped and "
-                          "marked escaped. Unless they were running away, use a smaller dt or a larger "
-                          "maxit", RuntimeWarning, stacklevel=2)
-
-        blown = np.flatnonzero((status == codes.NOT_FINITE) & ~bad_seed)
-        if blown.size:
-            where = ", ".join(f"orbit {o} at t = {escape_time[o]:.6g}" for o in blown[:10])
-            warnings.warn(f"{blown.size} orbit(s) reached a non-finite state ({where}"
-                          f"{' ...' if blown.size > 10 else ''}): they run away to infinity or reach a "
-                          "singularity of H, or the "
-                          f"step dt = {dt_used:g} is too large for them; they are stopped there and "
-                          "marked escaped", RuntimeWarning, stacklevel=2)
+        warn_stopped(status, escape_time, dt=dt_used, system=system,
+                     started=~bad_seed, kept="they are stopped there and marked escaped", stacklevel=2)
 
     states[bad_seed, 0] = Zw[bad_seed]
     e0 = energy[:, :1]

@@ -66,7 +66,7 @@ def test_section_stops_a_singular_orbit(bodies):
 
 def test_chaos_indicators_stop_a_singular_orbit(steep):
     batch = np.array([[1e-27, 0.0], [1.0, 0.5]])
-    with pytest.warns(RuntimeWarning, match=r"1 orbit\(s\) stopped early .*: 0 \(t = 0\).*singularity"):
+    with pytest.warns(RuntimeWarning, match=r"1 orbit\(s\) stopped early \(orbit 0 at t = 0\).*singularity"):
         r = chaos_indicators(steep, batch, t=1.0, dt=0.001)
     assert r.status[0] in codes.STOPPED and r.status[1] == codes.OK
     alone = chaos_indicators(steep, batch[1:], t=1.0, dt=0.001)

@@ -145,7 +145,7 @@ def test_orbits_blown_up_by_a_huge_step_are_named_in_a_warning(hh):
     named (it never ran)."""
     s = hh_seeds(hh, 1.0 / 12.0, 2)
     states = np.vstack([s.valid_states(), [np.nan, 0.0, 0.0, 0.0]])
-    with pytest.warns(RuntimeWarning, match=r"2 orbit\(s\) reached a non-finite state \(orbits 0, 1\).*dt = 5"):
+    with pytest.warns(RuntimeWarning, match=r"2 orbit\(s\) stopped early \(orbit 0, 1\): a non-finite state.*dt = 5 is too large"):
         sec = section(hh, states, plane={"x": 0.0}, crossings=5, dt=5.0)
     from phaselab.engine.status import NOT_FINITE
     assert (sec.status == NOT_FINITE).all()

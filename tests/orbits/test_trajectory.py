@@ -363,6 +363,6 @@ def test_an_orbit_running_away_is_named_in_a_warning_with_its_time(hh):
     finite time; the warning names it with the time it stopped, and a bound orbit beside it
     is not named."""
     states = [[0.0, 0.5, 0.6, 0.3], [0.0, 0.1, 0.2, 0.0]]
-    with pytest.warns(RuntimeWarning, match=r"1 orbit\(s\) reached a non-finite state \(orbit 0 at t = [0-9.]+\)"):
+    with pytest.warns(RuntimeWarning, match=r"1 orbit\(s\) stopped early \(orbit 0 at t = [0-9.]+\): a non-finite state"):
         tr = phaselab.trajectory(hh, states, 50.0, dt=0.01)
     assert tr.escaped.tolist() == [True, False]
