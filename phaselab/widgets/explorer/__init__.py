@@ -32,6 +32,7 @@ from __future__ import annotations
 
 import secrets
 import time
+from collections import deque
 from pathlib import Path
 
 import ipywidgets as W
@@ -141,6 +142,9 @@ class Explorer(OrbitCommands, ViewCommands, Wiring, Scheduling, Drawing, Session
         self.idle_jobs = JobRunner(background)
         self._loop = current_loop()
         self.last_timing: dict[str, float] = {}
+        # per seed request: the page's tap, points drawn, patch sent (wall clock, s) and the
+        # computing time (s); read by the browser test to split a click into its legs
+        self.click_log: deque = deque(maxlen=64)
         self.last_error = None
         self._message, self._refused = "", False
         self._busy: dict[str, str] = {}
