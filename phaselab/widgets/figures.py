@@ -319,9 +319,6 @@ class Figures:
                                orbit=[o.id for o in stops], why=[o.note for o in stops])
         if newest is not None and newest.state is not None:
             if not keep_latest:
-                # the drag position first: the page then finds it equal to the new ring and
-                # sends nothing back (it echoes a ring that moved away from the drag position)
-                self.probe.data = dict(x=[newest.seed[0]], y=[newest.seed[1]])
                 self.latest.data = dict(x=[newest.seed[0]], y=[newest.seed[1]])
         else:
             self.latest.data = dict(x=[], y=[])

@@ -243,7 +243,7 @@ def test_explorer_in_jupyterlab(lab):
 
             # ---------------------------------------------------------- 20 clicks
             rng = np.random.default_rng(11)
-            latencies, parts, replies, drawing, walls = [], [], [], [], []
+            latencies, parts, replies, drawing, walls, heard = [], [], [], [], [], []
             page.evaluate("""() => {
                 const send = WebSocket.prototype.send;
                 WebSocket.prototype.send = function (data) {
@@ -254,6 +254,7 @@ def test_explorer_in_jupyterlab(lab):
                             if (window.__pl.sent == null || window.__pl.seen != null) return;
                             const now = performance.now();
                             if (window.__pl.first == null) window.__pl.first = now;
+                            window.__pl.heard = (window.__pl.heard || 0) + 1;
                             window.__pl.last = now;
                         });
                     }
@@ -275,7 +276,7 @@ def test_explorer_in_jupyterlab(lab):
                 sx, sy = page.evaluate(f"() => window.__pl.screen({b}, {pb})")
                 n0 = page.evaluate("() => window.__pl.len('phaselab-seeds', 'x')")
                 page.evaluate("""(n0) => { window.__pl.down = null; window.__pl.seen = null; window.__pl.sent = null;
-                    window.__pl.first = null; window.__pl.last = null;
+                    window.__pl.first = null; window.__pl.last = null; window.__pl.heard = 0;
                     document.addEventListener('pointerdown', () => { window.__pl.down = performance.now();
                                                                      window.__pl.down_wall = Date.now(); },
                                               {capture: true, once: true});
@@ -292,6 +293,7 @@ def test_explorer_in_jupyterlab(lab):
                 replies.append(page.evaluate("() => window.__pl.last == null ? NaN : window.__pl.last - window.__pl.sent"))
                 drawing.append(page.evaluate("() => window.__pl.last == null ? NaN : window.__pl.seen - window.__pl.last"))
                 walls.append(page.evaluate("() => [window.__pl.down_wall, window.__pl.seen_wall]"))
+                heard.append(page.evaluate("() => window.__pl.heard"))
                 page.wait_for_timeout(150)
             load_after = os.getloadavg()
             last_walls = page.evaluate("() => [window.__pl.down_wall, window.__pl.seen_wall]")
@@ -303,6 +305,17 @@ def test_explorer_in_jupyterlab(lab):
                           f"median {np.nanmedian(replies):.0f} ms; the last message before the points to the points "
                           f"shown: median {np.nanmedian(drawing):.0f} ms, max {np.nanmax(drawing):.0f} ms; load average before "
                           f"{load_before[0]:.2f}, after {load_after[0]:.2f}")
+            report.append(f"kernel messages reaching the page between a click's message and its points: median "
+                          f"{np.median(heard):.0f}, max {max(heard)}")
+            # the floor at this load: a message to the kernel and its answer, with no work between
+            bare = page.evaluate("""async () => {
+                const k = window.jupyterapp.shell.currentWidget.sessionContext.session.kernel, out = [];
+                for (let i = 0; i < 20; i++) {
+                    const t0 = performance.now(); await k.requestKernelInfo(); out.push(performance.now() - t0);
+                    await new Promise(r => setTimeout(r, 100)); }
+                return out; }""")
+            report.append(f"bare kernel round trip (kernel_info, 20 times) at this load: median {np.median(bare):.0f} ms, "
+                          f"95th percentile {np.percentile(bare, 95):.0f} ms (load average {os.getloadavg()[0]:.2f})")
             assert page.evaluate("() => window.__pl.len('phaselab-seeds', 'x')") == 23, _status(page)
             assert page.evaluate("() => window.__pl.summary()")["points"] == 23 * 300
             # the readout under the plot names the orbit point under the pointer
