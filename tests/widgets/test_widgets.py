@@ -822,3 +822,13 @@ def test_quick_click_sends_its_points_first(hh):
         assert first == 0, sent[:first + 1]  # nothing reached the page before the points
     assert any(kind == "status" and "300" not in what and "crossings" in what for kind, what in sent[first:]), sent
     assert timing["sent_wall"] >= timing["shown_wall"] >= timing["tap_wall"]
+
+
+def test_a_page_building_the_explorer_again_is_told_about_the_saved_picture(hh):
+    from phaselab.widgets import messages
+
+    ex = phaselab.explore(hh, energy=E0, background=False)
+    assert ex.bokeh.page_builds == 0  # the state sent when the widget opened is not a page's request
+    ex.picture.handle = object()  # as after a display in a notebook
+    ex.bokeh.get_state()  # what a reloaded page (or another tab) asks for
+    assert ex.bokeh.page_builds == 1 and messages.PAGE_REBUILT in ex.status

@@ -225,6 +225,13 @@ class Scheduling:
         # the snapshot is taken on the widgets' thread when the quiet spell is over
         self.idle_jobs.submit("picture", lambda: None, lambda out: self._draw_picture(), delay=PICTURE_DELAY)
 
+    def _page_built(self):
+        """A page built its view of the explorer after the first display (a reload, another
+        tab): say, once that page has its view, that the picture saved in that page's notebook
+        no longer follows the explorer (the limit in widgets/page.py)."""
+        if self.picture.handle is not None:
+            self._soon(0.5, lambda: self._say(messages.PAGE_REBUILT, refused=True))
+
     def _draw_picture(self):
         if self.picture.handle is None:
             return
