@@ -86,6 +86,7 @@ def main(repeats: int = 7) -> None:
         phaselab.section(H, seeds, plane=plane, crossings=300, energy=E, axes=("y", "py"))
         bare_click.append(time.perf_counter() - t0)
 
+    log = list(ex.click_log)[-repeats:]  # the clicks' own timings, split in the kernel
     drag, bare_drag = [], []
     for p in allowed_points(repeats):
         t0 = time.perf_counter()
@@ -119,9 +120,14 @@ def main(repeats: int = 7) -> None:
         print(f"{name:<38} {w * 1000:8.1f} ms  {b * 1000:8.1f} ms  {w / b:6.2f}x  "
               f"target < {target * 1000:.0f} ms: {verdict}")
 
+    legs = {name: statistics.median(v) * 1000 for name, v in (
+        ("computing", [c["orbit_compute"] for c in log]),
+        ("tap to points drawn into the document", [c["shown_wall"] - c["tap_wall"] for c in log]),
+        ("points drawn to the patch sent", [c["sent_wall"] - c["shown_wall"] for c in log]))}
     print(f"median of {repeats}; widget path vs bare phaselab.section on the same seeds")
     print(f"{'path':<38} {'widget':>11}  {'section':>11}  {'ratio':>7}")
     row("click -> 300 points (Henon-Heiles)", click, bare_click, 0.150)
+    print("  click legs in the kernel: " + "; ".join(f"{k} {v:.1f} ms" for k, v in legs.items()))
     row("drag step -> orbit redrawn", drag, bare_drag, 0.100)
     row("energy slider -> 30 orbits redrawn", move, bare_move, 1.0)
     ex.close()

@@ -10,6 +10,11 @@ import math
 
 import numpy as np
 
+#: Said when a page builds its view of an explorer already shown (a reload, another tab): a
+#: picture update cannot reach that page's copy of the saved output (see widgets/page.py).
+PAGE_REBUILT = ("A page opened this explorer again (a reload or another tab): in that page's notebook, "
+                "the picture saved for readers without a kernel stays as it was until this cell runs again.")
+
 
 def number(v, span=1.0) -> str:
     """A coordinate for the status line: 4 significant digits, rounding noise far below the

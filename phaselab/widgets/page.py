@@ -17,10 +17,14 @@ Three things go wrong with a plain ``jupyter_bokeh.BokehModel`` and are handled 
   widget; the explorer's own style sheet hides it while the live explorer is on the page.
 
 Limit: the kernel reaches the picture's output through its display id, and a page routes
-such updates only to outputs of executions it started itself. After a reload with the kernel
-running, the output on the page is the saved copy: the live explorer is drawn afresh and
-works, but the picture (hidden meanwhile) keeps the state of the last save until the
-explorer's cell runs again. Saving the notebook after a reload without running that cell keeps the earlier picture.
+such updates only to outputs of executions it started itself (JupyterLab's kernel connection
+maps a display id to the executions of that page whose output first showed it; an update
+goes to those executions' output areas). After a reload with the kernel running, the output
+on the page is the saved copy, made by no execution of that page: the live explorer is drawn
+afresh and works, but the picture (hidden meanwhile) keeps the state of the last save until
+the explorer's cell runs again. Saving the notebook after a reload without running that cell
+keeps the earlier picture. Only code in the page holding the notebook's model (a JupyterLab
+extension) could replace that output; nothing phaselab puts on the page has that model.
 """
 
 from __future__ import annotations
@@ -51,7 +55,11 @@ class LiveBokehModel(BokehModel):
     def __init__(self, model, **kwargs):
         self.changes = 0
         self._bundled = 0
+        self.page_builds = 0     # full states asked for after the first: pages (re)built a view
+        self.on_page_build = None  # called with no argument after each of them
+        self._opened = False
         super().__init__(model, **kwargs)
+        self._opened = True
         self._document.on_change(self._count_change)
 
     def _count_change(self, event):
@@ -122,6 +130,10 @@ class LiveBokehModel(BokehModel):
         # a full state is asked for when a page (re)builds its widgets: give the current plot
         if key is None:
             self.refresh(send=False)
+            if self._opened:
+                self.page_builds += 1
+                if self.on_page_build is not None:
+                    self.on_page_build()
         return super().get_state(key=key, drop_defaults=drop_defaults)
 
 

@@ -49,10 +49,11 @@ def _wait_http(url: str, seconds: float, proc, log_path: Path) -> None:
 
 
 @contextlib.contextmanager
-def running_lab(work: Path, seconds: float = 90):
-    """Run JupyterLab with ``work`` as its root; yields ``{"url", "token", "dir"}``."""
+def running_lab(work: Path, seconds: float = 90, env_overrides: dict | None = None):
+    """Run JupyterLab with ``work`` as its root (its kernels get ``env_overrides`` on top of
+    this process's environment); yields ``{"url", "token", "dir"}``."""
     port, token = _free_port(), secrets.token_hex(16)
-    env = dict(os.environ)
+    env = {**os.environ, **(env_overrides or {})}
     for key, sub in (("JUPYTER_RUNTIME_DIR", "runtime"), ("JUPYTERLAB_SETTINGS_DIR", "settings"),
                      ("JUPYTERLAB_WORKSPACES_DIR", "workspaces"), ("JUPYTER_CONFIG_DIR", "config")):
         (work / sub).mkdir()

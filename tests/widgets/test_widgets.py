@@ -781,3 +781,54 @@ def test_driven_system_view_and_panels_fit_the_system():
     t, h = np.asarray(ex.figures.panel2_source.data["x"]), np.asarray(ex.figures.panel2_source.data["y"])
     states = np.column_stack([x, y])
     np.testing.assert_allclose(h, drv.energy(states, t=t), rtol=1e-12, atol=1e-12)
+
+
+def test_quick_click_sends_its_points_first(hh):
+    """In a running event loop (as in a notebook), a click answered within the placeholder
+    delay sends the page its points as the first patch: no placeholder and no busy status
+    before it; the status line, orbit list and count follow the points (common practice:
+    the answer first, the bookkeeping after)."""
+    import asyncio
+
+    from phaselab.widgets.explorer.orbit_commands import PLACEHOLDER_DELAY
+
+    async def run():
+        ex = phaselab.explore(hh, energy=E0, crossings=100)
+        sent = []
+        real_send = ex.bokeh._send_patch
+        ex.bokeh._send_patch = lambda events: (sent.append(("patch", {getattr(e, "model", None) and e.model.name
+                                                                      for e in events})), real_send(events))
+        for name in ("status", "count"):  # what each widget sends the page, in order
+            w = getattr(ex.controls, name)
+            w.send_state = (lambda w, name, real: lambda key=None: (sent.append((name, w.value)), real(key)))(
+                w, name, w.send_state)
+        try:
+            for point in [(0.1, 0.05), (-0.1, 0.02)]:  # the first warms the loops
+                sent.clear()
+                n = len(ex.orbits)
+                send_tap(ex, *point)
+                for _ in range(2000):
+                    await asyncio.sleep(0.005)
+                    if len(ex.orbits) > n and not ex.busy:
+                        break
+            return sent, dict(ex.click_log[-1]), len(ex.orbits)
+        finally:
+            ex.close()
+
+    sent, timing, n = asyncio.run(run())
+    assert n == 2
+    first = next(k for k, (kind, what) in enumerate(sent) if kind == "patch" and "phaselab-newest" in what)
+    if timing["shown_wall"] - timing["tap_wall"] < 0.5 * PLACEHOLDER_DELAY:
+        assert first == 0, sent[:first + 1]  # nothing reached the page before the points
+    assert any(kind == "status" and "300" not in what and "crossings" in what for kind, what in sent[first:]), sent
+    assert timing["sent_wall"] >= timing["shown_wall"] >= timing["tap_wall"]
+
+
+def test_a_page_building_the_explorer_again_is_told_about_the_saved_picture(hh):
+    from phaselab.widgets import messages
+
+    ex = phaselab.explore(hh, energy=E0, background=False)
+    assert ex.bokeh.page_builds == 0  # the state sent when the widget opened is not a page's request
+    ex.picture.handle = object()  # as after a display in a notebook
+    ex.bokeh.get_state()  # what a reloaded page (or another tab) asks for
+    assert ex.bokeh.page_builds == 1 and messages.PAGE_REBUILT in ex.status

@@ -32,6 +32,7 @@ from __future__ import annotations
 
 import secrets
 import time
+from collections import deque
 from pathlib import Path
 
 import ipywidgets as W
@@ -141,6 +142,9 @@ class Explorer(OrbitCommands, ViewCommands, Wiring, Scheduling, Drawing, Session
         self.idle_jobs = JobRunner(background)
         self._loop = current_loop()
         self.last_timing: dict[str, float] = {}
+        # per seed request: the page's tap, points drawn, patch sent (wall clock, s) and the
+        # computing time (s); read by the browser test to split a click into its legs
+        self.click_log: deque = deque(maxlen=64)
         self.last_error = None
         self._message, self._refused = "", False
         self._busy: dict[str, str] = {}
@@ -176,6 +180,7 @@ class Explorer(OrbitCommands, ViewCommands, Wiring, Scheduling, Drawing, Session
         self._wire_figure_events()
         self.bokeh = LiveBokehModel(self.figures.layout, combine_events=False)
         self.bokeh.add_class("pl-plot")
+        self.bokeh.on_page_build = self._page_built
         # a view built between a display and its first patch may have missed changes: when
         # the page says a view is ready, send the current document if anything changed
         self.figures.main.js_on_change("inner_width", self.figures.ready_callback)

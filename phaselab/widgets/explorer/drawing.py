@@ -96,6 +96,12 @@ class Drawing:
             with self._held():
                 self.figures.show_pending(pts)
 
+    def _show_on_the_way(self):
+        """Placeholders and the orbit count while orbits are on the way (one patch)."""
+        with self._held():
+            self._show_waiting()
+            self._show_count()
+
     def _soon(self, delay, fn):
         """Call ``fn()`` after ``delay`` seconds on the kernel's event loop; at once without one."""
         loop = self._loop

@@ -46,8 +46,12 @@ class OrbitCommands:
         serial = self._serial
         self._pending += n
         self._waiting[serial] = pts
-        self._show_count()
-        self._soon(PLACEHOLDER_DELAY, self._show_waiting)
+        # placeholders, the count of orbits on the way and the status line's note follow only
+        # if the orbits are not back within PLACEHOLDER_DELAY: a quick click sends the page
+        # one patch, its points (an empty plot says at once that orbits are on the way)
+        if not self.session.orbits:
+            self._show_count()
+        self._soon(PLACEHOLDER_DELAY, self._show_on_the_way)
         t_asked = time.perf_counter()
         accepted = []
 
@@ -55,60 +59,82 @@ class OrbitCommands:
             return computations.seed_and_orbits(view, pts, energy, params, cross, color)
 
         def deliver(out: Outcome):
-            self._pending -= n
-            self._waiting.pop(serial, None)
-            self._show_waiting()
-            if out.error is not None:
-                self._report(out)
-                self._show_count()
+            # the new points first, as one patch, before the status line, the orbit list and
+            # the follow-up work: the page can draw them while the kernel finishes the rest
+            with self._held():
+                records, refused = self._show_new_orbits(out, pts, n, serial, cross, view)
+            self.last_timing["sent_wall"] = time.time()  # the patch is on its way to the page
+            if out.error is not None or view is not self.view:
                 return
-            batch = out.value
-            if view is not self.view:  # the plane changed meanwhile: these points meant another plane
-                self._show_count()
-                return
-            refused = [(pts[k], why) for k, why in enumerate(batch.reasons) if why]
-            records = []
-            for k, part in enumerate(batch.parts):
-                if part is None:
-                    continue
-                rec = self.session.new_record(pts[k], batch.states[k],
-                                              np.broadcast_to(np.asarray(cross), (n,))[k])
-                self._store_part(rec, part)
-                records.append(rec)
-            if records:
-                previous = self.session.newest
-                self.session.add(records)
-                if previous is None:
-                    # the first orbits (often while the page is still building its view from
-                    # a fresh copy of the document): set the data whole, which a page cannot
-                    # apply twice, where a stream arriving after that copy would be doubled
-                    self._draw_all()
-                else:
-                    self._draw_added(previous, records)
-                self._update_pick()
+            with self._held():
+                self._after_new_orbits(out, records, refused, setting)
             accepted.extend(records)
             self.last_timing["orbit"] = time.perf_counter() - t_asked
             self.last_timing["orbit_compute"] = out.seconds
-            self.last_timing["shown_wall"] = time.time()
-            if refused:
-                (x, y), why = refused[0]
-                more = f" ({len(refused)} points refused)" if len(refused) > 1 else ""
-                self._say(f"No orbit at ({self._axis_number(x, 0)}, {self._axis_number(y, 1)}): {why}{more}.", refused=True)
-            elif records:
-                self._say(self._orbit_message(records, out.seconds), refused=bool(records[-1].note))
-            if batch.value_error:
-                self._say(f"{self._message} Colour values failed: {batch.value_error}", refused=True)
-            if records and setting != self._setting_key():
-                self._recompute([r.id for r in records])
-            self._show_count()
-            if records:
-                self._update_trace()
-                self._schedule_picture()
+            self.click_log.append({k: self.last_timing.get(k, float("nan"))
+                                   for k in ("tap_wall", "shown_wall", "sent_wall", "orbit_compute")})
 
         what = (f"computing the orbit from ({self._axis_number(pts[0, 0], 0)}, {self._axis_number(pts[0, 1], 1)})"
                 if n == 1 else f"computing {n} orbits")
-        self._submit(f"seeds-{serial}", what, compute, deliver)
+        self._submit(f"seeds-{serial}", what, compute, deliver, hold=False, announce_after=PLACEHOLDER_DELAY)
         return accepted
+
+    def _show_new_orbits(self, out, pts, n, serial, cross, view):
+        """Draw the orbits of one seed request (and take its placeholders away); returns the
+        new records and the refused points with their reasons."""
+        self._pending -= n
+        self._waiting.pop(serial, None)
+        self._show_waiting()
+        if out.error is not None:
+            self._report(out)
+            self._show_count()
+            return [], []
+        batch = out.value
+        if view is not self.view:  # the plane changed meanwhile: these points meant another plane
+            self._show_count()
+            return [], []
+        refused = [(pts[k], why) for k, why in enumerate(batch.reasons) if why]
+        records = []
+        for k, part in enumerate(batch.parts):
+            if part is None:
+                continue
+            rec = self.session.new_record(pts[k], batch.states[k], np.broadcast_to(np.asarray(cross), (n,))[k])
+            self._store_part(rec, part)
+            records.append(rec)
+        if records:
+            previous = self.session.newest
+            self.session.add(records)
+            if previous is None:
+                # the first orbits (often while the page is still building its view from
+                # a fresh copy of the document): set the data whole, which a page cannot
+                # apply twice, where a stream arriving after that copy would be doubled
+                self._draw_all()
+            else:
+                self._draw_added(previous, records)
+        self.last_timing["shown_wall"] = time.time()
+        return records, refused
+
+    def _after_new_orbits(self, out, records, refused, setting):
+        """What follows new orbits once they are on their way to the page: the orbit list,
+        the status line, a recomputation if the setting changed meanwhile, the companion
+        panels and the saved picture."""
+        batch = out.value
+        if records:
+            self._update_pick()
+        if refused:
+            (x, y), why = refused[0]
+            more = f" ({len(refused)} points refused)" if len(refused) > 1 else ""
+            self._say(f"No orbit at ({self._axis_number(x, 0)}, {self._axis_number(y, 1)}): {why}{more}.", refused=True)
+        elif records:
+            self._say(self._orbit_message(records, out.seconds), refused=bool(records[-1].note))
+        if batch.value_error:
+            self._say(f"{self._message} Colour values failed: {batch.value_error}", refused=True)
+        if records and setting != self._setting_key():
+            self._recompute([r.id for r in records])
+        self._show_count()
+        if records:
+            self._update_trace()
+            self._schedule_picture()
 
     def move_seed(self, x, y):
         """Move the newest seed to ``(x, y)`` and recompute its orbit (what a drag does; the

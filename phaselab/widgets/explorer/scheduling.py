@@ -27,27 +27,39 @@ class Scheduling:
     """Requests to the worker threads (newest wins, results delivered as one patch), the
     recomputations after a change, and the status line's text (mixed into :class:`Explorer`)."""
 
-    def _submit(self, key, busy, compute, deliver, delay=0.0, runner=None):
-        """Queue ``compute`` for the worker; ``busy`` says what runs meanwhile; the bokeh
-        changes of ``deliver`` reach the page as one message."""
+    def _submit(self, key, busy, compute, deliver, delay=0.0, runner=None, hold=True, announce_after=0.0):
+        """Queue ``compute`` for the worker; ``busy`` says what runs meanwhile (in the status
+        line at once, or after ``announce_after`` seconds if it is still running: a quick answer
+        then sends the page nothing before its result); the bokeh changes of ``deliver`` reach
+        the page as one message (``hold=False``: ``deliver`` holds its changes itself, in as
+        many patches as it chooses)."""
         if busy:
             self._busy[key] = busy
             self._busy_since.setdefault(key, time.monotonic())
-            self._show_status()
-            self._tick()
+            if announce_after:
+                self._soon(announce_after, lambda: self._announce(key))
+            else:
+                self._announce(key)
 
         def held(out):
             self._busy.pop(key, None)
             self._busy_since.pop(key, None)
             if out.error is not None:
                 self.last_error = out
-            with self._held():
+            if hold:
+                with self._held():
+                    deliver(out)
+            else:
                 deliver(out)
-            if key.startswith("seeds-"):
-                self.last_timing["sent_wall"] = time.time()  # the patch is on its way to the page
             self._show_status()
 
         (runner or self.jobs).submit(key, compute, held, delay=delay)
+
+    def _announce(self, key):
+        """Show in the status line that ``key`` runs, if it still does."""
+        if key in self._busy:
+            self._show_status()
+            self._tick()
 
     def _recompute_all(self, frame=True, what=None, keep_ranges=False):
         n = len(self.session.orbits)
@@ -212,6 +224,13 @@ class Scheduling:
             return
         # the snapshot is taken on the widgets' thread when the quiet spell is over
         self.idle_jobs.submit("picture", lambda: None, lambda out: self._draw_picture(), delay=PICTURE_DELAY)
+
+    def _page_built(self):
+        """A page built its view of the explorer after the first display (a reload, another
+        tab): say, once that page has its view, that the picture saved in that page's notebook
+        no longer follows the explorer (the limit in widgets/page.py)."""
+        if self.picture.handle is not None:
+            self._soon(0.5, lambda: self._say(messages.PAGE_REBUILT, refused=True))
 
     def _draw_picture(self):
         if self.picture.handle is None:
