@@ -152,6 +152,61 @@ def test_selection_in_one_projection_is_reported_by_orbit(ex):
     assert "7 points selected" in ex.controls.selection.value
 
 
+def test_new_orbits_go_to_the_fresh_layer_then_are_folded(springs, monkeypatch):
+    """A new orbit's rows go to the small source drawn on the overlay layer (the big source
+    is not sent again); the slab and a selection act on both, row numbers of the whole
+    table; the fold moves the rows into the big source and the selection keeps its points."""
+    from phaselab.widgets.explorer import linked_commands
+
+    monkeypatch.setattr(linked_commands, "FOLD_DELAY", 600.0)   # no fold during the test
+    e = phaselab.explore(springs, energy=E0, plane=PLANE, crossings=CROSSINGS, background=True)
+    try:
+        f = e.figures
+        assert all(r.level == "overlay" and r.data_source is f.fresh for r in f.fresh_renderers)
+        assert len(f.fresh_renderers) == 7
+        e.add_seeds([(0.3, 0.25), (-0.2, 0.4)], held={"x2": 0.1, "p2": 0.1})
+        _delivered(e, 2)
+        e._fold()
+        big = {k: np.array(v) for k, v in f.points.data.items()}
+        e.set_slab("p2", 0.05, 0.08)
+        e.add_seed(0.1, -0.3)
+        _delivered(e, 3)
+        assert len(f.points.data["orbit"]) == 2 * CROSSINGS and f.n_fresh == CROSSINGS
+        for k, v in big.items():                 # the big source untouched
+            np.testing.assert_array_equal(f.points.data[k], v)
+        # the whole table is the orbits' own points (state column 4 is p2), in order
+        p2 = np.concatenate([o.section.points[0, : o.section.counts[0], 4] for o in e.orbits])
+        np.testing.assert_array_equal(f.table()["c3"], p2)
+        kept = np.flatnonzero(np.abs(p2 - 0.05) < 0.08)     # numpy's slab on the same points
+        n_big = 2 * CROSSINGS
+        np.testing.assert_array_equal(f.slab_filter.indices, kept[kept < n_big])
+        np.testing.assert_array_equal(f.fresh_filter.indices, kept[kept >= n_big] - n_big)
+        assert all(r.view.filter is f.fresh_filter for r in f.fresh_renderers)
+        # a selection over both sources, reported by orbit
+        rows = np.array([5, n_big + 3, n_big + 4])
+        e.select_points(rows)
+        assert e.selection == (3, [e.orbits[0].id, e.orbits[2].id])
+        e._fold()
+        assert f.n_fresh == 0 and len(f.points.data["orbit"]) == 3 * CROSSINGS
+        np.testing.assert_array_equal(f.points.data["c3"], p2)
+        np.testing.assert_array_equal(f.selected_rows(), rows)
+        np.testing.assert_array_equal(f.slab_filter.indices, kept)
+        assert e.selection == (3, [e.orbits[0].id, e.orbits[2].id])
+    finally:
+        e.close()
+
+
+def _delivered(explorer, n_orbits, seconds=120.0):
+    """Deliver the worker's results (no event loop here) until ``n_orbits`` are in."""
+    import time
+
+    end = time.monotonic() + seconds
+    while len(explorer.orbits) < n_orbits and time.monotonic() < end:
+        explorer.jobs.flush()
+        time.sleep(0.02)
+    assert len(explorer.orbits) == n_orbits, explorer.status
+
+
 def test_colour_by_hidden_coordinate_changes_only_the_mapper(ex):
     ex.set_color("p2")
     for r in ex.figures.point_renderers:     # the selected and faded points too
