@@ -195,6 +195,8 @@ class LinkedFigures:
         self.fresh.selected.indices = []
         self.points.data = columns
         if self.n_fresh:
+            # the page applies changes in order: the fresh rows' filter is emptied before them
+            self.fresh_filter.indices = []
             self.fresh.data = _empty_like(columns)
 
     def add_fresh(self, columns, whole=False):
@@ -224,6 +226,7 @@ class LinkedFigures:
             self.points.data = fresh
         else:
             self.points.stream(fresh)
+        self.fresh_filter.indices = []   # before the rows it names go (the page applies in order)
         self.fresh.data = _empty_like(fresh)
 
         @without_property_validation
@@ -252,9 +255,7 @@ class LinkedFigures:
         def assign(big, fresh):
             # int32 arrays made here: bokeh's element-by-element check of them would cost
             # more than the rest of a slab change
-            big = np.ascontiguousarray(big, dtype=np.int32)
-            if not np.array_equal(np.asarray(self.slab_filter.indices), big):   # unchanged: not sent again
-                self.slab_filter.indices = big
+            self.slab_filter.indices = np.ascontiguousarray(big, dtype=np.int32)
             self.fresh_filter.indices = np.ascontiguousarray(fresh, dtype=np.int32)
 
         if rows is None:

@@ -37,6 +37,9 @@ LINKED_JS = """() => { const pl = window.__pl = {};
     for (const s of pl.sources()) { const w = s.data[col];
       for (const r of pl.renderers(s)) for (const i of r.view.filter.indices) worst = Math.max(worst, Math.abs(w[i]) - half); }
     return worst; };
+  pl.slabs = () => pl.sources().map(s => { const f = pl.renderers(s).map(r => r.view.filter);
+    return JSON.stringify([s.name, s.data.orbit.length, s.data.c3.length, f.length, [...new Set(f.map(x => x.name))],
+            [...new Set(f.map(x => x.indices ? x.indices.length + ':' + Math.max(-1, ...x.indices) : null))]]); });
   pl.webgl = () => pl.plots().map(v => v.canvas_view.webgl != null);
   pl.hook = () => {
     pl.paints = new Map();

@@ -43,15 +43,16 @@ def ex(springs):
     e.close()
 
 
-def send_tap(explorer, x, y):
-    """What the page sends for a click at data coordinates (x, y) on the seeding projection."""
+def send_tap(explorer, x, y, name="tap"):
+    """What the page sends for a click at data coordinates (x, y) on the seeding projection
+    (``name="doubletap"``: a click within 300 ms of the previous one)."""
     from bokeh.core.serialization import Serializer
 
     doc = explorer.figures.main.document
     ref = Serializer(references=set(doc.models)).encode(explorer.figures.main)
     values = {"type": "map", "entries": [["model", ref], ["sx", 200.0], ["sy", 150.0], ["x", x], ["y", y]]}
     content = {"event": "jsevent", "kind": "MessageSent", "msg_type": "bokeh_event",
-               "msg_data": {"type": "event", "name": "tap", "values": values}}
+               "msg_data": {"type": "event", "name": name, "values": values}}
     explorer.bokeh._sync_model(explorer.bokeh, content, [])
 
 
@@ -109,6 +110,19 @@ def test_click_seeds_an_orbit_on_the_energy_shell(ex, springs, h_sympy):
         k = ["x1", "x2", "x3", "p1", "p2", "p3"].index(name)
         np.testing.assert_allclose(d[f"c{j}"], ref[:, k], rtol=0, atol=1e-12)
     assert list(ex.figures.seeds.data["x"]) == [0.3] and list(ex.figures.seeds.data["y"]) == [0.25]
+
+
+def test_quick_second_click_elsewhere_is_a_click(ex):
+    """BokehJS reports any click within 300 ms of the previous one as a double tap, wherever
+    it lands (its doubletap_threshold): elsewhere it starts an orbit like a click; on the
+    same spot (a double click) it adds nothing."""
+    ex.clear()
+    ex.set_held(x2=0.0, p2=0.0)
+    send_tap(ex, 0.1, 0.05)
+    send_tap(ex, -0.2, 0.1, name="doubletap")
+    assert [tuple(o.seed) for o in ex.orbits] == [(0.1, 0.05), (-0.2, 0.1)]
+    send_tap(ex, -0.2, 0.1, name="doubletap")
+    assert len(ex.orbits) == 2
 
 
 def test_click_outside_the_shell_is_refused_with_the_reason(ex):
@@ -194,6 +208,23 @@ def test_new_orbits_go_to_the_fresh_layer_then_are_folded(springs, monkeypatch):
         assert e.selection == (3, [e.orbits[0].id, e.orbits[2].id])
     finally:
         e.close()
+
+
+def test_rows_the_page_sends_back_are_not_streamed_twice(ex):
+    """The page sends the kernel's own streamed rows back (jupyter_bokeh): they must not be
+    appended again on the kernel's side (the table would hold an orbit twice)."""
+    from bokeh.core.serialization import Serializer
+
+    ex.clear()
+    ex.add_seeds([(0.3, 0.25)], held={"x2": 0.1, "p2": 0.1})
+    n = ex.figures.n_rows
+    doc = ex.figures.main.document
+    ser = Serializer(references=set(doc.models))
+    echo = {"event": "jsevent", "kind": "ColumnsStreamed", "model": ser.encode(ex.figures.points), "attr": "data",
+            "data": ser.encode({k: list(np.asarray(v)[:5]) for k, v in ex.figures.points.data.items()}),
+            "rollover": None}
+    ex.bokeh._sync_model(ex.bokeh, echo, [])
+    assert ex.figures.n_rows == n == sum(len(o.points) for o in ex.orbits)
 
 
 def _delivered(explorer, n_orbits, seconds=120.0):

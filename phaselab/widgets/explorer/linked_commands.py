@@ -409,7 +409,17 @@ class LinkedCommands:
         if event.x is None or event.y is None:
             return
         self.last_timing["tap_wall"] = time.time()   # wall clock, beside the page's (benchmarks)
+        self._last_tap = (event.x, event.y)
         self.add_seed(event.x, event.y)
+
+    def _on_double_tap(self, event):
+        last, main = self._last_tap, self.figures.main
+        if last is not None and event.x is not None and event.y is not None:
+            dx = abs(main.x_range.end - main.x_range.start)
+            dy = abs(main.y_range.end - main.y_range.start)
+            if abs(event.x - last[0]) <= 0.005 * dx and abs(event.y - last[1]) <= 0.005 * dy:
+                return  # a double click: its first click made the orbit already
+        self._on_tap(event)
 
     def _on_slab_control(self):
         if self._setting_controls:
