@@ -113,7 +113,7 @@ def _top_functions(profile, count=25):
 
 
 def measure(clicks=24, orbits=100, crossings=1000, backend=None, gpu_flags="--disable-gpu", shots=None, fresh=True,
-            profile=False, gl=False):
+            profile=False, gl=False, gap=0.4):
     """Run the page; returns a dict of arrays (ms) per leg and the context of the run."""
     from playwright.sync_api import sync_playwright
 
@@ -167,7 +167,7 @@ def measure(clicks=24, orbits=100, crossings=1000, backend=None, gpu_flags="--di
                 state = page.evaluate("() => [window.__pl.timing(), [...window.__pl.paints.keys()], window.__pl.rows()]")
                 raise RuntimeError(f"click {k}: the points were not drawn; page state {state}, errors {errors}")
             rows.append(page.evaluate("() => window.__pl.timing()"))
-            page.wait_for_timeout(400)
+            page.wait_for_timeout(gap * 1000)
         load.append(os.getloadavg()[0])
         if profile:
             out["profile"] = _top_functions(cdp.send("Profiler.stop")["profile"])
@@ -230,13 +230,15 @@ def main(argv=None):
                     help="new orbits streamed into the big source (the design before the fresh layer)")
     ap.add_argument("--with-gl", action="store_true",
                     help="load BokehJS's WebGL bundle on the page first (the explorer sends only the core)")
+    ap.add_argument("--gap", type=float, default=0.4,
+                    help="seconds between one click's points drawn and the next click")
     ap.add_argument("--profile", action="store_true", help="print the page's busiest functions over the clicks")
     ap.add_argument("--screenshot", default=None, help="write a picture of the explorer after the clicks")
     a = ap.parse_args(argv)
     t0 = time.monotonic()
     out = measure(a.clicks, a.orbits, a.crossings, a.backend, a.gpu_flags, a.screenshot, fresh=not a.one_source,
-                  profile=a.profile, gl=a.with_gl)
-    report(out, f"[{'one source' if a.one_source else 'fresh layer'}, backend {a.backend or 'default'}"
+                  profile=a.profile, gl=a.with_gl, gap=a.gap)
+    report(out, f"[{'one source' if a.one_source else 'fresh layer'}, gap {a.gap} s, backend {a.backend or 'default'}"
                 f"{' + gl bundle' if a.with_gl else ''}, "
                 f"{a.gpu_flags}] ")
     print(f"  (run took {time.monotonic() - t0:.0f} s)")

@@ -3,7 +3,8 @@ tests/widgets/test_linked_browser.py and benchmarks/linked_browser_benchmark.py.
 
 ``window.__pl`` gets: the explorer's BokehJS document, its plot views, screen positions of
 data points, the point sources (the big one and the fresh one) and their renderers, and the
-click timing: ``hook()`` wraps each plot view's paint and listens to the sources and the
+click timing (pointerdown at the event's own time stamp, so a page busy when the pointer
+went down is counted): ``hook()`` wraps each plot view's paint and listens to the sources and the
 websocket; ``arm(n_plots)`` before a click records pointerdown (``down``), the first message
 sent to the kernel (``sent``), the last message received before the new rows (``last``), the
 new rows held by a source (``data``, after the sources' own listeners ran), and the first
@@ -58,7 +59,8 @@ LINKED_JS = """() => { const pl = window.__pl = {};
   };
   pl.arm = (n_plots) => { pl.n0 = pl.rows(); pl.down = null; pl.sent = null; pl.last = null; pl.data = null;
     pl.drawn = null; pl.paint_ms = 0; pl.paints = new Map();
-    document.addEventListener('pointerdown', () => { pl.down = performance.now(); pl.down_wall = Date.now()
+    // the event's own time stamp: when the pointer went down, even if the page was busy then
+    document.addEventListener('pointerdown', (e) => { pl.down = e.timeStamp; pl.down_wall = Date.now()
                                                         - performance.now(); }, {capture: true, once: true});
     const poll = () => { if (pl.data != null && pl.paints.size >= n_plots) {
         requestAnimationFrame(() => { pl.drawn = performance.now(); }); return; }
