@@ -7,6 +7,13 @@ so a box or lasso selection in any projection selects the same rows in all of th
 :class:`~bokeh.models.IndexFilter` shared by every renderer's view: a slab change sends
 the kept row numbers once, not the points.
 
+New orbits' points go first into a small second source (``fresh``) drawn by renderers on
+the overlay level of each projection: a click repaints only that layer of each projection,
+not the 100,000 points already there. The fresh rows are folded into the big source
+later (:meth:`LinkedFigures.fold`, after a quiet spell or when they grow past a limit).
+Row numbers of the whole table run through the big source, then the fresh one: a
+selection and a slab are given and reported in those numbers.
+
 Colour: the orbit's own colour (``shade``), a section coordinate (Froeschle's colouring by
 a hidden coordinate: the mapper's field changes, no data is sent) or a per-orbit value such
 as MEGNO (``value``).
@@ -24,9 +31,14 @@ SEED_FRAME = 400
 #: Width and height of the frames of the projection grid together (px).
 GRID_FRAME = 460
 POINT_SIZE = 2.2
-#: How the page draws the points ("webgl" draws 100,000 points faster where the browser has
-#: a graphics processor; "canvas" where it has none).
-BACKEND = "webgl"
+#: How the page draws the points. The page holds BokehJS's core only (phaselab.widgets.bokehjs:
+#: the WebGL bundle is not sent), so "webgl" drew with the canvas anyway; the canvas it is,
+#: stated here (measured: benchmarks/linked_browser_benchmark.py).
+BACKEND = "canvas"
+
+
+def _empty_like(columns) -> dict:
+    return {k: np.empty(0, np.asarray(v).dtype) for k, v in columns.items()}
 
 
 def _style(fig, xlabel, ylabel):
@@ -80,7 +92,10 @@ class LinkedFigures:
         k = len(labels)
         self.labels = tuple(labels)
         self.points = ColumnDataSource(empty_columns(k), name="phaselab-linked-points")
+        self.fresh = ColumnDataSource(empty_columns(k), name="phaselab-linked-fresh")
         self.slab_filter = IndexFilter(indices=[], name="phaselab-slab")
+        self.fresh_filter = IndexFilter(indices=[], name="phaselab-slab-fresh")
+        self.fresh_renderers = []
         self.all_rows = AllIndices()
         n = len(theme.ORBIT_COLORS)
         self.orbit_mapper = LinearColorMapper(palette=list(theme.ORBIT_COLORS), low=-0.5, high=n - 0.5)
@@ -103,11 +118,15 @@ class LinkedFigures:
             return self.ranges[j]
 
         def scatter(fig, i, j):
-            r = fig.scatter(column_name(i), column_name(j), source=self.points, size=POINT_SIZE,
-                            fill_color={"field": "shade", "transform": self.orbit_mapper}, line_color=None,
-                            fill_alpha=0.85, view=CDSView(filter=self.all_rows),
-                            nonselection_fill_alpha=0.08, selection_fill_alpha=1.0)
+            style = dict(size=POINT_SIZE, fill_color={"field": "shade", "transform": self.orbit_mapper},
+                         line_color=None, fill_alpha=0.85, nonselection_fill_alpha=0.08, selection_fill_alpha=1.0)
+            r = fig.scatter(column_name(i), column_name(j), source=self.points, view=CDSView(filter=self.all_rows),
+                            **style)
+            # the new orbits' points, on the overlay layer: drawing them leaves the big layer as it is
+            f = fig.scatter(column_name(i), column_name(j), source=self.fresh, view=CDSView(filter=self.all_rows),
+                            level="overlay", **style)
             self.point_renderers.append(r)
+            self.fresh_renderers.append(f)
             return r
 
         a, b = pair
@@ -118,7 +137,7 @@ class LinkedFigures:
         scatter(main, a, b)
         self.seeds = ColumnDataSource(dict(x=[], y=[], color=[], orbit=[]), name="phaselab-linked-seeds")
         main.scatter("x", "y", source=self.seeds, size=8, marker="circle", fill_color="#ffffff",
-                     line_color="color", line_width=2.0)
+                     line_color="color", line_width=2.0, level="overlay")
         self.main = main
 
         side = max(70, int(GRID_FRAME / max(k - 1, 1)))
@@ -153,37 +172,103 @@ class LinkedFigures:
         self.layout = row(main, grid, spacing=12)
 
     # ------------------------------------------------------------------ drawing
+    @property
+    def n_rows(self) -> int:
+        """Rows of the whole table (big source, then fresh)."""
+        return len(self.points.data["orbit"]) + len(self.fresh.data["orbit"])
+
+    @property
+    def n_fresh(self) -> int:
+        return len(self.fresh.data["orbit"])
+
+    def table(self) -> dict:
+        """Every column of the whole table (big source rows, then fresh rows), numpy arrays."""
+        big, fresh = self.points.data, self.fresh.data
+        if not len(fresh["orbit"]):
+            return {k: np.asarray(v) for k, v in big.items()}
+        return {k: np.concatenate([np.asarray(big[k]), np.asarray(fresh[k])]) for k in big}
+
     def set_points(self, columns):
-        """Replace every point (numbers only: binary on the wire). The selection is cleared
-        (its row numbers would name other points)."""
+        """Replace every point (numbers only: binary on the wire); the fresh source is
+        emptied. The selection is cleared (its row numbers would name other points)."""
         self.points.selected.indices = []
+        self.fresh.selected.indices = []
         self.points.data = columns
+        if self.n_fresh:
+            # the page applies changes in order: the fresh rows' filter is emptied before them
+            self.fresh_filter.indices = []
+            self.fresh.data = _empty_like(columns)
 
-    def append_points(self, columns):
-        """Add rows at the end (streamed: only the new rows are sent)."""
-        if len(self.points.data["orbit"]) == 0:
-            self.points.data = columns
+    def add_fresh(self, columns, whole=False):
+        """New rows at the end of the table, into the fresh source (streamed: only the new
+        rows are sent; the page repaints the overlay layer only). ``whole``: the fresh
+        source is sent whole instead (with the slab on: streamed rows would escape its
+        filter in the page)."""
+        if self.n_fresh == 0:
+            self.fresh.data = columns
+        elif whole:
+            old = self.fresh.data
+            self.fresh.data = {k: np.concatenate([np.asarray(old[k]), np.asarray(columns[k])]) for k in old}
         else:
-            self.points.stream(columns)
+            self.fresh.stream(columns)
 
-    def set_slab_rows(self, rows):
-        """Show only ``rows`` (int array) in every projection; None shows every row."""
+    def fold(self):
+        """The fresh rows appended to the big source (streamed), the fresh source emptied;
+        the selection keeps naming the same points."""
         from bokeh.core.property.validation import without_property_validation
 
+        if not self.n_fresh:
+            return
+        n_big = len(self.points.data["orbit"])
+        picked = self.selected_rows()
+        fresh = {k: np.asarray(v) for k, v in self.fresh.data.items()}
+        if n_big == 0:
+            self.points.data = fresh
+        else:
+            self.points.stream(fresh)
+        self.fresh_filter.indices = []   # before the rows it names go (the page applies in order)
+        self.fresh.data = _empty_like(fresh)
+
         @without_property_validation
-        def assign():
-            # an int32 array made here: bokeh's element-by-element check of it would cost
+        def assign():   # whole numbers in range, from the page's own selections
+            self.fresh.selected.indices = []
+            if picked.size:
+                self.points.selected.indices = picked.astype(np.int32)
+
+        assign()
+
+    def selected_rows(self) -> np.ndarray:
+        """Rows of the whole table selected in the page, int64 ascending."""
+        n_big = len(self.points.data["orbit"])
+        a = np.asarray(self.points.selected.indices, dtype=np.int64)
+        b = np.asarray(self.fresh.selected.indices, dtype=np.int64) + n_big
+        return np.unique(np.concatenate([a, b]))
+
+    def set_slab_rows(self, rows):
+        """Show only ``rows`` (int array, rows of the whole table) in every projection; None
+        shows every row."""
+        from bokeh.core.property.validation import without_property_validation
+
+        n_big = len(self.points.data["orbit"])
+
+        @without_property_validation
+        def assign(big, fresh):
+            # int32 arrays made here: bokeh's element-by-element check of them would cost
             # more than the rest of a slab change
-            self.slab_filter.indices = np.ascontiguousarray(rows, dtype=np.int32)
+            self.slab_filter.indices = np.ascontiguousarray(big, dtype=np.int32)
+            self.fresh_filter.indices = np.ascontiguousarray(fresh, dtype=np.int32)
 
         if rows is None:
-            target = self.all_rows
+            targets = (self.all_rows, self.all_rows)
         else:
-            assign()
-            target = self.slab_filter
-        for r in self.point_renderers:
-            if r.view.filter is not target:
-                r.view.filter = target
+            rows = np.asarray(rows, dtype=np.int64)
+            cut = np.searchsorted(rows, n_big)
+            assign(rows[:cut], rows[cut:] - n_big)
+            targets = (self.slab_filter, self.fresh_filter)
+        for group, target in zip((self.point_renderers, self.fresh_renderers), targets):
+            for r in group:
+                if r.view.filter is not target:
+                    r.view.filter = target
 
     def color_by_orbit(self):
         self._fill({"field": "shade", "transform": self.orbit_mapper})
@@ -199,7 +284,7 @@ class LinkedFigures:
 
     def _fill(self, spec):
         # the selected and the faded points are drawn by glyphs of their own
-        for r in self.point_renderers:
+        for r in self.point_renderers + self.fresh_renderers:
             for g in (r.glyph, r.selection_glyph, r.nonselection_glyph):
                 if hasattr(g, "fill_color"):
                     g.fill_color = spec

@@ -4,8 +4,10 @@ A box or lasso in one projection selects rows of the shared source in the page, 
 page sends the selected row numbers to the kernel. jupyter_bokeh checks such a list number
 by number against the property's type and walks it for models: half a second for 50,000
 rows. The row numbers of the points source's selection are taken here as one integer array
-instead (the same value, set by the same descriptor, observers called as usual); every
-other message goes the ordinary way.
+instead (the same value, set by the same descriptor, observers called as usual). The page
+also sends back the rows the kernel streamed to it: they are dropped (the page edits no data
+of the explorer; applied, they doubled the streamed rows on the kernel's side). Every other
+message goes the ordinary way.
 """
 
 from __future__ import annotations
@@ -31,6 +33,11 @@ class LinkedBokehModel(LiveBokehModel):
         super().__init__(model, **kwargs)
 
     def _sync_model(self, _model, content, _buffers):
+        if isinstance(content, dict) and content.get("event") == "jsevent" and \
+                content.get("kind") in ("ColumnsStreamed", "ColumnsPatched"):
+            # the page sends the kernel's own streams back (it edits no data itself):
+            # applied again they would double the streamed rows in Python
+            return
         rows = self._selected_rows(content)
         if rows is None:
             super()._sync_model(_model, content, _buffers)

@@ -72,6 +72,7 @@ class JobRunner:
         self._pending: dict[str, _Job] = {}
         self._running = 0
         self._delivered: list[tuple[Callable, Outcome]] = []
+        self._posted: list[Callable[[], None]] = []   # handed to a loop, not yet applied
         self._serial = 0
         self._thread: threading.Thread | None = None
         self._closed = False
@@ -163,15 +164,22 @@ class JobRunner:
         loop = job.loop
         if loop is not None and not loop.is_closed():
             def apply():
+                with self._cond:   # once: by the loop, or by wait() blocking the loop's thread
+                    if apply not in self._posted:
+                        return
+                    self._posted.remove(apply)
                 try:
                     job.deliver(outcome)
                 finally:
                     self._finish()
+            with self._cond:
+                self._posted.append(apply)
             try:
                 loop.call_soon_threadsafe(apply)
                 return
             except RuntimeError:  # loop closed meanwhile
-                pass
+                with self._cond:
+                    self._posted.remove(apply)
         with self._cond:
             self._delivered.append((job.deliver, outcome))
             self._running -= 1
@@ -194,12 +202,19 @@ class JobRunner:
     def wait(self, timeout: float = 30.0) -> bool:
         """Block until no request is waiting or running, delivering results; ``False`` on timeout.
 
-        Meant for scripts and tests without a running event loop: results addressed to a
-        loop are delivered only when that loop runs.
+        Meant for scripts and tests. Called on the thread of a running event loop (a
+        notebook cell), it blocks that loop: the results addressed to it are delivered here
+        instead (else they would wait for the loop, and this for them, until the timeout).
         """
         end = time.monotonic() + timeout
+        on_loop = current_loop() is not None
         while True:
             self.flush()
+            if on_loop:
+                with self._cond:
+                    posted = list(self._posted)
+                for apply in posted:
+                    apply()
             with self._cond:
                 idle = not self._pending and self._running == 0 and not self._delivered
                 if idle:

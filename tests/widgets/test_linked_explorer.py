@@ -43,15 +43,16 @@ def ex(springs):
     e.close()
 
 
-def send_tap(explorer, x, y):
-    """What the page sends for a click at data coordinates (x, y) on the seeding projection."""
+def send_tap(explorer, x, y, name="tap"):
+    """What the page sends for a click at data coordinates (x, y) on the seeding projection
+    (``name="doubletap"``: a click within 300 ms of the previous one)."""
     from bokeh.core.serialization import Serializer
 
     doc = explorer.figures.main.document
     ref = Serializer(references=set(doc.models)).encode(explorer.figures.main)
     values = {"type": "map", "entries": [["model", ref], ["sx", 200.0], ["sy", 150.0], ["x", x], ["y", y]]}
     content = {"event": "jsevent", "kind": "MessageSent", "msg_type": "bokeh_event",
-               "msg_data": {"type": "event", "name": "tap", "values": values}}
+               "msg_data": {"type": "event", "name": name, "values": values}}
     explorer.bokeh._sync_model(explorer.bokeh, content, [])
 
 
@@ -111,6 +112,19 @@ def test_click_seeds_an_orbit_on_the_energy_shell(ex, springs, h_sympy):
     assert list(ex.figures.seeds.data["x"]) == [0.3] and list(ex.figures.seeds.data["y"]) == [0.25]
 
 
+def test_quick_second_click_elsewhere_is_a_click(ex):
+    """BokehJS reports any click within 300 ms of the previous one as a double tap, wherever
+    it lands (its doubletap_threshold): elsewhere it starts an orbit like a click; on the
+    same spot (a double click) it adds nothing."""
+    ex.clear()
+    ex.set_held(x2=0.0, p2=0.0)
+    send_tap(ex, 0.1, 0.05)
+    send_tap(ex, -0.2, 0.1, name="doubletap")
+    assert [tuple(o.seed) for o in ex.orbits] == [(0.1, 0.05), (-0.2, 0.1)]
+    send_tap(ex, -0.2, 0.1, name="doubletap")
+    assert len(ex.orbits) == 2
+
+
 def test_click_outside_the_shell_is_refused_with_the_reason(ex):
     n = len(ex.orbits)
     ex.set_held(x2=0.0, p2=0.0)
@@ -150,6 +164,78 @@ def test_selection_in_one_projection_is_reported_by_orbit(ex):
     ex.select_points(rows)
     assert ex.selection == (7, [ex.orbits[1].id])
     assert "7 points selected" in ex.controls.selection.value
+
+
+def test_new_orbits_go_to_the_fresh_layer_then_are_folded(springs, monkeypatch):
+    """A new orbit's rows go to the small source drawn on the overlay layer (the big source
+    is not sent again); the slab and a selection act on both, row numbers of the whole
+    table; the fold moves the rows into the big source and the selection keeps its points."""
+    from phaselab.widgets.explorer import linked_commands
+
+    monkeypatch.setattr(linked_commands, "FOLD_DELAY", 600.0)   # no fold during the test
+    e = phaselab.explore(springs, energy=E0, plane=PLANE, crossings=CROSSINGS, background=True)
+    try:
+        f = e.figures
+        assert all(r.level == "overlay" and r.data_source is f.fresh for r in f.fresh_renderers)
+        assert len(f.fresh_renderers) == 7
+        e.add_seeds([(0.3, 0.25), (-0.2, 0.4)], held={"x2": 0.1, "p2": 0.1})
+        _delivered(e, 2)
+        e._fold()
+        big = {k: np.array(v) for k, v in f.points.data.items()}
+        e.set_slab("p2", 0.05, 0.08)
+        e.add_seed(0.1, -0.3)
+        _delivered(e, 3)
+        assert len(f.points.data["orbit"]) == 2 * CROSSINGS and f.n_fresh == CROSSINGS
+        for k, v in big.items():                 # the big source untouched
+            np.testing.assert_array_equal(f.points.data[k], v)
+        # the whole table is the orbits' own points (state column 4 is p2), in order
+        p2 = np.concatenate([o.section.points[0, : o.section.counts[0], 4] for o in e.orbits])
+        np.testing.assert_array_equal(f.table()["c3"], p2)
+        kept = np.flatnonzero(np.abs(p2 - 0.05) < 0.08)     # numpy's slab on the same points
+        n_big = 2 * CROSSINGS
+        np.testing.assert_array_equal(f.slab_filter.indices, kept[kept < n_big])
+        np.testing.assert_array_equal(f.fresh_filter.indices, kept[kept >= n_big] - n_big)
+        assert all(r.view.filter is f.fresh_filter for r in f.fresh_renderers)
+        # a selection over both sources, reported by orbit
+        rows = np.array([5, n_big + 3, n_big + 4])
+        e.select_points(rows)
+        assert e.selection == (3, [e.orbits[0].id, e.orbits[2].id])
+        e._fold()
+        assert f.n_fresh == 0 and len(f.points.data["orbit"]) == 3 * CROSSINGS
+        np.testing.assert_array_equal(f.points.data["c3"], p2)
+        np.testing.assert_array_equal(f.selected_rows(), rows)
+        np.testing.assert_array_equal(f.slab_filter.indices, kept)
+        assert e.selection == (3, [e.orbits[0].id, e.orbits[2].id])
+    finally:
+        e.close()
+
+
+def test_rows_the_page_sends_back_are_not_streamed_twice(ex):
+    """The page sends the kernel's own streamed rows back (jupyter_bokeh): they must not be
+    appended again on the kernel's side (the table would hold an orbit twice)."""
+    from bokeh.core.serialization import Serializer
+
+    ex.clear()
+    ex.add_seeds([(0.3, 0.25)], held={"x2": 0.1, "p2": 0.1})
+    n = ex.figures.n_rows
+    doc = ex.figures.main.document
+    ser = Serializer(references=set(doc.models))
+    echo = {"event": "jsevent", "kind": "ColumnsStreamed", "model": ser.encode(ex.figures.points), "attr": "data",
+            "data": ser.encode({k: list(np.asarray(v)[:5]) for k, v in ex.figures.points.data.items()}),
+            "rollover": None}
+    ex.bokeh._sync_model(ex.bokeh, echo, [])
+    assert ex.figures.n_rows == n == sum(len(o.points) for o in ex.orbits)
+
+
+def _delivered(explorer, n_orbits, seconds=120.0):
+    """Deliver the worker's results (no event loop here) until ``n_orbits`` are in."""
+    import time
+
+    end = time.monotonic() + seconds
+    while len(explorer.orbits) < n_orbits and time.monotonic() < end:
+        explorer.jobs.flush()
+        time.sleep(0.02)
+    assert len(explorer.orbits) == n_orbits, explorer.status
 
 
 def test_colour_by_hidden_coordinate_changes_only_the_mapper(ex):

@@ -114,6 +114,7 @@ class LinkedExplorer(LinkedCommands, LinkedFiles, W.VBox):
         self._pending = 0
         self._setting_controls = False
         self._uid = secrets.token_hex(6)
+        self._last_tap = None
 
         self.view.fit_ranges(energy, p0)
         coords = self.view.coordinates
@@ -180,10 +181,14 @@ class LinkedExplorer(LinkedCommands, LinkedFiles, W.VBox):
         c.color.value = ""
 
     def _wire_figures(self):
-        from bokeh.events import Tap
+        from bokeh.events import DoubleTap, Tap
 
         self.figures.main.on_event(Tap, self._on_tap)
+        # the page calls a second click within 300 ms a double tap, wherever it lands: it is
+        # a click too (unless it repeats the last one on the same spot)
+        self.figures.main.on_event(DoubleTap, self._on_double_tap)
         self.figures.points.selected.on_change("indices", self._on_selection)
+        self.figures.fresh.selected.on_change("indices", self._on_selection)
 
     def _wire(self):
         c = self.controls

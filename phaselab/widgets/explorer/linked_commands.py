@@ -15,6 +15,17 @@ from phaselab.widgets import computations, scales, theme
 from phaselab.widgets.linked_points import Slab, column_name, point_columns, selection_summary
 from phaselab.widgets.worker import Outcome
 
+#: Seconds without a new orbit after which the fresh points are folded into the big source
+#: (the page then draws every point again: longer than the usual gap between clicks).
+FOLD_DELAY = 3.0
+#: Fresh rows past which they are folded at once (the fresh layer is drawn on every click;
+#: a fold has the page draw every point again, seconds at 100,000 points without a graphics
+#: processor: measured, 3,000 made every tenth click of a quick run wait 5 s).
+FRESH_LIMIT = 10_000
+#: New orbits go to the fresh layer (False: streamed into the big source, the design
+#: before; kept for the browser benchmark's comparison).
+FRESH_LAYER = True
+
 
 class LinkedCommands:
     """Public commands and the handlers of clicks, selections and controls."""
@@ -239,17 +250,26 @@ class LinkedCommands:
     def _apply_slab(self):
         t0 = time.perf_counter()
         with self._patch():
-            if self.slab is None:
-                self.figures.set_slab_rows(None)
-            else:
-                self.figures.set_slab_rows(np.flatnonzero(self.slab.mask(self.figures.points.data)))
+            self.figures.set_slab_rows(self._slab_rows())
         self.last_timing["slab"] = time.perf_counter() - t0
         self._show_count()
 
+    def _slab_rows(self):
+        """Rows of the whole table inside the slab, or None without a slab."""
+        if self.slab is None:
+            return None
+        return np.flatnonzero(self.slab.mask({column_name(self.slab.index): self._column(self.slab.index)}))
+
+    def _column(self, j):
+        """Section coordinate ``j`` over the whole table (big source, then fresh), (n_rows,)."""
+        f = self.figures
+        big, fresh = np.asarray(f.points.data[column_name(j)]), np.asarray(f.fresh.data[column_name(j)])
+        return np.concatenate([big, fresh]) if len(fresh) else big
+
     def shown_rows(self) -> np.ndarray:
-        """Row numbers of the points shown (inside the slab, or all)."""
-        n = len(self.figures.points.data["orbit"])
-        return np.arange(n) if self.slab is None else np.flatnonzero(self.slab.mask(self.figures.points.data))
+        """Row numbers of the points shown (inside the slab, or all), rows of the whole table."""
+        rows = self._slab_rows()
+        return np.arange(self.figures.n_rows) if rows is None else rows
 
     # ------------------------------------------------------------------ selection
     def select_points(self, rows):
@@ -257,19 +277,24 @@ class LinkedCommands:
         from bokeh.core.property.validation import without_property_validation
 
         rows = np.asarray(rows)
-        n = len(self.figures.points.data["orbit"])
+        f = self.figures
+        n, n_big = f.n_rows, len(f.points.data["orbit"])
         if rows.ndim != 1 or (rows.size and (rows.dtype.kind not in "iu" or rows.min() < 0 or rows.max() >= n)):
             raise ParameterError(f"rows must be whole numbers from 0 to {n - 1}, got {rows!r:.80}")
 
         @without_property_validation
         def assign():   # whole numbers in range, checked above
-            self.figures.points.selected.indices = rows.astype(np.int32)
+            f.points.selected.indices = rows[rows < n_big].astype(np.int32)
+            f.fresh.selected.indices = (rows[rows >= n_big] - n_big).astype(np.int32)
 
-        assign()
+        with self._patch():
+            assign()
 
     def _on_selection(self, attr, old, new):
         t0 = time.perf_counter()
-        self.selection = selection_summary(self.figures.points.data, new)
+        f = self.figures
+        orbit = np.concatenate([np.asarray(f.points.data["orbit"]), np.asarray(f.fresh.data["orbit"])])
+        self.selection = selection_summary({"orbit": orbit}, f.selected_rows())
         n, ids = self.selection
         words = ", ".join(map(str, ids[:12])) + (" ..." if len(ids) > 12 else "")
         self.controls.selection.value = (f"<span class='pl-sub'>{n} points selected, orbits {words}</span>"
@@ -305,23 +330,51 @@ class LinkedCommands:
                 doc.unhold()
 
     def _redraw(self):
-        """Every orbit's points into the one source, the slab and the seed marks."""
+        """Every orbit's points into the big source (the fresh one emptied), the slab and the
+        seed marks."""
         t0 = time.perf_counter()
         shown = self.session.shown()
+        self.jobs.cancel("fold")
         with self._patch():
             self.figures.set_points(point_columns(shown, len(self.view.coordinates), len(theme.ORBIT_COLORS)))
-            a, b = self._pair
-            self.figures.show_seeds([self._seed_of[r.id][a] for r in shown], [self._seed_of[r.id][b] for r in shown],
-                                    [r.color for r in shown], [r.id for r in shown])
+            self._show_seed_marks()
             if self.slab is not None:
-                self.figures.set_slab_rows(np.flatnonzero(self.slab.mask(self.figures.points.data)))
+                self.figures.set_slab_rows(self._slab_rows())
         self.last_timing["columns"] = time.perf_counter() - t0
         self._show_count()
 
+    def _show_seed_marks(self):
+        a, b = self._pair
+        every = self.session.shown()
+        self.figures.show_seeds([self._seed_of[r.id][a] for r in every], [self._seed_of[r.id][b] for r in every],
+                                [r.color for r in every], [r.id for r in every])
+
     def _append(self, records):
-        """New orbits' points appended to the source: only their rows travel to the page
-        (the shown points stay, and so does the selection's meaning). With the slab on every
-        point is sent again: the page kept streamed rows outside the slab's filter in view."""
+        """New orbits' points into the fresh source: only their rows travel to the page, and
+        the page repaints only the layer of the fresh points (the shown points stay, and so
+        does the selection's meaning). The fresh rows are folded into the big source after
+        FOLD_DELAY seconds without a new orbit, or at once past FRESH_LIMIT rows."""
+        if not FRESH_LAYER:
+            self._append_to_big(records)
+            return
+        t0 = time.perf_counter()
+        shown = [r for r in records if r.shown]
+        with self._patch():
+            if shown:
+                self.figures.add_fresh(point_columns(shown, len(self.view.coordinates), len(theme.ORBIT_COLORS)),
+                                       whole=self.slab is not None)
+                if self.slab is not None:
+                    self.figures.set_slab_rows(self._slab_rows())
+            self._show_seed_marks()
+        self.last_timing["columns"] = time.perf_counter() - t0
+        self._show_count()
+        if self.figures.n_fresh:
+            delay = 0.0 if self.figures.n_fresh > FRESH_LIMIT else FOLD_DELAY
+            self.jobs.submit("fold", lambda: None, lambda out: self._fold(), delay=delay)
+
+    def _append_to_big(self, records):
+        """The design measured before the fresh layer (benchmarks): new rows streamed into
+        the big source (all of it sent again with the slab on)."""
         if self.slab is not None:
             self._redraw()
             return
@@ -329,20 +382,46 @@ class LinkedCommands:
         shown = [r for r in records if r.shown]
         with self._patch():
             if shown:
-                self.figures.append_points(point_columns(shown, len(self.view.coordinates),
-                                                         len(theme.ORBIT_COLORS)))
-            a, b = self._pair
-            every = self.session.shown()
-            self.figures.show_seeds([self._seed_of[r.id][a] for r in every], [self._seed_of[r.id][b] for r in every],
-                                    [r.color for r in every], [r.id for r in every])
+                cols = point_columns(shown, len(self.view.coordinates), len(theme.ORBIT_COLORS))
+                if len(self.figures.points.data["orbit"]) == 0:
+                    self.figures.points.data = cols
+                else:
+                    self.figures.points.stream(cols)
+            self._show_seed_marks()
         self.last_timing["columns"] = time.perf_counter() - t0
         self._show_count()
+
+    def _fold(self):
+        """The fresh rows into the big source (with the slab on, every point sent again)."""
+        if not self.figures.n_fresh:
+            return
+        t0 = time.perf_counter()
+        if self.slab is not None:
+            picked = self.figures.selected_rows()
+            self._redraw()
+            if picked.size:
+                self.select_points(picked)
+        else:
+            with self._patch():
+                self.figures.fold()
+        self.last_timing["fold"] = time.perf_counter() - t0
 
     # ------------------------------------------------------------------ handlers
     def _on_tap(self, event):
         if event.x is None or event.y is None:
             return
+        self.last_timing["tap_wall"] = time.time()   # wall clock, beside the page's (benchmarks)
+        self._last_tap = (event.x, event.y)
         self.add_seed(event.x, event.y)
+
+    def _on_double_tap(self, event):
+        last, main = self._last_tap, self.figures.main
+        if last is not None and event.x is not None and event.y is not None:
+            dx = abs(main.x_range.end - main.x_range.start)
+            dy = abs(main.y_range.end - main.y_range.start)
+            if abs(event.x - last[0]) <= 0.005 * dx and abs(event.y - last[1]) <= 0.005 * dy:
+                return  # a double click: its first click made the orbit already
+        self._on_tap(event)
 
     def _on_slab_control(self):
         if self._setting_controls:
