@@ -174,6 +174,8 @@ def _run_workers(groups, workers, report, done) -> None:
     path = os.environ.get("PYTHONPATH")
     env = dict(os.environ, PHASELAB_CACHE_DIR=str(cache_dir()), PHASELAB_LOOPS="generic",
                PHASELAB_BACKGROUND_WARM="0", PYTHONPATH=here + (os.pathsep + path if path else ""))
+    for name in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
+        env.setdefault(name, "1")       # the workers share the cores: no linear-algebra threads each
 
     def record(name, answer):
         if "seconds" in answer and answer.get("name") == name:
