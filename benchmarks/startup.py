@@ -1,12 +1,14 @@
 """Time to the first answer: a new system from ``import phaselab`` in a fresh process.
 
 Run:  python benchmarks/startup.py [--repeat N] [--skip-machine-cold]
-      python benchmarks/startup.py --cold     (only the empty-cache figures, one run)
+      python benchmarks/startup.py --cold [--compare-workers]    (only the empty-cache figures, one run)
 
 ``--cold`` prints, for a new 2-dof polynomial system in a fresh process with an empty kernel
 cache, the first section, chaos indicators, trajectory, periodic orbit on a plane and
-frequencies (each with its share of compiling), then ``phaselab warm``'s seconds per path in
-another fresh process with another empty cache.
+frequencies (each with its share of compiling), the explorer's first click alone in another
+fresh process with an empty cache, then ``phaselab warm`` (its worker count, wall time and
+seconds per path) with another empty cache; ``--compare-workers`` adds ``phaselab warm
+--workers 1``. The load average is printed beside each figure.
 
 For each system (Henon-Heiles from the catalogue, a new string Hamiltonian that no cache
 has seen, the FPUT chain with n = 10) a fresh Python process imports phaselab and times its
@@ -91,6 +93,21 @@ def timed(name, fn):
     out[name] = time.perf_counter() - t
     out[name + " compiling"] = compile_seconds[0] - c0
 
+if "--click-only" in sys.argv:      # the explorer's first click, alone in a fresh process
+    box = {}
+    timed("explorer open", lambda: box.setdefault("ex", phaselab.explore(H, energy=E, plane=plane,
+                                                                         solve_for=solve, crossings=300)))
+    ex = box["ex"]
+
+    def drawn():                    # the clicked orbit's crossings computed and drawn
+        ex.add_seed(0.05, 0.01)
+        while ex.jobs.wait(300) and ex.jobs.busy:
+            pass
+
+    timed("explorer first click", drawn)
+    timed("explorer click's trace and frequencies", lambda: ex.wait(300))
+    print(json.dumps(out))
+    sys.exit(0)
 timed("section", lambda: phaselab.section(H, seeds, 300, plane=plane))
 timed("chaos indicators", lambda: phaselab.chaos_indicators(H, seeds.valid_states(), 200.0))
 timed("trajectory", lambda: phaselab.trajectory(H, seeds.valid_states(), 100.0))
@@ -138,27 +155,42 @@ def median(rows, key):
     return statistics.median(values) if values else float("nan")
 
 
-def cold(base):
-    """The empty-cache figures: five first calls of a new system, then ``phaselab warm``."""
-    print(f"{os.cpu_count()} cores; load average {os.getloadavg()[0]:.2f}")
+def cold(base, compare_workers=False):
+    """The empty-cache figures: five first calls of a new system, the explorer's first click
+    (alone, in another fresh process), then ``phaselab warm`` (default workers; with
+    ``compare_workers`` also one worker), each with the load average beside it."""
+    print(f"{os.cpu_count()} cores")
     empty = tempfile.mkdtemp(prefix="phaselab-empty-")
     tag = "1." + uuid.uuid4().hex[:6].translate(str.maketrans("abcdef", "123456"))
-    t0 = time.perf_counter()
+    t0, load = time.perf_counter(), os.getloadavg()[0]
     out = child(dict(base, PHASELAB_CACHE_DIR=empty, PHASELAB_LOOPS="generic"), "string", tag, "--cold")
     print(f"empty cache, fresh process, new system (import {out['import']:.2f} s, "
-          f"process {time.perf_counter() - t0:.1f} s):")
+          f"process {time.perf_counter() - t0:.1f} s, load average {load:.2f} -> {os.getloadavg()[0]:.2f}):")
     for c in COLD_CALLS:
         print(f"  {c:28s} {out[c]:7.2f} s  ({out[c + ' compiling']:6.2f} s compiling)")
     shutil.rmtree(empty, ignore_errors=True)
     empty = tempfile.mkdtemp(prefix="phaselab-empty-")
-    t0 = time.perf_counter()
-    res = subprocess.run([sys.executable, "-m", "phaselab.cli", "warm"], env=dict(base, PHASELAB_CACHE_DIR=empty),
-                         capture_output=True, text=True, timeout=3600)
-    print(f"phaselab warm, empty cache: {time.perf_counter() - t0:.1f} s of wall time")
-    print(res.stdout.rstrip())
-    if res.returncode != 0:
-        print(res.stderr[-3000:])
+    load = os.getloadavg()[0]
+    out = child(dict(base, PHASELAB_CACHE_DIR=empty, PHASELAB_LOOPS="generic"),
+                "string", tag, "--click-only")
+    print(f"explorer on an empty cache, fresh process (load average {load:.2f} -> {os.getloadavg()[0]:.2f}):")
+    for c in ("explorer open", "explorer first click", "explorer click's trace and frequencies"):
+        print(f"  {c:28s} {out[c]:7.2f} s  ({out[c + ' compiling']:6.2f} s compiling)")
     shutil.rmtree(empty, ignore_errors=True)
+    for workers in ([None, 1] if compare_workers else [None]):
+        empty = tempfile.mkdtemp(prefix="phaselab-empty-")
+        extra = [] if workers is None else ["--workers", str(workers)]
+        t0, load = time.perf_counter(), os.getloadavg()[0]
+        res = subprocess.run([sys.executable, "-m", "phaselab.cli", "warm", *extra],
+                             env=dict(base, PHASELAB_CACHE_DIR=empty), capture_output=True, text=True, timeout=3600)
+        lines = res.stdout.rstrip().splitlines()
+        said = "default" if workers is None else str(workers)
+        print(f"phaselab warm, empty cache, workers {said}: {time.perf_counter() - t0:.1f} s of wall time "
+              f"(load average {load:.2f} -> {os.getloadavg()[0]:.2f})")
+        print("\n".join(lines))
+        if res.returncode != 0:
+            print(res.stderr[-3000:])
+        shutil.rmtree(empty, ignore_errors=True)
 
 
 def main():
@@ -166,10 +198,12 @@ def main():
     ap.add_argument("--repeat", type=int, default=3)
     ap.add_argument("--skip-machine-cold", action="store_true")
     ap.add_argument("--cold", action="store_true", help="only the empty-cache figures, one run")
+    ap.add_argument("--compare-workers", action="store_true",
+                    help="with --cold: phaselab warm also on one worker, for comparison")
     args = ap.parse_args()
     base = dict(os.environ, PHASELAB_QUIET="1")
     if args.cold:
-        cold(base)
+        cold(base, compare_workers=args.compare_workers)
         return
     shared = tempfile.mkdtemp(prefix="phaselab-startup-")
     print(f"cache folder: {shared}; {os.cpu_count()} cores; load average {os.getloadavg()[0]:.2f}")

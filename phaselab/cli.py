@@ -26,6 +26,7 @@ import argparse
 import io
 import os
 import sys
+import time
 from pathlib import Path
 
 from phaselab.errors import ModelError, PhaselabError, StudyFileError
@@ -264,12 +265,15 @@ def cmd_keys(args) -> int:
 def cmd_warm(args) -> int:
     """Compile the generic loops once for this machine (or find them in the kernel cache)."""
     from phaselab.codegen.cache import cache_dir
+    from phaselab.engine import inputs
     from phaselab.engine.warm import warm
 
-    print(f"preparing phaselab's shared loops in {cache_dir()}: compiled once per machine (a few "
-          "minutes on two cores), loaded from there afterwards")
-    report = warm(verbose=True)
-    print(f"done: {len(report)} paths in {sum(report.values()):.1f} s")
+    workers = inputs.workers(args.workers)
+    print(f"preparing phaselab's shared loops in {cache_dir()}: compiled once per machine (about half "
+          f"a minute on two cores; {workers} worker{'s' if workers > 1 else ''}), loaded from there afterwards")
+    t0 = time.perf_counter()
+    report = warm(verbose=True, workers=workers)
+    print(f"done: {len(report)} paths in {time.perf_counter() - t0:.1f} s")
     return OK
 
 
@@ -282,6 +286,13 @@ def _order(text: str) -> int:
     if not 2 <= value <= 16:
         raise argparse.ArgumentTypeError(f"must be between 2 and 16, got {value}")
     return value
+
+
+def _workers(text: str) -> int:
+    try:
+        return int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"must be a whole number, got {text!r}") from None
 
 
 def _vector(text: str) -> tuple:
@@ -334,8 +345,10 @@ def build_parser() -> argparse.ArgumentParser:
 
     sub.add_parser("examples", help="list the built-in studies and catalogue models")
     sub.add_parser("keys", help="print the reference of study-file tables and keys")
-    sub.add_parser("warm", help="compile the loops every system shares, once per machine (for images and "
-                                "shared installs)")
+    p = sub.add_parser("warm", help="compile the loops every system shares, once per machine (for images "
+                                    "and shared installs)")
+    p.add_argument("--workers", type=_workers, default=None, metavar="N",
+                   help="worker processes compiling side by side (default: one per core)")
     return parser
 
 

@@ -149,7 +149,7 @@ def _table():
                                 "tol": POSITIVE, "xtol": POSITIVE}),
         "explore": _case(phaselab.explore, (H2,), {"energy": 0.1, "plane": {"x": 0.0}},
                          {"system": NOT_SYSTEMS, "crossings": COUNTS + [10**9]}),
-        "warm": _case(phaselab.warm, (), {}, {"verbose": ["yes", None, 2]}),
+        "warm": _case(phaselab.warm, (), {}, {"verbose": ["yes", None, 2], "workers": [0, 1.5, "2", True]}),
         "set_limits": _case(phaselab.set_limits, (), {},
                             {"memory_bytes": POSITIVE,
                              "orbit_steps": POSITIVE}),

@@ -254,6 +254,9 @@ class LoopSet:
         width = {"hamiltonian": 1, "grad_q": m // 2, "grad_p": m // 2, "vector_field": m,
                  "map_step": m, "jacobian": m * m, "map_jacobian": m * m}[name]
         out = np.full((n_pts, width), np.nan)
+        if n_pts <= SMALL_BATCH:
+            self.kernel.call_rows(name, Z, prm, out)
+            return _shaped(name, out, n_pts, m)
         steppers = _steppers_only(self.files)
         kern = self.kernel.kernel
         if steppers is not self.files:
@@ -261,11 +264,21 @@ class LoopSet:
         else:
             module = self.generic(DEFAULT_FAMILY)
         getattr(module, f"evaluate_{name}")(kern, Z, prm, out)
-        if name == "hamiltonian":
-            return out[:, 0]
-        if name.endswith("jacobian"):
-            return out.reshape(n_pts, m, m)
-        return out
+        return _shaped(name, out, n_pts, m)
+
+
+SMALL_BATCH = 64
+"""Up to this many points :meth:`LoopSet.evaluate` calls the kernel row by row from Python
+(microseconds each) instead of compiling a batch evaluator (a second or so, once per machine):
+the first call of a path evaluates a few seeds, a grid of many points pays the compile."""
+
+
+def _shaped(name, out, n_pts, m):
+    if name == "hamiltonian":
+        return out[:, 0]
+    if name.endswith("jacobian"):
+        return out.reshape(n_pts, m, m)
+    return out
 
 
 def _steppers_only(files):

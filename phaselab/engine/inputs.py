@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import math
 import numbers
+import os
 from dataclasses import dataclass
 from typing import Mapping
 
@@ -66,6 +67,23 @@ def count(value, what: str, minimum: int = 1, maximum: int | None = None) -> int
     if maximum is not None and k > maximum:
         raise ParameterError(f"{what} must be at most {maximum}, got {k}")
     return k
+
+
+MAX_WORKERS = 8
+"""The most worker processes a call that compiles in parallel starts by default (each
+holds its own compiler, a few hundred MB)."""
+
+
+def workers(value, what: str = "workers") -> int:
+    """A count of worker processes: ``None`` for one per core this process may use (at most
+    :data:`MAX_WORKERS`), else an integer from 1 to 64."""
+    if value is None:
+        try:
+            cores = len(os.sched_getaffinity(0))
+        except (AttributeError, OSError):
+            cores = os.cpu_count() or 1
+        return max(1, min(cores, MAX_WORKERS))
+    return count(value, what, minimum=1, maximum=64)
 
 
 def step(dt, what: str = "dt") -> float | None:

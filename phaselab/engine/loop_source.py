@@ -56,8 +56,11 @@ ACCESS_NAMES = ("hamiltonian", "grad_q", "grad_p", "vector_field", "jacobian", "
 FAMILY_NAMES = ("advance", "advance_tangent")
 """What a stepper family file defines for the loops."""
 MODULE_NAMES = frozenset({"np", "math", "njit", "prange", *codes.LOOP_CONSTANTS, *ACCESS_NAMES,
-                          *FAMILY_NAMES})
-"""Names every assembled loop module defines for the loop files."""
+                          *FAMILY_NAMES, "FAMILY_KIND"})
+"""Names every assembled loop module defines for the loop files. ``FAMILY_KIND`` is the
+stepper kind of the module's family (``COMPOSITION``, ``GAUSS`` or ``RK4``): a constant when
+the loops are compiled, so ``if FAMILY_KIND == COMPOSITION:`` drops the other branch before it
+is typed and what only the other families call is never compiled."""
 
 FAMILIES = {codes.COMPOSITION: "composition", codes.GAUSS: "gauss", codes.RK4: "rk4"}
 """Stepper kind -> the family file (``loops/family_<name>.py``) a module is assembled with."""
@@ -207,6 +210,12 @@ def family_file(family: str) -> LoopFile:
     return loop_file(f"family_{family}")
 
 
+def family_kind(family: str) -> int:
+    """The stepper kind whose family file is ``family`` (the module constant ``FAMILY_KIND``)."""
+    family_file(family)
+    return next(kind for kind, name in FAMILIES.items() if name == family)
+
+
 def family_of_call(files, entry: str, args) -> str:
     """The stepper family a call of ``entry`` with ``args`` (without the kernel) runs: read
     from its ``kind`` argument (a kind outside :data:`FAMILIES` steps as Runge-Kutta, as
@@ -255,7 +264,7 @@ def _constants(extra: dict | None = None) -> str:
 def generic_source(files: tuple[LoopFile, ...], family: str = DEFAULT_FAMILY) -> str:
     """The text of the generic module of a set of loop files with one stepper family."""
     header = HEADER.format(what="generic: kernels called through a function pointer",
-                           constants=_constants())
+                           constants=_constants({"FAMILY_KIND": family_kind(family)}))
     texts = [f.text for f in files] + [family_file(family).text]
     return "\n".join([header, access_source("generic"), *texts]) + "\n"
 
@@ -263,7 +272,7 @@ def generic_source(files: tuple[LoopFile, ...], family: str = DEFAULT_FAMILY) ->
 def inlined_source(code, files: tuple[LoopFile, ...], family: str = DEFAULT_FAMILY) -> str:
     """The text of a system's inlined module: its kernels, then the loops and one stepper family."""
     header = HEADER.format(what=f"inlined kernels of system key {code.key}",
-                           constants=_constants({"NSTATE": code.n_state}))
+                           constants=_constants({"NSTATE": code.n_state, "FAMILY_KIND": family_kind(family)}))
     access = access_source("flow" if code.kind == "flow" else "map")
     texts = [f.text for f in files] + [family_file(family).text]
     return "\n".join([header, kernel_functions_source(code), access, *texts]) + "\n"

@@ -121,16 +121,6 @@ def test_background_build_switches_to_the_inlined_module(tmp_path):
     np.testing.assert_array_equal(first.states, second.states)
 
 
-def test_warm_compiles_the_generic_loops(capsys):
-    """``phaselab.warm()`` compiles (or loads) every generic loop the public calls use and
-    reports what it did; a second call finds them all cached."""
-    report = phaselab.warm()
-    assert report and all(isinstance(k, str) for k in report)
-    again = phaselab.warm()
-    assert set(again) == set(report)
-    assert max(again.values()) < 30.0
-
-
 _TWIN = r'''
 import json, sys, time
 import phaselab

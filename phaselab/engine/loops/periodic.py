@@ -29,7 +29,7 @@ ORBITS = {
 }
 
 
-@njit(cache=True, nogil=True)
+@njit(cache=True, nogil=True, inline="always")
 def periodic_identity(m):
     """The identity matrix of shape (m, m) (written out: ``np.eye`` costs a compile of its own)."""
     W = np.zeros((m, m))
@@ -38,7 +38,7 @@ def periodic_identity(m):
     return W
 
 
-@njit(cache=True, nogil=True)
+@njit(cache=True, nogil=True, inline="always")
 def periodic_henon_slope(kern, z, W, k, prm, f, jac, gz, gW):
     """gz = f / f_k and gW = Dg W at ``z``; returns 1 / f_k (dt/ds)."""
     m = z.shape[0]

@@ -109,7 +109,7 @@ def section_refine(kern, z0, t0, k, value, prm, out, rw):
     return t, OK
 
 
-@njit(cache=True, nogil=True)
+@njit(cache=True, nogil=True, inline="always")
 def section_composition_coefficients(weights, h):
     """Drift and kick lengths of a composition of leapfrogs with adjacent half drifts merged:
     ``c[0], d[0], c[1], d[1], ..., d[s-1], c[s]`` as arrays ``c`` (s+1,) and ``d`` (s,)."""
@@ -188,19 +188,20 @@ def section_plane_orbits(kern, Z0, prm, h, max_steps, k, value, direction, max_c
         return
     Z = np.empty((L, m))
     ZP = np.empty((L, m))
-    GQ = np.empty((L, n))
-    GP = np.empty((L, n))
     zc = np.empty(m)
     rw = np.empty((8, m))
-    w0 = make_work(max(b.shape[0], 1), m)
-    works = np.zeros((L, w0.shape[0], w0.shape[1]))
-    lane_orbit = np.full(L, -1, dtype=np.int64)
+    if FAMILY_KIND == COMPOSITION:       # stepped here, lane by lane (see below)
+        GQ = np.empty((L, n))
+        GP = np.empty((L, n))
+        c, d = section_composition_coefficients(weights, h)
+        s = d.shape[0]
+    else:                                # stepped by the family's advance
+        w0 = make_work(max(b.shape[0], 1), m)
+        works = np.zeros((L, w0.shape[0], w0.shape[1]))
+    lane_orbit = np.empty(L, dtype=np.int64)      # every lane is set by section_fill_lane
     lane_step = np.zeros(L, dtype=np.int64)
     lane_e0 = np.zeros(L)
     lane_g = np.zeros(L)
-    c, d = section_composition_coefficients(weights, h)
-    s = d.shape[0]
-    composition = kind == COMPOSITION
     nxt = first
     active = 0
     for l in range(L):
@@ -213,7 +214,7 @@ def section_plane_orbits(kern, Z0, prm, h, max_steps, k, value, direction, max_c
         for l in range(L):
             for j in range(m):
                 ZP[l, j] = Z[l, j]
-        if composition:
+        if FAMILY_KIND == COMPOSITION:      # the module's family: kind is COMPOSITION exactly here
             for i in range(s):
                 ci = c[i]
                 di = d[i]
@@ -239,7 +240,7 @@ def section_plane_orbits(kern, Z0, prm, h, max_steps, k, value, direction, max_c
             if o < 0:
                 continue
             st = OK
-            if not composition:
+            if FAMILY_KIND != COMPOSITION:
                 st = advance(kern, Z[l], h, prm, kind, weights, A, b, tol, maxit, works[l])
             lane_step[l] += 1
             stp = lane_step[l]
