@@ -25,6 +25,22 @@ BOKEH_MARKERS = {"o": "circle", "X": "x", "^": "triangle", "s": "square", "D": "
 
 FRAME_W, FRAME_H = 440, 400
 
+#: Page code run when the pointer enters the main plot and when its view is laid out: the drag
+#: tool's views on the page stop treating a click as a selection of the ringed seed. Left as
+#: it is, the tool selects (or clears) the ring's point on every click, and the page draws the
+#: whole plot for that alone, then once more when the click's points arrive. Dragging is
+#: untouched (a drag selects the ring as it starts). Without the expected method (another
+#: BokehJS) nothing changes.
+QUIET_TAP = """
+const index = window.Bokeh && window.Bokeh.index;
+if (!index || typeof index.find_all !== 'function') return;
+for (const view of index.find_all(tool)) {
+    if (view.__phaselab_quiet_tap || typeof view._tap !== 'function' || tool.add) continue;
+    view.__phaselab_quiet_tap = true;
+    view._tap = () => {};
+}
+"""
+
 
 def _style(fig, xlabel, ylabel):
     fig.background_fill_color = theme.GROUND
@@ -187,6 +203,9 @@ class Figures:
         hover_stop = HoverTool(renderers=[stop_r], tooltips=[("orbit @orbit stopped", "@why")])
         main.add_tools(drag, PanTool(), wheel, BoxZoomTool(), ResetTool(), hover, hover_po, hover_stop)
         main.toolbar.active_drag = drag
+        quiet_tap = CustomJS(args=dict(tool=drag), code=QUIET_TAP)
+        main.js_on_event(events.MouseEnter, quiet_tap)
+        main.js_on_change("inner_width", quiet_tap)
         main.toolbar.active_scroll = wheel
         main.js_on_event(events.MouseMove, CustomJS(args=dict(axes=self.axis_names, rid=readout_id), code="""
             const el = document.getElementById(rid);

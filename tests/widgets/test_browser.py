@@ -105,6 +105,31 @@ JS_HELPERS = """() => {
 }"""
 
 
+# JavaScript run in the page: count the main plot's repaints (one full canvas paint each) and
+# what asked for them (the data source of a renderer, or "all" for the whole plot)
+PAINT_PROBE = """() => {
+  const v = window.__pl.view();
+  window.__pl.paints = [];
+  window.__pl.asks = [];
+  if (!v || v.__plProbe) return;
+  v.__plProbe = true;
+  const paint = v._actual_paint, ask = v.request_paint;
+  v._actual_paint = function () { window.__pl.paints.push(performance.now()); return paint.apply(this, arguments); };
+  v.request_paint = function (...items) {
+    const who = items.length ? items.map(i => (i.model && i.model.data_source && i.model.data_source.name)
+                                             || (i.model && i.model.type) || String(i)).join('+') : 'all';
+    window.__pl.asks.push([performance.now(), who]);
+    return ask.apply(this, items);
+  };
+}"""
+
+
+def _paints_between(page, t0, t1):
+    """The main plot's repaints, and what asked for them, between two page times (ms)."""
+    return page.evaluate("([t0, t1]) => [window.__pl.paints.filter(t => t >= t0 && t < t1).length,"
+                         " window.__pl.asks.filter(a => a[0] >= t0 && a[0] < t1).map(a => a[1])]", [t0, t1])
+
+
 def _open_notebook(page, lab, console):
     page.on("console", lambda m: console.append(f"{m.type}: {m.text}"))
     page.on("pageerror", lambda e: console.append(f"pageerror: {e}"))
@@ -248,7 +273,7 @@ def test_explorer_in_jupyterlab(lab):
 
             # ---------------------------------------------------------- 20 clicks
             rng = np.random.default_rng(11)
-            latencies, parts, replies, drawing, walls, heard = [], [], [], [], [], []
+            latencies, parts, replies, drawing, walls, heard, repaints = [], [], [], [], [], [], []
             page.evaluate("""() => {
                 const send = WebSocket.prototype.send;
                 WebSocket.prototype.send = function (data) {
@@ -271,6 +296,7 @@ def test_explorer_in_jupyterlab(lab):
                     const orig = Object.getOwnPropertyDescriptor(WebSocket.prototype, 'onmessage');
                 }
             }""")
+            page.evaluate(PAINT_PROBE)
             page.evaluate("""() => { window.__pl.clicktasks = [];
                 new PerformanceObserver(l => { for (const e of l.getEntries()) window.__pl.clicktasks.push(e.duration); })
                     .observe({type: 'longtask', buffered: false}); }""")
@@ -304,6 +330,8 @@ def test_explorer_in_jupyterlab(lab):
                 walls.append(page.evaluate("() => [window.__pl.down_wall, window.__pl.seen_wall]"))
                 heard.append(page.evaluate("() => window.__pl.heard"))
                 page.wait_for_timeout(150)
+                # repaints from the click until the next one (the points' repaint included)
+                repaints.append(_paints_between(page, page.evaluate("() => window.__pl.down"), 1e300))
             load_after = os.getloadavg()
             last_walls = page.evaluate("() => [window.__pl.down_wall, window.__pl.seen_wall]")
             lat = np.array(latencies)
@@ -317,6 +345,10 @@ def test_explorer_in_jupyterlab(lab):
             tasks = page.evaluate("() => window.__pl.clicktasks")
             report.append(f"the page's main thread during the clicks ({time.monotonic() - t_clicks:.1f} s): {len(tasks)} tasks "
                           f"over 50 ms, {sum(tasks):.0f} ms in all, longest {max(tasks, default=0):.0f} ms")
+            counts = [n for n, _ in repaints]
+            asked = sorted({w for _, ws in repaints for w in ws})
+            report.append(f"repaints of the main plot per click (until the next click): median {np.median(counts):.0f}, "
+                          f"max {max(counts)}; asked for by: {', '.join(asked)}")
             report.append(f"kernel messages reaching the page between a click's message and its points: median "
                           f"{np.median(heard):.0f}, max {max(heard)}")
             # the floor at this load: a message to the kernel and its answer, with no work between
