@@ -146,10 +146,11 @@ def _run_all_and_time(page, timeout_ms):
     """Run All; returns (ms from the last cell finishing to a complete first display, summary)."""
     # every text the header and the status line show, from the start
     page.evaluate("""() => { window.__seen = [];
-        new MutationObserver(() => {
+        window.__seenWatch = new MutationObserver(() => {
             for (const el of document.querySelectorAll('.phaselab-explorer .pl-count, .phaselab-explorer .pl-status'))
                 if (window.__seen[window.__seen.length - 1] !== el.innerText) window.__seen.push(el.innerText);
-        }).observe(document.body, {subtree: true, childList: true, characterData: true}); }""")
+        });
+        window.__seenWatch.observe(document.body, {subtree: true, childList: true, characterData: true}); }""")
     page.evaluate("() => window.jupyterapp.commands.execute('notebook:run-all-cells')")
     page.wait_for_function("() => [...document.querySelectorAll('.jp-OutputArea-output')]"
                            ".some(e => e.innerText.includes('KERNEL_ORBITS='))", timeout=timeout_ms)
@@ -258,7 +259,9 @@ def test_explorer_in_jupyterlab(lab):
             assert summary["seeds"] == 3 and summary["ring"] == 1 and summary["boundary"] > 0
             # every orbit of the demo has 300 crossings: the page holds each exactly once
             assert summary["points"] == 3 * 300, summary
-            seen = page.evaluate("() => window.__seen")
+            # the texts seen so far; the watch stops (it would run on every change of the page,
+            # and its work would count as the page's own during the clicks)
+            seen = page.evaluate("() => { window.__seenWatch.disconnect(); return window.__seen; }")
             assert not [t for t in seen if "no orbits yet" in t], seen  # never while orbits are on the way
             busy = [t for t in seen if "compiling" in t or "computing" in t or "on the way" in t]
             report.append(f"shown while the first orbits were on the way: {busy[:4]}")
@@ -469,6 +472,7 @@ def test_explorer_in_jupyterlab(lab):
             page2 = ctx.new_page()
             _open_notebook(page2, lab, console2)
             ms2, summary2 = _run_all_and_time(page2, 120_000)
+            page2.evaluate("() => window.__seenWatch.disconnect()")
             report.append(f"second tab, Run All (warm kernel cache): complete {ms2:.0f} ms after the last cell "
                           f"finished: {summary2}")
             assert not [c for c in console2 if "Failed to create view" in c], console2
