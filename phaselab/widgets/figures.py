@@ -164,11 +164,12 @@ class Figures:
                             line_color="color", line_width=2.2, fill_alpha=0.85)
         self.markers = MARKERS
         # the drag position, sent to the kernel while the pointer moves (the draw tool itself
-        # reports only when the button is released)
+        # reports only when the button is released); only while the ring is held (selected by
+        # the drag tool): the ring moved by the kernel (every new orbit) sends nothing back
         self.probe = ColumnDataSource(dict(x=[], y=[]), name="phaselab-probe")
         self.latest.js_on_change("change", CustomJS(args=dict(probe=self.probe), code="""
             const d = cb_obj.data;
-            if (d.x.length !== 1) return;
+            if (d.x.length !== 1 || cb_obj.selected.indices.length === 0) return;
             const x = d.x[0], y = d.y[0];
             const p = probe.data;
             if (p.x.length === 1 && p.x[0] === x && p.y[0] === y) return;

@@ -276,11 +276,12 @@ def test_explorer_in_jupyterlab(lab):
 
             # ---------------------------------------------------------- 20 clicks
             rng = np.random.default_rng(11)
-            latencies, parts, replies, drawing, walls, heard, repaints = [], [], [], [], [], [], []
+            latencies, parts, replies, drawing, walls, heard, repaints, outgoing = [], [], [], [], [], [], [], []
             page.evaluate("""() => {
                 const send = WebSocket.prototype.send;
                 WebSocket.prototype.send = function (data) {
                     if (window.__pl.down != null && window.__pl.sent == null) window.__pl.sent = performance.now();
+                    if (window.__pl.down != null) window.__pl.outgoing = (window.__pl.outgoing || 0) + 1;
                     if (!this.__plHeard) {  // when the kernel's messages reach the page
                         this.__plHeard = true;
                         this.addEventListener('message', () => {
@@ -313,7 +314,10 @@ def test_explorer_in_jupyterlab(lab):
                         break
                 sx, sy = page.evaluate(f"() => window.__pl.screen({b}, {pb})")
                 n0 = page.evaluate("() => window.__pl.len('phaselab-seeds', 'x')")
+                if k:  # the page's messages to the kernel from the last click until this one
+                    outgoing.append(page.evaluate("() => window.__pl.outgoing"))
                 page.evaluate("""(n0) => { window.__pl.down = null; window.__pl.seen = null; window.__pl.sent = null;
+                    window.__pl.outgoing = 0;
                     window.__pl.first = null; window.__pl.last = null; window.__pl.heard = 0;
                     document.addEventListener('pointerdown', () => { window.__pl.down = performance.now();
                                                                      window.__pl.down_wall = Date.now(); },
@@ -348,6 +352,8 @@ def test_explorer_in_jupyterlab(lab):
             tasks = page.evaluate("() => window.__pl.clicktasks")
             report.append(f"the page's main thread during the clicks ({time.monotonic() - t_clicks:.1f} s): {len(tasks)} tasks "
                           f"over 50 ms, {sum(tasks):.0f} ms in all, longest {max(tasks, default=0):.0f} ms")
+            report.append(f"the page's messages to the kernel per click (until the next click): median "
+                          f"{np.median(outgoing):.0f}, max {max(outgoing)}")
             counts = [n for n, _ in repaints]
             asked = sorted({w for _, ws in repaints for w in ws})
             report.append(f"repaints of the main plot per click (until the next click): median {np.median(counts):.0f}, "
