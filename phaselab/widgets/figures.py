@@ -41,6 +41,28 @@ for (const view of index.find_all(tool)) {
 }
 """
 
+#: Page code run at the same moments: the notebook's bridge to the kernel (it listens to the
+#: document through a callback calling its ``_change_event``) hears only the changes made on
+#: the page. Left as it is, it sends every change the kernel made back to the kernel once the
+#: page has applied it (bokeh marks those ``sync = false``; the bridge does not look): six
+#: messages a click, each making the kernel busy and the notebook page redraw its busy signs,
+#: and a streamed echo appended to the kernel's copy of the points a second time.
+SYNC_ONLY = """
+const doc = tool.document;
+if (doc == null || doc.__phaselab_sync_only || !(doc._callbacks instanceof Map)) return;
+for (const [callback, batches] of [...doc._callbacks]) {
+    if (!String(callback).includes('_change_event')) continue;
+    doc.__phaselab_sync_only = true;
+    const page_only = (event) => {
+        if (event.sync === false) return;
+        if (Array.isArray(event.events) && event.events.every((e) => e.sync === false)) return;
+        callback(event);
+    };
+    doc._callbacks.delete(callback);
+    doc._callbacks.set(page_only, batches);
+}
+"""
+
 
 def _style(fig, xlabel, ylabel):
     fig.background_fill_color = theme.GROUND
@@ -205,8 +227,10 @@ class Figures:
         main.add_tools(drag, PanTool(), wheel, BoxZoomTool(), ResetTool(), hover, hover_po, hover_stop)
         main.toolbar.active_drag = drag
         quiet_tap = CustomJS(args=dict(tool=drag), code=QUIET_TAP)
-        main.js_on_event(events.MouseEnter, quiet_tap)
-        main.js_on_change("inner_width", quiet_tap)
+        sync_only = CustomJS(args=dict(tool=drag), code=SYNC_ONLY)
+        for hook in (quiet_tap, sync_only):
+            main.js_on_event(events.MouseEnter, hook)
+            main.js_on_change("inner_width", hook)
         main.toolbar.active_scroll = wheel
         main.js_on_event(events.MouseMove, CustomJS(args=dict(axes=self.axis_names, rid=readout_id), code="""
             const el = document.getElementById(rid);
