@@ -358,6 +358,11 @@ def test_explorer_in_jupyterlab(lab):
             asked = sorted({w for _, ws in repaints for w in ws})
             report.append(f"repaints of the main plot per click (until the next click): median {np.median(counts):.0f}, "
                           f"max {max(counts)}; asked for by: {', '.join(asked)}")
+            # a click is one message to the kernel (the tap) and one repaint of the main plot (its
+            # points): the drag tool selects nothing on a click, and the page sends no change
+            # of the kernel's back to it
+            assert max(outgoing) <= 1, outgoing
+            assert np.median(counts) <= 1, repaints
             report.append(f"kernel messages reaching the page between a click's message and its points: median "
                           f"{np.median(heard):.0f}, max {max(heard)}")
             # the floor at this load: a message to the kernel and its answer, with no work between
