@@ -25,6 +25,44 @@ BOKEH_MARKERS = {"o": "circle", "X": "x", "^": "triangle", "s": "square", "D": "
 
 FRAME_W, FRAME_H = 440, 400
 
+#: Page code run when the pointer enters the main plot and when its view is laid out: the drag
+#: tool's views on the page stop treating a click as a selection of the ringed seed. Left as
+#: it is, the tool selects (or clears) the ring's point on every click, and the page draws the
+#: whole plot for that alone, then once more when the click's points arrive. Dragging is
+#: untouched (a drag selects the ring as it starts). Without the expected method (another
+#: BokehJS) nothing changes.
+QUIET_TAP = """
+const index = window.Bokeh && window.Bokeh.index;
+if (!index || typeof index.find_all !== 'function') return;
+for (const view of index.find_all(tool)) {
+    if (view.__phaselab_quiet_tap || typeof view._tap !== 'function' || tool.add) continue;
+    view.__phaselab_quiet_tap = true;
+    view._tap = () => {};
+}
+"""
+
+#: Page code run at the same moments: the notebook's bridge to the kernel (it listens to the
+#: document through a callback calling its ``_change_event``) hears only the changes made on
+#: the page. Left as it is, it sends every change the kernel made back to the kernel once the
+#: page has applied it (bokeh marks those ``sync = false``; the bridge does not look): six
+#: messages a click, each making the kernel busy and the notebook page redraw its busy signs,
+#: and a streamed echo appended to the kernel's copy of the points a second time.
+SYNC_ONLY = """
+const doc = tool.document;
+if (doc == null || doc.__phaselab_sync_only || !(doc._callbacks instanceof Map)) return;
+for (const [callback, batches] of [...doc._callbacks]) {
+    if (!String(callback).includes('_change_event')) continue;
+    doc.__phaselab_sync_only = true;
+    const page_only = (event) => {
+        if (event.sync === false) return;
+        if (Array.isArray(event.events) && event.events.every((e) => e.sync === false)) return;
+        callback(event);
+    };
+    doc._callbacks.delete(callback);
+    doc._callbacks.set(page_only, batches);
+}
+"""
+
 
 def _style(fig, xlabel, ylabel):
     fig.background_fill_color = theme.GROUND
@@ -148,11 +186,12 @@ class Figures:
                             line_color="color", line_width=2.2, fill_alpha=0.85)
         self.markers = MARKERS
         # the drag position, sent to the kernel while the pointer moves (the draw tool itself
-        # reports only when the button is released)
+        # reports only when the button is released); only while the ring is held (selected by
+        # the drag tool): the ring moved by the kernel (every new orbit) sends nothing back
         self.probe = ColumnDataSource(dict(x=[], y=[]), name="phaselab-probe")
         self.latest.js_on_change("change", CustomJS(args=dict(probe=self.probe), code="""
             const d = cb_obj.data;
-            if (d.x.length !== 1) return;
+            if (d.x.length !== 1 || cb_obj.selected.indices.length === 0) return;
             const x = d.x[0], y = d.y[0];
             const p = probe.data;
             if (p.x.length === 1 && p.x[0] === x && p.y[0] === y) return;
@@ -187,6 +226,11 @@ class Figures:
         hover_stop = HoverTool(renderers=[stop_r], tooltips=[("orbit @orbit stopped", "@why")])
         main.add_tools(drag, PanTool(), wheel, BoxZoomTool(), ResetTool(), hover, hover_po, hover_stop)
         main.toolbar.active_drag = drag
+        quiet_tap = CustomJS(args=dict(tool=drag), code=QUIET_TAP)
+        sync_only = CustomJS(args=dict(tool=drag), code=SYNC_ONLY)
+        for hook in (quiet_tap, sync_only):
+            main.js_on_event(events.MouseEnter, hook)
+            main.js_on_change("inner_width", hook)
         main.toolbar.active_scroll = wheel
         main.js_on_event(events.MouseMove, CustomJS(args=dict(axes=self.axis_names, rid=readout_id), code="""
             const el = document.getElementById(rid);

@@ -105,6 +105,31 @@ JS_HELPERS = """() => {
 }"""
 
 
+# JavaScript run in the page: count the main plot's repaints (one full canvas paint each) and
+# what asked for them (the data source of a renderer, or "all" for the whole plot)
+PAINT_PROBE = """() => {
+  const v = window.__pl.view();
+  window.__pl.paints = [];
+  window.__pl.asks = [];
+  if (!v || v.__plProbe) return;
+  v.__plProbe = true;
+  const paint = v._actual_paint, ask = v.request_paint;
+  v._actual_paint = function () { window.__pl.paints.push(performance.now()); return paint.apply(this, arguments); };
+  v.request_paint = function (...items) {
+    const who = items.length ? items.map(i => (i.model && i.model.data_source && i.model.data_source.name)
+                                             || (i.model && i.model.type) || String(i)).join('+') : 'all';
+    window.__pl.asks.push([performance.now(), who]);
+    return ask.apply(this, items);
+  };
+}"""
+
+
+def _paints_between(page, t0, t1):
+    """The main plot's repaints, and what asked for them, between two page times (ms)."""
+    return page.evaluate("([t0, t1]) => [window.__pl.paints.filter(t => t >= t0 && t < t1).length,"
+                         " window.__pl.asks.filter(a => a[0] >= t0 && a[0] < t1).map(a => a[1])]", [t0, t1])
+
+
 def _open_notebook(page, lab, console):
     page.on("console", lambda m: console.append(f"{m.type}: {m.text}"))
     page.on("pageerror", lambda e: console.append(f"pageerror: {e}"))
@@ -121,10 +146,11 @@ def _run_all_and_time(page, timeout_ms):
     """Run All; returns (ms from the last cell finishing to a complete first display, summary)."""
     # every text the header and the status line show, from the start
     page.evaluate("""() => { window.__seen = [];
-        new MutationObserver(() => {
+        window.__seenWatch = new MutationObserver(() => {
             for (const el of document.querySelectorAll('.phaselab-explorer .pl-count, .phaselab-explorer .pl-status'))
                 if (window.__seen[window.__seen.length - 1] !== el.innerText) window.__seen.push(el.innerText);
-        }).observe(document.body, {subtree: true, childList: true, characterData: true}); }""")
+        });
+        window.__seenWatch.observe(document.body, {subtree: true, childList: true, characterData: true}); }""")
     page.evaluate("() => window.jupyterapp.commands.execute('notebook:run-all-cells')")
     page.wait_for_function("() => [...document.querySelectorAll('.jp-OutputArea-output')]"
                            ".some(e => e.innerText.includes('KERNEL_ORBITS='))", timeout=timeout_ms)
@@ -233,7 +259,9 @@ def test_explorer_in_jupyterlab(lab):
             assert summary["seeds"] == 3 and summary["ring"] == 1 and summary["boundary"] > 0
             # every orbit of the demo has 300 crossings: the page holds each exactly once
             assert summary["points"] == 3 * 300, summary
-            seen = page.evaluate("() => window.__seen")
+            # the texts seen so far; the watch stops (it would run on every change of the page,
+            # and its work would count as the page's own during the clicks)
+            seen = page.evaluate("() => { window.__seenWatch.disconnect(); return window.__seen; }")
             assert not [t for t in seen if "no orbits yet" in t], seen  # never while orbits are on the way
             busy = [t for t in seen if "compiling" in t or "computing" in t or "on the way" in t]
             report.append(f"shown while the first orbits were on the way: {busy[:4]}")
@@ -248,11 +276,12 @@ def test_explorer_in_jupyterlab(lab):
 
             # ---------------------------------------------------------- 20 clicks
             rng = np.random.default_rng(11)
-            latencies, parts, replies, drawing, walls, heard = [], [], [], [], [], []
+            latencies, parts, replies, drawing, walls, heard, repaints, outgoing = [], [], [], [], [], [], [], []
             page.evaluate("""() => {
                 const send = WebSocket.prototype.send;
                 WebSocket.prototype.send = function (data) {
                     if (window.__pl.down != null && window.__pl.sent == null) window.__pl.sent = performance.now();
+                    if (window.__pl.down != null) window.__pl.outgoing = (window.__pl.outgoing || 0) + 1;
                     if (!this.__plHeard) {  // when the kernel's messages reach the page
                         this.__plHeard = true;
                         this.addEventListener('message', () => {
@@ -271,6 +300,7 @@ def test_explorer_in_jupyterlab(lab):
                     const orig = Object.getOwnPropertyDescriptor(WebSocket.prototype, 'onmessage');
                 }
             }""")
+            page.evaluate(PAINT_PROBE)
             page.evaluate("""() => { window.__pl.clicktasks = [];
                 new PerformanceObserver(l => { for (const e of l.getEntries()) window.__pl.clicktasks.push(e.duration); })
                     .observe({type: 'longtask', buffered: false}); }""")
@@ -284,7 +314,10 @@ def test_explorer_in_jupyterlab(lab):
                         break
                 sx, sy = page.evaluate(f"() => window.__pl.screen({b}, {pb})")
                 n0 = page.evaluate("() => window.__pl.len('phaselab-seeds', 'x')")
+                if k:  # the page's messages to the kernel from the last click until this one
+                    outgoing.append(page.evaluate("() => window.__pl.outgoing"))
                 page.evaluate("""(n0) => { window.__pl.down = null; window.__pl.seen = null; window.__pl.sent = null;
+                    window.__pl.outgoing = 0;
                     window.__pl.first = null; window.__pl.last = null; window.__pl.heard = 0;
                     document.addEventListener('pointerdown', () => { window.__pl.down = performance.now();
                                                                      window.__pl.down_wall = Date.now(); },
@@ -304,6 +337,8 @@ def test_explorer_in_jupyterlab(lab):
                 walls.append(page.evaluate("() => [window.__pl.down_wall, window.__pl.seen_wall]"))
                 heard.append(page.evaluate("() => window.__pl.heard"))
                 page.wait_for_timeout(150)
+                # repaints from the click until the next one (the points' repaint included)
+                repaints.append(_paints_between(page, page.evaluate("() => window.__pl.down"), 1e300))
             load_after = os.getloadavg()
             last_walls = page.evaluate("() => [window.__pl.down_wall, window.__pl.seen_wall]")
             lat = np.array(latencies)
@@ -317,6 +352,17 @@ def test_explorer_in_jupyterlab(lab):
             tasks = page.evaluate("() => window.__pl.clicktasks")
             report.append(f"the page's main thread during the clicks ({time.monotonic() - t_clicks:.1f} s): {len(tasks)} tasks "
                           f"over 50 ms, {sum(tasks):.0f} ms in all, longest {max(tasks, default=0):.0f} ms")
+            report.append(f"the page's messages to the kernel per click (until the next click): median "
+                          f"{np.median(outgoing):.0f}, max {max(outgoing)}")
+            counts = [n for n, _ in repaints]
+            asked = sorted({w for _, ws in repaints for w in ws})
+            report.append(f"repaints of the main plot per click (until the next click): median {np.median(counts):.0f}, "
+                          f"max {max(counts)}; asked for by: {', '.join(asked)}")
+            # a click is one message to the kernel (the tap) and one repaint of the main plot (its
+            # points): the drag tool selects nothing on a click, and the page sends no change
+            # of the kernel's back to it
+            assert max(outgoing) <= 1, outgoing
+            assert np.median(counts) <= 1, repaints
             report.append(f"kernel messages reaching the page between a click's message and its points: median "
                           f"{np.median(heard):.0f}, max {max(heard)}")
             # the floor at this load: a message to the kernel and its answer, with no work between
@@ -437,6 +483,7 @@ def test_explorer_in_jupyterlab(lab):
             page2 = ctx.new_page()
             _open_notebook(page2, lab, console2)
             ms2, summary2 = _run_all_and_time(page2, 120_000)
+            page2.evaluate("() => window.__seenWatch.disconnect()")
             report.append(f"second tab, Run All (warm kernel cache): complete {ms2:.0f} ms after the last cell "
                           f"finished: {summary2}")
             assert not [c for c in console2 if "Failed to create view" in c], console2
