@@ -18,6 +18,28 @@ ORBITS = {
 }
 
 
+@njit(cache=True, nogil=True, inline="always")
+def tangent_kick(kern, z, v0, v1, gq, hq, d, k, prm):
+    """Kick p -= d dH/dq and its tangent v_p -= d (d2H/dq2) v_q for the one or two vectors
+    (``k``); both composition loops step their kicks with it."""
+    n = gq.shape[0]
+    hess_qq(kern, z, prm, hq)
+    grad_q(kern, z, prm, gq)
+    for a in range(n):
+        z[n + a] -= d * gq[a]
+    for a in range(n):
+        t = hq[a, 0] * v0[0]
+        for b in range(1, n):
+            t += hq[a, b] * v0[b]
+        v0[n + a] -= d * t
+    if k > 1:
+        for a in range(n):
+            t = hq[a, 0] * v1[0]
+            for b in range(1, n):
+                t += hq[a, b] * v1[b]
+            v1[n + a] -= d * t
+
+
 @njit(cache=True, nogil=True)
 def tangent_norm(W, col):
     acc = 0.0
@@ -261,22 +283,7 @@ def tangent_composition_indicators(kern, Z0, W0, prm, h, n_steps, record_every, 
                             v1[a] += c * t
                 if i == s:
                     break
-                d = dd[i]
-                hess_qq(kern, z, prm, hq)
-                grad_q(kern, z, prm, gq)
-                for a in range(n):
-                    z[n + a] -= d * gq[a]
-                for a in range(n):
-                    t = hq[a, 0] * v0[0]
-                    for b in range(1, n):
-                        t += hq[a, b] * v0[b]
-                    v0[n + a] -= d * t
-                if k > 1:
-                    for a in range(n):
-                        t = hq[a, 0] * v1[0]
-                        for b in range(1, n):
-                            t += hq[a, b] * v1[b]
-                        v1[n + a] -= d * t
+                tangent_kick(kern, z, v0, v1, gq, hq, dd[i], k, prm)
             # tangent_update, with the running sums in local variables
             g = 0.0
             for j in range(m):

@@ -103,27 +103,6 @@ def lanes_drift(kern, z, v0, v1, gp, c, k, prm):
 
 
 @njit(cache=True, nogil=True, inline="always")
-def lanes_kick(kern, z, v0, v1, gq, hq, d, k, prm):
-    """Kick p -= d dH/dq and its tangent v_p -= d (d2H/dq2) v_q for the one or two vectors."""
-    n = gq.shape[0]
-    hess_qq(kern, z, prm, hq)
-    grad_q(kern, z, prm, gq)
-    for a in range(n):
-        z[n + a] -= d * gq[a]
-    for a in range(n):
-        t = hq[a, 0] * v0[0]
-        for b in range(1, n):
-            t += hq[a, b] * v0[b]
-        v0[n + a] -= d * t
-    if k > 1:
-        for a in range(n):
-            t = hq[a, 0] * v1[0]
-            for b in range(1, n):
-                t += hq[a, b] * v1[b]
-            v1[n + a] -= d * t
-
-
-@njit(cache=True, nogil=True, inline="always")
 def lanes_close(z, v0, v1, k, now, h, sums, box_lo, box_hi):
     """End a step at time ``now``: the arithmetic of ``tangent_update`` on the running
     ``sums`` (renormalise; exponent, FLI, MEGNO; SALI with two vectors). Returns ``OK``, or
@@ -213,9 +192,9 @@ def lanes_composition_indicators(kern, Z0, W0, prm, h, n_steps, record_every, we
                 break
             d = dd[i]
             if on_a:
-                lanes_kick(kern, za, v0a, v1a, gqa, hqa, d, k, prm)
+                tangent_kick(kern, za, v0a, v1a, gqa, hqa, d, k, prm)
             if on_b:
-                lanes_kick(kern, zb, v0b, v1b, gqb, hqb, d, k, prm)
+                tangent_kick(kern, zb, v0b, v1b, gqb, hqb, d, k, prm)
         if on_a:
             step_a += 1
             st = lanes_close(za, v0a, v1a, k, step_a * h, h, suma, box_lo, box_hi)
