@@ -20,7 +20,13 @@ click-to-points is pointerdown to that frame. The load average is printed before
 Run (about 3 minutes on two cores, most of it the 100 orbits):
 
     python benchmarks/linked_browser_benchmark.py [--clicks 24] [--backend canvas|webgl]
-        [--gpu-flags "..."] [--orbits 100] [--crossings 1000]
+        [--gpu-flags "..."] [--orbits 100] [--crossings 1000] [--gap 0.4] [--profile] [--setup CODE]
+
+``--setup`` runs Python in the notebook after the explorer is made, for variants measured
+side by side; e.g. one fresh slot of 10,000 rows (the design before the slots):
+
+    --setup 'import phaselab.widgets.linked_figures as LF; LF.FRESH_SLOTS = 1; LF.SLOT_ROWS = 10000;
+             explorer.close(); explorer = phaselab.explore(H, energy=0.5, plane={"x3": 0.0}, crossings=300)'
 """
 
 from __future__ import annotations
