@@ -20,7 +20,13 @@ click-to-points is pointerdown to that frame. The load average is printed before
 Run (about 3 minutes on two cores, most of it the 100 orbits):
 
     python benchmarks/linked_browser_benchmark.py [--clicks 24] [--backend canvas|webgl]
-        [--gpu-flags "..."] [--orbits 100] [--crossings 1000]
+        [--gpu-flags "..."] [--orbits 100] [--crossings 1000] [--gap 0.4] [--profile] [--setup CODE]
+
+``--setup`` runs Python in the notebook after the explorer is made, for variants measured
+side by side; e.g. one fresh slot of 10,000 rows (the design before the slots):
+
+    --setup 'import phaselab.widgets.linked_figures as LF; LF.FRESH_SLOTS = 1; LF.SLOT_ROWS = 10000;
+             explorer.close(); explorer = phaselab.explore(H, energy=0.5, plane={"x3": 0.0}, crossings=300)'
 """
 
 from __future__ import annotations
@@ -51,7 +57,7 @@ GL = ("from phaselab.widgets.page import load_bokehjs; load_bokehjs()\n"
       "display(Javascript(Resources(mode='inline', components=['bokeh-gl']).js_raw[0]))\n")
 
 
-def _cells(orbits, crossings, backend, fresh, gl=False):
+def _cells(orbits, crossings, backend, fresh, gl=False, extra=""):
     setup = ("import json, time, numpy as np, phaselab\n" + (GL if gl else "")
              + (f"import phaselab.widgets.linked_figures as LF; LF.BACKEND = {backend!r}\n" if backend else "")
              + ("" if fresh else "import phaselab.widgets.explorer.linked_commands as LC; LC.FRESH_LAYER = False\n")
@@ -113,13 +119,13 @@ def _top_functions(profile, count=25):
 
 
 def measure(clicks=24, orbits=100, crossings=1000, backend=None, gpu_flags="--disable-gpu", shots=None, fresh=True,
-            profile=False, gl=False, gap=0.4):
+            profile=False, gl=False, gap=0.4, extra=""):
     """Run the page; returns a dict of arrays (ms) per leg and the context of the run."""
     from playwright.sync_api import sync_playwright
 
     work = Path(tempfile.mkdtemp(prefix="linked-bench-"))
     nb = {"cells": [{"cell_type": "code", "execution_count": None, "metadata": {}, "outputs": [], "source": c}
-                    for c in _cells(orbits, crossings, backend, fresh, gl)],
+                    for c in _cells(orbits, crossings, backend, fresh, gl, extra)],
           "metadata": {"kernelspec": {"name": "python3", "display_name": "Python 3", "language": "python"}},
           "nbformat": 4, "nbformat_minor": 5}
     (work / "bench.ipynb").write_text(json.dumps(nb))
@@ -233,11 +239,13 @@ def main(argv=None):
     ap.add_argument("--gap", type=float, default=0.4,
                     help="seconds between one click's points drawn and the next click")
     ap.add_argument("--profile", action="store_true", help="print the page's busiest functions over the clicks")
+    ap.add_argument("--setup", default="", help="Python run in the notebook after the explorer is made "
+                    "(variants measured side by side, e.g. a module constant changed)")
     ap.add_argument("--screenshot", default=None, help="write a picture of the explorer after the clicks")
     a = ap.parse_args(argv)
     t0 = time.monotonic()
     out = measure(a.clicks, a.orbits, a.crossings, a.backend, a.gpu_flags, a.screenshot, fresh=not a.one_source,
-                  profile=a.profile, gl=a.with_gl, gap=a.gap)
+                  profile=a.profile, gl=a.with_gl, gap=a.gap, extra=a.setup)
     report(out, f"[{'one source' if a.one_source else 'fresh layer'}, gap {a.gap} s, backend {a.backend or 'default'}"
                 f"{' + gl bundle' if a.with_gl else ''}, "
                 f"{a.gpu_flags}] ")

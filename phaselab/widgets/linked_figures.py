@@ -7,12 +7,14 @@ so a box or lasso selection in any projection selects the same rows in all of th
 :class:`~bokeh.models.IndexFilter` shared by every renderer's view: a slab change sends
 the kept row numbers once, not the points.
 
-New orbits' points go first into a small second source (``fresh``) drawn by renderers on
+New orbits' points go first into small sources (the fresh "slots") drawn by renderers on
 the overlay level of each projection: a click repaints only that layer of each projection,
-not the 100,000 points already there. The fresh rows are folded into the big source
-later (:meth:`LinkedFigures.fold`, after a quiet spell or when they grow past a limit).
-Row numbers of the whole table run through the big source, then the fresh one: a
-selection and a slab are given and reported in those numbers.
+not the 100,000 points already there. New rows are streamed into one slot until it holds
+``SLOT_ROWS`` rows, then into the next: the page indexes and colours again only the rows
+of the slot that changed (O(slot) per click, not O(every waiting row)). The fresh rows are
+folded into the big source later (:meth:`LinkedFigures.fold`, after a quiet spell or when
+the slots are full). Row numbers of the whole table run through the big source, then the
+slots in order: a selection and a slab are given and reported in those numbers.
 
 Colour: the orbit's own colour (``shade``), a section coordinate (Froeschle's colouring by
 a hidden coordinate: the mapper's field changes, no data is sent) or a per-orbit value such
@@ -35,6 +37,14 @@ POINT_SIZE = 2.2
 #: the WebGL bundle is not sent), so "webgl" drew with the canvas anyway; the canvas it is,
 #: stated here (measured: benchmarks/linked_browser_benchmark.py).
 BACKEND = "canvas"
+#: Fresh sources (each with one overlay renderer per projection) and the rows one takes
+#: before the next is used; the slots full, the fresh rows are folded. Measured with
+#: benchmarks/linked_browser_benchmark.py (24 clicks, 0.4 s apart, 100,000 points, no GPU):
+#: one slot of 10,000 rows, click-to-points median 218-284 ms, p95 350-446; eight slots,
+#: 237-272, p95 295-352 over three pairs of runs (the page's re-indexing per click fell from
+#: every waiting row to one slot; painting the waiting rows on the overlay layer remains).
+FRESH_SLOTS = 8
+SLOT_ROWS = 1250
 
 
 def _empty_like(columns) -> dict:
@@ -92,10 +102,12 @@ class LinkedFigures:
         k = len(labels)
         self.labels = tuple(labels)
         self.points = ColumnDataSource(empty_columns(k), name="phaselab-linked-points")
-        self.fresh = ColumnDataSource(empty_columns(k), name="phaselab-linked-fresh")
+        self.slots = [ColumnDataSource(empty_columns(k), name=f"phaselab-linked-fresh-{s}")
+                      for s in range(FRESH_SLOTS)]
         self.slab_filter = IndexFilter(indices=[], name="phaselab-slab")
-        self.fresh_filter = IndexFilter(indices=[], name="phaselab-slab-fresh")
-        self.fresh_renderers = []
+        self.slot_filters = [IndexFilter(indices=[], name=f"phaselab-slab-fresh-{s}") for s in range(FRESH_SLOTS)]
+        self.slot_renderers = [[] for _ in range(FRESH_SLOTS)]
+        self.filling = 0   # the slot new rows go to
         self.all_rows = AllIndices()
         n = len(theme.ORBIT_COLORS)
         self.orbit_mapper = LinearColorMapper(palette=list(theme.ORBIT_COLORS), low=-0.5, high=n - 0.5)
@@ -123,10 +135,10 @@ class LinkedFigures:
             r = fig.scatter(column_name(i), column_name(j), source=self.points, view=CDSView(filter=self.all_rows),
                             **style)
             # the new orbits' points, on the overlay layer: drawing them leaves the big layer as it is
-            f = fig.scatter(column_name(i), column_name(j), source=self.fresh, view=CDSView(filter=self.all_rows),
-                            level="overlay", **style)
+            for slot, group in zip(self.slots, self.slot_renderers):
+                group.append(fig.scatter(column_name(i), column_name(j), source=slot,
+                                         view=CDSView(filter=self.all_rows), level="overlay", **style))
             self.point_renderers.append(r)
-            self.fresh_renderers.append(f)
             return r
 
         a, b = pair
@@ -173,101 +185,143 @@ class LinkedFigures:
 
     # ------------------------------------------------------------------ drawing
     @property
+    def fresh_renderers(self) -> list:
+        """Every renderer of the fresh slots, slot by slot."""
+        return [r for group in self.slot_renderers for r in group]
+
+    def _slot_sizes(self) -> list[int]:
+        return [len(slot.data["orbit"]) for slot in self.slots]
+
+    @property
     def n_rows(self) -> int:
-        """Rows of the whole table (big source, then fresh)."""
-        return len(self.points.data["orbit"]) + len(self.fresh.data["orbit"])
+        """Rows of the whole table (big source, then the fresh slots)."""
+        return len(self.points.data["orbit"]) + self.n_fresh
 
     @property
     def n_fresh(self) -> int:
-        return len(self.fresh.data["orbit"])
+        return sum(self._slot_sizes())
+
+    @property
+    def slots_full(self) -> bool:
+        """The last slot holds SLOT_ROWS rows or more: new rows have no room left."""
+        return len(self.slots[-1].data["orbit"]) >= SLOT_ROWS
+
+    def _sources(self) -> list:
+        return [self.points] + self.slots
 
     def table(self) -> dict:
-        """Every column of the whole table (big source rows, then fresh rows), numpy arrays."""
-        big, fresh = self.points.data, self.fresh.data
-        if not len(fresh["orbit"]):
-            return {k: np.asarray(v) for k, v in big.items()}
-        return {k: np.concatenate([np.asarray(big[k]), np.asarray(fresh[k])]) for k in big}
+        """Every column of the whole table (big source rows, then the slots'), numpy arrays."""
+        parts = [src.data for src in self._sources() if len(src.data["orbit"])] or [self.points.data]
+        if len(parts) == 1:
+            return {k: np.asarray(v) for k, v in parts[0].items()}
+        return {k: np.concatenate([np.asarray(p[k]) for p in parts]) for k in self.points.data}
+
+    def _empty_slots(self, like):
+        """Every slot emptied (their filters first: the page applies changes in order)."""
+        for slot, filt in zip(self.slots, self.slot_filters):
+            if len(slot.data["orbit"]):
+                filt.indices = []
+                slot.data = _empty_like(like)
+        self.filling = 0
 
     def set_points(self, columns):
-        """Replace every point (numbers only: binary on the wire); the fresh source is
-        emptied. The selection is cleared (its row numbers would name other points)."""
-        self.points.selected.indices = []
-        self.fresh.selected.indices = []
+        """Replace every point (numbers only: binary on the wire); the slots are emptied.
+        The selection is cleared (its row numbers would name other points)."""
+        for src in self._sources():
+            src.selected.indices = []
         self.points.data = columns
-        if self.n_fresh:
-            # the page applies changes in order: the fresh rows' filter is emptied before them
-            self.fresh_filter.indices = []
-            self.fresh.data = _empty_like(columns)
+        self._empty_slots(columns)
 
     def add_fresh(self, columns, whole=False):
-        """New rows at the end of the table, into the fresh source (streamed: only the new
-        rows are sent; the page repaints the overlay layer only). ``whole``: the fresh
-        source is sent whole instead (with the slab on: streamed rows would escape its
-        filter in the page)."""
-        if self.n_fresh == 0:
-            self.fresh.data = columns
+        """New rows at the end of the table, into the slot being filled (streamed: only the
+        new rows are sent; the page repaints the overlay layer only and indexes that slot
+        again). ``whole``: the slot is sent whole instead (with the slab on: streamed rows
+        would escape its filter in the page). Call :meth:`fold` first when
+        :attr:`slots_full`."""
+        if len(self.slots[self.filling].data["orbit"]) >= SLOT_ROWS and self.filling + 1 < len(self.slots):
+            self.filling += 1
+        slot = self.slots[self.filling]
+        if len(slot.data["orbit"]) == 0:
+            slot.data = columns
         elif whole:
-            old = self.fresh.data
-            self.fresh.data = {k: np.concatenate([np.asarray(old[k]), np.asarray(columns[k])]) for k in old}
+            old = slot.data
+            slot.data = {k: np.concatenate([np.asarray(old[k]), np.asarray(columns[k])]) for k in old}
         else:
-            self.fresh.stream(columns)
+            slot.stream(columns)
 
     def fold(self):
-        """The fresh rows appended to the big source (streamed), the fresh source emptied;
-        the selection keeps naming the same points."""
+        """The fresh rows appended to the big source (streamed), the slots emptied; the
+        selection keeps naming the same points."""
         from bokeh.core.property.validation import without_property_validation
 
         if not self.n_fresh:
             return
         n_big = len(self.points.data["orbit"])
         picked = self.selected_rows()
-        fresh = {k: np.asarray(v) for k, v in self.fresh.data.items()}
+        parts = [slot.data for slot in self.slots if len(slot.data["orbit"])]
+        fresh = {k: np.concatenate([np.asarray(p[k]) for p in parts]) for k in parts[0]}
         if n_big == 0:
             self.points.data = fresh
         else:
             self.points.stream(fresh)
-        self.fresh_filter.indices = []   # before the rows it names go (the page applies in order)
-        self.fresh.data = _empty_like(fresh)
+        self._empty_slots(fresh)
 
         @without_property_validation
         def assign():   # whole numbers in range, from the page's own selections
-            self.fresh.selected.indices = []
+            for slot in self.slots:
+                if len(slot.selected.indices):
+                    slot.selected.indices = []
             if picked.size:
                 self.points.selected.indices = picked.astype(np.int32)
 
         assign()
 
+    def _offsets(self) -> np.ndarray:
+        """First row of each source (big, then slots) in the whole table, and the end, (S+2,)."""
+        sizes = [len(self.points.data["orbit"])] + self._slot_sizes()
+        return np.concatenate([[0], np.cumsum(sizes)])
+
     def selected_rows(self) -> np.ndarray:
         """Rows of the whole table selected in the page, int64 ascending."""
-        n_big = len(self.points.data["orbit"])
-        a = np.asarray(self.points.selected.indices, dtype=np.int64)
-        b = np.asarray(self.fresh.selected.indices, dtype=np.int64) + n_big
-        return np.unique(np.concatenate([a, b]))
+        starts = self._offsets()
+        parts = [np.asarray(src.selected.indices, dtype=np.int64) + start
+                 for src, start in zip(self._sources(), starts)]
+        return np.unique(np.concatenate(parts))
+
+    def split_rows(self, rows) -> list[np.ndarray]:
+        """Rows of the whole table (int, ascending) as row numbers of each source (big,
+        then the slots)."""
+        rows = np.asarray(rows, dtype=np.int64)
+        starts = self._offsets()
+        cuts = np.searchsorted(rows, starts)
+        return [rows[cuts[s]:cuts[s + 1]] - starts[s] for s in range(len(starts) - 1)]
 
     def set_slab_rows(self, rows):
-        """Show only ``rows`` (int array, rows of the whole table) in every projection; None
-        shows every row."""
+        """Show only ``rows`` (int array ascending, rows of the whole table) in every
+        projection; None shows every row."""
         from bokeh.core.property.validation import without_property_validation
 
-        n_big = len(self.points.data["orbit"])
+        filters = [self.slab_filter] + self.slot_filters
+        groups = [self.point_renderers] + self.slot_renderers
 
         @without_property_validation
-        def assign(big, fresh):
+        def assign(parts):
             # int32 arrays made here: bokeh's element-by-element check of them would cost
             # more than the rest of a slab change
-            self.slab_filter.indices = np.ascontiguousarray(big, dtype=np.int32)
-            self.fresh_filter.indices = np.ascontiguousarray(fresh, dtype=np.int32)
+            for filt, part in zip(filters, parts):
+                filt.indices = np.ascontiguousarray(part, dtype=np.int32)
 
         if rows is None:
-            targets = (self.all_rows, self.all_rows)
+            targets = [self.all_rows] * len(filters)
         else:
-            rows = np.asarray(rows, dtype=np.int64)
-            cut = np.searchsorted(rows, n_big)
-            assign(rows[:cut], rows[cut:] - n_big)
-            targets = (self.slab_filter, self.fresh_filter)
-        for group, target in zip((self.point_renderers, self.fresh_renderers), targets):
+            assign(self.split_rows(rows))
+            # an empty slot's renderers keep their filter until rows arrive (this is called
+            # again then): each switch has the page rebuild a view and draw again
+            targets = [filt if k == 0 or len(self.slots[k - 1].data["orbit"]) else None
+                       for k, filt in enumerate(filters)]
+        for group, target in zip(groups, targets):
             for r in group:
-                if r.view.filter is not target:
+                if target is not None and r.view.filter is not target:
                     r.view.filter = target
 
     def color_by_orbit(self):

@@ -2,7 +2,7 @@
 tests/widgets/test_linked_browser.py and benchmarks/linked_browser_benchmark.py.
 
 ``window.__pl`` gets: the explorer's BokehJS document, its plot views, screen positions of
-data points, the point sources (the big one and the fresh one) and their renderers, and the
+data points, the point sources (the big one and the fresh slots) and their renderers, and the
 click timing (pointerdown at the event's own time stamp, so a page busy when the pointer
 went down is counted): ``hook()`` wraps each plot view's paint and listens to the sources and the
 websocket; ``arm(n_plots)`` before a click records pointerdown (``down``), the first message
@@ -25,18 +25,22 @@ LINKED_JS = """() => { const pl = window.__pl = {};
   pl.screen = (name, x, y) => { const v = pl.view(name); const r = v.canvas_view.el.getBoundingClientRect();
     return [r.left + v.frame.x_scale.compute(x), r.top + v.frame.y_scale.compute(y)]; };
   pl.src = () => pl.doc().get_model_by_name('phaselab-linked-points');
-  pl.fresh = () => pl.doc().get_model_by_name('phaselab-linked-fresh');
-  pl.sources = () => [pl.src(), pl.fresh()].filter(s => s != null);
+  pl.slots = () => [...pl.doc().all_models].filter(m => m.name && m.name.startsWith('phaselab-linked-fresh-'))
+                                           .sort((a, b) => a.name.localeCompare(b.name, 'en', {numeric: true}));
+  pl.fresh_rows = () => pl.slots().reduce((n, s) => n + s.data.orbit.length, 0);
+  pl.sources = () => [pl.src(), ...pl.slots()].filter(s => s != null);
   pl.rows = () => pl.sources().reduce((n, s) => n + s.data.orbit.length, 0);
   pl.n = pl.rows;
   pl.sel = () => pl.sources().reduce((n, s) => n + s.selected.indices.length, 0);
   pl.renderers = (s) => [...pl.doc().all_models].filter(m => m.data_source === (s || pl.src()));
   pl.sharing = () => pl.renderers(pl.src()).length;
   pl.layers = () => pl.sources().map(s => pl.renderers(s).map(r => r.level));
-  pl.filtered = () => pl.sources().every(s => pl.renderers(s).every(r => r.view.filter.indices != null));
+  pl.filtered = () => pl.sources().filter(s => s.data.orbit.length > 0)   // an empty slot is switched when filled
+                                   .every(s => pl.renderers(s).every(r => r.view.filter.indices != null));
   pl.outside = (col, half) => { let worst = -Infinity;
-    for (const s of pl.sources()) { const w = s.data[col];
-      for (const r of pl.renderers(s)) for (const i of r.view.filter.indices) worst = Math.max(worst, Math.abs(w[i]) - half); }
+    for (const s of pl.sources().filter(s => s.data.orbit.length > 0)) { const w = s.data[col];
+      for (const r of pl.renderers(s)) { if (r.view.filter.indices == null) return Infinity;   // shown unfiltered
+        for (const i of r.view.filter.indices) worst = Math.max(worst, Math.abs(w[i]) - half); } }
     return worst; };
   pl.slabs = () => pl.sources().map(s => { const f = pl.renderers(s).map(r => r.view.filter);
     return JSON.stringify([s.name, s.data.orbit.length, s.data.c3.length, f.length, [...new Set(f.map(x => x.name))],

@@ -15,7 +15,7 @@ data and with screenshots in test-artifacts/:
   painted the new orbit (its legs printed; asserted only loosely, CI machines are noisy:
   the 200 ms figure with 100,000 points is benchmarks/linked_browser_benchmark.py's).
 
-New orbits' points arrive in the fresh source, drawn on the overlay layer, and are folded
+New orbits' points arrive in the fresh slots, drawn on the overlay layer, and are folded
 into the big one after a quiet spell: every check here reads both sources.
 
 Skips when /usr/bin/chromium is absent.
@@ -32,6 +32,8 @@ import numpy as np
 import pytest
 from lab_server import CHROMIUM, running_lab, skip_without_browser
 from linked_page_js import LINKED_JS
+
+from phaselab.widgets.linked_figures import FRESH_SLOTS
 
 pytestmark = [pytest.mark.browser, pytest.mark.slow]
 
@@ -94,8 +96,9 @@ def test_linked_explorer_in_jupyterlab(lab):
         page.wait_for_function(f"() => window.__pl.doc() && window.__pl.n() >= 12 * {CROSSINGS} * 0.9",
                                timeout=120_000)
         assert page.evaluate("() => window.__pl.sharing()") == 7     # seeding + 6 projections, one source
-        # the fresh points: one renderer per projection, on the overlay layer
-        assert page.evaluate("() => window.__pl.layers()[1]") == ["overlay"] * 7
+        # the fresh points: in each slot, one renderer per projection, on the overlay layer
+        layers = page.evaluate("() => window.__pl.layers().slice(1)")
+        assert len(layers) == FRESH_SLOTS and all(lv == ["overlay"] * 7 for lv in layers), layers
         ex = page.locator(".phaselab-explorer").first
         status = page.locator(".phaselab-explorer .pl-status").first
 
@@ -143,7 +146,7 @@ def test_linked_explorer_in_jupyterlab(lab):
             page.evaluate("() => window.__pl.slabs()")   # |p2| < half-width, every shown row
         ex.screenshot(path=str(ARTIFACTS / "linked-slab.png"))
         # ... still after the fresh rows are folded into the big source (a quiet spell)
-        page.wait_for_function("() => window.__pl.fresh().data.orbit.length === 0", timeout=60_000)
+        page.wait_for_function("() => window.__pl.fresh_rows() === 0", timeout=60_000)
         page.wait_for_timeout(500)
         assert page.evaluate(f"() => window.__pl.outside('c3', {half})") < 0
         page.locator(".phaselab-explorer input[type=checkbox]").first.uncheck()

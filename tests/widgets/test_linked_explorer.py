@@ -176,8 +176,8 @@ def test_new_orbits_go_to_the_fresh_layer_then_are_folded(springs, monkeypatch):
     e = phaselab.explore(springs, energy=E0, plane=PLANE, crossings=CROSSINGS, background=True)
     try:
         f = e.figures
-        assert all(r.level == "overlay" and r.data_source is f.fresh for r in f.fresh_renderers)
-        assert len(f.fresh_renderers) == 7
+        for slot, group in zip(f.slots, f.slot_renderers):   # each slot: one overlay renderer per projection
+            assert len(group) == 7 and all(r.level == "overlay" and r.data_source is slot for r in group)
         e.add_seeds([(0.3, 0.25), (-0.2, 0.4)], held={"x2": 0.1, "p2": 0.1})
         _delivered(e, 2)
         e._fold()
@@ -194,8 +194,10 @@ def test_new_orbits_go_to_the_fresh_layer_then_are_folded(springs, monkeypatch):
         kept = np.flatnonzero(np.abs(p2 - 0.05) < 0.08)     # numpy's slab on the same points
         n_big = 2 * CROSSINGS
         np.testing.assert_array_equal(f.slab_filter.indices, kept[kept < n_big])
-        np.testing.assert_array_equal(f.fresh_filter.indices, kept[kept >= n_big] - n_big)
-        assert all(r.view.filter is f.fresh_filter for r in f.fresh_renderers)
+        np.testing.assert_array_equal(f.slot_filters[0].indices, kept[kept >= n_big] - n_big)
+        assert all(r.view.filter is f.slot_filters[0] for r in f.slot_renderers[0])
+        for group in f.slot_renderers[1:]:   # empty slots: switched when rows arrive
+            assert all(r.view.filter is f.all_rows for r in group)
         # a selection over both sources, reported by orbit
         rows = np.array([5, n_big + 3, n_big + 4])
         e.select_points(rows)
@@ -206,6 +208,47 @@ def test_new_orbits_go_to_the_fresh_layer_then_are_folded(springs, monkeypatch):
         np.testing.assert_array_equal(f.selected_rows(), rows)
         np.testing.assert_array_equal(f.slab_filter.indices, kept)
         assert e.selection == (3, [e.orbits[0].id, e.orbits[2].id])
+    finally:
+        e.close()
+
+
+def test_new_orbits_fill_the_fresh_slots_in_turn_then_fold_when_full(springs, monkeypatch):
+    """Each fresh slot takes rows until it holds SLOT_ROWS, then the next one does (the page
+    indexes again only the slot that changed); the whole table stays in the orbits' order,
+    a selection spans slots, and the slots full, the rows are folded at once."""
+    import time
+
+    from phaselab.widgets import linked_figures
+    from phaselab.widgets.explorer import linked_commands
+
+    monkeypatch.setattr(linked_commands, "FOLD_DELAY", 600.0)   # only a full set of slots folds
+    monkeypatch.setattr(linked_figures, "FRESH_SLOTS", 3)
+    monkeypatch.setattr(linked_figures, "SLOT_ROWS", 1)         # one orbit fills a slot
+    e = phaselab.explore(springs, energy=E0, plane=PLANE, crossings=CROSSINGS, background=True)
+    try:
+        f = e.figures
+        assert len(f.slots) == 3 and len(f.fresh_renderers) == 3 * 7
+        for k, seed in enumerate([(0.3, 0.25), (-0.2, 0.4)]):
+            e.add_seeds([seed], held={"x2": 0.1, "p2": 0.1})
+            _delivered(e, k + 1)
+        sizes = [len(o.points) for o in e.orbits]
+        assert [len(s.data["orbit"]) for s in f.slots] == sizes + [0]
+        assert not f.slots_full and len(f.points.data["orbit"]) == 0
+        p2 = np.concatenate([o.section.points[0, : o.section.counts[0], 4] for o in e.orbits])
+        np.testing.assert_array_equal(f.table()["c3"], p2)
+        rows = np.array([1, sizes[0] + 2])                        # one row in each slot
+        e.select_points(rows)
+        assert list(f.slots[0].selected.indices) == [1] and list(f.slots[1].selected.indices) == [2]
+        assert e.selection == (2, [e.orbits[0].id, e.orbits[1].id])
+        e.add_seed(0.1, -0.3)
+        end = time.monotonic() + 120
+        while (len(e.orbits) < 3 or f.n_fresh) and time.monotonic() < end:
+            e.jobs.flush()
+            time.sleep(0.02)
+        assert f.n_fresh == 0 and f.filling == 0, [len(s.data["orbit"]) for s in f.slots]
+        p2 = np.concatenate([o.section.points[0, : o.section.counts[0], 4] for o in e.orbits])
+        np.testing.assert_array_equal(f.points.data["c3"], p2)
+        np.testing.assert_array_equal(f.selected_rows(), rows)
     finally:
         e.close()
 

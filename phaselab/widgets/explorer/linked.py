@@ -188,7 +188,8 @@ class LinkedExplorer(LinkedCommands, LinkedFiles, W.VBox):
         # a click too (unless it repeats the last one on the same spot)
         self.figures.main.on_event(DoubleTap, self._on_double_tap)
         self.figures.points.selected.on_change("indices", self._on_selection)
-        self.figures.fresh.selected.on_change("indices", self._on_selection)
+        for slot in self.figures.slots:
+            slot.selected.on_change("indices", self._on_selection)
 
     def _wire(self):
         c = self.controls

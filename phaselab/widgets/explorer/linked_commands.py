@@ -18,10 +18,10 @@ from phaselab.widgets.worker import Outcome
 #: Seconds without a new orbit after which the fresh points are folded into the big source
 #: (the page then draws every point again: longer than the usual gap between clicks).
 FOLD_DELAY = 3.0
-#: Fresh rows past which they are folded at once (the fresh layer is drawn on every click;
-#: a fold has the page draw every point again, seconds at 100,000 points without a graphics
-#: processor: measured, 3,000 made every tenth click of a quick run wait 5 s).
-FRESH_LIMIT = 10_000
+#: (The fresh rows are folded at once when the fresh slots are full: linked_figures.FRESH_SLOTS
+#: slots of SLOT_ROWS rows. A fold has the page draw every point again, seconds at 100,000
+#: points without a graphics processor: measured, folding past 3,000 rows made every tenth
+#: click of a quick run wait 5 s.)
 #: New orbits go to the fresh layer (False: streamed into the big source, the design
 #: before; kept for the browser benchmark's comparison).
 FRESH_LAYER = True
@@ -262,9 +262,7 @@ class LinkedCommands:
 
     def _column(self, j):
         """Section coordinate ``j`` over the whole table (big source, then fresh), (n_rows,)."""
-        f = self.figures
-        big, fresh = np.asarray(f.points.data[column_name(j)]), np.asarray(f.fresh.data[column_name(j)])
-        return np.concatenate([big, fresh]) if len(fresh) else big
+        return self.figures.table()[column_name(j)]
 
     def shown_rows(self) -> np.ndarray:
         """Row numbers of the points shown (inside the slab, or all), rows of the whole table."""
@@ -278,14 +276,16 @@ class LinkedCommands:
 
         rows = np.asarray(rows)
         f = self.figures
-        n, n_big = f.n_rows, len(f.points.data["orbit"])
+        n = f.n_rows
         if rows.ndim != 1 or (rows.size and (rows.dtype.kind not in "iu" or rows.min() < 0 or rows.max() >= n)):
             raise ParameterError(f"rows must be whole numbers from 0 to {n - 1}, got {rows!r:.80}")
+        parts = f.split_rows(np.sort(rows))
 
         @without_property_validation
         def assign():   # whole numbers in range, checked above
-            f.points.selected.indices = rows[rows < n_big].astype(np.int32)
-            f.fresh.selected.indices = (rows[rows >= n_big] - n_big).astype(np.int32)
+            for src, part in zip([f.points] + f.slots, parts):
+                if len(part) or len(src.selected.indices):
+                    src.selected.indices = part.astype(np.int32)
 
         with self._patch():
             assign()
@@ -293,7 +293,7 @@ class LinkedCommands:
     def _on_selection(self, attr, old, new):
         t0 = time.perf_counter()
         f = self.figures
-        orbit = np.concatenate([np.asarray(f.points.data["orbit"]), np.asarray(f.fresh.data["orbit"])])
+        orbit = np.concatenate([np.asarray(src.data["orbit"]) for src in [f.points] + f.slots])
         self.selection = selection_summary({"orbit": orbit}, f.selected_rows())
         n, ids = self.selection
         words = ", ".join(map(str, ids[:12])) + (" ..." if len(ids) > 12 else "")
@@ -353,7 +353,7 @@ class LinkedCommands:
         """New orbits' points into the fresh source: only their rows travel to the page, and
         the page repaints only the layer of the fresh points (the shown points stay, and so
         does the selection's meaning). The fresh rows are folded into the big source after
-        FOLD_DELAY seconds without a new orbit, or at once past FRESH_LIMIT rows."""
+        FOLD_DELAY seconds without a new orbit, or at once when the fresh slots are full."""
         if not FRESH_LAYER:
             self._append_to_big(records)
             return
@@ -369,7 +369,7 @@ class LinkedCommands:
         self.last_timing["columns"] = time.perf_counter() - t0
         self._show_count()
         if self.figures.n_fresh:
-            delay = 0.0 if self.figures.n_fresh > FRESH_LIMIT else FOLD_DELAY
+            delay = 0.0 if self.figures.slots_full else FOLD_DELAY
             self.jobs.submit("fold", lambda: None, lambda out: self._fold(), delay=delay)
 
     def _append_to_big(self, records):
