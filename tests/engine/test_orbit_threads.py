@@ -40,6 +40,11 @@ def test_sliced_call_gives_the_numbers_of_one_call_and_hands_errors_back():
     _square_rows(0, Z, 3.0, whole)
     run_sliced(_square_rows, (0, Z, 3.0, parts), (1, 3), threads=4)
     assert np.array_equal(whole, parts)
+    big = np.random.default_rng(1).uniform(0.1, 1.0, (300, 2))       # several slices per thread
+    whole_big, parts_big = np.zeros(300), np.zeros(300)
+    _square_rows(0, big, 3.0, whole_big)
+    run_sliced(_square_rows, (0, big, 3.0, parts_big), (1, 3), threads=2)
+    assert np.array_equal(whole_big, parts_big)
     run_sliced(_square_rows, (0, Z[:3], 3.0, parts[:3]), (1, 3), threads=8)   # fewer rows than slices
     assert np.array_equal(whole[:3], parts[:3])
     Z[30, 0] = -1.0                                   # in one of the last slices
