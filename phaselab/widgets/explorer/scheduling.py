@@ -198,22 +198,32 @@ class Scheduling:
         self._submit("trace", "", compute, deliver, delay=TRACE_DELAY, runner=self.idle_jobs)
 
     def _warm_up(self):
-        """Compile the kernels in the background while the user reads the plot."""
+        """Compile the loops in the background while the user reads the plot: a click's
+        section on the click's worker, then the companion trace on the second worker (a first
+        click waits for the section's compile only, not for both)."""
         (x0, x1), (y0, y1) = self.view.ranges
         view, energy, params = self.view, self.session.energy, self.params
 
-        def compute():
+        def state():
             rng = np.random.default_rng(7)
             for _ in range(40):
-                p = (rng.uniform(x0, x1), rng.uniform(y0, y1))
-                s = view.seeds([p], energy, params)
+                s = view.seeds([(rng.uniform(x0, x1), rng.uniform(y0, y1))], energy, params)
                 if s.valid[0]:
-                    view.compute(s.states[:1], energy, params, crossings=4)
-                    view.trace(s.states[0], params, 1.0)
-                    return True
-            return False
+                    return s.states[:1]
+            return None
 
-        self._submit("warm-up", "", compute, lambda out: None)
+        def section():
+            z = state()
+            return z is not None and view.compute(z, energy, params, crossings=4) is not None
+
+        def trace():
+            z = state()
+            return z is not None and view.trace(z[0], params, 1.0) is not None
+
+        # numba compiles one function at a time (a process-wide lock): the trace's compile
+        # starts once the section's is done, so it never stands before a click's section
+        self._submit("warm-up", "", section,
+                     lambda out: self._submit("warm-up trace", "", trace, lambda o: None, runner=self.idle_jobs))
 
     def _schedule_picture(self):
         """Redraw the picture kept for a notebook opened without a kernel once changes pause
