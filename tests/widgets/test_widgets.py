@@ -811,6 +811,12 @@ def test_quick_click_sends_its_points_first(hh):
                     await asyncio.sleep(0.005)
                     if len(ex.orbits) > n and not ex.busy:
                         break
+                # the first click's follow-ups (count, orbit list) settle before the second
+                for _ in range(400):
+                    if f"data-orbits='{len(ex.orbits)}'" in ex.controls.count.value:
+                        break
+                    await asyncio.sleep(0.005)
+                await asyncio.sleep(0.3)
             return sent, dict(ex.click_log[-1]), len(ex.orbits)
         finally:
             ex.close()
