@@ -183,6 +183,13 @@ def floor_section(Z0, h, n_cross, out):
                 c += 1
 
 
+#: seconds of rest before each timed run: the floor's parallel loop runs on numba's OpenMP
+#: threads, which keep spinning for a while after the loop ends and took a core from a
+#: phaselab run started at once (3-dof, two threads: 43.0 ms right after the floor, 38.6 ms
+#: after a 50 ms rest, 38.1 ms with no floor run before; the floor itself 30.6 ms either way)
+SETTLE = 0.1
+
+
 def timed(fn):
     t0 = time.perf_counter()
     res = fn()
@@ -213,7 +220,9 @@ def main():
         # alternately, so that load from other processes hits both alike; best of each kept
         tp, tf = np.inf, np.inf
         for _ in range(repeat):
+            time.sleep(SETTLE)
             tp = min(tp, timed(run)[0])
+            time.sleep(SETTLE)
             tf = min(tf, timed(floor)[0])
         return tp, tf
 

@@ -169,6 +169,13 @@ def scipy_orbits(H, Z0, n_orbits):
     return out
 
 
+#: seconds of rest before each timed run: the floor's parallel loop runs on numba's OpenMP
+#: threads, which keep spinning for a while after the loop ends and took a core from a
+#: phaselab run started at once (3-dof, two threads: 43.0 ms right after the floor, 38.6 ms
+#: after a 50 ms rest, 38.1 ms with no floor run before; the floor itself 30.6 ms either way)
+SETTLE = 0.1
+
+
 def timed(fn, repeat=3):
     best = np.inf
     for _ in range(repeat):
@@ -205,7 +212,9 @@ def main():
     def pair(repeat):
         tp, tf = np.inf, np.inf
         for _ in range(repeat):
+            time.sleep(SETTLE)
             tp = min(tp, timed(run, 1)[0])
+            time.sleep(SETTLE)
             tf = min(tf, timed(floor, 1)[0])
         return tp, tf
 
