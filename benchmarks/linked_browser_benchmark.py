@@ -44,7 +44,7 @@ import numpy as np
 
 ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT / "tests" / "widgets"))
-from lab_server import CHROMIUM, running_lab  # noqa: E402  (the tests' own lab helpers)
+from lab_server import CHROMIUM, open_notebook, running_lab  # noqa: E402  (the tests' own lab helpers)
 from linked_page_js import LINKED_JS  # noqa: E402
 
 H_TEXT = "(p1**2 + p2**2 + p3**2)/2 + (x1**2 + 1.3*x2**2 + 1.7*x3**2)/2 + k*(x1*x2 + x2*x3)"
@@ -135,13 +135,7 @@ def measure(clicks=24, orbits=100, crossings=1000, backend=None, gpu_flags="--di
         page = browser.new_page(viewport={"width": 1500, "height": 1300})
         errors = []
         page.on("pageerror", lambda e: errors.append(str(e)))
-        page.goto(f"{lab['url']}/lab/tree/bench.ipynb?token={lab['token']}")
-        page.wait_for_function("() => window.jupyterapp && window.jupyterapp.shell.currentWidget "
-                               "&& window.jupyterapp.shell.currentWidget.sessionContext "
-                               "&& window.jupyterapp.shell.currentWidget.sessionContext.session "
-                               "&& window.jupyterapp.shell.currentWidget.sessionContext.session.kernel",
-                               timeout=120_000)
-        page.evaluate("() => { const s = window.jupyterapp.shell; if (!s.leftCollapsed) s.collapseLeft(); }")
+        open_notebook(page, lab, "bench.ipynb")
         _run_cell(page, 0)
         page.wait_for_selector(".phaselab-explorer", timeout=300_000)
         _run_cell(page, 1)

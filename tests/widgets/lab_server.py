@@ -78,3 +78,15 @@ def running_lab(work: Path, seconds: float = 90, env_overrides: dict | None = No
         except subprocess.TimeoutExpired:
             proc.kill()
         log.close()
+
+
+def open_notebook(page, lab: dict, name: str, seconds: float = 120) -> None:
+    """Open notebook ``name`` of the running lab in the Playwright ``page``, wait until its
+    kernel is there, and fold the left side bar away (so the plots get the page's width)."""
+    page.goto(f"{lab['url']}/lab/tree/{name}?token={lab['token']}")
+    page.wait_for_function("() => window.jupyterapp && window.jupyterapp.shell.currentWidget "
+                           "&& window.jupyterapp.shell.currentWidget.sessionContext "
+                           "&& window.jupyterapp.shell.currentWidget.sessionContext.session "
+                           "&& window.jupyterapp.shell.currentWidget.sessionContext.session.kernel",
+                           timeout=seconds * 1000)
+    page.evaluate("() => { const s = window.jupyterapp.shell; if (!s.leftCollapsed) s.collapseLeft(); }")

@@ -33,7 +33,7 @@ import urllib.request
 from pathlib import Path
 
 import pytest
-from lab_server import CHROMIUM, running_lab, skip_without_browser
+from lab_server import CHROMIUM, open_notebook, running_lab, skip_without_browser
 
 pytestmark = [pytest.mark.browser, pytest.mark.slow]
 
@@ -133,13 +133,7 @@ def _paints_between(page, t0, t1):
 def _open_notebook(page, lab, console):
     page.on("console", lambda m: console.append(f"{m.type}: {m.text}"))
     page.on("pageerror", lambda e: console.append(f"pageerror: {e}"))
-    page.goto(f"{lab['url']}/lab/tree/explorer_demo.ipynb?token={lab['token']}")
-    page.wait_for_function("() => window.jupyterapp && window.jupyterapp.shell.currentWidget "
-                           "&& window.jupyterapp.shell.currentWidget.sessionContext "
-                           "&& window.jupyterapp.shell.currentWidget.sessionContext.session "
-                           "&& window.jupyterapp.shell.currentWidget.sessionContext.session.kernel",
-                           timeout=120_000)
-    page.evaluate("() => { const s = window.jupyterapp.shell; if (!s.leftCollapsed) s.collapseLeft(); }")
+    open_notebook(page, lab, "explorer_demo.ipynb")
 
 
 def _run_all_and_time(page, timeout_ms):
@@ -271,7 +265,7 @@ def test_explorer_in_jupyterlab(lab):
             # ---------------------------------------------------------- the system's own loops
             inlined = re.search(r"KERNEL_INLINED=(\S+)", _kernel_text(page)).group(1)
             waited = _wait_inlined(inlined, "section_plane_orbits", 300.0)
-            report.append(f"the system's inlined section loop: " + (f"ready {waited:.0f} s after the first display"
+            report.append("the system's inlined section loop: " + (f"ready {waited:.0f} s after the first display"
                           if waited is not None else "not built within 300 s: the clicks ran the generic loop"))
 
             # ---------------------------------------------------------- 20 clicks

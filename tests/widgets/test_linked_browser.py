@@ -30,7 +30,7 @@ from pathlib import Path
 
 import numpy as np
 import pytest
-from lab_server import CHROMIUM, running_lab, skip_without_browser
+from lab_server import CHROMIUM, open_notebook, running_lab, skip_without_browser
 from linked_page_js import LINKED_JS
 
 from phaselab.widgets.linked_figures import FRESH_SLOTS
@@ -80,13 +80,7 @@ def test_linked_explorer_in_jupyterlab(lab):
         page.on("pageerror", lambda e: console.append(f"pageerror: {e}"))
         warnings = []   # printed, not asserted: a filter's rows met before the rows they name, drawn once
         page.on("console", lambda m: warnings.append(m.text) if m.type == "warning" else None)
-        page.goto(f"{lab['url']}/lab/tree/linked.ipynb?token={lab['token']}")
-        page.wait_for_function("() => window.jupyterapp && window.jupyterapp.shell.currentWidget "
-                               "&& window.jupyterapp.shell.currentWidget.sessionContext "
-                               "&& window.jupyterapp.shell.currentWidget.sessionContext.session "
-                               "&& window.jupyterapp.shell.currentWidget.sessionContext.session.kernel",
-                               timeout=120_000)
-        page.evaluate("() => { const s = window.jupyterapp.shell; if (!s.leftCollapsed) s.collapseLeft(); }")
+        open_notebook(page, lab, "linked.ipynb")
         t0 = time.monotonic()
         page.evaluate("() => window.jupyterapp.commands.execute('notebook:run-all-cells')")
         page.wait_for_function("() => [...document.querySelectorAll('.jp-OutputArea-output')]"

@@ -304,8 +304,6 @@ def test_colour_by_chaos_indicator(hh):
     # the scale is fixed and split at MEGNO 2 (with a band for 200 crossings), not stretched
     # to this run's values: the quasi-periodic orbit's ring is not on the warm side, the
     # chaotic one's is
-    from phaselab.widgets import scales
-
     m = ex.figures.scalar_mapper
     assert (m.low, m.high) == (0.0, 8.0)
     rings = ex.figures.seeds.data["color"]
