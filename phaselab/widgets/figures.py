@@ -241,13 +241,15 @@ class Figures:
         self.main = main
         self.drag_tool = drag
         # set by the page when a view of the document has been built (see Explorer)
-        self.ready = ColumnDataSource(dict(n=[]), name="phaselab-ready")
+        self.ready = ColumnDataSource(dict(n=[], keeper=[]), name="phaselab-ready")
         main.tags = [self.ready]  # part of the document without a view of its own
         self.ready_callback = CustomJS(args=dict(ready=self.ready), code="""
             const doc = cb_obj.document;
             if (doc == null || doc.__phaselab_ready) return;
             doc.__phaselab_ready = true;
-            ready.data = {n: [Date.now()]};""")
+            // whether phaselab's JupyterLab plugin runs in this page (widgets/page.py)
+            const plugin = window._JUPYTERLAB && window._JUPYTERLAB['phaselab-notebook'];
+            ready.data = {n: [Date.now()], keeper: [plugin && plugin.active ? 1 : 0]};""")
 
         bar = figure(width=110, height=FRAME_H + 60, toolbar_location=None, tools=[], min_border=0,
                      outline_line_color=None, name="phaselab-colorbar", x_range=(0, 1), y_range=(0, 1))

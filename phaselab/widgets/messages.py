@@ -10,10 +10,13 @@ import math
 
 import numpy as np
 
-#: Said when a page builds its view of an explorer already shown (a reload, another tab): a
-#: picture update cannot reach that page's copy of the saved output (see widgets/page.py).
-PAGE_REBUILT = ("A page opened this explorer again (a reload or another tab): in that page's notebook, "
-                "the picture saved for readers without a kernel stays as it was until this cell runs again.")
+#: Said when a page without phaselab's JupyterLab plugin builds its view of an explorer already
+#: shown (a reload, another tab): updates of the saved picture cannot reach that page's copy
+#: of it (see widgets/page.py).
+PAGE_REBUILT = ("A page opened this explorer again (a reload or another tab) without phaselab's JupyterLab "
+                "plugin: in that page's notebook, the picture saved for readers without a kernel stays as it "
+                "was until this cell runs again (the plugin comes with phaselab installed where JupyterLab "
+                "runs; `jupyter labextension list` names it phaselab-notebook).")
 
 
 def number(v, span=1.0) -> str:

@@ -16,15 +16,16 @@ Three things go wrong with a plain ``jupyter_bokeh.BokehModel`` and are handled 
   :class:`StaticPicture` keeps a PNG of the last state in an ordinary output next to the
   widget; the explorer's own style sheet hides it while the live explorer is on the page.
 
-Limit: the kernel reaches the picture's output through its display id, and a page routes
-such updates only to outputs of executions it started itself (JupyterLab's kernel connection
-maps a display id to the executions of that page whose output first showed it; an update
-goes to those executions' output areas). After a reload with the kernel running, the output
-on the page is the saved copy, made by no execution of that page: the live explorer is drawn
-afresh and works, but the picture (hidden meanwhile) keeps the state of the last save until
-the explorer's cell runs again. Saving the notebook after a reload without running that cell
-keeps the earlier picture. Only code in the page holding the notebook's model (a JupyterLab
-extension) could replace that output; nothing phaselab puts on the page has that model.
+The kernel replaces the picture's output through its display id, and JupyterLab routes such
+an update only to outputs of executions the same page started: after a reload (the kernel
+still running) the output on the page is the saved copy, which no update would reach. The
+JupyterLab plugin installed with phaselab (``phaselab-notebook``, in
+``widgets/labextension``; JupyterLab loads it from ``share/jupyter/labextensions``) replaces,
+on every such update, each output of the notebook marked with the picture's id
+(:data:`PICTURE_MARK` in the output's metadata). When a page rebuilds its view of an
+explorer, the explorer sends its picture again, so a save straight after a reload keeps the
+last state. A page without the plugin (JupyterLab run from another environment than the
+kernel's) says so in the explorer's status line (``messages.PAGE_REBUILT``).
 """
 
 from __future__ import annotations
@@ -56,7 +57,6 @@ class LiveBokehModel(BokehModel):
         self.changes = 0
         self._bundled = 0
         self.page_builds = 0     # full states asked for after the first: pages (re)built a view
-        self.on_page_build = None  # called with no argument after each of them
         self._opened = False
         super().__init__(model, **kwargs)
         self._opened = True
@@ -132,12 +132,14 @@ class LiveBokehModel(BokehModel):
             self.refresh(send=False)
             if self._opened:
                 self.page_builds += 1
-                if self.on_page_build is not None:
-                    self.on_page_build()
         return super().get_state(key=key, drop_defaults=drop_defaults)
 
 
 _HIDE_RULE = ".jp-OutputArea-child:has(.{cls}) {{ display: none; }}"
+
+#: The key of the picture output's metadata read by the JupyterLab plugin: ``{"phaselab":
+#: {"picture": id}}`` (``widgets/labextension/static/remoteEntry.js``).
+PICTURE_MARK = "phaselab"
 
 
 class StaticPicture:
@@ -163,10 +165,15 @@ class StaticPicture:
                 f"src='data:image/png;base64,{png}'/>"
                 f"<div style='font-size:11px;color:#7b7f86'>{html.escape(caption)}</div></div>")
 
+    @property
+    def metadata(self) -> dict:
+        """The output's metadata: the mark by which the page's plugin finds every copy of it."""
+        return {PICTURE_MARK: {"picture": self.cls}}
+
     def show(self, caption=""):
         from IPython.display import HTML, display
 
-        self.handle = display(HTML(self._html(caption)), display_id=True)
+        self.handle = display(HTML(self._html(caption)), display_id=True, metadata=self.metadata)
 
     def update(self, png: bytes, caption="", state=None):
         """Replace the picture; ``state`` (a dict of numbers and words) is written beside it as
@@ -176,4 +183,4 @@ class StaticPicture:
         if self.handle is not None:
             from IPython.display import HTML
 
-            self.handle.update(HTML(self._html(caption, state)))
+            self.handle.update(HTML(self._html(caption, state)), metadata=self.metadata)

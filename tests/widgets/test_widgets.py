@@ -828,11 +828,42 @@ def test_quick_click_sends_its_points_first(hh):
     assert timing["sent_wall"] >= timing["shown_wall"] >= timing["tap_wall"]
 
 
-def test_a_page_building_the_explorer_again_is_told_about_the_saved_picture(hh):
+def test_a_page_building_the_explorer_again_gets_the_picture_again_or_is_told(hh):
+    """A view rebuilt by a page (a reload, another tab) makes the explorer send its picture
+    again, for phaselab's JupyterLab plugin to write into that page's saved copy; a page
+    without the plugin is told that its copy stays as it was."""
     from phaselab.widgets import messages
 
     ex = phaselab.explore(hh, energy=E0, background=False)
-    assert ex.bokeh.page_builds == 0  # the state sent when the widget opened is not a page's request
+    calls = []
+    ex._schedule_picture = lambda: calls.append(1)
     ex.picture.handle = object()  # as after a display in a notebook
+    ex._page_ready({"n": [1.0], "keeper": [1]})  # the first view: nothing more to do
+    assert ex.bokeh.page_builds == 0 and calls == []  # the state sent when the widget opened is not a page's request
     ex.bokeh.get_state()  # what a reloaded page (or another tab) asks for
-    assert ex.bokeh.page_builds == 1 and messages.PAGE_REBUILT in ex.status
+    assert ex.bokeh.page_builds == 1
+    ex._page_ready({"n": [2.0], "keeper": [1]})  # its view is built, the plugin is there
+    assert calls == [1] and messages.PAGE_REBUILT not in ex.status
+    ex._page_ready({"n": [3.0], "keeper": [0]})  # a page without it
+    assert calls == [1] and messages.PAGE_REBUILT in ex.status
+
+
+def test_the_saved_picture_carries_the_mark_the_page_plugin_looks_for():
+    """The picture's output is marked in its metadata, on display and on every update, with
+    the key the JupyterLab plugin reads (the plugin's source is checked for the same key)."""
+    from pathlib import Path
+
+    from phaselab.widgets import page
+
+    sent = []
+
+    class Handle:
+        def update(self, obj, **kwargs):
+            sent.append(kwargs)
+
+    pic = page.StaticPicture("abc")
+    pic.handle = Handle()
+    pic.update(b"png", "caption", {"orbits": 1})
+    assert sent == [{"metadata": {"phaselab": {"picture": "pl-still-abc"}}}]
+    plugin = (Path(page.__file__).parent / "labextension" / "static" / "remoteEntry.js").read_text()
+    assert f'const MARK = "{page.PICTURE_MARK}";' in plugin and "mark.picture" in plugin

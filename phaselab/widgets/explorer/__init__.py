@@ -180,11 +180,10 @@ class Explorer(OrbitCommands, ViewCommands, Wiring, Scheduling, Drawing, Session
         self._wire_figure_events()
         self.bokeh = LiveBokehModel(self.figures.layout, combine_events=False)
         self.bokeh.add_class("pl-plot")
-        self.bokeh.on_page_build = self._page_built
         # a view built between a display and its first patch may have missed changes: when
         # the page says a view is ready, send the current document if anything changed
         self.figures.main.js_on_change("inner_width", self.figures.ready_callback)
-        self.figures.ready.on_change("data", lambda attr, old, new: self.bokeh.refresh(send=True))
+        self.figures.ready.on_change("data", lambda attr, old, new: self._page_ready(new))
         self.bokeh.refresh(send=True)
 
         self._add_sliders(system, energy, energy_range, p0)

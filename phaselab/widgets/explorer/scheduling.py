@@ -235,11 +235,19 @@ class Scheduling:
         # the snapshot is taken on the widgets' thread when the quiet spell is over
         self.idle_jobs.submit("picture", lambda: None, lambda out: self._draw_picture(), delay=PICTURE_DELAY)
 
-    def _page_built(self):
-        """A page built its view of the explorer after the first display (a reload, another
-        tab): say, once that page has its view, that the picture saved in that page's notebook
-        no longer follows the explorer (the limit in widgets/page.py)."""
-        if self.picture.handle is not None:
+    def _page_ready(self, data):
+        """A page has built a view of the explorer (``data``: what its page code wrote in the
+        ``ready`` source). Send the current document if it changed meanwhile; when the view is
+        a rebuild (a reload, another tab), send the picture again, so that the copy saved in
+        that page's notebook shows the last state, or, on a page without phaselab's JupyterLab
+        plugin (widgets/page.py), say that the copy there stays as it was."""
+        self.bokeh.refresh(send=True)
+        if self.bokeh.page_builds == 0 or self.picture.handle is None:
+            return
+        keeper = data.get("keeper") or [0]
+        if keeper[-1]:
+            self._schedule_picture()
+        else:
             self._soon(0.5, lambda: self._say(messages.PAGE_REBUILT, refused=True))
 
     def _draw_picture(self):
