@@ -90,6 +90,14 @@ def _style(fig, xlabel, ylabel):
         fig.title.text_font_style = "normal"
 
 
+def _panel_marks(fig, source, dots, alpha):
+    """A companion panel's renderer: a curve, or one dot per value (``dots``)."""
+    if dots:
+        return fig.scatter("x", "y", source=source, size=2.5, marker="circle", line_color=theme.ORBIT_COLORS[0],
+                           fill_color=theme.ORBIT_COLORS[0], line_alpha=alpha, fill_alpha=alpha)
+    return fig.line("x", "y", source=source, line_width=1.0, line_color=theme.ORBIT_COLORS[0], line_alpha=alpha)
+
+
 def empty_points():
     return dict(x=np.empty(0, np.float64), y=np.empty(0, np.float64), shade=np.empty(0, np.int32),
                 orbit=np.empty(0, np.int32), crossing=np.empty(0, np.int32), value=np.empty(0, np.float64))
@@ -126,7 +134,7 @@ class Figures:
     layout : the whole bokeh layout (one jupyter_bokeh model)
     """
 
-    def __init__(self, labels, ranges, panels, readout_id):
+    def __init__(self, labels, ranges, panels, readout_id, panel_dots=False):
         from bokeh import events
         from bokeh.layouts import column, row
         from bokeh.models import (BasicTickFormatter, BoxZoomTool, ColorBar, ColumnDataSource, CustomJS,
@@ -278,15 +286,13 @@ class Figures:
                     x_range=(0.0, 1.0), y_range=(0.0, 1.0))
         _style(p1, x1l, y1l)
         self.panel1_source = ColumnDataSource(dict(x=[], y=[]), name="phaselab-panel1-data")
-        self.panel1_line = p1.line("x", "y", source=self.panel1_source, line_width=1.0,
-                                   line_color=theme.ORBIT_COLORS[0], line_alpha=0.85)
+        self.panel1_marks = _panel_marks(p1, self.panel1_source, panel_dots, alpha=0.85)
         p2 = figure(width=pw, height=216, tools="pan,wheel_zoom,reset", title=t2, name="phaselab-panel2",
                     x_range=(0.0, 1.0), y_range=(0.0, 1.0))
         _style(p2, x2l, y2l)
         p2.yaxis.formatter = BasicTickFormatter(use_scientific=True, precision=1, power_limit_low=-2)
         self.panel2_source = ColumnDataSource(dict(x=[], y=[]), name="phaselab-panel2-data")
-        self.panel2_line = p2.line("x", "y", source=self.panel2_source, line_width=1.0,
-                                   line_color=theme.ORBIT_COLORS[0])
+        self.panel2_marks = _panel_marks(p2, self.panel2_source, panel_dots, alpha=1.0)
         for fig in (p1, p2):
             fig.grid.visible = False  # fewer styled parts to paint on every new orbit
         self.panel1, self.panel2 = p1, p2
@@ -297,6 +303,13 @@ class Figures:
         self.lines.data = dict(xs=[c[:, 0] for c in frame.lines], ys=[c[:, 1] for c in frame.lines])
         self.accents.data = dict(xs=[c[:, 0] for c in frame.accents], ys=[c[:, 1] for c in frame.accents])
         self.forbidden.data = polygon_columns(frame.shade) if frame.shade else dict(xs=[], ys=[])
+
+    def color_panels(self, color):
+        """Draw the companion panels' curves (or dots) in ``color``."""
+        for marks in (self.panel1_marks, self.panel2_marks):
+            marks.glyph.line_color = color
+            if hasattr(marks.glyph, "fill_color"):
+                marks.glyph.fill_color = color
 
     def show_panels(self, curve1, curve2):
         """The companion panels' curves, ``(x, y)`` each, with windows fitted to them (5 %

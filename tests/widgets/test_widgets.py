@@ -332,6 +332,13 @@ def test_map_and_portrait_views(hh):
     # panels fit the kind: a map shows q and p by iterate, no energy panel
     assert ex.figures.panel1.title.text == "Coordinate by iterate"
     np.testing.assert_allclose(ex.figures.panel2_source.data["y"][:200], ref.points[0, :, 1], atol=1e-12)
+    # a map's iterates are dots (nothing lies between two iterates), a flow's trace a curve,
+    # both in the selected orbit's colour
+    from bokeh.models import Line, Scatter
+
+    assert isinstance(ex.figures.panel1_marks.glyph, Scatter) and isinstance(px.figures.panel1_marks.glyph, Line)
+    colour = ex.session.current.color
+    assert ex.figures.panel2_marks.glyph.fill_color == colour == ex.figures.panel2_marks.glyph.line_color
 
 
 def test_importing_phaselab_does_not_import_the_widget_layer():

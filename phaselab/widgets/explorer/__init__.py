@@ -176,7 +176,8 @@ class Explorer(OrbitCommands, ViewCommands, Wiring, Scheduling, Drawing, Session
         self.picture = StaticPicture(self._uid)
         self.controls = c = Controls(self.name, self.view.describe(), f"pl-readout-{self._uid}",
                                      self.picture.hide_rule)
-        self.figures = Figures(self.view.axis_labels, self.view.ranges, self.view.panels(), f"pl-readout-{self._uid}")
+        self.figures = Figures(self.view.axis_labels, self.view.ranges, self.view.panels(), f"pl-readout-{self._uid}",
+                               panel_dots=self.view.panel_dots)
         self._wire_figure_events()
         self.bokeh = LiveBokehModel(self.figures.layout, combine_events=False)
         self.bokeh.add_class("pl-plot")

@@ -185,8 +185,7 @@ class Scheduling:
             tr = out.value
             (x1, y1), (x2, y2) = tr.panel1, tr.panel2
             f.show_panels((x1, y1), (x2, y2))
-            f.panel1_line.glyph.line_color = now.color
-            f.panel2_line.glyph.line_color = now.color
+            f.color_panels(now.color)
             now.nu = tr.nu or now.nu
             if tr.nu:
                 freq = ", ".join(f"{n} {v:.6g}" for n, v in zip(tr.nu_names, tr.nu))

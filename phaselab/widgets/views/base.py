@@ -74,6 +74,9 @@ class BaseView:
     uses_energy = False
     #: how the plot's orbits are called in messages
     noun = "points"
+    #: the companion panels draw each value as a dot, not a curve through them (a map's
+    #: iterates: nothing lies between two of them)
+    panel_dots = False
 
     def __init__(self, system, crossings, ranges, method="auto", dt=None):
         if isinstance(crossings, bool) or not isinstance(crossings, (int, np.integer)) or crossings < 1:

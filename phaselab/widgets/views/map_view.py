@@ -15,6 +15,7 @@ class MapView(BaseView):
 
     kind = "map"
     noun = "iterates"
+    panel_dots = True
 
     def __init__(self, system, crossings=300, ranges=None):
         super().__init__(system, crossings, ranges)
