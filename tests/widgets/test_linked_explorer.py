@@ -417,7 +417,7 @@ def test_the_picture_counts_a_new_orbit_and_the_slab(springs):
     e = phaselab.explore(springs, energy=E0, plane=PLANE, crossings=CROSSINGS, background=False)
     try:
         png, state = _drawn(e)
-        assert png == b"" and state["orbits"] == 0 and "no orbits yet" in e.picture.handle.sent[-1][0].data
+        assert png == b"" and state["orbits"] == 0 and "no orbits shown" in e.picture.handle.sent[-1][0].data
         e.add_seeds([(0.3, 0.25), (-0.2, 0.4)], held={"x2": 0.1, "p2": -0.1})
         png, state = _drawn(e)
         every = np.concatenate([r.points for r in e.orbits])

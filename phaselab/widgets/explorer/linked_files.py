@@ -75,7 +75,7 @@ class LinkedFiles(SessionButtons):
     def _picture_note(self, state) -> str:
         """The caption's words on what the picture shows beyond the plain grid."""
         if not state["orbits"]:
-            return " (no orbits yet)"
+            return " (no orbits shown)"
         words = ""
         if self.slab is not None:
             words += f", the slice |{self.slab.name} - {self.slab.center:.4g}| < {self.slab.half_width:.3g}"

@@ -35,7 +35,8 @@ class PictureKeeping:
     """
 
     def _show_picture(self):
-        """Display the picture's output (below the widget's) and draw it after a quiet spell."""
+        """Display the picture's output (an output of its own, next to the widget's) and draw it after a
+        quiet spell."""
         self.picture.show()
         self._schedule_picture()
 
