@@ -175,6 +175,8 @@ def test_linked_explorer_in_jupyterlab(lab):
                                " const s = JSON.parse(e.getAttribute('data-state'));"
                                " return s.orbits === live.orbits && s.slab !== null; }", arg=live, timeout=60_000)
         t_picture = time.monotonic() - t0
+        # the explorer's style sheet hides the picture while the live explorer is on the page
+        assert not page.locator("img[alt='explorer picture']").first.is_visible()
         assert "opened this explorer again" not in status.inner_text(), status.inner_text()
         _save(page)
         _stop_kernels(lab)
@@ -190,8 +192,9 @@ def test_linked_explorer_in_jupyterlab(lab):
               f"data URL {png / 1024:.0f} KiB")
         assert saved["orbits"] == live["orbits"] and saved["colour"] == "own", (saved, live)
         assert saved["slab"]["name"] == live["slab"]["name"], (saved, live)
+        # (the page shows the centre with 4 significant digits)
         np.testing.assert_allclose([saved["slab"]["center"], saved["slab"]["half_width"]],
-                                   [live["slab"]["center"], live["slab"]["half_width"]], rtol=1e-3, atol=1e-9)  # 4 digits shown
+                                   [live["slab"]["center"], live["slab"]["half_width"]], rtol=1e-3, atol=1e-9)
         np.testing.assert_allclose(saved["window"], live["window"], rtol=1e-5)
         assert not console, console
         browser.close()
