@@ -313,3 +313,21 @@ def picture_png(snapshot, dpi=100) -> bytes:
     buf = io.BytesIO()
     fig.savefig(buf, format="png", dpi=dpi, facecolor="white")
     return buf.getvalue()
+
+
+def slice_png(result, dpi=80, title=None) -> bytes:
+    """PNG bytes of the figure the linked explorer's Export writes for ``result`` (a
+    :class:`~phaselab.orbits.slices.SectionSlice`: the projection grid, or the slice), for
+    the picture kept for a notebook without kernel."""
+    import io
+
+    import matplotlib
+
+    from phaselab.export.figures import REPORT_RC
+    from phaselab.export.slice_figures import slice_figure
+
+    fig = slice_figure(result, dpi=dpi, title=title)
+    buf = io.BytesIO()
+    with matplotlib.rc_context(REPORT_RC):
+        fig.savefig(buf, format="png", dpi=dpi, facecolor="white")
+    return buf.getvalue()

@@ -18,6 +18,7 @@ from __future__ import annotations
 import numpy as np
 
 from phaselab.widgets import theme
+from phaselab.widgets.page import ready_source
 from phaselab.widgets.shading import polygon_columns
 
 #: matplotlib marker codes of phaselab.export.structures.MARKERS -> bokeh marker names
@@ -249,15 +250,8 @@ class Figures:
         self.main = main
         self.drag_tool = drag
         # set by the page when a view of the document has been built (see Explorer)
-        self.ready = ColumnDataSource(dict(n=[], keeper=[]), name="phaselab-ready")
+        self.ready, self.ready_callback = ready_source()
         main.tags = [self.ready]  # part of the document without a view of its own
-        self.ready_callback = CustomJS(args=dict(ready=self.ready), code="""
-            const doc = cb_obj.document;
-            if (doc == null || doc.__phaselab_ready) return;
-            doc.__phaselab_ready = true;
-            // whether phaselab's JupyterLab plugin runs in this page (widgets/page.py)
-            const plugin = window._JUPYTERLAB && window._JUPYTERLAB['phaselab-notebook'];
-            ready.data = {n: [Date.now()], keeper: [plugin && plugin.active ? 1 : 0]};""")
 
         bar = figure(width=110, height=FRAME_H + 60, toolbar_location=None, tools=[], min_border=0,
                      outline_line_color=None, name="phaselab-colorbar", x_range=(0, 1), y_range=(0, 1))

@@ -27,6 +27,7 @@ import numpy as np
 
 from phaselab.widgets import theme
 from phaselab.widgets.linked_points import column_name, empty_columns
+from phaselab.widgets.page import ready_source
 
 #: Frame of the seeding projection (px).
 SEED_FRAME = 400
@@ -91,6 +92,9 @@ class LinkedFigures:
         The pairwise projections, lower triangle, row by row.
     point_renderers : list of GlyphRenderer
         Every renderer of ``points`` (one per figure).
+    ready : ColumnDataSource
+        Written by the page when it has built a view (:func:`~phaselab.widgets.page.ready_source`);
+        ``ready_callback`` is the page code that writes it.
     """
 
     def __init__(self, labels, windows, pair):
@@ -151,6 +155,10 @@ class LinkedFigures:
         main.scatter("x", "y", source=self.seeds, size=8, marker="circle", fill_color="#ffffff",
                      line_color="color", line_width=2.0, level="overlay")
         self.main = main
+        # set by the page when a view of the document has been built (the kept picture is
+        # sent again after a rebuild: explorer/picture_keeping.py)
+        self.ready, self.ready_callback = ready_source()
+        main.tags = [self.ready]  # part of the document without a view of its own
 
         side = max(70, int(GRID_FRAME / max(k - 1, 1)))
         cells = []

@@ -135,6 +135,31 @@ class LiveBokehModel(BokehModel):
         return super().get_state(key=key, drop_defaults=drop_defaults)
 
 
+def ready_source():
+    """The ``ready`` source of an explorer's document and the page code that fills it.
+
+    The callback, attached to a change of the main figure's ``inner_width`` (made when a
+    page lays out its view), writes once per page's document ``{"n": [time in ms],
+    "keeper": [1 or 0]}``: a view was built, and whether phaselab's JupyterLab plugin runs in
+    that page. The explorer listens to ``data`` (``PictureKeeping._page_ready``).
+
+    Returns
+    -------
+    (bokeh.models.ColumnDataSource, bokeh.models.CustomJS)
+    """
+    from bokeh.models import ColumnDataSource, CustomJS
+
+    ready = ColumnDataSource(dict(n=[], keeper=[]), name="phaselab-ready")
+    callback = CustomJS(args=dict(ready=ready), code="""
+            const doc = cb_obj.document;
+            if (doc == null || doc.__phaselab_ready) return;
+            doc.__phaselab_ready = true;
+            // whether phaselab's JupyterLab plugin runs in this page (widgets/page.py)
+            const plugin = window._JUPYTERLAB && window._JUPYTERLAB['phaselab-notebook'];
+            ready.data = {n: [Date.now()], keeper: [plugin && plugin.active ? 1 : 0]};""")
+    return ready, callback
+
+
 _HIDE_RULE = ".jp-OutputArea-child:has(.{cls}) {{ display: none; }}"
 
 #: The key of the picture output's metadata read by the JupyterLab plugin: ``{"phaselab":
@@ -158,12 +183,12 @@ class StaticPicture:
 
     def _html(self, caption, state=None):
         data = html.escape(json.dumps(state or {}), quote=True)
-        if not self.png:
-            return f"<div class='{self.cls}' data-state='{data}'></div>"
+        words = f"<div style='font-size:11px;color:#7b7f86'>{html.escape(caption)}</div>" if caption else ""
+        if not self.png:   # nothing drawn (yet): the caption alone, if any
+            return f"<div class='{self.cls}' data-state='{data}'>{words}</div>"
         png = base64.b64encode(self.png).decode("ascii")
         return (f"<div class='{self.cls}' data-state='{data}'><img alt='explorer picture' "
-                f"src='data:image/png;base64,{png}'/>"
-                f"<div style='font-size:11px;color:#7b7f86'>{html.escape(caption)}</div></div>")
+                f"src='data:image/png;base64,{png}'/>{words}</div>")
 
     @property
     def metadata(self) -> dict:

@@ -56,6 +56,15 @@ def current_loop():
         return None
 
 
+def call_later(loop, delay: float, fn: Callable[[], None]) -> None:
+    """Call ``fn()`` after ``delay`` seconds on ``loop`` (the kernel's event loop) when it
+    runs; at once without one (scripts and tests)."""
+    if loop is not None and not loop.is_closed() and loop.is_running():
+        loop.call_later(delay, fn)
+    else:
+        fn()
+
+
 class JobRunner:
     """A single worker thread with keyed, newest-wins requests.
 

@@ -13,7 +13,10 @@ data and with screenshots in test-artifacts/:
   points of an orbit added afterwards;
 * click-to-points: pointerdown to the first animation frame after all seven projections
   painted the new orbit (its legs printed; asserted only loosely, CI machines are noisy:
-  the 200 ms figure with 100,000 points is benchmarks/linked_browser_benchmark.py's).
+  the 200 ms figure with 100,000 points is benchmarks/linked_browser_benchmark.py's);
+* the picture kept for a reader without a kernel: the notebook saved, reloaded with the
+  kernel running, the slab switched on, saved again, the kernel shut down, reloaded: the
+  picture is visible and its state (orbits, slab, window) is the live page's before saving.
 
 New orbits' points arrive in the fresh slots, drawn on the overlay layer, and are folded
 into the big one after a quiet spell: every check here reads both sources.
@@ -26,6 +29,7 @@ from __future__ import annotations
 import json
 import os
 import time
+import urllib.request
 from pathlib import Path
 
 import numpy as np
@@ -152,8 +156,78 @@ def test_linked_explorer_in_jupyterlab(lab):
               f"max {lat[:, 0].max():.0f} ms (page -> kernel -> page {np.median(lat[:, 1]):.0f} ms, page draw "
               f"{np.median(lat[:, 2]):.0f} ms); load average {os.getloadavg()[0]:.2f}; page warnings {len(warnings)}")
         assert np.median(lat[:, 0]) < 2000, lat
+
+        # the picture kept for a reader without a kernel: saved, the page reloaded with the
+        # kernel running (the explorer sends its picture again, the plugin writes it into the
+        # page's notebook), the slab on again, saved, the kernel gone, reloaded
+        _save(page)
+        page.reload()
+        page.wait_for_selector(".phaselab-explorer", timeout=120_000)
+        page.evaluate(LINKED_JS)
+        page.wait_for_function("() => window.__pl.doc() && window.__pl.plots().length === 7", timeout=120_000)
+        assert page.evaluate("() => window._JUPYTERLAB['phaselab-notebook'].active === true")
+        page.locator(".phaselab-explorer input[type=checkbox]").first.check()
+        page.wait_for_function("() => window.__pl.filtered()", timeout=60_000)
+        live = _live_state(page)
+        t0 = time.monotonic()
+        page.wait_for_function("(live) => { const e = document.querySelector('[class^=pl-still-]');"
+                               " if (!e || !e.querySelector('img')) return false;"
+                               " const s = JSON.parse(e.getAttribute('data-state'));"
+                               " return s.orbits === live.orbits && s.slab !== null; }", arg=live, timeout=60_000)
+        t_picture = time.monotonic() - t0
+        # the explorer's style sheet hides the picture while the live explorer is on the page
+        assert not page.locator("img[alt='explorer picture']").first.is_visible()
+        assert "opened this explorer again" not in status.inner_text(), status.inner_text()
+        _save(page)
+        _stop_kernels(lab)
+        page.reload()
+        picture = page.locator("img[alt='explorer picture']").first
+        picture.wait_for(state="visible", timeout=60_000)
+        page.wait_for_timeout(500)
+        picture.screenshot(path=str(ARTIFACTS / "linked-saved-without-kernel.png"))
+        saved = json.loads(page.evaluate("() => document.querySelector(\"img[alt='explorer picture']\")"
+                                         ".parentElement.getAttribute('data-state')"))
+        png = len(page.evaluate("() => document.querySelector(\"img[alt='explorer picture']\").src"))
+        print(f"saved picture: {t_picture:.1f} s after the slab went on; state {saved}; live page {live}; "
+              f"data URL {png / 1024:.0f} KiB")
+        assert saved["orbits"] == live["orbits"] and saved["colour"] == "own", (saved, live)
+        assert saved["slab"]["name"] == live["slab"]["name"], (saved, live)
+        # (the page shows the centre with 4 significant digits)
+        np.testing.assert_allclose([saved["slab"]["center"], saved["slab"]["half_width"]],
+                                   [live["slab"]["center"], live["slab"]["half_width"]], rtol=1e-3, atol=1e-9)
+        np.testing.assert_allclose(saved["window"], live["window"], rtol=1e-5)
         assert not console, console
         browser.close()
+
+
+def _save(page):
+    page.evaluate("() => window.jupyterapp.commands.execute('docmanager:save')")
+    page.wait_for_function("() => !window.jupyterapp.shell.currentWidget.context.model.dirty", timeout=30_000)
+    page.wait_for_timeout(500)
+
+
+def _stop_kernels(lab):
+    """Shut down every kernel of the lab through its REST API (a reader without a kernel)."""
+    req = urllib.request.Request(f"{lab['url']}/api/kernels?token={lab['token']}")
+    for k in json.loads(urllib.request.urlopen(req, timeout=10).read()):
+        urllib.request.urlopen(urllib.request.Request(
+            f"{lab['url']}/api/kernels/{k['id']}?token={lab['token']}", method="DELETE"), timeout=20)
+
+
+def _live_state(page) -> dict:
+    """What the live page shows, as the kept picture's ``data-state`` records it: the orbits
+    (seed marks), the slab (from the slice row's controls) and the seeding projection's window."""
+    return page.evaluate("""() => {
+        const row = [...document.querySelectorAll('.phaselab-explorer .pl-group')]
+                    .find(e => e.textContent === 'slice').closest('.widget-hbox');
+        const on = row.querySelector('input[type=checkbox]').checked;
+        const main = window.__pl.doc().get_model_by_name('phaselab-seeding');
+        return {orbits: window.__pl.doc().get_model_by_name('phaselab-linked-seeds').data.x.length,
+                slab: on ? {name: row.querySelector('select').value,
+                            center: parseFloat(row.querySelector('.widget-readout').textContent),
+                            half_width: parseFloat(row.querySelector('input[type=number]').value)} : null,
+                window: [main.x_range.start, main.x_range.end, main.y_range.start, main.y_range.end]};
+    }""")
 
 
 def _click_latencies(page, count):

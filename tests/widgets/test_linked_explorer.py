@@ -366,3 +366,144 @@ def test_colour_by_megno(ex):
         assert np.all(d["value"][d["orbit"] == o.id] == o.scalar)
     assert ex.figures.point_renderers[0].glyph.fill_color["field"] == "value"
     ex.set_color(None)
+
+
+# ---------------------------------------------------------------------- the kept picture
+class _Handle:
+    """Stands for the display handle of the picture's output: keeps what it is sent."""
+
+    def __init__(self):
+        self.sent = []
+
+    def update(self, obj, **kwargs):
+        self.sent.append((obj, kwargs))
+
+
+def _drawn(explorer):
+    """Draw the kept picture now (as after the quiet spell); returns (png bytes, state)."""
+    explorer.picture.handle = explorer.picture.handle or _Handle()
+    explorer._draw_picture()
+    assert explorer.wait(60)
+    return explorer.picture.png, explorer.picture.state
+
+
+def test_the_picture_is_shown_on_display_marked_and_hidden_beside_the_live_explorer(springs, monkeypatch):
+    import IPython.display
+
+    from phaselab.widgets import page
+
+    shown = []
+
+    def display(*objs, **kwargs):
+        shown.append((objs, kwargs))
+        return _Handle() if kwargs.get("display_id") else None
+
+    monkeypatch.setattr(IPython.display, "display", display)
+    e = phaselab.explore(springs, energy=E0, plane=PLANE, crossings=CROSSINGS, background=False)
+    try:
+        e._repr_mimebundle_()
+        marked = [kw for _, kw in shown if kw.get("metadata") == {page.PICTURE_MARK: {"picture": e.picture.cls}}]
+        assert len(marked) == 1 and marked[0]["display_id"] is True and e.picture.handle is not None
+        # the explorer's style sheet hides the picture's output while the live explorer is on the page
+        assert e.picture.hide_rule in e.controls.style.value and f".{e.picture.cls}" in e.picture.hide_rule
+        # the page says when it built a view: the ready source is part of the document
+        assert e.figures.ready in e.figures.main.tags
+        assert e.figures.ready_callback in e.figures.main.js_property_callbacks["change:inner_width"]
+    finally:
+        e.close()
+
+
+def test_the_picture_counts_a_new_orbit_and_the_slab(springs):
+    e = phaselab.explore(springs, energy=E0, plane=PLANE, crossings=CROSSINGS, background=False)
+    try:
+        png, state = _drawn(e)
+        assert png == b"" and state["orbits"] == 0 and "no orbits shown" in e.picture.handle.sent[-1][0].data
+        e.add_seeds([(0.3, 0.25), (-0.2, 0.4)], held={"x2": 0.1, "p2": -0.1})
+        png, state = _drawn(e)
+        every = np.concatenate([r.points for r in e.orbits])
+        assert state["orbits"] == 2 and state["points"] == len(every) == e.figures.n_rows
+        assert state["colour"] == "own" and state["slab"] is None
+        main = e.figures.main
+        assert state["window"] == pytest.approx([main.x_range.start, main.x_range.end, main.y_range.start,
+                                                 main.y_range.end], rel=1e-5)  # 6 digits kept
+        e.set_slab("p2", -0.1, 0.05)
+        e.set_color("x2")
+        png, state = _drawn(e)
+        # the slab's points counted directly with numpy from the orbits' points (column p2)
+        inside = int(np.sum(np.abs(every[:, e.view.coordinates.index("p2")] + 0.1) < 0.05))
+        assert state["slab"] == {"name": "p2", "center": -0.1, "half_width": 0.05} and state["points"] == inside
+        assert state["colour"] == "x2"
+        caption = e.picture.handle.sent[-1][0].data
+        assert "coloured by orbit" in caption and "data-state=" in caption
+    finally:
+        e.close()
+
+
+def test_the_picture_is_scheduled_after_each_kind_of_change(springs):
+    e = phaselab.explore(springs, energy=E0, plane=PLANE, crossings=CROSSINGS, background=False)
+    calls = []
+    e._schedule_picture = lambda: calls.append(1)
+
+    def changed(action):
+        n = len(calls)
+        action()
+        assert len(calls) > n, action
+
+    try:
+        changed(lambda: e.add_seed(0.3, 0.25))                  # a new orbit
+        changed(lambda: e.add_seeds([(-0.2, 0.4), (0.1, 0.1)]))
+        changed(lambda: e.set_slab("x2", 0.0, 0.1))             # slab on, moved, off
+        changed(lambda: e.set_slab(center=0.05))
+        changed(e.clear_slab)
+        changed(lambda: e.set_color("p1"))                      # colouring
+        changed(lambda: e.set_color(None))
+        changed(lambda: e.set_energy(0.45))                     # the energy slider
+        changed(lambda: e.set_params(k=0.12))                   # a parameter slider
+        changed(e.undo)
+        changed(e.clear)
+        changed(lambda: setattr(e.figures.main.x_range, "start", -0.3))   # a zoom from the page
+    finally:
+        e.close()
+
+
+def test_a_page_building_the_linked_explorer_again_gets_the_picture_again_or_is_told(springs):
+    from phaselab.widgets import messages
+
+    e = phaselab.explore(springs, energy=E0, plane=PLANE, crossings=CROSSINGS, background=False)
+    calls = []
+    e._schedule_picture = lambda: calls.append(1)
+    try:
+        e.picture.handle = object()        # as after a display in a notebook
+        e._page_ready({"n": [1.0], "keeper": [1]})   # the first view: nothing more to do
+        assert calls == []
+        e.bokeh.get_state()                # what a reloaded page asks for
+        e.figures.ready.data = {"n": [2.0], "keeper": [1]}   # written by the page: the plugin is there
+        assert calls == [1] and messages.PAGE_REBUILT not in e.status
+        e._page_ready({"n": [3.0], "keeper": [0]})   # a page without it
+        assert calls == [1] and messages.PAGE_REBUILT in e.status
+    finally:
+        e.close()
+
+
+def test_the_picture_decodes_at_the_size_export_draws(springs):
+    import io
+
+    import matplotlib.image
+
+    from phaselab.widgets.explorer.picture_keeping import PICTURE_DPI
+
+    e = phaselab.explore(springs, energy=E0, plane=PLANE, crossings=CROSSINGS, background=False)
+    try:
+        e.add_seeds([(0.3, 0.25), (-0.2, 0.4)], held={"x2": 0.1, "p2": -0.1})
+        png, _ = _drawn(e)
+        image = matplotlib.image.imread(io.BytesIO(png), format="png")
+        # pixels = inches x dots per inch (matplotlib's figure size, common practice); the
+        # grid of four coordinates is 1.6 in a panel: 6.4 x 6.8 inches (export/slice_figures.py)
+        assert image.shape[:2] == (round(6.8 * PICTURE_DPI), round(6.4 * PICTURE_DPI))
+        assert image[..., :3].min() < 0.5          # something dark is drawn (axes, points)
+        e.set_slab("p2", -0.1, 0.05)
+        png, _ = _drawn(e)
+        image = matplotlib.image.imread(io.BytesIO(png), format="png")
+        assert image.shape[:2] == (round(4.8 * PICTURE_DPI), round(6.0 * PICTURE_DPI))   # the slice: 6 x 4.8 in
+    finally:
+        e.close()

@@ -24,6 +24,8 @@ The :class:`Explorer` is assembled here from one plain class per file:
 :mod:`~phaselab.widgets.explorer.view_commands` (the public commands),
 :mod:`~phaselab.widgets.explorer.wiring` (controls and figure events to commands),
 :mod:`~phaselab.widgets.explorer.scheduling` (worker requests and the status text),
+:mod:`~phaselab.widgets.explorer.picture_keeping` (the picture kept for a notebook without kernel,
+shared with the linked explorer),
 :mod:`~phaselab.widgets.explorer.drawing` (the figures, one patch per update) and
 :mod:`~phaselab.widgets.explorer.files` (session files and Export).
 """
@@ -48,6 +50,7 @@ from phaselab.widgets.explorer.files import EXPORT_FORMATS, SessionFiles, safe_s
 from phaselab.widgets.explorer.linked import LinkedExplorer, wants_linked
 from phaselab.widgets.explorer.normal_form_curves import NormalFormCurves
 from phaselab.widgets.explorer.orbit_commands import OrbitCommands
+from phaselab.widgets.explorer.picture_keeping import PictureKeeping
 from phaselab.widgets.explorer.scheduling import Scheduling
 from phaselab.widgets.explorer.view_commands import ViewCommands
 from phaselab.widgets.explorer.wiring import Wiring
@@ -76,7 +79,8 @@ def load_bokehjs(force=True):
 def _building(event, what):
     """The compile listener while an explorer is built: it only keeps the console quiet."""
 
-class Explorer(OrbitCommands, ViewCommands, Wiring, Scheduling, Drawing, SessionFiles, NormalFormCurves, W.VBox):
+class Explorer(OrbitCommands, ViewCommands, Wiring, Scheduling, PictureKeeping, Drawing, SessionFiles, NormalFormCurves,
+               W.VBox):
     """The interactive explorer (see :func:`explore` for the parameters).
 
     Attributes
@@ -263,8 +267,7 @@ class Explorer(OrbitCommands, ViewCommands, Wiring, Scheduling, Drawing, Session
 
         load()
         self.bokeh.refresh(send=True)
-        self.picture.show()
-        self._schedule_picture()
+        self._show_picture()
         return super()._repr_mimebundle_(**kwargs)
 
     def close(self):

@@ -4,6 +4,7 @@ orbits and manifolds, the orbit count, all sent to the page as one patch per upd
 from __future__ import annotations
 
 from phaselab.widgets.marks_key import key_entries, key_html
+from phaselab.widgets.worker import call_later
 
 
 class Drawing:
@@ -104,11 +105,7 @@ class Drawing:
 
     def _soon(self, delay, fn):
         """Call ``fn()`` after ``delay`` seconds on the kernel's event loop; at once without one."""
-        loop = self._loop
-        if loop is not None and not loop.is_closed() and loop.is_running():
-            loop.call_later(delay, fn)
-        else:
-            fn()
+        call_later(self._loop, delay, fn)
 
     def _show_count(self):
         """The orbit and point count under the plot."""

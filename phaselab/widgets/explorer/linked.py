@@ -11,7 +11,9 @@
   ``|w - w0| < eps`` in every projection (Richter, Lange, Baecker and Ketzmerick, Phys.
   Rev. E 89, 022902, 2014), so the projections not involving ``w`` show the slice;
 * colouring by the orbit, by a section coordinate (the hidden one of Froeschle's method) or
-  by a chaos indicator (MEGNO, ...).
+  by a chaos indicator (MEGNO, ...);
+* a picture of the last state (the figure Export writes) kept in an output beside the
+  widget, for a notebook opened without a kernel (explorer/picture_keeping.py).
 
 Section points are model results; where they inform a design decision confirm them with
 validated tools and the responsible engineers.
@@ -34,6 +36,7 @@ from phaselab.widgets.controls import slider_range
 from phaselab.widgets.explorer.files import EXPORT_FORMATS, safe_stem
 from phaselab.widgets.explorer.linked_commands import LinkedCommands
 from phaselab.widgets.explorer.linked_files import LinkedFiles
+from phaselab.widgets.explorer.picture_keeping import PictureKeeping
 from phaselab.widgets.linked_controls import SLAB_FRACTION, LinkedControls
 from phaselab.widgets.session import Session
 from phaselab.widgets.views.section4_view import Section4View
@@ -54,7 +57,7 @@ def wants_linked(system, plane=None, solve_for=None) -> bool:
     return plane is None or (isinstance(plane, dict) and len(plane) == 1)
 
 
-class LinkedExplorer(LinkedCommands, LinkedFiles, W.VBox):
+class LinkedExplorer(LinkedCommands, LinkedFiles, PictureKeeping, W.VBox):
     """The explorer of sections with four or more coordinates (see :func:`phaselab.explore`).
 
     Attributes
@@ -77,6 +80,7 @@ class LinkedExplorer(LinkedCommands, LinkedFiles, W.VBox):
     def __init__(self, system, energy=None, plane=None, solve_for=None, crossings=300, params=None, **options):
         from phaselab.widgets.linked_figures import LinkedFigures
         from phaselab.widgets.linked_page import LinkedBokehModel
+        from phaselab.widgets.page import StaticPicture
 
         unknown = sorted(set(options) - set(OPTIONS))
         if unknown:
@@ -103,6 +107,7 @@ class LinkedExplorer(LinkedCommands, LinkedFiles, W.VBox):
         if bad or not self.export_formats:
             raise ParameterError(f"export_formats must be some of .png .svg .pdf .csv .nc; got {formats!r}")
         self.jobs = JobRunner(o.get("background", True))
+        self.idle_jobs = JobRunner(o.get("background", True))   # the kept picture: never before a click
         self._loop = current_loop()
         self.name = o.get("title") or getattr(system, "name", "system")
         self.last_timing: dict[str, float] = {}
@@ -126,7 +131,10 @@ class LinkedExplorer(LinkedCommands, LinkedFiles, W.VBox):
         self._wire_figures()   # before the document is made: its events are subscribed then
         self.bokeh = LinkedBokehModel(self.figures.layout, self.figures.points.selected, combine_events=False)
         self.bokeh.add_class("pl-plot")
-        self.controls = c = LinkedControls(self.name, self.view.describe(), f"pl-readout-{self._uid}", coords)
+        self._wire_page_ready()
+        self.picture = StaticPicture(self._uid)
+        self.controls = c = LinkedControls(self.name, self.view.describe(), f"pl-readout-{self._uid}", coords,
+                                           self.picture.hide_rule)
         self._add_controls(energy, o.get("energy_range"), p0)
         c.stem.value = f"{safe_stem(self.name)}-section"
         self.color_by = None
@@ -191,6 +199,16 @@ class LinkedExplorer(LinkedCommands, LinkedFiles, W.VBox):
         for slot in self.figures.slots:
             slot.selected.on_change("indices", self._on_selection)
 
+    def _wire_page_ready(self):
+        """A page that built a view says so (resend the document if it changed, the kept
+        picture after a rebuild); a zoom or pan of the seeding projection redraws the picture."""
+        f = self.figures
+        f.main.js_on_change("inner_width", f.ready_callback)
+        f.ready.on_change("data", lambda attr, old, new: self._page_ready(new))
+        for r in (f.main.x_range, f.main.y_range):
+            for end in ("start", "end"):
+                r.on_change(end, lambda attr, old, new: self._schedule_picture())
+
     def _wire(self):
         c = self.controls
         c.clear.on_click(lambda _: self.clear())
@@ -230,9 +248,11 @@ class LinkedExplorer(LinkedCommands, LinkedFiles, W.VBox):
         """Block until pending computations are done and shown (scripts and tests)."""
         end = time.monotonic() + timeout
         while True:
-            if not self.jobs.wait(max(end - time.monotonic(), 0.0)):
+            ok = self.jobs.wait(max(end - time.monotonic(), 0.0)) and \
+                self.idle_jobs.wait(max(end - time.monotonic(), 0.0))
+            if not ok:
                 return False
-            if not self.jobs.busy:
+            if not self.jobs.busy and not self.idle_jobs.busy:
                 return True
 
     def _repr_mimebundle_(self, **kwargs):
@@ -240,6 +260,7 @@ class LinkedExplorer(LinkedCommands, LinkedFiles, W.VBox):
 
         load()
         self.bokeh.refresh(send=True)
+        self._show_picture()
         return super()._repr_mimebundle_(**kwargs)
 
     def _on_compile_event(self, event, what):
@@ -251,6 +272,7 @@ class LinkedExplorer(LinkedCommands, LinkedFiles, W.VBox):
 
     def close(self):
         progress.remove_listener(self._on_compile_event)
-        if hasattr(self, "jobs"):
-            self.jobs.close()
+        for runner in ("jobs", "idle_jobs"):
+            if hasattr(self, runner):
+                getattr(self, runner).close()
         super().close()

@@ -209,6 +209,7 @@ class LinkedCommands:
         self._sync({"c": self.controls.color}, {"c": color_by or ""})
         with self._patch(models_change=True):
             self._draw_color()
+        self._schedule_picture()
         if color_by in scales.CHAOS_INDICATORS and old != color_by and self.session.orbits:
             self._recompute_all()   # the values of the new indicator
 
@@ -253,6 +254,7 @@ class LinkedCommands:
             self.figures.set_slab_rows(self._slab_rows())
         self.last_timing["slab"] = time.perf_counter() - t0
         self._show_count()
+        self._schedule_picture()
 
     def _slab_rows(self):
         """Rows of the whole table inside the slab, or None without a slab."""
@@ -342,6 +344,7 @@ class LinkedCommands:
                 self.figures.set_slab_rows(self._slab_rows())
         self.last_timing["columns"] = time.perf_counter() - t0
         self._show_count()
+        self._schedule_picture()
 
     def _show_seed_marks(self):
         a, b = self._pair
@@ -368,6 +371,7 @@ class LinkedCommands:
             self._show_seed_marks()
         self.last_timing["columns"] = time.perf_counter() - t0
         self._show_count()
+        self._schedule_picture()
         if self.figures.n_fresh:
             delay = 0.0 if self.figures.slots_full else FOLD_DELAY
             self.jobs.submit("fold", lambda: None, lambda out: self._fold(), delay=delay)
@@ -390,6 +394,7 @@ class LinkedCommands:
             self._show_seed_marks()
         self.last_timing["columns"] = time.perf_counter() - t0
         self._show_count()
+        self._schedule_picture()
 
     def _fold(self):
         """The fresh rows into the big source (with the slab on, every point sent again)."""

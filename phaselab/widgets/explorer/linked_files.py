@@ -1,17 +1,31 @@
 """The linked explorer's files: the session JSON file (the format of the plane explorer, kind
-``"section4"``, each orbit's seed in all section coordinates) and Export (data of the
-section; figures of the projection grid, or of the slice while a slab is on)."""
+``"section4"``, each orbit's seed in all section coordinates), Export (data of the
+section; figures of the projection grid, or of the slice while a slab is on) and the
+picture kept for a notebook opened without a kernel (the figure Export writes, at a low
+resolution; kept by :mod:`~phaselab.widgets.explorer.picture_keeping`)."""
 
 from __future__ import annotations
 
 import numpy as np
 
 from phaselab.errors import ParameterError
+from phaselab.orbits.slices import projection_grid, section_slice
+from phaselab.widgets import computations, scales
 from phaselab.widgets.explorer.files import safe_stem
+from phaselab.widgets.explorer.picture_keeping import PICTURE_DPI
 from phaselab.widgets.orbit_sections import merge_sections
 from phaselab.widgets.session import read_session, write_session
 from phaselab.widgets.explorer.session_buttons import SessionButtons
 from phaselab.widgets.worker import Outcome
+
+
+def slice_of(section, coordinates, slab):
+    """The :class:`~phaselab.orbits.slices.SectionSlice` the projections show: the slice of
+    ``slab`` (a :class:`~phaselab.widgets.linked_points.Slab`) when given, else the grid of
+    every pairwise projection of ``coordinates``."""
+    if slab is None:
+        return projection_grid(section, coordinates=list(coordinates))
+    return section_slice(section, slab.name, slab.center, slab.half_width)
 
 
 class LinkedFiles(SessionButtons):
@@ -24,14 +38,52 @@ class LinkedFiles(SessionButtons):
     def sliced(self):
         """What the projections show as a :class:`~phaselab.orbits.slices.SectionSlice`: the
         slice while the slab is on, else the grid of every pairwise projection."""
-        from phaselab.orbits.slices import projection_grid, section_slice
-
         sec = self.section()
         if sec is None:
             raise ParameterError("there are no orbits to export yet")
-        if self.slab is None:
-            return projection_grid(sec, coordinates=list(self.view.coordinates))
-        return section_slice(sec, self.slab.name, self.slab.center, self.slab.half_width)
+        return slice_of(sec, self.view.coordinates, self.slab)
+
+    # ------------------------------------------------------------------ the kept picture
+    def _picture_job(self):
+        """What the picture kept for a notebook without kernel shows now (see
+        :mod:`~phaselab.widgets.explorer.picture_keeping`): the figure Export writes, drawn
+        in the worker from the shown orbits' sections; its state; a caption note."""
+        sections = [r.section for r in self.session.shown() if r.section is not None]
+        coords, slab, title = list(self.view.coordinates), self.slab, self.name
+        state = self._picture_state()
+
+        def compute():
+            if not sections:
+                return b""
+            return computations.slice_png(slice_of(merge_sections(sections), coords, slab), dpi=PICTURE_DPI,
+                                          title=title)
+
+        return compute, state, self._picture_note(state)
+
+    def _picture_state(self) -> dict:
+        """What the picture shows, in numbers to compare with the page: orbits and points
+        shown (inside the slab while it is on), the colouring, the slab, the seeding
+        projection's window (x0, x1, y0, y1)."""
+        main = self.figures.main
+        window = [main.x_range.start, main.x_range.end, main.y_range.start, main.y_range.end]
+        shown = self.session.shown()
+        return {"orbits": len(shown), "points": int(len(self.shown_rows())) if shown else 0,
+                "colour": self.color_by or "own",
+                "slab": None if self.slab is None else self.slab.record(),
+                "window": [float(f"{v:.6g}") for v in window]}
+
+    def _picture_note(self, state) -> str:
+        """The caption's words on what the picture shows beyond the plain grid."""
+        if not state["orbits"]:
+            return " (no orbits shown)"
+        words = ""
+        if self.slab is not None:
+            words += f", the slice |{self.slab.name} - {self.slab.center:.4g}| < {self.slab.half_width:.3g}"
+        if self.color_by is not None:
+            by = (self.view.label_of(self.color_by) if self.color_by in self.view.coordinates
+                  else scales.MENU_WORDS.get(self.color_by, self.color_by))
+            words += f"; points coloured by orbit (the live explorer colours them by {by})"
+        return words
 
     def export(self, stem=None, formats=None):
         """Save figures (.png .svg .pdf: the grid, or the slice) and data (.csv .nc of the

@@ -1,5 +1,6 @@
 """When the explorer's computations run and what the status line says about them: the worker
-requests, the recomputations, the warm-up, the delayed picture, and the status text."""
+requests, the recomputations, the warm-up, what the kept picture shows (its scheduling is
+:mod:`~phaselab.widgets.explorer.picture_keeping`'s), and the status text."""
 
 from __future__ import annotations
 
@@ -9,11 +10,10 @@ import numpy as np
 
 from phaselab.errors import PhaselabError
 from phaselab.widgets import computations, messages
+from phaselab.widgets.explorer.picture_keeping import PICTURE_DPI
 from phaselab.widgets.messages import number
 from phaselab.widgets.worker import Outcome
 
-#: Seconds of quiet after which the saved-notebook picture is redrawn.
-PICTURE_DELAY = 2.5
 #: Seconds for which the end of a compilation stays in the status line.
 COMPILE_NOTE_SECONDS = 10.0
 #: Seconds of quiet after which the companion panels follow the selected orbit: longer than
@@ -224,46 +224,15 @@ class Scheduling:
         self._submit("warm-up", "", section,
                      lambda out: self._submit("warm-up trace", "", trace, lambda o: None, runner=self.idle_jobs))
 
-    def _schedule_picture(self):
-        """Redraw the picture kept for a notebook opened without a kernel once changes pause
-        for :data:`PICTURE_DELAY` seconds. Called after every change the page is sent (one
-        patch), every zoom or pan, and every display; a burst of changes draws once, from the
-        state at its end."""
-        if self.picture.handle is None or not self.jobs.background:
-            return
-        # the snapshot is taken on the widgets' thread when the quiet spell is over
-        self.idle_jobs.submit("picture", lambda: None, lambda out: self._draw_picture(), delay=PICTURE_DELAY)
-
-    def _page_ready(self, data):
-        """A page has built a view of the explorer (``data``: what its page code wrote in the
-        ``ready`` source). Send the current document if it changed meanwhile; when the view is
-        a rebuild (a reload, another tab), send the picture again, so that the copy saved in
-        that page's notebook shows the last state, or, on a page without phaselab's JupyterLab
-        plugin (widgets/page.py), say that the copy there stays as it was."""
-        self.bokeh.refresh(send=True)
-        if self.bokeh.page_builds == 0 or self.picture.handle is None:
-            return
-        keeper = data.get("keeper") or [0]
-        if keeper[-1]:
-            self._schedule_picture()
-        else:
-            self._soon(0.5, lambda: self._say(messages.PAGE_REBUILT, refused=True))
-
-    def _draw_picture(self):
-        if self.picture.handle is None:
-            return
+    def _picture_job(self):
+        """What the kept picture shows now (see :mod:`~phaselab.widgets.explorer.picture_keeping`):
+        the drawing of a snapshot of the view, its state, no caption note."""
         snap = self.snapshot()
-        state = self._picture_state(snap)
-        caption = f"{self.name}: picture of the explorer's last state (run the notebook for the live explorer)"
 
         def compute():
-            return computations.picture_png(snap, dpi=80)
+            return computations.picture_png(snap, dpi=PICTURE_DPI)
 
-        def deliver(out: Outcome):
-            if out.error is None:
-                self.picture.update(out.value, caption, state)
-
-        self.idle_jobs.submit("picture-draw", compute, deliver)
+        return compute, self._picture_state(snap), ""
 
     def _picture_state(self, snap):
         """What the picture shows, in numbers a reader (or a test) can compare with the page:
