@@ -65,6 +65,17 @@ def call_later(loop, delay: float, fn: Callable[[], None]) -> None:
         fn()
 
 
+def wait_all(runners, timeout: float = 60.0) -> bool:
+    """Block until none of ``runners`` has a request waiting or running (a result delivered
+    by one may ask another for more); ``False`` on timeout. For scripts and tests."""
+    end = time.monotonic() + timeout
+    while True:
+        if not all(r.wait(max(end - time.monotonic(), 0.0)) for r in runners):
+            return False
+        if not any(r.busy for r in runners):
+            return True
+
+
 class JobRunner:
     """A single worker thread with keyed, newest-wins requests.
 

@@ -50,7 +50,7 @@ e{k}"""
 SETTLE_CELL = """explorers = (e0, e1, e2)
 for _ in range(1200):
     await asyncio.sleep(0.25)
-    if all(e.picture.state.get("orbits") == 2 and not e.jobs.busy and not e.idle_jobs.busy for e in explorers):
+    if all(e.picture.state.get("orbits") == 2 and not (e.jobs.busy or e.idle_jobs.busy or e.picture_jobs.busy) for e in explorers):
         break
 await asyncio.sleep(0.5)"""
 

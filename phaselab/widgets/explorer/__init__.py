@@ -33,7 +33,6 @@ shared with the linked explorer),
 from __future__ import annotations
 
 import secrets
-import time
 from collections import deque
 from pathlib import Path
 
@@ -56,7 +55,7 @@ from phaselab.widgets.explorer.view_commands import ViewCommands
 from phaselab.widgets.explorer.wiring import Wiring
 from phaselab.widgets.session import OrbitRecord, Session
 from phaselab.widgets.views import make_view
-from phaselab.widgets.worker import JobRunner, current_loop
+from phaselab.widgets.worker import JobRunner, current_loop, wait_all
 
 __all__ = ["explore", "Explorer", "LinkedExplorer", "OrbitRecord", "load_bokehjs"]
 
@@ -143,7 +142,8 @@ class Explorer(OrbitCommands, ViewCommands, Wiring, Scheduling, PictureKeeping, 
         self.color_by = color_by
         self._color_label = color_label
         self.jobs = JobRunner(background)
-        self.idle_jobs = JobRunner(background)
+        self.idle_jobs = JobRunner(background)     # companion panels, warm-up compiles
+        self.picture_jobs = JobRunner(background)  # the kept picture: never behind a compile
         self._loop = current_loop()
         self.last_timing: dict[str, float] = {}
         # per seed request: the page's tap, points drawn, patch sent (wall clock, s) and the
@@ -250,16 +250,13 @@ class Explorer(OrbitCommands, ViewCommands, Wiring, Scheduling, PictureKeeping, 
     def _stem(self):
         return self.controls.stem
 
+    def _runners(self):
+        """The explorer's job runners (those made so far, if its construction failed)."""
+        return [getattr(self, name) for name in ("jobs", "idle_jobs", "picture_jobs") if hasattr(self, name)]
+
     def wait(self, timeout=60.0) -> bool:
         """Block until pending computations are done and shown (scripts and tests)."""
-        end = time.monotonic() + timeout
-        while True:
-            ok = self.jobs.wait(max(end - time.monotonic(), 0.0)) and \
-                self.idle_jobs.wait(max(end - time.monotonic(), 0.0))
-            if not ok:
-                return False
-            if not self.jobs.busy and not self.idle_jobs.busy:
-                return True
+        return wait_all(self._runners(), timeout)
 
     # ================================================================= display
     def _repr_mimebundle_(self, **kwargs):
@@ -273,9 +270,8 @@ class Explorer(OrbitCommands, ViewCommands, Wiring, Scheduling, PictureKeeping, 
     def close(self):
         if hasattr(self, "_progress"):
             self._progress.remove_listener(self._on_compile_event)
-        for runner in ("jobs", "idle_jobs"):
-            if hasattr(self, runner):
-                getattr(self, runner).close()
+        for runner in self._runners():
+            runner.close()
         super().close()
 
 

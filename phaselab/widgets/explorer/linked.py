@@ -22,7 +22,6 @@ validated tools and the responsible engineers.
 from __future__ import annotations
 
 import secrets
-import time
 from pathlib import Path
 
 import ipywidgets as W
@@ -40,7 +39,7 @@ from phaselab.widgets.explorer.picture_keeping import PictureKeeping
 from phaselab.widgets.linked_controls import SLAB_FRACTION, LinkedControls
 from phaselab.widgets.session import Session
 from phaselab.widgets.views.section4_view import Section4View
-from phaselab.widgets.worker import JobRunner, current_loop
+from phaselab.widgets.worker import JobRunner, current_loop, wait_all
 
 #: Options of :func:`phaselab.explore` the linked explorer takes (besides the essentials).
 OPTIONS = ("ranges", "sign", "axes", "held", "energy_range", "color_by", "background", "export_dir",
@@ -107,7 +106,7 @@ class LinkedExplorer(LinkedCommands, LinkedFiles, PictureKeeping, W.VBox):
         if bad or not self.export_formats:
             raise ParameterError(f"export_formats must be some of .png .svg .pdf .csv .nc; got {formats!r}")
         self.jobs = JobRunner(o.get("background", True))
-        self.idle_jobs = JobRunner(o.get("background", True))   # the kept picture: never before a click
+        self.picture_jobs = JobRunner(o.get("background", True))   # the kept picture: never before a click
         self._loop = current_loop()
         self.name = o.get("title") or getattr(system, "name", "system")
         self.last_timing: dict[str, float] = {}
@@ -244,16 +243,13 @@ class LinkedExplorer(LinkedCommands, LinkedFiles, PictureKeeping, W.VBox):
     def status(self) -> str:
         return self._message
 
+    def _runners(self):
+        """The explorer's job runners (those made so far, if its construction failed)."""
+        return [getattr(self, name) for name in ("jobs", "picture_jobs") if hasattr(self, name)]
+
     def wait(self, timeout=60.0) -> bool:
         """Block until pending computations are done and shown (scripts and tests)."""
-        end = time.monotonic() + timeout
-        while True:
-            ok = self.jobs.wait(max(end - time.monotonic(), 0.0)) and \
-                self.idle_jobs.wait(max(end - time.monotonic(), 0.0))
-            if not ok:
-                return False
-            if not self.jobs.busy and not self.idle_jobs.busy:
-                return True
+        return wait_all(self._runners(), timeout)
 
     def _repr_mimebundle_(self, **kwargs):
         from phaselab.widgets.page import load_bokehjs as load
@@ -272,7 +268,6 @@ class LinkedExplorer(LinkedCommands, LinkedFiles, PictureKeeping, W.VBox):
 
     def close(self):
         progress.remove_listener(self._on_compile_event)
-        for runner in ("jobs", "idle_jobs"):
-            if hasattr(self, runner):
-                getattr(self, runner).close()
+        for runner in self._runners():
+            runner.close()
         super().close()

@@ -10,7 +10,6 @@ import html
 import ipywidgets as W
 
 from phaselab.errors import PhaselabError
-from phaselab.widgets import theme
 from phaselab.widgets.normal_form_overlay import (DEFAULT_COUNT, DEFAULT_ORDER, MAX_COUNT, ORDERS, NormalFormOverlay,
                                                   check_count, check_order)
 from phaselab.widgets.worker import Outcome

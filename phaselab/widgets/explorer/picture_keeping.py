@@ -5,7 +5,8 @@
 The picture is a :class:`~phaselab.widgets.page.StaticPicture`: an ordinary output next to
 the widget, hidden by the explorer's style sheet while the live explorer is on the page. It
 is shown when the explorer is displayed and redrawn once changes pause for
-:data:`PICTURE_DELAY` seconds, in the idle job runner, so a click never waits for it. When a
+:data:`PICTURE_DELAY` seconds, in a job runner of its own, so a click never waits for it
+and it never waits behind a compile (a first click's, a companion panel's). When a
 page rebuilds its view of the explorer (a reload, another tab) the picture is sent again, for
 phaselab's JupyterLab plugin to write into that page's notebook; a page without the plugin
 is told that its saved copy stays as it was (``messages.PAGE_REBUILT``).
@@ -29,8 +30,8 @@ PICTURE_DPI = 80
 class PictureKeeping:
     """Showing, scheduling, drawing and resending the kept picture.
 
-    The explorer provides ``picture`` (a StaticPicture), ``jobs`` and ``idle_jobs``
-    (JobRunners), ``bokeh`` (a LiveBokehModel), ``name``, ``_loop``, ``_say(text, refused)``
+    The explorer provides ``picture`` (a StaticPicture), ``jobs`` and ``picture_jobs``
+    (JobRunners: the picture's own, so it never waits behind a compile), ``bokeh`` (a LiveBokehModel), ``name``, ``_loop``, ``_say(text, refused)``
     and ``_picture_job()``.
     """
 
@@ -48,7 +49,7 @@ class PictureKeeping:
         if self.picture.handle is None or not self.jobs.background:
             return
         # the state is taken on the widgets' thread when the quiet spell is over
-        self.idle_jobs.submit("picture", lambda: None, lambda out: self._draw_picture(), delay=PICTURE_DELAY)
+        self.picture_jobs.submit("picture", lambda: None, lambda out: self._draw_picture(), delay=PICTURE_DELAY)
 
     def _page_ready(self, data):
         """A page has built a view of the explorer (``data``: what its page code wrote in the
@@ -67,7 +68,7 @@ class PictureKeeping:
             call_later(self._loop, 0.5, lambda: self._say(messages.PAGE_REBUILT, refused=True))
 
     def _draw_picture(self):
-        """Take what to draw now, draw it in the idle worker, then replace the picture."""
+        """Take what to draw now, draw it in the picture's worker, then replace the picture."""
         if self.picture.handle is None:
             return
         compute, state, note = self._picture_job()
@@ -77,4 +78,4 @@ class PictureKeeping:
             if out.error is None:
                 self.picture.update(out.value, caption, state)
 
-        self.idle_jobs.submit("picture-draw", compute, deliver)
+        self.picture_jobs.submit("picture-draw", compute, deliver)
