@@ -18,7 +18,7 @@ from __future__ import annotations
 import numpy as np
 
 from phaselab.widgets import theme
-from phaselab.widgets.page import ready_source
+from phaselab.widgets.page_sync import page_sync
 from phaselab.widgets.shading import polygon_columns
 
 #: matplotlib marker codes of phaselab.export.structures.MARKERS -> bokeh marker names
@@ -250,8 +250,8 @@ class Figures:
         self.main = main
         self.drag_tool = drag
         # set by the page when a view of the document has been built (see Explorer)
-        self.ready, self.ready_callback = ready_source()
-        main.tags = [self.ready]  # part of the document without a view of its own
+        self.sync = page_sync()
+        main.tags = self.sync.models  # part of the document without a view of their own
 
         bar = figure(width=110, height=FRAME_H + 60, toolbar_location=None, tools=[], min_border=0,
                      outline_line_color=None, name="phaselab-colorbar", x_range=(0, 1), y_range=(0, 1))

@@ -27,7 +27,7 @@ import numpy as np
 
 from phaselab.widgets import theme
 from phaselab.widgets.linked_points import column_name, empty_columns
-from phaselab.widgets.page import ready_source
+from phaselab.widgets.page_sync import page_sync
 
 #: Frame of the seeding projection (px).
 SEED_FRAME = 400
@@ -92,9 +92,8 @@ class LinkedFigures:
         The pairwise projections, lower triangle, row by row.
     point_renderers : list of GlyphRenderer
         Every renderer of ``points`` (one per figure).
-    ready : ColumnDataSource
-        Written by the page when it has built a view (:func:`~phaselab.widgets.page.ready_source`);
-        ``ready_callback`` is the page code that writes it.
+    sync : PageSync
+        The page's report of its views (:mod:`phaselab.widgets.page_sync`).
     """
 
     def __init__(self, labels, windows, pair):
@@ -157,8 +156,8 @@ class LinkedFigures:
         self.main = main
         # set by the page when a view of the document has been built (the kept picture is
         # sent again after a rebuild: explorer/picture_keeping.py)
-        self.ready, self.ready_callback = ready_source()
-        main.tags = [self.ready]  # part of the document without a view of its own
+        self.sync = page_sync()
+        main.tags = self.sync.models  # part of the document without a view of their own
 
         side = max(70, int(GRID_FRAME / max(k - 1, 1)))
         cells = []

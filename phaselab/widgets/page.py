@@ -50,12 +50,16 @@ class LiveBokehModel(BokehModel):
     """A BokehModel whose ``render_bundle`` is brought up to date before a view is made.
 
     ``changes`` counts document changes; the bundle is serialised again only when some
-    happened since it was last serialised.
+    happened since it was last serialised. With :meth:`number_patches`, every patch sent
+    carries the next ``revision`` (see :mod:`phaselab.widgets.page_sync`): a page finds
+    out itself whether its view missed any.
     """
 
     def __init__(self, model, **kwargs):
         self.changes = 0
         self._bundled = 0
+        self.revision = 0
+        self._revision_source = None
         self.page_builds = 0     # full states asked for after the first: pages (re)built a view
         self._opened = False
         super().__init__(model, **kwargs)
@@ -86,11 +90,36 @@ class LiveBokehModel(BokehModel):
 
     # ------------------------------------------------------------------ one patch per batch
     def _document_patched(self, event):
+        if getattr(event, "setter", None) is self:
+            return  # came from the page
         batch = self.__dict__.get("_batch")
-        if batch is not None and getattr(event, "setter", None) is not self:
+        if batch is not None:
             batch.append(event)
-            return
-        super()._document_patched(event)
+        elif self._revision_source is None:
+            super()._document_patched(event)
+        else:
+            with self.batch():  # a change made outside a batch: a patch of its own, numbered
+                self._batch.append(event)
+
+    def number_patches(self, source):
+        """Number every patch from now on: the next integer is streamed into ``source``
+        (a ColumnDataSource with column ``r``, rollover 2) as the patch's last change."""
+        self._revision_source = source
+        self.revision = int(source.data["r"][-1])
+
+    def _next_revision(self):
+        self.revision += 1
+        self._revision_source.stream(dict(r=[self.revision]), rollover=2)
+
+    def answer_page(self, data: dict):
+        """Answer what a page wrote into its ``ready`` source (:mod:`phaselab.widgets.page_sync`):
+        a view that missed patches gets the whole document again; a view built at an earlier
+        revision than the kernel's gets one more number, by which it finds out."""
+        if (data.get("missed") or [0])[-1]:
+            self.refresh(send=True)
+        elif self._revision_source is not None and (data.get("revision") or [self.revision])[-1] < self.revision:
+            with self.batch():
+                self._next_revision()
 
     @contextlib.contextmanager
     def batch(self):
@@ -104,9 +133,15 @@ class LiveBokehModel(BokehModel):
         try:
             yield
         finally:
+            if self._batch and self._revision_source is not None and not self._numbered(self._batch[-1]):
+                self._next_revision()  # joins the batch: the page reads it after the rest
             events, self._batch = self._batch, None
             if events:
                 self._send_patch(events)
+
+    def _numbered(self, event) -> bool:
+        """Whether ``event`` is the streaming of a patch number."""
+        return getattr(event, "model", None) is self._revision_source
 
     def _send_patch(self, events):
         """One PATCH-DOC message for ``events``, in the framing jupyter_bokeh's page side reads
@@ -133,31 +168,6 @@ class LiveBokehModel(BokehModel):
             if self._opened:
                 self.page_builds += 1
         return super().get_state(key=key, drop_defaults=drop_defaults)
-
-
-def ready_source():
-    """The ``ready`` source of an explorer's document and the page code that fills it.
-
-    The callback, attached to a change of the main figure's ``inner_width`` (made when a
-    page lays out its view), writes once per page's document ``{"n": [time in ms],
-    "keeper": [1 or 0]}``: a view was built, and whether phaselab's JupyterLab plugin runs in
-    that page. The explorer listens to ``data`` (``PictureKeeping._page_ready``).
-
-    Returns
-    -------
-    (bokeh.models.ColumnDataSource, bokeh.models.CustomJS)
-    """
-    from bokeh.models import ColumnDataSource, CustomJS
-
-    ready = ColumnDataSource(dict(n=[], keeper=[]), name="phaselab-ready")
-    callback = CustomJS(args=dict(ready=ready), code="""
-            const doc = cb_obj.document;
-            if (doc == null || doc.__phaselab_ready) return;
-            doc.__phaselab_ready = true;
-            // whether phaselab's JupyterLab plugin runs in this page (widgets/page.py)
-            const plugin = window._JUPYTERLAB && window._JUPYTERLAB['phaselab-notebook'];
-            ready.data = {n: [Date.now()], keeper: [plugin && plugin.active ? 1 : 0]};""")
-    return ready, callback
 
 
 _HIDE_RULE = ".jp-OutputArea-child:has(.{cls}) {{ display: none; }}"

@@ -248,6 +248,10 @@ def test_explorer_in_jupyterlab(lab):
             ms, summary = _run_all_and_time(page, 300_000)
             report.append(f"first display (cold kernel cache in this lab): complete {ms:.0f} ms after the "
                           f"last cell finished: {summary}")
+            # views built from the whole document (a second one only when the first missed a
+            # patch, widgets/page_sync.py)
+            report.append("bokeh documents in the page after the first display: "
+                          + str(page.evaluate("() => window.Bokeh.documents.length")))
             page.locator(".phaselab-explorer").first.scroll_into_view_if_needed()
             page.wait_for_timeout(500)
             page.locator(".phaselab-explorer").first.screenshot(path=str(ARTIFACTS / "explorer-start.png"))

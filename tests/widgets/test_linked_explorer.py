@@ -407,8 +407,8 @@ def test_the_picture_is_shown_on_display_marked_and_hidden_beside_the_live_explo
         # the explorer's style sheet hides the picture's output while the live explorer is on the page
         assert e.picture.hide_rule in e.controls.style.value and f".{e.picture.cls}" in e.picture.hide_rule
         # the page says when it built a view: the ready source is part of the document
-        assert e.figures.ready in e.figures.main.tags
-        assert e.figures.ready_callback in e.figures.main.js_property_callbacks["change:inner_width"]
+        assert e.figures.sync.ready in e.figures.main.tags
+        assert e.figures.sync.on_build in e.figures.main.js_property_callbacks["change:inner_width"]
     finally:
         e.close()
 
@@ -477,7 +477,7 @@ def test_a_page_building_the_linked_explorer_again_gets_the_picture_again_or_is_
         e._page_ready({"n": [1.0], "keeper": [1]})   # the first view: nothing more to do
         assert calls == []
         e.bokeh.get_state()                # what a reloaded page asks for
-        e.figures.ready.data = {"n": [2.0], "keeper": [1]}   # written by the page: the plugin is there
+        e.figures.sync.ready.data = {"n": [2.0], "keeper": [1]}   # written by the page: the plugin is there
         assert calls == [1] and messages.PAGE_REBUILT not in e.status
         e._page_ready({"n": [3.0], "keeper": [0]})   # a page without it
         assert calls == [1] and messages.PAGE_REBUILT in e.status

@@ -42,7 +42,7 @@ from phaselab.codegen import progress
 from phaselab.engine import inputs
 from phaselab.errors import ParameterError
 from phaselab.model.params import finite_number
-from phaselab.widgets import messages, scales, theme
+from phaselab.widgets import messages, page_sync, scales, theme
 from phaselab.widgets.controls import Controls
 from phaselab.widgets.explorer.drawing import Drawing
 from phaselab.widgets.explorer.files import EXPORT_FORMATS, SessionFiles, safe_stem
@@ -185,10 +185,8 @@ class Explorer(OrbitCommands, ViewCommands, Wiring, Scheduling, PictureKeeping, 
         self._wire_figure_events()
         self.bokeh = LiveBokehModel(self.figures.layout, combine_events=False)
         self.bokeh.add_class("pl-plot")
-        # a view built between a display and its first patch may have missed changes: when
-        # the page says a view is ready, send the current document if anything changed
-        self.figures.main.js_on_change("inner_width", self.figures.ready_callback)
-        self.figures.ready.on_change("data", lambda attr, old, new: self._page_ready(new))
+        # a view built between a display and a patch misses it: the page finds out (page_sync)
+        page_sync.connect(self.figures.sync, self.figures.main, self.bokeh, self._page_ready)
         self.bokeh.refresh(send=True)
 
         self._add_sliders(system, energy, energy_range, p0)

@@ -30,7 +30,7 @@ import numpy as np
 from phaselab.codegen import progress
 from phaselab.errors import ParameterError
 from phaselab.model.params import finite_number
-from phaselab.widgets import scales, theme
+from phaselab.widgets import page_sync, scales, theme
 from phaselab.widgets.controls import slider_range
 from phaselab.widgets.explorer.files import EXPORT_FORMATS, safe_stem
 from phaselab.widgets.explorer.linked_commands import LinkedCommands
@@ -202,8 +202,7 @@ class LinkedExplorer(LinkedCommands, LinkedFiles, PictureKeeping, W.VBox):
         """A page that built a view says so (resend the document if it changed, the kept
         picture after a rebuild); a zoom or pan of the seeding projection redraws the picture."""
         f = self.figures
-        f.main.js_on_change("inner_width", f.ready_callback)
-        f.ready.on_change("data", lambda attr, old, new: self._page_ready(new))
+        page_sync.connect(f.sync, f.main, self.bokeh, self._page_ready)
         for r in (f.main.x_range, f.main.y_range):
             for end in ("start", "end"):
                 r.on_change(end, lambda attr, old, new: self._schedule_picture())

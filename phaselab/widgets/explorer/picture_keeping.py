@@ -52,14 +52,14 @@ class PictureKeeping:
         self.picture_jobs.submit("picture", lambda: None, lambda out: self._draw_picture(), delay=PICTURE_DELAY)
 
     def _page_ready(self, data):
-        """A page has built a view of the explorer (``data``: what its page code wrote in the
-        ``ready`` source, see :func:`phaselab.widgets.page.ready_source`). Send the current
-        document if it changed meanwhile; when the view is a rebuild (a reload, another tab),
-        send the picture again, so that the copy saved in that page's notebook shows the last
-        state, or, on a page without phaselab's JupyterLab plugin (widgets/page.py), say that
-        the copy there stays as it was."""
-        self.bokeh.refresh(send=True)
-        if self.bokeh.page_builds == 0 or self.picture.handle is None:
+        """A page has built a view of the explorer, or found that its view missed patches
+        (``data``: what its page code wrote in the ``ready`` source, see
+        :mod:`phaselab.widgets.page_sync`); the document is sent again where needed. When the
+        view is a rebuild (a reload, another tab), send the picture again, so that the copy
+        saved in that page's notebook shows the last state, or, on a page without phaselab's
+        JupyterLab plugin (widgets/page.py), say that the copy there stays as it was."""
+        self.bokeh.answer_page(data)
+        if self.bokeh.page_builds == 0 or self.picture.handle is None or (data.get("missed") or [0])[-1]:
             return
         keeper = data.get("keeper") or [0]
         if keeper[-1]:
