@@ -439,50 +439,50 @@ def test_the_picture_counts_a_new_orbit_and_the_slab(springs):
         e.close()
 
 
-def test_the_picture_is_scheduled_after_each_kind_of_change(springs):
+@pytest.fixture
+def scheduled(springs):
+    """A linked explorer whose picture redraws are counted (in the returned list)."""
     e = phaselab.explore(springs, energy=E0, plane=PLANE, crossings=CROSSINGS, background=False)
     calls = []
     e._schedule_picture = lambda: calls.append(1)
+    yield e, calls
+    e.close()
+
+
+def test_the_picture_is_scheduled_after_each_kind_of_change(scheduled):
+    e, calls = scheduled
 
     def changed(action):
         n = len(calls)
         action()
         assert len(calls) > n, action
 
-    try:
-        changed(lambda: e.add_seed(0.3, 0.25))                  # a new orbit
-        changed(lambda: e.add_seeds([(-0.2, 0.4), (0.1, 0.1)]))
-        changed(lambda: e.set_slab("x2", 0.0, 0.1))             # slab on, moved, off
-        changed(lambda: e.set_slab(center=0.05))
-        changed(e.clear_slab)
-        changed(lambda: e.set_color("p1"))                      # colouring
-        changed(lambda: e.set_color(None))
-        changed(lambda: e.set_energy(0.45))                     # the energy slider
-        changed(lambda: e.set_params(k=0.12))                   # a parameter slider
-        changed(e.undo)
-        changed(e.clear)
-        changed(lambda: setattr(e.figures.main.x_range, "start", -0.3))   # a zoom from the page
-    finally:
-        e.close()
+    changed(lambda: e.add_seed(0.3, 0.25))                  # a new orbit
+    changed(lambda: e.add_seeds([(-0.2, 0.4), (0.1, 0.1)]))
+    changed(lambda: e.set_slab("x2", 0.0, 0.1))             # slab on, moved, off
+    changed(lambda: e.set_slab(center=0.05))
+    changed(e.clear_slab)
+    changed(lambda: e.set_color("p1"))                      # colouring
+    changed(lambda: e.set_color(None))
+    changed(lambda: e.set_energy(0.45))                     # the energy slider
+    changed(lambda: e.set_params(k=0.12))                   # a parameter slider
+    changed(e.undo)
+    changed(e.clear)
+    changed(lambda: setattr(e.figures.main.x_range, "start", -0.3))   # a zoom from the page
 
 
-def test_a_page_building_the_linked_explorer_again_gets_the_picture_again_or_is_told(springs):
+def test_a_page_building_the_linked_explorer_again_gets_the_picture_again_or_is_told(scheduled):
     from phaselab.widgets import messages
 
-    e = phaselab.explore(springs, energy=E0, plane=PLANE, crossings=CROSSINGS, background=False)
-    calls = []
-    e._schedule_picture = lambda: calls.append(1)
-    try:
-        e.picture.handle = object()        # as after a display in a notebook
-        e._page_ready({"n": [1.0], "keeper": [1]})   # the first view: nothing more to do
-        assert calls == []
-        e.bokeh.get_state()                # what a reloaded page asks for
-        e.figures.sync.ready.data = {"n": [2.0], "keeper": [1]}   # written by the page: the plugin is there
-        assert calls == [1] and messages.PAGE_REBUILT not in e.status
-        e._page_ready({"n": [3.0], "keeper": [0]})   # a page without it
-        assert calls == [1] and messages.PAGE_REBUILT in e.status
-    finally:
-        e.close()
+    e, calls = scheduled
+    e.picture.handle = object()        # as after a display in a notebook
+    e._page_ready({"n": [1.0], "keeper": [1]})   # the first view: nothing more to do
+    assert calls == []
+    e.bokeh.get_state()                # what a reloaded page asks for
+    e.figures.sync.ready.data = {"n": [2.0], "keeper": [1]}   # written by the page: the plugin is there
+    assert calls == [1] and messages.PAGE_REBUILT not in e.status
+    e._page_ready({"n": [3.0], "keeper": [0]})   # a page without it
+    assert calls == [1] and messages.PAGE_REBUILT in e.status
 
 
 def test_the_picture_decodes_at_the_size_export_draws(springs):
