@@ -159,7 +159,8 @@ def _grid(fig, result, point_size):
 
 def _slab_text(result) -> str:
     s = result.slab
-    return f"slice: |{s['name']} - {s['center']:.6g}| < {s['half_width']:.3g} ({result.n_points} points)"
+    name = mathtext_label(s["name"])  # as the axes write it
+    return f"slice: |{name} - {s['center']:.6g}| < {s['half_width']:.3g} ({result.n_points} points)"
 
 
 def save_slice(result, path, **kwargs) -> Path:

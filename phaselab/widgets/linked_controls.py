@@ -28,8 +28,8 @@ class LinkedControls(Controls):
     ----------
     title, subtitle : str
     readout_id : str
-    coordinates : sequence of str
-        The section coordinates (names of the model).
+    coordinates : sequence of (str, str)
+        The section coordinates: (label as the axes write it, name of the model).
     style_rules : str
     """
 
@@ -37,7 +37,7 @@ class LinkedControls(Controls):
         super().__init__(title, subtitle, readout_id, style_rules)
         self.held: dict[str, W.FloatSlider] = {}
         self.slab_on = W.Checkbox(value=False, description="slab", indent=False, layout=W.Layout(width="64px"))
-        self.slab_name = W.Dropdown(options=list(coordinates), value=coordinates[-1], layout=W.Layout(width="90px"))
+        self.slab_name = W.Dropdown(options=list(coordinates), value=coordinates[-1][1], layout=W.Layout(width="90px"))
         self.slab_center = W.FloatSlider(value=0.0, min=-1.0, max=1.0, step=0.01, description="centre",
                                          readout_format=".4g", continuous_update=True,
                                          style={"description_width": "44px"}, layout=W.Layout(width="300px"))

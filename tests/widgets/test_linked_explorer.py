@@ -507,3 +507,18 @@ def test_the_picture_decodes_at_the_size_export_draws(springs):
         assert image.shape[:2] == (round(4.8 * PICTURE_DPI), round(6.0 * PICTURE_DPI))   # the slice: 6 x 4.8 in
     finally:
         e.close()
+
+
+def test_the_slab_menu_names_coordinates_as_the_axes_do():
+    """The slab's coordinate menu shows each coordinate as the axes and sliders write it
+    (p_b for a momentum named pb, conjugate to b), and still gives the model's name."""
+    H = phaselab.Hamiltonian("(pa**2 + pb**2 + pc**2)/2 + (a**2 + 1.3*b**2 + 0.8*c**2)/2 + 0.4*a*b*c",
+                             ["a", "b", "c"], ["pa", "pb", "pc"])
+    e = phaselab.explore(H, energy=0.3, plane={"c": 0.0}, crossings=20, background=False)
+    try:
+        options = e.controls.slab_name.options
+        assert [name for _, name in options] == list(e.view.coordinates)
+        assert all(label == e.view.label_of(name) for label, name in options)
+        assert ("p_b", "pb") in options and e.controls.slab_name.value == "pb"
+    finally:
+        e.close()

@@ -132,8 +132,8 @@ class LinkedExplorer(LinkedCommands, LinkedFiles, PictureKeeping, W.VBox):
         self.bokeh.add_class("pl-plot")
         self._wire_page_ready()
         self.picture = StaticPicture(self._uid)
-        self.controls = c = LinkedControls(self.name, self.view.describe(), f"pl-readout-{self._uid}", coords,
-                                           self.picture.hide_rule)
+        self.controls = c = LinkedControls(self.name, self.view.describe(), f"pl-readout-{self._uid}",
+                                           list(zip(self._labels, coords)), self.picture.hide_rule)
         self._add_controls(energy, o.get("energy_range"), p0)
         c.stem.value = f"{safe_stem(self.name)}-section"
         self.color_by = None

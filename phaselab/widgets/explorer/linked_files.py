@@ -78,7 +78,8 @@ class LinkedFiles(SessionButtons):
             return " (no orbits shown)"
         words = ""
         if self.slab is not None:
-            words += f", the slice |{self.slab.name} - {self.slab.center:.4g}| < {self.slab.half_width:.3g}"
+            label = self._labels[self.view.coordinates.index(self.slab.name)]   # as the axes write it
+            words += f", the slice |{label} - {self.slab.center:.4g}| < {self.slab.half_width:.3g}"
         if self.color_by is not None:
             by = (self.view.label_of(self.color_by) if self.color_by in self.view.coordinates
                   else scales.MENU_WORDS.get(self.color_by, self.color_by))
