@@ -71,7 +71,7 @@ _LAZY = {
     "set_limits": "phaselab.engine.limits",
 }
 
-__all__ = ["Hamiltonian", "PhaselabError", "ExpressionError", "ModelError", "ParameterError",
+__all__ = ["PhaselabError", "ExpressionError", "ModelError", "ParameterError",
            "IntegrationError", "StudyFileError", "DataFileError", "MissingExtraError", "PhaselabWarning",
            "__version__", *_LAZY]
 

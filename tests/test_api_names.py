@@ -163,3 +163,10 @@ def test_options_passed_by_position_are_refused():
         phaselab.trajectory(H, [0.1, 0.0], 1.0, 0.1)   # dt by position
     with pytest.raises(TypeError):
         phaselab.section(H, [[0.1, 0.0]], 5, {"q": 0.0})   # plane by position
+
+
+def test_the_public_names_are_listed_once_and_all_resolve():
+    # each public name once in __all__ (and so in dir(phaselab)), each one importable
+    assert len(phaselab.__all__) == len(set(phaselab.__all__))
+    assert dir(phaselab) == sorted(set(dir(phaselab)))
+    assert all(getattr(phaselab, name, None) is not None for name in phaselab.__all__)
