@@ -31,13 +31,13 @@ class PictureKeeping:
     """Showing, scheduling, drawing and resending the kept picture.
 
     The explorer provides ``picture`` (a StaticPicture), ``jobs`` and ``picture_jobs``
-    (JobRunners: the picture's own, so it never waits behind a compile), ``bokeh`` (a LiveBokehModel), ``name``, ``_loop``, ``_say(text, refused)``
-    and ``_picture_job()``.
+    (JobRunners: the picture's own, so it never waits behind a compile), ``bokeh`` (a
+    LiveBokehModel), ``name``, ``_loop``, ``_say(text, refused)`` and ``_picture_job()``.
     """
 
     def _show_picture(self):
-        """Display the picture's output (an output of its own, next to the widget's) and draw it after a
-        quiet spell."""
+        """Display the picture's output (an output of its own, next to the widget's) and draw
+        it after a quiet spell."""
         self.picture.show()
         self._schedule_picture()
 
